@@ -1,0 +1,5 @@
+import sys
+
+from trueband.bridge.cli import main
+
+sys.exit(main())

@@ -1,0 +1,71 @@
+"""The ``trueband`` command.
+
+Each group of subcommands lives in its own module with a ``register(subparsers)``
+function that adds its parsers and sets ``handler`` on each; this module only
+assembles them and maps outcomes to exit codes that scripts can rely on:
+
+====  ===========================================================
+code  meaning
+====  ===========================================================
+0     done; every value computed
+1     done, but some values are spreadsheet errors (listed)
+2     nothing done: bad usage or unusable input (one line says why)
+130   interrupted (Ctrl-C); inputs are left as they were
+====  ===========================================================
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+
+EXIT_OK = 0
+EXIT_CELL_ERRORS = 1
+EXIT_FAILED = 2
+EXIT_INTERRUPTED = 130
+
+#: Modules that add subcommands, in the order they appear in ``--help``.
+COMMAND_MODULES = (
+    "trueband.bridge.cmd_catalog",
+)
+
+
+class CommandError(Exception):
+    """A problem that ends a command with one clear line and exit status 2."""
+
+
+def build_parser() -> argparse.ArgumentParser:
+    from trueband.funcs import __version__
+
+    parser = argparse.ArgumentParser(
+        prog="trueband",
+        description="Tested reliability, validity, score-band, cut-score and adverse-impact functions "
+                    "for hiring-test spreadsheets. The figures are statistical indicators to support "
+                    "professional judgment, not legal findings.")
+    parser.add_argument("--version", action="version", version=f"trueband {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    sub.required = True
+    for name in COMMAND_MODULES:
+        importlib.import_module(name).register(sub)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return int(args.handler(args) or EXIT_OK)
+    except CommandError as exc:
+        print(f"trueband {args.command}: {exc}", file=sys.stderr)
+        return EXIT_FAILED
+    except BrokenPipeError:  # output piped into `head` and the like
+        sys.stderr.close()
+        return EXIT_OK
+    except KeyboardInterrupt:
+        print(f"trueband {args.command}: interrupted; inputs are unchanged", file=sys.stderr)
+        return EXIT_INTERRUPTED
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,173 @@
+"""The registered functions as functions of the ``formulas`` engine.
+
+``formulas`` parses spreadsheet formulas and evaluates the standard functions;
+:func:`install` adds every function of the registry to its function table
+(under its name and under each prefix that spreadsheet apps put before
+functions they do not know, such as ``_xludf.``), so one engine evaluates a
+formula that mixes both. Nothing here knows any single function.
+
+Argument conversion, from what the engine passes to what the registry takes:
+
+* a range or array literal of a *range* argument becomes nested rows with
+  ``None`` for empty cells; an error cell inside it makes the result that
+  error (as spreadsheet functions do);
+* a *scalar* argument given as a one-cell range is that cell; a larger range
+  is ``#VALUE!``; an error value passes through as the result;
+* a project error becomes the engine's error value of the same code, and its
+  message is kept in :data:`ERROR_LOG` for the caller to report.
+"""
+
+from __future__ import annotations
+
+import logging
+import threading
+from typing import Callable
+
+import numpy as np
+import formulas
+import schedula
+from formulas.functions import Error, XlError
+
+from trueband.funcs.errors import ArgumentTypeError, TruebandError, error_for_code
+from trueband.funcs.registry import NAME_PREFIXES, REGISTRY, SpreadsheetFunction
+
+__all__ = ["install", "BUILTIN_NAMES", "ERROR_LOG", "evaluate_expression", "to_engine_error", "UnreadableFormula",
+           "message_for"]
+
+# The engine logs every failing function with a traceback; errors are values here.
+logging.getLogger("schedula").setLevel(logging.CRITICAL)
+logging.getLogger("formulas").setLevel(logging.CRITICAL)
+
+#: Names of the standard functions the engine knows, taken before ours are added.
+BUILTIN_NAMES = frozenset(formulas.get_functions())
+
+
+class _ErrorLog(threading.local):
+    """Per-thread list of (function name, project error) seen since the last ``clear``."""
+
+    def __init__(self):
+        self.entries: list[tuple[str, TruebandError]] = []
+
+    def clear(self):
+        self.entries = []
+
+
+ERROR_LOG = _ErrorLog()
+
+
+def to_engine_error(exc: TruebandError) -> XlError:
+    """The engine's error value for a project error."""
+    return Error.errors.get(exc.code, Error.errors["#VALUE!"])
+
+
+class UnreadableFormula(TruebandError):
+    """A formula that cannot be parsed, or that cannot be evaluated without a workbook."""
+
+
+class _PassError(Exception):
+    def __init__(self, value: XlError):
+        self.value = value
+
+
+def _cell(value):
+    if value is schedula.EMPTY:
+        return None
+    if isinstance(value, XlError):
+        raise _PassError(value)
+    if isinstance(value, np.generic):
+        return value.item()
+    return value
+
+
+def _range_arg(value):
+    if not isinstance(value, np.ndarray):
+        return [[_cell(value)]]
+    arr = np.atleast_2d(np.asarray(value, dtype=object))
+    return [[_cell(x) for x in row] for row in arr]
+
+
+def _scalar_arg(value, name: str):
+    if isinstance(value, np.ndarray):
+        if value.size != 1:
+            raise ArgumentTypeError(f"{name} must be a single value, got a range of {value.size} cells", argument=name)
+        value = value.ravel()[0]
+    return _cell(value)
+
+
+def adapter(spec: SpreadsheetFunction) -> Callable:
+    """The engine-side function for one registered function."""
+    arguments = spec.arguments
+
+    def engine_function(*args):
+        try:
+            converted = []
+            for i, value in enumerate(args):
+                if i < len(arguments) and arguments[i].kind == "range":
+                    converted.append(_range_arg(value))
+                else:
+                    converted.append(_scalar_arg(value, arguments[i].name if i < len(arguments) else "argument"))
+            result = spec(*converted)
+        except _PassError as passed:
+            return passed.value
+        except TruebandError as exc:
+            ERROR_LOG.entries.append((spec.name, exc))
+            return to_engine_error(exc)
+        return result
+
+    engine_function.__name__ = spec.name
+    engine_function.spreadsheet = spec
+    return engine_function
+
+
+def message_for(name: str, exc: TruebandError) -> str:
+    """A message that names the function once."""
+    return exc.message if exc.message.startswith(name) else f"{name}: {exc.message}"
+
+
+def install(table: dict | None = None) -> dict:
+    """Add every registered function (and its prefixed aliases) to the engine's table."""
+    table = formulas.get_functions() if table is None else table
+    for name, spec in REGISTRY.items():
+        fn = adapter(spec)
+        table[name] = fn
+        for prefix in NAME_PREFIXES:
+            table[prefix + name] = fn
+    return table
+
+
+def evaluate_expression(expression: str):
+    """Evaluate one formula of literal arguments, e.g. ``=SEM(12, 0.91)``.
+
+    Returns the value; raises the project error of a failing registered
+    function (with its message), or :class:`UnreadableFormula` for a formula
+    that cannot be evaluated here.
+    """
+    install()
+    text = expression.strip()
+    if not text.startswith("="):
+        text = "=" + text
+    ERROR_LOG.clear()  # before compiling: the engine folds constant calls at compile time
+    try:
+        fn = formulas.Parser().ast(text)[1].compile()
+    except Exception as exc:  # the parser's own exception types vary by version
+        raise UnreadableFormula(f"cannot read the formula {expression!r}: {exc}") from None
+    if fn.inputs:
+        refs = ", ".join(fn.inputs)
+        raise UnreadableFormula(f"eval takes literal arguments only; the formula refers to {refs}")
+    try:
+        value = fn()
+    except schedula.DispatcherError as exc:
+        cause = exc.args[2] if len(exc.args) > 2 else exc
+        if isinstance(cause, NotImplementedError):
+            raise error_for_code("#NAME?", f"the formula uses a function that is not available: {expression}") from None
+        raise UnreadableFormula(f"cannot evaluate {expression!r}: {cause!r}") from None
+    if isinstance(value, np.ndarray):
+        value = value.ravel()[0] if value.size == 1 else value.tolist()
+    if isinstance(value, XlError):
+        if ERROR_LOG.entries:
+            name, err = ERROR_LOG.entries[-1]
+            raise error_for_code(str(value), message_for(name, err), argument=err.argument)
+        raise error_for_code(str(value), f"the formula evaluates to {value}")
+    if isinstance(value, np.generic):
+        value = value.item()
+    return value

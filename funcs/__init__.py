@@ -1,0 +1,41 @@
+"""trueband's functions: the math behind the spreadsheet.
+
+Importing this package registers every spreadsheet function; call one by its
+spreadsheet name with :func:`call`, or import its Python function from the
+topic module:
+
+=================  ==================================================
+module             topic
+=================  ==================================================
+``scores``         measurement error and score interpretation
+``reliability``    reliability from item data, item analysis
+``agreement``      rater agreement
+``validity``       validity coefficients and their corrections
+``utility``        selection utility
+``impact``         adverse impact
+``cutscores``      cut-score setting
+=================  ==================================================
+
+>>> from trueband.funcs import call
+>>> round(call("SEM", 12, 0.91), 12)
+3.6
+"""
+
+from importlib import metadata as _metadata
+
+from . import agreement, cutscores, impact, reliability, scores, utility, validity  # noqa: F401  (registers)
+from .errors import (  # noqa: F401
+    ArgumentCountError,
+    ArgumentTypeError,
+    DomainError,
+    InsufficientDataError,
+    TruebandError,
+    UnknownFunctionError,
+    ZeroVarianceError,
+)
+from .registry import REGISTRY, call, call_column, catalog, lookup  # noqa: F401
+
+try:
+    __version__ = _metadata.version("trueband")
+except _metadata.PackageNotFoundError:  # running from a source tree that was never installed
+    __version__ = "0+unknown"

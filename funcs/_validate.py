@@ -1,0 +1,319 @@
+"""Input checks shared by every function module.
+
+Scalar checks accept a Python number or, on the vectorised column path, a
+float array; they return the value as ``float`` (or the array) and raise the
+project's errors with the argument's name and the offending value.
+
+Range helpers turn what a spreadsheet hands over (nested rows of numbers,
+``None`` for blanks, sometimes text) into numpy arrays:
+
+* blanks (``None``, the empty string, ``nan``) become ``nan`` in numeric
+  ranges and ``None`` in label ranges; each function documents what it does
+  with them (listwise deletion, pairwise use, ...);
+* text and logical values in a numeric range are refused with the row and
+  column of the first one (spreadsheet statistics skip them silently, which
+  hides data errors, so we do not).
+"""
+
+from __future__ import annotations
+
+import math
+import numbers
+from typing import Iterable, NewType
+
+import numpy as np
+
+from .errors import (
+    ArgumentTypeError,
+    DomainError,
+    InsufficientDataError,
+    ZeroVarianceError,
+)
+
+#: Annotation marking a range argument: 2-D data as a spreadsheet gives it.
+Range = NewType("Range", object)
+
+
+def show(value) -> str:
+    """A value as it is echoed in a message."""
+    if isinstance(value, (bool, np.bool_)):
+        return "TRUE" if value else "FALSE"
+    if isinstance(value, numbers.Real):
+        value = float(value)
+        if value.is_integer() and abs(value) < 1e15:
+            return str(int(value))
+        return format(value, ".15g")
+    if isinstance(value, str):
+        return f'"{value}"'
+    if value is None:
+        return "a blank"
+    return type(value).__name__
+
+
+def _first(array: np.ndarray, mask: np.ndarray):
+    return array[mask].flat[0]
+
+
+# ---------------------------------------------------------------- scalars
+
+def number(name: str, value):
+    """A finite real number (float), or a float array on the column path."""
+    if isinstance(value, np.ndarray) and value.dtype.kind in "fiu":
+        value = value.astype(float, copy=False)
+        bad = ~np.isfinite(value)
+        if bad.any():
+            raise DomainError(f"{name} must be a finite number, got {show(_first(value, bad))}", argument=name)
+        return value
+    if isinstance(value, np.ndarray) and value.ndim == 0:
+        value = value.item()
+    if value is None or (isinstance(value, str) and value == ""):
+        raise ArgumentTypeError(f"{name} is blank; it must be a number", argument=name)
+    if isinstance(value, (bool, np.bool_)) or not isinstance(value, numbers.Real):
+        kind = "a logical value" if isinstance(value, (bool, np.bool_)) else (
+            f"text {show(value)}" if isinstance(value, str) else
+            "a range" if isinstance(value, (list, tuple, np.ndarray)) else show(value))
+        raise ArgumentTypeError(f"{name} must be a number, got {kind}", argument=name)
+    value = float(value)
+    if not math.isfinite(value):
+        raise DomainError(f"{name} must be a finite number, got {show(value)}", argument=name)
+    return value
+
+
+def integer(name: str, value):
+    """A whole number, given as an int or as a float with no fraction."""
+    value = number(name, value)
+    frac = np.asarray(value) != np.round(value)
+    if frac.any():
+        raise DomainError(f"{name} must be a whole number, got {show(_first(np.asarray(value), frac))}", argument=name)
+    if isinstance(value, np.ndarray):
+        return value
+    return int(value)
+
+
+def boolean(name: str, value) -> bool:
+    """A logical value (TRUE/FALSE); numbers 0 and 1 are accepted as in spreadsheets."""
+    if isinstance(value, np.ndarray) and value.ndim == 0:
+        value = value.item()
+    if isinstance(value, (bool, np.bool_)):
+        return bool(value)
+    if isinstance(value, numbers.Real) and float(value) in (0.0, 1.0):
+        return bool(value)
+    if isinstance(value, str) and value.strip().upper() in ("TRUE", "FALSE"):
+        return value.strip().upper() == "TRUE"
+    raise ArgumentTypeError(f"{name} must be TRUE or FALSE, got {show(value)}", argument=name)
+
+
+def choice(name: str, value, options: Iterable[str]) -> str:
+    """One of a fixed set of words, matched without regard to case or surrounding spaces."""
+    options = tuple(options)
+    if isinstance(value, np.ndarray) and value.ndim == 0:
+        value = value.item()
+    if not isinstance(value, str):
+        raise ArgumentTypeError(
+            f"{name} must be one of {', '.join(show(o) for o in options)}, got {show(value)}", argument=name)
+    key = value.strip().lower()
+    for option in options:
+        if option.lower() == key:
+            return option
+    raise DomainError(
+        f"{name} must be one of {', '.join(show(o) for o in options)}, got {show(value)}", argument=name)
+
+
+def text(name: str, value) -> str:
+    """Any text."""
+    if not isinstance(value, str):
+        raise ArgumentTypeError(f"{name} must be text, got {show(value)}", argument=name)
+    return value
+
+
+# ---------------------------------------------------------------- domains
+
+def between(name: str, value, low: float, high: float, *, low_open: bool = False, high_open: bool = False):
+    """``low <= value <= high``, with either end excluded on request."""
+    arr = np.asarray(value)
+    bad = (arr <= low if low_open else arr < low) | (arr >= high if high_open else arr > high)
+    if bad.any():
+        lo = "greater than" if low_open else "at least"
+        hi = "less than" if high_open else "at most"
+        if not low_open and not high_open:
+            rule = f"between {show(low)} and {show(high)}"
+        else:
+            rule = f"{lo} {show(low)} and {hi} {show(high)}"
+        raise DomainError(f"{name} must be {rule}, got {show(_first(arr, bad))}", argument=name)
+    return value
+
+
+def positive(name: str, value):
+    """``value > 0``."""
+    arr = np.asarray(value)
+    bad = arr <= 0
+    if bad.any():
+        raise DomainError(f"{name} must be greater than 0, got {show(_first(arr, bad))}", argument=name)
+    return value
+
+
+def at_least(name: str, value, low: float):
+    """``value >= low``."""
+    arr = np.asarray(value)
+    bad = arr < low
+    if bad.any():
+        raise DomainError(f"{name} must be at least {show(low)}, got {show(_first(arr, bad))}", argument=name)
+    return value
+
+
+def confidence(name: str, value):
+    """A confidence level strictly between 0 and 1 (0.95 for 95%)."""
+    return between(name, value, 0.0, 1.0, low_open=True, high_open=True)
+
+
+def reliability(name: str, value, *, allow_zero: bool = True, allow_one: bool = True):
+    """A reliability coefficient in [0, 1] (ends excluded on request)."""
+    return between(name, value, 0.0, 1.0, low_open=not allow_zero, high_open=not allow_one)
+
+
+def nonzero_variance(name: str, variance, what: str = "variance"):
+    """Refuse a zero (or numerically zero) variance that a method divides by."""
+    arr = np.asarray(variance)
+    if (arr <= 0).any():
+        raise ZeroVarianceError(f"{name} has zero {what}; the coefficient is undefined", argument=name)
+    return variance
+
+
+# ---------------------------------------------------------------- ranges
+
+def _as_rows(name: str, value) -> np.ndarray:
+    """Any range-like input as a 2-D array (object dtype unless already numeric)."""
+    if isinstance(value, np.ndarray):
+        arr = value
+    elif isinstance(value, (list, tuple)):
+        if len(value) == 0:
+            raise InsufficientDataError(f"{name} is empty", argument=name)
+        if all(isinstance(row, (list, tuple, np.ndarray)) for row in value):
+            widths = {len(row) for row in value}
+            if len(widths) != 1:
+                raise ArgumentTypeError(f"{name} must be a rectangular range; its rows have different lengths", argument=name)
+            arr = np.empty((len(value), widths.pop()), dtype=object)
+            for i, row in enumerate(value):
+                arr[i, :] = list(row)
+        elif any(isinstance(row, (list, tuple, np.ndarray)) for row in value):
+            raise ArgumentTypeError(f"{name} must be a rectangular range; it mixes rows and single cells", argument=name)
+        else:
+            # a flat list is one column of cells
+            arr = np.empty((len(value), 1), dtype=object)
+            arr[:, 0] = list(value)
+    else:
+        arr = np.empty((1, 1), dtype=object)
+        arr[0, 0] = value
+    if arr.ndim == 1:
+        arr = arr.reshape(-1, 1)
+    if arr.ndim != 2:
+        raise ArgumentTypeError(f"{name} must be a 2-D range, got {arr.ndim} dimensions", argument=name)
+    if arr.size == 0:
+        raise InsufficientDataError(f"{name} is empty", argument=name)
+    return arr
+
+
+def _is_blank(cell) -> bool:
+    return cell is None or (isinstance(cell, str) and cell.strip() == "") or (
+        isinstance(cell, float) and math.isnan(cell))
+
+
+def numeric_matrix(name: str, value) -> np.ndarray:
+    """A range of numbers as a 2-D float array; blanks become ``nan``.
+
+    Text, logical values and infinities are refused, naming the first such
+    cell by its 1-based row and column within the range.
+    """
+    arr = _as_rows(name, value)
+    if arr.dtype.kind in "fiu":
+        out = arr.astype(float)
+        inf = np.isinf(out)
+        if inf.any():
+            r, c = np.argwhere(inf)[0]
+            raise DomainError(f"{name} holds an infinite value at row {r + 1}, column {c + 1}", argument=name)
+        return out
+    if arr.dtype.kind == "b":
+        raise ArgumentTypeError(f"{name} must hold numbers, got logical values", argument=name)
+    flat = arr.ravel()
+    out = np.empty(flat.shape, dtype=float)
+    for k, cell in enumerate(flat):
+        if _is_blank(cell):
+            out[k] = np.nan
+        elif isinstance(cell, numbers.Real) and not isinstance(cell, (bool, np.bool_)):
+            out[k] = float(cell)
+            if math.isinf(out[k]):
+                r, c = divmod(k, arr.shape[1])
+                raise DomainError(f"{name} holds an infinite value at row {r + 1}, column {c + 1}", argument=name)
+        else:
+            r, c = divmod(k, arr.shape[1])
+            what = "a logical value" if isinstance(cell, (bool, np.bool_)) else (
+                f"text {show(cell)}" if isinstance(cell, str) else show(cell))
+            raise ArgumentTypeError(
+                f"{name} must hold numbers only; found {what} at row {r + 1}, column {c + 1}", argument=name)
+    return out.reshape(arr.shape)
+
+
+def numeric_vector(name: str, value) -> np.ndarray:
+    """A single row or column of numbers as a 1-D float array; blanks become ``nan``."""
+    m = numeric_matrix(name, value)
+    if m.shape[0] != 1 and m.shape[1] != 1:
+        raise ArgumentTypeError(
+            f"{name} must be a single row or column, got {m.shape[0]} rows by {m.shape[1]} columns", argument=name)
+    return m.ravel()
+
+
+def label_matrix(name: str, value) -> np.ndarray:
+    """A range of category labels (numbers or text) as a 2-D object array; blanks become ``None``.
+
+    Numbers are stored as floats (so 1 and 1.0 are one category); text is
+    stripped of surrounding spaces; logical values are refused.
+    """
+    arr = _as_rows(name, value)
+    out = np.empty(arr.shape, dtype=object)
+    for k, cell in enumerate(arr.ravel()):
+        r, c = divmod(k, arr.shape[1])
+        if _is_blank(cell):
+            out[r, c] = None
+        elif isinstance(cell, (bool, np.bool_)):
+            raise ArgumentTypeError(
+                f"{name} must hold category labels (numbers or text); found a logical value at row {r + 1}, "
+                f"column {c + 1}", argument=name)
+        elif isinstance(cell, numbers.Real):
+            if not math.isfinite(float(cell)):
+                raise DomainError(f"{name} holds an infinite value at row {r + 1}, column {c + 1}", argument=name)
+            out[r, c] = float(cell)
+        elif isinstance(cell, str):
+            out[r, c] = cell.strip()
+        else:
+            raise ArgumentTypeError(
+                f"{name} must hold category labels; found {show(cell)} at row {r + 1}, column {c + 1}", argument=name)
+    return out
+
+
+def label_vector(name: str, value) -> np.ndarray:
+    """A single row or column of category labels as a 1-D object array."""
+    m = label_matrix(name, value)
+    if m.shape[0] != 1 and m.shape[1] != 1:
+        raise ArgumentTypeError(
+            f"{name} must be a single row or column, got {m.shape[0]} rows by {m.shape[1]} columns", argument=name)
+    return m.ravel()
+
+
+def complete_rows(name: str, matrix: np.ndarray, *, min_rows: int, min_columns: int = 1) -> np.ndarray:
+    """Listwise deletion: keep the rows with no blank, and insist on enough of them."""
+    if matrix.shape[1] < min_columns:
+        raise InsufficientDataError(
+            f"{name} needs at least {min_columns} columns, got {matrix.shape[1]}", argument=name)
+    keep = ~np.isnan(matrix).any(axis=1)
+    kept = matrix[keep] if not keep.all() else matrix
+    if kept.shape[0] < min_rows:
+        raise InsufficientDataError(
+            f"{name} needs at least {min_rows} complete rows, got {kept.shape[0]}", argument=name)
+    return kept
+
+
+def column_index(name: str, value, n_columns: int) -> int:
+    """A 1-based column number within a range, returned 0-based."""
+    value = integer(name, value)
+    between(name, value, 1, n_columns)
+    return int(value) - 1

@@ -1,0 +1,1 @@
+"""agreement: functions are added here by their issue."""

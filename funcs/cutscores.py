@@ -1,0 +1,1 @@
+"""cutscores: functions are added here by their issue."""

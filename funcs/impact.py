@@ -1,0 +1,1 @@
+"""impact: functions are added here by their issue."""

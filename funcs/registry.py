@@ -1,0 +1,420 @@
+"""The one registry of spreadsheet functions.
+
+Every spreadsheet-facing function is a plain Python function in a topic module
+(:mod:`~trueband.funcs.scores`, :mod:`~trueband.funcs.reliability`, ...)
+decorated once with :func:`spreadsheet`. The decorator reads everything else
+from the function itself:
+
+* the arguments, their order, which are optional and their defaults: from the
+  signature (spreadsheet order is signature order, keyword-only options
+  included);
+* each argument's kind: from its annotation (``float`` number, ``int`` whole
+  number, ``bool`` logical, ``Literal[...]`` one of some words, ``Range`` a
+  2-D range);
+* the one-line description and each argument's description: from the
+  numpydoc docstring.
+
+The workbook processor, the HTTP bridge, the CLI catalog and the generated
+docs all read :data:`REGISTRY`; none of them knows any single function.
+
+Calling through the registry (or the decorated function directly) converts
+scalar arguments to their kinds with the project's messages, fills defaults
+for blank optional arguments, and checks the result: a non-finite number
+never leaves a function silently.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import functools
+import inspect
+import math
+import re
+import typing
+from typing import Any, Callable, Literal, Mapping, Sequence
+
+import numpy as np
+
+from . import _validate as v
+from .errors import ArgumentCountError, ArgumentTypeError, DomainError, TruebandError, UnknownFunctionError
+
+__all__ = [
+    "Argument",
+    "SpreadsheetFunction",
+    "REGISTRY",
+    "RESULT_KINDS",
+    "spreadsheet",
+    "lookup",
+    "call",
+    "call_column",
+    "catalog",
+    "normalize_name",
+    "NAME_PREFIXES",
+]
+
+REQUIRED = inspect.Parameter.empty
+
+#: Result kinds: Python type and the closed range every result must lie in.
+RESULT_KINDS: dict[str, tuple[type, float | None, float | None]] = {
+    "number": (float, None, None),
+    "nonnegative number": (float, 0.0, None),
+    "proportion": (float, 0.0, 1.0),
+    "probability": (float, 0.0, 1.0),
+    "correlation": (float, -1.0, 1.0),
+    "coefficient": (float, None, 1.0),  # reliabilities and agreement indices: at most 1, may be negative
+    "percent": (float, 0.0, 100.0),
+    "positive integer": (int, 1, None),
+    "integer": (int, None, None),
+    "boolean": (bool, None, None),
+}
+
+#: Prefixes that spreadsheet apps put before function names they do not know.
+NAME_PREFIXES = ("_XLUDF.", "_XLFN._XLWS.", "_XLFN.", "_XLWS.", "COM.MICROSOFT.", "ORG.OPENOFFICE.")
+
+
+@dataclasses.dataclass(frozen=True)
+class Argument:
+    name: str
+    kind: str  # "number", "integer", "boolean", "text", "range"
+    default: Any = REQUIRED
+    choices: tuple[str, ...] | None = None
+    description: str = ""
+
+    @property
+    def required(self) -> bool:
+        return self.default is REQUIRED
+
+    def to_dict(self) -> dict:
+        d: dict[str, Any] = {"name": self.name, "kind": self.kind}
+        if not self.required:
+            d["default"] = self.default
+        if self.choices:
+            d["choices"] = list(self.choices)
+        if self.description:
+            d["description"] = self.description
+        return d
+
+    def coerce(self, value):
+        """Convert a scalar argument to its kind (ranges pass through to the function)."""
+        if self.kind == "range":
+            if value is None:
+                raise ArgumentTypeError(f"{self.name} is blank; it must be a range", argument=self.name)
+            return value
+        if self.kind == "number":
+            return v.number(self.name, value)
+        if self.kind == "integer":
+            return v.integer(self.name, value)
+        if self.kind == "boolean":
+            return v.boolean(self.name, value)
+        if self.choices:
+            return v.choice(self.name, value, self.choices)
+        return v.text(self.name, value)
+
+
+@dataclasses.dataclass(frozen=True)
+class SpreadsheetFunction:
+    name: str
+    body: Callable  # the undecorated function (used with arrays on the column path)
+    arguments: tuple[Argument, ...]
+    returns: str
+    description: str
+    reference: str
+    elementwise: frozenset[str]  # number arguments the body accepts as float arrays
+    topic: str
+    python_name: str
+
+    @property
+    def min_args(self) -> int:
+        return sum(a.required for a in self.arguments)
+
+    @property
+    def max_args(self) -> int:
+        return len(self.arguments)
+
+    @property
+    def signature(self) -> str:
+        parts = [a.name if a.required else f"[{a.name}]" for a in self.arguments]
+        return f"{self.name}({', '.join(parts)})"
+
+    def bind(self, args: Sequence = (), kwargs: Mapping | None = None) -> dict:
+        """Positional spreadsheet arguments (and/or named ones) as a name → value map."""
+        kwargs = dict(kwargs or {})
+        if len(args) > self.max_args:
+            raise ArgumentCountError(
+                f"{self.name} takes at most {self.max_args} arguments, got {len(args)}: {self.signature}")
+        names = [a.name for a in self.arguments]
+        bound = dict(zip(names, args))
+        for key, value in kwargs.items():
+            if key not in names:
+                raise ArgumentCountError(f"{self.name} has no argument named {key!r}: {self.signature}", argument=key)
+            if key in bound:
+                raise ArgumentCountError(f"{self.name} got {key} twice", argument=key)
+            bound[key] = value
+        for arg in self.arguments:
+            if bound.get(arg.name) is None and not arg.required:
+                bound[arg.name] = arg.default  # a blank optional argument takes its default
+            elif arg.name not in bound:
+                raise ArgumentCountError(
+                    f"{self.name} needs {arg.name} (at least {self.min_args} arguments): {self.signature}",
+                    argument=arg.name)
+        return bound
+
+    def coerced(self, bound: Mapping) -> dict:
+        return {a.name: a.coerce(bound[a.name]) for a in self.arguments}
+
+    def check_result(self, value):
+        """Convert a result to its declared kind and refuse non-finite or out-of-range values."""
+        kind, low, high = RESULT_KINDS[self.returns]
+        if kind is bool:
+            return bool(value)
+        if isinstance(value, np.ndarray):
+            value = value.item() if value.ndim == 0 else value
+        try:
+            x = float(value)
+        except (TypeError, ValueError):
+            raise TypeError(f"{self.name} returned {type(value).__name__}, not a number") from None
+        if not math.isfinite(x):
+            raise DomainError(f"{self.name} has no finite result for these inputs")
+        # A result a rounding error outside its closed range is clipped; a real excursion is a bug.
+        if low is not None and x < low:
+            if x < low - 1e-9:
+                raise AssertionError(f"{self.name} returned {x}, below its range {low}")
+            x = low
+        if high is not None and x > high:
+            if x > high + 1e-9:
+                raise AssertionError(f"{self.name} returned {x}, above its range {high}")
+            x = high
+        return int(round(x)) if kind is int else x
+
+    def check_results(self, values: np.ndarray) -> list:
+        """:meth:`check_result` for a whole array at once (the column path)."""
+        kind, low, high = RESULT_KINDS[self.returns]
+        if kind is bool:
+            return np.asarray(values, dtype=bool).tolist()
+        x = np.asarray(values, dtype=float)
+        if not np.isfinite(x).all():
+            raise DomainError(f"{self.name} has no finite result for these inputs")
+        if (low is not None and (x < low - 1e-9).any()) or (high is not None and (x > high + 1e-9).any()):
+            raise AssertionError(f"{self.name} returned a value outside its range [{low}, {high}]")
+        if low is not None or high is not None:
+            x = np.clip(x, low, high)
+        return np.rint(x).astype(int).tolist() if kind is int else x.tolist()
+
+    def __call__(self, *args, **kwargs):
+        bound = self.bind(args, kwargs)
+        with np.errstate(all="ignore"):  # overflow and the like surface as a non-finite result, refused below
+            value = self.body(**self.coerced(bound))
+        return self.check_result(value)
+
+    def to_dict(self) -> dict:
+        return {
+            "name": self.name,
+            "arguments": [a.to_dict() for a in self.arguments],
+            "returns": self.returns,
+            "description": self.description,
+            "reference": self.reference,
+            "topic": self.topic,
+            "python": self.python_name,
+            "elementwise": sorted(self.elementwise),
+        }
+
+
+REGISTRY: dict[str, SpreadsheetFunction] = {}
+
+_KIND_OF = {float: "number", int: "integer", bool: "boolean", str: "text", v.Range: "range"}
+
+
+def _argument_docs(doc: str) -> dict[str, str]:
+    """First sentence of each entry in a numpydoc ``Parameters`` section."""
+    m = re.search(r"^\s*Parameters\s*\n\s*-{3,}\s*\n(.*?)(?:\n\s*\n\s*[A-Z][A-Za-z ]+\n\s*-{3,}|\Z)", doc, re.S | re.M)
+    if not m:
+        return {}
+    out: dict[str, list[str]] = {}
+    current = None
+    lines = m.group(1).splitlines()
+    base = min((len(l) - len(l.lstrip()) for l in lines if l.strip()), default=0)
+    for line in lines:
+        if not line.strip():
+            current = None
+            continue
+        indent = len(line) - len(line.lstrip())
+        if indent == base:
+            current = line.split(":")[0].strip()
+            out[current] = []
+        elif current:
+            out[current].append(line.strip())
+    result = {}
+    for name, words in out.items():
+        text = " ".join(words)
+        first = re.split(r"(?<=[.;])\s", text, maxsplit=1)[0]
+        result[name] = first.rstrip(".;")
+    return result
+
+
+def _kind(annotation) -> tuple[str, tuple[str, ...] | None]:
+    if typing.get_origin(annotation) is Literal:
+        return "text", tuple(typing.get_args(annotation))
+    try:
+        return _KIND_OF[annotation], None
+    except KeyError:
+        raise TypeError(f"unsupported argument annotation {annotation!r}") from None
+
+
+def spreadsheet(name: str, *, returns: str, reference: str, elementwise: bool | Sequence[str] = False):
+    """Register a function under its spreadsheet name.
+
+    ``returns`` is a key of :data:`RESULT_KINDS`; ``reference`` the published
+    source of the method; ``elementwise`` says the function body accepts float
+    arrays (numpy broadcasting) for all its number arguments (``True``) or
+    for the ones named, so a whole column can be computed in one call.
+    """
+    if name != name.upper() or not re.fullmatch(r"[A-Z][A-Z0-9_]*", name):
+        raise ValueError(f"spreadsheet names are UPPER_CASE words, got {name!r}")
+    if returns not in RESULT_KINDS:
+        raise ValueError(f"unknown result kind {returns!r}")
+
+    def decorate(body: Callable) -> Callable:
+        if name in REGISTRY:
+            raise ValueError(f"{name} is registered twice")
+        hints = typing.get_type_hints(body)
+        doc = inspect.getdoc(body) or ""
+        arg_docs = _argument_docs(doc)
+        arguments = []
+        for p in inspect.signature(body).parameters.values():
+            kind, choices = _kind(hints[p.name])
+            arguments.append(Argument(p.name, kind, p.default, choices, arg_docs.get(p.name, "")))
+        description = doc.split("\n\n")[0].replace("\n", " ").strip()
+        numbers = {a.name for a in arguments if a.kind == "number"}
+        vector = numbers if elementwise is True else set(elementwise or ())
+        if not vector <= numbers:
+            raise ValueError(f"{name}: elementwise arguments must be number arguments, got {sorted(vector - numbers)}")
+        spec = SpreadsheetFunction(
+            name=name, body=body, arguments=tuple(arguments), returns=returns,
+            description=description, reference=reference, elementwise=frozenset(vector),
+            topic=body.__module__.rsplit(".", 1)[-1], python_name=body.__name__)
+        REGISTRY[name] = spec
+
+        @functools.wraps(body)
+        def wrapper(*args, **kwargs):
+            return spec(*args, **kwargs)
+
+        wrapper.spreadsheet = spec
+        return wrapper
+
+    return decorate
+
+
+def normalize_name(name: str) -> str:
+    """Upper-case a function name and strip the prefixes spreadsheet apps add."""
+    key = name.strip().upper()
+    for prefix in NAME_PREFIXES:
+        if key.startswith(prefix):
+            key = key[len(prefix):]
+            break
+    return key
+
+
+def lookup(name: str) -> SpreadsheetFunction:
+    """The registered function of that spreadsheet name (any case, any app prefix)."""
+    if not isinstance(name, str):
+        raise UnknownFunctionError(f"function name must be text, got {v.show(name)}")
+    try:
+        return REGISTRY[normalize_name(name)]
+    except KeyError:
+        raise UnknownFunctionError(f"no function named {name.strip()!r}; see `trueband functions`") from None
+
+
+def call(name: str, *args, **kwargs):
+    """Call a registered function by its spreadsheet name.
+
+    >>> call("SEM", 10, 0.75)
+    5.0
+    """
+    return lookup(name)(*args, **kwargs)
+
+
+def _column_length(each: Mapping[str, Sequence]) -> int:
+    lengths = {k: len(col) for k, col in each.items()}
+    if len(set(lengths.values())) > 1:
+        raise ArgumentTypeError(f"columns differ in length: {lengths}")
+    return next(iter(lengths.values()), 0)
+
+
+def call_column(name: str, each: Mapping[str, Sequence], same: Mapping[str, Any] | None = None) -> list:
+    """The same function down a column: ``each`` maps argument names to equal-length
+    sequences, ``same`` holds the arguments shared by every row.
+
+    Returns one entry per row: the value, or the :class:`TruebandError` for that
+    row. Elementwise functions run as whole-array numpy calls; a failing
+    block is split in halves until the failing rows are isolated, so one bad
+    row costs a few extra array calls, not a Python call per row.
+    """
+    fn = lookup(name)
+    same = dict(same or {})
+    if not each:
+        raise ArgumentTypeError("each must name at least one argument that varies by row")
+    n = _column_length(each)
+    for key in each:
+        if key in same:
+            raise ArgumentCountError(f"{key} is given both per row and for all rows", argument=key)
+    rows: list[Any] = [None] * n
+    if n == 0:
+        return rows
+
+    def one(i: int):
+        try:
+            return fn(**same, **{k: col[i] for k, col in each.items()})
+        except TruebandError as exc:
+            return exc
+
+    if not set(each) <= fn.elementwise:
+        return [one(i) for i in range(n)]
+
+    # Shared arguments are bound and coerced once. If that fails every row fails; the rows are
+    # then called one by one so each reports the error a single call would (argument order decides).
+    try:
+        probe = fn.bind((), {**same, **{k: 0.0 for k in each}})
+        fixed = {a.name: a.coerce(probe[a.name]) for a in fn.arguments if a.name not in each}
+    except TruebandError:
+        return [one(i) for i in range(n)]
+
+    # Cells that are not numbers fail on their own; the rest go through numpy.
+    arrays = {}
+    ok = np.ones(n, dtype=bool)
+    for key, col in each.items():
+        arr = np.empty(n, dtype=float)
+        for i, cell in enumerate(col):
+            if isinstance(cell, (int, float)) and not isinstance(cell, bool) and math.isfinite(cell):
+                arr[i] = cell
+            else:
+                arr[i] = 0.0
+                ok[i] = False
+        arrays[key] = arr
+    for i in np.flatnonzero(~ok):
+        rows[i] = one(int(i))
+
+    def block(idx: np.ndarray):
+        try:
+            with np.errstate(all="ignore"):
+                out = np.broadcast_to(fn.body(**fixed, **{k: a[idx] for k, a in arrays.items()}), idx.shape)
+            converted = fn.check_results(out)
+        except TruebandError:
+            if len(idx) == 1:
+                rows[idx[0]] = one(int(idx[0]))
+                return
+            half = len(idx) // 2
+            block(idx[:half])
+            block(idx[half:])
+            return
+        for i, x in zip(idx.tolist(), converted):
+            rows[i] = x
+
+    good = np.flatnonzero(ok)
+    if len(good):
+        block(good)
+    return rows
+
+
+def catalog() -> list[dict]:
+    """Every registered function as a dict, sorted by topic then name (for the CLI, HTTP and docs)."""
+    return [REGISTRY[k].to_dict() for k in sorted(REGISTRY, key=lambda k: (REGISTRY[k].topic, k))]

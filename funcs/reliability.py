@@ -1,0 +1,1 @@
+"""reliability: functions are added here by their issue."""

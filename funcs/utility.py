@@ -1,0 +1,1 @@
+"""utility: functions are added here by their issue."""

@@ -1,0 +1,1 @@
+"""validity: functions are added here by their issue."""
