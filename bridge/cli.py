@@ -28,6 +28,7 @@ EXIT_INTERRUPTED = 130
 #: Modules that add subcommands, in the order they appear in ``--help``.
 COMMAND_MODULES = (
     "trueband.bridge.cmd_catalog",
+    "trueband.bridge.cmd_serve",
 )
 
 

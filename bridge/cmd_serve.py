@@ -1,0 +1,136 @@
+"""``trueband serve``: the local HTTP bridge under waitress (never Flask's development server).
+
+Loopback only by default. Binding to any other address refuses to start
+unless an access token is set (``--token`` or the ``TRUEBAND_TOKEN``
+environment variable); with a token every request must carry
+``Authorization: Bearer TOKEN``. Ctrl-C (or a terminate/Ctrl-Break signal)
+stops the server cleanly.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import ipaddress
+import os
+import signal
+import threading
+
+from .cli import EXIT_OK, CommandError
+
+TOKEN_VARIABLE = "TRUEBAND_TOKEN"
+DEFAULT_HOST = "127.0.0.1"
+DEFAULT_PORT = 8765
+THREADS = 4
+
+
+def is_loopback(host: str) -> bool:
+    """True for ``localhost`` and loopback addresses (127.0.0.0/8, ::1)."""
+    host = host.strip().strip("[]").lower()
+    if host == "localhost":
+        return True
+    try:
+        return ipaddress.ip_address(host).is_loopback
+    except ValueError:
+        return False  # any other name may resolve anywhere
+
+
+def make_server(app, host: str = DEFAULT_HOST, port: int = DEFAULT_PORT, *, threads: int = THREADS):
+    """A waitress server for ``app`` (port 0 picks a free port: see ``server.effective_port``)."""
+    from waitress.server import create_server
+
+    return create_server(
+        app, host=host.strip("[]"), port=port, threads=threads, ident="trueband",
+        max_request_body_size=app.config["MAX_BODY_BYTES"],
+        clear_untrusted_proxy_headers=True,
+        channel_timeout=30)
+
+
+@contextlib.contextmanager
+def serving_in_background(app, host: str = DEFAULT_HOST, port: int = 0, *, threads: int = THREADS):
+    """Run ``app`` on a waitress server in a background thread; yields the base URL (for tests and bench)."""
+    server = make_server(app, host, port, threads=threads)
+    thread = threading.Thread(target=server.run, name="trueband-http", daemon=True)
+    thread.start()
+    try:
+        yield f"http://{_url_host(host)}:{server.effective_port}"
+    finally:
+        server.close()
+        thread.join(timeout=10)
+
+
+def _url_host(host: str) -> str:
+    host = host.strip("[]")
+    return f"[{host}]" if ":" in host else host
+
+
+def _stop(signum, frame):  # terminate and Ctrl-Break end the server the way Ctrl-C does
+    raise KeyboardInterrupt
+
+
+def _serve(args) -> int:
+    from trueband.funcs.registry import REGISTRY
+
+    from .http_app import create_app
+
+    token = args.token or os.environ.get(TOKEN_VARIABLE) or None
+    if not is_loopback(args.host) and not token:
+        raise CommandError(
+            f"refusing to listen on {args.host}, which is not a loopback address, without an access token; "
+            f"set {TOKEN_VARIABLE} (or --token) so that every request must carry it")
+    if not 0 <= args.port <= 65535:
+        raise CommandError(f"--port must be between 0 and 65535, got {args.port}")
+    app = create_app({"HOST": args.host.strip("[]"), "TOKEN": token,
+                      "ALLOWED_ORIGINS": args.allow_origin, "ALLOWED_HOSTS_EXTRA": args.allow_host})
+    try:
+        server = make_server(app, args.host, args.port)
+    except OSError as exc:
+        raise CommandError(f"cannot listen on {args.host} port {args.port}: {exc.strerror or exc}") from None
+
+    base = f"http://{_url_host(args.host)}:{server.effective_port}"
+    example = "SEM" if "SEM" in REGISTRY else next(iter(sorted(REGISTRY)), None)
+    print(f"trueband bridge: {len(REGISTRY)} functions at {base}/v1/ (Ctrl-C stops it)", flush=True)
+    if example:
+        args_text = "&".join(f"{a.name}=..." for a in REGISTRY[example].arguments if a.required)
+        if example == "SEM":
+            args_text = "sd=15&reliability=0.91"
+        print(f"  try: {base}/v1/text/{example}?{args_text}", flush=True)
+    print(f"  API description: {base}/v1/openapi.json", flush=True)
+    if token:
+        print("  every request must carry Authorization: Bearer <your token>", flush=True)
+        if args.token:
+            print(f"  note: a token on the command line is visible to other local users; prefer {TOKEN_VARIABLE}",
+                  flush=True)
+
+    previous = {}
+    for name in ("SIGTERM", "SIGBREAK"):  # SIGBREAK is Windows' Ctrl-Break
+        if hasattr(signal, name):
+            previous[name] = signal.signal(getattr(signal, name), _stop)
+    try:
+        server.run()
+    except KeyboardInterrupt:
+        pass
+    finally:
+        server.close()
+        for name, handler in previous.items():
+            signal.signal(getattr(signal, name), handler)
+    print("trueband bridge: stopped", flush=True)
+    return EXIT_OK
+
+
+def register(sub) -> None:
+    p = sub.add_parser(
+        "serve", help="run the local HTTP bridge (every function over HTTP)",
+        description="Serve every registered function over HTTP (JSON under /v1, plain text under /v1/text "
+                    "for spreadsheet formulas). Listens on loopback only unless told otherwise; a "
+                    f"non-loopback address needs an access token ({TOKEN_VARIABLE} or --token).")
+    p.add_argument("--host", default=DEFAULT_HOST, help=f"address to listen on (default {DEFAULT_HOST})")
+    p.add_argument("--port", type=int, default=DEFAULT_PORT, help=f"port (default {DEFAULT_PORT}; 0 picks a free one)")
+    p.add_argument("--token", help=f"access token every request must carry (default: ${TOKEN_VARIABLE})")
+    p.add_argument("--allow-origin", action="append", default=[], metavar="ORIGIN",
+                   help="a web origin (e.g. https://intranet.example) that may call the bridge from a "
+                        "browser (CORS); repeatable; none by default")
+    p.add_argument("--allow-host", action="append", default=[], metavar="NAME",
+                   help="another Host name to answer to, besides loopback names and the bound address "
+                        "(e.g. the machine's name when listening on 0.0.0.0); repeatable")
+    p.set_defaults(handler=_serve)
+
