@@ -1,0 +1,855 @@
+"""Fast reading and byte-exact patching of worksheet XML parts.
+
+A worksheet part can be a gigabyte of XML (1,048,576 rows), so nothing here
+builds a DOM: cells are found with one compiled regular expression over the
+bytes of ``<sheetData>``, and a patch splices new cell elements between the
+untouched bytes, so everything not named in the patch stays byte-identical.
+
+Reading
+    :func:`iter_cells` yields a :class:`Cell` per ``<c>`` element in document
+    order; :func:`dimension` gives the ``<dimension ref>``; :func:`used_range`
+    the extent actually occupied.
+
+Writing
+    :func:`patch_sheet` rewrites listed cells (a new cached value beside the
+    kept formula, or the value alone when the formula is dropped, or a new or
+    restored formula); :func:`add_cells` inserts new cells into existing or
+    new rows in order and widens ``<dimension>``.
+
+Cell values
+    numbers are ``float``; shared and inline strings and formula string
+    results ``str``; logical values ``bool``; error values the code as
+    :class:`ErrorValue` (a ``str`` subclass, e.g. ``"#N/A"``); an empty
+    cell (no ``<v>``) ``None``. Dates are numbers, as stored.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import functools
+import gc
+import math
+import re
+from typing import Iterator, Mapping, NamedTuple, Sequence
+
+from .xlsx_package import unescape_xml
+
+__all__ = [
+    "Cell",
+    "Formula",
+    "ErrorValue",
+    "CellUpdate",
+    "NewCell",
+    "ERROR_CODES",
+    "iter_cells",
+    "dimension",
+    "used_range",
+    "sheet_data_span",
+    "patch_sheet",
+    "add_cells",
+    "set_dimension",
+    "column_index",
+    "column_letters",
+    "split_ref",
+    "escape_text",
+    "SheetXmlError",
+]
+
+#: Error values a cell can hold.
+ERROR_CODES = ("#NULL!", "#DIV/0!", "#VALUE!", "#REF!", "#NAME?", "#NUM!", "#N/A", "#GETTING_DATA",
+               "#SPILL!", "#CALC!", "#FIELD!", "#BLOCKED!", "#CONNECT!", "#BUSY!", "#UNKNOWN!")
+
+
+class SheetXmlError(ValueError):
+    """A worksheet part that cannot be read or patched as asked (names the cell)."""
+
+
+class ErrorValue(str):
+    """A cell's error value: the code as a ``str`` (``ErrorValue("#N/A") == "#N/A"``), told apart from text."""
+
+    __slots__ = ()
+
+    def __repr__(self) -> str:
+        return f"ErrorValue({str(self)!r})"
+
+
+class Formula(NamedTuple):
+    """The ``<f>`` element of a cell.
+
+    ``text`` is the formula without ``=`` (``None`` for a cell that shares
+    the formula of a master cell, whose text is on the master);
+    ``kind`` is ``"normal"``, ``"shared"``, ``"array"`` or ``"dataTable"``;
+    ``shared_index`` the ``si`` of a shared formula; ``ref`` the range of a
+    shared master or an array formula; ``is_master`` True for the cell that
+    holds a shared formula's text; ``attrs`` the raw attribute bytes.
+    """
+
+    text: str | None
+    kind: str
+    shared_index: int | None
+    ref: str | None
+    is_master: bool
+    attrs: bytes
+
+
+class Cell(NamedTuple):
+    """One ``<c>`` element: ``ref`` ("B7"), ``row`` (1-based), ``col`` (1-based, A = 1), ``value``,
+    ``type`` (the ``t`` attribute, ``"n"`` when absent), ``style`` (``s``, 0 when absent),
+    ``formula`` (:class:`Formula` or None)."""
+
+    ref: str
+    row: int
+    col: int
+    value: object
+    type: str
+    style: int
+    formula: Formula | None
+
+
+# ------------------------------------------------------------------ references
+
+@functools.lru_cache(maxsize=20000)
+def column_index(letters: str | bytes) -> int:
+    """``"A"`` → 1, ``"AA"`` → 27, ``"XFD"`` → 16384."""
+    if isinstance(letters, bytes):
+        letters = letters.decode("ascii")
+    n = 0
+    for ch in letters.upper():
+        n = n * 26 + (ord(ch) - 64)
+    return n
+
+
+@functools.lru_cache(maxsize=20000)
+def column_letters(index: int) -> str:
+    """1 → ``"A"``, 27 → ``"AA"``."""
+    if index < 1:
+        raise ValueError(f"column index must be at least 1, got {index}")
+    out = ""
+    while index:
+        index, rem = divmod(index - 1, 26)
+        out = chr(65 + rem) + out
+    return out
+
+
+_REF = re.compile(r"\$?([A-Za-z]{1,3})\$?([0-9]+)\Z")
+
+
+def split_ref(ref: str) -> tuple[int, int]:
+    """``"B7"`` (or ``"$B$7"``) → (row 7, column 2)."""
+    m = _REF.match(ref.strip())
+    if not m:
+        raise ValueError(f"not a cell reference: {ref!r}")
+    return int(m.group(2)), column_index(m.group(1).upper())
+
+
+# ------------------------------------------------------------------ reading
+
+@functools.lru_cache(maxsize=8)
+def _patterns(prefix: bytes):
+    p = re.escape(prefix)
+    token = re.compile(
+        # 1. the common form, r first: <c r="B7" s="3" t="s">...</c>
+        rb"<" + p + rb'c r="([A-Z]{1,3})([0-9]+)"((?: [A-Za-z:]+="[^"]*")*?) ?(?:/>|>(.*?)</' + p + rb"c>)"
+        # 2. a row start (needed for cells written without r, and for row numbers)
+        rb"|<" + p + rb"row\b([^>]*)>"
+        # 3. any other cell element
+        rb"|<" + p + rb"c\b([^>]*?)(?:/>|>(.*?)</" + p + rb"c>)",
+        re.S)
+    content = re.compile(
+        rb"(?:<" + p + rb"f\b([^>]*?)(?:/>|>(.*?)</" + p + rb"f>))?"
+        rb"(?:<" + p + rb"v(?: [^>]*)?(?:/>|>(.*?)</" + p + rb"v>))?"
+        rb"(?:<" + p + rb"is>(.*?)</" + p + rb"is>)?",
+        re.S)
+    text_run = re.compile(rb"<" + p + rb"t\b[^>]*?(?:/>|>(.*?)</" + p + rb"t>)", re.S)
+    phonetic = re.compile(rb"<" + p + rb"rPh\b.*?</" + p + rb"rPh>", re.S)
+    return token, content, text_run, phonetic
+
+
+_ATTR = re.compile(rb'([A-Za-z:]+)="([^"]*)"')
+_ROOT = re.compile(rb"<(?:(\w+):)?worksheet\b")
+
+
+def _prefix(xml: bytes) -> bytes:
+    m = _ROOT.search(xml, 0, 4096) or _ROOT.search(xml)
+    if m is None:
+        raise SheetXmlError("not a worksheet part (no <worksheet> element)")
+    return (m.group(1) + b":") if m.group(1) else b""
+
+
+def sheet_data_span(xml: bytes) -> tuple[int, int, bytes]:
+    """(start, end, prefix): ``xml[start:end]`` is the inside of ``<sheetData>`` (empty for ``<sheetData/>``).
+
+    ``start`` is just after the opening tag. For ``<sheetData/>`` both are the
+    offset of the self-closing tag and the caller must expand it to insert rows.
+    """
+    prefix = _prefix(xml)
+    open_tag = b"<" + prefix + b"sheetData"
+    i = xml.find(open_tag)
+    if i < 0:
+        raise SheetXmlError("worksheet part has no <sheetData> element")
+    j = xml.index(b">", i)
+    if xml[j - 1:j] == b"/":
+        return i, i, prefix
+    end = xml.find(b"</" + prefix + b"sheetData>", j)
+    if end < 0:
+        raise SheetXmlError("worksheet part is cut short (no </sheetData>)")
+    return j + 1, end, prefix
+
+
+def _attrs(raw: bytes) -> dict[bytes, bytes]:
+    return dict(_ATTR.findall(raw))
+
+
+@functools.lru_cache(maxsize=4096)
+def _style_type(rest: bytes) -> tuple[int, str]:
+    a = _attrs(rest)
+    return int(a.get(b"s", b"0") or 0), a.get(b"t", b"n").decode("ascii")
+
+
+@functools.lru_cache(maxsize=4096)
+def _formula_attrs(raw: bytes) -> tuple[str, int | None, str | None]:
+    a = _attrs(raw)
+    kind = a.get(b"t", b"normal").decode("ascii")
+    si = a.get(b"si")
+    ref = a.get(b"ref")
+    return kind, (int(si) if si is not None else None), (ref.decode("ascii") if ref is not None else None)
+
+
+def _inline_text(body: bytes, text_run, phonetic) -> str:
+    if b"rPh" in body:
+        body = phonetic.sub(b"", body)
+    return "".join(unescape_xml(m.group(1) or b"") for m in text_run.finditer(body))
+
+
+def _decode(raw: bytes) -> str:
+    return raw.decode("utf-8") if b"&" not in raw and b"_x" not in raw else unescape_xml(raw)
+
+
+#: Size of the pieces of ``<sheetData>`` matched at once (cut at row ends): bounds the memory of a
+#: gigabyte-sized sheet while keeping the per-piece overhead negligible.
+CHUNK_BYTES = 4 << 20
+
+
+@functools.lru_cache(maxsize=8)
+def _bulk_pattern(prefix: bytes):
+    p = re.escape(prefix)
+    return re.compile(
+        # 1-5: the common form, r first and no "/" in the attributes: <c r="B7" s="3" t="s"><v>..</v></c>
+        rb"<" + p + rb'c r="([A-Z]{1,3})([0-9]+)"([^>/]*)(?:/>|>(?:<' + p + rb"v>([^<]*)</" + p + rb"v>|(.*?))</"
+        + p + rb"c>)"
+        # 6-7: any other cell element
+        rb"|<" + p + rb"c\b([^>]*?)(?:/>|>(.*?)</" + p + rb"c>)",
+        re.S)
+
+
+def _chunks(xml: bytes, start: int, end: int, prefix: bytes):
+    close = b"</" + prefix + b"row>"
+    pos = start
+    while pos < end:
+        cut = xml.find(close, min(pos + CHUNK_BYTES, end), end) if end - pos > CHUNK_BYTES else -1
+        stop = end if cut < 0 else cut + len(close)
+        yield pos, stop
+        pos = stop
+
+
+def iter_cells(xml: bytes, shared_strings: Sequence[str] = ()) -> Iterator[Cell]:
+    """Every cell element of a worksheet part, in document order (row by row, left to right).
+
+    Parameters
+    ----------
+    xml : bytes
+        The worksheet part.
+    shared_strings : sequence of str
+        The workbook's shared-string table (``WorkbookPackage.shared_strings``).
+
+    Yields
+    ------
+    Cell
+        Including empty styled cells (value None) and formula cells.
+
+    Raises
+    ------
+    SheetXmlError
+        A shared-string index out of the table, or a malformed number; the
+        message names the cell.
+
+    Notes
+    -----
+    The sheet is matched in pieces of about :data:`CHUNK_BYTES` with one
+    ``findall`` each, so the Python work per cell is a handful of operations.
+    A sheet whose cells are written without ``r`` attributes (allowed, rare)
+    is read by a slower row-aware path.
+    """
+    start, end, prefix = sheet_data_span(xml)
+    if start == end:
+        return
+    pattern = _bulk_pattern(prefix)
+    content_re, text_run, phonetic = _patterns(prefix)[1:]
+    strings = shared_strings
+    style_type = _style_type
+    col_of = column_index
+    for cs, ce in _chunks(xml, start, end, prefix):
+        gc_was = gc.isenabled()
+        gc.disable()  # millions of short tuples: collection passes would cost more than the matching
+        try:
+            found = pattern.findall(xml, cs, ce)
+        finally:
+            if gc_was:
+                gc.enable()
+        for letters, rownum, rest, raw, body, other_attrs, other_body in found:
+            if letters:
+                row = int(rownum)
+                ref = (letters + rownum).decode("ascii")
+                style, typ = style_type(rest) if rest else (0, "n")
+                if not body:
+                    if not raw:
+                        yield Cell(ref, row, col_of(letters), None, typ, style, None)
+                        continue
+                    if typ == "n":
+                        try:
+                            yield Cell(ref, row, col_of(letters), float(raw), typ, style, None)
+                        except ValueError:
+                            raise SheetXmlError(f"cell {ref} holds {raw[:40]!r}, which is not a number") from None
+                        continue
+                    yield Cell(ref, row, col_of(letters), _plain_value(raw, typ, ref, strings), typ, style, None)
+                    continue
+                col = col_of(letters)
+            else:
+                a = _attrs(other_attrs)
+                r = a.get(b"r")
+                if not r:
+                    yield from _iter_cells_rowwise(xml, shared_strings)
+                    return
+                ref = r.decode("ascii")
+                row, col = split_ref(ref)
+                style = int(a.get(b"s", b"0") or 0)
+                typ = a.get(b"t", b"n").decode("ascii")
+                body = other_body
+                if not body:
+                    yield Cell(ref, row, col, None, typ, style, None)
+                    continue
+            value, formula = _body_value(body, typ, ref, strings, content_re, text_run, phonetic)
+            yield Cell(ref, row, col, value, typ, style, formula)
+
+
+def _plain_value(raw: bytes, typ: str, ref: str, strings: Sequence[str]):
+    """The value of a ``<v>`` under cell type ``typ``."""
+    if typ == "n":
+        try:
+            return float(raw)
+        except ValueError:
+            raise SheetXmlError(f"cell {ref} holds {raw[:40]!r}, which is not a number") from None
+    if typ == "s":
+        try:
+            return strings[int(raw)]
+        except (IndexError, ValueError):
+            raise SheetXmlError(f"cell {ref} points at shared string {raw[:20]!r}, which the "
+                                f"workbook does not have") from None
+    if typ == "b":
+        return raw.strip() in (b"1", b"true")
+    if typ == "e":
+        return ErrorValue(raw.decode("ascii", "replace"))
+    return _decode(raw)  # "str" (a formula's text result), "d" (ISO date text), anything else: as text
+
+
+def _body_value(body: bytes, typ: str, ref: str, strings, content_re, text_run, phonetic):
+    """(value, Formula or None) of a cell's content."""
+    cm = content_re.match(body)
+    fattrs, ftext, raw, inline = cm.group(1, 2, 3, 4)
+    formula = None
+    if cm.start(1) >= 0:
+        kind, si, fref = _formula_attrs(fattrs) if fattrs else ("normal", None, None)
+        text = _decode(ftext) if ftext else None
+        if text is None and kind != "shared":
+            text = ""
+        formula = Formula(text, kind, si, fref, kind == "shared" and fref is not None and text is not None, fattrs)
+    if inline is not None:
+        return _inline_text(inline, text_run, phonetic), formula
+    if raw:
+        return _plain_value(raw, typ, ref, strings), formula
+    return None, formula
+
+
+def _iter_cells_rowwise(xml: bytes, shared_strings: Sequence[str]) -> Iterator[Cell]:
+    """The slow path of :func:`iter_cells`, tracking rows for cells written without ``r``."""
+    start, end, prefix = sheet_data_span(xml)
+    token, content_re, text_run, phonetic = _patterns(prefix)
+    row = 0
+    col = 0
+    for m in token.finditer(xml, start, end):
+        if m.group(5) is not None:  # a row start
+            r = _attrs(m.group(5)).get(b"r")
+            row = int(r) if r else row + 1
+            col = 0
+            continue
+        if m.group(1) is not None:
+            row = int(m.group(2))
+            col = column_index(m.group(1))
+            ref = (m.group(1) + m.group(2)).decode("ascii")
+            style, typ = _style_type(m.group(3)) if m.group(3) else (0, "n")
+            body = m.group(4)
+        else:
+            a = _attrs(m.group(6) or b"")
+            r = a.get(b"r")
+            if r:
+                row, col = split_ref(r.decode("ascii"))
+            else:
+                col += 1
+            ref = column_letters(col) + str(row)
+            style = int(a.get(b"s", b"0") or 0)
+            typ = a.get(b"t", b"n").decode("ascii")
+            body = m.group(7)
+        if not body:
+            yield Cell(ref, row, col, None, typ, style, None)
+            continue
+        value, formula = _body_value(body, typ, ref, shared_strings, content_re, text_run, phonetic)
+        yield Cell(ref, row, col, value, typ, style, formula)
+
+
+_DIMENSION = re.compile(rb'<(?:\w+:)?dimension\b[^>]*?\bref="([^"]*)"')
+
+
+def dimension(xml: bytes) -> str | None:
+    """The ``<dimension ref>`` the writing app recorded (e.g. ``"A1:K401"``), or None."""
+    m = _DIMENSION.search(xml, 0, 1 << 16) or _DIMENSION.search(xml, 0, sheet_data_span(xml)[0])
+    return m.group(1).decode("ascii") if m else None
+
+
+def used_range(xml: bytes, shared_strings: Sequence[str] = ()) -> tuple[int, int, int, int] | None:
+    """(first row, first column, last row, last column) of the cells that hold a value or formula.
+
+    Read from the cells themselves (the recorded ``<dimension>`` may be
+    stale or absent); None for an empty sheet.
+    """
+    r0 = c0 = math.inf
+    r1 = c1 = 0
+    for cell in iter_cells(xml, shared_strings):
+        if cell.value is None and cell.formula is None:
+            continue
+        r0 = min(r0, cell.row)
+        r1 = max(r1, cell.row)
+        c0 = min(c0, cell.col)
+        c1 = max(c1, cell.col)
+    return None if r1 == 0 else (int(r0), int(c0), r1, c1)
+
+
+# ------------------------------------------------------------------ writing
+
+_TEXT_ESCAPES = {ord("&"): "&amp;", ord("<"): "&lt;", ord(">"): "&gt;"}
+_ATTR_ESCAPES = {**_TEXT_ESCAPES, ord('"'): "&quot;"}
+_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]|_(?=x[0-9A-Fa-f]{4}_)")
+
+
+def escape_text(text: str) -> bytes:
+    """Text as element content: XML-escaped, control characters written ``_xHHHH_`` as the format requires."""
+    text = text.translate(_TEXT_ESCAPES)
+    if _CONTROL.search(text):
+        text = _CONTROL.sub(lambda m: f"_x{ord(m.group(0)):04X}_", text)
+    return text.encode("utf-8")
+
+
+def _escape_attr(text: str) -> bytes:
+    return text.translate(_ATTR_ESCAPES).encode("utf-8")
+
+
+_KEEP = object()
+
+
+@dataclasses.dataclass(frozen=True)
+class CellUpdate:
+    """What to write into one existing cell.
+
+    Parameters
+    ----------
+    value : float, int, bool, str, ErrorValue or None
+        The new cached value (``None``: no value). Its Python type decides
+        the ``t`` attribute: number ``n`` (no attribute), ``bool`` ``b``,
+        :class:`ErrorValue` ``e``, ``str`` ``str`` beside a formula or an
+        inline string without one. A non-finite float is refused.
+    drop_formula : bool
+        Remove the cell's ``<f>`` (``--values``); the value stays.
+    formula : str, optional
+        Replace the formula with this one (text without ``=``), as a normal formula.
+    formula_xml : bytes, optional
+        Replace the formula with this raw ``<f ...>...</f>`` element (restoring
+        a shared or array formula exactly as it was).
+    style : int, optional
+        New style index; default keeps the cell's.
+    """
+
+    value: object = None
+    drop_formula: bool = False
+    formula: str | None = None
+    formula_xml: bytes | None = None
+    style: int | None = None
+
+    @staticmethod
+    def error(code: str) -> "CellUpdate":
+        return CellUpdate(ErrorValue(code))
+
+
+@dataclasses.dataclass(frozen=True)
+class NewCell:
+    """A cell to add (:func:`add_cells`): a value and/or a formula (text without ``=``), and a style index."""
+
+    value: object = None
+    formula: str | None = None
+    style: int = 0
+
+
+def _value_xml(value, has_formula: bool, prefix: bytes, ref: str) -> tuple[bytes | None, bytes]:
+    """(t attribute value or None, inner XML for the value) of a cached value."""
+    if value is None:
+        return None, b""
+    if isinstance(value, bool):
+        return b"b", b"<" + prefix + b"v>" + (b"1" if value else b"0") + b"</" + prefix + b"v>"
+    if isinstance(value, ErrorValue):
+        return b"e", b"<" + prefix + b"v>" + escape_text(str(value)) + b"</" + prefix + b"v>"
+    if isinstance(value, str):
+        if has_formula:
+            return b"str", b"<" + prefix + b"v>" + escape_text(value) + b"</" + prefix + b"v>"
+        space = b' xml:space="preserve"' if value != value.strip() else b""
+        return b"inlineStr", (b"<" + prefix + b"is><" + prefix + b"t" + space + b">" + escape_text(value)
+                              + b"</" + prefix + b"t></" + prefix + b"is>")
+    try:
+        x = float(value)
+    except (TypeError, ValueError):
+        raise SheetXmlError(f"cell {ref}: cannot store a {type(value).__name__} as a cell value") from None
+    if not math.isfinite(x):
+        raise SheetXmlError(f"cell {ref}: {x} is not a finite number; store an error value instead")
+    # repr gives the shortest text that reads back as the same double; integers without ".0".
+    text = repr(int(x)) if x.is_integer() and abs(x) < 1e16 else repr(x)
+    return None, b"<" + prefix + b"v>" + text.encode("ascii") + b"</" + prefix + b"v>"
+
+
+def _f_pattern(prefix: bytes):
+    p = re.escape(prefix)
+    return re.compile(rb"<" + p + rb"f\b[^>]*?(?:/>|>.*?</" + p + rb"f>)", re.S)
+
+
+_T_ATTR = re.compile(rb' t="[^"]*"')
+_S_ATTR = re.compile(rb' s="[^"]*"')
+
+
+def _set_attr(attrs: bytes, name: bytes, value: bytes | None) -> bytes:
+    """Set or remove one attribute in raw attribute bytes, keeping the others and their order."""
+    pat = re.compile(rb" " + name + rb'="[^"]*"')
+    if value is None:
+        return pat.sub(b"", attrs, count=1)
+    new = b" " + name + b'="' + value + b'"'
+    if pat.search(attrs):
+        return pat.sub(new.replace(b"\\", b"\\\\"), attrs, count=1)
+    return attrs + new
+
+
+def _cell_xml(ref: str, attrs: bytes, body: bytes | None, update: CellUpdate, prefix: bytes, f_re) -> bytes:
+    """New bytes of one cell element under ``update``; ``attrs`` are the raw attributes (with r)."""
+    fm = f_re.search(body) if body else None
+    f_xml = fm.group(0) if fm else None
+    if update.formula_xml is not None:
+        f_xml = update.formula_xml
+    elif update.formula is not None:
+        f_xml = b"<" + prefix + b"f>" + escape_text(update.formula) + b"</" + prefix + b"f>"
+    if update.drop_formula:
+        f_xml = None
+    t, v_xml = _value_xml(update.value, f_xml is not None, prefix, ref)
+    attrs = _set_attr(attrs, b"t", t)
+    if update.style is not None:
+        attrs = _set_attr(attrs, b"s", str(update.style).encode("ascii") if update.style else None)
+    # extLst and other children after <v>/<is> are kept; the old value elements go.
+    tail = b""
+    if body:
+        ext = body.find(b"<" + prefix + b"extLst")
+        if ext >= 0:
+            tail = body[ext:]
+    inner = (f_xml or b"") + v_xml + tail
+    if not inner:
+        return b"<" + prefix + b"c" + attrs + b"/>"
+    return b"<" + prefix + b"c" + attrs + b">" + inner + b"</" + prefix + b"c>"
+
+
+@functools.lru_cache(maxsize=8)
+def _cell_pattern(prefix: bytes):
+    p = re.escape(prefix)
+    return re.compile(rb"<" + p + rb"c\b((?: [A-Za-z:]+=\"[^\"]*\")*?) ?(?:/>|>(.*?)</" + p + rb"c>)", re.S)
+
+
+_R_ATTR = re.compile(rb' r="([A-Z]{1,3}[0-9]+)"')
+
+
+def patch_sheet(xml: bytes, updates: Mapping[str, CellUpdate]) -> bytes:
+    """Rewrite the listed existing cells; every other byte of the part stays as it was.
+
+    Parameters
+    ----------
+    xml : bytes
+        The worksheet part.
+    updates : mapping of str to CellUpdate
+        Cell reference (``"B7"``, upper case, no ``$``) → what to write.
+
+    Returns
+    -------
+    bytes
+
+    Raises
+    ------
+    SheetXmlError
+        A listed cell that is not in the sheet (use :func:`add_cells`), or a
+        shared-formula master dropped while cells sharing its formula keep it.
+
+    Notes
+    -----
+    Cells written without an ``r`` attribute cannot be addressed and are left alone.
+    A value written beside a kept formula gets the ``t`` its type needs
+    (``n`` implied, ``b``, ``str``, ``e``); a value without a formula that is
+    text is written as an inline string, so the shared-string part is not touched.
+    """
+    if not updates:
+        return xml
+    start, end, prefix = sheet_data_span(xml)
+    cell_re = _cell_pattern(prefix)
+    f_re = _f_pattern(prefix)
+    pending = dict(updates)
+    dropped_masters: dict[int, str] = {}
+    kept_shared: dict[int, str] = {}
+    pieces: list[bytes] = []
+    pos = start
+    want = pending.keys()
+    for m in cell_re.finditer(xml, start, end):
+        rm = _R_ATTR.match(m.group(1)) or _R_ATTR.search(m.group(1))
+        if rm is None:
+            continue
+        ref = rm.group(1).decode("ascii")
+        if ref not in want:
+            if b"si=" in (m.group(2) or b""):
+                _note_shared(m.group(2), ref, kept_shared, None)
+            continue
+        update = pending.pop(ref)
+        body = m.group(2)
+        if body and b"si=" in body:
+            _note_shared(body, ref, kept_shared if not update.drop_formula else None,
+                         dropped_masters if update.drop_formula else None)
+        pieces.append(xml[pos:m.start()])
+        pieces.append(_cell_xml(ref, m.group(1), body, update, prefix, f_re))
+        pos = m.end()
+        if not pending:
+            break
+    if pending:
+        missing = sorted(pending, key=lambda r: split_ref(r))[:5]
+        raise SheetXmlError(f"cells not found in the sheet: {', '.join(missing)}"
+                            + (" and more" if len(pending) > 5 else ""))
+    if dropped_masters:
+        for si, master in dropped_masters.items():
+            # cells before the master cannot share it; after it, the loop may have stopped early
+            tail_refs = _shared_users(xml[pos:end], si, prefix)
+            users = [r for r, s in kept_shared.items() if s == si] + tail_refs
+            if users:
+                raise SheetXmlError(f"cell {master} holds the shared formula that {users[0]} also uses; "
+                                    f"replace the whole group of cells or none")
+    pieces.append(xml[pos:])
+    return xml[:start] + b"".join(pieces)
+
+
+_SI_ATTR = re.compile(rb'<(?:\w+:)?f\b[^>]*?\bt="shared"[^>]*?\bsi="([0-9]+)"|<(?:\w+:)?f\b[^>]*?\bsi="([0-9]+)"[^>]*?\bt="shared"')
+_REF_IN_F = re.compile(rb'<(?:\w+:)?f\b[^>]*?\bref="')
+
+
+def _note_shared(body: bytes, ref: str, kept: dict | None, dropped: dict | None) -> None:
+    m = _SI_ATTR.search(body)
+    if not m:
+        return
+    si = int(m.group(1) or m.group(2))
+    if dropped is not None:
+        if _REF_IN_F.search(body):
+            dropped[si] = ref
+    elif kept is not None:
+        kept[ref] = si
+
+
+def _shared_users(xml: bytes, si: int, prefix: bytes) -> list[str]:
+    out = []
+    for m in _cell_pattern(prefix).finditer(xml):
+        body = m.group(2) or b""
+        sm = _SI_ATTR.search(body)
+        if sm and int(sm.group(1) or sm.group(2)) == si:
+            rm = _R_ATTR.search(m.group(1))
+            out.append(rm.group(1).decode("ascii") if rm else "?")
+            break
+    return out
+
+
+# ------------------------------------------------------------------ adding cells
+
+@functools.lru_cache(maxsize=8)
+def _row_pattern(prefix: bytes):
+    p = re.escape(prefix)
+    return re.compile(rb"<" + p + rb"row\b([^>]*?)(/?)>", re.S)
+
+
+def _new_cell_xml(ref: str, cell: NewCell, prefix: bytes) -> bytes:
+    attrs = b' r="' + ref.encode("ascii") + b'"'
+    if cell.style:
+        attrs += b' s="' + str(int(cell.style)).encode("ascii") + b'"'
+    f_xml = b""
+    if cell.formula is not None:
+        text = cell.formula[1:] if cell.formula.startswith("=") else cell.formula
+        f_xml = b"<" + prefix + b"f>" + escape_text(text) + b"</" + prefix + b"f>"
+    t, v_xml = _value_xml(cell.value, bool(f_xml), prefix, ref)
+    if t is not None:
+        attrs += b' t="' + t + b'"'
+    inner = f_xml + v_xml
+    if not inner:
+        return b"<" + prefix + b"c" + attrs + b"/>"
+    return b"<" + prefix + b"c" + attrs + b">" + inner + b"</" + prefix + b"c>"
+
+
+def add_cells(xml: bytes, cells: Mapping[str, NewCell], *, replace: bool = False) -> bytes:
+    """Insert new cells in column order into their rows (new rows in row order); widen ``<dimension>``.
+
+    Parameters
+    ----------
+    xml : bytes
+        The worksheet part.
+    cells : mapping of str to NewCell
+        Cell reference → the new cell.
+    replace : bool, optional
+        A listed cell that already exists: False (default) raises
+        :class:`SheetXmlError` if it holds a value or formula (an empty styled
+        cell is always replaced, keeping its style when the new cell has none);
+        True replaces it.
+
+    Notes
+    -----
+    Rows with a ``spans`` attribute keep it; it is an optional hint that
+    spreadsheet apps recompute, so a new cell outside it is valid. Rows and
+    cells written without ``r`` cannot be placed against and raise.
+    """
+    if not cells:
+        return xml
+    start, end, prefix = sheet_data_span(xml)
+    if start == end:  # <sheetData/>: open it up
+        tag_end = xml.index(b">", start) + 1
+        xml = xml[:start] + b"<" + prefix + b"sheetData></" + prefix + b"sheetData>" + xml[tag_end:]
+        start, end, prefix = sheet_data_span(xml)
+    by_row: dict[int, list[tuple[int, str, NewCell]]] = {}
+    for ref, cell in cells.items():
+        r, c = split_ref(ref)
+        by_row.setdefault(r, []).append((c, f"{column_letters(c)}{r}", cell))
+    row_re = _row_pattern(prefix)
+    cell_re = _cell_pattern(prefix)
+    close_row = b"</" + prefix + b"row>"
+    pieces: list[bytes] = []
+    pos = start
+    todo = sorted(by_row)
+    ti = 0
+    for m in row_re.finditer(xml, start, end):
+        ra = _attrs(m.group(1))
+        if b"r" not in ra:
+            raise SheetXmlError("the sheet has rows written without row numbers; cells cannot be added")
+        rnum = int(ra[b"r"])
+        # new rows that come before this one
+        while ti < len(todo) and todo[ti] < rnum:
+            pieces.append(xml[pos:m.start()])
+            pos = m.start()
+            pieces.append(_new_row_xml(todo[ti], by_row[todo[ti]], prefix))
+            ti += 1
+        if ti < len(todo) and todo[ti] == rnum:
+            new = sorted(by_row[rnum], key=lambda t: t[0])
+            if m.group(2) == b"/":  # <row .../>: becomes a row with the new cells
+                pieces.append(xml[pos:m.start()])
+                pieces.append(b"<" + prefix + b"row" + m.group(1) + b">"
+                              + b"".join(_new_cell_xml(ref, c, prefix) for _, ref, c in new) + close_row)
+                pos = m.end()
+            else:
+                row_end = xml.index(close_row, m.end())
+                body = xml[m.end():row_end]
+                pieces.append(xml[pos:m.end()])
+                pieces.append(_merge_row(body, new, prefix, cell_re, rnum, replace))
+                pos = row_end
+            ti += 1
+        if ti >= len(todo):
+            break
+    pieces.append(xml[pos:end])
+    while ti < len(todo):
+        pieces.append(_new_row_xml(todo[ti], by_row[todo[ti]], prefix))
+        ti += 1
+    out = xml[:start] + b"".join(pieces) + xml[end:]
+    return _widen_dimension(out, cells.keys())
+
+
+def _new_row_xml(rnum: int, new: list, prefix: bytes) -> bytes:
+    new = sorted(new, key=lambda t: t[0])
+    return (b"<" + prefix + b'row r="' + str(rnum).encode("ascii") + b'">'
+            + b"".join(_new_cell_xml(ref, c, prefix) for _, ref, c in new) + b"</" + prefix + b"row>")
+
+
+def _merge_row(body: bytes, new: list, prefix: bytes, cell_re, rnum: int, replace: bool) -> bytes:
+    out: list[bytes] = []
+    pos = 0
+    ni = 0
+    for m in cell_re.finditer(body):
+        rm = _R_ATTR.search(m.group(1))
+        if rm is None:
+            raise SheetXmlError(f"row {rnum} has cells written without references; cells cannot be added")
+        c = split_ref(rm.group(1).decode("ascii"))[1]
+        while ni < len(new) and new[ni][0] < c:
+            out.append(body[pos:m.start()])
+            pos = m.start()
+            out.append(_new_cell_xml(new[ni][1], new[ni][2], prefix))
+            ni += 1
+        if ni < len(new) and new[ni][0] == c:
+            ref, cell = new[ni][1], new[ni][2]
+            inner = m.group(2)
+            if inner and not replace:
+                raise SheetXmlError(f"cell {ref} is not empty; refusing to overwrite it")
+            if not cell.style:
+                old_style = _attrs(m.group(1)).get(b"s")
+                if old_style:
+                    cell = dataclasses.replace(cell, style=int(old_style))
+            out.append(body[pos:m.start()])
+            out.append(_new_cell_xml(ref, cell, prefix))
+            pos = m.end()
+            ni += 1
+    out.append(body[pos:])
+    while ni < len(new):
+        out.append(_new_cell_xml(new[ni][1], new[ni][2], prefix))
+        ni += 1
+    return b"".join(out)
+
+
+def set_dimension(xml: bytes, ref: str) -> bytes:
+    """Set ``<dimension ref>`` (adding the element after ``<sheetPr>`` if the part has none)."""
+    m = _DIMENSION.search(xml)
+    if m:
+        return xml[:m.start(1)] + ref.encode("ascii") + xml[m.end(1):]
+    prefix = _prefix(xml)
+    el = b"<" + prefix + b'dimension ref="' + ref.encode("ascii") + b'"/>'
+    # dimension follows sheetPr if present, else opens the worksheet
+    sp = re.search(rb"<" + re.escape(prefix) + rb"sheetPr\b[^>]*?(?:/>|>.*?</" + re.escape(prefix) + rb"sheetPr>)",
+                   xml, re.S)
+    if sp:
+        return xml[:sp.end()] + el + xml[sp.end():]
+    root = _ROOT.search(xml)
+    i = xml.index(b">", root.end()) + 1
+    return xml[:i] + el + xml[i:]
+
+
+def _widen_dimension(xml: bytes, refs) -> bytes:
+    cur = dimension(xml)
+    rows, cols = [], []
+    if cur:
+        for part in cur.split(":"):
+            try:
+                r, c = split_ref(part)
+            except ValueError:
+                continue
+            rows.append(r)
+            cols.append(c)
+    for ref in refs:
+        r, c = split_ref(ref)
+        rows.append(r)
+        cols.append(c)
+    new = f"{column_letters(min(cols))}{min(rows)}:{column_letters(max(cols))}{max(rows)}"
+    if new == cur:
+        return xml
+    return set_dimension(xml, new)
