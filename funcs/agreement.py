@@ -204,7 +204,10 @@ def intraclass_correlation(ratings, model: str, unit: str, confidence: float = 0
     v.confidence("confidence", v.number("confidence", confidence))
     x = v.complete_rows("ratings", v.numeric_matrix("ratings", ratings), min_rows=2, min_columns=2)
     n, k = x.shape
-    ms = mean_squares(x)
+    with np.errstate(over="ignore", invalid="ignore"):
+        ms = mean_squares(x)
+    if not all(math.isfinite(value) for value in ms.values()):
+        raise DomainError("ratings are too large for their squares to be represented", argument="ratings")
     msr, msc, mse, msw = ms["rows"], ms["columns"], ms["error"], ms["within"]
     if msr == 0.0 and msw == 0.0:
         raise ZeroVarianceError("ratings are all the same value; the ICC is undefined", argument="ratings")
