@@ -34,7 +34,6 @@ Conventions
 
 from __future__ import annotations
 
-import math
 from fractions import Fraction
 
 import numpy as np
@@ -320,12 +319,13 @@ def _fisher_two_sided(a: int, focal: int, selected: int, total: int) -> float:
     if low == high:
         return 1.0
     mode = ((focal + 1) * (selected + 1)) // (total + 2)
-    # Tables as probable as the observed one within a relative 1e-7 count as "as extreme"
-    # (ties in exact arithmetic that floating point splits), as in R's fisher.test.
-    limit = dist.logpmf(a) + math.log1p(1e-7)
+    # Tables as probable as the observed one within a relative 1e-14 count as "as extreme": ties in exact
+    # arithmetic that floating point splits (scipy's tolerance; R's 1e-7 would also take in tables that
+    # are truly, if barely, more probable).
+    limit = dist.pmf(a) * (1.0 + 1e-14)
 
     def at_most_limit(k: int) -> bool:
-        return dist.logpmf(k) <= limit
+        return dist.pmf(k) <= limit
 
     if a == mode or at_most_limit(mode):
         return 1.0  # the observed table is (within the tolerance) the most probable one: every table counts
@@ -365,10 +365,10 @@ def impact_fisher(focal_selected: int, focal_applicants: int, ref_selected: int,
 
     p = Σ P(X = k) over every k with P(X = k) ≤ P(X = focal_selected)
 
-    (the "probability" two-sided definition, the one of R's ``fisher.test``
-    and of ``scipy.stats.fisher_exact``, with the same 1e-7 relative
-    tolerance for ties). It is not twice the one-sided p, and no mid-p
-    correction is applied. A statistical indicator, not a legal finding;
+    (the "probability" two-sided definition of R's ``fisher.test`` and
+    ``scipy.stats.fisher_exact``; probabilities within a relative 1e-14 of
+    the observed one count as ties, scipy's tolerance, where R uses 1e-7).
+    It is not twice the one-sided p, and no mid-p correction is applied. A statistical indicator, not a legal finding;
     defer to the employment law that applies where you hire and to qualified
     professional advice.
 

@@ -171,7 +171,9 @@ def scipy_fisher(fs, fa, rs, ra):
 @pytest.mark.parametrize("table", list(random_tables(3, 150, 40)) + list(random_tables(4, 40, 3000)) + [
     (12, 40, 48, 80), (20, 50, 80, 120), (0, 5, 0, 7), (5, 5, 7, 7), (0, 1, 1, 1), (3, 10, 3, 10),
     (1, 2, 1, 2), (2, 4, 2, 4), (0, 20, 20, 20), (20, 20, 0, 20), (45, 100, 60, 100),
-    (40_000, 100_000, 41_000, 100_000), (300, 1_000_000, 350, 1_000_000)])
+    (40_000, 100_000, 41_000, 100_000), (300, 1_000_000, 350, 1_000_000),
+    (3, 500_000_000, 10, 499_999_999),  # near-tie: P(10) exceeds P(3) by a relative 1.4e-8, so 10 is excluded
+    (300_000_000, 500_000_000, 299_990_000, 500_000_000)])
 def test_impact_fisher_against_scipy(table):
     # Reference library: scipy.stats.fisher_exact, alternative="two-sided" (probability-ordering definition).
     ours = call("IMPACT_FISHER", *table)
