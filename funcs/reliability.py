@@ -35,6 +35,7 @@ Conventions
 
 from __future__ import annotations
 
+import dataclasses
 from typing import Literal
 
 import numpy as np
@@ -412,77 +413,64 @@ def length_factor(reliability: float, target: float) -> float:
 
 # ---------------------------------------------------------------- omega
 
+@dataclasses.dataclass(frozen=True)
 class OneFactorFit:
-    """A one-factor model fitted to a correlation matrix: loadings and unique variances."""
+    """A one-factor model fitted to a correlation matrix (helper result of :func:`one_factor_ml`)."""
 
-    __slots__ = ("loadings", "uniquenesses", "converged", "iterations")
-
-    def __init__(self, loadings, uniquenesses, converged, iterations):
-        self.loadings = loadings
-        self.uniquenesses = uniquenesses
-        self.converged = converged
-        self.iterations = iterations
-
-
-def _one_factor_parts(corr: np.ndarray, psi: np.ndarray):
-    s = 1.0 / np.sqrt(psi)
-    scaled = corr * s[:, None] * s[None, :]
-    values, vectors = np.linalg.eigh(scaled)  # ascending
-    return values, vectors
+    loadings: np.ndarray      # λ on the correlation scale, signed so that Σλ ≥ 0
+    uniquenesses: np.ndarray  # ψ on the correlation scale, within [UNIQUENESS_FLOOR, 1]
+    discrepancy: float        # the ML discrepancy at the solution (0 for a perfect fit)
+    converged: bool           # the optimality conditions hold to 1e-6
+    iterations: int
 
 
 def one_factor_ml(corr: np.ndarray) -> OneFactorFit:
-    """Maximum-likelihood one-factor model of a positive-definite correlation matrix.
+    """Maximum-likelihood one-factor model of a positive-definite correlation matrix R.
 
-    Minimises the ML discrepancy log|Σ| + tr(RΣ⁻¹) − log|R| − p over
-    Σ = λλ' + Ψ, with λ concentrated out for given unique variances Ψ
-    (Jöreskog, 1967; the same objective and gradient as R's ``factanal``),
-    by L-BFGS-B with every unique variance in [0.005, 1].
+    Minimises the ML discrepancy F = log|Σ| + tr(RΣ⁻¹) − log|R| − p over
+    Σ = λλ' + Ψ. For given unique variances Ψ the best λ is Ψ^½·v·√(θ − 1),
+    with θ, v the largest eigenvalue and its vector of Ψ^-½ R Ψ^-½, and F is
+    Σ (θⱼ − log θⱼ − 1) over the other eigenvalues (Jöreskog, 1967; the same
+    objective and gradient as R's ``factanal``). F is minimised over Ψ by
+    L-BFGS-B with every unique variance in [0.005, 1].
     """
     p = corr.shape[0]
-    start = (1.0 - 0.5 / p) / np.diag(np.linalg.inv(corr))
-    start = np.clip(start, UNIQUENESS_FLOOR, 1.0)
+    start = np.clip((1.0 - 0.5 / p) / np.diag(np.linalg.inv(corr)), UNIQUENESS_FLOOR, 1.0)
 
-    def discrepancy(psi):
-        values, _ = _one_factor_parts(corr, psi)
+    def parts(psi):
+        # one eigen-decomposition gives the discrepancy, its gradient and the loadings
+        s = 1.0 / np.sqrt(psi)
+        values, vectors = np.linalg.eigh(corr * s[:, None] * s[None, :])  # ascending
         rest = values[:-1]
-        return float(-np.sum(np.log(rest) - rest) - 1.0 + p)
+        f = float(np.sum(rest - np.log(rest)) - (p - 1))
+        lam = np.sqrt(psi) * vectors[:, -1] * np.sqrt(max(values[-1] - 1.0, 0.0))
+        misfit = lam * lam + psi - 1.0  # diag(λλ' + Ψ − R), diag(R) = 1
+        return f, misfit / (psi * psi), lam, misfit
 
-    def loadings(psi):
-        values, vectors = _one_factor_parts(corr, psi)
-        return np.sqrt(psi) * vectors[:, -1] * np.sqrt(max(values[-1] - 1.0, 0.0))
-
-    def gradient(psi):
-        lam = loadings(psi)
-        return (lam * lam + psi - 1.0) / (psi * psi)  # diag(λλ' + Ψ − R) / ψ², diag(R) = 1
-
-    def optimality_gap(psi):
+    def optimality_gap(psi, misfit):
         # The optimality conditions: a zero gradient where ψ is free, a gradient pushing outwards
-        # where ψ sits on a bound. The gradient is judged times ψ², i.e. as the misfit of the
-        # diagonal (λ² + ψ − 1), which is free of scale.
-        g = gradient(psi) * psi * psi
-        gap = np.where(psi <= UNIQUENESS_FLOOR, np.minimum(g, 0.0), np.where(psi >= 1.0, np.maximum(g, 0.0), g))
+        # where ψ sits on a bound. Judged on the diagonal misfit (the gradient times ψ²), which is
+        # free of scale, and whatever the line search reported.
+        gap = np.where(psi <= UNIQUENESS_FLOOR, np.minimum(misfit, 0.0),
+                       np.where(psi >= 1.0, np.maximum(misfit, 0.0), misfit))
         return float(np.max(np.abs(gap))) if np.all(np.isfinite(gap)) else np.inf
 
     best = None
     # A second start from the middle of the box rescues the rare stall where the two largest
     # eigenvalues meet (the objective has a kink there and the line search stops).
     for first in (start, np.full(p, 0.5)):
-        result = optimize.minimize(discrepancy, first, jac=gradient, method="L-BFGS-B",
+        result = optimize.minimize(lambda psi: parts(psi)[:2], first, jac=True, method="L-BFGS-B",
                                    bounds=[(UNIQUENESS_FLOOR, 1.0)] * p,
-                                   options={"maxiter": 2000, "ftol": 0.0, "gtol": 1e-12})
+                                   options={"maxiter": 2000, "ftol": 1e-15, "gtol": 1e-9})
         psi = np.clip(result.x, UNIQUENESS_FLOOR, 1.0)
-        converged = optimality_gap(psi) <= 1e-6  # whatever the line search reported
-        candidate = (not converged, discrepancy(psi), psi, result.nit)
-        if best is None or candidate[:2] < best[:2]:
-            best = candidate
-        if converged:
+        f, _, lam, misfit = parts(psi)
+        fit = OneFactorFit(lam if lam.sum() >= 0 else -lam, psi, f,
+                           optimality_gap(psi, misfit) <= 1e-6, int(result.nit))
+        if best is None or (not fit.converged, fit.discrepancy) < (not best.converged, best.discrepancy):
+            best = fit
+        if fit.converged:
             break
-    converged, psi, iterations = not best[0], best[2], best[3]
-    lam = loadings(psi)
-    if lam.sum() < 0:  # the sign of a single factor is arbitrary; make the loadings mostly positive
-        lam = -lam
-    return OneFactorFit(lam, psi, converged, int(iterations))
+    return best
 
 
 @spreadsheet("OMEGA", returns="coefficient",
