@@ -56,8 +56,9 @@ __all__ = [
 _CAUTION_REFERENCE = ("Equal Employment Opportunity Commission et al. (1978). Uniform Guidelines on Employee "
                       "Selection Procedures, 29 CFR 1607.4(D) and 1607.16(R)")
 
-#: Largest total of applicants IMPACT_FISHER accepts (beyond it the hypergeometric
-#: probabilities lose their meaning in double precision long before the counts are realistic).
+#: Largest total of applicants IMPACT_FISHER accepts: far beyond any real applicant pool, and within
+#: the sizes where the hypergeometric sums were checked against scipy.stats.fisher_exact (whose own
+#: odds-ratio step overflows 64-bit integers near 10**12).
 EXACT_TEST_MAX_APPLICANTS = 10**9
 
 
@@ -256,7 +257,7 @@ def four_fifths(focal_selected: int, focal_applicants: int, ref_selected: int, r
 
 @spreadsheet("IMPACT_Z", returns="number", elementwise=True,
              reference="Fleiss, J. L., Levin, B. & Paik, M. C. (2003). Statistical Methods for Rates and "
-                       "Proportions (3rd ed.), sec. 2.5 (pooled two-proportion z); Morris, S. B. & Lobsenz, R. E. "
+                       "Proportions (3rd ed.), ch. 3 (pooled two-proportion z); Morris, S. B. & Lobsenz, R. E. "
                        "(2000). Significance tests and confidence intervals for the adverse impact ratio. "
                        "Personnel Psychology 53, 89-111.")
 def impact_z(focal_selected: int, focal_applicants: int, ref_selected: int, ref_applicants: int) -> float:
@@ -268,9 +269,7 @@ def impact_z(focal_selected: int, focal_applicants: int, ref_selected: int, ref_
     Sign convention: z is positive when the focal group's rate is lower (the
     direction of adverse impact), i.e. the negative of the usual
     "first minus second" order of general-purpose libraries when the focal
-    group is given first. |z| above about 2 is the "two or three standard
-    deviations" screen courts have used. A statistical indicator, not a
-    legal finding; defer to the employment law that applies where you hire
+    group is given first. A statistical indicator, not a legal finding; defer to the employment law that applies where you hire
     and to qualified professional advice.
 
     Parameters

@@ -133,7 +133,8 @@ def test_four_fifths_docstring_quotes_the_rule():
 # ---------------------------------------------------------------- rates
 
 def test_selection_rate_by_definition():
-    # Definition (29 CFR 1607.16(R)): the number selected divided by the number of applicants.
+    # Uniform Guidelines, sec. 16 (29 CFR 1607.16; the same text is 41 CFR 60-3.16): selection rate is "the
+    # proportion of applicants or candidates who are hired, promoted, or otherwise selected".
     for fs, fa, _, _ in random_tables(1, 200):
         assert call("SELECTION_RATE", fs, fa) == fs / fa
     assert call("SELECTION_RATE", 0, 7) == 0.0
