@@ -460,3 +460,22 @@ def test_rwg_errors():
         call("RWG_J", [[3, 3], [4, None]], 5)
     with raises_code("#VALUE!", "ratings", match="single row or column"):
         call("RWG", [[1, 2], [3, 4]], 5)
+
+
+@pytest.mark.parametrize("level", ["nominal", "ordinal", "interval", "ratio"])
+@pytest.mark.parametrize("continuous", [False, True])
+def test_krippendorff_table_and_pairwise_sums_agree(level, continuous, monkeypatch):
+    # The coincidence matrix and the table-free sums are two routes to the same alpha; both against the
+    # krippendorff package.
+    rng = np.random.default_rng(21)
+    x = rng.gamma(3.0, 1.0, (50, 1)) + rng.gamma(1.0, 0.5, (50, 5))
+    if not continuous:
+        x = np.round(x)
+    x[rng.random(x.shape) < 0.3] = np.nan
+    reference = krippendorff.alpha(x.T, level_of_measurement=level)
+    monkeypatch.setattr(ag, "COINCIDENCE_TABLE_MAX_VALUES", 10**9)
+    table = call("KRIPPENDORFF_ALPHA", x, level)
+    monkeypatch.setattr(ag, "COINCIDENCE_TABLE_MAX_VALUES", 0)
+    direct = call("KRIPPENDORFF_ALPHA", x, level)
+    assert table == pytest.approx(reference, rel=1e-10)
+    assert direct == pytest.approx(reference, rel=1e-10)
