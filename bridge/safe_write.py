@@ -1,0 +1,413 @@
+"""Write a changed workbook package without ever leaving a damaged file behind.
+
+:class:`PackageChanges` collects what changes (parts replaced, parts added,
+parts removed, and the package-level edits those imply: dropping the
+calculation chain, clearing "recalculate everything on open");
+:func:`save_workbook` writes the new package and puts it in place:
+
+* every untouched zip entry keeps its exact uncompressed bytes, its name
+  order, compression method, timestamp and attributes;
+* the new package is written to a temporary file in the destination folder,
+  flushed to disk and re-opened as a workbook; only then is it renamed onto
+  the destination with :func:`os.replace` (atomic on Windows, macOS and
+  Linux), so a crash, a kill or Ctrl-C at any moment leaves the input intact
+  and no half-written file under the output name;
+* by default the output is a new file next to the input (``BOOK.xlsx`` →
+  ``BOOK.recalc.xlsx``), never the input itself, and an existing output is not
+  overwritten unless asked; ``in_place=True`` replaces the input (after the
+  new file is complete), ``backup=True`` keeps the original as
+  ``BOOK.backup.xlsx``;
+* a replace refused because another program holds the file open
+  (``PermissionError``, as on Windows) is retried briefly, then reported as
+  :class:`~trueband.bridge.xlsx_package.WorkbookLocked` in one line.
+
+Test hook: the environment variable ``TRUEBAND_TEST_WRITE_HOOK`` set to
+``pause:N:MARKER`` makes the writer create the file ``MARKER`` after ``N``
+entries and sleep (so a test can kill it part-way); ``exit:N`` makes it exit
+abruptly after ``N`` entries. Nothing else reads it.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import os
+import re
+import shutil
+import time
+import uuid
+import zipfile
+from pathlib import Path
+from typing import Iterable, Mapping
+
+from .xlsx_package import (
+    REL_CALC_CHAIN,
+    UnusableWorkbook,
+    WorkbookLocked,
+    WorkbookPackage,
+    open_workbook_package,
+    rels_part_of,
+)
+
+__all__ = [
+    "PackageChanges",
+    "OutputRefused",
+    "save_workbook",
+    "write_package",
+    "default_output_path",
+    "backup_path_for",
+    "TEMP_PREFIX",
+]
+
+#: Temporary files are named ``.~trueband-<target name>-<random>.tmp`` in the destination folder.
+TEMP_PREFIX = ".~trueband-"
+#: A leftover temporary file older than this (seconds) is from a killed run and is removed.
+STALE_SECONDS = 3600
+#: Parts at least this large are recompressed at zlib level 1 (speed) unless a level is given.
+LARGE_PART = 64 * 1024 ** 2
+_CHUNK = 1 << 20
+_REPLACE_RETRIES = 10
+_REPLACE_WAIT = 0.25
+
+
+class OutputRefused(Exception):
+    """The output cannot be written as asked (it exists, or it is the input); ``str()`` is one line."""
+
+
+@dataclasses.dataclass
+class PackageChanges:
+    """What a command changes in a package.
+
+    ``replace`` maps existing entry names to their new bytes, ``add`` new
+    entry names to bytes (written after the existing entries, in insertion
+    order), ``remove`` names entries to leave out. Edit helpers read the
+    current state of a part through :meth:`current`, so several edits of the
+    same part compose.
+    """
+
+    replace: dict[str, bytes] = dataclasses.field(default_factory=dict)
+    add: dict[str, bytes] = dataclasses.field(default_factory=dict)
+    remove: set[str] = dataclasses.field(default_factory=set)
+
+    def current(self, pkg: WorkbookPackage, part: str) -> bytes | None:
+        """The part's bytes as they will be written (None if absent or removed)."""
+        if part in self.remove:
+            return None
+        if part in self.add:
+            return self.add[part]
+        if part in self.replace:
+            return self.replace[part]
+        return pkg.read(part) if part in pkg else None
+
+    def set(self, pkg: WorkbookPackage, part: str, data: bytes) -> None:
+        """Write ``data`` as ``part`` (replacing an existing part or adding a new one)."""
+        self.remove.discard(part)
+        if part in pkg:
+            if data == pkg.read(part):
+                self.replace.pop(part, None)  # unchanged after all: copy the original
+            else:
+                self.replace[part] = data
+        else:
+            self.add[part] = data
+
+    def delete(self, part: str) -> None:
+        self.replace.pop(part, None)
+        self.add.pop(part, None)
+        self.remove.add(part)
+
+    # -- package-level edits
+
+    def drop_calc_chain(self, pkg: WorkbookPackage) -> None:
+        """Remove ``xl/calcChain.xml``, its relationship and its content-type entry.
+
+        The calculation chain lists formula cells in the order the app last
+        computed them. After formulas are added or removed it is stale, and
+        an app may report the file as damaged; without it, apps rebuild it on
+        the next recalculation, so removing it is the safe edit.
+        """
+        part = pkg.calc_chain_part
+        if part is None:
+            return
+        self.delete(part)
+        rels_name = rels_part_of(pkg.workbook_part)
+        rels = self.current(pkg, rels_name)
+        if rels is not None:
+            self.set(pkg, rels_name, _remove_relationship_of_type(rels, REL_CALC_CHAIN))
+        ct = self.current(pkg, "[Content_Types].xml")
+        self.set(pkg, "[Content_Types].xml", remove_override(ct, "/" + part))
+
+    def keep_cached_values(self, pkg: WorkbookPackage) -> None:
+        """Make the app show the cached values on open instead of recalculating everything.
+
+        ``fullCalcOnLoad="1"`` in ``<calcPr>`` (written by some libraries)
+        tells the app to recompute every formula when it opens the file; an
+        app without trueband's functions would then replace the values
+        written here with ``#NAME?``. The attribute is removed when present;
+        when absent, the workbook part is left byte-identical.
+        """
+        wb = self.current(pkg, pkg.workbook_part)
+        new = re.sub(rb'(<(?:\w+:)?calcPr\b[^>]*?)\s+fullCalcOnLoad="(?:1|true)"', rb"\1", wb, count=1)
+        if new != wb:
+            self.set(pkg, pkg.workbook_part, new)
+
+    @property
+    def empty(self) -> bool:
+        return not (self.replace or self.add or self.remove)
+
+
+def _remove_relationship_of_type(rels: bytes, rel_type: str) -> bytes:
+    word = re.escape(rel_type.rsplit("/", 1)[-1].encode())
+    return re.sub(rb'<(?:\w+:)?Relationship\b[^>]*?Type="[^"]*/' + word + rb'"[^>]*?/>', b"", rels)
+
+
+def remove_override(content_types: bytes, part_name: str) -> bytes:
+    """``[Content_Types].xml`` without the ``<Override>`` of ``part_name`` (``/xl/calcChain.xml``)."""
+    return re.sub(rb'<(?:\w+:)?Override\b[^>]*?PartName="' + re.escape(part_name.encode()) + rb'"[^>]*?/>', b"",
+                  content_types, flags=re.I)
+
+
+def add_override(content_types: bytes, part_name: str, content_type: str) -> bytes:
+    """``[Content_Types].xml`` with an ``<Override>`` for ``part_name`` (unchanged if it has one)."""
+    if re.search(rb'PartName="' + re.escape(part_name.encode()) + rb'"', content_types, re.I):
+        return content_types
+    el = f'<Override PartName="{part_name}" ContentType="{content_type}"/>'.encode()
+    i = content_types.rindex(b"</")
+    return content_types[:i] + el + content_types[i:]
+
+
+# ------------------------------------------------------------------ paths
+
+
+def default_output_path(input_path: str | os.PathLike, tag: str = "recalc") -> Path:
+    """``BOOK.xlsx`` → ``BOOK.recalc.xlsx`` (same folder, same extension)."""
+    p = Path(input_path)
+    return p.with_name(f"{p.stem}.{tag}{p.suffix}")
+
+
+def backup_path_for(input_path: str | os.PathLike) -> Path:
+    """``BOOK.backup.xlsx``, or ``BOOK.backup-2.xlsx`` and so on when that exists already."""
+    p = Path(input_path)
+    candidate = p.with_name(f"{p.stem}.backup{p.suffix}")
+    n = 2
+    while candidate.exists():
+        candidate = p.with_name(f"{p.stem}.backup-{n}{p.suffix}")
+        n += 1
+    return candidate
+
+
+def _same_file(a: Path, b: Path) -> bool:
+    try:
+        return a.exists() and b.exists() and os.path.samefile(a, b)
+    except OSError:
+        return a.resolve() == b.resolve()
+
+
+def _remove_stale_temps(folder: Path, target: Path) -> None:
+    now = time.time()
+    for leftover in folder.glob(f"{TEMP_PREFIX}{target.name}-*.tmp"):
+        try:
+            if now - leftover.stat().st_mtime > STALE_SECONDS:
+                leftover.unlink()
+        except OSError:
+            pass  # another run may own it, or it is already gone
+
+
+# ------------------------------------------------------------------ writing
+
+
+def _hook():
+    raw = os.environ.get("TRUEBAND_TEST_WRITE_HOOK", "")
+    if not raw:
+        return None
+    parts = raw.split(":", 2)
+    return parts[0], int(parts[1]), (parts[2] if len(parts) > 2 else "")
+
+
+def _run_hook(hook, written: int) -> None:
+    if hook is None or written != hook[1]:
+        return
+    action, _, marker = hook
+    if action == "pause":
+        if marker:
+            Path(marker).write_text(str(os.getpid()))
+        time.sleep(120)
+    elif action == "exit":
+        os._exit(3)
+
+
+def _copy_info(info: zipfile.ZipInfo) -> zipfile.ZipInfo:
+    new = zipfile.ZipInfo(info.filename, date_time=info.date_time)
+    new.compress_type = info.compress_type
+    new.comment = info.comment
+    new.create_system = info.create_system
+    new.create_version = info.create_version
+    new.extract_version = info.extract_version
+    new.external_attr = info.external_attr
+    new.internal_attr = info.internal_attr
+    new.flag_bits = info.flag_bits & 0x0800  # keep only the UTF-8 name flag; sizes are rewritten
+    return new
+
+
+def _level_for(size: int, compresslevel: int | None) -> int | None:
+    if compresslevel is not None:
+        return compresslevel
+    return 1 if size >= LARGE_PART else None
+
+
+def _set_level(info: zipfile.ZipInfo, level: int | None) -> None:
+    # The attribute is private before Python 3.13 and public (compress_level) from it.
+    info._compresslevel = level
+    if hasattr(info, "compress_level"):
+        info.compress_level = level
+
+
+def write_package(pkg: WorkbookPackage, changes: PackageChanges, dest: str | os.PathLike, *,
+                  compresslevel: int | None = None) -> None:
+    """Write the changed package to ``dest`` directly (no temporary file; see :func:`save_workbook`).
+
+    Untouched entries are decompressed and written again with their original
+    ZipInfo (name, timestamp, method, attributes), in their original order;
+    replaced entries take the place of the original; added entries follow.
+    """
+    unknown = (set(changes.replace) | changes.remove) - set(pkg.entry_names)
+    if unknown:
+        raise KeyError(f"changes name parts the package does not have: {sorted(unknown)}")
+    hook = _hook()
+    written = 0
+    default_method = zipfile.ZIP_DEFLATED
+    with open(dest, "xb") as fh:
+        with zipfile.ZipFile(fh, "w", allowZip64=True) as out:
+            for name in pkg.entry_names:
+                if name in changes.remove:
+                    continue
+                info = pkg.infos[name]
+                new_info = _copy_info(info)
+                if name in changes.replace:
+                    data = changes.replace[name]
+                    if new_info.compress_type == zipfile.ZIP_STORED and len(data) > 1024:
+                        new_info.compress_type = default_method
+                    _set_level(new_info, _level_for(len(data), compresslevel))
+                    out.writestr(new_info, data)
+                elif info.file_size <= _CHUNK * 8:
+                    _set_level(new_info, _level_for(info.file_size, compresslevel))
+                    out.writestr(new_info, pkg.read(name))
+                else:  # a large untouched part: stream it
+                    _set_level(new_info, _level_for(info.file_size, compresslevel))
+                    new_info.file_size = info.file_size
+                    with pkg.open_part(name) as src, out.open(new_info, "w", force_zip64=True) as dst:
+                        shutil.copyfileobj(src, dst, _CHUNK)
+                written += 1
+                _run_hook(hook, written)
+            for name, data in changes.add.items():
+                info = zipfile.ZipInfo(name, date_time=time.localtime(time.time())[:6])
+                info.compress_type = default_method
+                _set_level(info, _level_for(len(data), compresslevel))
+                out.writestr(info, data)
+                written += 1
+                _run_hook(hook, written)
+        fh.flush()
+        os.fsync(fh.fileno())
+
+
+def _verify(path: Path, pkg: WorkbookPackage, changes: PackageChanges) -> None:
+    """Re-open the written file as a workbook and check it holds exactly the expected entries."""
+    expected = [n for n in pkg.entry_names if n not in changes.remove] + list(changes.add)
+    try:
+        with open_workbook_package(path, check_lock=False, max_total=1 << 62, max_ratio=1e9) as new:
+            if new.entry_names != expected:
+                raise UnusableWorkbook(f"the written file {path.name} does not hold the expected parts")
+            if path.stat().st_size < 256 * 1024 ** 2:
+                bad = new._zip.testzip()
+                if bad is not None:
+                    raise UnusableWorkbook(f"the written file {path.name} fails its checksum at {bad}")
+    except UnusableWorkbook as exc:
+        raise UnusableWorkbook(f"writing failed, nothing was changed: {exc.message}") from None
+
+
+def _replace(src: Path, dst: Path) -> None:
+    for attempt in range(_REPLACE_RETRIES):
+        try:
+            os.replace(src, dst)
+            return
+        except PermissionError:
+            if attempt == _REPLACE_RETRIES - 1:
+                raise WorkbookLocked(f"{dst.name} is open in another program (it cannot be replaced); "
+                                     f"close it there and run again", path=dst) from None
+            time.sleep(_REPLACE_WAIT)
+
+
+def save_workbook(pkg: WorkbookPackage, changes: PackageChanges, *, output: str | os.PathLike | None = None,
+                  in_place: bool = False, backup: bool = False, overwrite: bool = False, tag: str = "recalc",
+                  compresslevel: int | None = None) -> Path:
+    """Write the changed workbook safely and return the path written.
+
+    Parameters
+    ----------
+    pkg : WorkbookPackage
+        The opened input (kept open while writing: untouched parts are copied from it).
+    changes : PackageChanges
+    output : path-like, optional
+        Where to write; default ``BOOK.<tag>.xlsx`` beside the input. Must not
+        be the input (use ``in_place``).
+    in_place : bool
+        Replace the input itself, after the new file is complete and re-opens.
+    backup : bool
+        With ``in_place``: keep the original as ``BOOK.backup.xlsx`` (or ``-2``...).
+    overwrite : bool
+        Allow replacing an existing ``output``; default False.
+    tag : str
+        The word in the default output name.
+
+    Raises
+    ------
+    OutputRefused
+        The output exists (and ``overwrite`` is False), is the input, or is combined with ``in_place``.
+    WorkbookLocked
+        The destination is held open by another program.
+    UnusableWorkbook
+        The written file did not re-open cleanly (nothing was changed).
+    """
+    src = pkg.path
+    if in_place:
+        if output is not None:
+            raise OutputRefused("give either an output file or --in-place, not both")
+        dest = src
+    else:
+        dest = Path(output) if output is not None else default_output_path(src, tag)
+        if dest.suffix.lower() not in (".xlsx", ".xlsm"):
+            raise OutputRefused(f"the output {dest.name} must end in .xlsx or .xlsm")
+        if _same_file(dest, src) or dest.resolve() == src.resolve():
+            raise OutputRefused(f"the output {dest.name} is the input; use --in-place to replace the input")
+        if dest.exists() and not overwrite:
+            raise OutputRefused(f"{dest} exists already; remove it, choose another output, or allow overwriting")
+        if pkg.is_macro_enabled and dest.suffix.lower() == ".xlsx" and src.suffix.lower() == ".xlsm":
+            raise OutputRefused(f"{src.name} holds macros; the output must end in .xlsm, not {dest.name}")
+    folder = dest.parent
+    _remove_stale_temps(folder, dest)
+    temp = folder / f"{TEMP_PREFIX}{dest.name}-{uuid.uuid4().hex[:12]}.tmp"
+    try:
+        write_package(pkg, changes, temp, compresslevel=compresslevel)
+        _verify(temp, pkg, changes)
+        if in_place and backup:
+            shutil.copy2(src, backup_path_for(src))
+        if in_place:
+            # On Windows the input is still open for reading through pkg; close it before replacing.
+            pkg.close()
+        _replace(temp, dest)
+    except BaseException:
+        try:
+            temp.unlink()
+        except OSError:
+            pass
+        raise
+    return dest
+
+
+def changed_parts(pkg: WorkbookPackage, changes: PackageChanges) -> Iterable[str]:
+    """Names of the entries whose bytes differ from the input's (for summaries and tests)."""
+    return [*changes.replace, *changes.add, *changes.remove]
+
+
+def read_back(path: str | os.PathLike) -> Mapping[str, bytes]:
+    """Every entry of a package as name → uncompressed bytes (tests compare packages with it)."""
+    with zipfile.ZipFile(path) as zf:
+        return {n: zf.read(n) for n in zf.namelist()}
