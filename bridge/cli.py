@@ -29,6 +29,7 @@ EXIT_INTERRUPTED = 130
 COMMAND_MODULES = (
     "trueband.bridge.cmd_catalog",
     "trueband.bridge.cmd_serve",
+    "trueband.bridge.cmd_recalc",
 )
 
 

@@ -8,9 +8,12 @@ formula that mixes both. Nothing here knows any single function.
 
 Argument conversion, from what the engine passes to what the registry takes:
 
-* a range or array literal of a *range* argument becomes nested rows with
-  ``None`` for empty cells; an error cell inside it makes the result that
-  error (as spreadsheet functions do);
+* a range or array literal of a *range* argument becomes a read-only 2-D
+  float array (blanks ``nan``) when it holds only numbers and blanks, and
+  nested rows with ``None`` for empty cells otherwise; an error cell inside
+  it makes the result that error (as spreadsheet functions do). The last
+  few ranges converted are remembered, so 40 cells reading the same
+  50,000-row range convert it once;
 * a *scalar* argument given as a one-cell range is that cell; a larger range
   is ``#VALUE!``; an error value passes through as the result;
 * a project error becomes the engine's error value of the same code, and its
@@ -26,13 +29,13 @@ from typing import Callable
 import numpy as np
 import formulas
 import schedula
-from formulas.functions import Error, XlError
+from formulas.functions import Error, XlError, not_implemented
 
 from trueband.funcs.errors import ArgumentTypeError, TruebandError, error_for_code
 from trueband.funcs.registry import NAME_PREFIXES, REGISTRY, SpreadsheetFunction
 
 __all__ = ["install", "BUILTIN_NAMES", "ERROR_LOG", "evaluate_expression", "to_engine_error", "UnreadableFormula",
-           "message_for"]
+           "message_for", "range_argument", "scalar_argument", "PassError", "NOT_IMPLEMENTED"]
 
 # The engine logs every failing function with a traceback; errors are values here.
 logging.getLogger("schedula").setLevel(logging.CRITICAL)
@@ -40,6 +43,8 @@ logging.getLogger("formulas").setLevel(logging.CRITICAL)
 
 #: Names of the standard functions the engine knows, taken before ours are added.
 BUILTIN_NAMES = frozenset(formulas.get_functions())
+#: What the engine's function table gives for a name it does not know.
+NOT_IMPLEMENTED = not_implemented
 
 
 class _ErrorLog(threading.local):
@@ -64,34 +69,101 @@ class UnreadableFormula(TruebandError):
     """A formula that cannot be parsed, or that cannot be evaluated without a workbook."""
 
 
-class _PassError(Exception):
+class PassError(Exception):
+    """An error value inside an argument: it becomes the function's result."""
+
     def __init__(self, value: XlError):
         self.value = value
+
+
+_PassError = PassError
 
 
 def _cell(value):
     if value is schedula.EMPTY:
         return None
     if isinstance(value, XlError):
-        raise _PassError(value)
+        raise PassError(value)
     if isinstance(value, np.generic):
         return value.item()
     return value
 
 
-def _range_arg(value):
-    if not isinstance(value, np.ndarray):
-        return [[_cell(value)]]
-    arr = np.atleast_2d(np.asarray(value, dtype=object))
+class _RangeCache:
+    """The last few ranges converted, keyed by the identity of the engine's array (kept alive here)."""
+
+    size = 8
+
+    def __init__(self):
+        self.entries: list[tuple[object, object]] = []
+
+    def get(self, value):
+        for source, converted in self.entries:
+            if source is value:
+                return converted
+        return None
+
+    def put(self, value, converted):
+        self.entries.insert(0, (value, converted))
+        del self.entries[self.size:]
+
+
+_RANGES = threading.local()
+
+
+def _range_cache() -> _RangeCache:
+    cache = getattr(_RANGES, "cache", None)
+    if cache is None:
+        cache = _RANGES.cache = _RangeCache()
+    return cache
+
+
+def _convert_range(arr: np.ndarray):
+    flat = arr.ravel()
+    kinds = np.frompyfunc(type, 1, 1)(flat) if flat.size else flat
+    is_float = (kinds == float) | (kinds == int) | (kinds == np.float64)
+    is_blank = np.frompyfunc(lambda x: x is schedula.EMPTY or x is None, 1, 1)(flat).astype(bool) if flat.size \
+        else np.zeros(0, dtype=bool)
+    if flat.size and (is_float | is_blank).all():
+        out = np.full(flat.shape, np.nan)
+        out[is_float] = flat[is_float].astype(float)
+        out = out.reshape(arr.shape)
+        out.flags.writeable = False  # shared between cells: no function may change it
+        return out
+    for x in flat:
+        if isinstance(x, XlError):
+            return PassError(x)
     return [[_cell(x) for x in row] for row in arr]
 
 
-def _scalar_arg(value, name: str):
+def range_argument(value):
+    """A range argument as the registry takes it (see the module docstring)."""
+    if not isinstance(value, np.ndarray):
+        return [[_cell(value)]]
+    cache = _range_cache()
+    converted = cache.get(value)
+    if converted is None:
+        arr = np.atleast_2d(np.asarray(value, dtype=object))
+        converted = _convert_range(arr)
+        cache.put(value, converted)
+    if isinstance(converted, PassError):
+        raise converted
+    return converted
+
+
+_range_arg = range_argument
+
+
+def scalar_argument(value, name: str):
+    """A scalar argument: a one-cell range is that cell; a larger range is refused."""
     if isinstance(value, np.ndarray):
         if value.size != 1:
             raise ArgumentTypeError(f"{name} must be a single value, got a range of {value.size} cells", argument=name)
         value = value.ravel()[0]
     return _cell(value)
+
+
+_scalar_arg = scalar_argument
 
 
 def adapter(spec: SpreadsheetFunction) -> Callable:

@@ -1,0 +1,140 @@
+"""``trueband recalc`` (evaluate a saved workbook, write the cached values) and ``trueband check``."""
+
+from __future__ import annotations
+
+import difflib
+import sys
+import time
+
+from trueband.funcs.registry import NAME_PREFIXES, REGISTRY
+
+from .cli import EXIT_CELL_ERRORS, EXIT_FAILED, EXIT_OK
+
+#: Workbooks with at least this many formula cells show a progress bar (when stderr is a terminal).
+PROGRESS_THRESHOLD = 20_000
+#: Rows of the error table printed before "... and N more".
+TABLE_LIMIT = 50
+
+
+class _Progress:
+    """A one-line bar on stderr, redrawn at most ten times a second; silent when stderr is not a terminal."""
+
+    def __init__(self, stream=None):
+        self.stream = stream or sys.stderr
+        self.enabled = self.stream.isatty()
+        self.last = 0.0
+        self.shown = False
+
+    def __call__(self, stage: str, fraction: float) -> None:
+        if not self.enabled:
+            return
+        now = time.monotonic()
+        if now - self.last < 0.1 and fraction < 1.0:
+            return
+        self.last = now
+        width = 30
+        filled = int(round(width * max(0.0, min(1.0, fraction))))
+        self.stream.write(f"\r{stage:<10} [{'#' * filled}{'.' * (width - filled)}] {fraction * 100:5.1f}%")
+        self.stream.flush()
+        self.shown = True
+
+    def close(self) -> None:
+        if self.shown:
+            self.stream.write("\r" + " " * 60 + "\r")
+            self.stream.flush()
+
+
+def error_table(errors, limit: int = TABLE_LIMIT) -> str:
+    """The compact table of error cells: sheet!cell, function, message."""
+    rows = [(f"{e.sheet}!{e.cell}", e.function or "-", f"{e.code}  {e.message}") for e in errors[:limit]]
+    if not rows:
+        return ""
+    w1 = max(len("cell"), *(len(r[0]) for r in rows))
+    w2 = max(len("function"), *(len(r[1]) for r in rows))
+    lines = [f"{'cell':<{w1}}  {'function':<{w2}}  message"]
+    lines += [f"{a:<{w1}}  {b:<{w2}}  {c}" for a, b, c in rows]
+    if len(errors) > limit:
+        lines.append(f"... and {len(errors) - limit} more error cells")
+    return "\n".join(lines)
+
+
+def _recalc(args) -> int:
+    from .recalc import UnusableWorkbook, recalculate
+
+    if args.backup and not args.in_place:
+        print("trueband recalc: --backup goes with --in-place", file=sys.stderr)
+        return EXIT_FAILED
+    if args.in_place and args.output:
+        print("trueband recalc: give either -o/--output or --in-place, not both", file=sys.stderr)
+        return EXIT_FAILED
+    progress = _Progress()
+    try:
+        report = recalculate(args.book, args.output, in_place=args.in_place, backup=args.backup,
+                             all_formulas=args.all, values=args.values,
+                             progress=progress if progress.enabled else None)
+    except UnusableWorkbook as exc:
+        progress.close()
+        print(f"trueband recalc: {exc.message}", file=sys.stderr)
+        return EXIT_FAILED
+    progress.close()
+    if report.errors:
+        print(error_table(report.errors))
+    for cycle in report.cycles:
+        print(f"circular reference (not iterated): {' → '.join(cycle + cycle[:1])}", file=sys.stderr)
+    print(report.summary(), file=sys.stderr)
+    return EXIT_OK if report.ok else EXIT_CELL_ERRORS
+
+
+def suggestion(name: str) -> str | None:
+    """The closest registered or standard function name, for "did you mean"."""
+    from .formula_functions import BUILTIN_NAMES
+
+    key = name.upper()
+    for prefix in NAME_PREFIXES:
+        if key.startswith(prefix):
+            key = key[len(prefix):]
+            break
+    candidates = list(REGISTRY) + [n for n in BUILTIN_NAMES if "." not in n]
+    found = difflib.get_close_matches(key, candidates, n=1, cutoff=0.6)
+    return found[0] if found else None
+
+
+def _check(args) -> int:
+    from .recalc import UnusableWorkbook, check_workbook
+
+    try:
+        findings = check_workbook(args.book)
+    except UnusableWorkbook as exc:
+        print(f"trueband check: {exc.message}", file=sys.stderr)
+        return EXIT_FAILED
+    for line in findings.lines():
+        print(line)
+    return EXIT_OK if findings.ok else EXIT_CELL_ERRORS
+
+
+def register(sub) -> None:
+    p = sub.add_parser(
+        "recalc", help="evaluate a saved workbook's formulas and store the values in the file",
+        description="Evaluate every formula that uses a trueband function (and every formula that depends on one, "
+                    "or has no stored value), and write the values into the workbook as the cells' stored values, "
+                    "changing nothing else. Cells whose inputs are out of range get the spreadsheet error code and "
+                    "are listed. Exit status: 0 all evaluated, 1 some cells are errors, 2 the workbook could not "
+                    "be processed (nothing written).")
+    p.add_argument("book", help="the .xlsx or .xlsm workbook")
+    p.add_argument("-o", "--output", help="where to write (default: BOOK.recalculated.xlsx beside the input)")
+    p.add_argument("--in-place", action="store_true",
+                   help="replace the input, only once the new file is complete and re-opens cleanly")
+    p.add_argument("--backup", action="store_true", help="with --in-place, keep the original beside it")
+    p.add_argument("--all", action="store_true", help="evaluate every formula in the workbook")
+    p.add_argument("--values", action="store_true",
+                   help="replace trueband formulas by their values, keeping the formulas in a hidden sheet "
+                        "(`trueband restore` puts them back)")
+    p.set_defaults(handler=_recalc)
+
+    p = sub.add_parser(
+        "check", help="list trueband cells, unknown functions, argument-count mistakes and stray references",
+        description="Read a workbook without writing anything and list the cells that use trueband functions, "
+                    "unknown function names (with a suggestion), calls with too few or too many arguments, and "
+                    "references outside the sheet's used range. Exit status 1 when a problem is found.")
+    p.add_argument("book", help="the .xlsx or .xlsm workbook")
+    p.set_defaults(handler=_check)

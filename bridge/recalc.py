@@ -1,0 +1,785 @@
+"""Recalculate a saved workbook offline and write the values as the cells' cached values.
+
+:func:`recalculate` reads every worksheet of the package (the package layer:
+:mod:`~trueband.bridge.xlsx_package`, :mod:`~trueband.bridge.sheet_xml`),
+groups the formula cells into filled-down runs and links them
+(:mod:`~trueband.bridge.formula_graph`), evaluates what needs it in
+dependency order (:mod:`~trueband.bridge.column_eval`) and patches only the
+evaluated cells into the sheet parts; every other part of the package is
+copied unchanged.
+
+What is evaluated
+-----------------
+* every formula that uses a registered function (any letter case, with or
+  without the prefixes spreadsheet apps put before functions they do not
+  know, such as ``_xludf.``);
+* every formula that depends on one of those, transitively, across sheets
+  and through defined names;
+* every formula without a cached value;
+* with ``all_formulas=True``, every formula.
+
+Other formulas keep their cached values, which the evaluated ones read.
+Cells on a circular reference are not iterated: they get ``#VALUE!`` and
+are listed in :attr:`RecalcReport.cycles`.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import os
+import sys
+import time
+from pathlib import Path
+from typing import Callable, Iterable
+
+import numpy as np
+from formulas.functions import XlError
+
+from . import sheet_xml
+from .column_eval import (EMPTY, CellProblem, VectorUnsupported, error_value, evaluate_array_formula, evaluate_cell,
+                          evaluate_run, registered_name)
+from .formula_graph import (MAX_ROW, Compiled, FormulaGraph, FormulaSyntaxError, Node, Ref, Run, column_letters,
+                            compile_formula, formula_key, split_address)
+from .xlsx_package import UnusableWorkbook, WorkbookPackage, open_workbook_package
+
+__all__ = ["recalculate", "RecalcReport", "CellError", "WorkbookModel", "load_model", "evaluate_model",
+           "check_workbook", "CheckFindings", "UnusableWorkbook"]
+
+
+@dataclasses.dataclass(frozen=True)
+class CellError:
+    """A cell whose value is an error after recalculation."""
+
+    sheet: str
+    cell: str
+    function: str
+    code: str
+    message: str
+
+    def __iter__(self):  # unpacks as (sheet, cell, function, code, message)
+        return iter((self.sheet, self.cell, self.function, self.code, self.message))
+
+
+@dataclasses.dataclass
+class RecalcReport:
+    """What a recalculation did.
+
+    ``evaluated`` counts the formula cells computed, ``formulas`` all formula
+    cells found, ``vectorised`` the cells computed as part of a whole-column
+    run; ``errors`` lists the cells whose value is an error; ``cycles`` the
+    circular references, each as a list of ``Sheet!A1`` addresses.
+    """
+
+    source: Path
+    output: Path | None
+    formulas: int = 0
+    evaluated: int = 0
+    vectorised: int = 0
+    errors: list[CellError] = dataclasses.field(default_factory=list)
+    cycles: list[list[str]] = dataclasses.field(default_factory=list)
+    seconds: float = 0.0
+    values_mode: bool = False
+
+    @property
+    def ok(self) -> bool:
+        return not self.errors and not self.cycles
+
+    def summary(self) -> str:
+        where = f" → {self.output}" if self.output else ""
+        return (f"{self.evaluated} of {self.formulas} formula cells evaluated, {len(self.errors)} errors"
+                + (f", {len(self.cycles)} circular references" if self.cycles else "")
+                + f", {self.seconds:.2f} s{where}")
+
+
+# ---------------------------------------------------------------- the cell values of a workbook
+
+_KIND_BLANK, _KIND_NUMBER, _KIND_OTHER = 0, 1, 2
+
+
+class _Column:
+    """One column of a sheet: dense float values and kinds by row number; other values by row."""
+
+    __slots__ = ("num", "kind", "other")
+
+    def __init__(self, size: int):
+        self.num = np.full(size, np.nan)
+        self.kind = np.zeros(size, dtype=np.int8)
+        self.other: dict[int, object] = {}
+
+    def grow(self, size: int):
+        if size > self.num.size:
+            size = max(size, int(self.num.size * 1.5) + 16)
+            num = np.full(size, np.nan)
+            num[:self.num.size] = self.num
+            kind = np.zeros(size, dtype=np.int8)
+            kind[:self.kind.size] = self.kind
+            self.num, self.kind = num, kind
+
+
+def _engine_value(v):
+    """A reader value (float, str, bool, ErrorValue, None) as the evaluator's value."""
+    if v is None:
+        return EMPTY
+    if isinstance(v, sheet_xml.ErrorValue):
+        return error_value(str(v))
+    return v
+
+
+class CellStore:
+    """Cell values of every worksheet, by sheet (case-insensitive), column and row."""
+
+    def __init__(self):
+        self.sheets: dict[str, dict[int, _Column]] = {}
+        self.names: dict[str, str] = {}  # casefolded → canonical
+        self.max_row: dict[str, int] = {}
+        self._areas: dict[tuple, np.ndarray] = {}
+
+    def add_sheet(self, name: str, columns: dict[int, tuple[list, list]]):
+        cols = {}
+        top = 0
+        for c, (rows, values) in columns.items():
+            size = (max(rows) if rows else 0) + 1
+            col = _Column(size)
+            r = np.asarray(rows, dtype=np.int64)
+            nums = [type(v) is float for v in values]
+            if all(nums):
+                col.num[r] = values
+                col.kind[r] = _KIND_NUMBER
+            else:
+                for row, v in zip(rows, values):
+                    if type(v) is float:
+                        col.num[row] = v
+                        col.kind[row] = _KIND_NUMBER
+                    elif v is not EMPTY:
+                        col.other[row] = v
+                        col.kind[row] = _KIND_OTHER
+            cols[c] = col
+            top = max(top, size - 1)
+        self.sheets[name] = cols
+        self.names[name.casefold()] = name
+        self.max_row[name] = top
+
+    def _sheet(self, sheet: str):
+        name = self.names.get(sheet.casefold())
+        return None if name is None else self.sheets[name]
+
+    def canonical(self, sheet: str) -> str | None:
+        return self.names.get(sheet.casefold())
+
+    def value(self, sheet: str, row: int, col: int):
+        cols = self._sheet(sheet)
+        if cols is None:
+            return error_value("#REF!")
+        c = cols.get(col)
+        if c is None or row >= c.kind.size:
+            return EMPTY
+        k = c.kind[row]
+        if k == _KIND_NUMBER:
+            return float(c.num[row])
+        if k == _KIND_OTHER:
+            return c.other[row]
+        return EMPTY
+
+    def column(self, sheet: str, col: int, r1: int, r2: int) -> np.ndarray:
+        n = r2 - r1 + 1
+        cols = self._sheet(sheet)
+        if cols is None:
+            out = np.empty(n, dtype=object)
+            out[:] = [error_value("#REF!")] * n
+            return out
+        c = cols.get(col)
+        if c is None:
+            out = np.empty(n, dtype=object)
+            out[:] = [EMPTY] * n
+            return out
+        size = c.kind.size
+        stop = min(r2 + 1, size)
+        kind = c.kind[r1:stop] if r1 < size else c.kind[:0]
+        if kind.size == n and (kind == _KIND_NUMBER).all():
+            return c.num[r1:stop].copy()
+        out = np.empty(n, dtype=object)
+        out[:] = [EMPTY] * n
+        if kind.size:
+            numbers = kind == _KIND_NUMBER
+            out[:kind.size][numbers] = c.num[r1:stop][numbers].tolist()
+            for i in np.flatnonzero(kind == _KIND_OTHER):
+                out[i] = c.other[r1 + int(i)]
+        return out
+
+    def row_block(self, sheet: str, r1: int, r2: int, c1: int, c2: int):
+        """(numbers NaN elsewhere (rows, cols), rows that are all numbers, row i in the engine's form)."""
+        n, k = r2 - r1 + 1, c2 - c1 + 1
+        num = np.full((n, k), np.nan)
+        clean = np.ones(n, dtype=bool)
+        cols = self._sheet(sheet)
+        if cols is None:
+            clean[:] = False
+        for j in range(k):
+            c = None if cols is None else cols.get(c1 + j)
+            if c is None:
+                clean[:] = False
+                continue
+            stop = min(r2 + 1, c.kind.size)
+            if r1 >= stop:
+                clean[:] = False
+                continue
+            m = stop - r1
+            num[:m, j] = c.num[r1:stop]
+            clean[:m] &= c.kind[r1:stop] == _KIND_NUMBER
+            clean[m:] = False
+
+        def cells(i: int, sheet=sheet, r=r1, c1=c1, c2=c2) -> np.ndarray:
+            return self.area(sheet, r + i, c1, r + i, c2, cache=False)
+
+        return num, clean, cells
+
+    def area(self, sheet: str, r1: int, c1: int, r2: int, c2: int, *, cache: bool = True) -> np.ndarray:
+        key = (sheet.casefold(), r1, c1, r2, c2)
+        if cache and key in self._areas:
+            return self._areas[key]
+        name = self.canonical(sheet)
+        if name is None:
+            out = np.empty((1, 1), dtype=object)
+            out[0, 0] = error_value("#REF!")
+            return out
+        # A full-column reference reads only the rows the sheet uses.
+        r2 = min(r2, max(self.max_row[name], r1))
+        cols = self.sheets[name]
+        used = [c for c in cols if c1 <= c <= c2]
+        c2 = min(c2, max(used)) if used and c2 - c1 > 1000 else c2
+        out = np.empty((r2 - r1 + 1, c2 - c1 + 1), dtype=object)
+        out[:] = EMPTY
+        for c in used:
+            if c > c2:
+                continue
+            out[:, c - c1] = self.column(name, c, r1, r2)
+        if cache:
+            self._areas[key] = out
+        return out
+
+    def write(self, sheet: str, col: int, first: int, values: np.ndarray):
+        name = self.canonical(sheet)
+        cols = self.sheets[name]
+        c = cols.get(col)
+        last = first + len(values) - 1
+        if c is None:
+            c = cols[col] = _Column(last + 1)
+        c.grow(last + 1)
+        if values.dtype.kind == "f":
+            c.num[first:last + 1] = values
+            c.kind[first:last + 1] = _KIND_NUMBER
+            for r in [r for r in c.other if first <= r <= last]:
+                del c.other[r]
+        else:
+            for i, v in enumerate(values.tolist()):
+                r = first + i
+                if type(v) is float:
+                    c.num[r] = v
+                    c.kind[r] = _KIND_NUMBER
+                    c.other.pop(r, None)
+                else:
+                    c.num[r] = np.nan
+                    c.kind[r] = _KIND_OTHER
+                    c.other[r] = v
+        self.max_row[name] = max(self.max_row[name], last)
+        if self._areas:
+            folded = name.casefold()
+            for key in [k for k in self._areas if k[0] == folded and k[2] <= col <= k[4]
+                        and not (k[3] < first or k[1] > last)]:
+                del self._areas[key]
+
+
+# ---------------------------------------------------------------- reading the workbook
+
+@dataclasses.dataclass
+class FormulaCell:
+    row: int
+    col: int
+    key: str
+    text: str  # the formula text of the cell that compiles it (the master for shared formulas)
+    at: tuple[int, int]  # where ``text`` stands
+    cached: object
+    array_ref: str | None = None
+
+
+@dataclasses.dataclass
+class WorkbookModel:
+    """A workbook read for evaluation: its cell values, formula runs and their graph."""
+
+    package: WorkbookPackage
+    store: CellStore
+    runs: list[Run]
+    graph: FormulaGraph
+    cached_missing: set[int]  # runs with a cell that has no cached value
+    unreadable: dict[tuple[str, int, int], str]  # formula cells the parser cannot read → message
+    sheet_cells: dict[str, list[FormulaCell]]
+    used: dict[str, tuple[int, int, int, int] | None]
+    formula_count: int = 0
+
+
+def _read_sheet(xml: bytes, strings) -> tuple[dict[int, tuple[list, list]], list[FormulaCell], tuple | None]:
+    columns: dict[int, tuple[list, list]] = {}
+    formulas_: list[FormulaCell] = []
+    shared: dict[int, tuple[str, int, int, str]] = {}  # si → (text, row, col, key)
+    r0 = c0 = math.inf
+    r1 = c1 = 0
+    for cell in sheet_xml.iter_cells(xml, strings):
+        f = cell.formula
+        value = cell.value
+        if value is None and f is None:
+            continue
+        row, col = cell.row, cell.col
+        if row < r0:
+            r0 = row
+        if row > r1:
+            r1 = row
+        if col < c0:
+            c0 = col
+        if col > c1:
+            c1 = col
+        v = _engine_value(value)
+        entry = columns.get(col)
+        if entry is None:
+            entry = columns[col] = ([], [])
+        entry[0].append(row)
+        entry[1].append(v)
+        if f is None or f.kind == "dataTable":
+            continue
+        if f.kind == "shared" and f.text is None:
+            master = shared.get(f.shared_index)
+            if master is None:
+                continue  # a dependent before its master: malformed; the cached value stays
+            text, mr, mc, key = master
+            formulas_.append(FormulaCell(row, col, key, text, (mr, mc), value))
+            continue
+        text = "=" + (f.text or "")
+        key, _ = formula_key(text, row, col)
+        if f.kind == "shared" and f.shared_index is not None:
+            shared[f.shared_index] = (text, row, col, key)
+        formulas_.append(FormulaCell(row, col, key, text, (row, col), value,
+                                     array_ref=f.ref if f.kind == "array" else None))
+    used = None if r1 == 0 else (int(r0), int(c0), r1, c1)
+    return columns, formulas_, used
+
+
+def _name_compiler(package: WorkbookPackage):
+    """Defined names compiled once: (name upper, local sheet casefold or None) → Compiled or error text."""
+    compiled: dict[tuple[str, str | None], Compiled | str] = {}
+    for d in package.defined_names:
+        if d.name.startswith("_xlnm."):
+            continue  # print areas and the like
+        try:
+            compiled[(d.name.upper(), d.sheet.casefold() if d.sheet else None)] = compile_formula("=" + d.text, 1, 1)
+        except FormulaSyntaxError as exc:
+            compiled[(d.name.upper(), d.sheet.casefold() if d.sheet else None)] = str(exc)
+    return compiled
+
+
+def _substitute_names(c: Compiled, sheet: str, names: dict, depth: int = 0) -> Compiled:
+    if not any(r.name is not None for r in c.refs):
+        return c
+    if depth > 20:
+        raise FormulaSyntaxError("defined names refer to each other in a loop")
+    refs: list[Ref] = []
+
+    def sub(node: Node) -> Node:
+        if node.kind == "ref":
+            if node.ref.name is None:
+                refs.append(node.ref)
+                return node
+            found = names.get((node.ref.name, (node.ref.sheet or sheet).casefold())) or \
+                names.get((node.ref.name, None))
+            if found is None or isinstance(found, str):
+                return Node("lit", value=error_value("#NAME?"))
+            inner = _substitute_names(found, sheet, names, depth + 1)
+            refs.extend(inner.refs)
+            return inner.tree
+        if node.args:
+            return dataclasses.replace(node, args=tuple(sub(a) for a in node.args))
+        return node
+
+    tree = sub(c.tree)
+    functions = frozenset(n.name for n in tree.walk() if n.kind == "fn")
+    return dataclasses.replace(c, tree=tree, refs=tuple(refs), functions=functions)
+
+
+def load_model(package: WorkbookPackage, progress: Callable[[str, float], None] | None = None) -> WorkbookModel:
+    """Read every worksheet of an opened package into a :class:`WorkbookModel`."""
+    store = CellStore()
+    strings = package.shared_strings
+    runs: list[Run] = []
+    missing: set[int] = set()
+    unreadable: dict[tuple[str, int, int], str] = {}
+    names = _name_compiler(package)
+    compiled_cache: dict[tuple[str, str], Compiled | str] = {}
+    sheet_cells: dict[str, list[FormulaCell]] = {}
+    used: dict[str, tuple | None] = {}
+    total = 0
+    sheets = package.worksheets
+    for k, info in enumerate(sheets):
+        xml = package.read(info.part)
+        try:
+            columns, cells, used_range = _read_sheet(xml, strings)
+        except sheet_xml.SheetXmlError as exc:
+            raise UnusableWorkbook(f"{package.path.name}: sheet {info.name!r}: {exc}", path=package.path) from None
+        del xml
+        store.add_sheet(info.name, columns)
+        del columns
+        sheet_cells[info.name] = cells
+        used[info.name] = used_range
+        total += len(cells)
+        cells.sort(key=lambda f: (f.col, f.row))
+        i = 0
+        while i < len(cells):
+            f = cells[i]
+            j = i + 1
+            if f.array_ref is None:
+                while j < len(cells) and cells[j].col == f.col and cells[j].row == cells[j - 1].row + 1 \
+                        and cells[j].key == f.key and cells[j].array_ref is None:
+                    j += 1
+            ck = (info.name, f.key)
+            comp = compiled_cache.get(ck)
+            if comp is None:
+                try:
+                    comp = compile_formula(f.text, *f.at)
+                    comp = _substitute_names(comp, info.name, names)
+                except FormulaSyntaxError as exc:
+                    comp = str(exc)
+                compiled_cache[ck] = comp
+            if isinstance(comp, str):
+                for g in cells[i:j]:
+                    unreadable[(info.name, g.row, g.col)] = comp
+                i = j
+                continue
+            run = Run(info.name, f.col, f.row, cells[j - 1].row, comp, array_ref=f.array_ref)
+            if any(g.cached is None for g in cells[i:j]):
+                missing.add(len(runs))
+            runs.append(run)
+            i = j
+        if progress:
+            progress("reading", (k + 1) / len(sheets))
+    graph = FormulaGraph(runs)
+    return WorkbookModel(package, store, runs, graph, missing, unreadable, sheet_cells, used, total)
+
+
+# ---------------------------------------------------------------- evaluating
+
+def _uses_registered(compiled: Compiled) -> bool:
+    return any(registered_name(n) is not None for n in compiled.functions)
+
+
+def _cell_value_for_xml(v):
+    if isinstance(v, XlError):
+        return sheet_xml.ErrorValue(str(v))
+    if isinstance(v, np.generic):
+        v = v.item()
+    if v is EMPTY or v is None:
+        return 0.0
+    if isinstance(v, float) and not math.isfinite(v):
+        return sheet_xml.ErrorValue("#NUM!")
+    return v
+
+
+def _function_of(compiled: Compiled) -> str:
+    """The registered function a formula uses (for the error table), else its outermost function."""
+    for node in compiled.tree.walk():
+        if node.kind == "fn" and registered_name(node.name):
+            return registered_name(node.name)
+    for node in compiled.tree.walk():
+        if node.kind == "fn":
+            return node.name
+    return ""
+
+
+def _describe_error(compiled: Compiled, code: str, store, sheet, row, col) -> tuple[str, str]:
+    """(function, message) for an error value with no function message: an error input, or the arithmetic."""
+    for ref in compiled.refs:
+        r1, c1, r2, c2 = ref.area(row, col)
+        if (r2 - r1 + 1) * (c2 - c1 + 1) > 10000:
+            continue
+        target = ref.sheet or sheet
+        for r in range(r1, r2 + 1):
+            for c in range(c1, c2 + 1):
+                v = store.value(target, r, c)
+                if isinstance(v, XlError) and str(v) == code:
+                    where = f"{target}!" if ref.sheet else ""
+                    return _function_of(compiled), f"input {where}{column_letters(c)}{r} is {code}"
+    return _function_of(compiled), f"the formula evaluates to {code}"
+
+
+def evaluate_model(model: WorkbookModel, *, all_formulas: bool = False,
+                   progress: Callable[[str, float], None] | None = None):
+    """Evaluate what needs it; returns (updates by sheet {ref: value}, errors, cycles, evaluated, vectorised)."""
+    graph, store = model.graph, model.store
+    seeds = set(model.cached_missing)
+    for run in model.runs:
+        if all_formulas or _uses_registered(run.compiled):
+            seeds.add(run.index)
+    needed = graph.dependents(seeds)
+    updates: dict[str, dict[str, object]] = {}
+    errors: list[CellError] = []
+    cycles: list[list[str]] = []
+    evaluated = vectorised = 0
+    total = sum(model.runs[i].size for i in needed) or 1
+    done = 0
+
+    def record(run: Run, row: int, col: int, value, problem: CellProblem | None):
+        nonlocal evaluated
+        evaluated += 1
+        out = _cell_value_for_xml(value)
+        updates.setdefault(run.sheet, {})[f"{column_letters(col)}{row}"] = out
+        if isinstance(out, sheet_xml.ErrorValue):
+            if problem is not None and problem.code == str(out):
+                errors.append(CellError(run.sheet, f"{column_letters(col)}{row}", problem.function, problem.code,
+                                        problem.message))
+            else:
+                fn, msg = _describe_error(run.compiled, str(out), store, run.sheet, row, col)
+                errors.append(CellError(run.sheet, f"{column_letters(col)}{row}", fn, str(out), msg))
+
+    def one_cell(run: Run, row: int):
+        res = evaluate_cell(run.compiled, store, run.sheet, row, run.col)
+        store.write(run.sheet, run.col, row, _as_values([res.value]))
+        record(run, row, run.col, res.value, res.problem)
+
+    def array_run(run: Run):
+        r1, c1 = split_address(run.array_ref.split(":")[0])
+        r2, c2 = split_address(run.array_ref.split(":")[-1])
+        values, problem = evaluate_array_formula(run.compiled, store, run.sheet, run.first, run.col,
+                                                 (r2 - r1 + 1, c2 - c1 + 1))
+        for j in range(values.shape[1]):
+            store.write(run.sheet, c1 + j, r1, _as_values(list(values[:, j])))
+            for i in range(values.shape[0]):
+                record(run, r1 + i, c1 + j, values[i, j], problem)
+
+    for comp in graph.components(needed):
+        if graph.is_vector_group(comp):
+            run = model.runs[comp[0]]
+            if run.array_ref is not None:
+                array_run(run)
+            else:
+                try:
+                    result = evaluate_run(run, store) if run.size > 1 else None
+                except VectorUnsupported:
+                    result = None
+                if result is None:
+                    for row in range(run.first, run.last + 1):
+                        one_cell(run, row)
+                else:
+                    store.write(run.sheet, run.col, run.first, result.values)
+                    vectorised += run.size
+                    values = result.values
+                    if values.dtype == object:
+                        for i, v in enumerate(values.tolist()):
+                            record(run, run.first + i, run.col, v, result.problems.get(i))
+                    else:
+                        evaluated += run.size
+                        sheet_updates = updates.setdefault(run.sheet, {})
+                        letters = column_letters(run.col)
+                        for i, v in enumerate(values.tolist()):
+                            sheet_updates[f"{letters}{run.first + i}"] = v
+            done += run.size
+        else:
+            order, found = graph.cell_order(comp)
+            on_cycle = {(r.index, row) for cyc in found for r, row in cyc}
+            for cyc in found:
+                addresses = [f"{r.sheet}!{r.address(row)}" for r, row in cyc]
+                cycles.append(addresses)
+                for r, row in cyc:
+                    store.write(r.sheet, r.col, row, _as_values([error_value("#VALUE!")]))
+                    record(r, row, r.col, error_value("#VALUE!"),
+                           CellProblem("", "#VALUE!", "circular reference: " + " → ".join(addresses + addresses[:1])))
+            for run, row in order:
+                if (run.index, row) not in on_cycle:
+                    if run.array_ref is not None:
+                        array_run(run)
+                    else:
+                        one_cell(run, row)
+            done += sum(model.runs[i].size for i in comp)
+        if progress:
+            progress("evaluating", done / total)
+    # cells whose formula cannot be read
+    for (sheet, row, col), message in model.unreadable.items():
+        updates.setdefault(sheet, {})[f"{column_letters(col)}{row}"] = sheet_xml.ErrorValue("#NAME?")
+        errors.append(CellError(sheet, f"{column_letters(col)}{row}", "", "#NAME?", message))
+        evaluated += 1
+    return updates, errors, cycles, evaluated, vectorised
+
+
+def _as_values(values: list) -> np.ndarray:
+    if all(type(v) is float for v in values):
+        return np.array(values, dtype=float)
+    out = np.empty(len(values), dtype=object)
+    out[:] = values
+    return out
+
+
+# ---------------------------------------------------------------- writing
+
+def _changes(model: WorkbookModel, updates: dict[str, dict[str, object]]):
+    """The package edits: each sheet with evaluated cells patched, and no forced recalculation on open."""
+    from .safe_write import PackageChanges
+
+    changes = PackageChanges()
+    pkg = model.package
+    for info in pkg.worksheets:
+        sheet_updates = updates.get(info.name)
+        if not sheet_updates:
+            continue
+        xml = pkg.read(info.part)
+        changes.set(pkg, info.part, sheet_xml.patch_sheet(
+            xml, {ref: sheet_xml.CellUpdate(v) for ref, v in sheet_updates.items()}))
+    changes.keep_cached_values(pkg)
+    return changes
+
+
+# ---------------------------------------------------------------- the entry point
+
+def recalculate(src, dst=None, *, in_place: bool = False, backup: bool = False, all_formulas: bool = False,
+                values: bool = False, progress: Callable[[str, float], None] | None = None) -> RecalcReport:
+    """Recalculate a workbook and write the values (see the module docstring).
+
+    Parameters
+    ----------
+    src : path-like
+        The .xlsx or .xlsm workbook.
+    dst : path-like, optional
+        Where to write; default ``NAME.recalculated.xlsx`` beside the input.
+        Never the input itself unless ``in_place``.
+    in_place : bool
+        Replace the input (through a complete temporary file in the same
+        folder, renamed over it only once it re-opens cleanly).
+    backup : bool
+        With ``in_place``, keep the original beside it.
+    all_formulas : bool
+        Evaluate every formula, not only those that need it.
+    values : bool
+        Replace the formulas that use registered functions by their values,
+        keeping the originals in a hidden sheet (see ``trueband restore``).
+    progress : callable, optional
+        Called as ``progress(stage, fraction)``.
+
+    Returns
+    -------
+    RecalcReport
+
+    Raises
+    ------
+    UnusableWorkbook
+        The file cannot be processed; nothing was written.
+    """
+    from .safe_write import OutputRefused, save_workbook
+
+    started = time.perf_counter()
+    src = Path(src)
+    package = open_workbook_package(src)
+    try:
+        model = load_model(package, progress)
+        updates, errors, cycles, evaluated, vectorised = evaluate_model(model, all_formulas=all_formulas,
+                                                                        progress=progress)
+        changes = _changes(model, updates)
+        if values:
+            from . import values_mode
+            values_mode.replace_with_values(model.package, changes, updates)
+        if progress:
+            progress("writing", 1.0)
+        try:
+            out = save_workbook(package, changes, output=dst, in_place=in_place, backup=backup, overwrite=True)
+        except OutputRefused as exc:
+            raise UnusableWorkbook(str(exc), path=src) from None
+    finally:
+        package.close()
+    return RecalcReport(source=src, output=out, formulas=model.formula_count, evaluated=evaluated,
+                        vectorised=vectorised, errors=errors, cycles=cycles,
+                        seconds=time.perf_counter() - started, values_mode=values)
+
+
+# ---------------------------------------------------------------- check (reads, writes nothing)
+
+@dataclasses.dataclass
+class CheckFindings:
+    """What ``trueband check`` found: each list holds (where, what) pairs."""
+
+    registered: list[tuple[str, str]] = dataclasses.field(default_factory=list)
+    unknown: list[tuple[str, str]] = dataclasses.field(default_factory=list)
+    argument_counts: list[tuple[str, str]] = dataclasses.field(default_factory=list)
+    outside: list[tuple[str, str]] = dataclasses.field(default_factory=list)
+    unreadable: list[tuple[str, str]] = dataclasses.field(default_factory=list)
+
+    @property
+    def ok(self) -> bool:
+        return not (self.unknown or self.argument_counts or self.outside or self.unreadable)
+
+    def lines(self) -> list[str]:
+        out = [f"trueband function cells: {len(self.registered)} group(s)"]
+        out += [f"  {where}  {what}" for where, what in self.registered]
+        for title, items in (("unknown functions", self.unknown), ("argument-count mistakes", self.argument_counts),
+                             ("references outside the used range", self.outside),
+                             ("formulas that cannot be read", self.unreadable)):
+            if items:
+                out.append(f"{title}: {len(items)}")
+                out += [f"  {where}  {what}" for where, what in items]
+        out.append("no problems found" if self.ok else "problems found (listed above)")
+        return out
+
+
+def _run_where(run: Run) -> str:
+    first = f"{column_letters(run.col)}{run.first}"
+    if run.size == 1:
+        return f"{run.sheet}!{first}"
+    return f"{run.sheet}!{first}:{column_letters(run.col)}{run.last}"
+
+
+def check_workbook(src) -> CheckFindings:
+    """Read a workbook and list registered-function cells and likely mistakes (see ``trueband check``)."""
+    from trueband.funcs.registry import REGISTRY
+
+    from .cmd_recalc import suggestion
+    from .formula_functions import BUILTIN_NAMES
+
+    findings = CheckFindings()
+    with open_workbook_package(src) as package:
+        model = load_model(package)
+    for run in model.runs:
+        where = _run_where(run)
+        names = sorted({registered_name(n) for n in run.compiled.functions if registered_name(n)})
+        if names:
+            findings.registered.append((where, ", ".join(names)))
+        for node in run.compiled.tree.walk():
+            if node.kind != "fn" or node.name in ("ARRAY", "ARRAYROW"):
+                continue
+            reg = registered_name(node.name)
+            if reg is None:
+                if node.name not in BUILTIN_NAMES:
+                    hint = suggestion(node.name)
+                    findings.unknown.append((where, node.name + (f" (did you mean {hint}?)" if hint else "")))
+                continue
+            spec = REGISTRY[reg]
+            n = len(node.args)
+            if n < spec.min_args or n > spec.max_args:
+                need = (f"{spec.min_args}" if spec.min_args == spec.max_args
+                        else f"{spec.min_args} to {spec.max_args}")
+                findings.argument_counts.append((where, f"{reg} takes {need} arguments, got {n}: {spec.signature}"))
+        for ref in run.compiled.refs:
+            target = ref.sheet or run.sheet
+            canonical = model.store.canonical(target)
+            if canonical is None:
+                findings.outside.append((where, f"refers to a sheet that does not exist: {target!r}"))
+                continue
+            full = (ref.r1_abs and ref.r2_abs and ref.r1 == 1 and ref.r2 == MAX_ROW) or \
+                (ref.c1_abs and ref.c2_abs and ref.c1 == 1 and ref.c2 == 16384)
+            if full:
+                continue
+            a1 = ref.area(run.first, run.col)
+            a2 = ref.area(run.last, run.col)
+            area = (min(a1[0], a2[0]), min(a1[1], a2[1]), max(a1[2], a2[2]), max(a1[3], a2[3]))
+            used = model.used.get(canonical)
+            if used is None or area[0] < used[0] or area[1] < used[1] or area[2] > used[2] or area[3] > used[3]:
+                span = "empty sheet" if used is None else \
+                    f"{column_letters(used[1])}{used[0]}:{column_letters(used[3])}{used[2]}"
+                text = (f"{column_letters(area[1])}{area[0]}" if area[:2] == area[2:] else
+                        f"{column_letters(area[1])}{area[0]}:{column_letters(area[3])}{area[2]}")
+                findings.outside.append((where, f"reads {target}!{text}, outside the used range {span}"))
+    for (sheet, row, col), message in model.unreadable.items():
+        findings.unreadable.append((f"{sheet}!{column_letters(col)}{row}", message))
+    return findings
