@@ -11,10 +11,10 @@ spreadsheet name      Python function                              what it gives
 ``IMPACT_SHORTFALL``  :func:`impact_shortfall`                     extra focal selections to reach a ratio
 ====================  ==========================================  ===========================================
 
-**Caution.** Every figure here is a statistical indicator, not a legal
-finding. Whether a selection procedure has adverse impact in law, and what
-follows from it, is decided under the employment law that applies where the
-user hires; defer to that law and to qualified professional advice.
+**Caution.** Adverse impact figures are statistical indicators, not legal
+findings; defer to the employment law that applies where you hire and to
+qualified professional advice. Whether a selection procedure has adverse
+impact in law, and what follows from it, is decided under that law.
 
 Conventions
 -----------
@@ -51,7 +51,12 @@ __all__ = [
     "impact_fisher",
     "impact_shortfall",
     "EXACT_TEST_MAX_APPLICANTS",
+    "CAUTION",
 ]
+
+#: The caution shown wherever impact figures are shown (catalog, README, reports).
+CAUTION = ("Adverse impact figures are statistical indicators, not legal findings; defer to the employment law "
+           "that applies where you hire and to qualified professional advice.")
 
 _CAUTION_REFERENCE = ("Equal Employment Opportunity Commission et al. (1978). Uniform Guidelines on Employee "
                       "Selection Procedures, 29 CFR 1607.4(D) and 1607.16(R)")
