@@ -1,0 +1,99 @@
+"""Native charts of the validation-study workbook (openpyxl chart parts).
+
+Each function returns a chart whose series refer to cells of the study, so the
+chart follows the numbers when the workbook is recalculated. The charts use
+only the plain chart types that every spreadsheet app draws the same way
+(scatter, clustered or stacked columns, a line), and they set every axis to
+visible: openpyxl leaves axes flagged as deleted unless told otherwise.
+"""
+
+from __future__ import annotations
+
+from openpyxl.chart import BarChart, LineChart, Reference, ScatterChart, Series
+from openpyxl.chart.trendline import Trendline
+
+__all__ = ["score_vs_criterion", "score_distribution", "selection_rates", "item_map", "area"]
+
+
+def area(sheet: str, col1: str, row1: int, col2: str | None = None, row2: int | None = None) -> Reference:
+    """A chart reference to an absolute range of a sheet, by name (sheets are written in streaming mode)."""
+    quoted = "'" + sheet.replace("'", "''") + "'"
+    end = f":${col2 or col1}${row2 or row1}" if (col2 or row2) else ""
+    return Reference(range_string=f"{quoted}!${col1}${row1}{end}")
+
+
+def _axes(chart, x_title: str, y_title: str):
+    chart.x_axis.title = x_title
+    chart.y_axis.title = y_title
+    for axis in (chart.x_axis, chart.y_axis):
+        axis.delete = False
+    chart.width, chart.height = 17, 9.5
+    chart.legend.position = "b"
+
+
+def _points_only(series: Series):
+    series.marker.symbol = "circle"
+    series.marker.size = 5
+    series.graphicalProperties.line.noFill = True
+
+
+def score_vs_criterion(x: Reference, y: Reference, *, x_title: str, y_title: str) -> ScatterChart:
+    """Test score against the criterion, one point per person, with the least-squares line."""
+    chart = ScatterChart()
+    chart.title = "Test score against job performance"
+    chart.style = 13
+    series = Series(y, x, title="People with a performance rating")
+    _points_only(series)
+    series.trendline = Trendline(trendlineType="linear", dispRSqr=False, dispEq=False)
+    chart.series.append(series)
+    _axes(chart, x_title, y_title)
+    return chart
+
+
+def score_distribution(labels: Reference, below: Reference, above: Reference, *, cut_text: str) -> BarChart:
+    """Stacked columns of how many scored each score: below the cut and at or above it in two colours."""
+    chart = BarChart()
+    chart.type = "col"
+    chart.grouping = "stacked"
+    chart.overlap = 100
+    chart.gapWidth = 20
+    chart.title = f"Score distribution ({cut_text})"
+    chart.add_data(below, titles_from_data=True)
+    chart.add_data(above, titles_from_data=True)
+    chart.set_categories(labels)
+    _axes(chart, "Test score", "Applicants")
+    return chart
+
+
+def selection_rates(groups: Reference, rates: Reference, line: Reference) -> BarChart:
+    """Selection rate of each group as columns, with four-fifths of the highest rate as a line."""
+    bars = BarChart()
+    bars.type = "col"
+    bars.title = "Selection rate by group against the four-fifths line"
+    bars.add_data(rates, titles_from_data=True)
+    bars.set_categories(groups)
+    bars.y_axis.scaling.min = 0
+    threshold = LineChart()
+    threshold.add_data(line, titles_from_data=True)
+    threshold.set_categories(groups)
+    threshold.series[0].marker.symbol = "dash"
+    threshold.series[0].graphicalProperties.line.width = 28575  # 2.25 pt
+    _axes(bars, "Group", "Selection rate")
+    bars += threshold
+    return bars
+
+
+def item_map(difficulty: Reference, discrimination: Reference) -> ScatterChart:
+    """Each item's difficulty (proportion correct) against its corrected item-total correlation."""
+    chart = ScatterChart()
+    chart.title = "Item difficulty against discrimination"
+    chart.style = 13
+    series = Series(discrimination, difficulty, title="Items")
+    _points_only(series)
+    chart.series.append(series)
+    chart.x_axis.scaling.min = 0
+    chart.x_axis.scaling.max = 1
+    _axes(chart, "Difficulty (proportion correct)", "Corrected item-total correlation")
+    chart.legend = None
+    return chart
+

@@ -1,0 +1,430 @@
+"""Reading a validation-study data workbook: which column is which, and the data itself.
+
+A data workbook has one sheet of candidates (a header row, then one row per
+person) and, optionally, a sheet named ``Setup`` whose rows are
+``setting | value`` pairs (column A the setting, column B its value; anything
+to the right is ignored, and the settings end at the first empty row). Command-line options override the setup sheet.
+
+=======================  ====================================================
+setting                  value
+=======================  ====================================================
+``data sheet``           the sheet of candidates (default: the first sheet
+                         that is not ``Setup``)
+``id column``            header of the candidate id column
+``group column``         header of the applicant-group column (impact analysis)
+``item columns``         item response columns: ``Q01:Q40`` (a span from one
+                         header to another) or ``Q01, Q02, Q03`` (a list)
+``total column``         a test total, when there are no item columns (or to
+                         use instead of their sum)
+``rating columns``       interview or assessor ratings, one column per rater
+``criterion column``     job performance, blank for people not hired
+``retest column``        a second sitting of the test (optional)
+``hired column``         yes/no (or 1/0, TRUE/FALSE) (optional)
+``cut score``            the cut for the adverse-impact analysis
+``confidence``           confidence level of every interval (default 0.95)
+``criterion reliability``  reliability of the criterion (default 0.52)
+``success threshold``    criterion value that counts as success (default:
+                         the median criterion value)
+``reference group``      the group others are compared with (default: the
+                         group with the highest selection rate)
+``test name``, ``job title``, ``organisation``  words for the titles
+=======================  ====================================================
+
+Every problem is a :class:`SetupError` whose message names the setting, the
+column and the sheet; nothing is written before the whole setup and every data
+cell it names have been read and checked.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import numbers
+import zipfile
+from pathlib import Path
+from typing import Any, Iterable, Mapping
+
+import numpy as np
+from openpyxl.utils import get_column_letter
+
+__all__ = ["SetupError", "StudySetup", "StudyData", "SETTINGS", "read_study_data", "normalise_key",
+           "SETUP_SHEET", "DEFAULT_CRITERION_RELIABILITY"]
+
+SETUP_SHEET = "Setup"
+
+#: Interrater reliability of supervisory ratings of overall job performance, .52
+#: (Viswesvaran, Ones & Schmidt, 1996, J. Applied Psychology 81, 557-574), the usual default.
+DEFAULT_CRITERION_RELIABILITY = 0.52
+
+#: setting -> (field name, kind, what it means); kinds: column, columns, number, text
+SETTINGS: dict[str, tuple[str, str, str]] = {
+    "data sheet": ("data_sheet", "text", "the sheet that holds one row per candidate, headers in row 1"),
+    "id column": ("id", "column", "header of the candidate id column"),
+    "group column": ("group", "column", "header of the applicant-group column used for adverse impact"),
+    "item columns": ("items", "columns", "item response columns, e.g. Q01:Q40 (a span) or Q01, Q02 (a list)"),
+    "total column": ("total", "column", "a test total to use instead of summing the items (optional)"),
+    "rating columns": ("ratings", "columns", "interview ratings, one column per rater (optional)"),
+    "criterion column": ("criterion", "column", "job performance; blank for people not hired"),
+    "retest column": ("retest", "column", "score on a second sitting of the test (optional)"),
+    "hired column": ("hired", "column", "yes/no: was the person hired (optional)"),
+    "cut score": ("cut", "number", "scores at or above the cut pass (adverse impact and utility)"),
+    "confidence": ("confidence", "number", "confidence level of every interval, e.g. 0.95"),
+    "criterion reliability": ("criterion_reliability", "number",
+                              "reliability of the criterion; 0.52 is the published average for supervisor ratings"),
+    "success threshold": ("success", "number", "criterion value that counts as success (default: the median)"),
+    "reference group": ("reference_group", "text", "group the others are compared with (default: highest rate)"),
+    "test name": ("test_name", "text", "name of the test, for titles"),
+    "job title": ("job_title", "text", "the job, for titles"),
+    "organisation": ("organisation", "text", "the employer, for titles"),
+}
+
+_NUMERIC_ROLES = ("items", "total", "ratings", "criterion", "retest")
+_MAX_INPUT_BYTES = 2_000_000_000  # uncompressed; a larger package is refused before it is read
+
+
+class SetupError(Exception):
+    """The data workbook or its setup cannot be used; the message says why."""
+
+
+def normalise_key(key: str) -> str:
+    return " ".join(str(key).replace("_", " ").replace("-", " ").lower().split())
+
+
+@dataclasses.dataclass(frozen=True)
+class StudySetup:
+    """Which columns play which role, and the study's settings (as given; not yet checked)."""
+
+    data_sheet: str | None = None
+    id: str | None = None
+    group: str | None = None
+    items: tuple[str, ...] = ()
+    total: str | None = None
+    ratings: tuple[str, ...] = ()
+    criterion: str | None = None
+    retest: str | None = None
+    hired: str | None = None
+    cut: float | None = None
+    confidence: float = 0.95
+    criterion_reliability: float = DEFAULT_CRITERION_RELIABILITY
+    success: float | None = None
+    reference_group: str | None = None
+    test_name: str = "the test"
+    job_title: str = ""
+    organisation: str = ""
+    source: Mapping[str, str] = dataclasses.field(default_factory=dict)  # field -> where it was given
+
+    def merged(self, overrides: Mapping[str, Any]) -> "StudySetup":
+        """This setup with the non-empty ``overrides`` (field name -> value) applied."""
+        changes, source = {}, dict(self.source)
+        for name, value in overrides.items():
+            if value is None or value == () or value == "":
+                continue
+            changes[name] = value
+            source[name] = "command line"
+        return dataclasses.replace(self, **changes, source=source)
+
+
+@dataclasses.dataclass
+class StudyData:
+    """The checked data: arrays in row order (blank = nan for numbers, None for labels)."""
+
+    setup: StudySetup
+    path: Path
+    sheet: str
+    header: list[str]
+    rows: list[tuple]              # every data row as read (values), for the copy
+    columns: dict[str, int]        # role -> 0-based column (single-column roles)
+    item_columns: list[int]
+    rating_columns: list[int]
+    ids: list[Any]
+    groups: list[str | None]
+    items: np.ndarray | None       # n x k floats, nan for blank
+    total: np.ndarray | None
+    ratings: np.ndarray | None
+    criterion: np.ndarray | None
+    retest: np.ndarray | None
+    hired: np.ndarray | None       # bool, or None when no hired column
+    notes: list[str] = dataclasses.field(default_factory=list)
+
+    @property
+    def n(self) -> int:
+        return len(self.rows)
+
+    def letter(self, role: str) -> str:
+        return get_column_letter(self.columns[role] + 1)
+
+    @property
+    def scores(self) -> np.ndarray:
+        """Each person's test score: the total column, or the sum of the items (blank items count 0;
+        a person with no item answered has no score)."""
+        if self.total is not None:
+            return self.total
+        answered = (~np.isnan(self.items)).sum(axis=1)
+        s = np.nansum(self.items, axis=1)
+        return np.where(answered > 0, s, np.nan)
+
+
+# ---------------------------------------------------------------- reading the workbook
+
+def _open(path: Path):
+    from openpyxl import load_workbook
+
+    if not path.exists():
+        raise SetupError(f"{path} does not exist")
+    if path.suffix.lower() not in (".xlsx", ".xlsm"):
+        raise SetupError(f"{path.name} is not an .xlsx workbook (save it as .xlsx first)")
+    try:
+        with zipfile.ZipFile(path) as z:
+            if sum(i.file_size for i in z.infolist()) > _MAX_INPUT_BYTES:
+                raise SetupError(f"{path.name} unpacks to more than 2 GB; refusing to read it")
+    except zipfile.BadZipFile:
+        raise SetupError(f"{path.name} is not a readable .xlsx workbook (not a zip package; encrypted or "
+                         f"an old .xls saved under a new name?)") from None
+    try:
+        return load_workbook(path, read_only=True, data_only=True)
+    except SetupError:
+        raise
+    except Exception as exc:  # openpyxl raises many kinds for damaged packages
+        raise SetupError(f"{path.name} cannot be read as a workbook: {exc}") from None
+
+
+def _cell_text(value) -> str | None:
+    if value is None:
+        return None
+    if isinstance(value, float) and value.is_integer():
+        value = int(value)
+    text = str(value).strip()
+    return text or None
+
+
+def _read_setup_sheet(wb) -> tuple[dict[str, Any], dict[str, str]]:
+    """Settings from the Setup sheet: field -> raw value, field -> 'Setup!B7'."""
+    sheet = next((n for n in wb.sheetnames if n.strip().lower() == SETUP_SHEET.lower()), None)
+    if sheet is None:
+        return {}, {}
+    values, where = {}, {}
+    started = False
+    for r, row in enumerate(wb[sheet].iter_rows(min_row=1, max_col=2, values_only=True), start=1):
+        key = _cell_text(row[0]) if row else None
+        if key is None:
+            if started:
+                break  # the settings end at the first empty row; notes may follow
+            continue
+        started = True
+        norm = normalise_key(key)
+        if norm in ("setting", "settings", "key"):
+            continue  # a header row
+        if norm not in SETTINGS:
+            known = ", ".join(repr(k) for k in SETTINGS)
+            raise SetupError(f"sheet '{sheet}', cell A{r}: unknown setting {key!r}; the settings are {known}")
+        value = row[1] if len(row) > 1 else None
+        if isinstance(value, str):
+            value = value.strip() or None
+        if value is None:
+            continue
+        field = SETTINGS[norm][0]
+        values[field] = value
+        where[field] = f"sheet '{sheet}', cell B{r}"
+    return values, where
+
+
+def _parse_columns(spec) -> tuple[str, ...]:
+    if isinstance(spec, (list, tuple)):
+        return tuple(str(s).strip() for s in spec if str(s).strip())
+    return tuple(p.strip() for p in str(spec).split(",") if p.strip())
+
+
+def _setup_from_values(values: Mapping[str, Any], where: Mapping[str, str]) -> StudySetup:
+    kwargs: dict[str, Any] = {}
+    by_field = {f: (k, kind) for k, (f, kind, _) in SETTINGS.items()}
+    for field, raw in values.items():
+        key, kind = by_field[field]
+        if kind == "columns":
+            kwargs[field] = _parse_columns(raw)
+        elif kind == "number":
+            if isinstance(raw, bool) or not isinstance(raw, numbers.Real):
+                try:
+                    raw = float(str(raw).strip())
+                except ValueError:
+                    raise SetupError(f"{where.get(field, key)}: {key} must be a number, got {raw!r}") from None
+            if not math.isfinite(float(raw)):
+                raise SetupError(f"{where.get(field, key)}: {key} must be a finite number, got {raw!r}")
+            kwargs[field] = float(raw)
+        else:
+            kwargs[field] = _cell_text(raw)
+    return StudySetup(**kwargs, source=dict(where))
+
+
+def _header_index(header: list[str], sheet: str):
+    index: dict[str, int] = {}
+    dupes: set[str] = set()
+    for i, h in enumerate(header):
+        if h is None:
+            continue
+        key = h.lower()
+        if key in index:
+            dupes.add(key)
+        index.setdefault(key, i)
+    return index, dupes
+
+
+def _resolve(name: str, setting: str, index, dupes, header, sheet: str) -> int:
+    key = name.strip().lower()
+    if key in dupes:
+        raise SetupError(f"{setting}: sheet '{sheet}' has more than one column headed {name!r}; rename one")
+    if key not in index:
+        shown = ", ".join(h for h in header if h)
+        if len(shown) > 300:
+            shown = shown[:300] + ", ..."
+        raise SetupError(f"{setting}: no column headed {name!r} in row 1 of sheet '{sheet}' (its columns: {shown})")
+    return index[key]
+
+
+def _resolve_many(specs: Iterable[str], setting: str, index, dupes, header, sheet: str) -> list[int]:
+    out: list[int] = []
+    for spec in specs:
+        if ":" in spec:
+            first, last = (p.strip() for p in spec.split(":", 1))
+            a = _resolve(first, setting, index, dupes, header, sheet)
+            b = _resolve(last, setting, index, dupes, header, sheet)
+            if b < a:
+                raise SetupError(f"{setting}: {spec!r} runs backwards on sheet '{sheet}' ({last!r} comes before "
+                                 f"{first!r})")
+            out.extend(range(a, b + 1))
+        else:
+            out.append(_resolve(spec, setting, index, dupes, header, sheet))
+    if len(set(out)) != len(out):
+        raise SetupError(f"{setting}: a column is named twice")
+    return out
+
+
+def _numeric(rows, col: int, setting: str, sheet: str, header) -> np.ndarray:
+    out = np.empty(len(rows), dtype=float)
+    for i, row in enumerate(rows):
+        cell = row[col] if col < len(row) else None
+        if cell is None or (isinstance(cell, str) and not cell.strip()):
+            out[i] = np.nan
+        elif isinstance(cell, numbers.Real) and not isinstance(cell, bool):
+            x = float(cell)
+            if not math.isfinite(x):
+                raise SetupError(f"sheet '{sheet}', cell {get_column_letter(col + 1)}{i + 2} ({header[col]}, "
+                                 f"{setting}): {cell!r} is not a finite number")
+            out[i] = x
+        else:
+            what = "a logical value" if isinstance(cell, bool) else f"{cell!r}"
+            raise SetupError(f"sheet '{sheet}', cell {get_column_letter(col + 1)}{i + 2} (column {header[col]!r}, "
+                             f"{setting}) holds {what}; this column must hold numbers or blanks")
+    return out
+
+
+_YES = {"yes", "y", "true", "1", "1.0", "hired"}
+_NO = {"no", "n", "false", "0", "0.0", "not hired"}
+
+
+def _flags(rows, col: int, sheet: str, header) -> np.ndarray:
+    out = np.zeros(len(rows), dtype=bool)
+    for i, row in enumerate(rows):
+        cell = row[col] if col < len(row) else None
+        text = _cell_text(cell)
+        key = text.lower() if text else None
+        if key is None or key in _NO:
+            continue
+        if key in _YES:
+            out[i] = True
+        else:
+            raise SetupError(f"sheet '{sheet}', cell {get_column_letter(col + 1)}{i + 2} (column {header[col]!r}, "
+                             f"hired column) holds {cell!r}; use yes/no, 1/0 or TRUE/FALSE")
+    return out
+
+
+def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None) -> StudyData:
+    """Read and check a data workbook: its Setup sheet, ``overrides`` on top, then every named column.
+
+    Raises :class:`SetupError` with a message naming the setting, column and sheet.
+    """
+    path = Path(path)
+    wb = _open(path)
+    try:
+        values, where = _read_setup_sheet(wb)
+        setup = _setup_from_values(values, where).merged(dict(overrides or {}))
+        sheet = setup.data_sheet
+        if sheet is None:
+            others = [n for n in wb.sheetnames if n.strip().lower() != SETUP_SHEET.lower()]
+            if not others:
+                raise SetupError(f"{path.name} has no data sheet (only a '{SETUP_SHEET}' sheet)")
+            sheet = others[0]
+        match = next((n for n in wb.sheetnames if n.lower() == sheet.lower()), None)
+        if match is None:
+            raise SetupError(f"data sheet: no sheet named {sheet!r} in {path.name} (its sheets: "
+                             f"{', '.join(wb.sheetnames)})")
+        sheet = match
+        rows_iter = wb[sheet].iter_rows(values_only=True)
+        first = next(rows_iter, None)
+        header = [_cell_text(h) for h in first] if first else []
+        if not any(header):
+            raise SetupError(f"sheet '{sheet}' is empty: row 1 must hold the column headers")
+        while header and header[-1] is None:
+            header.pop()
+        width = len(header)
+        rows = []
+        for row in rows_iter:
+            row = tuple(row[:width]) + (None,) * (width - len(row))
+            rows.append(row)
+        while rows and all(c is None or (isinstance(c, str) and not c.strip()) for c in rows[-1]):
+            rows.pop()
+    finally:
+        wb.close()
+    if not rows:
+        raise SetupError(f"sheet '{sheet}' has a header row but no data rows below it")
+    return _check(setup, path, sheet, header, rows)
+
+
+def _check(setup: StudySetup, path: Path, sheet: str, header, rows) -> StudyData:
+    index, dupes = _header_index(header, sheet)
+    if not setup.items and setup.total is None:
+        raise SetupError(f"no test score: give 'item columns' (or 'total column') on the {SETUP_SHEET} sheet "
+                         f"or with --items / --total")
+    columns: dict[str, int] = {}
+    for role in ("id", "group", "total", "criterion", "retest", "hired"):
+        name = getattr(setup, role)
+        if name:
+            columns[role] = _resolve(name, f"{role} column", index, dupes, header, sheet)
+    item_cols = _resolve_many(setup.items, "item columns", index, dupes, header, sheet) if setup.items else []
+    rating_cols = _resolve_many(setup.ratings, "rating columns", index, dupes, header, sheet) if setup.ratings else []
+    used = list(columns.values()) + item_cols + rating_cols
+    if len(set(used)) != len(used):
+        raise SetupError(f"a column of sheet '{sheet}' is given two roles; each column has one role")
+    if setup.items and len(item_cols) < 2:
+        raise SetupError(f"item columns: at least 2 item columns are needed on sheet '{sheet}', got {len(item_cols)}")
+    if setup.ratings and len(rating_cols) < 2:
+        raise SetupError(f"rating columns: at least 2 raters are needed for agreement, got {len(rating_cols)}")
+    if not 0 < setup.confidence < 1:
+        raise SetupError(f"confidence must be between 0 and 1 (e.g. 0.95), got {setup.confidence}")
+    if not 0 < setup.criterion_reliability <= 1:
+        raise SetupError(f"criterion reliability must be greater than 0 and at most 1, got "
+                         f"{setup.criterion_reliability}")
+
+    def matrix(cols, setting):
+        return np.column_stack([_numeric(rows, c, setting, sheet, header) for c in cols])
+
+    items = matrix(item_cols, "item columns") if item_cols else None
+    total = _numeric(rows, columns["total"], "total column", sheet, header) if "total" in columns else None
+    ratings = matrix(rating_cols, "rating columns") if rating_cols else None
+    criterion = _numeric(rows, columns["criterion"], "criterion column", sheet, header) if "criterion" in columns else None
+    retest = _numeric(rows, columns["retest"], "retest column", sheet, header) if "retest" in columns else None
+    hired = _flags(rows, columns["hired"], sheet, header) if "hired" in columns else None
+    ids = [row[columns["id"]] for row in rows] if "id" in columns else list(range(1, len(rows) + 1))
+    groups = [_cell_text(row[columns["group"]]) for row in rows] if "group" in columns else [None] * len(rows)
+
+    data = StudyData(setup=setup, path=path, sheet=sheet, header=list(header), rows=rows, columns=columns,
+                     item_columns=item_cols, rating_columns=rating_cols, ids=ids, groups=groups, items=items,
+                     total=total, ratings=ratings, criterion=criterion, retest=retest, hired=hired)
+    scores = data.scores
+    if np.isnan(scores).all():
+        what = f"column {setup.total!r}" if total is not None else "the item columns"
+        raise SetupError(f"sheet '{sheet}': {what} hold no scores (every cell is blank); if they hold formulas, "
+                         f"recalculate the data workbook first (trueband recalc)")
+    if items is not None and np.isnan(items).any():
+        data.notes.append(f"{int(np.isnan(items).any(axis=1).sum())} people left at least one item blank: a blank "
+                          f"item counts 0 in the total and the person is left out of the item statistics")
+    return data
