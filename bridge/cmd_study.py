@@ -1,0 +1,250 @@
+"""``trueband study`` (a validation-study workbook from a data workbook) and ``trueband demo``."""
+
+from __future__ import annotations
+
+import os
+import shutil
+import sys
+import tempfile
+from pathlib import Path
+
+import numpy as np
+
+from .cli import EXIT_CELL_ERRORS, EXIT_OK, CommandError
+from .study_build import CAUTION, NOT_COMPUTABLE, StudyError, StudyResult, make_study
+from .study_setup import SetupError
+
+DEMO_FILES = {
+    "data": "osterfell-applicants.xlsx",
+    "study": "osterfell-study.xlsx",
+    "scoring": "osterfell-scoring-sheet.xlsx",
+    "impact": "osterfell-adverse-impact.xlsx",
+    "blank_data": "templates/study-data-template.xlsx",
+    "blank_scoring": "templates/scoring-sheet-template.xlsx",
+    "blank_impact": "templates/adverse-impact-template.xlsx",
+}
+
+#: command-line option -> setup field
+_OPTIONS = {"sheet": "data_sheet", "id": "id", "group": "group", "items": "items", "total": "total",
+            "ratings": "ratings", "criterion": "criterion", "retest": "retest", "hired": "hired", "cut": "cut",
+            "confidence": "confidence", "criterion_reliability": "criterion_reliability", "success": "success",
+            "reference_group": "reference_group", "test_name": "test_name"}
+
+
+def register(sub) -> None:
+    p = sub.add_parser(
+        "study", help="build a validation-study workbook from a data workbook",
+        description="Build a new workbook with a copy of the data and analysis sheets (reliability, items, raters, "
+                    "validity, bands, adverse impact, utility) whose every number is a live formula, recalculated. "
+                    "Column roles come from the data workbook's Setup sheet; the options below override it. "
+                    + CAUTION)
+    p.add_argument("data", help="the data workbook (.xlsx)")
+    p.add_argument("-o", "--output", help="the study workbook to write (default: DATA-study.xlsx beside it)")
+    p.add_argument("--overwrite", action="store_true", help="replace the output if it exists")
+    p.add_argument("--sheet", help="the data sheet")
+    p.add_argument("--id", help="header of the id column")
+    p.add_argument("--group", help="header of the applicant-group column")
+    p.add_argument("--items", help="item columns: FIRST:LAST or a comma-separated list of headers")
+    p.add_argument("--total", help="header of a total-score column")
+    p.add_argument("--ratings", help="rating columns: FIRST:LAST or a list")
+    p.add_argument("--criterion", help="header of the job-performance column")
+    p.add_argument("--retest", help="header of the retest-score column")
+    p.add_argument("--hired", help="header of the hired (yes/no) column")
+    p.add_argument("--cut", type=float, help="cut score for adverse impact and utility")
+    p.add_argument("--confidence", type=float, help="confidence level (default 0.95)")
+    p.add_argument("--criterion-reliability", type=float, help="criterion reliability (default 0.52)")
+    p.add_argument("--success", type=float, help="criterion value that counts as success (default: median)")
+    p.add_argument("--reference-group", help="the group others are compared with")
+    p.add_argument("--test-name", help="name of the test, for titles")
+    p.set_defaults(handler=run_study)
+
+    d = sub.add_parser(
+        "demo", help="write the demo data, templates and study into a new folder",
+        description="Write the invented demo (Osterfell Harbour Logistics hiring cargo dispatch coordinators), the "
+                    "workbook templates, and the demo's validation study into DIR (default: a new folder "
+                    "trueband-demo in the current directory); nothing existing is overwritten.")
+    d.add_argument("dir", nargs="?", help="a new or empty folder")
+    d.set_defaults(handler=run_demo)
+
+
+def _overrides(args) -> dict:
+    out = {}
+    for opt, field in _OPTIONS.items():
+        value = getattr(args, opt, None)
+        if value is None:
+            continue
+        if field in ("items", "ratings"):
+            value = tuple(p.strip() for p in value.split(",") if p.strip())
+        out[field] = value
+    return out
+
+
+def _progress_printer():
+    if not sys.stderr.isatty():
+        return None
+
+    def show(stage: str, fraction: float):
+        print(f"\r  {stage}: {fraction:4.0%}", end="", file=sys.stderr, flush=True)
+
+    return show
+
+
+def headline_values(path: Path, result: StudyResult) -> dict:
+    """The headline numbers as the study workbook shows them (read back from its cached values)."""
+    from openpyxl import load_workbook
+
+    keys = ("n_scored", "n_criterion", "alpha", "alpha_lower", "alpha_upper", "sem", "band_width",
+            "icc_agreement_average", "r", "r_lower", "r_upper", "r_p", "operational", "min_ratio", "n_below",
+            "taylor_russell", "base_rate", "bcg")
+    wanted = {k: result.cells[k] for k in keys if k in result.cells}
+    wb = load_workbook(path, read_only=True, data_only=True)
+    try:
+        out = {}
+        for key, (sheet, coord) in wanted.items():
+            out[key] = wb[sheet][coord].value
+        out["cut"] = wb["Summary"][result.cells["cut"][1]].value if "cut" in result.cells else None
+        return out
+    finally:
+        wb.close()
+
+
+def _fmt(value, digits: int = 3) -> str:
+    if isinstance(value, bool):
+        return "TRUE" if value else "FALSE"
+    if isinstance(value, (int, float)) and not isinstance(value, bool):
+        if float(value).is_integer() and digits == 0:
+            return f"{int(value)}"
+        return f"{value:.{digits}f}"
+    if isinstance(value, str) and value.startswith(NOT_COMPUTABLE):
+        return value
+    return "—" if value is None else str(value)
+
+
+def headline_lines(h: dict) -> list[str]:
+    lines = [f"  applicants with a score: {_fmt(h.get('n_scored'), 0)}; with a performance value: "
+             f"{_fmt(h.get('n_criterion'), 0)}"]
+    if "alpha" in h:
+        ci = (f" [{_fmt(h.get('alpha_lower'))}, {_fmt(h.get('alpha_upper'))}]"
+              if isinstance(h.get("alpha_lower"), float) else "")
+        lines.append(f"  reliability (coefficient alpha): {_fmt(h['alpha'])}{ci}; SEM {_fmt(h.get('sem'), 2)}; "
+                     f"band width {_fmt(h.get('band_width'), 2)}")
+    if "icc_agreement_average" in h:
+        lines.append(f"  interview panel agreement ICC(A,k): {_fmt(h['icc_agreement_average'])}")
+    if "r" in h:
+        ci = f" [{_fmt(h.get('r_lower'))}, {_fmt(h.get('r_upper'))}]" if isinstance(h.get("r_lower"), float) else ""
+        lines.append(f"  observed validity r: {_fmt(h['r'])}{ci}, p {_fmt(h.get('r_p'), 4)}; operational validity "
+                     f"{_fmt(h.get('operational'))}")
+    if "min_ratio" in h:
+        below = h.get("n_below")
+        flag = (f"; {below} group(s) below four-fifths" if isinstance(below, (int, float)) else "")
+        lines.append(f"  lowest impact ratio at cut {_fmt(h.get('cut'), 1)}: {_fmt(h['min_ratio'])}{flag}")
+    if "taylor_russell" in h:
+        lines.append(f"  success rate among those selected (Taylor–Russell): {_fmt(h['taylor_russell'])} against a "
+                     f"base rate of {_fmt(h.get('base_rate'))}")
+    return lines
+
+
+def _report(result: StudyResult, out: Path) -> int:
+    print(f"Study written: {out}")
+    for line in headline_lines(headline_values(out, result)):
+        print(line)
+    if result.not_computable:
+        print(f"  {len(result.not_computable)} cell(s) marked 'not computable' (the reasons are in the cells and on "
+              f"the Notes sheet), e.g. {result.not_computable[0][0]}!{result.not_computable[0][1]}: "
+              f"{result.not_computable[0][2]}")
+    report = result.recalc_report
+    code = EXIT_OK
+    if report is not None and not report.ok:
+        print(f"  {len(report.errors)} cell(s) evaluated to an error:")
+        for e in report.errors[:20]:
+            print(f"    {e.sheet}!{e.cell}  {e.code}  {e.function}: {e.message}")
+        code = EXIT_CELL_ERRORS
+    print("Caution: " + CAUTION)
+    return code
+
+
+def run_study(args) -> int:
+    src = Path(args.data)
+    out = Path(args.output) if args.output else src.with_name(src.stem + "-study.xlsx")
+    try:
+        result = make_study(src, out, _overrides(args), overwrite=args.overwrite, progress=_progress_printer())
+    except (SetupError, StudyError) as exc:
+        raise CommandError(f"{exc}; nothing was written") from None
+    return _report(result, out)
+
+
+# ---------------------------------------------------------------- the demo
+
+def _new_folder(base: Path) -> Path:
+    path = base / "trueband-demo"
+    k = 2
+    while path.exists():
+        path = base / f"trueband-demo-{k}"
+        k += 1
+    return path
+
+
+def write_demo(target: Path, *, n: int = 400) -> tuple[StudyResult, dict[str, Path]]:
+    """Write the demo into ``target`` (a new or empty folder) through a temporary folder beside it."""
+    from .demo_data import make_demo
+    from .recalc import recalculate
+    from .templates import impact_template, scoring_template, study_data_workbook
+
+    if target.exists() and (not target.is_dir() or any(target.iterdir())):
+        raise CommandError(f"{target} exists and is not an empty folder; give a new folder (nothing was written)")
+    parent = target.parent if target.parent != Path("") else Path.cwd()
+    parent.mkdir(parents=True, exist_ok=True)
+    work = Path(tempfile.mkdtemp(prefix=".trueband-demo-", dir=parent))
+    try:
+        (work / "templates").mkdir()
+        demo = make_demo(n)
+        scores = demo.items.sum(axis=1)
+        cut = float(np.ceil(np.quantile(scores, 0.6)))  # about 40% pass
+        paths = {k: work / v for k, v in DEMO_FILES.items()}
+        study_data_workbook(paths["data"], demo, cut=cut)
+        scoring_template(paths["scoring"], ids=demo.ids, responses=demo.items.tolist(),
+                         title="Scoring sheet: Dispatch Knowledge Test (demo)")
+        groups = sorted(set(demo.groups))
+        counts = []
+        for g in groups:
+            member = np.array([x == g for x in demo.groups])
+            counts.append((g, int(member.sum()), int((member & (scores >= cut)).sum())))
+        impact_template(paths["impact"], groups=counts,
+                        title=f"Adverse impact at a cut of {cut:g} on the Dispatch Knowledge Test (demo)")
+        study_data_workbook(paths["blank_data"])
+        scoring_template(paths["blank_scoring"])
+        impact_template(paths["blank_impact"])
+        for key in ("data", "scoring", "impact", "blank_data", "blank_scoring", "blank_impact"):
+            recalculate(paths[key], in_place=True)
+        result = make_study(paths["data"], paths["study"])
+        if target.exists():
+            target.rmdir()  # empty, checked above; a rename cannot replace a folder on every platform
+        os.replace(work, target)
+    except BaseException:
+        shutil.rmtree(work, ignore_errors=True)
+        raise
+    final = {k: target / v for k, v in DEMO_FILES.items()}
+    result.path = final["study"]
+    return result, final
+
+
+def run_demo(args) -> int:
+    target = Path(args.dir) if args.dir else _new_folder(Path.cwd())
+    try:
+        result, paths = write_demo(target)
+    except (SetupError, StudyError) as exc:
+        raise CommandError(f"{exc}; nothing was written") from None
+    print(f"Demo written to {target}/ (Osterfell Harbour Logistics, an invented employer hiring cargo dispatch "
+          f"coordinators; invented data):")
+    print(f"  {paths['data'].name:34} the applicants' data and its Setup sheet")
+    print(f"  {paths['study'].name:34} the validation study built from it")
+    print(f"  {paths['scoring'].name:34} scoring sheet: totals, intervals and score bands")
+    print(f"  {paths['impact'].name:34} adverse-impact sheet at the demo cut")
+    print(f"  {'templates/':34} the three workbooks, empty, to copy and fill")
+    print("Headline figures of the study:")
+    for line in headline_lines(headline_values(paths["study"], result)):
+        print(line)
+    print(f"Rebuild the study from the data with: trueband study {paths['data']} -o my-study.xlsx")
+    print("Caution: " + CAUTION)
+    report = result.recalc_report
+    return EXIT_OK if report is None or report.ok else EXIT_CELL_ERRORS
