@@ -28,6 +28,7 @@ from __future__ import annotations
 import dataclasses
 import functools
 import gc
+import itertools
 import math
 import re
 from typing import Iterator, Mapping, NamedTuple, Sequence
@@ -288,6 +289,8 @@ def iter_cells(xml: bytes, shared_strings: Sequence[str] = ()) -> Iterator[Cell]
     strings = shared_strings
     style_type = _style_type
     col_of = column_index
+    new = tuple.__new__  # skips the namedtuple's Python-level __new__
+    done = -1  # cells yielded before the current one
     for cs, ce in _chunks(xml, start, end, prefix):
         gc_was = gc.isenabled()
         gc.disable()  # millions of short tuples: collection passes would cost more than the matching
@@ -297,28 +300,29 @@ def iter_cells(xml: bytes, shared_strings: Sequence[str] = ()) -> Iterator[Cell]
             if gc_was:
                 gc.enable()
         for letters, rownum, rest, raw, body, other_attrs, other_body in found:
+            done += 1
             if letters:
+                if not body and not rest:  # the commonest cell: a plain number (or empty)
+                    try:
+                        yield new(Cell, ((letters + rownum).decode("ascii"), int(rownum), col_of(letters),
+                                         float(raw) if raw else None, "n", 0, None))
+                    except ValueError:
+                        raise SheetXmlError(f"cell {(letters + rownum).decode('ascii')} holds {raw[:40]!r}, "
+                                            f"which is not a number") from None
+                    continue
                 row = int(rownum)
                 ref = (letters + rownum).decode("ascii")
                 style, typ = style_type(rest) if rest else (0, "n")
                 if not body:
-                    if not raw:
-                        yield Cell(ref, row, col_of(letters), None, typ, style, None)
-                        continue
-                    if typ == "n":
-                        try:
-                            yield Cell(ref, row, col_of(letters), float(raw), typ, style, None)
-                        except ValueError:
-                            raise SheetXmlError(f"cell {ref} holds {raw[:40]!r}, which is not a number") from None
-                        continue
-                    yield Cell(ref, row, col_of(letters), _plain_value(raw, typ, ref, strings), typ, style, None)
+                    yield new(Cell, (ref, row, col_of(letters), _plain_value(raw, typ, ref, strings) if raw else None,
+                                     typ, style, None))
                     continue
                 col = col_of(letters)
             else:
                 a = _attrs(other_attrs)
                 r = a.get(b"r")
-                if not r:
-                    yield from _iter_cells_rowwise(xml, shared_strings)
+                if not r:  # positions must be counted from the rows: go on with the row-aware reader
+                    yield from itertools.islice(_iter_cells_rowwise(xml, shared_strings), done, None)
                     return
                 ref = r.decode("ascii")
                 row, col = split_ref(ref)
