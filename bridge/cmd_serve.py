@@ -54,8 +54,19 @@ def serving_in_background(app, host: str = DEFAULT_HOST, port: int = 0, *, threa
     try:
         yield f"http://{_url_host(host)}:{server.effective_port}"
     finally:
-        server.close()
-        thread.join(timeout=10)
+        # Closing the sockets from this thread would pull them from under the loop's select();
+        # waitress's trigger runs the shutdown inside the loop thread instead, and the loop then ends.
+        server.trigger.pull_trigger(lambda: _shut_down_in_loop(server))
+        thread.join(timeout=30)
+        if thread.is_alive():
+            raise RuntimeError("the background server did not stop")
+
+
+def _shut_down_in_loop(server) -> None:
+    from waitress import wasyncore
+
+    server.task_dispatcher.shutdown()
+    wasyncore.close_all(server._map)
 
 
 def _url_host(host: str) -> str:
