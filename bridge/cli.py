@@ -30,6 +30,7 @@ COMMAND_MODULES = (
     "trueband.bridge.cmd_catalog",
     "trueband.bridge.cmd_serve",
     "trueband.bridge.cmd_recalc",
+    "trueband.bridge.cmd_fill",
     "trueband.bridge.cmd_study",
 )
 

@@ -1,0 +1,338 @@
+"""Replace trueband formulas by their values, keeping the formulas in a hidden sheet; and put them back.
+
+For a workbook sent to people who do not have trueband, ``trueband recalc
+--values`` leaves each cell that uses a registered function holding only its
+value, and records the formula in a hidden sheet named
+:data:`FORMULA_SHEET` (state ``hidden``: the recipient can unhide it to see
+what the values came from; nothing else depends on it). Each record is one
+row: sheet name, cell, the formula as text (``=…``) and the cell's ``<f>``
+element exactly as it was (so a shared or array formula comes back with its
+attributes). Formulas that only use standard functions stay formulas.
+
+``trueband restore BOOK.xlsx`` puts every recorded formula back beside the
+cell's current value, removes the hidden sheet (its part, its ``<sheet>``
+entry, its relationship and content type) and drops the calculation chain.
+
+Package edits made here, all as byte edits of the small parts involved:
+``xl/workbook.xml`` (a ``<sheet>`` appended at the end, so the positions that
+sheet-local defined names count are unchanged), the workbook relationships,
+``[Content_Types].xml``, and the removal of ``xl/calcChain.xml`` (formulas
+are removed or added, so the chain is stale; apps rebuild it).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import posixpath
+import re
+from typing import Mapping
+
+from trueband.funcs.registry import REGISTRY, normalize_name
+
+from . import sheet_xml
+from .safe_write import PackageChanges, add_override, remove_override
+from .sheet_xml import CellUpdate, escape_text, iter_cells
+from .xlsx_package import REL_WORKSHEET, UnusableWorkbook, WorkbookPackage, rels_part_of
+
+__all__ = [
+    "FORMULA_SHEET",
+    "FormulaRecord",
+    "uses_registered_function",
+    "replace_with_values",
+    "restore_formulas",
+    "RestoreReport",
+]
+
+#: Name of the hidden sheet that keeps the replaced formulas.
+FORMULA_SHEET = "trueband_formulas"
+FORMULA_SHEET_STATE = "hidden"
+_HEADER = ("sheet", "cell", "formula", "formula element")
+_NOTE = "Formulas replaced by their values by trueband; `trueband restore FILE` puts them back."
+CT_WORKSHEET = "application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"
+
+_NAME_CALL = re.compile(r'"[^"]*"|((?:_xludf\.|_xlfn\._xlws\.|_xlfn\.|_xlws\.|com\.microsoft\.|org\.openoffice\.)?'
+                        r"[A-Za-z_][A-Za-z0-9_.]*)\s*\(", re.I)
+
+
+def uses_registered_function(formula: str) -> bool:
+    """True if the formula calls a registered function (any case, any app prefix; text in quotes ignored).
+
+    >>> uses_registered_function('ROUND(_xludf.SEM(B1, B2), 2)')
+    True
+    >>> uses_registered_function('SUM(A1:A9) & "SEM("')
+    False
+    """
+    return any(m.group(1) and normalize_name(m.group(1)) in REGISTRY for m in _NAME_CALL.finditer(formula))
+
+
+@dataclasses.dataclass(frozen=True)
+class FormulaRecord:
+    """One replaced formula: where it was, its text (without ``=``; None for a shared dependent) and ``<f>`` XML."""
+
+    sheet: str
+    cell: str
+    text: str | None
+    element: bytes
+
+
+# ------------------------------------------------------------------ replacing
+
+
+def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
+                        values: Mapping[str, Mapping[str, object]] | None = None) -> list[FormulaRecord]:
+    """Drop every formula that uses a registered function, keeping its value; record it in the hidden sheet.
+
+    Parameters
+    ----------
+    pkg : WorkbookPackage
+    changes : PackageChanges
+        The edits so far (normally the sheets patched with the new cached
+        values); the sheets are read as they will be written, and edited further.
+    values : mapping, optional
+        ``{sheet name: {cell: value}}`` of freshly computed values; a replaced
+        cell takes its value from here, else keeps its cached value.
+
+    Returns
+    -------
+    list of FormulaRecord
+        The formulas replaced (empty when the workbook has none).
+
+    Notes
+    -----
+    A shared formula is replaced as a whole group (master and dependents use
+    the same functions). Cells of an array formula other than its top-left
+    cell hold only values already and are left alone.
+    """
+    values = values or {}
+    records: list[FormulaRecord] = []
+    for info in pkg.worksheets:
+        if info.name == FORMULA_SHEET:
+            continue
+        xml = changes.current(pkg, info.part)
+        masters: dict[int, str] = {}
+        chosen: dict[str, tuple[str | None, object]] = {}
+        for cell in iter_cells(xml, pkg.shared_strings):
+            f = cell.formula
+            if f is None:
+                continue
+            if f.kind == "shared" and f.is_master and f.text is not None:
+                masters[f.shared_index] = f.text
+            text = f.text if f.text is not None else masters.get(f.shared_index)
+            if text is not None and uses_registered_function(text):
+                chosen[cell.ref] = (f.text, values.get(info.name, {}).get(cell.ref, cell.value))
+        if not chosen:
+            continue
+        elements = formula_elements(xml, chosen)
+        updates = {}
+        for ref, (text, value) in chosen.items():
+            records.append(FormulaRecord(info.name, ref, text, elements[ref]))
+            updates[ref] = CellUpdate(value, drop_formula=True)
+        changes.set(pkg, info.part, sheet_xml.patch_sheet(xml, updates))
+    if records:
+        _write_formula_sheet(pkg, changes, _existing_records(pkg) + records)
+        changes.drop_calc_chain(pkg)
+    return records
+
+
+_CELL = re.compile(rb'<(?:\w+:)?c\b[^>]*?\br="([A-Z]+[0-9]+)"[^>]*?(?:/>|>(.*?)</(?:\w+:)?c>)', re.S)
+_F = re.compile(rb"<(?:\w+:)?f\b[^>]*?(?:/>|>.*?</(?:\w+:)?f>)", re.S)
+
+
+def formula_elements(xml: bytes, refs) -> dict[str, bytes]:
+    """The raw ``<f>`` element of each listed cell, as bytes from the part."""
+    want = set(refs)
+    out = {}
+    for m in _CELL.finditer(xml):
+        ref = m.group(1).decode("ascii")
+        if ref in want and m.group(2):
+            f = _F.search(m.group(2))
+            if f:
+                out[ref] = f.group(0)
+    return out
+
+
+def _inline(ref: str, text: str) -> bytes:
+    space = b' xml:space="preserve"' if text != text.strip() else b""
+    return (f'<c r="{ref}" t="inlineStr"><is><t'.encode() + space + b">" + escape_text(text) + b"</t></is></c>")
+
+
+def _records_part(records: list[FormulaRecord]) -> bytes:
+    rows = [b'<row r="1">' + b"".join(_inline(f"{c}1", h) for c, h in zip("ABCD", _HEADER))
+            + _inline("F1", _NOTE) + b"</row>"]
+    for i, rec in enumerate(records, start=2):
+        shown = "=" + rec.text if rec.text is not None else "(shares the formula above it in its group)"
+        rows.append(f'<row r="{i}">'.encode() + _inline(f"A{i}", rec.sheet) + _inline(f"B{i}", rec.cell)
+                    + _inline(f"C{i}", shown) + _inline(f"D{i}", rec.element.decode("utf-8")) + b"</row>")
+    last = len(records) + 1
+    return (b'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
+            b'<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main" '
+            b'xmlns:r="http://schemas.openxmlformats.org/officeDocument/2006/relationships">'
+            + f'<dimension ref="A1:F{last}"/>'.encode() + b"<sheetData>" + b"".join(rows) + b"</sheetData></worksheet>")
+
+
+def _existing_records(pkg: WorkbookPackage) -> list[FormulaRecord]:
+    try:
+        info = pkg.sheet(FORMULA_SHEET)
+    except KeyError:
+        return []
+    return read_records(pkg.read(info.part))
+
+
+def read_records(xml: bytes) -> list[FormulaRecord]:
+    """The records of a formula sheet part (the inverse of what :func:`replace_with_values` writes)."""
+    rows: dict[int, dict[int, object]] = {}
+    for cell in iter_cells(xml):
+        rows.setdefault(cell.row, {})[cell.col] = cell.value
+    out = []
+    for r in sorted(rows):
+        if r == 1:
+            continue
+        row = rows[r]
+        sheet, ref, shown, element = (row.get(i) for i in (1, 2, 3, 4))
+        if not (isinstance(sheet, str) and isinstance(ref, str) and isinstance(element, str)):
+            raise UnusableWorkbook(f"the hidden sheet {FORMULA_SHEET} has an incomplete record in row {r}; "
+                                   f"it was edited by hand")
+        text = shown[1:] if isinstance(shown, str) and shown.startswith("=") else None
+        out.append(FormulaRecord(sheet, ref, text, element.encode("utf-8")))
+    return out
+
+
+def _free_name(names, pattern: str) -> str:
+    n = 1
+    while pattern.format(n) in names:
+        n += 1
+    return pattern.format(n)
+
+
+def _write_formula_sheet(pkg: WorkbookPackage, changes: PackageChanges, records: list[FormulaRecord]) -> None:
+    data = _records_part(records)
+    try:
+        existing = pkg.sheet(FORMULA_SHEET)
+    except KeyError:
+        existing = None
+    if existing is not None:
+        changes.set(pkg, existing.part, data)
+        return
+    folder = posixpath.dirname(pkg.sheets[0].part) if pkg.sheets else "xl/worksheets"
+    taken = set(pkg.entry_names) | set(changes.add)
+    part = _free_name(taken, folder + "/sheet{}.xml")
+    changes.set(pkg, part, data)
+    rels_name = rels_part_of(pkg.workbook_part)
+    rels = changes.current(pkg, rels_name)
+    ids = set(re.findall(rb'\bId="([^"]*)"', rels))
+    rid = _free_name({i.decode() for i in ids}, "rId{}")
+    target = posixpath.relpath(part, posixpath.dirname(pkg.workbook_part))
+    rel_el = f'<Relationship Id="{rid}" Type="{REL_WORKSHEET}" Target="{target}"/>'.encode()
+    i = rels.rindex(b"</")
+    changes.set(pkg, rels_name, rels[:i] + rel_el + rels[i:])
+    ct = changes.current(pkg, "[Content_Types].xml")
+    changes.set(pkg, "[Content_Types].xml", add_override(ct, "/" + part, CT_WORKSHEET))
+    wb = changes.current(pkg, pkg.workbook_part)
+    prefix_m = re.search(rb'<(\w+:)?sheet\b[^>]*?\s(\w+):id="', wb)
+    el_prefix = (prefix_m.group(1) or b"") if prefix_m else b""
+    r_prefix = prefix_m.group(2) if prefix_m else b"r"
+    ids = [int(x) for x in re.findall(rb'<(?:\w+:)?sheet\b[^>]*?\bsheetId="([0-9]+)"', wb)]
+    sheet_el = (b"<" + el_prefix + b'sheet name="' + FORMULA_SHEET.encode() + b'" sheetId="'
+                + str(max(ids, default=0) + 1).encode() + b'" state="' + FORMULA_SHEET_STATE.encode() + b'" '
+                + r_prefix + b':id="' + rid.encode() + b'"/>')
+    close = b"</" + el_prefix + b"sheets>"
+    j = wb.index(close)
+    changes.set(pkg, pkg.workbook_part, wb[:j] + sheet_el + wb[j:])
+
+
+# ------------------------------------------------------------------ restoring
+
+
+@dataclasses.dataclass
+class RestoreReport:
+    """What a restore did: formulas put back, and cells that could not be (sheet!cell, why)."""
+
+    restored: int = 0
+    skipped: list[tuple[str, str]] = dataclasses.field(default_factory=list)
+
+
+def restore_formulas(pkg: WorkbookPackage, changes: PackageChanges) -> RestoreReport:
+    """Put back the formulas recorded in the hidden sheet and remove the sheet.
+
+    Each formula goes back into its cell beside the cell's current value (so
+    the file still shows the same values until recalculated). A recorded
+    cell whose sheet was renamed or deleted, or that no longer exists, is
+    listed in ``skipped``.
+
+    Raises
+    ------
+    UnusableWorkbook
+        The workbook has no hidden formula sheet (nothing to restore).
+    """
+    try:
+        info = pkg.sheet(FORMULA_SHEET)
+    except KeyError:
+        raise UnusableWorkbook(f"{pkg.path.name} has no sheet {FORMULA_SHEET}: there are no replaced formulas "
+                               f"to restore", path=pkg.path) from None
+    records = read_records(pkg.read(info.part))
+    report = RestoreReport()
+    by_sheet: dict[str, list[FormulaRecord]] = {}
+    for rec in records:
+        by_sheet.setdefault(rec.sheet, []).append(rec)
+    for name, recs in by_sheet.items():
+        try:
+            target = pkg.sheet(name)
+        except KeyError:
+            report.skipped += [(f"{rec.sheet}!{rec.cell}", "the sheet no longer exists") for rec in recs]
+            continue
+        xml = changes.current(pkg, target.part)
+        current = {c.ref: c for c in iter_cells(xml, pkg.shared_strings)}
+        updates = {}
+        for rec in recs:
+            cell = current.get(rec.cell)
+            if cell is None:
+                report.skipped.append((f"{rec.sheet}!{rec.cell}", "the cell no longer exists"))
+                continue
+            if cell.formula is not None:
+                report.skipped.append((f"{rec.sheet}!{rec.cell}", "the cell holds a formula again"))
+                continue
+            # text values (shared or inline strings) become the formula's text result (t="str")
+            updates[rec.cell] = CellUpdate(cell.value, formula_xml=rec.element)
+        if updates:
+            changes.set(pkg, target.part, sheet_xml.patch_sheet(xml, updates))
+            report.restored += len(updates)
+    _remove_sheet(pkg, changes, info)
+    changes.drop_calc_chain(pkg)
+    changes.keep_cached_values(pkg)
+    return report
+
+
+def _remove_sheet(pkg: WorkbookPackage, changes: PackageChanges, info) -> None:
+    changes.delete(info.part)
+    own_rels = rels_part_of(info.part)
+    if own_rels in pkg:
+        changes.delete(own_rels)
+    wb = changes.current(pkg, pkg.workbook_part)
+    wb = re.sub(rb'<(?:\w+:)?sheet\b[^>]*?\bname="' + re.escape(FORMULA_SHEET.encode()) + rb'"[^>]*?/>', b"", wb,
+                count=1)
+    if info.index != len(pkg.sheets) - 1:
+        wb = _renumber_local_names(wb, info.index)
+    changes.set(pkg, pkg.workbook_part, wb)
+    rels_name = rels_part_of(pkg.workbook_part)
+    rels = changes.current(pkg, rels_name)
+    rels = re.sub(rb'<(?:\w+:)?Relationship\b[^>]*?\bId="' + re.escape(info.rel_id.encode()) + rb'"[^>]*?/>', b"",
+                  rels, count=1)
+    changes.set(pkg, rels_name, rels)
+    ct = changes.current(pkg, "[Content_Types].xml")
+    changes.set(pkg, "[Content_Types].xml", remove_override(ct, "/" + info.part))
+
+
+
+_LOCAL_NAME = re.compile(rb'(<(?:\w+:)?definedName\b[^>]*?\blocalSheetId=")([0-9]+)("[^>]*>.*?</(?:\w+:)?definedName>)', re.S)
+
+
+def _renumber_local_names(wb: bytes, removed: int) -> bytes:
+    """Sheet-local defined names count sheet positions: shift those after a removed sheet, drop its own."""
+    def fix(m):
+        index = int(m.group(2))
+        if index == removed:
+            return b""
+        if index > removed:
+            return m.group(1) + str(index - 1).encode() + m.group(3)
+        return m.group(0)
+    return _LOCAL_NAME.sub(fix, wb)
