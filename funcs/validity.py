@@ -64,9 +64,6 @@ __all__ = [
     "case_ii",
 ]
 
-CAUTION = ("Corrected validities are estimates under stated assumptions, to support professional judgment, "
-           "not to replace it.")
-
 #: Rounding allowance at ±1 for corrected correlations.
 _ROUNDING = 1e-12
 
