@@ -310,9 +310,9 @@ class Fixed:
     def scalar_number(self):
         """The float of a one-cell fixed range holding a number, else None."""
         a = self.a
-        if isinstance(a, np.ndarray) and a.shape == (1, 1):
-            x = a[0, 0]
-            if isinstance(x, (float, int)) and not isinstance(x, bool):
+        if isinstance(a, np.ndarray) and a.size == 1 and a.ndim <= 2:
+            x = a.ravel()[0]
+            if isinstance(x, (float, int, np.floating, np.integer)) and not isinstance(x, (bool, np.bool_)):
                 return float(x)
         return None
 
@@ -379,7 +379,7 @@ def _numbers_of(x):
         return x.a if x.a.dtype.kind == "f" else None
     if isinstance(x, Fixed):
         return x.scalar_number()
-    if isinstance(x, float) or (isinstance(x, int) and not isinstance(x, bool)):
+    if isinstance(x, (float, int, np.floating, np.integer)) and not isinstance(x, (bool, np.bool_)):
         return float(x)
     return None
 
@@ -486,7 +486,7 @@ class _RunEval:
             raise VectorUnsupported(f"the range operator {name!r}")
         args = [self.ev(a) for a in node.args]
         if not any(isinstance(a, (Col, RowRange)) for a in args):
-            return OPERATORS[name](*[a.a if isinstance(a, Fixed) else a for a in args])
+            return _constant(OPERATORS[name](*[a.a if isinstance(a, Fixed) else a for a in args]))
         fn = OPERATORS[name]
         if name in _ARITH or name in ("U-", "U+", "%"):
             nums = [_numbers_of(a) for a in args]
@@ -728,8 +728,11 @@ class _RunEval:
 
 
 def _constant(x):
-    """A value that does not vary by row, kept in the engine's form."""
+    """A value that does not vary by row, kept in the engine's form (a computed single value unwrapped)."""
     if isinstance(x, np.ndarray):
+        if x.ndim == 0:
+            x = x.item()
+            return x.item() if isinstance(x, np.generic) else x
         return Fixed(x)
     if isinstance(x, np.generic):
         return x.item()

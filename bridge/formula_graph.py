@@ -45,7 +45,7 @@ from formulas.tokens.operator import Operator
 
 __all__ = [
     "MAX_ROW", "MAX_COL", "Ref", "Node", "Compiled", "Run", "FormulaGraph", "formula_key", "compile_formula",
-    "column_index", "column_letters", "split_address", "FormulaSyntaxError",
+    "column_index", "column_letters", "split_address", "FormulaSyntaxError", "KeyTemplate",
 ]
 
 MAX_ROW = 1_048_576
@@ -125,6 +125,42 @@ def formula_key(formula: str, row: int, col: int) -> tuple[str, int]:
         return _rc(a, row, col) + ":" + _rc(b, row, col)
 
     return _KEY_TOKEN.sub(sub, formula), count
+
+
+class KeyTemplate:
+    """Predicts the text a formula has when filled down one row, to recognise a filled-down run cheaply.
+
+    Built from one cell's formula: the relative row numbers become slots
+    (offset from the cell's row), everything else is kept as written. A cell
+    at ``row`` belongs to the same run when its text is
+    ``template.text_at(row)``; checking that is one string format and one
+    comparison, instead of rewriting every reference.
+    """
+
+    __slots__ = ("fmt", "offsets", "key")
+
+    def __init__(self, formula: str, row: int, col: int):
+        pieces: list[str] = []
+        offsets: list[int] = []
+        pos = 0
+        for m in _KEY_TOKEN.finditer(formula):
+            if m.lastgroup in ("string", "quoted"):
+                continue
+            for part in re.finditer(r"\$?[A-Za-z]*(\$?)(\d+)", m.group(0)):
+                if part.group(1) or not part.group(2):
+                    continue
+                start = m.start() + part.start(2)
+                pieces.append(formula[pos:start].replace("{", "{{").replace("}", "}}"))
+                pieces.append("{%d}" % len(offsets))
+                offsets.append(int(part.group(2)) - row)
+                pos = m.start() + part.end(2)
+        pieces.append(formula[pos:].replace("{", "{{").replace("}", "}}"))
+        self.fmt = "".join(pieces)
+        self.offsets = tuple(offsets)
+        self.key = formula_key(formula, row, col)[0]
+
+    def text_at(self, row: int) -> str:
+        return self.fmt.format(*[row + o for o in self.offsets])
 
 
 # ---------------------------------------------------------------- references

@@ -39,8 +39,8 @@ from formulas.functions import XlError
 from . import sheet_xml
 from .column_eval import (EMPTY, CellProblem, VectorUnsupported, error_value, evaluate_array_formula, evaluate_cell,
                           evaluate_run, registered_name)
-from .formula_graph import (MAX_ROW, Compiled, FormulaGraph, FormulaSyntaxError, Node, Ref, Run, column_letters,
-                            compile_formula, formula_key, split_address)
+from .formula_graph import (MAX_ROW, Compiled, FormulaGraph, FormulaSyntaxError, KeyTemplate, Node, Ref, Run,
+                            column_letters, compile_formula, split_address)
 from .xlsx_package import UnusableWorkbook, WorkbookPackage, open_workbook_package
 
 __all__ = ["recalculate", "RecalcReport", "CellError", "WorkbookModel", "load_model", "evaluate_model",
@@ -293,17 +293,6 @@ class CellStore:
 # ---------------------------------------------------------------- reading the workbook
 
 @dataclasses.dataclass
-class FormulaCell:
-    row: int
-    col: int
-    key: str
-    text: str  # the formula text of the cell that compiles it (the master for shared formulas)
-    at: tuple[int, int]  # where ``text`` stands
-    cached: object
-    array_ref: str | None = None
-
-
-@dataclasses.dataclass
 class WorkbookModel:
     """A workbook read for evaluation: its cell values, formula runs and their graph."""
 
@@ -313,54 +302,72 @@ class WorkbookModel:
     graph: FormulaGraph
     cached_missing: set[int]  # runs with a cell that has no cached value
     unreadable: dict[tuple[str, int, int], str]  # formula cells the parser cannot read → message
-    sheet_cells: dict[str, list[FormulaCell]]
     used: dict[str, tuple[int, int, int, int] | None]
     formula_count: int = 0
 
 
-def _read_sheet(xml: bytes, strings) -> tuple[dict[int, tuple[list, list]], list[FormulaCell], tuple | None]:
+# A run while reading: [column, first row, last row, key, formula text, (row, col) of the text,
+# some cell has no cached value, array formula range]
+_COL, _FIRST, _LAST, _KEY, _TEXT, _AT, _MISSING, _ARRAY = range(8)
+
+
+def _read_sheet(xml: bytes, strings) -> tuple[dict[int, tuple[list, list]], list[list], tuple | None]:
+    """Cell values by column, formula runs (filled-down cells recognised by :class:`KeyTemplate`), used range."""
     columns: dict[int, tuple[list, list]] = {}
-    formulas_: list[FormulaCell] = []
+    runs: list[list] = []
+    open_runs: dict[int, list] = {}
     shared: dict[int, tuple[str, int, int, str]] = {}  # si → (text, row, col, key)
-    r0 = c0 = math.inf
-    r1 = c1 = 0
+    templates: dict[int, tuple[int, KeyTemplate]] = {}  # column → (last row, template of its run)
+    engine_value = _engine_value
     for cell in sheet_xml.iter_cells(xml, strings):
         f = cell.formula
         value = cell.value
         if value is None and f is None:
             continue
         row, col = cell.row, cell.col
-        if row < r0:
-            r0 = row
-        if row > r1:
-            r1 = row
-        if col < c0:
-            c0 = col
-        if col > c1:
-            c1 = col
-        v = _engine_value(value)
         entry = columns.get(col)
         if entry is None:
             entry = columns[col] = ([], [])
         entry[0].append(row)
-        entry[1].append(v)
+        entry[1].append(value if type(value) is float else engine_value(value))
         if f is None or f.kind == "dataTable":
             continue
+        array_ref = None
         if f.kind == "shared" and f.text is None:
             master = shared.get(f.shared_index)
             if master is None:
                 continue  # a dependent before its master: malformed; the cached value stays
             text, mr, mc, key = master
-            formulas_.append(FormulaCell(row, col, key, text, (mr, mc), value))
-            continue
-        text = "=" + (f.text or "")
-        key, _ = formula_key(text, row, col)
-        if f.kind == "shared" and f.shared_index is not None:
-            shared[f.shared_index] = (text, row, col, key)
-        formulas_.append(FormulaCell(row, col, key, text, (row, col), value,
-                                     array_ref=f.ref if f.kind == "array" else None))
-    used = None if r1 == 0 else (int(r0), int(c0), r1, c1)
-    return columns, formulas_, used
+            at = (mr, mc)
+        else:
+            text = "=" + (f.text or "")
+            last = templates.get(col)
+            if last is not None and last[0] == row - 1 and last[1].text_at(row) == text:
+                template = last[1]
+            else:
+                template = KeyTemplate(text, row, col)
+            templates[col] = (row, template)
+            key = template.key
+            at = (row, col)
+            if f.kind == "shared" and f.shared_index is not None:
+                shared[f.shared_index] = (text, row, col, key)
+            if f.kind == "array":
+                array_ref = f.ref or cell.ref
+        cur = open_runs.get(col)
+        if cur is not None and cur[_LAST] == row - 1 and cur[_KEY] == key and array_ref is None \
+                and cur[_ARRAY] is None:
+            cur[_LAST] = row
+            if value is None:
+                cur[_MISSING] = True
+        else:
+            cur = [col, row, row, key, text, at, value is None, array_ref]
+            runs.append(cur)
+            open_runs[col] = cur
+    used = None
+    if columns:
+        cols = [c for c, (rows, _) in columns.items() if rows]
+        used = (min(columns[c][0][0] for c in cols), min(cols), max(columns[c][0][-1] for c in cols), max(cols))
+    return columns, runs, used
 
 
 def _name_compiler(package: WorkbookPackage):
@@ -413,54 +420,41 @@ def load_model(package: WorkbookPackage, progress: Callable[[str, float], None] 
     unreadable: dict[tuple[str, int, int], str] = {}
     names = _name_compiler(package)
     compiled_cache: dict[tuple[str, str], Compiled | str] = {}
-    sheet_cells: dict[str, list[FormulaCell]] = {}
     used: dict[str, tuple | None] = {}
     total = 0
     sheets = package.worksheets
     for k, info in enumerate(sheets):
         xml = package.read(info.part)
         try:
-            columns, cells, used_range = _read_sheet(xml, strings)
+            columns, sheet_runs, used_range = _read_sheet(xml, strings)
         except sheet_xml.SheetXmlError as exc:
             raise UnusableWorkbook(f"{package.path.name}: sheet {info.name!r}: {exc}", path=package.path) from None
         del xml
         store.add_sheet(info.name, columns)
         del columns
-        sheet_cells[info.name] = cells
         used[info.name] = used_range
-        total += len(cells)
-        cells.sort(key=lambda f: (f.col, f.row))
-        i = 0
-        while i < len(cells):
-            f = cells[i]
-            j = i + 1
-            if f.array_ref is None:
-                while j < len(cells) and cells[j].col == f.col and cells[j].row == cells[j - 1].row + 1 \
-                        and cells[j].key == f.key and cells[j].array_ref is None:
-                    j += 1
-            ck = (info.name, f.key)
+        for r in sheet_runs:
+            total += r[_LAST] - r[_FIRST] + 1
+            ck = (info.name, r[_KEY])
             comp = compiled_cache.get(ck)
             if comp is None:
                 try:
-                    comp = compile_formula(f.text, *f.at)
+                    comp = compile_formula(r[_TEXT], *r[_AT])
                     comp = _substitute_names(comp, info.name, names)
                 except FormulaSyntaxError as exc:
                     comp = str(exc)
                 compiled_cache[ck] = comp
             if isinstance(comp, str):
-                for g in cells[i:j]:
-                    unreadable[(info.name, g.row, g.col)] = comp
-                i = j
+                for row in range(r[_FIRST], r[_LAST] + 1):
+                    unreadable[(info.name, row, r[_COL])] = comp
                 continue
-            run = Run(info.name, f.col, f.row, cells[j - 1].row, comp, array_ref=f.array_ref)
-            if any(g.cached is None for g in cells[i:j]):
+            if r[_MISSING]:
                 missing.add(len(runs))
-            runs.append(run)
-            i = j
+            runs.append(Run(info.name, r[_COL], r[_FIRST], r[_LAST], comp, array_ref=r[_ARRAY]))
         if progress:
             progress("reading", (k + 1) / len(sheets))
     graph = FormulaGraph(runs)
-    return WorkbookModel(package, store, runs, graph, missing, unreadable, sheet_cells, used, total)
+    return WorkbookModel(package, store, runs, graph, missing, unreadable, used, total)
 
 
 # ---------------------------------------------------------------- evaluating
