@@ -119,20 +119,22 @@ def _range_cache() -> _RangeCache:
 
 
 def _convert_range(arr: np.ndarray):
-    flat = arr.ravel()
-    kinds = np.frompyfunc(type, 1, 1)(flat) if flat.size else flat
-    is_float = (kinds == float) | (kinds == int) | (kinds == np.float64)
-    is_blank = np.frompyfunc(lambda x: x is schedula.EMPTY or x is None, 1, 1)(flat).astype(bool) if flat.size \
-        else np.zeros(0, dtype=bool)
-    if flat.size and (is_float | is_blank).all():
-        out = np.full(flat.shape, np.nan)
-        out[is_float] = flat[is_float].astype(float)
+    flat = arr.ravel().tolist()
+    out = np.empty(len(flat))
+    numeric = True
+    for k, x in enumerate(flat):
+        if type(x) is float or (isinstance(x, (int, float)) and not isinstance(x, bool)):
+            out[k] = x
+        elif x is schedula.EMPTY or x is None:
+            out[k] = np.nan
+        elif isinstance(x, XlError):
+            return PassError(x)  # the first error in reading order is the result
+        else:
+            numeric = False
+    if numeric:
         out = out.reshape(arr.shape)
         out.flags.writeable = False  # shared between cells: no function may change it
         return out
-    for x in flat:
-        if isinstance(x, XlError):
-            return PassError(x)
     return [[_cell(x) for x in row] for row in arr]
 
 

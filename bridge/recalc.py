@@ -434,7 +434,12 @@ def load_model(package: WorkbookPackage, progress: Callable[[str, float], None] 
         del columns
         used[info.name] = used_range
         for r in sheet_runs:
-            total += r[_LAST] - r[_FIRST] + 1
+            if r[_ARRAY] is not None:
+                a, _, b = r[_ARRAY].partition(":")
+                (r1, c1), (r2, c2) = split_address(a), split_address(b or a)
+                total += (r2 - r1 + 1) * (c2 - c1 + 1)
+            else:
+                total += r[_LAST] - r[_FIRST] + 1
             ck = (info.name, r[_KEY])
             comp = compiled_cache.get(ck)
             if comp is None:
