@@ -56,7 +56,10 @@ def serving_in_background(app, host: str = DEFAULT_HOST, port: int = 0, *, threa
     finally:
         # Closing the sockets from this thread would pull them from under the loop's select();
         # waitress's trigger runs the shutdown inside the loop thread instead, and the loop then ends.
-        server.trigger.pull_trigger(lambda: _shut_down_in_loop(server))
+        try:
+            server.trigger.pull_trigger(lambda: _shut_down_in_loop(server))
+        except OSError:  # the loop has already closed its trigger: shut down from here
+            _shut_down_in_loop(server)
         thread.join(timeout=30)
         if thread.is_alive():
             raise RuntimeError("the background server did not stop")

@@ -62,6 +62,7 @@ DEFAULT_LIMITS = {
     "MAX_COLUMN_ROWS": 200_000,          # rows in one /v1/column
     "TIME_BUDGET_SECONDS": 5.0,          # computing time of one batch or column, checked between pieces
     "COLUMN_PIECE_CELLS": 1_000_000,     # a column is computed in pieces of about this many cell-evaluations
+    "COLUMN_PIECE_ROWS": 1_000,          # ... and of at most this many rows where each row is its own call
 }
 
 #: Protocol errors (not a function's error): code word and HTTP status.
@@ -296,6 +297,8 @@ def column_route():
     # A column is computed in pieces, so one request cannot hold a worker past the time budget even
     # where every row must be called on its own with a large shared range.
     piece = max(1, current_app.config["COLUMN_PIECE_CELLS"] // (1 + same_cells))
+    if not set(each) <= fn.elementwise:  # call_column then makes one Python call per row
+        piece = min(piece, current_app.config["COLUMN_PIECE_ROWS"])
     start = time.perf_counter()
     values: list = []
     for lo in range(0, rows, piece):
