@@ -474,3 +474,48 @@ def unusable_books(folder: str | Path) -> dict[str, tuple[Path, str]]:
     (folder / ".~lock.open-in-calc.xlsx#").write_text("someone,host,host,01.03.2026 09:30,file:///home/someone;")
     out["LibreOffice lock file"] = (p, "open in another program")
     return out
+
+
+# ------------------------------------------------------------------ LibreOffice
+
+
+def libreoffice_csv(soffice: str, book: str | Path, outdir: str | Path, *, timeout: float = 180) -> dict[str, list[list[str]]]:
+    """Every sheet of ``book`` as LibreOffice Calc shows it (headless CSV export), sheet name → rows.
+
+    Runs with a private user profile in ``outdir`` so it neither needs nor
+    touches a desktop profile; the CSV holds the formatted values Calc displays.
+    """
+    import csv
+    import subprocess
+
+    book = Path(book)
+    outdir = Path(outdir)
+    outdir.mkdir(parents=True, exist_ok=True)
+    profile = (outdir / "lo-profile").resolve().as_uri()
+    # 44 = comma, 34 = double quote, 76 = UTF-8; the last field (-1) exports every sheet to NAME-SHEET.csv
+    filt = 'csv:Text - txt - csv (StarCalc):44,34,76,1,,0,false,true,false,false,false,-1'
+    subprocess.run([soffice, f"-env:UserInstallation={profile}", "--headless", "--norestore",
+                    "--convert-to", filt, "--outdir", str(outdir), str(book)],
+                   check=True, capture_output=True, timeout=timeout)
+    out = {}
+    for csv_path in outdir.glob(f"{book.stem}-*.csv"):
+        sheet = csv_path.stem[len(book.stem) + 1:]
+        with csv_path.open(newline="", encoding="utf-8") as fh:
+            out[sheet] = list(csv.reader(fh))
+    if not out:
+        raise RuntimeError(f"LibreOffice wrote no CSV for {book.name}")
+    return out
+
+
+def csv_cell(rows: list[list[str]], ref: str) -> str:
+    """The text of one cell (``"C2"``) in rows from :func:`libreoffice_csv` (empty when outside)."""
+    import re
+
+    m = re.fullmatch(r"([A-Z]+)([0-9]+)", ref)
+    col = 0
+    for ch in m.group(1):
+        col = col * 26 + ord(ch) - 64
+    r = int(m.group(2)) - 1
+    if r >= len(rows) or col - 1 >= len(rows[r]):
+        return ""
+    return rows[r][col - 1]

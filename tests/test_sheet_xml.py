@@ -1,0 +1,305 @@
+"""Reading and patching worksheet XML, checked against openpyxl (a reference library) and the format.
+
+Sources: ECMA-376 Part 1, 18.3.1.4 ``c`` (cell: ``r``, ``s``, ``t`` = b, e, inlineStr,
+n, s, str), 18.3.1.40 ``f`` (formula: ``t`` = normal, array, shared; ``si``, ``ref``),
+18.3.1.35 ``dimension``; openpyxl reads the same files for the cross-checks.
+"""
+
+from __future__ import annotations
+
+import random
+import re
+
+import openpyxl
+import pytest
+
+import golden_books as gb
+from trueband.bridge import sheet_xml as sx
+from trueband.bridge.sheet_xml import CellUpdate, ErrorValue, NewCell, SheetXmlError, iter_cells, patch_sheet
+from trueband.bridge.xlsx_package import open_workbook_package
+
+
+@pytest.fixture
+def forms(tmp_path):
+    path = gb.formula_forms_book(tmp_path / "forms.xlsx")
+    with open_workbook_package(path) as pkg:
+        yield path, pkg.sheet_xml("Scores"), pkg.shared_strings
+
+
+def cells_of(xml, strings=()):
+    return {c.ref: c for c in iter_cells(xml, strings)}
+
+
+def test_values_types_and_styles(forms):
+    _, xml, strings = forms
+    c = cells_of(xml, strings)
+    assert c["A1"].value == "Applicant" and c["A1"].type == "s" and c["A1"].style == 1
+    assert c["A2"].value == "OHL-100" and c["A2"].type == "inlineStr"
+    assert c["B2"].value == 31.0 and c["B2"].style == 2 and (c["B2"].row, c["B2"].col) == (2, 2)
+    assert c["B4"].value is None and c["B4"].style == 2  # an empty styled cell
+    assert c["B6"].value == "absent"
+    assert c["D5"].value == "#DIV/0!" and isinstance(c["D5"].value, ErrorValue) and c["D5"].type == "e"
+    assert not isinstance(c["B6"].value, ErrorValue)
+    assert c["D10"].value == "Group A" and c["D10"].type == "str"
+    assert c["D11"].value is True and c["D11"].type == "b"
+    assert c["E3"].value == " padded "
+    assert c["E4"].value == "Cargo dispatch"
+
+
+def test_cell_without_reference_is_placed_by_position(forms):
+    _, xml, strings = forms
+    c = cells_of(xml, strings)
+    assert c["E2"].value == "no reference" and (c["E2"].row, c["E2"].col) == (2, 5)
+    # the cells after it are neither lost nor repeated
+    refs = [x.ref for x in iter_cells(xml, strings)]
+    assert len(refs) == len(set(refs))
+    assert refs.index("E2") == refs.index("D2") + 1 and refs.index("F2") == refs.index("E2") + 1
+
+
+def test_formula_info(forms):
+    _, xml, strings = forms
+    c = cells_of(xml, strings)
+    master = c["C2"].formula
+    assert master.kind == "shared" and master.is_master and master.shared_index == 0 and master.ref == "C2:C9"
+    assert master.text == "SCORE_BAND(B2,$B$2:$B$9,Settings!$B$1,Reliability)"
+    for r in range(3, 10):
+        dep = c[f"C{r}"].formula
+        assert dep.kind == "shared" and not dep.is_master and dep.shared_index == 0 and dep.text is None
+    assert c["D2"].formula.text == "_xludf.SEM(Settings!B1,Reliability)"
+    assert c["D3"].formula.text == "sem(12,0.91)"
+    assert c["D4"].formula.text == "SUM(B:B)"
+    assert c["D8"].formula.kind == "array" and c["D8"].formula.ref == "D8:D9" and c["D8"].value == 62.0
+    assert c["D9"].formula is None and c["D9"].value == 54.0
+    assert c["D10"].formula.text == 'IF(B2>30,"Group A","Group B")'  # &gt; unescaped
+    assert c["B2"].formula is None
+
+
+def test_reader_agrees_with_openpyxl_on_the_features_book(tmp_path):
+    path = gb.features_book(tmp_path / "features.xlsx")
+    formulas = openpyxl.load_workbook(path)  # reference library
+    cached = openpyxl.load_workbook(path, data_only=True)
+    with open_workbook_package(path) as pkg:
+        for info in pkg.worksheets:
+            ours = cells_of(pkg.read(info.part), pkg.shared_strings)
+            theirs = {c.coordinate: c for row in formulas[info.name].iter_rows() for c in row if c.value is not None}
+            assert set(ours) >= set(theirs)
+            for ref, cell in theirs.items():
+                mine = ours[ref]
+                if mine.formula is not None:
+                    text = cell.value if isinstance(cell.value, str) else cell.value.text
+                    assert "=" + mine.formula.text == text, ref
+                    assert mine.value == cached[info.name][ref].value, ref
+                else:
+                    assert mine.value == cell.value, ref
+
+
+def _random_sheet(rnd, rows=300):
+    out = []
+    for r in range(1, rows + 1):
+        cells = []
+        for col in sorted(rnd.sample(range(1, 30), rnd.randint(0, 8))):
+            ref = f"{sx.column_letters(col)}{r}"
+            kind = rnd.random()
+            if kind < 0.4:
+                cells.append(gb.cell_xml(ref, rnd.choice([0, 1, -2.5, 1e-300, 12345678901234567, 0.1 + 0.2])))
+            elif kind < 0.55:
+                cells.append(gb.cell_xml(ref, rnd.choice(["x", "a&b", "<t>"]), t="str", formula="T(\"x\")"))
+            elif kind < 0.65:
+                cells.append(gb.cell_xml(ref, rnd.choice([True, False]), t="b", s=rnd.randint(0, 2)))
+            elif kind < 0.75:
+                cells.append(gb.cell_xml(ref, rnd.choice(sx.ERROR_CODES[:7]), t="e"))
+            elif kind < 0.85:
+                cells.append(f'<c r="{ref}" s="1" t="inlineStr"><is><t>in {r}</t></is></c>')
+            elif kind < 0.95:
+                cells.append(gb.cell_xml(ref, 3, formula=f"SUM(A{r}:B{r})", s=2))
+            else:
+                cells.append(f'<c s="2" r="{ref}" t="n"><v>{r}</v></c>')  # attributes in another order
+        out.append(gb.row_xml(r, cells))
+    return gb.sheet_part(out)
+
+
+def test_fast_reader_matches_the_row_aware_reader():
+    rnd = random.Random(11)
+    for _ in range(5):
+        xml = _random_sheet(rnd)
+        assert list(iter_cells(xml)) == list(sx._iter_cells_rowwise(xml, ()))
+
+
+def test_chunked_reading_matches_one_piece(monkeypatch):
+    xml = _random_sheet(random.Random(3), rows=2000)
+    whole = list(iter_cells(xml))
+    monkeypatch.setattr(sx, "CHUNK_BYTES", 1000)
+    assert list(iter_cells(xml)) == whole
+
+
+def test_random_sheet_against_openpyxl(tmp_path):
+    xml = _random_sheet(random.Random(5))
+    path = gb.handmade_package(tmp_path / "random.xlsx", [("Data", xml)])
+    ws = openpyxl.load_workbook(path, data_only=True)["Data"]  # reference library: cached values
+    theirs = {c.coordinate: c.value for row in ws.iter_rows() for c in row if c.value is not None}
+    ours = {c.ref: c.value for c in iter_cells(xml) if c.value is not None}
+    assert ours.keys() == theirs.keys()
+    for ref, value in theirs.items():
+        assert ours[ref] == value or (isinstance(value, int) and ours[ref] == float(value)), ref
+
+
+def test_prefixed_namespace_sheet():
+    xml = (b'<x:worksheet xmlns:x="http://schemas.openxmlformats.org/spreadsheetml/2006/main">'
+           b'<x:dimension ref="A1:B1"/><x:sheetData><x:row r="1"><x:c r="A1"><x:v>4</x:v></x:c>'
+           b'<x:c r="B1"><x:f>A1*2</x:f><x:v>8</x:v></x:c></x:row></x:sheetData></x:worksheet>')
+    c = cells_of(xml)
+    assert c["A1"].value == 4.0 and c["B1"].formula.text == "A1*2" and c["B1"].value == 8.0
+    assert sx.dimension(xml) == "A1:B1"
+    patched = patch_sheet(xml, {"B1": CellUpdate(9.5)})
+    assert b"<x:c r=\"B1\"><x:f>A1*2</x:f><x:v>9.5</x:v></x:c>" in patched
+
+
+def test_dimension_and_used_range(forms):
+    _, xml, strings = forms
+    assert sx.dimension(xml) == "A1:F11"
+    assert sx.used_range(xml, strings) == (1, 1, 11, 6)
+    assert sx.dimension(gb.sheet_part([])) is None
+    assert sx.used_range(gb.sheet_part([])) is None
+
+
+def test_bad_shared_string_index_names_the_cell():
+    xml = gb.sheet_part([gb.row_xml(3, [gb.cell_xml("C3", 7, t="s")])])
+    with pytest.raises(SheetXmlError, match="C3"):
+        list(iter_cells(xml, ["only one"]))
+
+
+@pytest.mark.parametrize("ref, expected", [("A1", (1, 1)), ("$B$7", (7, 2)), ("XFD1048576", (1048576, 16384)),
+                                           ("aa10", (10, 27))])
+def test_split_ref(ref, expected):
+    # ECMA-376 Part 1, 18.18.62 ST_Ref; the last column is XFD (16,384) and the last row 1,048,576
+    assert sx.split_ref(ref) == expected
+    assert sx.column_letters(expected[1]) == re.sub(r"[$0-9]", "", ref).upper()
+
+
+# ------------------------------------------------------------------ patching
+
+
+def _outside(xml: bytes, refs) -> bytes:
+    """The XML with the listed cell elements cut out (what must stay byte-identical)."""
+    for ref in refs:
+        xml = re.sub(rb'<c r="' + ref.encode() + rb'"[^>]*?(?:/>|>.*?</c>)', b"", xml, count=1, flags=re.S)
+    return xml
+
+
+def test_patch_writes_values_beside_kept_formulas(forms):
+    _, xml, strings = forms
+    updates = {"C2": CellUpdate(3), "C3": CellUpdate(1.25), "D3": CellUpdate(3.6),
+               "D10": CellUpdate("Group B"), "D11": CellUpdate(False), "D5": CellUpdate.error("#DIV/0!"),
+               "D2": CellUpdate(ErrorValue("#NUM!"))}
+    new = patch_sheet(xml, updates)
+    assert _outside(new, updates) == _outside(xml, updates)
+    before, after = cells_of(xml, strings), cells_of(new, strings)
+    for ref in after:
+        if ref not in updates:
+            assert after[ref] == before[ref]
+    assert after["C2"].value == 3.0 and after["C2"].formula == before["C2"].formula  # shared master kept
+    assert after["C3"].value == 1.25 and after["C3"].formula == before["C3"].formula
+    assert after["D3"].value == 3.6 and after["D3"].type == "n"  # was t="e": the attribute is dropped
+    assert after["D10"].value == "Group B" and after["D10"].type == "str"
+    assert after["D11"].value is False and after["D11"].type == "b"
+    assert after["D2"].value == "#NUM!" and after["D2"].type == "e"
+    assert b'<c r="C2"><f t="shared" ref="C2:C9" si="0">' in new
+
+
+def test_patched_file_reads_back_in_openpyxl(forms, tmp_path):
+    path, xml, _ = forms
+    new = patch_sheet(xml, {"D3": CellUpdate(3.6), "D10": CellUpdate("Group B"), "D11": CellUpdate(False)})
+    with open_workbook_package(path) as pkg:
+        parts = {n: (new if n == "xl/worksheets/sheet1.xml" else pkg.read(n)) for n in pkg.entry_names}
+    out = gb.write_zip(tmp_path / "patched.xlsx", parts)
+    ws = openpyxl.load_workbook(out, data_only=True)["Scores"]  # reference library
+    assert (ws["D3"].value, ws["D10"].value, ws["D11"].value) == (3.6, "Group B", False)
+    assert openpyxl.load_workbook(out)["Scores"]["D3"].value == "=sem(12,0.91)"
+
+
+@pytest.mark.parametrize("value, text", [(0.1 + 0.2, b"0.30000000000000004"), (1e-300, b"1e-300"), (5.0, b"5"),
+                                         (-0.0, b"0"), (123456789012345680.0, b"1.2345678901234568e+17"), (7, b"7")])
+def test_numbers_are_written_so_they_read_back_exactly(value, text):
+    xml = gb.sheet_part([gb.row_xml(1, [gb.cell_xml("A1", None, formula="1")])])
+    new = patch_sheet(xml, {"A1": CellUpdate(value)})
+    assert b"<v>" + text + b"</v>" in new
+    assert cells_of(new)["A1"].value == float(value)
+
+
+def test_non_finite_values_are_refused():
+    xml = gb.sheet_part([gb.row_xml(1, [gb.cell_xml("A1", None, formula="1")])])
+    with pytest.raises(SheetXmlError, match="A1"):
+        patch_sheet(xml, {"A1": CellUpdate(float("nan"))})
+
+
+def test_text_is_escaped():
+    xml = gb.sheet_part([gb.row_xml(1, [gb.cell_xml("A1", None, formula='"x"')])])
+    new = patch_sheet(xml, {"A1": CellUpdate('a<b & "c"\x01')})
+    assert cells_of(new)["A1"].value == 'a<b & "c"\x01'
+
+
+def test_drop_formula_keeps_the_value(forms):
+    _, xml, strings = forms
+    new = patch_sheet(xml, {"D4": CellUpdate(179.0, drop_formula=True), "D10": CellUpdate("Group A", drop_formula=True)})
+    c = cells_of(new, strings)
+    assert c["D4"].formula is None and c["D4"].value == 179.0
+    assert c["D10"].formula is None and c["D10"].value == "Group A" and c["D10"].type == "inlineStr"
+
+
+def test_dropping_a_shared_master_alone_is_refused(forms):
+    _, xml, strings = forms
+    with pytest.raises(SheetXmlError, match="C2.*C3|shared formula"):
+        patch_sheet(xml, {"C2": CellUpdate(1, drop_formula=True)})
+    whole = {f"C{r}": CellUpdate(1, drop_formula=True) for r in range(2, 10)}
+    c = cells_of(patch_sheet(xml, whole), strings)
+    assert all(c[f"C{r}"].formula is None for r in range(2, 10))
+
+
+def test_restoring_a_raw_formula_element(forms):
+    _, xml, _ = forms
+    dropped = patch_sheet(xml, {"D8": CellUpdate(62, drop_formula=True)})
+    back = patch_sheet(dropped, {"D8": CellUpdate(62.0, formula_xml=b'<f t="array" ref="D8:D9">B2:B3*2</f>')})
+    assert back == xml.replace(b"<v>62</v>", b"<v>62</v>")  # the element and value as they were
+
+
+def test_patching_a_missing_cell_is_refused(forms):
+    _, xml, _ = forms
+    with pytest.raises(SheetXmlError, match="Z99"):
+        patch_sheet(xml, {"Z99": CellUpdate(1)})
+
+
+# ------------------------------------------------------------------ adding cells
+
+
+def test_add_cells_in_column_order_and_new_rows(forms):
+    _, xml, strings = forms
+    new = sx.add_cells(xml, {"G1": NewCell("Band", style=1), "G3": NewCell(formula="=C3+1", value=2.0),
+                             "B4": NewCell(30.0), "A13": NewCell("end"), "C12": NewCell(formula="1+1")})
+    c = cells_of(new, strings)
+    assert c["G1"].value == "Band" and c["G1"].style == 1
+    assert c["G3"].formula.text == "C3+1" and c["G3"].value == 2.0
+    assert c["B4"].value == 30.0 and c["B4"].style == 2  # an empty styled cell takes the value, keeps its style
+    assert c["A13"].value == "end" and c["C12"].formula.text == "1+1"
+    order = [(x.row, x.col) for x in iter_cells(new, strings)]
+    assert order == sorted(order)
+    assert sx.dimension(new) == "A1:G13"
+    for ref, cell in cells_of(xml, strings).items():
+        if ref != "B4":
+            assert c[ref] == cell
+
+
+def test_add_cells_refuses_a_filled_cell(forms):
+    _, xml, strings = forms
+    with pytest.raises(SheetXmlError, match="C3"):
+        sx.add_cells(xml, {"C3": NewCell(1.0)})
+    assert cells_of(sx.add_cells(xml, {"C3": NewCell(1.0)}, replace=True), strings)["C3"].value == 1.0
+
+
+def test_add_cells_to_an_empty_sheet_and_openpyxl_reads_it(tmp_path):
+    xml = gb.sheet_part([]).replace(b"<sheetData></sheetData>", b"<sheetData/>")
+    new = sx.add_cells(xml, {"B2": NewCell(formula="SEM(12,0.91)", value=3.6), "A1": NewCell("SEM")})
+    path = gb.handmade_package(tmp_path / "added.xlsx", [("Only", new)])
+    wb = openpyxl.load_workbook(path)  # reference library
+    assert wb["Only"]["A1"].value == "SEM" and wb["Only"]["B2"].value == "=SEM(12,0.91)"
+    assert openpyxl.load_workbook(path, data_only=True)["Only"]["B2"].value == 3.6
+    assert wb["Only"].calculate_dimension() == "A1:B2"
