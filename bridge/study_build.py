@@ -101,7 +101,8 @@ class Grid:
         self.widths: dict[int, float] = {}
         self.charts: list[tuple[Any, str]] = []
         self.freeze: str | None = None
-        self.landscape = False
+        self.landscape = True  # printed landscape, one page wide
+        self.print_area: str | None = None
 
     def set(self, row: int, col: int, value, style: str | None = None):
         self.cells[(row, col)] = (value, style)
@@ -120,6 +121,8 @@ class Grid:
             ws.page_setup.fitToWidth = 1
             ws.page_setup.fitToHeight = 0
             ws.sheet_properties.pageSetUpPr.fitToPage = True
+        if self.print_area:
+            ws.print_area = self.print_area
         if self.cells:
             n_rows = max(r for r, _ in self.cells)
             n_cols = max(c for _, c in self.cells)
@@ -363,7 +366,8 @@ class _Builder:
             binary = bool(np.isin(xc, (0.0, 1.0)).all()) if xc.size else False
             g.set(11, 1, "KR-20 (items scored 0/1)")
             if binary:
-                self.put(g, 11, 2, f"=KR20({items_rng})", lambda: call("KR20", x), style="coef", key="kr20")
+                # prefixed: "KR20(" reads as the cell KR20 followed by a bracket in spreadsheet apps
+                self.put(g, 11, 2, f"=_xludf.KR20({items_rng})", lambda: call("KR20", x), style="coef", key="kr20")
             else:
                 self.na(g, 11, 2, "the items are not all scored 0/1", key="kr20")
             g.set(12, 1, "Split-half, odd against even items, Spearman–Brown stepped up")
@@ -545,7 +549,8 @@ class _Builder:
                 g.set(r, 5, "see the statistics to the left", "na")
         self.item_rows = (first, first + x.shape[1] - 1)
         g.charts.append((charts.item_map(charts.area("Items", "B", first, "B", self.item_rows[1]),
-                                         charts.area("Items", "C", first, "C", self.item_rows[1])), "G6"))
+                                         charts.area("Items", "C", first, "C", self.item_rows[1])),
+                         f"A{first + x.shape[1] + 4}"))
         g.set(first + x.shape[1] + 1, 1, "Difficulty is the mean item score (the proportion correct for 0/1 items); "
                                          "the corrected item–total r correlates the item with the total of the other "
                                          "items. Flags are prompts for review by a test developer, not verdicts.",
@@ -769,7 +774,8 @@ class _Builder:
             g.charts.append((charts.score_vs_criterion(charts.area("Validity", "P", 3, "P", end),
                                                        charts.area("Validity", "Q", 3, "Q", end),
                                                        x_title="Test score", y_title=s.criterion or "Criterion"),
-                             "H3"))
+                             "A36"))
+            g.print_area = "A1:F56"  # the chart's data (columns P:Q) is not printed
 
     # -- Impact
 
@@ -798,10 +804,12 @@ class _Builder:
                     key="min_ratio")
             grp_ok = False
         if grp_ok:
-            self._impact_table(g, row, groups, sel_all)
-        self._distribution(g, row + (len(groups) + 6 if grp_ok else 3))
+            self._impact_table(g, row, groups, sel_all, chart_row=row + len(groups) + 6)
+            self._distribution(g, row + len(groups) + 27)
+        else:
+            self._distribution(g, row + 3)
 
-    def _impact_table(self, g: Grid, row: int, groups: list[str], sel_all):
+    def _impact_table(self, g: Grid, row: int, groups: list[str], sel_all, chart_row: int):
         d, s = self.d, self.s
         counts = {}
         garr = np.array([x if x is not None else "" for x in d.groups], dtype=object)
@@ -861,14 +869,18 @@ class _Builder:
             self.na(g, last + 2, 5, "an impact ratio is not computable (see the table)", key="min_ratio")
         g.charts.append((charts.selection_rates(charts.area("Impact", "A", first, "A", last),
                                                 charts.area("Impact", "D", row, "D", last),
-                                                charts.area("Impact", "J", row, "J", last)), "L3"))
+                                                charts.area("Impact", "J", row, "J", last)), f"A{chart_row}"))
 
-    def _distribution(self, g: Grid, row: int):
+    def _distribution(self, g: Grid, chart_row: int):
+        """The score distribution table (columns L:P, not printed) and its chart at ``chart_row``."""
         S = self.scores[self.has_score]
-        g.set(row, 1, "Score distribution", "heading")
+        row, c0 = 5, 12
+        g.set(row, c0, "Score distribution (the data of the chart)", "heading")
         for c, h in enumerate(("Score", "from", "below (upper end, not included)", "Below the cut",
-                               "At or above the cut"), start=1):
+                               "At or above the cut"), start=c0):
             g.set(row + 1, c, h, "header")
+        for c in range(c0, c0 + 5):
+            g.widths[c] = 12
         lo, hi = float(S.min()), float(S.max())
         integer = bool(np.all(S == np.round(S))) and hi - lo <= 120
         if integer:
@@ -877,20 +889,25 @@ class _Builder:
             width = (hi - lo) / 25 if hi > lo else 1.0
             edges = [(lo + j * width, lo + (j + 1) * width + (width * 1e-9 if j == 24 else 0.0),
                       f"{lo + j * width:.4g}–{lo + (j + 1) * width:.4g}") for j in range(25)]
-        score_rng, cut = self.score_range, f"$B$3"
+        score_rng, cut = self.score_range, "$B$3"
         first = row + 2
+        L, M, N, O, P = (get_column_letter(c0 + k) for k in range(5))
         for j, (a, b, label) in enumerate(edges):
             r = first + j
-            g.set(r, 1, label)
-            g.set(r, 2, float(a))
-            g.set(r, 3, float(b))
-            g.set(r, 4, f'=IF(B{r}<{cut},COUNTIFS({score_rng},">="&B{r},{score_rng},"<"&MIN(C{r},{cut})),0)', "count")
-            g.set(r, 5, f'=IF(C{r}>{cut},COUNTIFS({score_rng},">="&MAX(B{r},{cut}),{score_rng},"<"&C{r}),0)', "count")
+            g.set(r, c0, label)
+            g.set(r, c0 + 1, float(a))
+            g.set(r, c0 + 2, float(b))
+            g.set(r, c0 + 3, f'=IF({M}{r}<{cut},COUNTIFS({score_rng},">="&{M}{r},{score_rng},"<"&MIN({N}{r},{cut})),0)',
+                  "count")
+            g.set(r, c0 + 4, f'=IF({N}{r}>{cut},COUNTIFS({score_rng},">="&MAX({M}{r},{cut}),{score_rng},"<"&{N}{r}),0)',
+                  "count")
         last = first + len(edges) - 1
-        g.charts.append((charts.score_distribution(charts.area("Impact", "A", first, "A", last),
-                                                   charts.area("Impact", "D", row + 1, "D", last),
-                                                   charts.area("Impact", "E", row + 1, "E", last),
-                                                   cut_text=f"cut at {self.cut:g}"), f"L{max(row, 22)}"))
+        self.distribution_rows = (first, last)
+        g.charts.append((charts.score_distribution(charts.area("Impact", L, first, L, last),
+                                                   charts.area("Impact", O, row + 1, O, last),
+                                                   charts.area("Impact", P, row + 1, P, last),
+                                                   cut_text=f"cut at {self.cut:g}"), f"A{chart_row}"))
+        g.print_area = f"A1:J{chart_row + 21}"
 
     # -- Utility
 
@@ -1088,6 +1105,10 @@ class _Builder:
                 for c, w in enumerate((14, 12, 9, 10, 10, 10, 8, 12, 11, 14), start=1):
                     ws.column_dimensions[get_column_letter(c)].width = w
                 ws.freeze_panes = "A2"
+                ws.print_title_rows = "1:1"
+                ws.page_setup.fitToWidth = 1
+                ws.page_setup.fitToHeight = 0
+                ws.sheet_properties.pageSetUpPr.fitToPage = True
                 for row in self.bands_rows(ws):
                     ws.append(row)
                 continue

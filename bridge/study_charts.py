@@ -10,6 +10,8 @@ visible: openpyxl leaves axes flagged as deleted unless told otherwise.
 from __future__ import annotations
 
 from openpyxl.chart import BarChart, LineChart, Reference, ScatterChart, Series
+from openpyxl.chart.shapes import GraphicalProperties
+from openpyxl.drawing.line import LineProperties
 from openpyxl.chart.trendline import Trendline
 
 __all__ = ["score_vs_criterion", "score_distribution", "selection_rates", "item_map", "area"]
@@ -31,9 +33,11 @@ def _axes(chart, x_title: str, y_title: str):
     chart.legend.position = "b"
 
 
-def _points_only(series: Series):
+def _points_only(series: Series, colour: str = "1F4E79"):
     series.marker.symbol = "circle"
     series.marker.size = 5
+    series.marker.graphicalProperties = GraphicalProperties(solidFill=colour)
+    series.marker.graphicalProperties.line.solidFill = colour
     series.graphicalProperties.line.noFill = True
 
 
@@ -41,10 +45,12 @@ def score_vs_criterion(x: Reference, y: Reference, *, x_title: str, y_title: str
     """Test score against the criterion, one point per person, with the least-squares line."""
     chart = ScatterChart()
     chart.title = "Test score against job performance"
+    chart.scatterStyle = "marker"
     chart.style = 13
     series = Series(y, x, title="People with a performance rating")
     _points_only(series)
     series.trendline = Trendline(trendlineType="linear", dispRSqr=False, dispEq=False)
+    series.trendline.spPr = GraphicalProperties(ln=LineProperties(solidFill="C00000", w=28575))
     chart.series.append(series)
     _axes(chart, x_title, y_title)
     return chart
@@ -87,6 +93,7 @@ def item_map(difficulty: Reference, discrimination: Reference) -> ScatterChart:
     """Each item's difficulty (proportion correct) against its corrected item-total correlation."""
     chart = ScatterChart()
     chart.title = "Item difficulty against discrimination"
+    chart.scatterStyle = "marker"
     chart.style = 13
     series = Series(discrimination, difficulty, title="Items")
     _points_only(series)
