@@ -59,7 +59,7 @@ def _first(array: np.ndarray, mask: np.ndarray):
 def number(name: str, value):
     """A finite real number (float), or a float array on the column path."""
     if isinstance(value, np.ndarray) and value.dtype.kind in "fiu":
-        value = value.astype(float, copy=False)
+        value = np.asarray(value, dtype=float)
         bad = ~np.isfinite(value)
         if bad.any():
             raise DomainError(f"{name} must be a finite number, got {show(_first(value, bad))}", argument=name)
@@ -184,7 +184,7 @@ def nonzero_variance(name: str, variance, what: str = "variance"):
 def _as_rows(name: str, value) -> np.ndarray:
     """Any range-like input as a 2-D array (object dtype unless already numeric)."""
     if isinstance(value, np.ndarray):
-        arr = value
+        arr = np.asarray(value)  # a plain ndarray: subclasses (an engine's array type) do not leak into the math
     elif isinstance(value, (list, tuple)):
         if len(value) == 0:
             raise InsufficientDataError(f"{name} is empty", argument=name)

@@ -123,7 +123,11 @@ def _as_float(x):
 
 # ---------------------------------------------------------------- rates and ratios
 
-@spreadsheet("SELECTION_RATE", returns="proportion", elementwise=True,
+#: The four counts, which the column path may vary row by row.
+_COUNTS = ["focal_selected", "focal_applicants", "ref_selected", "ref_applicants"]
+
+
+@spreadsheet("SELECTION_RATE", returns="proportion", elementwise=["selected", "applicants"],
              reference=_CAUTION_REFERENCE + " (selection rate: the number selected divided by the number "
                                             "of applicants).")
 def selection_rate(selected: int, applicants: int) -> float:
@@ -155,7 +159,7 @@ def selection_rate(selected: int, applicants: int) -> float:
     return _as_float(selected) / _as_float(applicants)
 
 
-@spreadsheet("IMPACT_RATIO", returns="nonnegative number", elementwise=True,
+@spreadsheet("IMPACT_RATIO", returns="nonnegative number", elementwise=_COUNTS,
              reference=_CAUTION_REFERENCE + "; Questions and Answers on the Uniform Guidelines (1979), "
                                             "44 FR 11996, Q&A 11-12.")
 def impact_ratio(focal_selected: int, focal_applicants: int, ref_selected: int, ref_applicants: int) -> float:
@@ -208,7 +212,7 @@ def impact_ratio(focal_selected: int, focal_applicants: int, ref_selected: int, 
     return ratio.astype(float) if isinstance(ratio, np.ndarray) else ratio
 
 
-@spreadsheet("FOUR_FIFTHS", returns="boolean", elementwise=True,
+@spreadsheet("FOUR_FIFTHS", returns="boolean", elementwise=_COUNTS,
              reference=_CAUTION_REFERENCE + " (the four-fifths rule of thumb); Questions and Answers on the "
                                             "Uniform Guidelines (1979), Q&A 11-12.")
 def four_fifths(focal_selected: int, focal_applicants: int, ref_selected: int, ref_applicants: int) -> bool:
@@ -260,7 +264,7 @@ def four_fifths(focal_selected: int, focal_applicants: int, ref_selected: int, r
 
 # ---------------------------------------------------------------- significance tests
 
-@spreadsheet("IMPACT_Z", returns="number", elementwise=True,
+@spreadsheet("IMPACT_Z", returns="number", elementwise=_COUNTS,
              reference="Fleiss, J. L., Levin, B. & Paik, M. C. (2003). Statistical Methods for Rates and "
                        "Proportions (3rd ed.), ch. 3 (pooled two-proportion z); Morris, S. B. & Lobsenz, R. E. "
                        "(2000). Significance tests and confidence intervals for the adverse impact ratio. "
@@ -429,7 +433,7 @@ def _shortfall(fs: int, fa: int, rs: int, ra: int, target: Fraction) -> int:
     return max(0, needed - fs)
 
 
-@spreadsheet("IMPACT_SHORTFALL", returns="integer", elementwise=True,
+@spreadsheet("IMPACT_SHORTFALL", returns="integer", elementwise=_COUNTS + ["target"],
              reference=_CAUTION_REFERENCE + " (four-fifths rule); Biddle, D. A. (2006). Adverse Impact and Test "
                                             "Validation (2nd ed.), Gower (practical-significance checks: how "
                                             "many more selections change the result).")

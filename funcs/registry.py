@@ -119,7 +119,7 @@ class SpreadsheetFunction:
     returns: str
     description: str
     reference: str
-    elementwise: frozenset[str]  # number arguments the body accepts as float arrays
+    elementwise: frozenset[str]  # number/integer arguments the body accepts as float arrays
     topic: str
     python_name: str
 
@@ -265,8 +265,9 @@ def spreadsheet(name: str, *, returns: str, reference: str, elementwise: bool | 
 
     ``returns`` is a key of :data:`RESULT_KINDS`; ``reference`` the published
     source of the method; ``elementwise`` says the function body accepts float
-    arrays (numpy broadcasting) for all its number arguments (``True``) or
-    for the ones named, so a whole column can be computed in one call.
+    arrays (numpy broadcasting) for all its ``float`` arguments (``True``) or
+    for the ones named (``int`` arguments too), so a whole column can be
+    computed in one call.
     """
     if name != name.upper() or not re.fullmatch(r"[A-Z][A-Z0-9_]*", name):
         raise ValueError(f"spreadsheet names are UPPER_CASE words, got {name!r}")
@@ -284,8 +285,9 @@ def spreadsheet(name: str, *, returns: str, reference: str, elementwise: bool | 
             kind, choices = _kind(hints[p.name])
             arguments.append(Argument(p.name, kind, p.default, choices, arg_docs.get(p.name, "")))
         description = doc.split("\n\n")[0].replace("\n", " ").strip()
-        numbers = {a.name for a in arguments if a.kind == "number"}
-        vector = numbers if elementwise is True else set(elementwise or ())
+        # True means every float argument; whole-number arguments take part only where named.
+        numbers = {a.name for a in arguments if a.kind in ("number", "integer")}
+        vector = {a.name for a in arguments if a.kind == "number"} if elementwise is True else set(elementwise or ())
         if not vector <= numbers:
             raise ValueError(f"{name}: elementwise arguments must be number arguments, got {sorted(vector - numbers)}")
         spec = SpreadsheetFunction(
@@ -378,13 +380,17 @@ def call_column(name: str, each: Mapping[str, Sequence], same: Mapping[str, Any]
     except TruebandError:
         return [one(i) for i in range(n)]
 
-    # Cells that are not numbers fail on their own; the rest go through numpy.
+    # Cells that are not numbers (or not whole numbers, for integer arguments) fail on their own
+    # through a single call; the rest go through numpy.
     arrays = {}
     ok = np.ones(n, dtype=bool)
+    kinds = {a.name: a.kind for a in fn.arguments}
     for key, col in each.items():
         arr = np.empty(n, dtype=float)
+        whole = kinds[key] == "integer"
         for i, cell in enumerate(col):
-            if isinstance(cell, (int, float)) and not isinstance(cell, bool) and math.isfinite(cell):
+            if (isinstance(cell, (int, float)) and not isinstance(cell, bool) and math.isfinite(cell)
+                    and not (whole and not float(cell).is_integer())):
                 arr[i] = cell
             else:
                 arr[i] = 0.0
