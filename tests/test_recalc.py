@@ -1,0 +1,339 @@
+"""trueband recalc: values, error codes, cycles, untouched parts, exit codes.
+
+Sources of the check values:
+* standard functions: ``formulas.ExcelModel`` (the reference library: the
+  same parser and functions run through its own workbook model), on the
+  mixed-inputs book;
+* registered functions: the functions' own definitions, recomputed here with
+  numpy and scipy.stats.norm (reference library) — SEM = sd·√(1 − r)
+  (Lord & Novick 1968, eq. 3.8.4), score limits score ∓ z·SEM (Harvill 1991);
+  the fixed score bands through ``trueband.funcs.call`` (tested against its
+  sources in tests/test_scores.py);
+* the column evaluator against the per-cell evaluator, cell by cell.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import subprocess
+import sys
+import zipfile
+
+import numpy as np
+import pytest
+from scipy import stats
+
+import golden_books as gb
+import recalc_books as rb
+from trueband.bridge import cli, sheet_xml
+from trueband.bridge.column_eval import VectorUnsupported, evaluate_cell, evaluate_run
+from trueband.bridge.recalc import load_model, recalculate
+from trueband.bridge.xlsx_package import open_workbook_package
+from trueband.funcs import call
+
+
+def cells_of(path, sheet=None) -> dict:
+    """{(sheet, ref): (value, formula text)} of every cell in a workbook, read with the package reader."""
+    out = {}
+    with open_workbook_package(path) as pkg:
+        for info in pkg.worksheets:
+            if sheet is not None and info.name != sheet:
+                continue
+            for c in sheet_xml.iter_cells(pkg.read(info.part), pkg.shared_strings):
+                out[(info.name, c.ref)] = (c.value, c.formula.text if c.formula else None)
+    return out
+
+
+def entries(path) -> dict[str, bytes]:
+    with zipfile.ZipFile(path) as z:
+        return {n: z.read(n) for n in z.namelist()}
+
+
+def same_value(ours, theirs) -> bool:
+    if isinstance(ours, sheet_xml.ErrorValue) or isinstance(theirs, sheet_xml.ErrorValue):
+        return str(ours) == str(theirs)
+    if isinstance(ours, bool) or isinstance(theirs, bool):
+        return ours is theirs or ours == theirs and type(ours) is type(theirs)
+    if isinstance(ours, float) and isinstance(theirs, (int, float)):
+        return ours == float(theirs)
+    return ours == theirs
+
+
+# ---------------------------------------------------------------- standard functions
+
+@pytest.fixture(scope="module")
+def mixed(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("mixed")
+    src = rb.mixed_inputs_book(folder / "mixed.xlsx")
+    report = recalculate(src, folder / "out.xlsx", all_formulas=True)
+    return src, report
+
+
+def test_standard_functions_match_excel_model(mixed):
+    # Reference library: formulas.ExcelModel evaluates the same file with its own workbook model.
+    import formulas
+    from formulas.functions import XlError
+
+    src, report = mixed
+    ours = cells_of(report.output)
+    solution = formulas.ExcelModel().loads(str(src)).finish().calculate()
+    compared = 0
+    for key, ranges in solution.items():
+        if "!" not in key or ":" in key:
+            continue
+        sheet, ref = key.split("!")
+        sheet = sheet.split("]")[1].strip("'")
+        match = [k for k in ours if k[0].upper() == sheet and k[1] == ref and ours[k][1] is not None]
+        if not match:
+            continue
+        value, _ = ours[match[0]]
+        theirs = ranges.value[0, 0]
+        if isinstance(theirs, np.generic):
+            theirs = theirs.item()
+        if isinstance(theirs, complex):
+            # The library gives a complex number for a negative number to a fractional power, where
+            # spreadsheet apps show #NUM! (common practice: Excel and LibreOffice both do); so do we.
+            assert str(value) == "#NUM!", (ref, value)
+        elif isinstance(theirs, XlError):
+            assert str(value) == str(theirs), (ref, value, theirs)
+        else:
+            assert same_value(value, theirs), (ref, value, theirs)
+        compared += 1
+    assert compared == len(rb.MIXED_FORMULAS) * len(rb.MIXED_A)
+
+
+def test_column_evaluation_equals_cell_evaluation(mixed):
+    """Every filled-down run: the array path gives exactly what the per-cell path gives, cell by cell."""
+    _, report = mixed
+    with open_workbook_package(report.output) as pkg:
+        model = load_model(pkg)  # inputs and formula results as recalculated
+    vectorised = 0
+    for run in model.runs:
+        if run.size == 1:
+            continue
+        try:
+            column = evaluate_run(run, model.store).values.tolist()
+        except VectorUnsupported:
+            continue
+        vectorised += 1
+        for i, row in enumerate(range(run.first, run.last + 1)):
+            cell = evaluate_cell(run.compiled, model.store, run.sheet, row, run.col).value
+            a, b = column[i], cell
+            assert type(a) is type(b) and (str(a) == str(b) if not isinstance(a, float) else
+                                           (a == b or (math.isnan(a) and math.isnan(b)))), \
+                (run.address(row), run.compiled.key, a, b)
+    assert vectorised == len(rb.MIXED_FORMULAS)
+    # in a recalculation, the running total (each row reads the row above) goes cell by cell, in order
+    serial = [run for run in model.runs if run.size > 1 and not model.graph.is_vector_group([run.index])]
+    assert [(run.sheet, run.col) for run in serial] == [("Mixed", 27)]
+
+
+def test_running_total_is_ordered_by_cell(mixed):
+    _, report = mixed
+    ours = cells_of(report.output, "Mixed")
+    total = 0.0
+    for i, b in enumerate(rb.MIXED_B):
+        r = i + 2
+        if isinstance(b, str):
+            assert str(ours[("Mixed", f"AA{r}")][0]) == "#VALUE!"
+            break
+        total += b or 0.0
+        assert ours[("Mixed", f"AA{r}")][0] == pytest.approx(total, abs=0)
+
+
+# ---------------------------------------------------------------- registered functions
+
+def test_score_limits_down_a_column(tmp_path):
+    src = rb.display_book(tmp_path / "bands.xlsx")
+    report = recalculate(src, tmp_path / "out.xlsx")
+    ours = cells_of(report.output, "Bands")
+    z = stats.norm.isf(0.025)  # reference library
+    sem = 4.2 * math.sqrt(1 - 0.88)
+    for i, score in enumerate(rb.DISPLAY_SCORES):
+        r = i + 2
+        assert ours[("Bands", f"C{r}")][0] == pytest.approx(score - z * sem, rel=1e-14)
+        assert ours[("Bands", f"D{r}")][0] == pytest.approx(score + z * sem, rel=1e-14)
+        band = call("SCORE_BAND", score, [[s] for s in rb.DISPLAY_SCORES], 4.2, 0.88)
+        assert ours[("Bands", f"E{r}")][0] == band
+        assert ours[("Bands", f"F{r}")][0] == round(2 * z * sem, 3)
+        assert ours[("Bands", f"G{r}")][0] == ("top band" if band == 1 else "lower band")
+        assert ours[("Bands", f"H{r}")][0] is (score > 30)
+        assert str(ours[("Bands", f"I{r}")][0]) == "#NUM!"
+    # I2:I7 fail inside SEM: each is listed with its function and message
+    bad = [e for e in report.errors if e.cell.startswith("I")]
+    assert len(bad) == 6 and all(e.function == "SEM" and e.code == "#NUM!" and "reliability" in e.message
+                                 for e in bad)
+    assert len(report.errors) == 6 and report.vectorised >= 6 * 7
+
+
+def test_every_app_prefix_and_letter_case(tmp_path):
+    src = rb.prefixed_names_book(tmp_path / "prefixed.xlsx")
+    report = recalculate(src, tmp_path / "out.xlsx")
+    ours = cells_of(report.output)
+    forms = rb.prefixed_forms()
+    for k, form in enumerate(forms, start=2):
+        value, text = ours[("Sheet1", f"D{k}")]
+        assert text == form
+        assert value == pytest.approx(12 * math.sqrt(1 - 0.91), rel=1e-14), form  # SEM definition
+    assert report.ok and report.evaluated == len(forms)
+
+
+def test_shared_formula_master_and_dependents(tmp_path):
+    # C2 holds the master of SEM(B2,$E$1) shared over C2:C6; C3:C6 only point at it (si="0").
+    rows = [gb.row_xml(1, [gb.cell_xml("E1", 0.84)])]
+    sds = [3.0, 4.5, 6.0, 0.0, 12.0]
+    for i, sd in enumerate(sds):
+        r = i + 2
+        f = (gb.cell_xml("C2", 0, formula="SEM(B2,$E$1)", f_attrs=' t="shared" ref="C2:C6" si="0"') if r == 2
+             else gb.cell_xml(f"C{r}", 0, f_attrs=' t="shared" si="0"'))
+        rows.append(gb.row_xml(r, [gb.cell_xml(f"B{r}", sd), f]))
+    src = gb.handmade_package(tmp_path / "shared.xlsx", [("Sheet1", gb.sheet_part(rows))])
+    report = recalculate(src, tmp_path / "out.xlsx")
+    ours = cells_of(report.output)
+    for i, sd in enumerate(sds):
+        assert ours[("Sheet1", f"C{i + 2}")][0] == pytest.approx(sd * math.sqrt(1 - 0.84), rel=1e-14, abs=0)
+    # the dependents still share the master's formula
+    xml = entries(report.output)["xl/worksheets/sheet1.xml"]
+    assert xml.count(b'si="0"') == 5 and b'ref="C2:C6"' in xml
+    assert report.vectorised == 5
+
+
+# ---------------------------------------------------------------- the golden books of the package layer
+
+@pytest.fixture()
+def forms_book(tmp_path):
+    return gb.formula_forms_book(tmp_path / "forms.xlsx")
+
+
+def test_formula_forms_values(forms_book, tmp_path):
+    report = recalculate(forms_book, tmp_path / "out.xlsx")
+    ours = cells_of(report.output)
+    # D2: _xludf.SEM through a cross-sheet reference and a global defined name
+    assert ours[("Scores", "D2")][0] == pytest.approx(4.2 * math.sqrt(1 - 0.88), rel=1e-14)
+    assert ours[("Scores", "D3")][0] == pytest.approx(12 * math.sqrt(1 - 0.91), rel=1e-14)
+    # C2:C9 SCORE_BAND over a range holding the text "absent": refused with the cell named
+    for r in range(2, 10):
+        assert str(ours[("Scores", f"C{r}")][0]) == "#VALUE!"
+    messages = {e.cell: e.message for e in report.errors}
+    assert 'found text "absent" at row 5, column 1' in messages["C2"]
+    assert "score is blank" in messages["C4"]
+    # formulas without registered functions and with cached values are not evaluated
+    assert report.evaluated == 10 and report.formulas == 19
+
+
+def test_formula_forms_all(forms_book, tmp_path):
+    report = recalculate(forms_book, tmp_path / "out.xlsx", all_formulas=True)
+    ours = cells_of(report.output)
+    assert ours[("Scores", "D4")][0] == 31 + 27 + 35 + 24 + 29 + 33  # SUM(B:B), text and blank skipped
+    assert str(ours[("Scores", "D5")][0]) == "#DIV/0!"
+    assert report.cycles == [["Scores!D6", "Scores!D7"]]
+    assert str(ours[("Scores", "D6")][0]) == str(ours[("Scores", "D7")][0]) == "#VALUE!"
+    assert (ours[("Scores", "D8")][0], ours[("Scores", "D9")][0]) == (62.0, 54.0)  # {=B2:B3*2}
+    assert ours[("Scores", "D10")][0] == "Group A" and ours[("Scores", "D11")][0] is True
+    assert ours[("Scores", "F2")][0] == pytest.approx(8.4)  # Cut local to Scores (Settings!B1), not the global
+    assert {e.cell for e in report.errors} >= {"D5", "D6", "D7"}
+
+
+def test_untouched_entries_and_cells_stay_byte_identical(forms_book, tmp_path):
+    report = recalculate(forms_book, tmp_path / "out.xlsx")
+    before, after = entries(forms_book), entries(report.output)
+    assert list(before) == list(after)
+    changed = [n for n in before if before[n] != after[n]]
+    assert changed == ["xl/worksheets/sheet1.xml"]
+    # in the patched sheet, a formula that was not evaluated keeps its bytes
+    d10 = b'<c r="D10" t="str"><f>IF(B2&gt;30,"Group A","Group B")</f><v>Group A</v></c>'
+    assert d10 in before["xl/worksheets/sheet1.xml"] and d10 in after["xl/worksheets/sheet1.xml"]
+
+
+def test_forced_recalculation_on_open_is_switched_off(tmp_path):
+    src = gb.formula_forms_book(tmp_path / "forms.xlsx", full_calc_on_load=True)
+    report = recalculate(src, tmp_path / "out.xlsx")
+    before, after = entries(src), entries(report.output)
+    assert b'fullCalcOnLoad="1"' in before["xl/workbook.xml"]
+    assert after["xl/workbook.xml"] == before["xl/workbook.xml"].replace(b' fullCalcOnLoad="1"', b"")
+
+
+@pytest.mark.parametrize("macros", [False, True])
+def test_features_book_keeps_every_other_part(tmp_path, macros):
+    src = gb.features_book(tmp_path / ("features.xlsm" if macros else "features.xlsx"), macros=macros)
+    out = tmp_path / ("out.xlsm" if macros else "out.xlsx")
+    report = recalculate(src, out)
+    before, after = entries(src), entries(out)
+    assert list(before) == list(after)
+    changed = {n for n in before if before[n] != after[n]}
+    # the sheet with the evaluated cells, and the workbook part losing fullCalcOnLoad (xlsxwriter sets it)
+    assert changed == {"xl/worksheets/sheet1.xml", "xl/workbook.xml"}
+    for part in ("xl/charts/chart1.xml", "xl/drawings/drawing1.xml", "xl/media/image1.png", "xl/comments1.xml",
+                 gb.EXTRA_PART, "xl/styles.xml", "xl/worksheets/sheet2.xml") + (("xl/vbaProject.bin",) if macros else ()):
+        assert before[part] == after[part], part
+    sheet_before, sheet_after = before["xl/worksheets/sheet1.xml"], after["xl/worksheets/sheet1.xml"]
+    for tag in (b"<dataValidations", b"<conditionalFormatting", b"<drawing", b"<legacyDrawing"):
+        i = sheet_before.index(tag)
+        j = sheet_after.index(tag)
+        assert sheet_before[i:] == sheet_after[j:]  # everything after sheetData is unchanged
+    ours = cells_of(out, "Applicants")
+    scores = [[a[2]] for a in gb.APPLICANTS]
+    for i, (_, _, score) in enumerate(gb.APPLICANTS):
+        assert ours[("Applicants", f"D{i + 2}")][0] == call("SCORE_BAND", score, scores, 4.2, 0.88)
+    assert report.ok
+
+
+# ---------------------------------------------------------------- the command
+
+def run_cli(*argv) -> int:
+    return cli.main(list(map(str, argv)))
+
+
+def test_exit_status_and_table(forms_book, tmp_path, capsys):
+    assert run_cli("recalc", forms_book, "-o", tmp_path / "out.xlsx") == cli.EXIT_CELL_ERRORS
+    out, err = capsys.readouterr()
+    assert "Scores!C2" in out and "SCORE_BAND" in out and "#VALUE!" in out
+    assert "10 of 19 formula cells evaluated, 8 errors" in err and "\r" not in err  # no bar when not a terminal
+    clean = gb.features_book(tmp_path / "features.xlsx")
+    assert run_cli("recalc", clean) == cli.EXIT_OK
+    assert (tmp_path / "features.recalc.xlsx").exists()
+
+
+def test_unusable_workbooks_exit_2_and_write_nothing(tmp_path, capsys):
+    folder = tmp_path / "bad"
+    folder.mkdir()
+    books = gb.unusable_books(folder)
+    for name, (path, words) in books.items():
+        listing = sorted(p.name for p in folder.iterdir())
+        assert run_cli("recalc", path) == cli.EXIT_FAILED, name
+        err = capsys.readouterr().err
+        assert len(err.strip().splitlines()) == 1, (name, err)
+        assert sorted(p.name for p in folder.iterdir()) == listing, name
+
+
+def test_in_place_with_backup(forms_book, tmp_path):
+    original = forms_book.read_bytes()
+    report = recalculate(forms_book, in_place=True, backup=True)
+    assert report.output == forms_book
+    assert (tmp_path / "forms.backup.xlsx").read_bytes() == original
+    assert str(cells_of(forms_book)[("Scores", "C2")][0]) == "#VALUE!"
+
+
+def test_killed_in_place_run_leaves_the_input(forms_book):
+    # The package layer's write hook ends the process abruptly after the first entry is written.
+    original = forms_book.read_bytes()
+    env = dict(os.environ, TRUEBAND_TEST_WRITE_HOOK="exit:1")
+    proc = subprocess.run([sys.executable, "-m", "trueband.bridge", "recalc", str(forms_book), "--in-place"],
+                          env=env, capture_output=True, timeout=120)
+    assert proc.returncode != 0
+    assert forms_book.read_bytes() == original
+    # only the writer's own temporary file can be left behind (removed by a later run once stale)
+    from trueband.bridge.safe_write import TEMP_PREFIX
+    assert all(p.name.startswith(TEMP_PREFIX) for p in forms_book.parent.iterdir() if p.name != forms_book.name)
+
+
+def test_values_mode_keeps_formulas_for_restore(tmp_path):
+    src = rb.display_book(tmp_path / "bands.xlsx")
+    out = tmp_path / "values.xlsx"
+    report = recalculate(src, out, values=True)
+    ours = cells_of(out)
+    value, formula = ours[("Bands", "C2")]
+    assert formula is None and value == pytest.approx(31 - stats.norm.isf(0.025) * 4.2 * math.sqrt(0.12))
+    assert ours[("Bands", "F2")][1] == "ROUND(D2-C2,3)"  # standard formulas stay formulas
+    assert report.values_mode
