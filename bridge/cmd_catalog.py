@@ -55,6 +55,8 @@ def render_markdown() -> str:
         if entry["topic"] != topic:
             topic = entry["topic"]
             out += [f"## {TOPIC_TITLES.get(topic, topic)}", ""]
+            if spec.caution:
+                out += [f"> {spec.caution}", ""]
         out += [f"### `{spec.signature}`", "", entry["description"], ""]
         out += ["| argument | kind | default | meaning |", "|---|---|---|---|"]
         for arg in entry["arguments"]:
@@ -91,14 +93,18 @@ def _functions(args) -> int:
             choices = f" one of {', '.join(arg['choices'])}" if "choices" in arg else ""
             print(f"  {arg['name']:<18} {arg['kind']}{choices}{extra}: {arg.get('description', '')}")
         print(f"Returns: {spec.returns}")
+        if spec.caution:
+            print(textwrap.fill(f"Caution: {spec.caution}", 78))
         print(textwrap.fill(f"Reference: {spec.reference}", 78))
         return EXIT_OK
     topic = None
     for entry in entries:
+        spec = REGISTRY[entry["name"]]
         if entry["topic"] != topic:
             topic = entry["topic"]
             print(f"\n{TOPIC_TITLES.get(topic, topic)}")
-        spec = REGISTRY[entry["name"]]
+            if spec.caution:
+                print(textwrap.fill(spec.caution, 78, initial_indent="  Caution: ", subsequent_indent="  "))
         print(f"  {spec.signature}")
         print(textwrap.fill(entry["description"], 78, initial_indent="      ", subsequent_indent="      "))
     print(f"\n{len(entries)} functions. `trueband functions NAME` shows one in full.\n"

@@ -30,6 +30,7 @@ import functools
 import inspect
 import math
 import re
+import sys
 import typing
 from typing import Any, Callable, Literal, Mapping, Sequence
 
@@ -206,8 +207,13 @@ class SpreadsheetFunction:
             value = self.body(**self.coerced(bound))
         return self.check_result(value)
 
+    @property
+    def caution(self) -> str | None:
+        """The topic module's ``CAUTION`` sentence, where it has one (e.g. adverse impact)."""
+        return getattr(sys.modules.get(self.body.__module__), "CAUTION", None)
+
     def to_dict(self) -> dict:
-        return {
+        entry = {
             "name": self.name,
             "arguments": [a.to_dict() for a in self.arguments],
             "returns": self.returns,
@@ -217,6 +223,9 @@ class SpreadsheetFunction:
             "python": self.python_name,
             "elementwise": sorted(self.elementwise),
         }
+        if self.caution:
+            entry["caution"] = self.caution
+        return entry
 
 
 REGISTRY: dict[str, SpreadsheetFunction] = {}

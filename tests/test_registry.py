@@ -66,3 +66,12 @@ def test_generated_function_reference_is_current():
 def test_every_function_is_named_in_the_readme_catalog_link():
     readme = (ROOT / "README.md").read_text(encoding="utf-8")
     assert "docs/functions.md" in readme
+
+
+def test_adverse_impact_entries_carry_the_caution():
+    # Issue requirement (common practice in the trade): impact figures are indicators, not legal findings.
+    impact = [e for e in catalog() if e["topic"] == "impact"]
+    assert impact, "no adverse impact functions registered"
+    for entry in impact:
+        assert "not legal findings" in entry["caution"], entry["name"]
+    assert "not legal findings" in render_markdown()
