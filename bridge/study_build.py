@@ -830,7 +830,7 @@ class _Builder:
         g.set(row - 1, 3, ref, "input")
         ref_name = f"$C${row - 1}"
         head = ("Group", "Applicants", "Selected", "Selection rate", "Impact ratio (rate ÷ reference rate)",
-                "Below four-fifths", "z", "Fisher exact p", "Shortfall (selections to reach 4/5)",
+                "Below four-fifths?", "z", "Fisher exact p", "Shortfall (selections to reach 4/5)",
                 "Four-fifths of the highest rate")
         for c, h in enumerate(head, start=1):
             g.set(row, c, h, "header")
@@ -855,15 +855,20 @@ class _Builder:
                 continue
             for c, fn, style in ((5, "IMPACT_RATIO", "coef"), (6, "FOUR_FIFTHS", None), (7, "IMPACT_Z", "coef"),
                                  (8, "IMPACT_FISHER", "p"), (9, "IMPACT_SHORTFALL", "count")):
-                self.put(g, r, c, f"={fn}(C{r},B{r},{ref_sel},{ref_app})",
-                         lambda fn=fn, fs=fs, fa=fa: call(fn, fs, fa, rs, ra), style=style, key=f"{fn.lower()}_{name}")
+                text = f"{fn}(C{r},B{r},{ref_sel},{ref_app})"
+                if fn == "FOUR_FIFTHS":
+                    # shown as yes/no: spreadsheet apps show a stored TRUE/FALSE of a function they do not
+                    # know as an error, while stored text shows as it is
+                    text = f'IF({text},"yes","no")'
+                self.put(g, r, c, "=" + text, lambda fn=fn, fs=fs, fa=fa: call(fn, fs, fa, rs, ra), style=style,
+                         key=f"{fn.lower()}_{name}")
         ratio_rng = f"E{first}:E{last}"
         g.set(last + 2, 1, "Lowest impact ratio")
         ratios = [self.values.get(f"impact_ratio_{k}") for k in groups if k != ref]
         if all(isinstance(x, float) for x in ratios):
             self.put(g, last + 2, 5, f"=MIN({ratio_rng})", lambda: min(ratios), style="coef", key="min_ratio")
             g.set(last + 3, 1, "Groups below four-fifths")
-            g.set(last + 3, 5, f"=COUNTIF(F{first}:F{last},TRUE)", "count")
+            g.set(last + 3, 5, f'=COUNTIF(F{first}:F{last},"yes")', "count")
             self.cells["n_below"] = ("Impact", f"E{last + 3}")
         else:
             self.na(g, last + 2, 5, "an impact ratio is not computable (see the table)", key="min_ratio")

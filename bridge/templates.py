@@ -260,12 +260,15 @@ def impact_template(path: str | Path, *, capacity: int = 8,
         skip = f'IF(OR(A{r}="",B{r}="",$B$4="",A{r}=$B$4),"",'
         for c, fn, fmt in ((5, "IMPACT_RATIO", "0.000"), (6, "FOUR_FIFTHS", "General"), (7, "IMPACT_Z", "0.000"),
                            (8, "IMPACT_FISHER", "0.0000"), (9, "IMPACT_SHORTFALL", "0")):
-            ws.cell(r, c, f"={skip}{fn}(C{r},B{r},{ref_sel},{ref_app}))").number_format = fmt
+            call = f"{fn}(C{r},B{r},{ref_sel},{ref_app})"
+            if fn == "FOUR_FIFTHS":  # yes/no text: apps show a stored TRUE/FALSE of an unknown function as an error
+                call = f'IF({call},"yes","no")'
+            ws.cell(r, c, f"={skip}{call})").number_format = fmt
     ws.column_dimensions["A"].width = 18
     for c in range(2, 10):
         ws.column_dimensions[get_column_letter(c)].width = 14
     ws.cell(last + 2, 1, "Impact ratio: the group's selection rate over the reference group's. Below four-fifths: "
-                         "TRUE when the ratio is under 0.8, the rule of thumb of 29 CFR 1607.4(D). z: pooled two-"
+                         "yes when the ratio is under 0.8, the rule of thumb of 29 CFR 1607.4(D). z: pooled two-"
                          "proportion test, positive when the group's rate is lower. Shortfall: the fewest extra "
                          "selections from the group that bring the ratio to 0.8.").alignment = _WRAP
     ws.merge_cells(start_row=last + 2, start_column=1, end_row=last + 2, end_column=9)
