@@ -54,6 +54,8 @@ __all__ = [
     "split_ref",
     "escape_text",
     "SheetXmlError",
+    "translate_formula",
+    "unshare_formulas",
 ]
 
 #: Error values a cell can hold.
@@ -857,3 +859,116 @@ def _widen_dimension(xml: bytes, refs) -> bytes:
     if new == cur:
         return xml
     return set_dimension(xml, new)
+
+
+# ------------------------------------------------------------------ shared formulas
+
+_FORMULA_TOKEN = re.compile(r"""
+    (?P<string>"(?:[^"]|"")*")
+   |(?P<quoted>'(?:[^']|'')*'!)
+   |(?P<bracket>\[[^\]]*\])
+   |(?P<error>\#[A-Z0-9/]+[!?]|\#N/A)
+   |(?P<func>[A-Za-z_\\][A-Za-z0-9_.]*(?=\s*\())
+   |(?P<sheet>[A-Za-z_\\][A-Za-z0-9_.]*!)
+   |(?P<colrange>(?<![A-Za-z0-9_.$])\$?[A-Za-z]{1,3}:\$?[A-Za-z]{1,3}(?![A-Za-z0-9_.(!]))
+   |(?P<rowrange>(?<![A-Za-z0-9_.$:])\$?[0-9]+:\$?[0-9]+(?![A-Za-z0-9_.(]))
+   |(?P<cell>(?<![A-Za-z0-9_.$])\$?[A-Za-z]{1,3}\$?[0-9]+(?![A-Za-z0-9_.(!]))
+   |(?P<name>[A-Za-z_\\][A-Za-z0-9_.]*)
+   |(?P<number>[0-9]+\.?[0-9]*(?:[eE][+-]?[0-9]+)?)
+""", re.X)
+_CELL_PARTS = re.compile(r"(\$?)([A-Za-z]{1,3})(\$?)([0-9]+)")
+
+
+def _shift_col(absolute: str, letters: str, dc: int) -> str | None:
+    if absolute:
+        return "$" + letters.upper()
+    c = column_index(letters.upper()) + dc
+    return column_letters(c) if 1 <= c <= 16384 else None
+
+
+def _shift_row(absolute: str, digits: str, dr: int) -> str | None:
+    if absolute:
+        return "$" + digits
+    r = int(digits) + dr
+    return str(r) if 1 <= r <= 1048576 else None
+
+
+def translate_formula(text: str, rows: int, cols: int) -> str:
+    """A formula as it reads when copied ``rows`` down and ``cols`` right (relative references move).
+
+    This is how the dependents of a shared formula read (ECMA-376 Part 1,
+    18.3.1.40: the master's formula with its relative references offset to
+    each cell). A reference moved off the sheet becomes ``#REF!``. Text in
+    quotes, sheet names, function names and defined names are kept.
+
+    >>> translate_formula("SCORE_BAND(B2,$B$2:$B$9,Settings!$B$1,Reliability)", 3, 0)
+    'SCORE_BAND(B5,$B$2:$B$9,Settings!$B$1,Reliability)'
+    >>> translate_formula('SUM(A:A,2:2)&"A1"', 1, 1)
+    'SUM(B:B,3:3)&"A1"'
+    """
+    out: list[str] = []
+    pos = 0
+    for m in _FORMULA_TOKEN.finditer(text):
+        kind = m.lastgroup
+        if kind not in ("cell", "colrange", "rowrange"):
+            continue
+        token = m.group(0)
+        if kind == "cell":
+            p = _CELL_PARTS.fullmatch(token)
+            c = _shift_col(p.group(1), p.group(2), cols)
+            r = _shift_row(p.group(3), p.group(4), rows)
+            new = "#REF!" if c is None or r is None else f"{c}{r}"
+        elif kind == "colrange":
+            ends = []
+            for part in token.split(":"):
+                ends.append(_shift_col("$" if part.startswith("$") else "", part.lstrip("$"), cols))
+            new = "#REF!" if None in ends else ":".join(ends)
+        else:
+            ends = []
+            for part in token.split(":"):
+                ends.append(_shift_row("$" if part.startswith("$") else "", part.lstrip("$"), rows))
+            new = "#REF!" if None in ends else ":".join(ends)
+        out.append(text[pos:m.start()])
+        out.append(new)
+        pos = m.end()
+    out.append(text[pos:])
+    return "".join(out)
+
+
+def unshare_formulas(xml: bytes, shared_strings: Sequence[str] = (), groups=None) -> bytes:
+    """Rewrite shared formulas as one ordinary formula per cell (each with its own text); values are kept.
+
+    Parameters
+    ----------
+    xml : bytes
+        The worksheet part.
+    shared_strings : sequence of str
+    groups : collection of int, optional
+        The ``si`` indexes to rewrite; default every shared formula of the sheet.
+
+    Notes
+    -----
+    LibreOffice Calc (7.x) recomputes shared formulas when it opens a file
+    instead of showing their cached values, so a shared formula that calls a
+    function Calc does not have shows ``#NAME?`` there even with a correct
+    cached value. Written as ordinary formulas, the cells show the values
+    stored with them. Only the cells of the groups named change.
+    """
+    masters: dict[int, tuple[str, int, int]] = {}
+    updates: dict[str, CellUpdate] = {}
+    for cell in iter_cells(xml, shared_strings):
+        f = cell.formula
+        if f is None or f.kind != "shared" or f.shared_index is None:
+            continue
+        if groups is not None and f.shared_index not in groups:
+            continue
+        if f.text is not None:
+            masters[f.shared_index] = (f.text, cell.row, cell.col)
+            text = f.text
+        else:
+            master = masters.get(f.shared_index)
+            if master is None:
+                continue  # a dependent before its master: malformed; left as it is
+            text = translate_formula(master[0], cell.row - master[1], cell.col - master[2])
+        updates[cell.ref] = CellUpdate(cell.value, formula=text)
+    return patch_sheet(xml, updates) if updates else xml

@@ -303,3 +303,36 @@ def test_add_cells_to_an_empty_sheet_and_openpyxl_reads_it(tmp_path):
     assert wb["Only"]["A1"].value == "SEM" and wb["Only"]["B2"].value == "=SEM(12,0.91)"
     assert openpyxl.load_workbook(path, data_only=True)["Only"]["B2"].value == 3.6
     assert wb["Only"].calculate_dimension() == "A1:B2"
+
+
+# ------------------------------------------------------------------ shared formulas written out
+
+
+@pytest.mark.parametrize("formula, origin, target", [
+    ("=A1+$A$1+A$1+$A1", "C3", "D5"),
+    ("=SCORE_BAND(B2,$B$2:$B$9,Settings!$B$1,Reliability)", "C2", "C9"),
+    ("=SUM(B:B)+SUM(2:2)", "D4", "E6"),
+    ("=LOG10(A1)+1E5", "B1", "B4"),
+    ("='Pool 2026'!B2*Settings!C3&\"A1\"", "A1", "C2"),
+    ("=IF(B2>30,\"Group A\",\"Group B\")", "D10", "D12"),
+])
+def test_translate_formula_against_openpyxl(formula, origin, target):
+    from openpyxl.formula.translate import Translator  # reference library
+
+    dr = sx.split_ref(target)[0] - sx.split_ref(origin)[0]
+    dc = sx.split_ref(target)[1] - sx.split_ref(origin)[1]
+    assert "=" + sx.translate_formula(formula[1:], dr, dc) == Translator(formula, origin=origin).translate_formula(target)
+
+
+def test_unshare_writes_each_cell_its_own_formula(forms):
+    _, xml, strings = forms
+    new = sx.unshare_formulas(xml, strings)
+    before, after = cells_of(xml, strings), cells_of(new, strings)
+    for r in range(2, 10):
+        f = after[f"C{r}"].formula
+        assert f.kind == "normal" and f.text == f"SCORE_BAND(B{r},$B$2:$B$9,Settings!$B$1,Reliability)"
+        assert after[f"C{r}"].value == before[f"C{r}"].value
+    for ref in before:
+        if not ref.startswith("C") or ref == "C1":
+            assert after[ref] == before[ref]
+    assert sx.unshare_formulas(xml, strings, groups={7}) == xml
