@@ -1,0 +1,194 @@
+"""``--values`` (formulas replaced by values, kept in a hidden sheet) and ``trueband restore``.
+
+Checked against: the original package (byte comparison of every part after a
+round trip), openpyxl (a reference library: sheet states, formulas and values
+as another reader sees them) and LibreOffice Calc (values shown without the
+formulas).
+"""
+
+from __future__ import annotations
+
+import zipfile
+
+import openpyxl
+import pytest
+
+import golden_books as gb
+from trueband.bridge import values_mode as vm
+from trueband.bridge.cli import EXIT_FAILED, EXIT_OK, main
+from trueband.bridge.safe_write import PackageChanges, save_workbook
+from trueband.bridge.sheet_xml import iter_cells
+from trueband.bridge.xlsx_package import UnusableWorkbook, open_workbook_package
+
+REGISTERED_CELLS = {f"C{r}" for r in range(2, 10)} | {"D2", "D3"}
+
+
+def values_book(path, values=None):
+    with open_workbook_package(path) as pkg:
+        changes = PackageChanges()
+        records = vm.replace_with_values(pkg, changes, values)
+        out = save_workbook(pkg, changes, tag="values")
+    return out, records
+
+
+@pytest.fixture
+def forms(tmp_path):
+    return gb.formula_forms_book(tmp_path / "forms.xlsx")
+
+
+@pytest.mark.parametrize("formula, expected", [
+    ("SEM(12,0.91)", True), ("sem(12,0.91)", True), ("_xludf.SCORE_BAND(B2,B2:B9,4,0.9)", True),
+    ("ROUND(_xlfn.SEM(B1,B2),2)", True), ("SUM(A1:A9)", False), ('"SEM(" & A1', False), ("SEMX(1)", False),
+    ("Settings!SEM", False),
+])
+def test_which_formulas_use_registered_functions(formula, expected):
+    assert vm.uses_registered_function(formula) is expected
+
+
+def test_registered_formulas_become_values_and_are_recorded(forms):
+    out, records = values_book(forms, {"Scores": {"D2": 1.5}})
+    assert {r.cell for r in records} == REGISTERED_CELLS
+    with open_workbook_package(out) as pkg:
+        assert [(s.name, s.state) for s in pkg.sheets][-1] == (vm.FORMULA_SHEET, "hidden")
+        cells = {c.ref: c for c in iter_cells(pkg.sheet_xml("Scores"), pkg.shared_strings)}
+        for ref in REGISTERED_CELLS:
+            assert cells[ref].formula is None, ref
+        assert cells["D2"].value == 1.5  # the fresh value given
+        assert cells["C2"].value == 2.0 and cells["D3"].value == "#NAME?"  # the cached ones otherwise
+        for ref in ("D4", "D5", "D6", "D8", "D10", "F2"):  # standard functions stay formulas
+            assert cells[ref].formula is not None, ref
+        assert pkg.calc_chain_part is None and "xl/calcChain.xml" not in pkg.entry_names
+        stored = vm.read_records(pkg.read(pkg.sheet(vm.FORMULA_SHEET).part))
+    assert stored == records
+    master = next(r for r in records if r.cell == "C2")
+    assert master.element == b'<f t="shared" ref="C2:C9" si="0">SCORE_BAND(B2,$B$2:$B$9,Settings!$B$1,Reliability)</f>'
+    assert next(r for r in records if r.cell == "C5").element == b'<f t="shared" si="0"/>'
+
+
+def test_values_book_as_openpyxl_reads_it(forms):
+    out, _ = values_book(forms)
+    wb = openpyxl.load_workbook(out)  # reference library
+    assert wb.sheetnames == ["Scores", "Settings", vm.FORMULA_SHEET]
+    assert wb[vm.FORMULA_SHEET].sheet_state == "hidden"
+    assert wb["Scores"]["C2"].value == 2 and wb["Scores"]["D4"].value == "=SUM(B:B)"
+    hidden = wb[vm.FORMULA_SHEET]
+    assert [hidden.cell(1, c).value for c in range(1, 5)] == ["sheet", "cell", "formula", "formula element"]
+    rows = {(hidden.cell(r, 1).value, hidden.cell(r, 2).value): hidden.cell(r, 3).value
+            for r in range(2, hidden.max_row + 1)}
+    assert rows[("Scores", "D2")] == "=_xludf.SEM(Settings!B1,Reliability)"
+
+
+def test_round_trip_restores_every_part(forms):
+    out, _ = values_book(forms)
+    with open_workbook_package(out) as pkg:
+        changes = PackageChanges()
+        report = vm.restore_formulas(pkg, changes)
+        back = save_workbook(pkg, changes, tag="restored")
+    assert report.restored == len(REGISTERED_CELLS) and report.skipped == []
+    with zipfile.ZipFile(forms) as a, zipfile.ZipFile(back) as b:
+        # the calculation chain is gone for good (apps rebuild it); everything else is as it was, byte for byte
+        assert b.namelist() == [n for n in a.namelist() if n != "xl/calcChain.xml"]
+        for name in b.namelist():
+            if name in ("xl/_rels/workbook.xml.rels", "[Content_Types].xml"):
+                continue
+            assert a.read(name) == b.read(name), name
+        assert b"calcChain" not in b.read("xl/_rels/workbook.xml.rels")
+
+
+def test_restore_keeps_values_computed_meanwhile(forms):
+    out, _ = values_book(forms, {"Scores": {"C2": 3.0, "D3": 3.6}})
+    with open_workbook_package(out) as pkg:
+        changes = PackageChanges()
+        vm.restore_formulas(pkg, changes)
+        back = save_workbook(pkg, changes, tag="restored")
+    with open_workbook_package(back) as pkg:
+        cells = {c.ref: c for c in iter_cells(pkg.sheet_xml("Scores"), pkg.shared_strings)}
+    assert cells["C2"].value == 3.0 and cells["C2"].formula.is_master
+    assert cells["D3"].value == 3.6 and cells["D3"].formula.text == "sem(12,0.91)"
+
+
+def test_a_second_values_run_adds_to_the_records(forms, tmp_path):
+    out, first = values_book(forms)
+    # a new registered formula typed in after the first run
+    with open_workbook_package(out) as pkg:
+        from trueband.bridge.sheet_xml import NewCell, add_cells
+        changes = PackageChanges()
+        part = pkg.sheet("Settings").part
+        changes.set(pkg, part, add_cells(pkg.read(part), {"C1": NewCell(formula="SED(4.2,0.88)", value=2.0)}))
+        typed = save_workbook(pkg, changes, output=tmp_path / "typed.xlsx")
+    again, second = values_book(typed)
+    with open_workbook_package(again) as pkg:
+        stored = vm.read_records(pkg.read(pkg.sheet(vm.FORMULA_SHEET).part))
+        assert [s.name for s in pkg.sheets].count(vm.FORMULA_SHEET) == 1
+    assert [(r.sheet, r.cell) for r in second] == [("Settings", "C1")]
+    assert stored == first + second
+
+
+def test_restore_reports_cells_it_cannot_put_back(forms, tmp_path):
+    out, _ = values_book(forms)
+    with open_workbook_package(out) as pkg:  # the user typed a formula into D2 meanwhile
+        from trueband.bridge.sheet_xml import CellUpdate, patch_sheet
+        changes = PackageChanges()
+        part = pkg.sheet("Scores").part
+        changes.set(pkg, part, patch_sheet(pkg.read(part), {"D2": CellUpdate(7.0, formula="3+4")}))
+        edited = save_workbook(pkg, changes, output=tmp_path / "edited.xlsx")
+    code = main(["restore", str(edited)])
+    assert code == 1
+    with open_workbook_package(tmp_path / "edited.restored.xlsx") as pkg:
+        cells = {c.ref: c for c in iter_cells(pkg.sheet_xml("Scores"), pkg.shared_strings)}
+        assert cells["D2"].formula.text == "3+4" and cells["D3"].formula.text == "sem(12,0.91)"
+        assert vm.FORMULA_SHEET not in [s.name for s in pkg.sheets]
+
+
+def test_restore_command(forms, capsys):
+    out, _ = values_book(forms)
+    assert main(["restore", str(out)]) == EXIT_OK
+    assert "restored 10 formula(s)" in capsys.readouterr().err
+    restored = out.with_name("forms.values.restored.xlsx")
+    with open_workbook_package(restored) as pkg:
+        assert [s.name for s in pkg.sheets] == ["Scores", "Settings"]
+    assert main(["restore", str(out)]) == EXIT_FAILED  # the output exists now
+    assert "exists already" in capsys.readouterr().err
+    assert main(["restore", str(out), "--in-place", "--backup"]) == EXIT_OK
+    assert out.with_name("forms.values.backup.xlsx").exists()
+    with open_workbook_package(out) as pkg:
+        assert vm.FORMULA_SHEET not in [s.name for s in pkg.sheets]
+
+
+def test_restore_without_formula_sheet_is_one_line(forms, capsys):
+    with pytest.raises(UnusableWorkbook, match="no sheet trueband_formulas"):
+        with open_workbook_package(forms) as pkg:
+            vm.restore_formulas(pkg, PackageChanges())
+    before = sorted(p.name for p in forms.parent.iterdir())
+    assert main(["restore", str(forms)]) == EXIT_FAILED
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1 and "no replaced formulas" in err
+    assert sorted(p.name for p in forms.parent.iterdir()) == before
+
+
+def test_local_names_are_renumbered_when_a_middle_sheet_goes():
+    wb = (b'<workbook><definedNames><definedName name="A" localSheetId="0">S!$A$1</definedName>'
+          b'<definedName name="B" localSheetId="1">T!$A$1</definedName>'
+          b'<definedName name="C" localSheetId="2">U!$A$1</definedName></definedNames></workbook>')
+    assert vm._renumber_local_names(wb, 1) == (
+        b'<workbook><definedNames><definedName name="A" localSheetId="0">S!$A$1</definedName>'
+        b'<definedName name="C" localSheetId="1">U!$A$1</definedName></definedNames></workbook>')
+
+
+def test_xlsm_keeps_its_macro_part_through_values_and_restore(tmp_path):
+    path = gb.features_book(tmp_path / "features.xlsm", macros=True)
+    out, records = values_book(path)
+    assert {r.cell for r in records} == {f"D{r}" for r in range(2, 8)}
+    assert out.suffix == ".xlsm"
+    with zipfile.ZipFile(out) as zf:
+        assert zf.read("xl/vbaProject.bin") == gb.VBA_BYTES
+        assert zf.read(gb.EXTRA_PART) == gb.EXTRA_PART_BYTES
+
+
+@pytest.mark.libreoffice
+def test_libreoffice_shows_values_of_a_values_book(forms, tmp_path, soffice):
+    out, _ = values_book(forms, {"Scores": {f"C{r}": float(r % 2 + 1) for r in range(2, 10)} | {"D3": 3.6}})
+    shown = gb.libreoffice_csv(soffice, out, tmp_path / "csv")
+    scores = shown["Scores"]
+    assert [gb.csv_cell(scores, f"C{r}") for r in range(2, 10)] == [str(r % 2 + 1) for r in range(2, 10)]
+    assert gb.csv_cell(scores, "D2") == "1.45" and gb.csv_cell(scores, "D3") == "3.6"
