@@ -275,7 +275,10 @@ def indirect_range_corrected_validity(r: float, u_x: float, rxx_applicants: floa
     raises ``DomainError`` naming u_x and rxx_applicants. A step-3 value
     beyond ±1 raises ``DomainError`` naming r. The equation numbers of the
     paper are not cited here because they could not be checked against the
-    printed article; the steps are identified by their content.
+    printed article; the steps are identified by their content. The formulas
+    of steps 1 and 2 also appear in Schmidt & Hunter (2015), Methods of
+    Meta-Analysis (3rd ed.), p. 127, as cited by the psychmeta R package,
+    whose implementation the tests compare against.
 
     Examples
     --------
