@@ -793,11 +793,11 @@ def _merge_row(body: bytes, new: list, prefix: bytes, cell_re, rnum: int, replac
     out: list[bytes] = []
     pos = 0
     ni = 0
+    c = 0
     for m in cell_re.finditer(body):
         rm = _R_ATTR.search(m.group(1))
-        if rm is None:
-            raise SheetXmlError(f"row {rnum} has cells written without references; cells cannot be added")
-        c = split_ref(rm.group(1).decode("ascii"))[1]
+        # a cell written without r is the one after its left neighbour
+        c = split_ref(rm.group(1).decode("ascii"))[1] if rm is not None else c + 1
         while ni < len(new) and new[ni][0] < c:
             out.append(body[pos:m.start()])
             pos = m.start()
