@@ -186,8 +186,8 @@ def taylor_russell(validity: float, base_rate: float, selection_ratio: float) ->
 
     Examples
     --------
-    Base rate .50, selection ratio .30, validity .50 (printed as .74 in the
-    1939 tables):
+    Base rate .50, selection ratio .30, validity .50 (the 1939 tables print
+    .74, recalled from memory):
 
     >>> round(taylor_russell(0.50, 0.50, 0.30), 4)
     0.7387
