@@ -25,6 +25,7 @@ are listed in :attr:`RecalcReport.cycles`.
 
 from __future__ import annotations
 
+import array
 import dataclasses
 import math
 import os
@@ -135,25 +136,21 @@ class CellStore:
         self.max_row: dict[str, int] = {}
         self._areas: dict[tuple, np.ndarray] = {}
 
-    def add_sheet(self, name: str, columns: dict[int, tuple[list, list]]):
+    def add_sheet(self, name: str, columns: dict[int, "_Collected"]):
         cols = {}
         top = 0
-        for c, (rows, values) in columns.items():
-            size = (max(rows) if rows else 0) + 1
+        for c, got in columns.items():
+            size = got.last + 1
             col = _Column(size)
-            r = np.asarray(rows, dtype=np.int64)
-            nums = [type(v) is float for v in values]
-            if all(nums):
-                col.num[r] = values
+            if got.num_rows:
+                r = np.frombuffer(got.num_rows, dtype=np.int64)
+                col.num[r] = np.frombuffer(got.num_values, dtype=float)
                 col.kind[r] = _KIND_NUMBER
-            else:
-                for row, v in zip(rows, values):
-                    if type(v) is float:
-                        col.num[row] = v
-                        col.kind[row] = _KIND_NUMBER
-                    elif v is not EMPTY:
-                        col.other[row] = v
-                        col.kind[row] = _KIND_OTHER
+            for row, v in zip(got.other_rows, got.other_values):
+                if v is not EMPTY:
+                    col.num[row] = np.nan
+                    col.other[row] = v
+                    col.kind[row] = _KIND_OTHER
             cols[c] = col
             top = max(top, size - 1)
         self.sheets[name] = cols
@@ -292,6 +289,19 @@ class CellStore:
 
 # ---------------------------------------------------------------- reading the workbook
 
+class _Collected:
+    """One column's cells as read: numbers in compact arrays, anything else in lists."""
+
+    __slots__ = ("num_rows", "num_values", "other_rows", "other_values", "first", "last")
+
+    def __init__(self, row: int):
+        self.num_rows = array.array("q")
+        self.num_values = array.array("d")
+        self.other_rows: list[int] = []
+        self.other_values: list = []
+        self.first = self.last = row
+
+
 @dataclasses.dataclass
 class WorkbookModel:
     """A workbook read for evaluation: its cell values, formula runs and their graph."""
@@ -311,9 +321,9 @@ class WorkbookModel:
 _COL, _FIRST, _LAST, _KEY, _TEXT, _AT, _MISSING, _ARRAY = range(8)
 
 
-def _read_sheet(xml: bytes, strings) -> tuple[dict[int, tuple[list, list]], list[list], tuple | None]:
+def _read_sheet(xml: bytes, strings) -> tuple[dict[int, _Collected], list[list], tuple | None]:
     """Cell values by column, formula runs (filled-down cells recognised by :class:`KeyTemplate`), used range."""
-    columns: dict[int, tuple[list, list]] = {}
+    columns: dict[int, _Collected] = {}
     runs: list[list] = []
     open_runs: dict[int, list] = {}
     shared: dict[int, tuple[str, int, int, str]] = {}  # si → (text, row, col, key)
@@ -325,11 +335,16 @@ def _read_sheet(xml: bytes, strings) -> tuple[dict[int, tuple[list, list]], list
         if value is None and f is None:
             continue
         row, col = cell.row, cell.col
-        entry = columns.get(col)
-        if entry is None:
-            entry = columns[col] = ([], [])
-        entry[0].append(row)
-        entry[1].append(value if type(value) is float else engine_value(value))
+        got = columns.get(col)
+        if got is None:
+            got = columns[col] = _Collected(row)
+        got.last = row
+        if type(value) is float:
+            got.num_rows.append(row)
+            got.num_values.append(value)
+        elif value is not None:
+            got.other_rows.append(row)
+            got.other_values.append(engine_value(value))
         if f is None or f.kind == "dataTable":
             continue
         array_ref = None
@@ -365,8 +380,8 @@ def _read_sheet(xml: bytes, strings) -> tuple[dict[int, tuple[list, list]], list
             open_runs[col] = cur
     used = None
     if columns:
-        cols = [c for c, (rows, _) in columns.items() if rows]
-        used = (min(columns[c][0][0] for c in cols), min(cols), max(columns[c][0][-1] for c in cols), max(cols))
+        used = (min(g.first for g in columns.values()), min(columns), max(g.last for g in columns.values()),
+                max(columns))
     return columns, runs, used
 
 

@@ -1,0 +1,214 @@
+"""Benchmark of ``trueband recalc`` against references measured in the same run.
+
+For each size (rows of the scoring workbook of ``make_scoring_book.py``) it
+times, on the same machine and in the same run:
+
+(a) the I/O floor: read the cells with the package reader, compute the same
+    columns with numpy, write the values into the package with the same
+    patcher and writer, nothing else;
+(b) ``trueband recalc`` as a command (a new process: start-up and imports
+    included), on the standard twin with ``--all`` and on the twin that uses
+    the registered function SCORE_CI (default selection), with its peak
+    memory;
+(c) LibreOffice Calc headless converting the standard twin xlsx → xlsx (it
+    recalculates on the way: the file stores no values);
+(d) ``formulas.ExcelModel`` load + calculate of the standard twin, skipped
+    where a linear extrapolation from the largest size measured so far
+    says it would take over five minutes (printed as skipped, with the
+    estimate, which is a lower bound: its time grows faster than linearly).
+
+It prints a table and the ratios the targets are stated in. Not a test:
+nothing here asserts a time.
+
+Usage::
+
+    python bench/bench_recalc.py [--sizes 1000,10000,50000,1048576] [--folder DIR] [--skip-libreoffice]
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import shutil
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+sys.path.insert(0, str(Path(__file__).parent))
+import make_scoring_book  # noqa: E402
+
+EXCEL_MODEL_LIMIT = 300.0  # seconds
+ITEMS = 10
+
+
+def _child_peak_mb() -> float | None:
+    try:
+        import resource
+    except ImportError:  # Windows: no resource module
+        return None
+    kb = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
+    return kb / 1024.0 if sys.platform != "darwin" else kb / 1024.0 ** 2
+
+
+def io_floor(src: Path, dst: Path) -> float:
+    """(a): read, compute with numpy, patch and write; returns seconds."""
+    from trueband.bridge import sheet_xml
+    from trueband.bridge.safe_write import PackageChanges, save_workbook
+    from trueband.bridge.xlsx_package import open_workbook_package
+
+    started = time.perf_counter()
+    with open_workbook_package(src) as pkg:
+        info = pkg.worksheets[0]
+        xml = pkg.read(info.part)
+        items = []
+        for cell in sheet_xml.iter_cells(xml, pkg.shared_strings):
+            if 2 <= cell.col <= 1 + ITEMS and cell.row >= 2:
+                items.append(cell.value)
+        x = np.asarray(items, dtype=float).reshape(-1, ITEMS)
+        n = x.shape[0]
+        total = x.sum(axis=1)
+        mean, sd = total.mean(), total.std(ddof=1)
+        z = (total - mean) / sd
+        decision = np.where(z >= 1, "shortlist", "review")
+        lower = total - 1.959963984540054 * sd * np.sqrt(1 - 0.8)
+        letters = [make_scoring_book._letters(2 + ITEMS + k) for k in range(4)]
+        stats = make_scoring_book._letters(2 + ITEMS + 5)
+        updates = {f"{stats}1": sheet_xml.CellUpdate(float(mean)), f"{stats}2": sheet_xml.CellUpdate(float(sd))}
+        for col, values in zip(letters, (total, z, decision, lower)):
+            for i, v in enumerate(values.tolist()):
+                updates[f"{col}{i + 2}"] = sheet_xml.CellUpdate(v)
+        changes = PackageChanges()
+        changes.set(pkg, info.part, sheet_xml.patch_sheet(xml, updates))
+        save_workbook(pkg, changes, output=dst, overwrite=True)
+    assert n == len(total)
+    return time.perf_counter() - started
+
+
+def timed(cmd: list[str], **kw) -> tuple[float, subprocess.CompletedProcess]:
+    started = time.perf_counter()
+    proc = subprocess.run(cmd, capture_output=True, text=True, **kw)
+    return time.perf_counter() - started, proc
+
+
+def trueband_recalc(src: Path, dst: Path, *, all_formulas: bool) -> tuple[float, float | None, str]:
+    """(b) in a child process that reports its own peak memory."""
+    code = ("import resource, sys, time\n"
+            "from trueband.bridge import cli\n"
+            "rc = cli.main(sys.argv[1:])\n"
+            "kb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss\n"
+            "print('PEAK_MB', kb / 1024.0 if sys.platform != 'darwin' else kb / 1024.0 ** 2, file=sys.stderr)\n"
+            "sys.exit(rc)\n")
+    args = ["recalc", str(src), "-o", str(dst)] + (["--all"] if all_formulas else [])
+    try:
+        import resource  # noqa: F401
+        cmd = [sys.executable, "-c", code, *args]
+    except ImportError:
+        cmd = [sys.executable, "-m", "trueband.bridge", *args]
+    seconds, proc = timed(cmd)
+    if proc.returncode not in (0, 1):
+        raise RuntimeError(f"trueband recalc failed: {proc.stderr}")
+    peak = None
+    summary = ""
+    for line in proc.stderr.splitlines():
+        if line.startswith("PEAK_MB"):
+            peak = float(line.split()[1])
+        elif "formula cells evaluated" in line:
+            summary = line
+    return seconds, peak, summary
+
+
+def libreoffice(src: Path, folder: Path) -> float | None:
+    """(c): soffice headless xlsx → xlsx, with a private profile (created by a first, untimed run)."""
+    soffice = shutil.which("soffice") or shutil.which("libreoffice")
+    if soffice is None:
+        return None
+    profile = folder / "lo-profile"
+    out = folder / "lo-out"
+    out.mkdir(exist_ok=True)
+    cmd = [soffice, f"-env:UserInstallation={profile.as_uri()}", "--headless", "--norestore",
+           "--convert-to", "xlsx", "--outdir", str(out), str(src)]
+    seconds, proc = timed(cmd, timeout=3600)
+    if proc.returncode != 0:
+        raise RuntimeError(f"LibreOffice failed: {proc.stderr}")
+    return seconds
+
+
+def excel_model(src: Path) -> float:
+    """(d) in a child process (its memory is freed afterwards)."""
+    code = ("import sys, time, formulas\n"
+            "t = time.perf_counter()\n"
+            "xl = formulas.ExcelModel().loads(sys.argv[1]).finish()\n"
+            "xl.calculate()\n"
+            "print(time.perf_counter() - t)\n")
+    seconds, proc = timed([sys.executable, "-c", code, str(src)], timeout=3600)
+    if proc.returncode != 0:
+        raise RuntimeError(f"ExcelModel failed: {proc.stderr[-2000:]}")
+    return seconds
+
+
+def main(argv=None) -> int:
+    p = argparse.ArgumentParser(description="Time trueband recalc against its references.")
+    p.add_argument("--sizes", default="1000,10000,50000,1048576")
+    p.add_argument("--folder", type=Path, default=None, help="working folder (default: a temporary one)")
+    p.add_argument("--skip-libreoffice", action="store_true")
+    p.add_argument("--json", type=Path, help="also write the results here")
+    a = p.parse_args(argv)
+    sizes = [int(s) for s in a.sizes.split(",")]
+    folder = a.folder or Path(tempfile.mkdtemp(prefix="trueband-bench-"))
+    folder.mkdir(parents=True, exist_ok=True)
+    if not a.skip_libreoffice and (shutil.which("soffice") or shutil.which("libreoffice")):
+        warm = make_scoring_book.write_book(folder / "warm.xlsx", 10)
+        libreoffice(warm, folder)  # creates the profile: not part of any timing
+    rows = []
+    excel_rate = None  # seconds per row of the largest ExcelModel run so far
+    for n in sizes:
+        std = make_scoring_book.write_book(folder / f"standard-{n}.xlsx", n)
+        reg = make_scoring_book.write_book(folder / f"registered-{n}.xlsx", n, registered=True)
+        r = {"rows": n}
+        r["floor"] = io_floor(std, folder / f"floor-{n}.xlsx")
+        r["recalc"], r["recalc_peak_mb"], r["recalc_summary"] = trueband_recalc(std, folder / f"recalc-{n}.xlsx",
+                                                                                all_formulas=True)
+        r["recalc_registered"], r["registered_peak_mb"], _ = trueband_recalc(reg, folder / f"recalc-reg-{n}.xlsx",
+                                                                             all_formulas=False)
+        r["libreoffice"] = None if a.skip_libreoffice else libreoffice(std, folder)
+        estimate = None if excel_rate is None else excel_rate * n
+        if estimate is not None and estimate > EXCEL_MODEL_LIMIT:
+            r["excel_model"], r["excel_model_estimate"] = None, estimate
+        else:
+            r["excel_model"] = excel_model(std)
+            excel_rate = r["excel_model"] / n
+        rows.append(r)
+        print(json.dumps(r), file=sys.stderr, flush=True)
+        for f in folder.glob(f"*-{n}.xlsx"):
+            f.unlink()
+    print()
+    print(f"trueband recalc benchmark, {ITEMS} items; seconds (same machine, same run); {os.cpu_count()} cores")
+    head = (f"{'rows':>9} {'floor (a)':>10} {'recalc (b)':>11} {'b, SCORE_CI':>12} {'peak MB':>8} "
+            f"{'LibreOffice (c)':>16} {'ExcelModel (d)':>16} {'b/a':>6} {'c/b':>6} {'d/b':>8}")
+    print(head)
+    for r in rows:
+        lo = r["libreoffice"]
+        em = r["excel_model"]
+        em_text = f"{em:.1f}" if em is not None else f"skip (>{r['excel_model_estimate']:.0f})"
+        d_ratio = (f"{em / r['recalc']:.0f}" if em is not None else f">{r['excel_model_estimate'] / r['recalc']:.0f}")
+        lo_text = "-" if lo is None else f"{lo:.2f}"
+        c_ratio = "-" if lo is None else f"{lo / r['recalc']:.2f}"
+        peak = r["recalc_peak_mb"] or 0
+        print(f"{r['rows']:>9} {r['floor']:>10.2f} {r['recalc']:>11.2f} {r['recalc_registered']:>12.2f} "
+              f"{peak:>8.0f} {lo_text:>16} {em_text:>16} {r['recalc'] / r['floor']:>6.2f} {c_ratio:>6} {d_ratio:>8}")
+    print("b/a: recalc over the I/O floor (target ≤ 2); c/b: LibreOffice over recalc (target ≥ 1 at 10k and 50k);")
+    print("d/b: ExcelModel over recalc (target ≥ 100 at 10k; '>' marks a skipped run's linear lower bound).")
+    if a.json:
+        a.json.write_text(json.dumps(rows, indent=2))
+    if a.folder is None:
+        shutil.rmtree(folder, ignore_errors=True)
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
