@@ -29,8 +29,12 @@ Conventions
   digits when scores are large and their spread small. Where a variance
   denominator matters it is stated; in ratios of variances (alpha, KR-20) it
   cancels.
-* A total score with (numerically) zero variance gives ``#DIV/0!``; too few
-  complete rows or items gives ``#N/A``.
+* A total score (or half score, or item) with zero variance gives ``#DIV/0!``.
+  "Zero" allows for rounding: a spread smaller than 64 machine epsilons times
+  the number of items summed times the largest score is rounding noise (a
+  column of 0.1s has a mean that is not exactly 0.1), and an item whose
+  scores are all equal is exactly constant.
+* Too few complete rows or items gives ``#N/A``.
 """
 
 from __future__ import annotations
@@ -62,8 +66,15 @@ __all__ = [
     "alpha_if_deleted",
 ]
 
-#: A variance below this fraction of the variance scale it is compared with is rounding noise.
-_ZERO_VARIANCE = 1e-12
+#: Rounding noise allowance: a sum of ``terms`` scores of size M carries an error of about
+#: terms·eps·M per person; a spread within 64 times that is taken to be no spread at all.
+_NOISE = 64 * np.finfo(float).eps
+
+
+def _is_noise(ss, n: int, terms: int, magnitude) -> np.ndarray:
+    """True where a sum of squared deviations over n people is rounding noise, not spread."""
+    return ~(np.asarray(ss) > n * (_NOISE * terms * np.asarray(magnitude)) ** 2)
+
 
 #: Lower bound for unique variances on the correlation scale in the factor fit (as R's factanal).
 UNIQUENESS_FLOOR = 0.005
@@ -79,28 +90,31 @@ def _items(name: str, items, *, min_people: int = 2, min_items: int = 2) -> np.n
 
 def _centred(x: np.ndarray) -> np.ndarray:
     # first pass: the means; the second pass works on deviations (see the module conventions)
-    return x - x.mean(axis=0)
+    c = x - x.mean(axis=0)
+    # a constant item is exactly constant: no rounding residue from its mean
+    c[:, x.min(axis=0) == x.max(axis=0)] = 0.0
+    return c
 
 
-def _alpha_from_centred(c: np.ndarray, name: str, what: str = "total score") -> float:
+def _alpha_from_centred(c: np.ndarray, magnitude: float, name: str, what: str = "total score") -> float:
     """Coefficient alpha from centred item scores (denominators cancel; sums of squares are used)."""
-    k = c.shape[1]
+    n, k = c.shape
     item_ss = np.einsum("ij,ij->j", c, c)
     total = c.sum(axis=1)
     total_ss = total @ total
-    scale = item_ss.sum()
-    if not total_ss > _ZERO_VARIANCE * scale:
+    if _is_noise(total_ss, n, k, magnitude):
         raise ZeroVarianceError(f"{name}: the {what} has zero variance; alpha is undefined", argument=name)
-    return k / (k - 1) * (1.0 - scale / total_ss)
+    return k / (k - 1) * (1.0 - item_ss.sum() / total_ss)
 
 
-def _correlation(a: np.ndarray, b: np.ndarray, name: str, what_a: str, what_b: str) -> float:
-    """Pearson correlation of two score vectors, refusing a constant one."""
+def _correlation(a: np.ndarray, b: np.ndarray, terms: tuple[int, int], magnitude: float,
+                 name: str, what_a: str, what_b: str) -> float:
+    """Pearson correlation of two score vectors (sums of ``terms`` items), refusing a constant one."""
     a = a - a.mean()
     b = b - b.mean()
     ss_a, ss_b = a @ a, b @ b
-    for ss, what, x in ((ss_a, what_a, a), (ss_b, what_b, b)):
-        if not ss > 0 or np.sqrt(ss) <= 1e-13 * np.abs(x).max(initial=0.0) * np.sqrt(x.size):
+    for ss, what, m in ((ss_a, what_a, terms[0]), (ss_b, what_b, terms[1])):
+        if _is_noise(ss, a.size, m, magnitude):
             raise ZeroVarianceError(f"{name}: {what} has zero variance; the correlation is undefined",
                                     argument=name)
     r = (a @ b) / np.sqrt(ss_a * ss_b)
@@ -148,7 +162,7 @@ def cronbach_alpha(items: Range) -> float:
     0.948529
     """
     x = _items("items", items)
-    return _alpha_from_centred(_centred(x), "items")
+    return _alpha_from_centred(_centred(x), np.abs(x).max(), "items")
 
 
 @spreadsheet("ALPHA_CI", returns="coefficient", elementwise=True,
@@ -247,7 +261,7 @@ def kuder_richardson_20(items: Range) -> float:
     sum_pq = np.sum(p * (1.0 - p))
     total = x.sum(axis=1)
     total_var = np.mean((total - total.mean()) ** 2)  # denominator n, as p·q
-    if not total_var > _ZERO_VARIANCE * max(sum_pq, 1.0 / n):
+    if not total_var > 0:  # sums of 0/1 are exact: no rounding noise to allow for
         raise ZeroVarianceError("items: the total score has zero variance; KR-20 is undefined", argument="items")
     return k / (k - 1) * (1.0 - sum_pq / total_var)
 
@@ -345,7 +359,9 @@ def split_half(items: Range, method: Literal["odd-even", "first-last"] = "odd-ev
     else:
         cut = (k + 1) // 2
         first, second = x[:, :cut].sum(axis=1), x[:, cut:].sum(axis=1)
-    r = _correlation(first, second, "items", "the first half-test score", "the second half-test score")
+    halves = (k + 1) // 2, k // 2
+    r = _correlation(first, second, halves, np.abs(x).max(), "items",
+                     "the first half-test score", "the second half-test score")
     if r <= -1.0:
         raise DomainError("items: the half-test scores correlate -1; the stepped-up coefficient is undefined",
                           argument="items")
@@ -408,7 +424,9 @@ def length_factor(reliability: float, target: float) -> float:
     """
     v.reliability("reliability", reliability, allow_zero=False, allow_one=False)
     v.reliability("target", target, allow_zero=False, allow_one=False)
-    return (target * (1.0 - reliability)) / (reliability * (1.0 - target))
+    r, t = np.asarray(reliability, dtype=float), np.asarray(target, dtype=float)
+    # in numpy floats: a product that underflows to 0 gives inf (refused as #NUM!), not a Python exception
+    return (t * (1.0 - r)) / (r * (1.0 - t))
 
 
 # ---------------------------------------------------------------- omega
@@ -521,11 +539,11 @@ def omega_total(items: Range) -> float:
     x = v.complete_rows("items", x, min_rows=x.shape[1] + 1, min_columns=3)
     c = _centred(x)
     ss = np.einsum("ij,ij->j", c, c)
-    scale = np.abs(x).max(axis=0)
-    flat = ~(ss > (_ZERO_VARIANCE * scale) ** 2 * x.shape[0])
+    flat = _is_noise(ss, x.shape[0], 1, np.abs(x).max(axis=0))
     if flat.any():
-        cols = ", ".join(str(j + 1) for j in np.flatnonzero(flat))
-        raise ZeroVarianceError(f"items: item {cols} has zero variance; omega is undefined", argument="items")
+        cols = [str(j + 1) for j in np.flatnonzero(flat)]
+        which = f"item {cols[0]} has" if len(cols) == 1 else f"items {', '.join(cols)} have"
+        raise ZeroVarianceError(f"items: {which} zero variance; omega is undefined", argument="items")
     sd = np.sqrt(ss)  # common factor sqrt(n - 1) omitted: omega is free of the scale of every item
     corr = (c.T @ c) / np.outer(sd, sd)
     np.fill_diagonal(corr, 1.0)
@@ -538,9 +556,10 @@ def omega_total(items: Range) -> float:
                           argument="items")
     heywood = fit.uniquenesses <= UNIQUENESS_FLOOR * (1.0 + 1e-6)
     if heywood.any():
-        cols = ", ".join(str(j + 1) for j in np.flatnonzero(heywood))
+        cols = [str(j + 1) for j in np.flatnonzero(heywood)]
+        which = f"item {cols[0]} has its" if len(cols) == 1 else f"items {', '.join(cols)} have their"
         raise DomainError(
-            f"items: Heywood case in the one-factor model (item {cols} has its unique variance at the floor "
+            f"items: Heywood case in the one-factor model ({which} unique variance at the floor "
             f"{UNIQUENESS_FLOOR}); omega is not trustworthy for these data", argument="items")
     lam = fit.loadings * sd
     psi = fit.uniquenesses * sd * sd
@@ -619,7 +638,8 @@ def item_total_correlation(items: Range, item: int) -> float:
     """
     x, j = _item_and_rows(items, item, min_people=3, min_items=2)
     rest = x.sum(axis=1) - x[:, j]
-    return _correlation(x[:, j], rest, "items", f"item {j + 1}", f"the total of the items other than {j + 1}")
+    return _correlation(x[:, j], rest, (1, x.shape[1] - 1), np.abs(x).max(), "items",
+                        f"item {j + 1}", f"the total of the items other than {j + 1}")
 
 
 @spreadsheet("ALPHA_IF_DELETED", returns="coefficient",
@@ -647,5 +667,5 @@ def alpha_if_deleted(items: Range, item: int) -> float:
     0.846154
     """
     x, j = _item_and_rows(items, item, min_people=2, min_items=3)
-    c = _centred(np.delete(x, j, axis=1))
-    return _alpha_from_centred(c, "items", f"total of the items other than {j + 1}")
+    rest = np.delete(x, j, axis=1)
+    return _alpha_from_centred(_centred(rest), np.abs(rest).max(), "items", f"total of the items other than {j + 1}")
