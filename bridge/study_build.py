@@ -1173,7 +1173,10 @@ def make_study(data_path: str | Path, out_path: str | Path, overrides: Mapping[s
         timings["build"] = time.perf_counter() - t0
         t0 = time.perf_counter()
         done.unlink()
-        report = recalculate(raw, done, progress=progress)
+        try:
+            report = recalculate(raw, done, progress=progress)
+        except Exception as exc:  # the engine's own failures end the command cleanly; nothing is kept
+            raise StudyError(f"the recalculation of the new study failed ({type(exc).__name__}: {exc})") from exc
         timings["recalculate"] = time.perf_counter() - t0
         os.replace(done, out)
     finally:
