@@ -110,6 +110,11 @@ def mean_squares(matrix: np.ndarray) -> dict[str, float]:
     ss_within = float(np.dot(flat, flat))
     x -= col_means[None, :]  # residuals of the two-way layout, summed directly rather than by subtraction
     ss_error = float(np.dot(flat, flat))
+    # Sums of squares below the rounding floor of the data are zero in exact arithmetic (e.g. residuals
+    # of ratings that differ only by a rater constant); without this, F would be a huge artefact.
+    floor = n * k * (8.0 * np.finfo(float).eps * float(np.max(np.abs(matrix - matrix.mean())))) ** 2
+    ss_rows, ss_cols, ss_within, ss_error = (0.0 if ss <= floor < math.inf else ss
+                                             for ss in (ss_rows, ss_cols, ss_within, ss_error))
     return {
         "rows": ss_rows / (n - 1),
         "columns": ss_cols / (k - 1),
@@ -121,6 +126,11 @@ def mean_squares(matrix: np.ndarray) -> dict[str, float]:
 def _f_upper(q: float, df1: float, df2: float) -> float:
     """Upper quantile F with P(F > f) = q (isf: no cancellation for small q)."""
     return float(stats.f.isf(q, df1, df2))
+
+
+def _ratio(numerator: float, denominator: float) -> float:
+    """numerator / denominator, nan where the denominator is zero (a limit that does not exist)."""
+    return numerator / denominator if denominator != 0.0 else math.nan
 
 
 def _limits_or_nan(lower: float, upper: float) -> tuple[float, float]:
@@ -219,15 +229,15 @@ def intraclass_correlation(ratings, model: str, unit: str, confidence: float = 0
     else:
         err, df2 = mse, (n - 1) * (k - 1)
     df1 = n - 1
-    if err == 0.0:
-        F, p = math.inf, 0.0
-    else:
-        F = msr / err
-        p = float(stats.f.sf(F, df1, df2))
+    F = msr / err if err > 0.0 else math.inf
+    p = float(stats.f.sf(F, df1, df2)) if math.isfinite(F) else 0.0
 
     if model in ("oneway", "consistency"):
         if unit == "single":
             denominator = msr + (k - 1) * err
+            if denominator <= 0.0:  # consistency when the ratings differ only by rater
+                raise ZeroVarianceError(
+                    "ratings vary only between raters; the ICC is undefined", argument="ratings")
             estimate = (msr - err) / denominator
         else:
             if msr == 0.0:
@@ -235,8 +245,8 @@ def intraclass_correlation(ratings, model: str, unit: str, confidence: float = 0
                     "ratings do not vary between the people rated; the average-measure ICC is undefined",
                     argument="ratings")
             estimate = (msr - err) / msr
-        if err == 0.0:
-            lower = upper = 1.0  # the limits of F -> infinity
+        if math.isinf(F):
+            lower = upper = 1.0  # the limits as F -> infinity
         else:
             f_low = F / _f_upper(alpha / 2, df1, df2)
             f_up = F * _f_upper(alpha / 2, df2, df1)
@@ -245,7 +255,7 @@ def intraclass_correlation(ratings, model: str, unit: str, confidence: float = 0
             elif f_low == 0.0:
                 lower, upper = math.nan, math.nan
             else:
-                lower, upper = 1 - 1 / f_low, 1 - 1 / f_up
+                lower, upper = 1 - _ratio(1.0, f_low), 1 - _ratio(1.0, f_up)
         lower, upper = _limits_or_nan(lower, upper)
         return IntraclassCorrelation(estimate, lower, upper, F, df1, df2, p, n, k)
 
@@ -264,24 +274,25 @@ def intraclass_correlation(ratings, model: str, unit: str, confidence: float = 0
                 "ratings vary more between raters and in the residual than between people; the average-measure "
                 "agreement ICC is undefined for them (its variance estimate is not positive)", argument="ratings")
         estimate = (msr - mse) / average_denominator
-    if mse == 0.0 and msc == 0.0:
+    if rho >= 1.0:  # no rater or residual variation (to rounding): the limits of a perfect ICC
         lower = upper = 1.0
     else:
         a = k * rho / (n * (1 - rho))
-        b = 1 + k * rho * (n - 1) / (n * (1 - rho))
+        b = 1 + (n - 1) * a
         nu_den = (a * msc) ** 2 / (k - 1) + (b * mse) ** 2 / ((n - 1) * (k - 1))
-        nu = (a * msc + b * mse) ** 2 / nu_den if nu_den > 0 else math.nan
+        nu = _ratio((a * msc + b * mse) ** 2, nu_den)
         if not (math.isfinite(nu) and nu > 0):
             lower = upper = math.nan
         else:
             f_l = _f_upper(alpha / 2, n - 1, nu)
             f_u = _f_upper(alpha / 2, nu, n - 1)
-            spread = k * msc + (k * n - k - n) * mse
-            lower = n * (msr - f_l * mse) / (f_l * spread + n * msr)
-            upper = n * (f_u * msr - mse) / (spread + n * f_u * msr)
-            if unit == "average":
-                lower = k * lower / (1 + (k - 1) * lower)
-                upper = k * upper / (1 + (k - 1) * upper)
+            if unit == "single":
+                spread = k * msc + (k * n - k - n) * mse
+                lower = _ratio(n * (msr - f_l * mse), f_l * spread + n * msr)
+                upper = _ratio(n * (f_u * msr - mse), spread + n * f_u * msr)
+            else:  # McGraw & Wong (1996), Table 7, ICC(A,k): the single limits stepped up by Spearman-Brown
+                lower = _ratio(n * (msr - f_l * mse), f_l * (msc - mse) + n * msr)
+                upper = _ratio(n * (f_u * msr - mse), msc - mse + n * f_u * msr)
     lower, upper = _limits_or_nan(lower, upper)
     return IntraclassCorrelation(estimate, lower, upper, F, df1, df2, p, n, k)
 
@@ -675,7 +686,8 @@ def uniform_null_variance(scale_points):
     >>> uniform_null_variance(5)
     2.0
     """
-    return (scale_points * scale_points - 1.0) / 12.0
+    a = float(scale_points)  # float: the square of a huge whole number must not overflow an int conversion
+    return (a * a - 1.0) / 12.0
 
 
 def _scale_points(scale_points: int) -> int:
@@ -729,7 +741,7 @@ def within_group_agreement(ratings: Range, scale_points: int) -> float:
     if x.size < 2:
         raise InsufficientDataError(f"ratings need at least 2 ratings, got {x.size}", argument="ratings")
     _check_span("ratings", x, a)
-    s2 = float(np.var(x, ddof=1))
+    s2 = float(np.var(x - x.min(), ddof=1))  # shifted: within the scale's span, so no overflow
     return max(0.0, 1.0 - s2 / uniform_null_variance(a))
 
 
@@ -773,7 +785,7 @@ def within_group_agreement_items(ratings: Range, scale_points: int) -> float:
                 f"ratings column {j + 1} (an item) has {col.size} ratings; each item needs at least 2",
                 argument="ratings")
         _check_span("ratings", col, a, f" in column {j + 1}")
-        variances.append(float(np.var(col, ddof=1)))
+        variances.append(float(np.var(col - col.min(), ddof=1)))
     items = len(variances)
     ratio = float(np.mean(variances)) / uniform_null_variance(a)
     if ratio >= 1.0:

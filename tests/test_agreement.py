@@ -191,6 +191,9 @@ def test_icc_perfect_consistency():
     r = ag.intraclass_correlation(x, "consistency", "single")
     assert (r.estimate, r.lower, r.upper, r.p) == (1.0, 1.0, 1.0, 0.0) and math.isinf(r.F)
     assert call("ICC", x, "agreement", "single") < 1.0
+    # residuals that are zero in exact arithmetic but not in floating point (means of thirds)
+    r = ag.intraclass_correlation([[0, 0], [0, 0], [1, 1]], "agreement", "single")
+    assert (r.estimate, r.lower, r.upper, r.p) == (1.0, 1.0, 1.0, 0.0) and math.isinf(r.F)
 
 
 def test_icc_errors():
@@ -198,6 +201,8 @@ def test_icc_errors():
         call("ICC", [[3, 3], [3, 3], [3, 3]], "oneway", "single")
     with raises_code("#DIV/0!", "ratings", match="between the people"):
         call("ICC", [[1, 2], [1, 2], [2, 1], [2, 1]], "consistency", "average")
+    with raises_code("#DIV/0!", "ratings", match="only between raters"):
+        call("ICC", [[1, 0], [1, 0]], "consistency", "single")
     with raises_code("#N/A", "ratings", match="complete rows"):
         call("ICC", [[1, 2], [None, 3]], "oneway", "single")
     with raises_code("#N/A", "ratings", match="columns"):
@@ -479,3 +484,11 @@ def test_krippendorff_table_and_pairwise_sums_agree(level, continuous, monkeypat
     direct = call("KRIPPENDORFF_ALPHA", x, level)
     assert table == pytest.approx(reference, rel=1e-10)
     assert direct == pytest.approx(reference, rel=1e-10)
+
+
+def test_rwg_extreme_but_valid_inputs():
+    # Huge equal ratings still agree perfectly; a huge scale makes the uniform null variance overwhelm
+    # any observed variance (rwg -> 1, by definition).
+    assert call("RWG", [1e308, 1e308], 5) == 1.0
+    assert call("RWG", [1, 2, 3], 1e300) == 1.0
+    assert call("RWG_J", [[1e300, 1e300], [1e300, 1e300]], 5) == 1.0
