@@ -441,6 +441,10 @@ def cohen_kappa(rater_a: Range, rater_b: Range, weights: Literal["none", "linear
     why = f"{weights} weighted kappa needs numeric (ordered) categories; use weights \"none\" for text"
     xa = _numeric_labels("rater_a", a, rows, why)
     xb = _numeric_labels("rater_b", b, rows, why)
+    if np.all(xa == xa[0]) and np.all(xb == xa[0]):  # tested exactly: rounding must not fake a variance
+        raise ZeroVarianceError(
+            "rater_a and rater_b gave everyone the same single value; weighted kappa is undefined",
+            argument="rater_a")
     if weights == "linear":
         observed = float(np.sum(np.abs(xa - xb)))
         expected = _sum_abs_differences(xa, xb) / n

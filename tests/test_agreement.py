@@ -299,6 +299,8 @@ def test_cohen_kappa_errors():
         call("COHEN_KAPPA", ["a", "a", "a"], ["a", "a", "a"])
     with raises_code("#DIV/0!", "rater_a"):
         call("COHEN_KAPPA", [2, 2, 2], [2, 2, 2], "quadratic")
+    with raises_code("#DIV/0!", "rater_a"):
+        call("COHEN_KAPPA", [0.1] * 3, [0.1] * 3, "quadratic")
     with raises_code("#NUM!", "weights"):
         call("COHEN_KAPPA", [1, 2], [1, 2], "cubic")
 
