@@ -101,6 +101,7 @@ def mean_squares(matrix: np.ndarray) -> dict[str, float]:
     """
     n, k = matrix.shape
     x = matrix - matrix.mean()  # centring first keeps the squares small
+    scale = float(np.max(np.abs(x)))
     row_means = x.mean(axis=1)
     col_means = x.mean(axis=0)
     ss_rows = k * float(np.dot(row_means, row_means))
@@ -112,7 +113,7 @@ def mean_squares(matrix: np.ndarray) -> dict[str, float]:
     ss_error = float(np.dot(flat, flat))
     # Sums of squares below the rounding floor of the data are zero in exact arithmetic (e.g. residuals
     # of ratings that differ only by a rater constant); without this, F would be a huge artefact.
-    floor = n * k * (8.0 * np.finfo(float).eps * float(np.max(np.abs(matrix - matrix.mean())))) ** 2
+    floor = n * k * (8.0 * np.finfo(float).eps * scale) ** 2
     ss_rows, ss_cols, ss_within, ss_error = (0.0 if ss <= floor < math.inf else ss
                                              for ss in (ss_rows, ss_cols, ss_within, ss_error))
     return {
