@@ -336,3 +336,24 @@ def test_unshare_writes_each_cell_its_own_formula(forms):
         if not ref.startswith("C") or ref == "C1":
             assert after[ref] == before[ref]
     assert sx.unshare_formulas(xml, strings, groups={7}) == xml
+
+
+def test_column_reader_agrees_with_the_cell_reader(forms):
+    _, xml, strings = forms
+    rnd = random.Random(21)
+    for sheet in [xml, *(_random_sheet(rnd) for _ in range(3))]:
+        strings_here = strings if sheet is xml else ()
+        expected = sx._columns_from_cells(list(sx._iter_cells_rowwise(sheet, strings_here)))
+        got = sx.read_columns(sheet, strings_here)
+        assert got.columns == expected.columns
+        assert got.formulas == expected.formulas
+        assert got.styles == expected.styles
+    cols = sx.read_columns(xml, strings)
+    assert cols.value(2, 2) == 31.0 and cols.value(4, 2) is None and cols.value(99, 2) is None
+    assert cols.columns[2][0] == [1, 2, 3, 5, 6, 7, 8, 9]  # B4 is an empty styled cell: not a value
+
+
+def test_column_reader_names_a_bad_number():
+    xml = gb.sheet_part([gb.row_xml(1, [gb.cell_xml("A1", 1)]), gb.row_xml(2, ['<c r="A2"><v>1,5</v></c>'])])
+    with pytest.raises(SheetXmlError, match="A2"):
+        sx.read_columns(xml)
