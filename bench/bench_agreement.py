@@ -5,11 +5,13 @@
     python bench/bench_agreement.py --people 50000 --raters 6 --units 5000 --repeat 5
 
 ICC: all six forms (estimate, F, p and both 95% limits) from trueband's
-``intraclass_correlation`` (numpy mean squares on the n x k matrix), against
+``intraclass_correlations`` (numpy mean squares of the n x k matrix, one pass), against
 ``pingouin.intraclass_corr`` (long-format two-way ANOVA) on the same ratings;
 printed as times, the ratio reference / trueband (above 1 means trueband is
 faster) and the largest absolute difference over every number both report.
-The ICC line through the registry (``call("ICC", ...)``, one part) is shown too.
+One form through the registry (``call("ICC", ...)``, one part, as a workbook
+cell asks for it), the six forms as six separate calls, and one form from nested Python lists
+(what parsing the cells of a range costs) are shown too.
 
 Krippendorff's alpha: trueband's ``KRIPPENDORFF_ALPHA`` at each level against
 ``krippendorff.alpha`` (which takes raters x units: the data are transposed
@@ -31,8 +33,10 @@ import pingouin as pg
 from trueband.funcs import agreement as ag
 from trueband.funcs import call
 
-FORMS = [("oneway", "single", "ICC(1,1)"), ("agreement", "single", "ICC(A,1)"), ("consistency", "single", "ICC(C,1)"),
-         ("oneway", "average", "ICC(1,k)"), ("agreement", "average", "ICC(A,k)"), ("consistency", "average", "ICC(C,k)")]
+FORMS = [  # (model, unit, pingouin's label)
+    ("oneway", "single", "ICC(1,1)"), ("agreement", "single", "ICC(A,1)"), ("consistency", "single", "ICC(C,1)"),
+    ("oneway", "average", "ICC(1,k)"), ("agreement", "average", "ICC(A,k)"), ("consistency", "average", "ICC(C,k)"),
+]
 
 
 def best_time(fn, repeat: int) -> tuple[float, object]:
@@ -50,7 +54,11 @@ def ratings(n: int, k: int, seed: int) -> np.ndarray:
 
 
 def trueband_icc_all(x: np.ndarray) -> dict:
-    return {form: ag.intraclass_correlation(x, model, unit) for model, unit, form in FORMS}
+    """All six forms in pingouin's labels, from one pass (intraclass_correlations)."""
+    table = ag.intraclass_correlations(x)
+    ours = {"ICC(1,1)": "ICC(1,1)", "ICC(A,1)": "ICC(2,1)", "ICC(C,1)": "ICC(3,1)",
+            "ICC(1,k)": "ICC(1,k)", "ICC(A,k)": "ICC(2,k)", "ICC(C,k)": "ICC(3,k)"}
+    return {label: table[key] for label, key in ours.items()}
 
 
 def pingouin_icc_all(x: np.ndarray) -> pd.DataFrame:
@@ -90,11 +98,17 @@ def main() -> None:
     t_ours, ours = best_time(lambda: trueband_icc_all(x), args.repeat)
     t_ref, ref = best_time(lambda: pingouin_icc_all(x), args.repeat)
     t_one, _ = best_time(lambda: call("ICC", x, "agreement", "single", "lower"), args.repeat)
+    t_six, _ = best_time(lambda: [ag.intraclass_correlation(x, m, u) for m, u, _ in FORMS], args.repeat)
     print(f"ICC, {people:,} people x {args.raters} raters, all six forms with F, p and 95% limits")
     print(f"  trueband {t_ours * 1e3:9.2f} ms   pingouin {t_ref * 1e3:9.2f} ms   "
           f"pingouin/trueband {t_ref / t_ours:7.1f}x   max |difference| {max_difference(ours, ref):.2e}")
     print(f"  one part through the registry, call('ICC', ...): {t_one * 1e3:.2f} ms "
           f"(pingouin/trueband {t_ref / t_one:.1f}x)")
+    print(f"  six separate intraclass_correlation calls: {t_six * 1e3:.2f} ms (pingouin/trueband {t_ref / t_six:.1f}x)")
+    cells = x.tolist()
+    t_cells, _ = best_time(lambda: call("ICC", cells, "agreement", "single", "lower"), args.repeat)
+    print(f"  one part from nested Python lists (cells as a workbook range arrives): {t_cells * 1e3:.2f} ms "
+          f"(pingouin/trueband {t_ref / t_cells:.1f}x)")
 
     rng = np.random.default_rng(2)
     truth = rng.integers(1, 8, (units, 1))

@@ -4,7 +4,9 @@
 spreadsheet name        Python function                               what it gives
 ======================  ============================================  =========================================
 ``ICC``                 :func:`intraclass_correlation_part`            one part of an intraclass correlation
-                        (:func:`intraclass_correlation` for all)      (estimate, confidence limit or p)
+                        (:func:`intraclass_correlation` for all       (estimate, confidence limit or p)
+                        parts, :func:`intraclass_correlations` for
+                        all six forms)
 ``COHEN_KAPPA``         :func:`cohen_kappa`                           two raters, chance-corrected agreement
                                                                       (unweighted, linear or quadratic)
 ``FLEISS_KAPPA``        :func:`fleiss_kappa`                          several raters per person, categories
@@ -51,6 +53,7 @@ __all__ = [
     "IntraclassCorrelation",
     "intraclass_correlation",
     "intraclass_correlation_part",
+    "intraclass_correlations",
     "mean_squares",
     "cohen_kappa",
     "fleiss_kappa",
@@ -104,13 +107,13 @@ def mean_squares(matrix: np.ndarray) -> dict[str, float]:
     scale = float(np.max(np.abs(x)))
     row_means = x.mean(axis=1)
     col_means = x.mean(axis=0)
-    ss_rows = k * float(np.dot(row_means, row_means))
-    ss_cols = n * float(np.dot(col_means, col_means))
+    ss_rows = k * _sum_of_products(row_means, row_means)
+    ss_cols = n * _sum_of_products(col_means, col_means)
     x -= row_means[:, None]  # deviations within people, in place
     flat = x.ravel()
-    ss_within = float(np.dot(flat, flat))
+    ss_within = _sum_of_products(flat, flat)
     x -= col_means[None, :]  # residuals of the two-way layout, summed directly rather than by subtraction
-    ss_error = float(np.dot(flat, flat))
+    ss_error = _sum_of_products(flat, flat)
     # Sums of squares below the rounding floor of the data are zero in exact arithmetic (e.g. residuals
     # of ratings that differ only by a rater constant); without this, F would be a huge artefact.
     floor = n * k * (8.0 * np.finfo(float).eps * scale) ** 2
@@ -122,6 +125,11 @@ def mean_squares(matrix: np.ndarray) -> dict[str, float]:
         "error": ss_error / ((n - 1) * (k - 1)),
         "within": ss_within / (n * (k - 1)),
     }
+
+
+def _sum_of_products(a: np.ndarray, b: np.ndarray) -> float:
+    """Σ a·b of two vectors; einsum rather than BLAS dot, whose threads stall on a busy machine."""
+    return float(np.einsum("i,i->", a, b))
 
 
 def _f_upper(q: float, df1: float, df2: float) -> float:
@@ -213,16 +221,45 @@ def intraclass_correlation(ratings, model: str, unit: str, confidence: float = 0
     """
     model = v.choice("model", model, _MODELS)
     unit = v.choice("unit", unit, _UNITS)
-    v.confidence("confidence", v.number("confidence", confidence))
+    confidence = v.confidence("confidence", v.number("confidence", confidence))
+    return _icc_from_mean_squares(*_icc_mean_squares(ratings), model, unit, confidence)
+
+
+def intraclass_correlations(ratings, confidence: float = 0.95) -> dict[str, IntraclassCorrelation]:
+    """All six intraclass correlations of :func:`intraclass_correlation` from one pass over the ratings.
+
+    Keys are the Shrout & Fleiss labels ``"ICC(1,1)"``, ``"ICC(2,1)"``,
+    ``"ICC(3,1)"``, ``"ICC(1,k)"``, ``"ICC(2,k)"``, ``"ICC(3,k)"`` (one-way,
+    agreement, consistency; single, average). Raises the error of the first
+    form that is undefined for the ratings; use :func:`intraclass_correlation`
+    for one form.
+
+    >>> table = intraclass_correlations([[9, 2, 5, 8], [6, 1, 3, 2], [8, 4, 6, 8], [7, 1, 2, 6], [10, 5, 6, 9],
+    ...                                  [6, 2, 4, 7]])
+    >>> {form: round(r.estimate, 2) for form, r in table.items()}
+    {'ICC(1,1)': 0.17, 'ICC(2,1)': 0.29, 'ICC(3,1)': 0.71, 'ICC(1,k)': 0.44, 'ICC(2,k)': 0.62, 'ICC(3,k)': 0.91}
+    """
+    confidence = v.confidence("confidence", v.number("confidence", confidence))
+    ms, n, k = _icc_mean_squares(ratings)
+    return {f"ICC({number},{'1' if unit == 'single' else 'k'})":
+            _icc_from_mean_squares(ms, n, k, model, unit, confidence)
+            for unit in _UNITS for number, model in zip("123", _MODELS)}
+
+
+def _icc_mean_squares(ratings) -> tuple[dict[str, float], int, int]:
     x = v.complete_rows("ratings", v.numeric_matrix("ratings", ratings), min_rows=2, min_columns=2)
-    n, k = x.shape
     with np.errstate(over="ignore", invalid="ignore"):
         ms = mean_squares(x)
     if not all(math.isfinite(value) for value in ms.values()):
         raise DomainError("ratings are too large for their squares to be represented", argument="ratings")
-    msr, msc, mse, msw = ms["rows"], ms["columns"], ms["error"], ms["within"]
-    if msr == 0.0 and msw == 0.0:
+    if ms["rows"] == 0.0 and ms["within"] == 0.0:
         raise ZeroVarianceError("ratings are all the same value; the ICC is undefined", argument="ratings")
+    return ms, x.shape[0], x.shape[1]
+
+
+def _icc_from_mean_squares(ms: dict[str, float], n: int, k: int, model: str, unit: str,
+                           confidence: float) -> IntraclassCorrelation:
+    msr, msc, mse, msw = ms["rows"], ms["columns"], ms["error"], ms["within"]
     alpha = 1.0 - confidence
 
     if model == "oneway":
@@ -453,7 +490,7 @@ def cohen_kappa(rater_a: Range, rater_b: Range, weights: Literal["none", "linear
         da, db = xa - xa.mean(), xb - xb.mean()
         observed = float(np.sum((xa - xb) ** 2))
         # Σ_i Σ_j (a_i − b_j)² / n = Σ(a − ā)² + Σ(b − b̄)² + n(ā − b̄)², from centred sums
-        expected = float(np.dot(da, da) + np.dot(db, db) + n * (xa.mean() - xb.mean()) ** 2)
+        expected = _sum_of_products(da, da) + _sum_of_products(db, db) + n * (xa.mean() - xb.mean()) ** 2
     if not expected > 0.0:
         raise ZeroVarianceError(
             "rater_a and rater_b gave everyone the same single value; weighted kappa is undefined",
@@ -514,9 +551,9 @@ def fleiss_kappa(ratings: Range) -> float:
     people = keep.size
     # n_ij² summed without an N × categories table: count each (row, category) pair
     _, pair_counts = np.unique(rows * c + codes, return_counts=True)
-    p_bar = (float(np.dot(pair_counts, pair_counts)) - people * m) / (people * m * (m - 1))
+    p_bar = (float(np.sum(pair_counts.astype(np.int64) ** 2)) - people * m) / (people * m * (m - 1))
     totals = np.bincount(codes, minlength=c).astype(float) / (people * m)
-    p_e = float(np.dot(totals, totals))
+    p_e = _sum_of_products(totals, totals)
     if p_e >= 1.0:
         raise ZeroVarianceError("ratings all fall in one category; Fleiss' kappa is undefined", argument="ratings")
     return (p_bar - p_e) / (1.0 - p_e)
@@ -569,18 +606,19 @@ def _direct_sums(units, codes, m, x, ok, level: str):
         same = np.bincount(keys // values, weights=pair_counts.astype(float) ** 2, minlength=m.size)
         totals = np.bincount(codes, minlength=values).astype(float)
         n = float(m.sum())
-        return float(np.sum((m * m - same) / (m - 1))), n * n - float(np.dot(totals, totals))
+        return float(np.sum((m * m - same) / (m - 1))), n * n - _sum_of_products(totals, totals)
     if level == "ordinal":
         x = x.copy()
         x[ok] = stats.rankdata(x[ok], method="average")  # ordinal δ = difference of mid-ranks
     if level in ("interval", "ordinal"):
-        # Σ_{i≠j in u} (x_i − x_j)² = 2 m_u Σ_i (x_i − x̄_u)²;  Σ_c Σ_k n_c n_k (c − k)² = 2 n Σ (x − x̄)²
+        # Σ_{i≠j in u} (x_i − x_j)² = 2 m_u Σ_i (x_i − x̄_u)²,
+        # Σ_c Σ_k n_c n_k (c − k)² = 2 n Σ (x − x̄)²
         means = np.where(ok, x, 0.0).sum(axis=1) / m
         dev = np.where(ok, x - means[:, None], 0.0)
         flat = x[ok]
         centred = flat - flat.mean()
         return (float(np.sum(2.0 * m * np.einsum("ij,ij->i", dev, dev) / (m - 1))),
-                2.0 * flat.size * float(np.dot(centred, centred)))
+                2.0 * flat.size * _sum_of_products(centred, centred))
     filled = np.where(ok, x, 0.0)
     k = x.shape[1]
     observed = 0.0

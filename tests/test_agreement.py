@@ -78,8 +78,10 @@ KRIPPENDORFF_2011 = [
     [4, 4, 4, 4], [1, 1, 2, 1], [2, 2, 2, 2], [None, 5, 5, 5], [None, None, 1, 1], [None, 3, None, None],
 ]
 
-FORMS = [("oneway", "single", "ICC(1,1)"), ("agreement", "single", "ICC(A,1)"), ("consistency", "single", "ICC(C,1)"),
-         ("oneway", "average", "ICC(1,k)"), ("agreement", "average", "ICC(A,k)"), ("consistency", "average", "ICC(C,k)")]
+FORMS = [  # (model, unit, pingouin's label)
+    ("oneway", "single", "ICC(1,1)"), ("agreement", "single", "ICC(A,1)"), ("consistency", "single", "ICC(C,1)"),
+    ("oneway", "average", "ICC(1,k)"), ("agreement", "average", "ICC(A,k)"), ("consistency", "average", "ICC(C,k)"),
+]
 
 
 def long_format(matrix):
@@ -128,6 +130,18 @@ def assert_matches_pingouin(matrix, reference, confidence_tol=1e-10):
         assert (ours.df1, ours.df2) == (row["df1"], row["df2"]), form
         assert ours.p == pytest.approx(row["pval"], rel=1e-9, abs=1e-15), form
         assert (ours.lower, ours.upper) == pytest.approx(tuple(row["CI95"]), rel=confidence_tol, abs=1e-12), form
+
+
+def test_icc_all_six_forms_in_one_pass(pingouin_unrounded):
+    # intraclass_correlations against pingouin (labels: Shrout & Fleiss 2 = agreement "A", 3 = consistency "C").
+    reference = pingouin_unrounded(SHROUT_FLEISS)
+    table = ag.intraclass_correlations(SHROUT_FLEISS, 0.95)
+    for ours, theirs in [("ICC(1,1)", "ICC(1,1)"), ("ICC(2,1)", "ICC(A,1)"), ("ICC(3,1)", "ICC(C,1)"),
+                         ("ICC(1,k)", "ICC(1,k)"), ("ICC(2,k)", "ICC(A,k)"), ("ICC(3,k)", "ICC(C,k)")]:
+        r = table[ours]
+        assert (r.estimate, r.lower, r.upper) == pytest.approx(
+            (reference.loc[theirs, "ICC"], *reference.loc[theirs, "CI95"]), rel=1e-10)
+    assert list(table) == ["ICC(1,1)", "ICC(2,1)", "ICC(3,1)", "ICC(1,k)", "ICC(2,k)", "ICC(3,k)"]
 
 
 def test_icc_against_pingouin_on_shrout_fleiss(pingouin_unrounded):
