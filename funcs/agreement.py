@@ -1,20 +1,19 @@
 """Rater agreement: how far interviewers, assessors or judges agree.
 
-======================  ============================================  =========================================
-spreadsheet name        Python function                               what it gives
-======================  ============================================  =========================================
-``ICC``                 :func:`intraclass_correlation_part`            one part of an intraclass correlation
-                        (:func:`intraclass_correlation` for all       (estimate, confidence limit or p)
-                        parts, :func:`intraclass_correlations` for
-                        all six forms)
-``COHEN_KAPPA``         :func:`cohen_kappa`                           two raters, chance-corrected agreement
-                                                                      (unweighted, linear or quadratic)
-``FLEISS_KAPPA``        :func:`fleiss_kappa`                          several raters per person, categories
-``KRIPPENDORFF_ALPHA``  :func:`krippendorff_alpha`                    any number of raters, missing ratings,
-                                                                      nominal to ratio data
-``RWG``                 :func:`within_group_agreement`                rwg of one item against a uniform null
-``RWG_J``               :func:`within_group_agreement_items`          rwg(j) over several items
-======================  ============================================  =========================================
+======================  ================================================  ======================================
+spreadsheet name        Python function                                   what it gives
+======================  ================================================  ======================================
+``ICC``                 :func:`intraclass_correlation_part`               one part of an intraclass correlation
+                        (all parts: :func:`intraclass_correlation`;       (estimate, confidence limit or p)
+                        all six forms: :func:`intraclass_correlations`)
+``COHEN_KAPPA``         :func:`cohen_kappa`                               two raters, chance-corrected agreement
+                                                                          (unweighted, linear or quadratic)
+``FLEISS_KAPPA``        :func:`fleiss_kappa`                              several ratings per person, categories
+``KRIPPENDORFF_ALPHA``  :func:`krippendorff_alpha`                        any number of raters, missing ratings,
+                                                                          nominal to ratio data
+``RWG``                 :func:`within_group_agreement`                    rwg of one item against a uniform null
+``RWG_J``               :func:`within_group_agreement_items`              rwg(j) over several items
+======================  ================================================  ======================================
 
 Conventions
 -----------
@@ -155,17 +154,17 @@ def intraclass_correlation(ratings, model: str, unit: str, confidence: float = 0
     MSC (between raters), MSE (residual) and MSW (within people), n people and
     k raters (McGraw & Wong 1996, Table 4; Shrout & Fleiss 1979):
 
-    ==============  =================================  ==============================
-    model, unit     estimate                           Shrout & Fleiss
-    ==============  =================================  ==============================
-    oneway single   (MSR − MSW) / (MSR + (k−1)MSW)     ICC(1,1)
-    oneway average  (MSR − MSW) / MSR                  ICC(1,k)
-    agreement s.    (MSR − MSE) /                      ICC(2,1)
-                    (MSR + (k−1)MSE + k(MSC − MSE)/n)
-    agreement av.   (MSR − MSE) / (MSR + (MSC − MSE)/n) ICC(2,k)
-    consistency s.  (MSR − MSE) / (MSR + (k−1)MSE)     ICC(3,1)
-    consistency av. (MSR − MSE) / MSR                  ICC(3,k)
-    ==============  =================================  ==============================
+    ====================  ====================================  ===============
+    model, unit           estimate                              Shrout & Fleiss
+    ====================  ====================================  ===============
+    oneway, single        (MSR − MSW) / (MSR + (k − 1)MSW)      ICC(1,1)
+    oneway, average       (MSR − MSW) / MSR                     ICC(1,k)
+    agreement, single     (MSR − MSE) /
+                          (MSR + (k − 1)MSE + k(MSC − MSE)/n)   ICC(2,1)
+    agreement, average    (MSR − MSE) / (MSR + (MSC − MSE)/n)   ICC(2,k)
+    consistency, single   (MSR − MSE) / (MSR + (k − 1)MSE)      ICC(3,1)
+    consistency, average  (MSR − MSE) / MSR                     ICC(3,k)
+    ====================  ====================================  ===============
 
     The F test of ICC = 0 uses F = MSR/MSW on (n − 1, n(k − 1)) degrees of
     freedom for the one-way model and F = MSR/MSE on (n − 1, (n − 1)(k − 1))
