@@ -39,6 +39,7 @@ from trueband.funcs import call, lookup
 from trueband.funcs.errors import InsufficientDataError, TruebandError, UnknownFunctionError
 
 from . import study_charts as charts
+from . import study_xml
 from .study_setup import SETTINGS, SETUP_SHEET, SetupError, StudyData, read_study_data
 
 __all__ = ["StudyError", "StudyResult", "build_study", "make_study", "CAUTION", "ANALYSIS_SHEETS"]
@@ -50,6 +51,10 @@ CAUTION = ("These figures are statistical indicators to support professional jud
 
 ANALYSIS_SHEETS = ("Summary", "Reliability", "Items", "Raters", "Validity", "Bands", "Impact", "Utility", "Notes")
 NOT_COMPUTABLE = "not computable: "
+
+#: Up to this many cells in the item (or rating) range, every range function is called once while the
+#: study is built, to mark what cannot be computed; above it only cheap numpy checks are made.
+FULL_CHECK_CELLS = 400_000
 
 
 class StudyError(Exception):
@@ -183,6 +188,10 @@ class _Builder:
         self.scores = data.scores
         self.has_score = ~np.isnan(self.scores)
         self.guard_score = not self.has_score.all()
+        self.criterion_list = None
+        # with large data the expensive range functions are not called twice (here and in the
+        # recalculation); cheap numpy checks find the cases they would refuse
+        self.full_checks = data.n * max(len(data.item_columns), len(data.rating_columns), 1) <= FULL_CHECK_CELLS
 
     # -- helpers
 
@@ -218,6 +227,10 @@ class _Builder:
         if key:
             self.cells[key] = (g.title, f"{get_column_letter(col)}{row}")
 
+    def heavy(self, check: Callable) -> Callable | None:
+        """A check over a whole item or rating range: run it only while the data are small."""
+        return check if self.full_checks else None
+
     def na(self, g: Grid, row: int, col: int, reason: str, key: str | None = None):
         g.set(row, col, NOT_COMPUTABLE + reason, "na")
         self.not_computable.append((g.title, f"{get_column_letter(col)}{row}", reason))
@@ -236,7 +249,7 @@ class _Builder:
 
     # -- plan
 
-    def build(self) -> Workbook:
+    def plan(self):
         self.check_layout()
         self.setup_sheet()
         self.reliability_sheet()
@@ -248,7 +261,6 @@ class _Builder:
         self.utility_sheet()
         self.summary_sheet()
         self.notes_sheet()
-        return self.workbook()
 
     def check_layout(self):
         d = self.d
@@ -367,14 +379,15 @@ class _Builder:
             g.set(11, 1, "KR-20 (items scored 0/1)")
             if binary:
                 # prefixed: "KR20(" reads as the cell KR20 followed by a bracket in spreadsheet apps
-                self.put(g, 11, 2, f"=_xludf.KR20({items_rng})", lambda: call("KR20", x), style="coef", key="kr20")
+                self.put(g, 11, 2, f"=_xludf.KR20({items_rng})", self.heavy(lambda: call("KR20", x)), style="coef",
+                         key="kr20")
             else:
                 self.na(g, 11, 2, "the items are not all scored 0/1", key="kr20")
             g.set(12, 1, "Split-half, odd against even items, Spearman–Brown stepped up")
-            self.put(g, 12, 2, f'=SPLIT_HALF({items_rng},"odd-even")', lambda: call("SPLIT_HALF", x, "odd-even"),
+            self.put(g, 12, 2, f'=SPLIT_HALF({items_rng},"odd-even")', self.heavy(lambda: call("SPLIT_HALF", x, "odd-even")),
                      style="coef", key="split_half")
             g.set(13, 1, "Omega total (McDonald), one-factor model")
-            self.put(g, 13, 2, f"=OMEGA({items_rng})", lambda: call("OMEGA", x), style="coef", key="omega")
+            self.put(g, 13, 2, f"=OMEGA({items_rng})", self.heavy(lambda: call("OMEGA", x)), style="coef", key="omega")
             rel_formula, rel_key = "=B10", "alpha"
         else:
             self.items_range = None
@@ -457,10 +470,9 @@ class _Builder:
                 self.bands_can = False
                 self.notes.append(f"Bands are not computable: {exc.message}")
 
-    def bands_rows(self, ws):
+    def bands_rows(self):
+        """The Bands sheet's rows below its header: formulas as text starting with '='."""
         d, s = self.d, self.s
-        header = [_styled(ws, h, "header") for h in self.bands_header]
-        yield header
         data_q = quote(d.sheet)
         id_col = d.columns.get("id")
         grp_col = d.columns.get("group")
@@ -531,17 +543,30 @@ class _Builder:
         alpha = self.cells.get("alpha")
         alpha_ref = cell_ref("Reliability", 2, 10)
         first = 7
+        complete = x[~np.isnan(x).any(axis=1)]
+        if complete.shape[0] >= 2:
+            item_var = complete.var(axis=0)
+            rest_var = (complete.sum(axis=1, keepdims=True) - complete).var(axis=0)
+            suspect = (item_var <= 1e-12 * max(1.0, float(item_var.max()))) | (rest_var <= 1e-12)
+        else:
+            suspect = np.ones(x.shape[1], dtype=bool)
         for j in range(x.shape[1]):
             r = first + j
             name = d.header[d.item_columns[j]]
             g.set(r, 1, name)
-            self.put(g, r, 2, f"=ITEM_DIFFICULTY({rng},{j + 1})", lambda j=j: call("ITEM_DIFFICULTY", x, j + 1),
+            # with large data only the items numpy finds degenerate are checked by calling the function
+            check = self.full_checks or bool(suspect[j])
+            self.put(g, r, 2, f"=ITEM_DIFFICULTY({rng},{j + 1})",
+                     (lambda j=j: call("ITEM_DIFFICULTY", x, j + 1)) if check else None,
                      style="coef", key=f"item{j + 1}_difficulty")
-            self.put(g, r, 3, f"=ITEM_TOTAL({rng},{j + 1})", lambda j=j: call("ITEM_TOTAL", x, j + 1),
+            self.put(g, r, 3, f"=ITEM_TOTAL({rng},{j + 1})",
+                     (lambda j=j: call("ITEM_TOTAL", x, j + 1)) if check else None,
                      style="coef", key=f"item{j + 1}_total")
-            self.put(g, r, 4, f"=ALPHA_IF_DELETED({rng},{j + 1})", lambda j=j: call("ALPHA_IF_DELETED", x, j + 1),
+            self.put(g, r, 4, f"=ALPHA_IF_DELETED({rng},{j + 1})",
+                     (lambda j=j: call("ALPHA_IF_DELETED", x, j + 1)) if check else None,
                      style="coef", key=f"item{j + 1}_aid")
-            ok = all(isinstance(self.values.get(f"item{j + 1}_{p}"), float) for p in ("difficulty", "total", "aid"))
+            ok = not any(isinstance(self.values.get(f"item{j + 1}_{p}"), Exception)
+                         for p in ("difficulty", "total", "aid"))
             if ok and isinstance(self.values.get("alpha"), float):
                 g.set(r, 5, f'=IF(C{r}<$E$2,"weak discrimination",IF(B{r}<$E$3,"very hard",IF(B{r}>$E$4,"very easy",'
                             f'IF(D{r}>{alpha_ref},"alpha rises without it",""))))')
@@ -596,9 +621,10 @@ class _Builder:
             r = row + 1 + i
             g.set(r, 1, label)
             for c, part in ((2, "estimate"), (3, "lower"), (4, "upper"), (5, "p")):
+                check = (lambda model=model, unit=unit, part=part: call("ICC", y, model, unit, part,
+                                                                         self.s.confidence))
                 self.put(g, r, c, f'=ICC({rng},"{model}","{unit}","{part}",{conf_ref})',
-                         lambda model=model, unit=unit, part=part: call("ICC", y, model, unit, part,
-                                                                         self.s.confidence),
+                         check if part == "estimate" else self.heavy(check),
                          style="p" if part == "p" else "coef", key=f"icc_{model}_{unit}_{part}")
         for model, unit, _ in forms:
             self.values[f"icc_{model}_{unit}"] = self.values.get(f"icc_{model}_{unit}_estimate")
@@ -614,7 +640,7 @@ class _Builder:
         for level in levels:
             g.set(row, 1, f"Krippendorff's alpha, {level} (uses every rating, missing ones allowed)")
             self.put(g, row, 2, f'=KRIPPENDORFF_ALPHA({rng},"{level}")',
-                     lambda level=level: call("KRIPPENDORFF_ALPHA", y, level), style="coef",
+                     self.heavy(lambda level=level: call("KRIPPENDORFF_ALPHA", y, level)), style="coef",
                      key=f"krippendorff_{level}")
             row += 1
         if ordinal:
@@ -625,7 +651,8 @@ class _Builder:
                     for weights, what in (("none", "Cohen's kappa"), ("quadratic", "Quadratic-weighted kappa")):
                         g.set(row, 1, f"{what}, {names}")
                         self.put(g, row, 2, f'=COHEN_KAPPA({ra},{rb},"{weights}")',
-                                 lambda a=a, b=b, weights=weights: call("COHEN_KAPPA", y[:, [a]], y[:, [b]], weights),
+                                 self.heavy(lambda a=a, b=b, weights=weights:
+                                            call("COHEN_KAPPA", y[:, [a]], y[:, [b]], weights)),
                                  style="coef", key=f"kappa_{weights}_{a + 1}_{b + 1}")
                         row += 1
         else:
@@ -743,6 +770,12 @@ class _Builder:
             g.set(row + 2, c, h, "header")
         self.expectancy_rows = (row + 3, row + 7)
         have_r = isinstance(self.values.get("r"), float)
+        # the people with a criterion value, listed in P:Q (the chart's data): ranges of numbers only, so
+        # the conditional counts below never compare text with numbers
+        listed = np.flatnonzero(both) + 2
+        end = 2 + len(listed)
+        ps, pc = f"$P$3:$P${end}", f"$Q$3:$Q${end}"
+        self.criterion_list = (f"{quote('Validity')}!{ps}", f"{quote('Validity')}!{pc}") if have_r else None
         for q in range(5):
             r = row + 3 + q
             g.set(r, 1, ("lowest", "second", "middle", "fourth", "highest")[q] + " fifth")
@@ -752,25 +785,24 @@ class _Builder:
             g.set(r, 2, f"=MIN({score_rng})" if q == 0 else f"=PERCENTILE({score_rng},{q / 5})", "score")
             if q < 4:
                 g.set(r, 3, f"=PERCENTILE({score_rng},{(q + 1) / 5})", "score")
-                cond = f'{sh_rng},">="&B{r},{sh_rng},"<"&C{r}'
+                cond = f'{ps},">="&B{r},{ps},"<"&C{r}'
             else:
                 g.set(r, 3, f"=MAX({score_rng})", "score")
-                cond = f'{sh_rng},">="&B{r},{sh_rng},"<="&C{r}'
+                cond = f'{ps},">="&B{r},{ps},"<="&C{r}'
             g.set(r, 4, f"=COUNTIFS({cond})", "count")
-            g.set(r, 5, f'=IF(D{r}=0,"none",AVERAGEIFS({crit_rng},{cond}))', "coef")
-            g.set(r, 6, f'=IF(D{r}=0,"none",COUNTIFS({cond},{crit_rng},">="&$B${row + 1})/D{r})', "pct")
+            g.set(r, 5, f'=IF(D{r}=0,"none",AVERAGEIFS({pc},{cond}))', "coef")
+            g.set(r, 6, f'=IF(D{r}=0,"none",COUNTIFS({cond},{pc},">="&$B${row + 1})/D{r})', "pct")
         g.set(row + 9, 1, "Fifths are cut at the 20th, 40th, 60th and 80th percentiles of all applicants' scores; a "
                           "score on a cut point belongs to the higher fifth. Rising shares down the table are what a "
                           "valid test shows. Validity figures are statistical indicators, not legal findings.", "wrap")
         # scatter data: the people with a criterion value
         if have_r:
-            rows = np.flatnonzero(both) + 2
+            rows = listed
             g.set(2, 16, "Score", "header")
             g.set(2, 17, "Criterion", "header")
             for k, r in enumerate(rows):
                 g.set(3 + k, 16, f"=Bands!C{r}")
                 g.set(3 + k, 17, f"=Bands!I{r}")
-            end = 2 + len(rows)
             g.charts.append((charts.score_vs_criterion(charts.area("Validity", "P", 3, "P", end),
                                                        charts.area("Validity", "Q", 3, "Q", end),
                                                        x_title="Test score", y_title=s.criterion or "Criterion"),
@@ -897,15 +929,22 @@ class _Builder:
         score_rng, cut = self.score_range, "$B$3"
         first = row + 2
         L, M, N, O, P = (get_column_letter(c0 + k) for k in range(5))
+        Q = get_column_letter(c0 + 5)
+        g.set(row + 1, c0 + 5, "Scoring at least 'from'", "header")
+        g.set(row - 1, c0, "Applicants at or above the cut")
+        g.set(row - 1, c0 + 3, f'=COUNTIF({score_rng},">="&{cut})', "count")
+        at_cut = f"${O}${row - 1}"
+        # one count per bin edge (counts of "at least x"); a bin is the difference of two: one pass
+        # over the scores per edge instead of four
         for j, (a, b, label) in enumerate(edges):
             r = first + j
+            nxt = f"{Q}{r + 1}" if j < len(edges) - 1 else "0"
             g.set(r, c0, label)
             g.set(r, c0 + 1, float(a))
             g.set(r, c0 + 2, float(b))
-            g.set(r, c0 + 3, f'=IF({M}{r}<{cut},COUNTIFS({score_rng},">="&{M}{r},{score_rng},"<"&MIN({N}{r},{cut})),0)',
-                  "count")
-            g.set(r, c0 + 4, f'=IF({N}{r}>{cut},COUNTIFS({score_rng},">="&MAX({M}{r},{cut}),{score_rng},"<"&{N}{r}),0)',
-                  "count")
+            g.set(r, c0 + 3, f"=IF({N}{r}<={cut},{Q}{r}-{nxt},IF({M}{r}>={cut},0,{Q}{r}-{at_cut}))", "count")
+            g.set(r, c0 + 4, f"={Q}{r}-{nxt}-{O}{r}", "count")
+            g.set(r, c0 + 5, f'=COUNTIF({score_rng},">="&{M}{r})', "count")
         last = first + len(edges) - 1
         self.distribution_rows = (first, last)
         g.charts.append((charts.score_distribution(charts.area("Impact", L, first, L, last),
@@ -938,7 +977,7 @@ class _Builder:
         if d.criterion is not None and self.success is not None and (~np.isnan(d.criterion)).any():
             c = d.criterion[~np.isnan(d.criterion)]
             base = float((c >= self.success).mean())
-            crit_rng = self.bands_range("I")
+            crit_rng = self.criterion_list[1] if self.criterion_list else self.bands_range("I")
             self.put(g, 6, 2, f'=COUNTIF({crit_rng},">="&{self.success_ref})/COUNT({crit_rng})', lambda: base,
                      style="input_coef", key="base_rate")
         else:
@@ -1114,17 +1153,26 @@ class _Builder:
                 ws.page_setup.fitToWidth = 1
                 ws.page_setup.fitToHeight = 0
                 ws.sheet_properties.pageSetUpPr.fitToPage = True
-                for row in self.bands_rows(ws):
-                    ws.append(row)
-                continue
+                ws.append([_styled(ws, h, "header") for h in self.bands_header])
+                continue  # the rows are spliced in by study_xml after saving
             self.grids[title].write(wb)
         self.grids[SETUP_SHEET].write(wb)
         ws = wb.create_sheet(self.d.sheet)
         ws.freeze_panes = "A2"
         ws.append([_styled(ws, h, "header") for h in self.d.header])
-        for row in self.d.rows:
-            ws.append(list(row))
         return wb
+
+    def save(self, path: Path):
+        """Write the workbook, then splice in the rows of the two long sheets (see :mod:`.study_xml`)."""
+        self.workbook().save(path)
+        d = self.d
+        last = d.n + 1
+        study_xml.splice_rows(
+            path,
+            {"Bands": lambda: study_xml.rows_xml(self.bands_rows(), 2, formulas=True),
+             d.sheet: lambda: study_xml.rows_xml(d.rows, 2, formulas=False)},
+            {"Bands": f"{get_column_letter(len(self.bands_header))}{last}",
+             d.sheet: f"{get_column_letter(max(1, len(d.header)))}{last}"})
 
 
 def _raise(message: str):
@@ -1134,8 +1182,8 @@ def _raise(message: str):
 def build_study(data: StudyData, path: str | Path) -> StudyResult:
     """Write the (not yet recalculated) study workbook for checked ``data`` to ``path``."""
     builder = _Builder(data)
-    wb = builder.build()
-    wb.save(path)
+    builder.plan()
+    builder.save(Path(path))
     return StudyResult(path=Path(path), cells=builder.cells, not_computable=builder.not_computable,
                        notes=builder.notes)
 

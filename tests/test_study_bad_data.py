@@ -96,6 +96,21 @@ def test_constant_item_is_not_computable_for_its_correlation(tmp_path):
     assert isinstance(cell(result, wb, "item2_total"), float)
 
 
+def test_constant_item_with_the_cheap_checks_of_large_data(tmp_path, monkeypatch):
+    from trueband.bridge import study_build
+
+    monkeypatch.setattr(study_build, "FULL_CHECK_CELLS", 0)  # behave as with a large data set
+    header, rows = small_table(n=40)
+    for r in rows:
+        r[2] = 1
+    result, wb = build(tmp_path, header, rows, SETUP)
+    v = cell(result, wb, "item1_total")
+    assert isinstance(v, str) and v.startswith(NOT_COMPUTABLE)
+    assert isinstance(cell(result, wb, "item2_total"), float)
+    assert isinstance(cell(result, wb, "omega"), float)
+    assert result.recalc_report.ok, [tuple(e) for e in result.recalc_report.errors]
+
+
 def test_blank_rows_and_blank_items(tmp_path):
     header, rows = small_table(n=40)
     rows[5][2:8] = [None] * 6   # a person with no answers: no score
