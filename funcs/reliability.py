@@ -43,7 +43,7 @@ import dataclasses
 from typing import Literal
 
 import numpy as np
-from scipy import optimize, stats
+from scipy import linalg, optimize, stats
 
 from . import _validate as v
 from ._validate import Range
@@ -88,23 +88,27 @@ def _items(name: str, items, *, min_people: int = 2, min_items: int = 2) -> np.n
     return v.complete_rows(name, matrix, min_rows=min_people, min_columns=min_items)
 
 
-def _centred(x: np.ndarray) -> np.ndarray:
-    # first pass: the means; the second pass works on deviations (see the module conventions)
-    c = x - x.mean(axis=0)
-    # a constant item is exactly constant: no rounding residue from its mean
-    c[:, x.min(axis=0) == x.max(axis=0)] = 0.0
-    return c
+def _magnitude(x: np.ndarray, axis=None):
+    """The largest absolute score (per item with ``axis=0``), for the rounding-noise allowance."""
+    return np.maximum(x.max(axis=axis), -x.min(axis=axis))
 
 
-def _alpha_from_centred(c: np.ndarray, magnitude: float, name: str, what: str = "total score") -> float:
-    """Coefficient alpha from centred item scores (denominators cancel; sums of squares are used)."""
-    n, k = c.shape
-    item_ss = np.einsum("ij,ij->j", c, c)
-    total = c.sum(axis=1)
-    total_ss = total @ total
+def _centred(x: np.ndarray, source) -> np.ndarray:
+    """Deviations from the item means: the first pass of the two-pass variances."""
+    means = x.mean(axis=0)
+    if isinstance(source, np.ndarray) and np.may_share_memory(x, source):
+        x = x.copy()  # never change the caller's array
+    # otherwise x is the fresh array numeric_matrix built: centre it in place, saving a copy
+    x -= means
+    return x
+
+
+def _alpha(item_ss_sum: float, total_ss: float, n: int, k: int, magnitude: float, name: str,
+           what: str = "total score") -> float:
+    """Coefficient alpha from sums of squared deviations (the variance denominators cancel)."""
     if _is_noise(total_ss, n, k, magnitude):
         raise ZeroVarianceError(f"{name}: the {what} has zero variance; alpha is undefined", argument=name)
-    return k / (k - 1) * (1.0 - item_ss.sum() / total_ss)
+    return k / (k - 1) * (1.0 - item_ss_sum / total_ss)
 
 
 def _correlation(a: np.ndarray, b: np.ndarray, terms: tuple[int, int], magnitude: float,
@@ -162,7 +166,11 @@ def cronbach_alpha(items: Range) -> float:
     0.948529
     """
     x = _items("items", items)
-    return _alpha_from_centred(_centred(x), np.abs(x).max(), "items")
+    n, k = x.shape
+    magnitude = _magnitude(x)
+    c = _centred(x, items)
+    total = c.sum(axis=1)
+    return _alpha(np.einsum("ij,ij->", c, c), total @ total, n, k, magnitude, "items")
 
 
 @spreadsheet("ALPHA_CI", returns="coefficient", elementwise=True,
@@ -360,7 +368,7 @@ def split_half(items: Range, method: Literal["odd-even", "first-last"] = "odd-ev
         cut = (k + 1) // 2
         first, second = x[:, :cut].sum(axis=1), x[:, cut:].sum(axis=1)
     halves = (k + 1) // 2, k // 2
-    r = _correlation(first, second, halves, np.abs(x).max(), "items",
+    r = _correlation(first, second, halves, _magnitude(x), "items",
                      "the first half-test score", "the second half-test score")
     if r <= -1.0:
         raise DomainError("items: the half-test scores correlate -1; the stepped-up coefficient is undefined",
@@ -458,7 +466,9 @@ def one_factor_ml(corr: np.ndarray) -> OneFactorFit:
     def parts(psi):
         # one eigen-decomposition gives the discrepancy, its gradient and the loadings
         s = 1.0 / np.sqrt(psi)
-        values, vectors = np.linalg.eigh(corr * s[:, None] * s[None, :])  # ascending
+        # LAPACK's MRRR driver (syevr): numpy's eigh (divide and conquer) is many times slower on
+        # these small matrices when the machine's cores are busy
+        values, vectors = linalg.eigh(corr * s[:, None] * s[None, :], driver="evr")  # ascending
         rest = values[:-1]
         f = float(np.sum(rest - np.log(rest)) - (p - 1))
         lam = np.sqrt(psi) * vectors[:, -1] * np.sqrt(max(values[-1] - 1.0, 0.0))
@@ -537,9 +547,10 @@ def omega_total(items: Range) -> float:
         raise InsufficientDataError(
             f"items needs at least 3 columns for a one-factor model, got {x.shape[1]}", argument="items")
     x = v.complete_rows("items", x, min_rows=x.shape[1] + 1, min_columns=3)
-    c = _centred(x)
+    magnitude = _magnitude(x, axis=0)
+    c = _centred(x, items)
     ss = np.einsum("ij,ij->j", c, c)
-    flat = _is_noise(ss, x.shape[0], 1, np.abs(x).max(axis=0))
+    flat = _is_noise(ss, x.shape[0], 1, magnitude)
     if flat.any():
         cols = [str(j + 1) for j in np.flatnonzero(flat)]
         which = f"item {cols[0]} has" if len(cols) == 1 else f"items {', '.join(cols)} have"
@@ -568,6 +579,12 @@ def omega_total(items: Range) -> float:
 
 
 # ---------------------------------------------------------------- item analysis
+
+def _rest_total(x: np.ndarray, j: int) -> np.ndarray:
+    """Row sums over every column but j: summed around it, not total minus item (no cancellation
+    when item j is much larger than the rest), and without copying the matrix."""
+    return x[:, :j].sum(axis=1) + x[:, j + 1:].sum(axis=1)
+
 
 def _item_and_rows(items, item, *, min_people: int, min_items: int):
     matrix = v.numeric_matrix("items", items)
@@ -637,8 +654,8 @@ def item_total_correlation(items: Range, item: int) -> float:
     0.992278
     """
     x, j = _item_and_rows(items, item, min_people=3, min_items=2)
-    rest = x.sum(axis=1) - x[:, j]
-    return _correlation(x[:, j], rest, (1, x.shape[1] - 1), np.abs(x).max(), "items",
+    rest = _rest_total(x, j)
+    return _correlation(x[:, j], rest, (1, x.shape[1] - 1), _magnitude(x), "items",
                         f"item {j + 1}", f"the total of the items other than {j + 1}")
 
 
@@ -667,5 +684,10 @@ def alpha_if_deleted(items: Range, item: int) -> float:
     0.846154
     """
     x, j = _item_and_rows(items, item, min_people=2, min_items=3)
-    rest = np.delete(x, j, axis=1)
-    return _alpha_from_centred(_centred(rest), np.abs(rest).max(), "items", f"total of the items other than {j + 1}")
+    n, k = x.shape
+    magnitude = _magnitude(x)
+    c = _centred(x, items)
+    item_ss = np.einsum("ij,ij->j", c, c)
+    rest = _rest_total(c, j)
+    return _alpha(np.delete(item_ss, j).sum(), rest @ rest, n, k - 1, magnitude, "items",
+                  f"total of the items other than {j + 1}")
