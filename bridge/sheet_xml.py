@@ -519,6 +519,9 @@ class NewCell:
 
 def _value_xml(value, has_formula: bool, prefix: bytes, ref: str) -> tuple[bytes | None, bytes]:
     """(t attribute value or None, inner XML for the value) of a cached value."""
+    if type(value) is float and value - value == 0.0:  # the common case: a finite float
+        text = repr(int(value)) if value.is_integer() and abs(value) < 1e16 else repr(value)
+        return None, b"<" + prefix + b"v>" + text.encode("ascii") + b"</" + prefix + b"v>"
     if value is None:
         return None, b""
     if isinstance(value, bool):
@@ -551,21 +554,36 @@ _T_ATTR = re.compile(rb' t="[^"]*"')
 _S_ATTR = re.compile(rb' s="[^"]*"')
 
 
+@functools.lru_cache(maxsize=16)
+def _attr_pattern(name: bytes):
+    return re.compile(rb" " + name + rb'="[^"]*"')
+
+
 def _set_attr(attrs: bytes, name: bytes, value: bytes | None) -> bytes:
     """Set or remove one attribute in raw attribute bytes, keeping the others and their order."""
-    pat = re.compile(rb" " + name + rb'="[^"]*"')
+    if name + b'="' not in attrs:
+        return attrs if value is None else attrs + b" " + name + b'="' + value + b'"'
+    pat = _attr_pattern(name)
     if value is None:
         return pat.sub(b"", attrs, count=1)
-    new = b" " + name + b'="' + value + b'"'
-    if pat.search(attrs):
-        return pat.sub(new.replace(b"\\", b"\\\\"), attrs, count=1)
-    return attrs + new
+    return pat.sub((b" " + name + b'="' + value + b'"').replace(b"\\", b"\\\\"), attrs, count=1)
 
 
 def _cell_xml(ref: str, attrs: bytes, body: bytes | None, update: CellUpdate, prefix: bytes, f_re) -> bytes:
     """New bytes of one cell element under ``update``; ``attrs`` are the raw attributes (with r)."""
-    fm = f_re.search(body) if body else None
-    f_xml = fm.group(0) if fm else None
+    f_xml = None
+    if body:
+        if body[:3] == b"<f>" or body[:3] == b"<f ":
+            # <f …/> (a shared dependent) or <f …>…</f>
+            k = body.find(b">")
+            if body[k - 1:k] == b"/":
+                f_xml = body[:k + 1]
+            else:
+                i = body.find(b"</f>")
+                f_xml = body[:i + 4] if i >= 0 else None
+        elif b"<" + prefix + b"f" in body:
+            fm = f_re.search(body)
+            f_xml = fm.group(0) if fm else None
     if update.formula_xml is not None:
         f_xml = update.formula_xml
     elif update.formula is not None:
@@ -573,12 +591,13 @@ def _cell_xml(ref: str, attrs: bytes, body: bytes | None, update: CellUpdate, pr
     if update.drop_formula:
         f_xml = None
     t, v_xml = _value_xml(update.value, f_xml is not None, prefix, ref)
-    attrs = _set_attr(attrs, b"t", t)
+    if t is not None or b't="' in attrs:
+        attrs = _set_attr(attrs, b"t", t)
     if update.style is not None:
         attrs = _set_attr(attrs, b"s", str(update.style).encode("ascii") if update.style else None)
     # extLst and other children after <v>/<is> are kept; the old value elements go.
     tail = b""
-    if body:
+    if body and b"extLst" in body:
         ext = body.find(b"<" + prefix + b"extLst")
         if ext >= 0:
             tail = body[ext:]
@@ -592,6 +611,13 @@ def _cell_xml(ref: str, attrs: bytes, body: bytes | None, update: CellUpdate, pr
 def _cell_pattern(prefix: bytes):
     p = re.escape(prefix)
     return re.compile(rb"<" + p + rb"c\b((?: [A-Za-z:]+=\"[^\"]*\")*?) ?(?:/>|>(.*?)</" + p + rb"c>)", re.S)
+
+
+@functools.lru_cache(maxsize=8)
+def _formula_cell_pattern(prefix: bytes):
+    # only the cells whose first child is <f>: the regex engine skips the others without a Python step
+    p = re.escape(prefix)
+    return re.compile(rb"<" + p + rb'c( r="([A-Z]{1,3}[0-9]+)"[^>/]*)><' + p + rb"f\b")
 
 
 _R_ATTR = re.compile(rb' r="([A-Z]{1,3}[0-9]+)"')
@@ -619,55 +645,69 @@ def patch_sheet(xml: bytes, updates: Mapping[str, CellUpdate]) -> bytes:
 
     Notes
     -----
-    Cells written without an ``r`` attribute cannot be addressed and are left alone.
-    A value written beside a kept formula gets the ``t`` its type needs
-    (``n`` implied, ``b``, ``str``, ``e``); a value without a formula that is
-    text is written as an inline string, so the shared-string part is not touched.
+    Formula cells (what a recalculation patches) are found by a pattern that
+    only stops at cells holding a formula; any other listed cell by a second
+    pass over all cells, made only when needed. Cells written without an
+    ``r`` attribute cannot be addressed and are left alone. A value written
+    beside a kept formula gets the ``t`` its type needs (``n`` implied, ``b``,
+    ``str``, ``e``); a value without a formula that is text is written as an
+    inline string, so the shared-string part is not touched.
     """
     if not updates:
         return xml
     start, end, prefix = sheet_data_span(xml)
-    cell_re = _cell_pattern(prefix)
     f_re = _f_pattern(prefix)
-    pending = dict(updates)
+    close = b"</" + prefix + b"c>"
+    by_bytes = {ref.encode("ascii"): ref for ref in updates}
+    get = by_bytes.pop
+    spans: list[tuple[int, int, bytes]] = []
     dropped_masters: dict[int, str] = {}
-    kept_shared: dict[int, str] = {}
-    pieces: list[bytes] = []
-    pos = start
-    want = pending.keys()
-    for m in cell_re.finditer(xml, start, end):
-        rm = _R_ATTR.match(m.group(1)) or _R_ATTR.search(m.group(1))
-        if rm is None:
+    for m in _formula_cell_pattern(prefix).finditer(xml, start, end):
+        ref = get(m.group(2), None)
+        if ref is None:
             continue
-        ref = rm.group(1).decode("ascii")
-        if ref not in want:
-            if b"si=" in (m.group(2) or b""):
-                _note_shared(m.group(2), ref, kept_shared, None)
-            continue
-        update = pending.pop(ref)
-        body = m.group(2)
-        if body and b"si=" in body:
-            _note_shared(body, ref, kept_shared if not update.drop_formula else None,
-                         dropped_masters if update.drop_formula else None)
-        pieces.append(xml[pos:m.start()])
-        pieces.append(_cell_xml(ref, m.group(1), body, update, prefix, f_re))
-        pos = m.end()
-        if not pending:
+        body_start = m.end() - len(prefix) - 2  # at "<f"
+        stop = xml.find(close, body_start)
+        body = xml[body_start:stop]
+        update = updates[ref]
+        if update.drop_formula and b"si=" in body[:200]:
+            _note_shared(body, ref, None, dropped_masters)
+        spans.append((m.start(), stop + len(close), _cell_xml(ref, m.group(1), body, update, prefix, f_re)))
+        if not by_bytes:
             break
-    if pending:
-        missing = sorted(pending, key=lambda r: split_ref(r))[:5]
-        raise SheetXmlError(f"cells not found in the sheet: {', '.join(missing)}"
+    if by_bytes:  # cells without a formula, or written in a form the first pattern does not take
+        for m in _cell_pattern(prefix).finditer(xml, start, end):
+            rm = _R_ATTR.match(m.group(1)) or _R_ATTR.search(m.group(1))
+            if rm is None:
+                continue
+            ref = get(rm.group(1), None)
+            if ref is None:
+                continue
+            update = updates[ref]
+            body = m.group(2)
+            if update.drop_formula and body and b"si=" in body:
+                _note_shared(body, ref, None, dropped_masters)
+            spans.append((m.start(), m.end(), _cell_xml(ref, m.group(1), body, update, prefix, f_re)))
+            if not by_bytes:
+                break
+    if by_bytes:
+        pending = sorted(by_bytes.values(), key=split_ref)
+        raise SheetXmlError(f"cells not found in the sheet: {', '.join(pending[:5])}"
                             + (" and more" if len(pending) > 5 else ""))
-    if dropped_masters:
-        for si, master in dropped_masters.items():
-            # cells before the master cannot share it; after it, the loop may have stopped early
-            tail_refs = _shared_users(xml[pos:end], si, prefix)
-            users = [r for r, s in kept_shared.items() if s == si] + tail_refs
-            if users:
-                raise SheetXmlError(f"cell {master} holds the shared formula that {users[0]} also uses; "
+    for si, master in dropped_masters.items():
+        for user in _shared_users(xml[start:end], si, prefix):
+            if user != master and not updates.get(user, CellUpdate()).drop_formula:
+                raise SheetXmlError(f"cell {master} holds the shared formula that {user} also uses; "
                                     f"replace the whole group of cells or none")
+    spans.sort()
+    pieces: list[bytes] = [xml[:spans[0][0]]]
+    pos = spans[0][0]
+    for a, b, new in spans:
+        pieces.append(xml[pos:a])
+        pieces.append(new)
+        pos = b
     pieces.append(xml[pos:])
-    return xml[:start] + b"".join(pieces)
+    return b"".join(pieces)
 
 
 _SI_ATTR = re.compile(rb'<(?:\w+:)?f\b[^>]*?\bt="shared"[^>]*?\bsi="([0-9]+)"|<(?:\w+:)?f\b[^>]*?\bsi="([0-9]+)"[^>]*?\bt="shared"')
@@ -687,14 +727,17 @@ def _note_shared(body: bytes, ref: str, kept: dict | None, dropped: dict | None)
 
 
 def _shared_users(xml: bytes, si: int, prefix: bytes) -> list[str]:
+    """Every cell that uses shared formula ``si`` (its master included)."""
     out = []
     for m in _cell_pattern(prefix).finditer(xml):
         body = m.group(2) or b""
+        if b"si=" not in body:
+            continue
         sm = _SI_ATTR.search(body)
         if sm and int(sm.group(1) or sm.group(2)) == si:
             rm = _R_ATTR.search(m.group(1))
-            out.append(rm.group(1).decode("ascii") if rm else "?")
-            break
+            if rm:
+                out.append(rm.group(1).decode("ascii"))
     return out
 
 
@@ -949,6 +992,13 @@ def translate_formula(text: str, rows: int, cols: int) -> str:
     return "".join(out)
 
 
+class _AnyStrings:
+    """A stand-in shared-string table for reads that only look at formula cells."""
+
+    def __getitem__(self, index):
+        return ""
+
+
 def unshare_formulas(xml: bytes, shared_strings: Sequence[str] = (), groups=None) -> bytes:
     """Rewrite shared formulas as one ordinary formula per cell (each with its own text); values are kept.
 
@@ -970,7 +1020,8 @@ def unshare_formulas(xml: bytes, shared_strings: Sequence[str] = (), groups=None
     """
     masters: dict[int, tuple[str, int, int]] = {}
     updates: dict[str, CellUpdate] = {}
-    for cell in iter_cells(xml, shared_strings):
+    # Formula cells never hold shared strings (a text result is t="str"), so other cells' strings are not needed.
+    for cell in iter_cells(xml, shared_strings if shared_strings else _AnyStrings()):
         f = cell.formula
         if f is None or f.kind != "shared" or f.shared_index is None:
             continue

@@ -357,3 +357,8 @@ def test_column_reader_names_a_bad_number():
     xml = gb.sheet_part([gb.row_xml(1, [gb.cell_xml("A1", 1)]), gb.row_xml(2, ['<c r="A2"><v>1,5</v></c>'])])
     with pytest.raises(SheetXmlError, match="A2"):
         sx.read_columns(xml)
+
+
+def test_unshare_without_the_shared_strings(forms):
+    _, xml, strings = forms
+    assert sx.unshare_formulas(xml) == sx.unshare_formulas(xml, strings)
