@@ -191,7 +191,8 @@ class _Builder:
         self.criterion_list = None
         # with large data the expensive range functions are not called twice (here and in the
         # recalculation); cheap numpy checks find the cases they would refuse
-        self.full_checks = data.n * max(len(data.item_columns), len(data.rating_columns), 1) <= FULL_CHECK_CELLS
+        self.full_checks = (data.n * max(len(data.item_columns), len(data.rating_columns), 1) <= FULL_CHECK_CELLS
+                            or _degenerate(data.items) or _degenerate(data.ratings))
 
     # -- helpers
 
@@ -1173,6 +1174,14 @@ class _Builder:
              d.sheet: lambda: study_xml.rows_xml(d.rows, 2, formulas=False)},
             {"Bands": f"{get_column_letter(len(self.bands_header))}{last}",
              d.sheet: f"{get_column_letter(max(1, len(d.header)))}{last}"})
+
+
+def _degenerate(x: np.ndarray | None) -> bool:
+    """Too few complete rows, or a column that does not vary: the range functions may refuse these."""
+    if x is None:
+        return False
+    complete = x[~np.isnan(x).any(axis=1)]
+    return complete.shape[0] < 3 or bool((np.ptp(complete, axis=0) == 0).any())
 
 
 def _raise(message: str):
