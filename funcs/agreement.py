@@ -63,6 +63,7 @@ __all__ = [
 ]
 
 _MODELS = ("oneway", "agreement", "consistency")
+_EPS = float(np.finfo(float).eps)
 _UNITS = ("single", "average")
 
 
@@ -115,7 +116,8 @@ def mean_squares(matrix: np.ndarray) -> dict[str, float]:
     ss_error = _sum_of_products(flat, flat)
     # Sums of squares below the rounding floor of the data are zero in exact arithmetic (e.g. residuals
     # of ratings that differ only by a rater constant); without this, F would be a huge artefact.
-    floor = n * k * (8.0 * np.finfo(float).eps * scale) ** 2
+    step = 8.0 * _EPS * scale
+    floor = n * k * step * step
     ss_rows, ss_cols, ss_within, ss_error = (0.0 if ss <= floor < math.inf else ss
                                              for ss in (ss_rows, ss_cols, ss_within, ss_error))
     return {
@@ -316,8 +318,10 @@ def _icc_from_mean_squares(ms: dict[str, float], n: int, k: int, model: str, uni
     else:
         a = k * rho / (n * (1 - rho))
         b = 1 + (n - 1) * a
-        nu_den = (a * msc) ** 2 / (k - 1) + (b * mse) ** 2 / ((n - 1) * (k - 1))
-        nu = _ratio((a * msc + b * mse) ** 2, nu_den)
+        # products, not ** 2: a Python float power raises on overflow where a product gives inf
+        am, bm = a * msc, b * mse
+        nu_den = am * am / (k - 1) + bm * bm / ((n - 1) * (k - 1))
+        nu = _ratio((am + bm) * (am + bm), nu_den)
         if not (math.isfinite(nu) and nu > 0):
             lower = upper = math.nan
         else:
