@@ -441,8 +441,8 @@ def cohen_kappa(rater_a: Range, rater_b: Range, weights: Literal["none", "linear
     -----
     Pairs where either rater is blank are dropped. Weighted kappa uses the
     distances between the category values themselves, so a scale point that
-    neither rater used still counts (ratings 1, 2 and 5 on a 1-5 scale are 3
-    apart between 2 and 5). With consecutive integer categories that all
+    neither rater used still counts (if only 1, 2 and 5 of a 1-5 scale occur,
+    2 and 5 are three steps apart, not one). With consecutive integer categories that all
     occur this equals the usual integer weights; tools that renumber only the
     observed categories give a different value when a scale point is unused.
     Kappa is undefined (``#DIV/0!``) when both raters gave everyone one and
