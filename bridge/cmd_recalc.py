@@ -5,13 +5,14 @@ from __future__ import annotations
 import difflib
 import sys
 import time
+from pathlib import Path
 
 from trueband.funcs.registry import NAME_PREFIXES, REGISTRY
 
 from .cli import EXIT_CELL_ERRORS, EXIT_FAILED, EXIT_OK
 
-#: Workbooks with at least this many formula cells show a progress bar (when stderr is a terminal).
-PROGRESS_THRESHOLD = 20_000
+#: Workbook files at least this large (bytes) show a progress bar (when stderr is a terminal).
+PROGRESS_THRESHOLD = 1_000_000
 #: Rows of the error table printed before "... and N more".
 TABLE_LIMIT = 50
 
@@ -68,6 +69,10 @@ def _recalc(args) -> int:
         print("trueband recalc: give either -o/--output or --in-place, not both", file=sys.stderr)
         return EXIT_FAILED
     progress = _Progress()
+    try:
+        progress.enabled = progress.enabled and Path(args.book).stat().st_size >= PROGRESS_THRESHOLD
+    except OSError:
+        progress.enabled = False  # a missing file is reported by recalculate
     try:
         report = recalculate(args.book, args.output, in_place=args.in_place, backup=args.backup,
                              all_formulas=args.all, values=args.values,

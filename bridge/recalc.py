@@ -28,8 +28,6 @@ from __future__ import annotations
 import array
 import dataclasses
 import math
-import os
-import sys
 import time
 from pathlib import Path
 from typing import Callable, Iterable
@@ -329,12 +327,9 @@ def _read_sheet(xml: bytes, strings) -> tuple[dict[int, _Collected], list[list],
     shared: dict[int, tuple[str, int, int, str]] = {}  # si → (text, row, col, key)
     templates: dict[int, tuple[int, KeyTemplate]] = {}  # column → (last row, template of its run)
     engine_value = _engine_value
-    for cell in sheet_xml.iter_cells(xml, strings):
-        f = cell.formula
-        value = cell.value
+    for ref, row, col, value, _, _, f in sheet_xml.iter_cells(xml, strings):
         if value is None and f is None:
             continue
-        row, col = cell.row, cell.col
         got = columns.get(col)
         if got is None:
             got = columns[col] = _Collected(row)
@@ -367,7 +362,7 @@ def _read_sheet(xml: bytes, strings) -> tuple[dict[int, _Collected], list[list],
             if f.kind == "shared" and f.shared_index is not None:
                 shared[f.shared_index] = (text, row, col, key)
             if f.kind == "array":
-                array_ref = f.ref or cell.ref
+                array_ref = f.ref or ref
         cur = open_runs.get(col)
         if cur is not None and cur[_LAST] == row - 1 and cur[_KEY] == key and array_ref is None \
                 and cur[_ARRAY] is None:
@@ -582,16 +577,17 @@ def evaluate_model(model: WorkbookModel, *, all_formulas: bool = False,
                 else:
                     store.write(run.sheet, run.col, run.first, result.values)
                     vectorised += run.size
-                    values = result.values
-                    if values.dtype == object:
-                        for i, v in enumerate(values.tolist()):
-                            record(run, run.first + i, run.col, v, result.problems.get(i))
-                    else:
-                        evaluated += run.size
-                        sheet_updates = updates.setdefault(run.sheet, {})
-                        letters = column_letters(run.col)
-                        for i, v in enumerate(values.tolist()):
-                            sheet_updates[f"{letters}{run.first + i}"] = v
+                    values = result.values.tolist()
+                    sheet_updates = updates.setdefault(run.sheet, {})
+                    letters = column_letters(run.col)
+                    first = run.first
+                    sheet_updates.update(zip([f"{letters}{first + i}" for i in range(run.size)], values))
+                    evaluated += run.size
+                    if result.values.dtype == object:
+                        # error values (and anything else not a plain cell value) are recorded one by one
+                        for i in [i for i, v in enumerate(values) if type(v) not in (float, str, bool)]:
+                            evaluated -= 1
+                            record(run, first + i, run.col, values[i], result.problems.get(i))
             done += run.size
         else:
             order, found = graph.cell_order(comp)
@@ -637,12 +633,14 @@ def _changes(model: WorkbookModel, updates: dict[str, dict[str, object]]):
     changes = PackageChanges()
     pkg = model.package
     for info in pkg.worksheets:
-        sheet_updates = updates.get(info.name)
+        sheet_updates = updates.pop(info.name, None)
         if not sheet_updates:
             continue
         xml = pkg.read(info.part)
-        changes.set(pkg, info.part, sheet_xml.patch_sheet(
-            xml, {ref: sheet_xml.CellUpdate(v) for ref, v in sheet_updates.items()}))
+        cell_update = sheet_xml.CellUpdate
+        patched = sheet_xml.patch_sheet(xml, {ref: cell_update(v) for ref, v in sheet_updates.items()})
+        del xml, sheet_updates
+        changes.set(pkg, info.part, patched)
     changes.keep_cached_values(pkg)
     return changes
 
