@@ -30,10 +30,10 @@ Conventions
   denominator matters it is stated; in ratios of variances (alpha, KR-20) it
   cancels.
 * A total score (or half score, or item) with zero variance gives ``#DIV/0!``.
-  "Zero" allows for rounding: a spread smaller than 64 machine epsilons times
-  the number of items summed times the largest score is rounding noise (a
-  column of 0.1s has a mean that is not exactly 0.1), and an item whose
-  scores are all equal is exactly constant.
+  "Zero" allows for rounding: a spread (root mean square deviation) smaller
+  than 64 machine epsilons times the number of items summed times the
+  largest absolute score is rounding noise, not spread (a column of 0.1s has
+  a computed mean that is not exactly 0.1, so its deviations are not exactly 0).
 * Too few complete rows or items gives ``#N/A``.
 """
 
@@ -248,8 +248,9 @@ def kuder_richardson_20(items: Range) -> float:
 
     Notes
     -----
-    Some textbooks divide Σpq by the total-score variance with denominator
-    n − 1, which gives a slightly smaller value than this (and than alpha).
+    Some textbooks and spreadsheet recipes divide Σpq by the total-score
+    variance with denominator n − 1 (VAR.S), which mixes denominators and
+    gives a slightly larger value than this (and than alpha).
 
     Examples
     --------
@@ -466,9 +467,9 @@ def one_factor_ml(corr: np.ndarray) -> OneFactorFit:
     def parts(psi):
         # one eigen-decomposition gives the discrepancy, its gradient and the loadings
         s = 1.0 / np.sqrt(psi)
-        # LAPACK's MRRR driver (syevr): numpy's eigh (divide and conquer) is many times slower on
-        # these small matrices when the machine's cores are busy
-        values, vectors = linalg.eigh(corr * s[:, None] * s[None, :], driver="evr")  # ascending
+        # scipy's LAPACK syevd: numpy's eigh was up to a hundred times slower on these small
+        # matrices when the machine's cores were busy (BLAS threads waiting on each other)
+        values, vectors = linalg.eigh(corr * s[:, None] * s[None, :], driver="evd")  # ascending
         rest = values[:-1]
         f = float(np.sum(rest - np.log(rest)) - (p - 1))
         lam = np.sqrt(psi) * vectors[:, -1] * np.sqrt(max(values[-1] - 1.0, 0.0))

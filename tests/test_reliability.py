@@ -129,7 +129,7 @@ def test_feldt_interval_against_pingouin():
 
 
 def test_feldt_interval_after_listwise_deletion_uses_the_people_kept():
-    # pingouin (0.5-0.7) takes n before dropping incomplete rows, so its listwise interval is not
+    # pingouin 0.7.0 takes n before dropping incomplete rows, so its listwise interval is not
     # like with like; compare with pingouin on the complete rows themselves.
     data = binary_with_blanks().dropna()
     alpha, (low, high) = pg.cronbach_alpha(data)
