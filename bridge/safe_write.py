@@ -44,6 +44,7 @@ from .xlsx_package import (
     UnusableWorkbook,
     WorkbookLocked,
     WorkbookPackage,
+    lock_file_of,
     open_workbook_package,
     rels_part_of,
 )
@@ -102,8 +103,9 @@ class PackageChanges:
         """Write ``data`` as ``part`` (replacing an existing part or adding a new one)."""
         self.remove.discard(part)
         if part in pkg:
-            if data == pkg.read(part):
-                self.replace.pop(part, None)  # unchanged after all: copy the original
+            # unchanged after all: copy the original (sizes first, so a large part is rarely read again)
+            if pkg.infos[part].file_size == len(data) and data == pkg.read(part):
+                self.replace.pop(part, None)
             else:
                 self.replace[part] = data
         else:
@@ -381,6 +383,10 @@ def save_workbook(pkg: WorkbookPackage, changes: PackageChanges, *, output: str 
             raise OutputRefused(f"{dest} exists already; remove it, choose another output, or allow overwriting")
         if pkg.is_macro_enabled and dest.suffix.lower() == ".xlsx" and src.suffix.lower() == ".xlsm":
             raise OutputRefused(f"{src.name} holds macros; the output must end in .xlsm, not {dest.name}")
+        lock = lock_file_of(dest) if dest.exists() else None
+        if lock is not None:
+            raise WorkbookLocked(f"{dest.name} is open in another program (lock file {lock.name} beside it); "
+                                 f"close it there first, or choose another output", path=dest)
     folder = dest.parent
     _remove_stale_temps(folder, dest)
     temp = folder / f"{TEMP_PREFIX}{dest.name}-{uuid.uuid4().hex[:12]}.tmp"

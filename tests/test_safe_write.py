@@ -294,3 +294,14 @@ def test_libreoffice_recomputes_shared_formulas(tmp_path, soffice):
         out = save_workbook(pkg, changes)
     shown = gb.libreoffice_csv(soffice, out, tmp_path / "csv2")["S"]
     assert [gb.csv_cell(shown, f"B{r}") for r in (1, 2, 3)] == ["6", "7", "8"]
+
+
+def test_an_output_open_in_another_program_is_not_replaced(features):
+    with open_workbook_package(features) as pkg:
+        first = save_workbook(pkg, band_changes(pkg))
+        before = digest(first)
+        lock = first.with_name(f".~lock.{first.name}#")
+        lock.write_text("someone,host,host,01.03.2026 09:30,file:///home/someone;")
+        with pytest.raises(WorkbookLocked, match="open in another program"):
+            save_workbook(pkg, band_changes(pkg), overwrite=True)
+    assert digest(first) == before
