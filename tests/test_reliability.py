@@ -455,3 +455,27 @@ def test_column_path_of_the_scalar_functions_matches_single_calls():
     alphas = [0.5, 0.7, 0.9]
     assert call_column("ALPHA_CI", {"alpha": alphas}, {"n_people": 50, "n_items": 8, "part": "lower"}) == \
         [pytest.approx(call("ALPHA_CI", a, 50, 8, "lower")) for a in alphas]
+
+
+def test_item_functions_leave_the_callers_array_alone():
+    # The matrix is centred in place for speed; the caller's own array must never change (common practice).
+    rng = np.random.default_rng(12)
+    x = np.round(rng.normal(3, 1, size=(60, 6)))
+    before = x.copy()
+    for name, extra in [("CRONBACH_ALPHA", ()), ("OMEGA", ()), ("ALPHA_IF_DELETED", (2,)), ("ITEM_TOTAL", (3,)),
+                        ("SPLIT_HALF", ()), ("ITEM_DIFFICULTY", (1,))]:
+        call(name, x, *extra)
+        np.testing.assert_array_equal(x, before, err_msg=name)
+
+
+def test_item_total_and_alpha_if_deleted_with_one_item_on_a_far_larger_scale():
+    # The rest total is summed around the item, not taken as total minus item, so an item scored
+    # in the millions does not wash out the others; reference: pandas and pingouin on the same data.
+    rng = np.random.default_rng(13)
+    t = rng.normal(size=(400, 1))
+    x = pd.DataFrame(np.hstack([t * 1e6 + 5e7 + rng.normal(size=(400, 1)) * 1e6,
+                                np.round(3 + t + rng.normal(size=(400, 4)), 1)]))
+    rest = x.drop(columns=0).sum(axis=1)
+    assert call("ITEM_TOTAL", x.to_numpy(), 1) == pytest.approx(x[0].corr(rest), rel=1e-9)
+    assert call("ALPHA_IF_DELETED", x.to_numpy(), 1) == pytest.approx(pg.cronbach_alpha(x.drop(columns=0))[0],
+                                                                     rel=1e-9)
