@@ -40,7 +40,6 @@ from __future__ import annotations
 import dataclasses
 import math
 import numbers
-import zipfile
 from pathlib import Path
 from typing import Any, Iterable, Mapping
 
@@ -166,26 +165,46 @@ class StudyData:
 
 # ---------------------------------------------------------------- reading the workbook
 
-def _open(path: Path):
-    from openpyxl import load_workbook
+class _Book:
+    """The sheets of a workbook package as grids of cached values, read with the package layer
+    (:mod:`.xlsx_package`, :mod:`.sheet_xml`): a formula cell gives its stored value, as a
+    spreadsheet app shows it; dates are their serial numbers."""
 
-    if not path.exists():
-        raise SetupError(f"{path} does not exist")
-    if path.suffix.lower() not in (".xlsx", ".xlsm"):
-        raise SetupError(f"{path.name} is not an .xlsx workbook (save it as .xlsx first)")
-    try:
-        with zipfile.ZipFile(path) as z:
-            if sum(i.file_size for i in z.infolist()) > _MAX_INPUT_BYTES:
-                raise SetupError(f"{path.name} unpacks to more than 2 GB; refusing to read it")
-    except zipfile.BadZipFile:
-        raise SetupError(f"{path.name} is not a readable .xlsx workbook (not a zip package; encrypted or "
-                         f"an old .xls saved under a new name?)") from None
-    try:
-        return load_workbook(path, read_only=True, data_only=True)
-    except SetupError:
-        raise
-    except Exception as exc:  # openpyxl raises many kinds for damaged packages
-        raise SetupError(f"{path.name} cannot be read as a workbook: {exc}") from None
+    def __init__(self, path: Path):
+        from .xlsx_package import UnusableWorkbook, open_workbook_package
+
+        if not path.exists():
+            raise SetupError(f"{path} does not exist")
+        if path.suffix.lower() not in (".xlsx", ".xlsm"):
+            raise SetupError(f"{path.name} is not an .xlsx workbook (save it as .xlsx first)")
+        try:
+            self.pkg = open_workbook_package(path, check_lock=False, max_total=_MAX_INPUT_BYTES)
+        except UnusableWorkbook as exc:
+            raise SetupError(str(exc)) from None
+        self.sheetnames = [s.name for s in self.pkg.worksheets]
+
+    def close(self):
+        self.pkg.close()
+
+    def rows(self, name: str, *, max_col: int | None = None) -> list[list]:
+        """Every row from row 1 to the last one with a cell, each as long as the widest row."""
+        from .sheet_xml import SheetXmlError, read_columns
+
+        try:
+            cols = read_columns(self.pkg.sheet_xml(name), self.pkg.shared_strings).columns
+        except SheetXmlError as exc:
+            raise SetupError(f"sheet '{name}' cannot be read: {exc}") from None
+        cols = {c: v for c, v in cols.items() if max_col is None or c <= max_col}
+        if not cols:
+            return []
+        n_rows = max(rows[-1] for rows, _ in cols.values() if rows)
+        width = max(cols)
+        grid = [[None] * width for _ in range(n_rows)]
+        for c, (rows, values) in cols.items():
+            j = c - 1
+            for r, v in zip(rows, values):
+                grid[r - 1][j] = v
+        return grid
 
 
 def _cell_text(value) -> str | None:
@@ -197,14 +216,14 @@ def _cell_text(value) -> str | None:
     return text or None
 
 
-def _read_setup_sheet(wb) -> tuple[dict[str, Any], dict[str, str]]:
+def _read_setup_sheet(wb: _Book) -> tuple[dict[str, Any], dict[str, str]]:
     """Settings from the Setup sheet: field -> raw value, field -> 'Setup!B7'."""
     sheet = next((n for n in wb.sheetnames if n.strip().lower() == SETUP_SHEET.lower()), None)
     if sheet is None:
         return {}, {}
     values, where = {}, {}
     started = False
-    for r, row in enumerate(wb[sheet].iter_rows(min_row=1, max_col=2, values_only=True), start=1):
+    for r, row in enumerate(wb.rows(sheet, max_col=2), start=1):
         key = _cell_text(row[0]) if row else None
         if key is None:
             if started:
@@ -343,7 +362,7 @@ def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None
     Raises :class:`SetupError` with a message naming the setting, column and sheet.
     """
     path = Path(path)
-    wb = _open(path)
+    wb = _Book(path)
     try:
         values, where = _read_setup_sheet(wb)
         setup = _setup_from_values(values, where).merged(dict(overrides or {}))
@@ -358,22 +377,18 @@ def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None
             raise SetupError(f"data sheet: no sheet named {sheet!r} in {path.name} (its sheets: "
                              f"{', '.join(wb.sheetnames)})")
         sheet = match
-        rows_iter = wb[sheet].iter_rows(values_only=True)
-        first = next(rows_iter, None)
-        header = [_cell_text(h) for h in first] if first else []
-        if not any(header):
-            raise SetupError(f"sheet '{sheet}' is empty: row 1 must hold the column headers")
-        while header and header[-1] is None:
-            header.pop()
-        width = len(header)
-        rows = []
-        for row in rows_iter:
-            row = tuple(row[:width]) + (None,) * (width - len(row))
-            rows.append(row)
-        while rows and all(c is None or (isinstance(c, str) and not c.strip()) for c in rows[-1]):
-            rows.pop()
+        grid = wb.rows(sheet)
     finally:
         wb.close()
+    header = [_cell_text(h) for h in grid[0]] if grid else []
+    if not any(header):
+        raise SetupError(f"sheet '{sheet}' is empty: row 1 must hold the column headers")
+    while header and header[-1] is None:
+        header.pop()
+    width = len(header)
+    rows = [tuple(row[:width]) for row in grid[1:]]
+    while rows and all(c is None or (isinstance(c, str) and not c.strip()) for c in rows[-1]):
+        rows.pop()
     if not rows:
         raise SetupError(f"sheet '{sheet}' has a header row but no data rows below it")
     return _check(setup, path, sheet, header, rows)

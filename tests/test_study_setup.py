@@ -146,7 +146,7 @@ def test_data_sheet_named_like_an_analysis_sheet(tmp_path):
 def test_not_a_workbook(tmp_path):
     fake = tmp_path / "d.xlsx"
     fake.write_text("id,score\n1,2\n")
-    refuse(tmp_path, fake, r"not a readable \.xlsx workbook")
+    refuse(tmp_path, fake, r"d.xlsx is not an \.xlsx or \.xlsm workbook")
     csv = tmp_path / "d.csv"
     csv.write_text("id,score\n")
     refuse(tmp_path, csv, r"not an \.xlsx workbook")
