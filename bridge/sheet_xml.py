@@ -160,10 +160,10 @@ def _patterns(prefix: bytes):
         # 3. any other cell element
         rb"|<" + p + rb"c\b([^>]*?)(?:/>|>(.*?)</" + p + rb"c>)",
         re.S)
-    content = re.compile(
-        rb"(?:<" + p + rb"f\b([^>]*?)(?:/>|>(.*?)</" + p + rb"f>))?"
-        rb"(?:<" + p + rb"v(?: [^>]*)?(?:/>|>(.*?)</" + p + rb"v>))?"
-        rb"(?:<" + p + rb"is>(.*?)</" + p + rb"is>)?",
+    content = re.compile(  # whitespace between the children is allowed (pretty-printed parts)
+        rb"\s*(?:<" + p + rb"f\b([^>]*?)(?:/>|>(.*?)</" + p + rb"f>))?"
+        rb"\s*(?:<" + p + rb"v(?: [^>]*)?(?:/>|>(.*?)</" + p + rb"v>))?"
+        rb"\s*(?:<" + p + rb"is>(.*?)</" + p + rb"is>)?",
         re.S)
     text_run = re.compile(rb"<" + p + rb"t\b[^>]*?(?:/>|>(.*?)</" + p + rb"t>)", re.S)
     phonetic = re.compile(rb"<" + p + rb"rPh\b.*?</" + p + rb"rPh>", re.S)
