@@ -217,12 +217,19 @@ def best_of(fn, repeat=3) -> float:
     return best
 
 
-def measure_limits(limits: dict) -> None:
+def timed_post(client, route, body) -> tuple[float, int]:
+    data = json.dumps(body).encode()
+    t0 = time.perf_counter()
+    resp = client.post(route, data=data, content_type="application/json")
+    resp.get_data()
+    return time.perf_counter() - t0, resp.status_code
+
+
+def measure_limits(limits: dict, worst_of: int = 6) -> None:
     rng = random.Random(11)
     cells, calls, rows = limits["MAX_CELLS"], limits["MAX_BATCH_CALLS"], limits["MAX_COLUMN_ROWS"]
-    piece_rows = limits["COLUMN_PIECE_ROWS"]
-    print(f"limits: MAX_CELLS {cells}, MAX_BATCH_CALLS {calls}, MAX_COLUMN_ROWS {rows}, "
-          f"COLUMN_PIECE_ROWS {piece_rows}, TIME_BUDGET_SECONDS {limits['TIME_BUDGET_SECONDS']}")
+    print("limits: " + ", ".join(f"{k} {v}" for k, v in limits.items()), flush=True)
+    client = create_app().test_client()
     table, missing = [], []
     for name in sorted(REGISTRY):
         fn = REGISTRY[name]
@@ -230,9 +237,9 @@ def measure_limits(limits: dict) -> None:
         if args is None:
             missing.append(name)
             continue
-        one = best_of(lambda: fn(*args), 5)
-        row = {"name": name, "call": one, "batch": one * calls, "range": None, "column": None, "worst": None}
-        if shapes:
+        print(f"  {name:<24}", end="", flush=True)
+        row = {"name": name, "call": best_of(lambda: fn(*args), 5), "range": None, "worst": None}
+        if shapes:  # one call, its ranges scaled up to the cell limit along rows, then along columns
             nrng = np.random.default_rng(3)
             worst = 0.0
             for axis in ("rows", "columns"):
@@ -241,45 +248,49 @@ def measure_limits(limits: dict) -> None:
                     if a.name in shapes:
                         kind, r, c = shapes[a.name]
                         share = cells // len(shapes)
-                        if axis == "rows":
-                            r, c = max(1, share // c), c
-                        elif c > 1:
-                            r, c = r, max(1, share // r)
-                        else:
-                            continue
+                        r, c = (max(1, share // c), c) if axis == "rows" else (r, max(1, share // r))
                         big[i] = make_range(kind, r, c, nrng)
-                try:
-                    worst = max(worst, best_of(lambda: fn(*big), 1))
-                except TruebandError as exc:
-                    worst = max(worst, best_of(lambda: _swallow(fn, big), 1))
-                    row.setdefault("note", f"refused at scale: {exc.code}")
+                worst = max(worst, best_of(lambda: _swallow(fn, big), 1))
             row["range"] = worst
-        if fn.elementwise:
-            varying = [a.name for a in fn.arguments if a.name in fn.elementwise][:2]
-            named = {a.name: v for a, v in zip(fn.arguments, args)}
-            same = {k: v for k, v in named.items() if k not in varying}
-            good = {k: [named[k]] * rows for k in varying}
-            bad = {k: [named[k] if i % 2 else (-1e9 if i % 4 else "x") for i in range(rows)] for k in varying}
-            row["column"] = best_of(lambda: call_column(name, good, same), 1)
-            row["worst"] = best_of(lambda: call_column(name, bad, same), 1)
-        else:
-            row["column"] = one * piece_rows  # one piece of one-by-one rows between budget checks
+        row["batch"] = timed_post(client, "/v1/batch", {"calls": [{"function": name, "args": args}] * calls})
+        named = {a.name: v for a, v in zip(fn.arguments, args)}
+        varying = [a.name for a in fn.arguments if a.name in fn.elementwise][:2] or \
+            [next((a.name for a in fn.arguments if a.kind != "range"), fn.arguments[0].name)]
+        same = {k: v for k, v in named.items() if k not in varying}
+        row["varying"] = varying
+        row["column"] = timed_post(client, "/v1/column", {"function": name, "each": {k: [named[k]] * rows
+                                                                                     for k in varying}, "same": same})
         table.append(row)
+        print(f"call {row['call'] * 1e3:7.3f} ms  range {row['range'] or 0:6.3f} s  batch {row['batch'][0]:6.3f} s"
+              f"  column {row['column'][0]:6.3f} s ({row['column'][1]})", flush=True)
+
+    # The column's worst case: every other row invalid (half of them text), so the array path splits
+    # blocks down to single rows; timed for the functions whose single call is slowest.
+    print(f"worst-case columns of {rows} rows (every other row invalid), the {worst_of} slowest functions:")
+    for row in sorted(table, key=lambda r: -r["call"])[:worst_of]:
+        named = dict(zip([a.name for a in REGISTRY[row["name"]].arguments], find_arguments(
+            REGISTRY[row["name"]], random.Random(11))[0] or []))
+        if not named:
+            continue
+        same = {k: v for k, v in named.items() if k not in row["varying"]}
+        bad = {k: [named[k] if i % 2 else (-1e9 if i % 4 else "x") for i in range(rows)] for k in row["varying"]}
+        row["worst"] = timed_post(client, "/v1/column", {"function": row["name"], "each": bad, "same": same})
+        print(f"  {row['name']:<24} {row['worst'][0]:6.3f} s (status {row['worst'][1]})", flush=True)
 
     def top(key, label, n=5):
-        ranked = sorted((r for r in table if r[key] is not None), key=lambda r: -r[key])[:n]
+        ranked = sorted((r for r in table if r[key] is not None),
+                        key=lambda r: -(r[key][0] if isinstance(r[key], tuple) else r[key]))[:n]
         print(f"  {label}:")
         for r in ranked:
-            note = f"  ({r['note']})" if key == "range" and "note" in r else ""
-            print(f"    {r['name']:<24} {r[key]:8.3f} s{note}")
+            t, status = r[key] if isinstance(r[key], tuple) else (r[key], None)
+            print(f"    {r['name']:<24} {t:8.3f} s" + (f" (status {status})" if status else ""))
 
-    print(f"{len(table)} functions measured" + (f"; no working arguments found for: {', '.join(missing)}"
+    print(f"slowest of {len(table)} functions" + (f"; no working arguments found for: {', '.join(missing)}"
                                                  if missing else ""))
-    top("call", "one small call (slowest)")
-    top("range", f"one call with its ranges scaled to {cells} cells (by rows, or by columns)")
-    top("batch", f"a batch of {calls} small calls (one call's time x {calls})")
-    top("column", f"a column of {rows} rows, all valid (vectorised), or one piece of {piece_rows} one-by-one rows")
-    top("worst", f"a column of {rows} rows, every other row invalid (vectorised functions)")
+    top("call", "one small call")
+    top("range", f"one call with its ranges scaled to {cells} cells")
+    top("batch", f"a batch of {calls} small calls, through the app")
+    top("column", f"a column of {rows} valid rows, through the app")
 
 
 def _swallow(fn, args):

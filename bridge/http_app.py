@@ -60,9 +60,13 @@ DEFAULT_LIMITS = {
     "MAX_CELLS": 200_000,                # cells in all ranges of one request together
     "MAX_BATCH_CALLS": 1_000,            # calls in one /v1/batch
     "MAX_COLUMN_ROWS": 200_000,          # rows in one /v1/column
-    "TIME_BUDGET_SECONDS": 5.0,          # computing time of one batch or column, checked between pieces
-    "COLUMN_PIECE_CELLS": 1_000_000,     # a column is computed in pieces of about this many cell-evaluations
-    "COLUMN_PIECE_ROWS": 1_000,          # ... and of at most this many rows where each row is its own call
+    "TIME_BUDGET_SECONDS": 3.0,          # computing time of one batch or column, checked between pieces
+    # A column is computed in pieces, the time budget checked between them: at most this many rows
+    # on the array path, this many where each row is its own call, and at most this many
+    # cell-evaluations of a shared range (rows x its cells).
+    "COLUMN_PIECE_ROWS": 10_000,
+    "COLUMN_PIECE_ROWS_ONE_BY_ONE": 500,
+    "COLUMN_PIECE_CELLS": 1_000_000,
 }
 
 #: Protocol errors (not a function's error): code word and HTTP status.
@@ -296,9 +300,10 @@ def column_route():
 
     # A column is computed in pieces, so one request cannot hold a worker past the time budget even
     # where every row must be called on its own with a large shared range.
-    piece = max(1, current_app.config["COLUMN_PIECE_CELLS"] // (1 + same_cells))
-    if not set(each) <= fn.elementwise:  # call_column then makes one Python call per row
-        piece = min(piece, current_app.config["COLUMN_PIECE_ROWS"])
+    cfg = current_app.config
+    one_by_one = not set(each) <= fn.elementwise  # call_column then makes one Python call per row
+    piece = min(cfg["COLUMN_PIECE_ROWS_ONE_BY_ONE" if one_by_one else "COLUMN_PIECE_ROWS"],
+                max(1, cfg["COLUMN_PIECE_CELLS"] // (1 + same_cells)))
     start = time.perf_counter()
     values: list = []
     for lo in range(0, rows, piece):
