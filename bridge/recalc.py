@@ -40,6 +40,7 @@ from .column_eval import (EMPTY, CellProblem, VectorUnsupported, error_value, ev
                           evaluate_run, registered_name)
 from .formula_graph import (MAX_ROW, Compiled, FormulaGraph, FormulaSyntaxError, KeyTemplate, Node, Ref, Run,
                             column_letters, compile_formula, split_address)
+from .values_mode import uses_registered_function
 from .xlsx_package import UnusableWorkbook, WorkbookPackage, open_workbook_package
 
 __all__ = ["recalculate", "RecalcReport", "CellError", "WorkbookModel", "load_model", "evaluate_model",
@@ -134,21 +135,27 @@ class CellStore:
         self.max_row: dict[str, int] = {}
         self._areas: dict[tuple, np.ndarray] = {}
 
-    def add_sheet(self, name: str, columns: dict[int, "_Collected"]):
+    def add_sheet(self, name: str, columns: dict[int, tuple[list[int], list]]):
+        """Add a sheet from the package reader's columns (``{col: (rows, values)}``, rows ascending)."""
         cols = {}
         top = 0
-        for c, got in columns.items():
-            size = got.last + 1
+        for c, (rows, values) in columns.items():
+            if not rows:
+                continue
+            size = rows[-1] + 1
             col = _Column(size)
-            if got.num_rows:
-                r = np.frombuffer(got.num_rows, dtype=np.int64)
-                col.num[r] = np.frombuffer(got.num_values, dtype=float)
+            r = np.asarray(rows, dtype=np.int64)
+            if all(type(v) is float for v in values):
+                col.num[r] = values
                 col.kind[r] = _KIND_NUMBER
-            for row, v in zip(got.other_rows, got.other_values):
-                if v is not EMPTY:
-                    col.num[row] = np.nan
-                    col.other[row] = v
-                    col.kind[row] = _KIND_OTHER
+            else:
+                for row, v in zip(rows, values):
+                    if type(v) is float:
+                        col.num[row] = v
+                        col.kind[row] = _KIND_NUMBER
+                    elif v is not None:
+                        col.other[row] = _engine_value(v)
+                        col.kind[row] = _KIND_OTHER
             cols[c] = col
             top = max(top, size - 1)
         self.sheets[name] = cols
@@ -158,6 +165,13 @@ class CellStore:
     def _sheet(self, sheet: str):
         name = self.names.get(sheet.casefold())
         return None if name is None else self.sheets[name]
+
+    def has_blank(self, sheet: str, col: int, r1: int, r2: int) -> bool:
+        """Whether any of rows r1..r2 of a column is blank (for formula cells: has no cached value)."""
+        c = self._sheet(sheet).get(col)
+        if c is None or r2 >= c.kind.size:
+            return True
+        return bool((c.kind[r1:r2 + 1] == _KIND_BLANK).any())
 
     def canonical(self, sheet: str) -> str | None:
         return self.names.get(sheet.casefold())
@@ -287,19 +301,6 @@ class CellStore:
 
 # ---------------------------------------------------------------- reading the workbook
 
-class _Collected:
-    """One column's cells as read: numbers in compact arrays, anything else in lists."""
-
-    __slots__ = ("num_rows", "num_values", "other_rows", "other_values", "first", "last")
-
-    def __init__(self, row: int):
-        self.num_rows = array.array("q")
-        self.num_values = array.array("d")
-        self.other_rows: list[int] = []
-        self.other_values: list = []
-        self.first = self.last = row
-
-
 @dataclasses.dataclass
 class WorkbookModel:
     """A workbook read for evaluation: its cell values, formula runs and their graph."""
@@ -311,36 +312,27 @@ class WorkbookModel:
     cached_missing: set[int]  # runs with a cell that has no cached value
     unreadable: dict[tuple[str, int, int], str]  # formula cells the parser cannot read → message
     used: dict[str, tuple[int, int, int, int] | None]
+    shared_groups: dict[str, set[int]]  # per sheet, the shared formulas that call registered functions
     formula_count: int = 0
 
 
 # A run while reading: [column, first row, last row, key, formula text, (row, col) of the text,
-# some cell has no cached value, array formula range]
-_COL, _FIRST, _LAST, _KEY, _TEXT, _AT, _MISSING, _ARRAY = range(8)
+# (unused), array formula range]
+_COL, _FIRST, _LAST, _KEY, _TEXT, _AT, _ARRAY = 0, 1, 2, 3, 4, 5, 7
 
 
-def _read_sheet(xml: bytes, strings) -> tuple[dict[int, _Collected], list[list], tuple | None]:
-    """Cell values by column, formula runs (filled-down cells recognised by :class:`KeyTemplate`), used range."""
-    columns: dict[int, _Collected] = {}
+def _read_sheet(xml: bytes, strings) -> tuple[dict, list[list], tuple | None, set[int]]:
+    """Cell values by column, formula runs (filled-down cells recognised by :class:`KeyTemplate`), the used
+    range, and the shared-formula groups that call registered functions."""
+    sheet = sheet_xml.read_columns(xml, strings)
+    columns = sheet.columns
     runs: list[list] = []
     open_runs: dict[int, list] = {}
     shared: dict[int, tuple[str, int, int, str]] = {}  # si → (text, row, col, key)
+    registered_groups: set[int] = set()
     templates: dict[int, tuple[int, KeyTemplate]] = {}  # column → (last row, template of its run)
-    engine_value = _engine_value
-    for ref, row, col, value, _, _, f in sheet_xml.iter_cells(xml, strings):
-        if value is None and f is None:
-            continue
-        got = columns.get(col)
-        if got is None:
-            got = columns[col] = _Collected(row)
-        got.last = row
-        if type(value) is float:
-            got.num_rows.append(row)
-            got.num_values.append(value)
-        elif value is not None:
-            got.other_rows.append(row)
-            got.other_values.append(engine_value(value))
-        if f is None or f.kind == "dataTable":
+    for row, col, f in sheet.formulas:
+        if f.kind == "dataTable":
             continue
         array_ref = None
         if f.kind == "shared" and f.text is None:
@@ -361,23 +353,24 @@ def _read_sheet(xml: bytes, strings) -> tuple[dict[int, _Collected], list[list],
             at = (row, col)
             if f.kind == "shared" and f.shared_index is not None:
                 shared[f.shared_index] = (text, row, col, key)
+                if uses_registered_function(text):
+                    registered_groups.add(f.shared_index)
             if f.kind == "array":
-                array_ref = f.ref or ref
+                array_ref = f.ref or f"{column_letters(col)}{row}"
         cur = open_runs.get(col)
         if cur is not None and cur[_LAST] == row - 1 and cur[_KEY] == key and array_ref is None \
                 and cur[_ARRAY] is None:
             cur[_LAST] = row
-            if value is None:
-                cur[_MISSING] = True
         else:
-            cur = [col, row, row, key, text, at, value is None, array_ref]
+            cur = [col, row, row, key, text, at, False, array_ref]
             runs.append(cur)
             open_runs[col] = cur
     used = None
-    if columns:
-        used = (min(g.first for g in columns.values()), min(columns), max(g.last for g in columns.values()),
-                max(columns))
-    return columns, runs, used
+    nonempty = {c: rows for c, (rows, _) in columns.items() if rows}
+    if nonempty:
+        used = (min(r[0] for r in nonempty.values()), min(nonempty), max(r[-1] for r in nonempty.values()),
+                max(nonempty))
+    return columns, runs, used, registered_groups
 
 
 def _name_compiler(package: WorkbookPackage):
@@ -431,18 +424,20 @@ def load_model(package: WorkbookPackage, progress: Callable[[str, float], None] 
     names = _name_compiler(package)
     compiled_cache: dict[tuple[str, str], Compiled | str] = {}
     used: dict[str, tuple | None] = {}
+    shared_groups: dict[str, set[int]] = {}
     total = 0
     sheets = package.worksheets
     for k, info in enumerate(sheets):
         xml = package.read(info.part)
         try:
-            columns, sheet_runs, used_range = _read_sheet(xml, strings)
+            columns, sheet_runs, used_range, groups = _read_sheet(xml, strings)
         except sheet_xml.SheetXmlError as exc:
             raise UnusableWorkbook(f"{package.path.name}: sheet {info.name!r}: {exc}", path=package.path) from None
         del xml
         store.add_sheet(info.name, columns)
         del columns
         used[info.name] = used_range
+        shared_groups[info.name] = groups
         for r in sheet_runs:
             if r[_ARRAY] is not None:
                 a, _, b = r[_ARRAY].partition(":")
@@ -463,13 +458,13 @@ def load_model(package: WorkbookPackage, progress: Callable[[str, float], None] 
                 for row in range(r[_FIRST], r[_LAST] + 1):
                     unreadable[(info.name, row, r[_COL])] = comp
                 continue
-            if r[_MISSING]:
+            if store.has_blank(info.name, r[_COL], r[_FIRST], r[_LAST]):  # a formula without a cached value
                 missing.add(len(runs))
             runs.append(Run(info.name, r[_COL], r[_FIRST], r[_LAST], comp, array_ref=r[_ARRAY]))
         if progress:
             progress("reading", (k + 1) / len(sheets))
     graph = FormulaGraph(runs)
-    return WorkbookModel(package, store, runs, graph, missing, unreadable, used, total)
+    return WorkbookModel(package, store, runs, graph, missing, unreadable, used, shared_groups, total)
 
 
 # ---------------------------------------------------------------- evaluating
@@ -638,8 +633,14 @@ def _changes(model: WorkbookModel, updates: dict[str, dict[str, object]]):
             continue
         xml = pkg.read(info.part)
         cell_update = sheet_xml.CellUpdate
-        patched = sheet_xml.patch_sheet(xml, {ref: cell_update(v) for ref, v in sheet_updates.items()})
+        for ref, v in sheet_updates.items():  # in place: a full-height sheet has millions of them
+            sheet_updates[ref] = cell_update(v)
+        patched = sheet_xml.patch_sheet(xml, sheet_updates)
         del xml, sheet_updates
+        groups = model.shared_groups.get(info.name)
+        if groups:
+            # LibreOffice recomputes shared formulas on opening; written one per cell, ours show their values
+            patched = sheet_xml.unshare_formulas(patched, pkg.shared_strings, groups)
         changes.set(pkg, info.part, patched)
     changes.keep_cached_values(pkg)
     return changes
