@@ -13,8 +13,9 @@ apps rebuild it). It then recalculates through
 (see :mod:`~trueband.bridge.values_mode`).
 
 The table's data rows, when ``--rows`` is not given: the header row is the
-top row of the sheet's used range; the data rows are the rows under it down to
-the first row with nothing in it (the target column not counted).
+first row of the sheet that has a filled row right under it (so a title line
+above the table is skipped); the data rows are the rows under it down to the
+first row with nothing in it (the target column not counted).
 """
 
 from __future__ import annotations
@@ -106,7 +107,9 @@ def plan_fill(pkg: WorkbookPackage, sheet: str, column: str, *, rows: tuple[int,
         raise CommandError(f"sheet {info.name!r}: {exc}") from None
     if not filled:
         raise CommandError(f"sheet {info.name!r} is empty; there is no table to fill")
-    header_row = min(filled)
+    # the header is the first row with a filled row under it (a title above the table is skipped)
+    occupied = sorted(r for r, cols in filled.items() if cols - {col})
+    header_row = next((r for r in occupied if (filled.get(r + 1, set()) - {col})), min(filled))
     if rows is None:
         first = header_row + 1
         last = header_row

@@ -189,3 +189,13 @@ def test_libreoffice_shows_the_filled_bands(features, tmp_path, soffice):
     scores = [a[2] for a in gb.APPLICANTS]
     assert [gb.csv_cell(shown, f"F{r}") for r in range(2, 8)] == [str(b) for b in fixed_bands(scores, SD, RELIABILITY)]
     assert gb.csv_cell(shown, "F1") == "Score band"
+
+
+def test_plan_skips_a_title_above_the_table(tmp_path):
+    rows = [gb.row_xml(1, ['<c r="A1" t="inlineStr"><is><t>Osterfell Harbour Logistics: applicants</t></is></c>'])]
+    rows += [gb.row_xml(3, [gb.cell_xml("A3", "id", t="str"), gb.cell_xml("B3", "score", t="str", s=1)])]
+    rows += [gb.row_xml(r, [gb.cell_xml(f"A{r}", r), gb.cell_xml(f"B{r}", 20 + r)]) for r in range(4, 9)]
+    path = gb.handmade_package(tmp_path / "titled.xlsx", [("Scores", gb.sheet_part(rows))])
+    with open_workbook_package(path) as pkg:
+        plan = cf.plan_fill(pkg, "Scores", "C", header="Band")
+    assert (plan.header_ref, plan.first, plan.last, plan.header_style) == ("C3", 4, 8, 1)
