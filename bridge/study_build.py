@@ -502,21 +502,23 @@ class _Builder:
                 row.append(f'=IF(D{r}=0,"",SUM({data_q}!{a}{r}:{b}{r}))' if guard else f"=SUM({data_q}!{a}{r}:{b}{r})")
                 row.append(f"=COUNT({data_q}!{a}{r}:{b}{r})")
             else:
-                row.append(f'=IF(ISNUMBER({data_q}!{t}{r}),{data_q}!{t}{r},"")' if guard else f"={data_q}!{t}{r}")
-                row.append(f"=IF(ISNUMBER({data_q}!{t}{r}),1,0)")
+                row.append(f'=IF(COUNT({data_q}!{t}{r})=1,{data_q}!{t}{r},"")' if guard else f"={data_q}!{t}{r}")
+                row.append(f"=COUNT({data_q}!{t}{r})")
             if self.bands_can:
                 lo = f'SCORE_CI(C{r},{sd},{rel},"lower",{conf})'
                 hi = f'SCORE_CI(C{r},{sd},{rel},"upper",{conf})'
                 band = f"SCORE_BAND(C{r},$C$2:$C${last},{sd},{rel},{conf})"
                 if guard:
-                    lo, hi, band = (f'IF(C{r}="","",{x})' for x in (lo, hi, band))
+                    lo, hi, band = (f'IF(COUNT(C{r})=0,"",{x})' for x in (lo, hi, band))
                 row += ["=" + lo, "=" + hi, "=" + band]
             else:
                 row += [na_band, None, None]
-            row.append(f'=IF(C{r}="","",IF(C{r}>={cut},1,0))' if guard else f"=IF(C{r}>={cut},1,0)")
+            row.append(f'=IF(COUNT(C{r})=0,"",IF(C{r}>={cut},1,0))' if guard else f"=IF(C{r}>={cut},1,0)")
             if crit is not None:
-                row.append(f'=IF(ISNUMBER({data_q}!{crit}{r}),{data_q}!{crit}{r},"")')
-                row.append(f'=IF(AND(ISNUMBER(I{r}),ISNUMBER(C{r})),C{r},"")')
+                # COUNT(x)=1 rather than ISNUMBER(x): the same test, and the recalculation computes it
+                # for the whole column at once
+                row.append(f'=IF(COUNT({data_q}!{crit}{r})=1,{data_q}!{crit}{r},"")')
+                row.append(f'=IF(COUNT(C{r},I{r})=2,C{r},"")')
             yield row
 
     # -- Items
@@ -799,11 +801,16 @@ class _Builder:
         # scatter data: the people with a criterion value
         if have_r:
             rows = listed
+            g.set(2, 15, "Row on Bands", "header")
             g.set(2, 16, "Score", "header")
             g.set(2, 17, "Criterion", "header")
+            # one formula filled down (the row number beside it differs), not one formula per person
+            bands_c = f"{quote('Bands')}!$C$1:$C${self.last}"
+            bands_i = f"{quote('Bands')}!$I$1:$I${self.last}"
             for k, r in enumerate(rows):
-                g.set(3 + k, 16, f"=Bands!C{r}")
-                g.set(3 + k, 17, f"=Bands!I{r}")
+                g.set(3 + k, 15, int(r))
+                g.set(3 + k, 16, f"=INDEX({bands_c},O{3 + k})")
+                g.set(3 + k, 17, f"=INDEX({bands_i},O{3 + k})")
             g.charts.append((charts.score_vs_criterion(charts.area("Validity", "P", 3, "P", end),
                                                        charts.area("Validity", "Q", 3, "Q", end),
                                                        x_title="Test score", y_title=s.criterion or "Criterion"),
