@@ -283,7 +283,8 @@ def measure_limits(limits: dict, worst_of: int = 6) -> None:
         print(f"  {label}:")
         for r in ranked:
             t, status = r[key] if isinstance(r[key], tuple) else (r[key], None)
-            print(f"    {r['name']:<24} {t:8.3f} s" + (f" (status {status})" if status else ""))
+            shown = f"{t * 1e3:8.3f} ms" if key == "call" else f"{t:8.3f} s"
+            print(f"    {r['name']:<24} {shown}" + (f" (status {status})" if status else ""))
 
     print(f"slowest of {len(table)} functions" + (f"; no working arguments found for: {', '.join(missing)}"
                                                  if missing else ""))
