@@ -17,6 +17,7 @@ Range helpers turn what a spreadsheet hands over (nested rows of numbers,
 
 from __future__ import annotations
 
+import itertools
 import math
 import numbers
 from typing import Iterable, NewType
@@ -30,6 +31,8 @@ from .errors import (
     ZeroVarianceError,
 )
 
+_PLAIN_NUMBERS = {float, int, type(None)}
+
 #: Annotation marking a range argument: 2-D data as a spreadsheet gives it.
 Range = NewType("Range", object)
 
@@ -39,7 +42,7 @@ def show(value) -> str:
     if isinstance(value, (bool, np.bool_)):
         return "TRUE" if value else "FALSE"
     if isinstance(value, numbers.Real):
-        value = float(value)
+        value = to_float(value)
         if value.is_integer() and abs(value) < 1e15:
             return str(int(value))
         return format(value, ".15g")
@@ -48,6 +51,14 @@ def show(value) -> str:
     if value is None:
         return "a blank"
     return type(value).__name__
+
+
+def to_float(value) -> float:
+    """float(value), with a whole number beyond the float range read as an infinity (refused later)."""
+    try:
+        return float(value)
+    except OverflowError:
+        return math.inf if value > 0 else -math.inf
 
 
 def _first(array: np.ndarray, mask: np.ndarray):
@@ -73,7 +84,7 @@ def number(name: str, value):
             f"text {show(value)}" if isinstance(value, str) else
             "a range" if isinstance(value, (list, tuple, np.ndarray)) else show(value))
         raise ArgumentTypeError(f"{name} must be a number, got {kind}", argument=name)
-    value = float(value)
+    value = to_float(value)
     if not math.isfinite(value):
         raise DomainError(f"{name} must be a finite number, got {show(value)}", argument=name)
     return value
@@ -224,6 +235,15 @@ def numeric_matrix(name: str, value) -> np.ndarray:
     Text, logical values and infinities are refused, naming the first such
     cell by its 1-based row and column within the range.
     """
+    if isinstance(value, (list, tuple)) and value and all(isinstance(row, (list, tuple)) for row in value):
+        # Fast path for rows that hold only numbers and blanks (the usual range): the set of cell
+        # types is gathered in C; anything else (text, logicals) goes through the cell-by-cell check.
+        types = set(map(type, itertools.chain.from_iterable(value)))
+        if types <= _PLAIN_NUMBERS and len({len(row) for row in value}) == 1 and len(value[0]):
+            try:
+                value = np.array(value, dtype=float)  # None -> nan
+            except OverflowError:  # a whole number beyond float range: the cell-by-cell check names it
+                pass
     arr = _as_rows(name, value)
     if arr.dtype.kind in "fiu":
         out = arr.astype(float)
@@ -240,7 +260,7 @@ def numeric_matrix(name: str, value) -> np.ndarray:
         if _is_blank(cell):
             out[k] = np.nan
         elif isinstance(cell, numbers.Real) and not isinstance(cell, (bool, np.bool_)):
-            out[k] = float(cell)
+            out[k] = to_float(cell)
             if math.isinf(out[k]):
                 r, c = divmod(k, arr.shape[1])
                 raise DomainError(f"{name} holds an infinite value at row {r + 1}, column {c + 1}", argument=name)
@@ -279,9 +299,9 @@ def label_matrix(name: str, value) -> np.ndarray:
                 f"{name} must hold category labels (numbers or text); found a logical value at row {r + 1}, "
                 f"column {c + 1}", argument=name)
         elif isinstance(cell, numbers.Real):
-            if not math.isfinite(float(cell)):
+            out[r, c] = to_float(cell)
+            if not math.isfinite(out[r, c]):
                 raise DomainError(f"{name} holds an infinite value at row {r + 1}, column {c + 1}", argument=name)
-            out[r, c] = float(cell)
         elif isinstance(cell, str):
             out[r, c] = cell.strip()
         else:

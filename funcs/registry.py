@@ -398,9 +398,9 @@ def call_column(name: str, each: Mapping[str, Sequence], same: Mapping[str, Any]
         arr = np.empty(n, dtype=float)
         whole = kinds[key] == "integer"
         for i, cell in enumerate(col):
-            if (isinstance(cell, (int, float)) and not isinstance(cell, bool) and math.isfinite(cell)
-                    and not (whole and not float(cell).is_integer())):
-                arr[i] = cell
+            x = v.to_float(cell) if isinstance(cell, (int, float)) and not isinstance(cell, bool) else math.nan
+            if math.isfinite(x) and not (whole and not x.is_integer()):
+                arr[i] = x
             else:
                 arr[i] = 0.0
                 ok[i] = False

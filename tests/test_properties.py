@@ -28,6 +28,7 @@ hostile = st.one_of(
     st.floats(allow_nan=True, allow_infinity=True),
     st.sampled_from([1e308, -1e308, 5e-324, -0.0, 1e-300, 1e16]),
     st.integers(-10**20, 10**20),
+    st.just(10**400),  # a whole number beyond the float range
     st.text(max_size=5),
     st.none(),
     st.booleans(),
@@ -42,6 +43,7 @@ cell = st.one_of(
     st.sampled_from(["a", "b", "", " ", "x1"]),
     st.booleans(),
     st.floats(allow_nan=True, allow_infinity=True),
+    st.just(10**400),
 )
 clean_cell = st.one_of(st.integers(0, 4).map(float), st.integers(0, 1).map(float), st.floats(0, 1), st.none())
 
