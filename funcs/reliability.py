@@ -173,7 +173,7 @@ def cronbach_alpha(items: Range) -> float:
     return _alpha(np.einsum("ij,ij->", c, c), total @ total, n, k, magnitude, "items")
 
 
-@spreadsheet("ALPHA_CI", returns="coefficient", elementwise=True,
+@spreadsheet("ALPHA_CI", returns="coefficient", elementwise=["alpha", "n_people", "n_items", "confidence"],
              reference="Feldt, L. S. (1965). The approximate sampling distribution of Kuder-Richardson "
                        "reliability coefficient twenty. Psychometrika 30, 357-370; Feldt, L. S., Woodruff, D. J. & "
                        "Salih, F. A. (1987). Statistical inference for coefficient alpha. Applied Psychological "
@@ -275,7 +275,7 @@ def kuder_richardson_20(items: Range) -> float:
     return k / (k - 1) * (1.0 - sum_pq / total_var)
 
 
-@spreadsheet("KR21", returns="coefficient", elementwise=True,
+@spreadsheet("KR21", returns="coefficient", elementwise=["n_items", "mean", "variance"],
              reference="Kuder, G. F. & Richardson, M. W. (1937). The theory of the estimation of test "
                        "reliability. Psychometrika 2, 151-160, formula 21.")
 def kuder_richardson_21(n_items: int, mean: float, variance: float) -> float:
@@ -310,18 +310,20 @@ def kuder_richardson_21(n_items: int, mean: float, variance: float) -> float:
     0.786325
     """
     v.at_least("n_items", n_items, 2)
-    k = float(n_items)  # a whole number, never a column (only number arguments vary by row)
-    v.between("mean", mean, 0.0, k)
+    k, m, s2 = np.broadcast_arrays(*(np.asarray(a, dtype=float) for a in (n_items, mean, variance)))
+    bad = (m < 0) | (m > k)
+    if bad.any():
+        raise DomainError(f"mean must be between 0 and n_items ({v.show(k[bad].flat[0])}), "
+                          f"got {v.show(m[bad].flat[0])}", argument="mean")
     v.at_least("variance", variance, 0.0)
     v.nonzero_variance("variance", variance, "value")
-    highest = mean * (k - mean)
-    bad = np.asarray(variance) > highest
+    highest = m * (k - m)
+    bad = s2 > highest
     if bad.any():
         raise DomainError(
-            f"variance must be at most mean·(n_items − mean) = {v.show(np.broadcast_to(highest, bad.shape)[bad].flat[0])}"
-            f" for {v.show(k)} items scored 0/1, got {v.show(np.broadcast_to(variance, bad.shape)[bad].flat[0])}",
-            argument="variance")
-    return k / (k - 1.0) * (1.0 - highest / (k * variance))
+            f"variance must be at most mean·(n_items − mean) = {v.show(highest[bad].flat[0])} for "
+            f"{v.show(k[bad].flat[0])} items scored 0/1, got {v.show(s2[bad].flat[0])}", argument="variance")
+    return k / (k - 1.0) * (1.0 - highest / (k * s2))
 
 
 # ---------------------------------------------------------------- split halves and test length

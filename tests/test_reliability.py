@@ -428,8 +428,10 @@ def test_scalar_argument_errors():
         call("ALPHA_CI", 0.8, 30, 5, "middle")
     with raises_code("#NUM!", "confidence"):
         call("ALPHA_CI", 0.8, 30, 5, "lower", 1.0)
-    with raises_code("#NUM!", "mean", match="between 0 and 10"):
+    with raises_code("#NUM!", "mean", match=r"between 0 and n_items \(10\), got 11"):
         call("KR21", 10, 11, 2)
+    with raises_code("#NUM!", "mean", match="got -1"):
+        call("KR21", 10, -1, 2)
     with raises_code("#DIV/0!", "variance"):
         call("KR21", 10, 5, 0)
     with raises_code("#NUM!", "variance"):
@@ -455,6 +457,14 @@ def test_column_path_of_the_scalar_functions_matches_single_calls():
     alphas = [0.5, 0.7, 0.9]
     assert call_column("ALPHA_CI", {"alpha": alphas}, {"n_people": 50, "n_items": 8, "part": "lower"}) == \
         [pytest.approx(call("ALPHA_CI", a, 50, 8, "lower")) for a in alphas]
+    people = [30, 1, 200.0, 2.5]
+    got = call_column("ALPHA_CI", {"n_people": people}, {"alpha": 0.8, "n_items": 8, "part": "upper"})
+    assert got[0] == pytest.approx(call("ALPHA_CI", 0.8, 30, 8, "upper"))
+    assert got[2] == pytest.approx(call("ALPHA_CI", 0.8, 200, 8, "upper"))
+    assert got[1].code == "#NUM!" and got[3].code == "#NUM!"  # too few people; not a whole number
+    items = [10, 40, 12]
+    assert call_column("KR21", {"n_items": items}, {"mean": 6, "variance": 5}) == \
+        [pytest.approx(call("KR21", k, 6, 5)) for k in items]
 
 
 def test_item_functions_leave_the_callers_array_alone():
