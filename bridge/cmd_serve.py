@@ -116,7 +116,8 @@ def _serve(args) -> int:
                   flush=True)
 
     previous = {}
-    for name in ("SIGTERM", "SIGBREAK"):  # SIGBREAK is Windows' Ctrl-Break
+    # SIGINT too: a shell that starts the server in the background leaves it ignored otherwise.
+    for name in ("SIGINT", "SIGTERM", "SIGBREAK"):  # SIGBREAK is Windows' Ctrl-Break
         if hasattr(signal, name):
             previous[name] = signal.signal(getattr(signal, name), _stop)
     try:
