@@ -8,7 +8,8 @@ Sources:
 * reference libraries: ``pingouin.cronbach_alpha`` (alpha, Feldt interval),
   pandas (correlations, variances), ``statsmodels.multivariate.factor.Factor``
   with ``method="ml"`` (an independent maximum-likelihood factor fit, BFGS on
-  loadings and uniquenesses), ``scipy.stats.f`` (F quantiles);
+  loadings and uniquenesses), ``sklearn.decomposition.FactorAnalysis`` (ML on
+  the raw covariances by SVD iterations), ``scipy.stats.f`` (F quantiles);
 * published worked values: Wuensch, K. L., "The Kuder-Richardson 20" (KR20.txt,
   East Carolina University StatHelp pages): ten students, ten 0/1 items, with
   p, q, pq, item variances and the total variance printed; the Feldt interval
@@ -304,6 +305,31 @@ def test_omega_on_random_one_factor_data_against_statsmodels(seed):
     assert smallest > 0.01  # proper solutions (the Heywood branch is checked on the Big Five data below)
     # tolerance: the two optimisers agree to about 2e-7 on these data
     assert call("OMEGA", x) == pytest.approx(expected, abs=1e-5)
+
+
+def sklearn_omega(x: np.ndarray) -> float:
+    """Omega total from scikit-learn's FactorAnalysis (reference library): ML fitted to the raw
+    covariance matrix by its own SVD-based iterations, so no rescaling from correlations is involved."""
+    from sklearn.decomposition import FactorAnalysis
+    fit = FactorAnalysis(n_components=1, tol=1e-12, max_iter=100_000, svd_method="lapack").fit(x)
+    lam = fit.components_.ravel()
+    return lam.sum() ** 2 / (lam.sum() ** 2 + fit.noise_variance_.sum())
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_omega_on_the_raw_scale_against_scikit_learn(seed):
+    rng = np.random.default_rng(seed)
+    n, k = int(rng.integers(40, 400)), int(rng.integers(3, 9))
+    loadings = rng.uniform(0.3, 0.8, size=k)
+    x = rng.normal(size=(n, 1)) * loadings + rng.normal(size=(n, k)) * np.sqrt(1 - loadings ** 2)
+    x = x * rng.uniform(0.5, 3, size=k) + 10
+    # tolerance: the two fits agree to about 5e-8 here
+    assert call("OMEGA", x) == pytest.approx(sklearn_omega(x), abs=1e-6)
+
+
+def test_omega_on_real_statistics_ratings_against_scikit_learn():
+    data = real_statistics_ratings()
+    assert call("OMEGA", as_cells(data)) == pytest.approx(sklearn_omega(data.to_numpy(float)), abs=1e-6)
 
 
 def test_omega_heywood_case_on_big_five_scales():
