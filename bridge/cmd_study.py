@@ -195,6 +195,9 @@ def write_demo(target: Path, *, n: int = 400) -> tuple[StudyResult, dict[str, Pa
     parent = target.parent if target.parent != Path("") else Path.cwd()
     parent.mkdir(parents=True, exist_ok=True)
     work = Path(tempfile.mkdtemp(prefix=".trueband-demo-", dir=parent))
+    umask = os.umask(0)
+    os.umask(umask)
+    os.chmod(work, 0o777 & ~umask)  # a private temporary folder becomes an ordinary one
     try:
         (work / "templates").mkdir()
         demo = make_demo(n)

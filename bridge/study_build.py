@@ -25,6 +25,7 @@ import datetime
 import math
 import os
 import tempfile
+import textwrap
 import time
 from pathlib import Path
 from typing import Any, Callable, Mapping
@@ -69,8 +70,10 @@ _STYLES: dict[str, dict[str, Any]] = {
     "header": {"font": Font(bold=True), "fill": PatternFill("solid", fgColor="DDE4EE"),
                "alignment": Alignment(wrap_text=True, vertical="top")},
     "label": {},
-    "wrap": {"alignment": Alignment(wrap_text=True, vertical="top")},
-    "caution": {"font": Font(bold=True, color="7A2E00"), "alignment": Alignment(wrap_text=True, vertical="top")},
+    # long text is split into lines over several rows (see Grid.para): apps do not all grow a row
+    # to fit wrapped text when they open a file
+    "wrap": {"alignment": Alignment(vertical="top")},
+    "caution": {"font": Font(bold=True, color="7A2E00")},
     "na": {"font": Font(italic=True, color="9C0006")},
     "coef": {"number_format": "0.000"},
     "p": {"number_format": "0.0000"},
@@ -114,6 +117,15 @@ class Grid:
 
     def ref(self, row: int, col: int) -> str:
         return cell_ref(self.title, col, row)
+
+    def para(self, row: int, col: int, text: str, style: str | None = "wrap", width: int = 118) -> int:
+        """Write ``text`` as lines of at most ``width`` characters down from ``row``; returns the lines used."""
+        lines = textwrap.wrap(text, width) or [""]
+        for k, line in enumerate(lines):
+            if (row + k, col) in self.cells:
+                raise AssertionError(f"{self.title}!{get_column_letter(col)}{row + k} is taken")
+            self.set(row + k, col, line, style)
+        return len(lines)
 
     def write(self, wb: Workbook):
         ws = wb.create_sheet(self.title)
@@ -308,9 +320,9 @@ class _Builder:
             g.set(row, 3, meaning, "wrap")
             self.setup_rows[field] = row
             row += 1
-        g.set(row + 1, 1, "The numbers above are inputs: change them here and recalculate (trueband recalc) to "
+        g.para(row + 1, 1, "The numbers above are inputs: change them here and recalculate (trueband recalc) to "
                           "update the study. Changing a column name here does not re-map the study; run "
-                          "trueband study again for that.", "wrap")
+                          "trueband study again for that.")
         self.confidence_ref = g.ref(self.setup_rows["confidence"], 2)
         self.cut_ref = g.ref(self.setup_rows["cut"], 2)
         self.ryy_ref = g.ref(self.setup_rows["criterion_reliability"], 2)
@@ -443,9 +455,9 @@ class _Builder:
         self.put(g, 23, 2, f"=BAND_WIDTH(B5,B20,{self.confidence_ref})",
                  lambda: call("BAND_WIDTH", self.value("sd"), self.value("reliability"), conf),
                  style="coef", key="band_width")
-        g.set(25, 1, "Alpha, KR-20, split-half and omega estimate internal consistency from one sitting; the SEM "
+        g.para(25, 1, "Alpha, KR-20, split-half and omega estimate internal consistency from one sitting; the SEM "
                      "and bands use the reliability in B20. Intervals: Feldt's F-based limits for alpha, Fisher's z "
-                     "for the retest correlation.", "wrap")
+                     "for the retest correlation.")
 
     # -- Bands (one row per person); written in streaming mode
 
@@ -579,10 +591,9 @@ class _Builder:
         g.charts.append((charts.item_map(charts.area("Items", "B", first, "B", self.item_rows[1]),
                                          charts.area("Items", "C", first, "C", self.item_rows[1])),
                          f"A{first + x.shape[1] + 4}"))
-        g.set(first + x.shape[1] + 1, 1, "Difficulty is the mean item score (the proportion correct for 0/1 items); "
-                                         "the corrected item–total r correlates the item with the total of the other "
-                                         "items. Flags are prompts for review by a test developer, not verdicts.",
-              "wrap")
+        g.para(first + x.shape[1] + 1, 1, "Difficulty is the mean item score (the proportion correct for 0/1 items); "
+                                          "the corrected item–total r correlates the item with the total of the other "
+                                          "items. Flags are prompts for review by a test developer, not verdicts.")
 
     # -- Raters
 
@@ -661,10 +672,10 @@ class _Builder:
         else:
             g.set(row, 1, "Cohen's kappa is left out: the ratings are not on a short whole-number scale")
             row += 1
-        g.set(row + 1, 1, "The ICC asks whether raters order and place people alike (agreement counts rater leniency "
+        g.para(row + 1, 1, "The ICC asks whether raters order and place people alike (agreement counts rater leniency "
                           "as error, consistency does not); kappa and Krippendorff's alpha ask whether raters give "
                           "the same scale points. Use the average-rater forms when the interview score is the mean "
-                          "of the panel.", "wrap")
+                          "of the panel.")
 
     # -- Validity
 
@@ -795,9 +806,9 @@ class _Builder:
             g.set(r, 4, f"=COUNTIFS({cond})", "count")
             g.set(r, 5, f'=IF(D{r}=0,"none",AVERAGEIFS({pc},{cond}))', "coef")
             g.set(r, 6, f'=IF(D{r}=0,"none",COUNTIFS({cond},{pc},">="&$B${row + 1})/D{r})', "pct")
-        g.set(row + 9, 1, "Fifths are cut at the 20th, 40th, 60th and 80th percentiles of all applicants' scores; a "
+        g.para(row + 9, 1, "Fifths are cut at the 20th, 40th, 60th and 80th percentiles of all applicants' scores; a "
                           "score on a cut point belongs to the higher fifth. Rising shares down the table are what a "
-                          "valid test shows. Validity figures are statistical indicators, not legal findings.", "wrap")
+                          "valid test shows. Validity figures are statistical indicators, not legal findings.")
         # scatter data: the people with a criterion value
         if have_r:
             rows = listed
@@ -824,15 +835,16 @@ class _Builder:
         g.widths.update({1: 22, 2: 13, 3: 13, 4: 13, 5: 15, 6: 15, 7: 11, 8: 11, 9: 13, 10: 16})
         d, s = self.d, self.s
         g.set(1, 1, "Adverse impact at the cut score", "title")
-        g.set(2, 1, CAUTION, "caution")
-        g.set(3, 1, "Cut score (from Setup)")
-        g.set(3, 2, f"={self.cut_ref}", "score")
-        g.set(4, 1, "Selected = score at or above the cut")
+        cut_row = 2 + g.para(2, 1, CAUTION, "caution")
+        self.impact_cut = f"$B${cut_row}"
+        g.set(cut_row, 1, "Cut score (from Setup)")
+        g.set(cut_row, 2, f"={self.cut_ref}", "score")
+        g.set(cut_row + 1, 1, "Selected = score at or above the cut")
         S = self.scores
         cut = self.cut
         sel_all = self.has_score & (S >= cut)
         self.impact_rows = None
-        row = 6
+        row = cut_row + 3
         groups = sorted({x for x in d.groups if x is not None})
         grp_ok = True
         if "group" not in d.columns:
@@ -934,7 +946,7 @@ class _Builder:
             width = (hi - lo) / 25 if hi > lo else 1.0
             edges = [(lo + j * width, lo + (j + 1) * width + (width * 1e-9 if j == 24 else 0.0),
                       f"{lo + j * width:.4g}–{lo + (j + 1) * width:.4g}") for j in range(25)]
-        score_rng, cut = self.score_range, "$B$3"
+        score_rng, cut = self.score_range, self.impact_cut
         first = row + 2
         L, M, N, O, P = (get_column_letter(c0 + k) for k in range(5))
         Q = get_column_letter(c0 + 5)
@@ -968,7 +980,7 @@ class _Builder:
         g.widths.update({1: 70, 2: 16})
         d, s = self.d, self.s
         g.set(1, 1, "Selection utility", "title")
-        g.set(2, 1, "Yellow cells are inputs: replace them with your own figures.", "wrap")
+        g.para(2, 1, "Yellow cells are inputs: replace them with your own figures.")
         g.set(4, 1, "Validity used (operational validity from the Validity sheet)")
         v_key = "operational" if isinstance(self.values.get("operational"), float) else "r"
         if isinstance(self.values.get(v_key), float):
@@ -1014,8 +1026,8 @@ class _Builder:
         self.put(g, 16, 2, "=BCG_UTILITY(B7,B8,B4,B9,B5,B10)",
                  lambda: call("BCG_UTILITY", 20, 3, self.value("validity_used"), 19200,
                               self.value("selection_ratio"), 40), style="money", key="bcg")
-        g.set(18, 1, "Utility figures rest on assumptions (validity, performance value, tenure) that the inputs "
-                     "state; treat them as orders of magnitude, not forecasts.", "wrap")
+        g.para(18, 1, "Utility figures rest on assumptions (validity, performance value, tenure) that the inputs "
+                     "state; treat them as orders of magnitude, not forecasts.")
 
     # -- Summary
 
@@ -1026,7 +1038,7 @@ class _Builder:
         s, d = self.s, self.d
         who = " — ".join(x for x in (s.organisation, s.job_title) if x)
         g.set(1, 1, f"Validation study: {s.test_name}" + (f" ({who})" if who else ""), "title")
-        g.set(2, 1, CAUTION, "caution")
+        first_row = 3 + g.para(2, 1, CAUTION, "caution")
         rows: list[tuple[str, str | None, str, str | None]] = [
             ("The people", None, "", None),
             ("Applicants with a test score", "n_scored", "count", None),
@@ -1049,7 +1061,7 @@ class _Builder:
             ("Success rate among those selected (Taylor–Russell)", "taylor_russell", "pct", "base_rate"),
             ("Money gain from one year's hires (Brogden–Cronbach–Gleser; inputs on Utility)", "bcg", "money", None),
         ]
-        r = 4
+        r = first_row
         for label, key, style, extra in rows:
             if key is None and not style:
                 g.set(r, 1, label, "heading")
@@ -1076,9 +1088,9 @@ class _Builder:
             else:
                 self.na(g, r, 2, "not part of this study (see Notes)")
             r += 1
-        g.set(r + 1, 1, "Every number is a formula: click it to see how it was computed. The sheets Reliability, "
+        g.para(r + 1, 1, "Every number is a formula: click it to see how it was computed. The sheets Reliability, "
                         "Items, Raters, Validity, Bands, Impact and Utility hold the detail; Notes lists the methods "
-                        "and references.", "wrap")
+                        "and references.")
         self.summary_last = r + 1
 
     def _summary_value(self, g, r, c, key, formula, style):
@@ -1144,8 +1156,13 @@ class _Builder:
             lines.append(("Not computable here", "heading"))
             for sheet, coord, reason in self.not_computable:
                 lines.append((f"{sheet}!{coord}: {reason}", "wrap"))
-        for i, (text, style) in enumerate(lines, start=1):
-            g.set(i, 1, text, style)
+        row = 1
+        for text, style in lines:
+            if style in ("wrap", "caution"):
+                row += g.para(row, 1, text, style)
+            else:
+                g.set(row, 1, text, style)
+                row += 1
 
     # -- writing
 
