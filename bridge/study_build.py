@@ -590,7 +590,7 @@ class _Builder:
         self.item_rows = (first, first + x.shape[1] - 1)
         g.charts.append((charts.item_map(charts.area("Items", "B", first, "B", self.item_rows[1]),
                                          charts.area("Items", "C", first, "C", self.item_rows[1])),
-                         f"A{first + x.shape[1] + 4}"))
+                         "G6"))  # beside the table: below it, a page break would cut it in two
         g.para(first + x.shape[1] + 1, 1, "Difficulty is the mean item score (the proportion correct for 0/1 items); "
                                           "the corrected item–total r correlates the item with the total of the other "
                                           "items. Flags are prompts for review by a test developer, not verdicts.")
@@ -857,7 +857,7 @@ class _Builder:
             grp_ok = False
         if grp_ok:
             self._impact_table(g, row, groups, sel_all, chart_row=row + len(groups) + 6)
-            self._distribution(g, row + len(groups) + 27)
+            self._distribution(g, row + len(groups) + 6, col="E")  # beside the rates chart, on the same page
         else:
             self._distribution(g, row + 3)
 
@@ -927,8 +927,9 @@ class _Builder:
         g.charts.append((charts.selection_rates(charts.area("Impact", "A", first, "A", last),
                                                 charts.area("Impact", "D", row, "D", last),
                                                 charts.area("Impact", "J", row, "J", last)), f"A{chart_row}"))
+        g.charts[-1][0].width = 11.5
 
-    def _distribution(self, g: Grid, chart_row: int):
+    def _distribution(self, g: Grid, chart_row: int, col: str = "A"):
         """The score distribution table (columns L:P, not printed) and its chart at ``chart_row``."""
         S = self.scores[self.has_score]
         row, c0 = 5, 12
@@ -970,7 +971,8 @@ class _Builder:
         g.charts.append((charts.score_distribution(charts.area("Impact", L, first, L, last),
                                                    charts.area("Impact", O, row + 1, O, last),
                                                    charts.area("Impact", P, row + 1, P, last),
-                                                   cut_text=f"cut at {self.cut:g}"), f"A{chart_row}"))
+                                                   cut_text=f"cut at {self.cut:g}"), f"{col}{chart_row}"))
+        g.charts[-1][0].width = 14
         g.print_area = f"A1:J{chart_row + 21}"
 
     # -- Utility
