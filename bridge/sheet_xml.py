@@ -1096,11 +1096,14 @@ def _read_columns(xml: bytes, shared_strings: Sequence[str]) -> SheetColumns:
     pattern = _bulk_pattern(prefix)
     content_re, text_run, phonetic = _patterns(prefix)[1:]
     get = per_letters.get
-    slow: list[Cell] = []
+    formulas_append = formulas.append
+    new = _new_tuple
+    col_of = column_index
+    style_type = _style_type
     for cs, ce in _chunks(xml, start, end, prefix):
         found = pattern.findall(xml, cs, ce)
         for letters, rownum, rest, raw, body, other_attrs, other_body in found:
-            if letters and not body and not rest:
+            if not body and not rest and letters:
                 if not raw:
                     continue  # an empty cell without style
                 entry = get(letters)
@@ -1111,24 +1114,39 @@ def _read_columns(xml: bytes, shared_strings: Sequence[str]) -> SheetColumns:
                 continue
             if not letters:
                 # rare forms (attributes in another order, no r): decode them one by one
-                slow = [c for c in iter_cells(xml, shared_strings)]
-                return _columns_from_cells(slow)
-            row = int(rownum)
-            ref = (letters + rownum).decode("ascii")
-            style, typ = _style_type(rest)
+                return _columns_from_cells(list(iter_cells(xml, shared_strings)))
+            style, typ = style_type(rest) if rest else (0, "n")
             if style:
-                styles[(row, column_index(letters))] = style
+                styles[(int(rownum), col_of(letters))] = style
+            formula = None
             if body:
-                value, formula = _body_value(body, typ, ref, shared_strings, content_re, text_run, phonetic)
+                i = body.find(b"</f>") if body[:3] == b"<f>" else -1
+                tail = body[i + 4:] if i > 3 else b"x"
+                if not tail or (tail[:3] == b"<v>" and tail[-4:] == b"</v>" and b"<" not in tail[3:-4]):
+                    # the common ordinary formula <f>text</f><v>value</v>, inline
+                    ftext = body[3:i]
+                    formula = new(Formula, (ftext.decode("utf-8") if b"&" not in ftext and b"_x" not in ftext
+                                            else unescape_xml(ftext), "normal", None, None, False, b""))
+                    raw = tail[3:-4]
+                    value = _KEEP
+                else:
+                    value, formula = _body_value(body, typ, (letters + rownum).decode("ascii"), shared_strings,
+                                                 content_re, text_run, phonetic)
                 if formula is not None:
-                    formulas.append((row, column_index(letters), formula))
+                    formulas_append((int(rownum), col_of(letters), formula))
             else:
-                value, formula = (_plain_value(raw, typ, ref, shared_strings) if raw else None), None
-            if value is None and formula is None:
-                continue
+                value = _KEEP
             entry = get(letters)
             if entry is None:
                 entry = per_letters[letters] = ([], [], {})
+            if value is _KEEP:  # still the raw <v> text
+                if raw and typ == "n":
+                    entry[0].append(rownum)
+                    entry[1].append(raw)  # converted with the rest of its column
+                    continue
+                value = _plain_value(raw, typ, (letters + rownum).decode("ascii"), shared_strings) if raw else None
+            if value is None and formula is None:
+                continue
             entry[2][len(entry[0])] = value
             entry[0].append(rownum)
             entry[1].append(b"0")

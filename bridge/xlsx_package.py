@@ -155,9 +155,12 @@ _ESCAPED_CHAR = re.compile(r"_x([0-9A-Fa-f]{4})_")
 
 def unescape_xml(raw: bytes) -> str:
     """Text content of an element, as bytes from the XML, to ``str`` (entities and ``_xHHHH_`` decoded)."""
+    if b"&" in raw and b"&#" not in raw:  # the five named entities only: plain replacements, &amp; last
+        raw = (raw.replace(b"&lt;", b"<").replace(b"&gt;", b">").replace(b"&quot;", b'"')
+               .replace(b"&apos;", b"'").replace(b"&amp;", b"&"))
     text = raw.decode("utf-8")
-    if "&" in text:
-        text = html.unescape(text)  # valid XML has only the five entities and numeric ones
+    if "&" in text and b"&#" in raw:
+        text = html.unescape(text)  # numeric character references (valid XML has no other entities)
     if "_x" in text:
         text = _ESCAPED_CHAR.sub(lambda m: chr(int(m.group(1), 16)), text)
     return text
