@@ -670,6 +670,19 @@ def patch_sheet(xml: bytes, updates: Mapping[str, CellUpdate]) -> bytes:
         stop = xml.find(close, body_start)
         body = xml[body_start:stop]
         update = updates[ref]
+        value = update.value
+        if (type(value) is float and value - value == 0.0 and not prefix and update.formula is None
+                and update.formula_xml is None and update.style is None and not update.drop_formula
+                and b't="' not in m.group(1) and b"extLst" not in body):
+            # the commonest patch, a new number beside a kept formula: only the bytes after </f> change
+            k = body.find(b">")
+            f_end = k + 1 if body[k - 1:k] == b"/" else body.find(b"</f>") + 4
+            if f_end > 3:
+                text = repr(int(value)) if value.is_integer() and abs(value) < 1e16 else repr(value)
+                spans.append((body_start + f_end, stop + len(close), b"<v>" + text.encode("ascii") + b"</v></c>"))
+                if not by_bytes:
+                    break
+                continue
         if update.drop_formula and b"si=" in body[:200]:
             _note_shared(body, ref, None, dropped_masters)
         spans.append((m.start(), stop + len(close), _cell_xml(ref, m.group(1), body, update, prefix, f_re)))
