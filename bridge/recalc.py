@@ -139,7 +139,13 @@ class CellStore:
         """Add a sheet from the package reader's columns (``{col: (rows, values)}``, rows ascending)."""
         cols = {}
         top = 0
-        for c, (rows, values) in columns.items():
+        for c, entry in columns.items():
+            if isinstance(entry, _Collected):
+                col = self._column_from_stream(entry)
+                cols[c] = col
+                top = max(top, entry.last)
+                continue
+            rows, values = entry
             if not rows:
                 continue
             size = rows[-1] + 1
@@ -165,6 +171,18 @@ class CellStore:
     def _sheet(self, sheet: str):
         name = self.names.get(sheet.casefold())
         return None if name is None else self.sheets[name]
+
+    @staticmethod
+    def _column_from_stream(got) -> "_Column":
+        col = _Column(got.last + 1)
+        if got.num_rows:
+            r = np.frombuffer(got.num_rows, dtype=np.int64)
+            col.num[r] = np.frombuffer(got.num_values, dtype=float)
+            col.kind[r] = _KIND_NUMBER
+        for row, v in zip(got.other_rows, got.other_values):
+            col.other[row] = _engine_value(v)
+            col.kind[row] = _KIND_OTHER
+        return col
 
     def has_blank(self, sheet: str, col: int, r1: int, r2: int) -> bool:
         """Whether any of rows r1..r2 of a column is blank (for formula cells: has no cached value)."""
@@ -321,17 +339,73 @@ class WorkbookModel:
 _COL, _FIRST, _LAST, _KEY, _TEXT, _AT, _ARRAY = 0, 1, 2, 3, 4, 5, 7
 
 
+#: Sheet parts larger than this (bytes) are read cell by cell into compact arrays instead of with the
+#: column reader, which is faster but holds every cell as Python objects at once (gigabytes at full height).
+STREAMING_PART_SIZE = 200 * 1024 ** 2
+
+
+class _Collected:
+    """One column's cells as streamed: numbers in compact arrays, anything else in lists."""
+
+    __slots__ = ("num_rows", "num_values", "other_rows", "other_values", "first", "last")
+
+    def __init__(self, row: int):
+        self.num_rows = array.array("q")
+        self.num_values = array.array("d")
+        self.other_rows: list[int] = []
+        self.other_values: list = []
+        self.first = self.last = row
+
+
+def _stream_cells(xml: bytes, strings, collected: dict[int, _Collected]):
+    """Collect every cell's value into ``collected``; yield (row, col, formula) of the formula cells."""
+    for _, row, col, value, _, _, f in sheet_xml.iter_cells(xml, strings):
+        if value is None and f is None:
+            continue
+        got = collected.get(col)
+        if got is None:
+            got = collected[col] = _Collected(row)
+        got.last = row
+        if type(value) is float:
+            got.num_rows.append(row)
+            got.num_values.append(value)
+        elif value is not None:
+            got.other_rows.append(row)
+            got.other_values.append(value)
+        if f is not None:
+            yield row, col, f
+
+
 def _read_sheet(xml: bytes, strings) -> tuple[dict, list[list], tuple | None, set[int]]:
     """Cell values by column, formula runs (filled-down cells recognised by :class:`KeyTemplate`), the used
     range, and the shared-formula groups that call registered functions."""
+    if len(xml) > STREAMING_PART_SIZE:
+        collected: dict[int, _Collected] = {}
+        runs, registered_groups = _formula_runs(_stream_cells(xml, strings, collected))
+        used = None
+        if collected:
+            used = (min(g.first for g in collected.values()), min(collected),
+                    max(g.last for g in collected.values()), max(collected))
+        return collected, runs, used, registered_groups
     sheet = sheet_xml.read_columns(xml, strings)
     columns = sheet.columns
+    runs, registered_groups = _formula_runs(sheet.formulas)
+    used = None
+    nonempty = {c: rows for c, (rows, _) in columns.items() if rows}
+    if nonempty:
+        used = (min(r[0] for r in nonempty.values()), min(nonempty), max(r[-1] for r in nonempty.values()),
+                max(nonempty))
+    return columns, runs, used, registered_groups
+
+
+def _formula_runs(formula_cells) -> tuple[list[list], set[int]]:
+    """Runs from (row, col, Formula) in document order, and the shared groups calling registered functions."""
     runs: list[list] = []
     open_runs: dict[int, list] = {}
     shared: dict[int, tuple[str, int, int, str]] = {}  # si → (text, row, col, key)
     registered_groups: set[int] = set()
     templates: dict[int, tuple[int, KeyTemplate]] = {}  # column → (last row, template of its run)
-    for row, col, f in sheet.formulas:
+    for row, col, f in formula_cells:
         if f.kind == "dataTable":
             continue
         array_ref = None
@@ -365,12 +439,7 @@ def _read_sheet(xml: bytes, strings) -> tuple[dict, list[list], tuple | None, se
             cur = [col, row, row, key, text, at, False, array_ref]
             runs.append(cur)
             open_runs[col] = cur
-    used = None
-    nonempty = {c: rows for c, (rows, _) in columns.items() if rows}
-    if nonempty:
-        used = (min(r[0] for r in nonempty.values()), min(nonempty), max(r[-1] for r in nonempty.values()),
-                max(nonempty))
-    return columns, runs, used, registered_groups
+    return runs, registered_groups
 
 
 def _name_compiler(package: WorkbookPackage):
@@ -633,8 +702,17 @@ def _changes(model: WorkbookModel, updates: dict[str, dict[str, object]]):
             continue
         xml = pkg.read(info.part)
         cell_update = sheet_xml.CellUpdate
-        for ref, v in sheet_updates.items():  # in place: a full-height sheet has millions of them
-            sheet_updates[ref] = cell_update(v)
+        # In place, and one update object per distinct value: a full-height sheet has millions of them,
+        # and score sheets repeat values (totals, bands, labels).
+        shared: dict[tuple[type, object], sheet_xml.CellUpdate] = {}
+        for ref, v in sheet_updates.items():
+            key = (type(v), v)
+            u = shared.get(key)
+            if u is None:
+                u = shared[key] = cell_update(v)
+                if len(shared) > 100_000:
+                    shared.clear()
+            sheet_updates[ref] = u
         patched = sheet_xml.patch_sheet(xml, sheet_updates)
         del xml, sheet_updates
         groups = model.shared_groups.get(info.name)
@@ -690,6 +768,8 @@ def recalculate(src, dst=None, *, in_place: bool = False, backup: bool = False, 
         model = load_model(package, progress)
         updates, errors, cycles, evaluated, vectorised = evaluate_model(model, all_formulas=all_formulas,
                                                                         progress=progress)
+        model.store = None  # the values are in ``updates`` now; free them before the sheets are patched
+        model.graph = None
         changes = _changes(model, updates)
         if values:
             from . import values_mode
