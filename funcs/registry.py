@@ -199,7 +199,8 @@ class SpreadsheetFunction:
             raise AssertionError(f"{self.name} returned a value outside its range [{low}, {high}]")
         if low is not None or high is not None:
             x = np.clip(x, low, high)
-        return np.rint(x).astype(int).tolist() if kind is int else x.tolist()
+        # Python ints, not int64: a count can exceed the 64-bit range
+        return [int(round(value)) for value in x.tolist()] if kind is int else x.tolist()
 
     def __call__(self, *args, **kwargs):
         bound = self.bind(args, kwargs)

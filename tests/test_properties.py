@@ -123,3 +123,10 @@ def test_column_path_equals_single_calls(name):
                 assert got[i] == pytest.approx(want, rel=1e-12, abs=1e-12), (i, x)
 
     run()
+
+
+def test_column_path_keeps_whole_numbers_beyond_64_bits():
+    # Regression: results of integer kind went through int64 and wrapped around above 2**63.
+    same = {"focal_selected": 1, "focal_applicants": 1e19, "ref_selected": 1, "target": 1}
+    column = call_column("IMPACT_SHORTFALL", {"ref_applicants": [2, 5]}, same)
+    assert column == [REGISTRY["IMPACT_SHORTFALL"](**same, ref_applicants=n) for n in (2, 5)]
