@@ -28,6 +28,7 @@ from __future__ import annotations
 import array
 import dataclasses
 import math
+import re
 import time
 from pathlib import Path
 from typing import Callable, Iterable
@@ -690,6 +691,56 @@ def _as_values(values: list) -> np.ndarray:
 
 # ---------------------------------------------------------------- writing
 
+#: Sheet parts larger than this are patched a band of rows at a time (bounds the patcher's copies).
+BAND_BYTES = 128 * 1024 ** 2
+_ROW_START = re.compile(rb'<(?:\w+:)?row r="([0-9]+)"')
+
+
+def _patch_in_bands(xml: bytes, updates: dict[str, "sheet_xml.CellUpdate"]) -> bytes:
+    """:func:`sheet_xml.patch_sheet`, applied to bands of whole rows of a large part in turn.
+
+    The patcher holds the part, its pieces and the result at once; on a
+    full-height sheet that is several gigabytes. Each band is patched as a
+    sheet of its own (the part's head and tail around the band's rows) and
+    its patched rows are cut out again, so the result is the same bytes.
+    """
+    start, end, _ = sheet_xml.sheet_data_span(xml)
+    if end - start <= BAND_BYTES or not updates:
+        return sheet_xml.patch_sheet(xml, updates)
+    cuts = [start]  # offsets where a band starts: always at a <row r="..."> element
+    rows = [0]
+    pos = start + BAND_BYTES
+    while pos < end:
+        m = _ROW_START.search(xml, pos, end)
+        if m is None:
+            break
+        cuts.append(m.start())
+        rows.append(int(m.group(1)))
+        pos = m.start() + BAND_BYTES
+    if len(cuts) == 1:
+        return sheet_xml.patch_sheet(xml, updates)
+    cuts.append(end)
+    by_band: list[dict] = [{} for _ in range(len(cuts) - 1)]
+    import bisect
+    for ref, u in updates.items():
+        i = len(ref) - 1
+        while ref[i - 1].isdigit():
+            i -= 1
+        by_band[bisect.bisect_right(rows, int(ref[i:])) - 1][ref] = u
+    head, tail = xml[:start], xml[end:]
+    out = [head]
+    for k, band_updates in enumerate(by_band):
+        body = xml[cuts[k]:cuts[k + 1]]
+        if band_updates:
+            patched = sheet_xml.patch_sheet(head + body + tail, band_updates)
+            body = patched[len(head):len(patched) - len(tail)]
+            del patched
+        out.append(body)
+        del body
+    out.append(tail)
+    return b"".join(out)
+
+
 def _changes(model: WorkbookModel, updates: dict[str, dict[str, object]]):
     """The package edits: each sheet with evaluated cells patched, and no forced recalculation on open."""
     from .safe_write import PackageChanges
@@ -713,7 +764,7 @@ def _changes(model: WorkbookModel, updates: dict[str, dict[str, object]]):
                 if len(shared) > 100_000:
                     shared.clear()
             sheet_updates[ref] = u
-        patched = sheet_xml.patch_sheet(xml, sheet_updates)
+        patched = _patch_in_bands(xml, sheet_updates)
         del xml, sheet_updates
         groups = model.shared_groups.get(info.name)
         if groups:

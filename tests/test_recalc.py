@@ -352,3 +352,13 @@ def test_streaming_reader_gives_the_same_file(tmp_path, monkeypatch, book):
     streamed = recalculate(src, tmp_path / "streamed.xlsx", all_formulas=True)
     assert entries(normal.output) == entries(streamed.output)
     assert [tuple(e) for e in normal.errors] == [tuple(e) for e in streamed.errors]
+
+
+def test_patching_in_bands_gives_the_same_bytes(tmp_path, monkeypatch):
+    from trueband.bridge import recalc as rc
+
+    src = rb.mixed_inputs_book(tmp_path / "in.xlsx")
+    whole = recalculate(src, tmp_path / "whole.xlsx", all_formulas=True)
+    monkeypatch.setattr(rc, "BAND_BYTES", 700)  # a band every few rows
+    banded = recalculate(src, tmp_path / "banded.xlsx", all_formulas=True)
+    assert entries(whole.output) == entries(banded.output)
