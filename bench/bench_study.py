@@ -1,0 +1,111 @@
+"""Benchmark: the validation study on 5,000 and 50,000 candidates x 40 items.
+
+For each size, in a fresh child process (so peak memory is that size's alone):
+
+* the study: reading and checking the data, building the workbook, recalculating it
+  (``make_study``), with the share of each stage;
+* a reference measured in the same run: the copy floor, i.e. reading the data sheet with
+  openpyxl and writing it back in streaming mode, nothing else. The study necessarily does at
+  least this much, so ``study / floor`` says how much the analysis itself costs.
+
+Target (issue #6): 50,000 candidates in under 60 s and under 2 GB peak on a 2-core machine.
+
+    python bench/bench_study.py            # 5,000 and 50,000
+    python bench/bench_study.py 2000       # other sizes
+"""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+
+def _peak_mb() -> float | None:
+    try:
+        import resource
+    except ImportError:  # Windows: no getrusage; memory is not reported there
+        return None
+    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+    return peak / 1024 if sys.platform != "darwin" else peak / 2 ** 20
+
+
+def write_data(path: Path, n: int):
+    """The demo generator at size n, written in streaming mode (not timed)."""
+    from openpyxl import Workbook
+
+    from trueband.bridge.demo_data import make_demo
+
+    demo = make_demo(n)
+    scores = demo.items.sum(axis=1)
+    cut = float(sorted(scores)[int(0.6 * n)])
+    wb = Workbook(write_only=True)
+    ws = wb.create_sheet("Applicants")
+    ws.append(demo.header())
+    for row in demo.rows():
+        ws.append(row)
+    st = wb.create_sheet("Setup")
+    for key, value in (("item columns", "Q01:Q40"), ("id column", "Applicant"), ("group column", "Group"),
+                       ("rating columns", "Interview rater 1:Interview rater 3"),
+                       ("criterion column", "Supervisor rating"), ("retest column", "Retest score"),
+                       ("hired column", "Hired"), ("cut score", cut)):
+        st.append([key, value])
+    wb.save(path)
+
+
+def copy_floor(src: Path, dst: Path) -> float:
+    from openpyxl import Workbook, load_workbook
+
+    t0 = time.perf_counter()
+    rb = load_workbook(src, read_only=True, data_only=True)
+    wb = Workbook(write_only=True)
+    ws = wb.create_sheet("Applicants")
+    for row in rb["Applicants"].iter_rows(values_only=True):
+        ws.append(row)
+    rb.close()
+    wb.save(dst)
+    return time.perf_counter() - t0
+
+
+def one(n: int) -> dict:
+    from trueband.bridge.study_build import make_study
+
+    with tempfile.TemporaryDirectory() as tmp:
+        tmp = Path(tmp)
+        data = tmp / "data.xlsx"
+        write_data(data, n)
+        t0 = time.perf_counter()
+        result = make_study(data, tmp / "study.xlsx")
+        total = time.perf_counter() - t0
+        floor = copy_floor(data, tmp / "copy.xlsx")
+        return {"n": n, "total": total, **result.timings, "floor": floor, "peak_mb": _peak_mb(),
+                "formulas": result.recalc_report.formulas, "errors": len(result.recalc_report.errors),
+                "size_mb": (tmp / "study.xlsx").stat().st_size / 2 ** 20}
+
+
+def main(argv: list[str]) -> int:
+    if argv[:1] == ["--one"]:
+        print(json.dumps(one(int(argv[1]))))
+        return 0
+    sizes = [int(a) for a in argv] or [5000, 50000]
+    print(f"{'candidates':>10} {'total s':>8} {'read':>6} {'build':>6} {'recalc':>7} {'recalc %':>8} "
+          f"{'build %':>7} {'floor s':>7} {'study/floor':>11} {'peak MB':>8} {'formulas':>9} {'errors':>6}")
+    for n in sizes:
+        out = subprocess.run([sys.executable, __file__, "--one", str(n)], capture_output=True, text=True)
+        if out.returncode != 0:
+            print(f"{n:>10} failed:\n{out.stderr[-2000:]}")
+            continue
+        r = json.loads(out.stdout.strip().splitlines()[-1])
+        peak = f"{r['peak_mb']:.0f}" if r["peak_mb"] is not None else "n/a"
+        print(f"{n:>10} {r['total']:8.1f} {r['read']:6.1f} {r['build']:6.1f} {r['recalculate']:7.1f} "
+              f"{100 * r['recalculate'] / r['total']:7.0f}% {100 * r['build'] / r['total']:6.0f}% "
+              f"{r['floor']:7.1f} {r['total'] / r['floor']:10.1f}x {peak:>8} {r['formulas']:>9} {r['errors']:>6}")
+    print("target: 50,000 candidates under 60 s and under 2,048 MB peak")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv[1:]))
