@@ -58,6 +58,8 @@ def render_markdown() -> str:
             if spec.caution:
                 out += [f"> {spec.caution}", ""]
         out += [f"### `{spec.signature}`", "", entry["description"], ""]
+        if spec.aliases:
+            out += [f"Also callable as {', '.join(f'`{a}`' for a in spec.aliases)} (the name to use in a workbook cell).", ""]
         out += ["| argument | kind | default | meaning |", "|---|---|---|---|"]
         for arg in entry["arguments"]:
             kind = arg["kind"] + (" (" + ", ".join(f'"{c}"' for c in arg["choices"]) + ")" if "choices" in arg else "")
@@ -88,6 +90,8 @@ def _functions(args) -> int:
         spec = REGISTRY[entries[0]["name"]]
         print(spec.signature)
         print(textwrap.fill(spec.description, 78))
+        if spec.aliases:
+            print(f"Also: {', '.join(spec.aliases)} (the name to use in a workbook cell)")
         for arg in entries[0]["arguments"]:
             extra = f" (default {json.dumps(arg['default'])})" if "default" in arg else ""
             choices = f" one of {', '.join(arg['choices'])}" if "choices" in arg else ""
@@ -105,7 +109,7 @@ def _functions(args) -> int:
             print(f"\n{TOPIC_TITLES.get(topic, topic)}")
             if spec.caution:
                 print(textwrap.fill(spec.caution, 78, initial_indent="  Caution: ", subsequent_indent="  "))
-        print(f"  {spec.signature}")
+        print(f"  {spec.signature}" + (f"   also {', '.join(spec.aliases)}" if spec.aliases else ""))
         print(textwrap.fill(entry["description"], 78, initial_indent="      ", subsequent_indent="      "))
     print(f"\n{len(entries)} functions. `trueband functions NAME` shows one in full.\n"
           f"{textwrap.fill(CAUTION, 78)}")

@@ -43,6 +43,7 @@ __all__ = [
     "Argument",
     "SpreadsheetFunction",
     "REGISTRY",
+    "ALIASES",
     "RESULT_KINDS",
     "spreadsheet",
     "lookup",
@@ -123,6 +124,7 @@ class SpreadsheetFunction:
     elementwise: frozenset[str]  # number/integer arguments the body accepts as float arrays
     topic: str
     python_name: str
+    aliases: tuple[str, ...] = ()  # other spreadsheet names (e.g. one a cell can hold where NAME looks like a cell)
 
     @property
     def min_args(self) -> int:
@@ -224,12 +226,17 @@ class SpreadsheetFunction:
             "python": self.python_name,
             "elementwise": sorted(self.elementwise),
         }
+        if self.aliases:
+            entry["aliases"] = list(self.aliases)
         if self.caution:
             entry["caution"] = self.caution
         return entry
 
 
 REGISTRY: dict[str, SpreadsheetFunction] = {}
+
+#: Further spreadsheet names → the registered name (see ``aliases`` of :func:`spreadsheet`).
+ALIASES: dict[str, str] = {}
 
 _KIND_OF = {float: "number", int: "integer", bool: "boolean", str: "text", v.Range: "range"}
 
@@ -270,23 +277,31 @@ def _kind(annotation) -> tuple[str, tuple[str, ...] | None]:
         raise TypeError(f"unsupported argument annotation {annotation!r}") from None
 
 
-def spreadsheet(name: str, *, returns: str, reference: str, elementwise: bool | Sequence[str] = False):
+def spreadsheet(name: str, *, returns: str, reference: str, elementwise: bool | Sequence[str] = False,
+                aliases: Sequence[str] = ()):
     """Register a function under its spreadsheet name.
 
     ``returns`` is a key of :data:`RESULT_KINDS`; ``reference`` the published
     source of the method; ``elementwise`` says the function body accepts float
     arrays (numpy broadcasting) for all its ``float`` arguments (``True``) or
     for the ones named (``int`` arguments too), so a whole column can be
-    computed in one call.
+    computed in one call. ``aliases`` are further spreadsheet names for the same
+    function: a name such as ``KR20`` reads as a cell address in spreadsheet
+    apps, so a workbook cell needs ``KR_20``.
     """
     if name != name.upper() or not re.fullmatch(r"[A-Z][A-Z0-9_]*", name):
         raise ValueError(f"spreadsheet names are UPPER_CASE words, got {name!r}")
     if returns not in RESULT_KINDS:
         raise ValueError(f"unknown result kind {returns!r}")
 
+    for alias in aliases:
+        if not re.fullmatch(r"[A-Z][A-Z0-9_]*", alias):
+            raise ValueError(f"spreadsheet names are UPPER_CASE words, got {alias!r}")
+
     def decorate(body: Callable) -> Callable:
-        if name in REGISTRY:
-            raise ValueError(f"{name} is registered twice")
+        for key in (name, *aliases):
+            if key in REGISTRY or key in ALIASES:
+                raise ValueError(f"{key} is registered twice")
         hints = typing.get_type_hints(body)
         doc = inspect.getdoc(body) or ""
         arg_docs = _argument_docs(doc)
@@ -303,8 +318,9 @@ def spreadsheet(name: str, *, returns: str, reference: str, elementwise: bool | 
         spec = SpreadsheetFunction(
             name=name, body=body, arguments=tuple(arguments), returns=returns,
             description=description, reference=reference, elementwise=frozenset(vector),
-            topic=body.__module__.rsplit(".", 1)[-1], python_name=body.__name__)
+            topic=body.__module__.rsplit(".", 1)[-1], python_name=body.__name__, aliases=tuple(aliases))
         REGISTRY[name] = spec
+        ALIASES.update({alias: name for alias in aliases})
 
         @functools.wraps(body)
         def wrapper(*args, **kwargs):
@@ -317,13 +333,13 @@ def spreadsheet(name: str, *, returns: str, reference: str, elementwise: bool | 
 
 
 def normalize_name(name: str) -> str:
-    """Upper-case a function name and strip the prefixes spreadsheet apps add."""
+    """Upper-case a function name, strip the prefixes spreadsheet apps add, and resolve an alias."""
     key = name.strip().upper()
     for prefix in NAME_PREFIXES:
         if key.startswith(prefix):
             key = key[len(prefix):]
             break
-    return key
+    return ALIASES.get(key, key)
 
 
 def lookup(name: str) -> SpreadsheetFunction:

@@ -228,7 +228,7 @@ def alpha_confidence_limit(alpha: float, n_people: int, n_items: int, part: Lite
 
 # ---------------------------------------------------------------- Kuder–Richardson
 
-@spreadsheet("KR20", returns="coefficient",
+@spreadsheet("KR20", returns="coefficient", aliases=["KR_20"],
              reference="Kuder, G. F. & Richardson, M. W. (1937). The theory of the estimation of test "
                        "reliability. Psychometrika 2, 151-160, formula 20.")
 def kuder_richardson_20(items: Range) -> float:
@@ -238,6 +238,9 @@ def kuder_richardson_20(items: Range) -> float:
     on item i, qᵢ = 1 − pᵢ, and σ²ₓ the variance of the total score with
     denominator n (the same denominator as pᵢqᵢ). It is coefficient alpha for
     0/1 items, exactly.
+
+    In a workbook cell write ``=KR_20(...)``: spreadsheet apps read ``KR20``
+    as the address of the cell in column KR, row 20.
 
     Parameters
     ----------
@@ -275,7 +278,7 @@ def kuder_richardson_20(items: Range) -> float:
     return k / (k - 1) * (1.0 - sum_pq / total_var)
 
 
-@spreadsheet("KR21", returns="coefficient", elementwise=["n_items", "mean", "variance"],
+@spreadsheet("KR21", returns="coefficient", elementwise=["n_items", "mean", "variance"], aliases=["KR_21"],
              reference="Kuder, G. F. & Richardson, M. W. (1937). The theory of the estimation of test "
                        "reliability. Psychometrika 2, 151-160, formula 21.")
 def kuder_richardson_21(n_items: int, mean: float, variance: float) -> float:
@@ -283,6 +286,8 @@ def kuder_richardson_21(n_items: int, mean: float, variance: float) -> float:
 
     KR-21 = k/(k − 1) · (1 − M(k − M) / (k · s²)), with k items, M the mean
     total score and s² the variance of total scores.
+
+    In a workbook cell write ``=KR_21(...)`` (``KR21`` reads as a cell address).
 
     Parameters
     ----------

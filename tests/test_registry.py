@@ -75,3 +75,24 @@ def test_adverse_impact_entries_carry_the_caution():
     for entry in impact:
         assert "not legal findings" in entry["caution"], entry["name"]
     assert "not legal findings" in render_markdown()
+
+
+def _looks_like_a_cell(name):
+    # A1-style address within the grid of current spreadsheet apps (XFD1048576), common practice.
+    m = re.fullmatch(r"([A-Z]{1,3})([0-9]+)", name)
+    if not m:
+        return False
+    col = 0
+    for ch in m.group(1):
+        col = col * 26 + ord(ch) - 64
+    return col <= 16384 and 1 <= int(m.group(2)) <= 1048576
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_every_function_has_a_name_a_cell_can_hold(name):
+    spec = REGISTRY[name]
+    usable = [n for n in (spec.name, *spec.aliases) if not _looks_like_a_cell(n)]
+    assert usable, f"{name} reads as a cell address; give it an alias such as {name[:2]}_{name[2:]}"
+    for alias in spec.aliases:
+        assert normalize_name(alias.lower()) == name
+        assert normalize_name("_xludf." + alias) == name
