@@ -168,10 +168,10 @@ def fill_changes(pkg: WorkbookPackage, plan: FillPlan, formula: str, *, header: 
     return changes
 
 
-def _recalculate(path: Path, dst: Path):
+def _recalculate(path: Path, dst: Path, overwrite: bool):
     from .recalc import recalculate  # the evaluation engine (imported late: it loads the formula parser)
 
-    return recalculate(path, dst)
+    return recalculate(path, dst, overwrite=overwrite)
 
 
 def fill_workbook(book: str | os.PathLike, sheet: str, column: str, formula: str, *, rows=None,
@@ -211,7 +211,7 @@ def fill_workbook(book: str | os.PathLike, sheet: str, column: str, formula: str
             pkg.close()
         if in_place and backup:
             shutil.copy2(src, backup_path_for(src))
-        report = _recalculate(temp, dest)
+        report = _recalculate(temp, dest, overwrite=overwrite or in_place)
     except OutputRefused as exc:
         raise CommandError(str(exc)) from None
     finally:

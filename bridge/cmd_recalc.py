@@ -75,7 +75,7 @@ def _recalc(args) -> int:
         progress.enabled = False  # a missing file is reported by recalculate
     try:
         report = recalculate(args.book, args.output, in_place=args.in_place, backup=args.backup,
-                             all_formulas=args.all, values=args.values,
+                             all_formulas=args.all, values=args.values, overwrite=args.overwrite,
                              progress=progress if progress.enabled else None)
     except UnusableWorkbook as exc:
         progress.close()
@@ -126,7 +126,8 @@ def register(sub) -> None:
                     "are listed. Exit status: 0 all evaluated, 1 some cells are errors, 2 the workbook could not "
                     "be processed (nothing written).")
     p.add_argument("book", help="the .xlsx or .xlsm workbook")
-    p.add_argument("-o", "--output", help="where to write (default: BOOK.recalculated.xlsx beside the input)")
+    p.add_argument("-o", "--output", help="where to write (default: BOOK.recalc.xlsx beside the input)")
+    p.add_argument("--overwrite", action="store_true", help="replace the output file if it exists already")
     p.add_argument("--in-place", action="store_true",
                    help="replace the input, only once the new file is complete and re-opens cleanly")
     p.add_argument("--backup", action="store_true", help="with --in-place, keep the original beside it")

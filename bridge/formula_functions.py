@@ -203,9 +203,10 @@ def install(table: dict | None = None) -> dict:
     table = formulas.get_functions() if table is None else table
     for name, spec in REGISTRY.items():
         fn = adapter(spec)
-        table[name] = fn
-        for prefix in NAME_PREFIXES:
-            table[prefix + name] = fn
+        for key in (name, *spec.aliases):
+            table[key] = fn
+            for prefix in NAME_PREFIXES:
+                table[prefix + key] = fn
     return table
 
 

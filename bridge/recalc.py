@@ -778,7 +778,8 @@ def _changes(model: WorkbookModel, updates: dict[str, dict[str, object]]):
 # ---------------------------------------------------------------- the entry point
 
 def recalculate(src, dst=None, *, in_place: bool = False, backup: bool = False, all_formulas: bool = False,
-                values: bool = False, progress: Callable[[str, float], None] | None = None) -> RecalcReport:
+                values: bool = False, progress: Callable[[str, float], None] | None = None,
+                overwrite: bool = False) -> RecalcReport:
     """Recalculate a workbook and write the values (see the module docstring).
 
     Parameters
@@ -800,6 +801,8 @@ def recalculate(src, dst=None, *, in_place: bool = False, backup: bool = False, 
         keeping the originals in a hidden sheet (see ``trueband restore``).
     progress : callable, optional
         Called as ``progress(stage, fraction)``.
+    overwrite : bool, optional
+        Replace an existing output file; without it an existing output is refused.
 
     Returns
     -------
@@ -828,7 +831,7 @@ def recalculate(src, dst=None, *, in_place: bool = False, backup: bool = False, 
         if progress:
             progress("writing", 1.0)
         try:
-            out = save_workbook(package, changes, output=dst, in_place=in_place, backup=backup, overwrite=True)
+            out = save_workbook(package, changes, output=dst, in_place=in_place, backup=backup, overwrite=overwrite)
         except OutputRefused as exc:
             raise UnusableWorkbook(str(exc), path=src) from None
     finally:

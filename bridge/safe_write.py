@@ -380,7 +380,7 @@ def save_workbook(pkg: WorkbookPackage, changes: PackageChanges, *, output: str 
         if _same_file(dest, src) or dest.resolve() == src.resolve():
             raise OutputRefused(f"the output {dest.name} is the input; use --in-place to replace the input")
         if dest.exists() and not overwrite:
-            raise OutputRefused(f"{dest} exists already; remove it, choose another output, or allow overwriting")
+            raise OutputRefused(f"{dest} exists already; remove it, choose another output, or add --overwrite")
         if pkg.is_macro_enabled and dest.suffix.lower() == ".xlsx" and src.suffix.lower() == ".xlsm":
             raise OutputRefused(f"{src.name} holds macros; the output must end in .xlsm, not {dest.name}")
         lock = lock_file_of(dest) if dest.exists() else None

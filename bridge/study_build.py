@@ -391,8 +391,8 @@ class _Builder:
             binary = bool(np.isin(xc, (0.0, 1.0)).all()) if xc.size else False
             g.set(11, 1, "KR-20 (items scored 0/1)")
             if binary:
-                # prefixed: "KR20(" reads as the cell KR20 followed by a bracket in spreadsheet apps
-                self.put(g, 11, 2, f"=_xludf.KR20({items_rng})", self.heavy(lambda: call("KR20", x)), style="coef",
+                # the alias: "KR20(" reads as the cell KR20 followed by a bracket in spreadsheet apps
+                self.put(g, 11, 2, f"=KR_20({items_rng})", self.heavy(lambda: call("KR20", x)), style="coef",
                          key="kr20")
             else:
                 self.na(g, 11, 2, "the items are not all scored 0/1", key="kr20")

@@ -362,3 +362,28 @@ def test_patching_in_bands_gives_the_same_bytes(tmp_path, monkeypatch):
     monkeypatch.setattr(rc, "BAND_BYTES", 700)  # a band every few rows
     banded = recalculate(src, tmp_path / "banded.xlsx", all_formulas=True)
     assert entries(whole.output) == entries(banded.output)
+
+
+def test_alias_names_work_in_cells_and_an_existing_output_is_kept(tmp_path):
+    # KR20 reads as the cell KR20 in spreadsheet apps (common practice), so cells use the alias KR_20.
+    import openpyxl
+
+    book = tmp_path / "items.xlsx"
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    items = [[1, 0, 1, 1], [1, 1, 1, 0], [0, 0, 1, 0], [1, 1, 1, 1], [0, 0, 0, 1], [1, 0, 1, 1]]
+    for row in items:
+        ws.append(row)
+    ws["F1"] = "=KR_20(A1:D6)"
+    ws["F2"] = "=_xludf.kr_21(4, 2.5, 1.2)"
+    wb.save(book)
+    out = tmp_path / "out.xlsx"
+    report = recalculate(book, out)
+    assert report.ok
+    got = openpyxl.load_workbook(out, data_only=True).active
+    assert got["F1"].value == pytest.approx(call("KR20", items), rel=1e-15)
+    assert got["F2"].value == pytest.approx(call("KR21", 4, 2.5, 1.2), rel=1e-15)
+    before = out.read_bytes()
+    assert cli.main(["recalc", str(book), "-o", str(out)]) == 2  # never overwrite unless asked
+    assert out.read_bytes() == before
+    assert cli.main(["recalc", str(book), "-o", str(out), "--overwrite"]) == 0
