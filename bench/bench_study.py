@@ -90,6 +90,9 @@ def main(argv: list[str]) -> int:
     if argv[:1] == ["--one"]:
         print(json.dumps(one(int(argv[1]))))
         return 0
+    if any(a in ("-h", "--help") for a in argv) or not all(a.isdigit() for a in argv):
+        print(__doc__)
+        return 0 if argv and argv[0] in ("-h", "--help") else 2
     sizes = [int(a) for a in argv] or [5000, 50000]
     print(f"{'candidates':>10} {'total s':>8} {'read':>6} {'build':>6} {'recalc':>7} {'recalc %':>8} "
           f"{'build %':>7} {'floor s':>7} {'study/floor':>11} {'peak MB':>8} {'formulas':>9} {'errors':>6}")
