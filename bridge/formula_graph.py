@@ -35,7 +35,7 @@ import bisect
 import dataclasses
 import functools
 import re
-from typing import Iterable, Iterator
+from typing import Callable, Iterable, Iterator
 
 import formulas
 from formulas.builder import AstBuilder
@@ -459,50 +459,8 @@ class FormulaGraph:
         return out
 
     def components(self, among: set[int]) -> list[list[int]]:
-        """Strongly connected components of the runs in ``among``, dependencies first (Tarjan, iterative)."""
-        index: dict[int, int] = {}
-        low: dict[int, int] = {}
-        on_stack: set[int] = set()
-        stack: list[int] = []
-        out: list[list[int]] = []
-        counter = 0
-        for start in sorted(among):
-            if start in index:
-                continue
-            work = [(start, iter(sorted(d for d in self.edges[start] if d in among)))]
-            index[start] = low[start] = counter
-            counter += 1
-            stack.append(start)
-            on_stack.add(start)
-            while work:
-                node, it = work[-1]
-                advanced = False
-                for nxt in it:
-                    if nxt not in index:
-                        index[nxt] = low[nxt] = counter
-                        counter += 1
-                        stack.append(nxt)
-                        on_stack.add(nxt)
-                        work.append((nxt, iter(sorted(d for d in self.edges[nxt] if d in among))))
-                        advanced = True
-                        break
-                    if nxt in on_stack:
-                        low[node] = min(low[node], index[nxt])
-                if advanced:
-                    continue
-                work.pop()
-                if work:
-                    low[work[-1][0]] = min(low[work[-1][0]], low[node])
-                if low[node] == index[node]:
-                    comp = []
-                    while True:
-                        x = stack.pop()
-                        on_stack.discard(x)
-                        comp.append(x)
-                        if x == node:
-                            break
-                    out.append(comp)
-        return out  # Tarjan emits a component after everything it reaches: dependencies first
+        """Strongly connected components of the runs in ``among``, dependencies first."""
+        return strongly_connected(among, lambda run: sorted(d for d in self.edges[run] if d in among))
 
     def is_vector_group(self, comp: list[int]) -> bool:
         return len(comp) == 1 and comp[0] not in self.edges[comp[0]]
@@ -570,16 +528,24 @@ def _kahn(cells, deps: list[list[int]], removed: set[int]) -> list[int]:
 
 
 def _cell_components(nodes: set[int], deps: list[list[int]]) -> list[list[int]]:
+    return strongly_connected(nodes, lambda cell: [d for d in deps[cell] if d in nodes])
+
+
+def strongly_connected(nodes: Iterable[int], successors: Callable[[int], Iterable[int]]) -> list[list[int]]:
+    """Strongly connected components (Tarjan, iterative so deep chains do not hit the recursion limit).
+
+    A component is emitted after every component it reaches, so the list comes dependencies first.
+    """
     index: dict[int, int] = {}
     low: dict[int, int] = {}
     on_stack: set[int] = set()
     stack: list[int] = []
-    out = []
+    out: list[list[int]] = []
     counter = 0
     for start in sorted(nodes):
         if start in index:
             continue
-        work = [(start, iter([d for d in deps[start] if d in nodes]))]
+        work = [(start, iter(successors(start)))]
         index[start] = low[start] = counter
         counter += 1
         stack.append(start)
@@ -593,7 +559,7 @@ def _cell_components(nodes: set[int], deps: list[list[int]]) -> list[list[int]]:
                     counter += 1
                     stack.append(nxt)
                     on_stack.add(nxt)
-                    work.append((nxt, iter([d for d in deps[nxt] if d in nodes])))
+                    work.append((nxt, iter(successors(nxt))))
                     advanced = True
                     break
                 if nxt in on_stack:
