@@ -41,12 +41,15 @@ import math
 from typing import Literal
 
 import numpy as np
-from scipy import stats
 
 from . import _validate as v
+from ._lazy import lazy_module
 from ._validate import Range
 from .errors import ArgumentTypeError, DomainError, InsufficientDataError, ZeroVarianceError
 from .registry import spreadsheet
+
+# scipy.stats and scipy.optimize are slow to import: load them on first use (see _lazy)
+stats = lazy_module("scipy.stats")
 
 __all__ = [
     "IntraclassCorrelation",

@@ -37,11 +37,14 @@ from __future__ import annotations
 from fractions import Fraction
 
 import numpy as np
-from scipy import stats
 
 from . import _validate as v
+from ._lazy import lazy_module
 from .errors import DomainError, ZeroVarianceError
 from .registry import spreadsheet
+
+# scipy.stats and scipy.optimize are slow to import: load them on first use (see _lazy)
+stats = lazy_module("scipy.stats")
 
 __all__ = [
     "selection_rate",

@@ -43,12 +43,17 @@ import dataclasses
 from typing import Literal
 
 import numpy as np
-from scipy import linalg, optimize, stats
 
 from . import _validate as v
+from ._lazy import lazy_module
 from ._validate import Range
 from .errors import DomainError, InsufficientDataError, ZeroVarianceError
 from .registry import spreadsheet
+
+# scipy.stats and scipy.optimize are slow to import: load them on first use (see _lazy)
+linalg = lazy_module("scipy.linalg")
+optimize = lazy_module("scipy.optimize")
+stats = lazy_module("scipy.stats")
 
 __all__ = [
     "cronbach_alpha",
