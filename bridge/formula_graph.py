@@ -43,6 +43,8 @@ from formulas.tokens.function import Function
 from formulas.tokens.operand import Empty, Error, Number, Range, String
 from formulas.tokens.operator import Operator
 
+from .sheet_xml import column_index, column_letters, split_ref
+
 __all__ = [
     "MAX_ROW", "MAX_COL", "Ref", "Node", "Compiled", "Run", "FormulaGraph", "formula_key", "compile_formula",
     "column_index", "column_letters", "split_address", "FormulaSyntaxError", "KeyTemplate",
@@ -56,34 +58,8 @@ class FormulaSyntaxError(ValueError):
     """A formula the parser cannot read."""
 
 
-@functools.lru_cache(maxsize=None)
-def column_index(letters: str) -> int:
-    """``"A"`` → 1, ``"AA"`` → 27."""
-    n = 0
-    for ch in letters.upper():
-        n = n * 26 + ord(ch) - 64
-    return n
-
-
-@functools.lru_cache(maxsize=None)
-def column_letters(index: int) -> str:
-    """1 → ``"A"``, 27 → ``"AA"``."""
-    out = ""
-    while index:
-        index, rem = divmod(index - 1, 26)
-        out = chr(65 + rem) + out
-    return out
-
-
-_ADDRESS = re.compile(r"\$?([A-Za-z]{1,3})\$?(\d+)")
-
-
-def split_address(address: str) -> tuple[int, int]:
-    """``"C12"`` → (12, 3) as (row, column)."""
-    m = _ADDRESS.fullmatch(address)
-    if not m:
-        raise ValueError(f"not a cell address: {address!r}")
-    return int(m.group(2)), column_index(m.group(1))
+# Cell addresses are read and written by the package layer's helpers (one definition of each).
+split_address = split_ref
 
 
 # ---------------------------------------------------------------- position-independent keys
