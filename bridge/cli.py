@@ -39,6 +39,15 @@ class CommandError(Exception):
     """A problem that ends a command with one clear line and exit status 2."""
 
 
+def add_output_options(parser: argparse.ArgumentParser) -> None:
+    """The output options every command that writes a workbook takes (same words everywhere)."""
+    parser.add_argument("-o", "--output", help="where to write (default: a new file beside the input)")
+    parser.add_argument("--overwrite", action="store_true", help="allow replacing an existing output file")
+    parser.add_argument("--in-place", action="store_true",
+                        help="replace the input, only once the new file is complete and re-opens cleanly")
+    parser.add_argument("--backup", action="store_true", help="with --in-place, keep the original as BOOK.backup.xlsx")
+
+
 def build_parser() -> argparse.ArgumentParser:
     from trueband.funcs import __version__
 

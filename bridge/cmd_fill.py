@@ -31,7 +31,7 @@ from pathlib import Path
 from trueband.funcs import _validate as v
 from trueband.funcs.errors import TruebandError
 
-from .cli import EXIT_CELL_ERRORS, EXIT_OK, CommandError
+from .cli import EXIT_CELL_ERRORS, EXIT_OK, CommandError, add_output_options
 from .safe_write import OutputRefused, PackageChanges, backup_path_for, default_output_path, save_workbook
 from .sheet_xml import NewCell, SheetXmlError, add_cells, column_index, column_letters, iter_cells
 from .xlsx_package import UnusableWorkbook, WorkbookPackage, open_workbook_package
@@ -363,14 +363,6 @@ def _restore(args) -> int:
     return EXIT_OK if not report.skipped else EXIT_CELL_ERRORS
 
 
-def _output_options(p) -> None:
-    p.add_argument("-o", "--output", help="where to write (default: a new file beside the input)")
-    p.add_argument("--in-place", action="store_true",
-                   help="replace the input, only once the new file is complete and re-opens cleanly")
-    p.add_argument("--backup", action="store_true", help="with --in-place, keep the original as BOOK.backup.xlsx")
-    p.add_argument("--overwrite", action="store_true", help="allow replacing an existing output file")
-
-
 def register(sub) -> None:
     p = sub.add_parser(
         "fill", help="write a formula down a table column, then recalculate",
@@ -384,7 +376,7 @@ def register(sub) -> None:
     p.add_argument("--header", help="text for the header cell above the filled rows")
     p.add_argument("--rows", help="FIRST:LAST data rows (default: the rows of the table under its header)")
     p.add_argument("--replace", action="store_true", help="overwrite cells of the column that are not empty")
-    _output_options(p)
+    add_output_options(p)
     p.set_defaults(handler=_fill)
 
     p = sub.add_parser(
@@ -400,7 +392,7 @@ def register(sub) -> None:
     p.add_argument("--into", help="the column to fill (default: the first empty column of the sheet)")
     p.add_argument("--header", default="Score band", help='header text (default "Score band")')
     p.add_argument("--replace", action="store_true", help="overwrite cells of the column that are not empty")
-    _output_options(p)
+    add_output_options(p)
     p.set_defaults(handler=_bands)
 
     p = sub.add_parser(
@@ -408,5 +400,5 @@ def register(sub) -> None:
         description="Put every formula recorded in the hidden sheet trueband_formulas back into its cell (beside "
                     "the cell's current value) and remove that sheet. Default output: BOOK.restored.xlsx.")
     p.add_argument("book", help="the .xlsx or .xlsm workbook")
-    _output_options(p)
+    add_output_options(p)
     p.set_defaults(handler=_restore)

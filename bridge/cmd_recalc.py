@@ -9,7 +9,7 @@ from pathlib import Path
 
 from trueband.funcs.registry import NAME_PREFIXES, REGISTRY
 
-from .cli import EXIT_CELL_ERRORS, EXIT_FAILED, EXIT_OK
+from .cli import EXIT_CELL_ERRORS, EXIT_FAILED, EXIT_OK, add_output_options
 
 #: Workbook files at least this large (bytes) show a progress bar (when stderr is a terminal).
 PROGRESS_THRESHOLD = 1_000_000
@@ -126,11 +126,7 @@ def register(sub) -> None:
                     "are listed. Exit status: 0 all evaluated, 1 some cells are errors, 2 the workbook could not "
                     "be processed (nothing written).")
     p.add_argument("book", help="the .xlsx or .xlsm workbook")
-    p.add_argument("-o", "--output", help="where to write (default: BOOK.recalc.xlsx beside the input)")
-    p.add_argument("--overwrite", action="store_true", help="replace the output file if it exists already")
-    p.add_argument("--in-place", action="store_true",
-                   help="replace the input, only once the new file is complete and re-opens cleanly")
-    p.add_argument("--backup", action="store_true", help="with --in-place, keep the original beside it")
+    add_output_options(p)  # default output: BOOK.recalc.xlsx beside the input
     p.add_argument("--all", action="store_true", help="evaluate every formula in the workbook")
     p.add_argument("--values", action="store_true",
                    help="replace trueband formulas by their values, keeping the formulas in a hidden sheet "
