@@ -22,7 +22,6 @@ for reading.
 from __future__ import annotations
 
 import argparse
-import time
 import warnings
 
 import krippendorff
@@ -32,20 +31,12 @@ import pingouin as pg
 
 from trueband.funcs import agreement as ag
 from trueband.funcs import call
+from _timing import best_time  # bench/ is on sys.path when a script here runs
 
 FORMS = [  # (model, unit, pingouin's label)
     ("oneway", "single", "ICC(1,1)"), ("agreement", "single", "ICC(A,1)"), ("consistency", "single", "ICC(C,1)"),
     ("oneway", "average", "ICC(1,k)"), ("agreement", "average", "ICC(A,k)"), ("consistency", "average", "ICC(C,k)"),
 ]
-
-
-def best_time(fn, repeat: int) -> tuple[float, object]:
-    best, value = float("inf"), None
-    for _ in range(repeat):
-        start = time.perf_counter()
-        value = fn()
-        best = min(best, time.perf_counter() - start)
-    return best, value
 
 
 def ratings(n: int, k: int, seed: int) -> np.ndarray:

@@ -19,7 +19,6 @@ the numbers are for reading; on a busy machine they vary by a factor of two betw
 from __future__ import annotations
 
 import argparse
-import time
 import warnings
 
 import numpy as np
@@ -28,15 +27,7 @@ import pingouin as pg
 from statsmodels.multivariate.factor import Factor
 
 from trueband.funcs import call
-
-
-def best_time(fn, repeat: int) -> tuple[float, object]:
-    best, value = float("inf"), None
-    for _ in range(repeat):
-        start = time.perf_counter()
-        value = fn()
-        best = min(best, time.perf_counter() - start)
-    return best, value
+from _timing import best_time  # bench/ is on sys.path when a script here runs
 
 
 def one_factor_items(n: int, k: int, seed: int, binary: bool) -> np.ndarray:

@@ -76,9 +76,6 @@ class PassError(Exception):
         self.value = value
 
 
-_PassError = PassError
-
-
 def _cell(value):
     if value is schedula.EMPTY:
         return None
@@ -153,9 +150,6 @@ def range_argument(value):
     return converted
 
 
-_range_arg = range_argument
-
-
 def scalar_argument(value, name: str):
     """A scalar argument: a one-cell range is that cell; a larger range is refused."""
     if isinstance(value, np.ndarray):
@@ -163,9 +157,6 @@ def scalar_argument(value, name: str):
             raise ArgumentTypeError(f"{name} must be a single value, got a range of {value.size} cells", argument=name)
         value = value.ravel()[0]
     return _cell(value)
-
-
-_scalar_arg = scalar_argument
 
 
 def adapter(spec: SpreadsheetFunction) -> Callable:
@@ -177,11 +168,11 @@ def adapter(spec: SpreadsheetFunction) -> Callable:
             converted = []
             for i, value in enumerate(args):
                 if i < len(arguments) and arguments[i].kind == "range":
-                    converted.append(_range_arg(value))
+                    converted.append(range_argument(value))
                 else:
-                    converted.append(_scalar_arg(value, arguments[i].name if i < len(arguments) else "argument"))
+                    converted.append(scalar_argument(value, arguments[i].name if i < len(arguments) else "argument"))
             result = spec(*converted)
-        except _PassError as passed:
+        except PassError as passed:
             return passed.value
         except TruebandError as exc:
             ERROR_LOG.entries.append((spec.name, exc))
