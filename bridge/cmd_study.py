@@ -7,12 +7,15 @@ import shutil
 import sys
 import tempfile
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from .cli import EXIT_CELL_ERRORS, EXIT_OK, CommandError
-from .study_build import CAUTION, NOT_COMPUTABLE, StudyError, StudyResult, make_study
-from .study_setup import SetupError
+from .study_words import CAUTION, NOT_COMPUTABLE
+
+if TYPE_CHECKING:
+    from .study_build import StudyResult
 
 DEMO_FILES = {
     "data": "osterfell-applicants.xlsx",
@@ -166,6 +169,9 @@ def _report(result: StudyResult, out: Path) -> int:
 def run_study(args) -> int:
     src = Path(args.data)
     out = Path(args.output) if args.output else src.with_name(src.stem + "-study.xlsx")
+    from .study_build import StudyError, make_study
+    from .study_setup import SetupError
+
     try:
         result = make_study(src, out, _overrides(args), overwrite=args.overwrite, progress=_progress_printer())
     except (SetupError, StudyError) as exc:
@@ -188,6 +194,7 @@ def write_demo(target: Path, *, n: int = 400) -> tuple[StudyResult, dict[str, Pa
     """Write the demo into ``target`` (a new or empty folder) through a temporary folder beside it."""
     from .demo_data import make_demo
     from .recalc import recalculate
+    from .study_build import make_study
     from .templates import impact_template, scoring_template, study_data_workbook
 
     if target.exists() and (not target.is_dir() or any(target.iterdir())):
@@ -232,6 +239,9 @@ def write_demo(target: Path, *, n: int = 400) -> tuple[StudyResult, dict[str, Pa
 
 
 def run_demo(args) -> int:
+    from .study_build import StudyError
+    from .study_setup import SetupError
+
     target = Path(args.dir) if args.dir else _new_folder(Path.cwd())
     try:
         result, paths = write_demo(target)

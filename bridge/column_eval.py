@@ -46,7 +46,7 @@ from typing import Any, Callable, Sequence
 
 import numpy as np
 import schedula as sh
-from formulas.functions import Error, XlError, get_functions
+from formulas.functions import Error, XlError
 from formulas.functions.operators import OPERATORS
 
 from trueband.funcs.errors import TruebandError
@@ -65,14 +65,7 @@ _VALUE = _ERRORS["#VALUE!"]
 _REF = _ERRORS["#REF!"]
 _NAME = _ERRORS["#NAME?"]
 _DIV = _ERRORS["#DIV/0!"]
-_FUNCTIONS = None
-
-
-def _functions():
-    global _FUNCTIONS
-    if _FUNCTIONS is None:
-        _FUNCTIONS = ff.install()
-    return _FUNCTIONS
+_functions = ff.function_table
 
 
 def error_value(code: str) -> XlError:
@@ -163,6 +156,47 @@ def _area_value(store, sheet, area):
     return store.area(sheet, r1, c1, r2, c2)
 
 
+#: Aggregates over fixed ranges that are computed from the numbers directly when every cell of the
+#: ranges is a number or blank: name → (numpy function, ddof). The library's functions compute the same
+#: thing then (numpy over the numbers in reading order, blanks skipped), but reading a large range as
+#: engine values costs a Python step per cell, and its statistics module imports scipy.stats. Anything
+#: else (text, logicals or errors in a range, scalar arguments, too few numbers) goes to the library.
+_RANGE_AGGREGATES = {
+    "SUM": (np.sum, None), "AVERAGE": (np.mean, None), "COUNT": (len, None), "MIN": (np.min, None),
+    "MAX": (np.max, None), "STDEV": (np.std, 1), "STDEV.S": (np.std, 1), "STDEVP": (np.std, 0),
+    "STDEV.P": (np.std, 0), "VAR": (np.var, 1), "VAR.S": (np.var, 1), "VARP": (np.var, 0), "VAR.P": (np.var, 0),
+}
+
+
+def _range_aggregate(name: str, args, store, sheet: str, row: int, col: int, *, fixed_rows: bool = False):
+    """The value of ``name(range, ...)`` over number-only ranges, or None when the library must decide."""
+    key = name[6:] if name.startswith("_XLFN.") else name
+    how = _RANGE_AGGREGATES.get(key)
+    numbers_of = getattr(store, "numbers", None)
+    if how is None or numbers_of is None or not args:
+        return None
+    parts = []
+    for a in args:
+        if a.kind != "ref" or a.ref.name is not None or (fixed_rows and not a.ref.rows_fixed):
+            return None
+        r1, c1, r2, c2 = a.ref.area(row, col)
+        if r1 < 1 or c1 < 1 or r2 > MAX_ROW or c2 > MAX_COL:
+            return None
+        nums = numbers_of(a.ref.sheet or sheet, r1, c1, r2, c2)
+        if nums is None:
+            return None
+        parts.append(nums)
+    values = parts[0] if len(parts) == 1 else np.concatenate(parts)
+    fn, ddof = how
+    if fn is len:
+        return float(values.size)
+    if values.size <= (ddof or 0) or (fn is not np.sum and values.size == 0):
+        return None  # the library's error or default
+    out = fn(values) if ddof is None else fn(values, ddof=ddof)
+    out = float(out)
+    return out if math.isfinite(out) else None
+
+
 class _CellEval:
     def __init__(self, store, sheet: str, row: int, col: int):
         self.store, self.sheet, self.row, self.col = store, sheet, row, col
@@ -210,6 +244,9 @@ class _CellEval:
             return out
         if name in ("ROW", "COLUMN"):
             return self._row_column(node)
+        fast = _range_aggregate(name, node.args, self.store, self.sheet, self.row, self.col)
+        if fast is not None:
+            return fast
         table = _functions()
         if name not in table or table[name] is ff.NOT_IMPLEMENTED:
             self.problems.append(CellProblem(name, "#NAME?", f"{name} is not a function trueband or the formula "
@@ -533,6 +570,9 @@ class _RunEval:
                 return float(a.ref.area(self.first, self.col)[0])
             start = a.ref.area(self.first, self.col)[0]
             return Col(np.arange(start, start + self.n, dtype=float))
+        fast = _range_aggregate(name, node.args, self.store, self.sheet, self.first, self.col, fixed_rows=True)
+        if fast is not None:
+            return fast
         table = _functions()
         if name not in table or table[name] is ff.NOT_IMPLEMENTED:
             for i in range(self.n):

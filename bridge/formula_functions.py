@@ -34,17 +34,97 @@ from formulas.functions import Error, XlError, not_implemented
 from trueband.funcs.errors import ArgumentTypeError, TruebandError, error_for_code
 from trueband.funcs.registry import NAME_PREFIXES, REGISTRY, SpreadsheetFunction
 
-__all__ = ["install", "BUILTIN_NAMES", "ERROR_LOG", "evaluate_expression", "to_engine_error", "UnreadableFormula",
+__all__ = ["install", "BUILTIN_NAMES", "builtin_names", "function_table", "FunctionTable", "ERROR_LOG", "evaluate_expression", "to_engine_error", "UnreadableFormula",
            "message_for", "range_argument", "scalar_argument", "PassError", "NOT_IMPLEMENTED"]
 
 # The engine logs every failing function with a traceback; errors are values here.
 logging.getLogger("schedula").setLevel(logging.CRITICAL)
 logging.getLogger("formulas").setLevel(logging.CRITICAL)
 
-#: Names of the standard functions the engine knows, taken before ours are added.
-BUILTIN_NAMES = frozenset(formulas.get_functions())
 #: What the engine's function table gives for a name it does not know.
 NOT_IMPLEMENTED = not_implemented
+
+#: The library's modules of standard functions, cheapest to import first: ``.stat`` (and ``.comp``,
+#: which imports it) load ``scipy.stats``, about a second, so they are imported only when a formula
+#: uses a name no other module has. The library defines each name in one module only (a test checks
+#: it), so the order of loading does not change what a name means.
+_EXPENSIVE_MODULES = (".stat", ".comp")
+
+
+def _library_modules() -> list[str]:
+    from formulas.functions import SUBMODULES
+
+    return [m for m in SUBMODULES if m not in _EXPENSIVE_MODULES] + [m for m in SUBMODULES if m in _EXPENSIVE_MODULES]
+
+
+def _load_library_module(name: str) -> dict:
+    import importlib
+
+    return importlib.import_module(name, "formulas.functions").FUNCTIONS
+
+
+class FunctionTable:
+    """The engine's standard functions and the registered ones, with the library loaded a module at a time.
+
+    ``table[name]`` is the function (``NOT_IMPLEMENTED`` for a name nobody
+    defines) and ``name in table`` tells whether it is defined, as with the
+    engine's own table; a name not found among the modules loaded so far
+    loads the next one. A registered function takes precedence over a
+    standard function of the same name, as :func:`install` does.
+    """
+
+    def __init__(self):
+        from formulas.functions import FUNCTIONS as base
+
+        self._table: dict = dict(base)
+        install(self._table)
+        self._pending = _library_modules()
+
+    def _find(self, name: str):
+        table = self._table
+        fn = table.get(name)
+        while fn is None and self._pending:
+            for key, value in _load_library_module(self._pending.pop(0)).items():
+                table.setdefault(key, value)
+            fn = table.get(name)
+        return fn
+
+    def __getitem__(self, name: str):
+        fn = self._find(name)
+        return NOT_IMPLEMENTED if fn is None else fn
+
+    def __contains__(self, name: str) -> bool:
+        fn = self._find(name)
+        return fn is not None and fn is not NOT_IMPLEMENTED
+
+
+_TABLE: FunctionTable | None = None
+
+
+def function_table() -> FunctionTable:
+    """The process's :class:`FunctionTable` (made on first use)."""
+    global _TABLE
+    if _TABLE is None:
+        _TABLE = FunctionTable()
+    return _TABLE
+
+
+def builtin_names() -> frozenset:
+    """Every name of the engine's standard library (imports all of it: about a second)."""
+    from formulas.functions import FUNCTIONS as base
+
+    names = set(base)
+    for module in _library_modules():
+        names.update(_load_library_module(module))
+    return frozenset(names)
+
+
+def __getattr__(name: str):
+    # BUILTIN_NAMES stays importable as a constant, computed on first use.
+    if name == "BUILTIN_NAMES":
+        value = globals()["BUILTIN_NAMES"] = builtin_names()
+        return value
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 class _ErrorLog(threading.local):
@@ -190,7 +270,8 @@ def message_for(name: str, exc: TruebandError) -> str:
 
 
 def install(table: dict | None = None) -> dict:
-    """Add every registered function (and its prefixed aliases) to the engine's table."""
+    """Add every registered function (and its prefixed aliases) to ``table``: by default the engine's own
+    table (which imports the whole standard library), as formulas compiled by the engine itself need."""
     table = formulas.get_functions() if table is None else table
     for name, spec in REGISTRY.items():
         fn = adapter(spec)

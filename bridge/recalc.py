@@ -235,6 +235,40 @@ class CellStore:
                 out[i] = c.other[r1 + int(i)]
         return out
 
+    def numbers(self, sheet: str, r1: int, c1: int, r2: int, c2: int) -> np.ndarray | None:
+        """The numbers of a range in reading order (row by row), blanks left out; None when a cell of it
+        holds text, a logical or an error, or the sheet does not exist (the caller then asks the library)."""
+        name = self.canonical(sheet)
+        if name is None:
+            return None
+        r2 = min(r2, max(self.max_row[name], r1))
+        cols = self.sheets[name]
+        parts, kinds = [], []
+        for c in range(c1, c2 + 1):
+            col = cols.get(c)
+            stop = 0 if col is None else min(r2 + 1, col.kind.size)
+            if stop <= r1:
+                if c2 - c1 > 1000:
+                    continue  # a blank column of a wide range adds nothing
+                parts.append(np.full(r2 - r1 + 1, np.nan))
+                kinds.append(np.zeros(r2 - r1 + 1, dtype=np.int8))
+                continue
+            num, kind = col.num[r1:stop], col.kind[r1:stop]
+            if stop <= r2:
+                num = np.concatenate([num, np.full(r2 + 1 - stop, np.nan)])
+                kind = np.concatenate([kind, np.zeros(r2 + 1 - stop, dtype=np.int8)])
+            parts.append(num)
+            kinds.append(kind)
+        if not parts:
+            return np.empty(0)
+        if len(parts) == 1:
+            num, kind = parts[0], kinds[0]
+        else:
+            num, kind = np.column_stack(parts).ravel(), np.column_stack(kinds).ravel()
+        if (kind == _KIND_OTHER).any():
+            return None
+        return num[kind == _KIND_NUMBER]
+
     def row_block(self, sheet: str, r1: int, r2: int, c1: int, c2: int):
         """(numbers NaN elsewhere (rows, cols), rows that are all numbers, row i in the engine's form)."""
         n, k = r2 - r1 + 1, c2 - c1 + 1

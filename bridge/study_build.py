@@ -41,17 +41,12 @@ from trueband.funcs.errors import InsufficientDataError, TruebandError, UnknownF
 
 from . import study_charts as charts
 from . import study_xml
+from .study_words import CAUTION, NOT_COMPUTABLE
 from .study_setup import SETTINGS, SETUP_SHEET, SetupError, StudyData, read_study_data
 
 __all__ = ["StudyError", "StudyResult", "build_study", "make_study", "CAUTION", "ANALYSIS_SHEETS"]
 
-CAUTION = ("These figures are statistical indicators to support professional judgment, not legal findings. "
-           "Hiring decisions must follow the employment law and regulations that apply where you hire and the "
-           "guidance of qualified professionals (for a US employer, the Uniform Guidelines on Employee Selection "
-           "Procedures and the professional testing standards are where to start).")
-
 ANALYSIS_SHEETS = ("Summary", "Reliability", "Items", "Raters", "Validity", "Bands", "Impact", "Utility", "Notes")
-NOT_COMPUTABLE = "not computable: "
 
 #: Up to this many cells in the item (or rating) range, every range function is called once while the
 #: study is built, to mark what cannot be computed; above it only cheap numpy checks are made.

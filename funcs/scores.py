@@ -33,12 +33,14 @@ from __future__ import annotations
 from typing import Literal
 
 import numpy as np
-from scipy import special
 
 from . import _validate as v
+from ._lazy import lazy_module
 from ._validate import Range
 from .errors import InsufficientDataError
 from .registry import spreadsheet
+
+special = lazy_module("scipy.special")
 
 __all__ = [
     "standard_error_of_measurement",

@@ -31,10 +31,12 @@ Conventions
 from __future__ import annotations
 
 import numpy as np
-from scipy import special
 
 from . import _validate as v
+from ._lazy import lazy_module
 from .registry import spreadsheet
+
+special = lazy_module("scipy.special")
 
 __all__ = [
     "taylor_russell",

@@ -42,13 +42,15 @@ from __future__ import annotations
 from typing import Literal
 
 import numpy as np
-from scipy import special
 
 from . import _validate as v
+from ._lazy import lazy_module
 from ._validate import Range
 from .errors import DomainError, InsufficientDataError, ZeroVarianceError
 from .registry import spreadsheet
 from .scores import two_sided_z
+
+special = lazy_module("scipy.special")
 
 __all__ = [
     "maximum_validity",
