@@ -25,8 +25,8 @@ are listed in :attr:`RecalcReport.cycles`.
 
 from __future__ import annotations
 
-import array
 import dataclasses
+import gc
 import math
 import re
 import time
@@ -136,33 +136,35 @@ class CellStore:
         self.max_row: dict[str, int] = {}
         self._areas: dict[tuple, np.ndarray] = {}
 
-    def add_sheet(self, name: str, columns: dict[int, tuple[list[int], list]]):
-        """Add a sheet from the package reader's columns (``{col: (rows, values)}``, rows ascending)."""
+    def add_sheet(self, name: str, columns: dict[int, "sheet_xml.ColumnArrays | tuple[list[int], list]"]):
+        """Add a sheet from the package reader's columns (:class:`~.sheet_xml.ColumnArrays`, or
+        ``(rows, values)`` lists with rows ascending)."""
         cols = {}
         top = 0
         for c, entry in columns.items():
-            if isinstance(entry, _Collected):
-                col = self._column_from_stream(entry)
-                cols[c] = col
-                top = max(top, entry.last)
+            if not isinstance(entry, sheet_xml.ColumnArrays):
+                rows, values = entry
+                others = {r: v for r, v in zip(rows, values) if type(v) is not float}
+                entry = sheet_xml.ColumnArrays(np.asarray(rows, dtype=np.int64),
+                                               np.array([v if type(v) is float else np.nan for v in values],
+                                                        dtype=float), others)
+            if not entry.rows.size:
                 continue
-            rows, values = entry
-            if not rows:
-                continue
-            size = rows[-1] + 1
+            size = int(entry.rows[-1]) + 1
             col = _Column(size)
-            r = np.asarray(rows, dtype=np.int64)
-            if all(type(v) is float for v in values):
-                col.num[r] = values
+            if entry.others:
+                number = np.ones(entry.rows.size, dtype=bool)
+                number[np.searchsorted(entry.rows, np.fromiter(entry.others, np.int64, len(entry.others)))] = False
+                r = entry.rows[number]
+                col.num[r] = entry.numbers[number]
                 col.kind[r] = _KIND_NUMBER
-            else:
-                for row, v in zip(rows, values):
-                    if type(v) is float:
-                        col.num[row] = v
-                        col.kind[row] = _KIND_NUMBER
-                    elif v is not None:
+                for row, v in entry.others.items():
+                    if v is not None:
                         col.other[row] = _engine_value(v)
                         col.kind[row] = _KIND_OTHER
+            else:
+                col.num[entry.rows] = entry.numbers
+                col.kind[entry.rows] = _KIND_NUMBER
             cols[c] = col
             top = max(top, size - 1)
         self.sheets[name] = cols
@@ -172,18 +174,6 @@ class CellStore:
     def _sheet(self, sheet: str):
         name = self.names.get(sheet.casefold())
         return None if name is None else self.sheets[name]
-
-    @staticmethod
-    def _column_from_stream(got) -> "_Column":
-        col = _Column(got.last + 1)
-        if got.num_rows:
-            r = np.frombuffer(got.num_rows, dtype=np.int64)
-            col.num[r] = np.frombuffer(got.num_values, dtype=float)
-            col.kind[r] = _KIND_NUMBER
-        for row, v in zip(got.other_rows, got.other_values):
-            col.other[row] = _engine_value(v)
-            col.kind[row] = _KIND_OTHER
-        return col
 
     def has_blank(self, sheet: str, col: int, r1: int, r2: int) -> bool:
         """Whether any of rows r1..r2 of a column is blank (for formula cells: has no cached value)."""
@@ -374,107 +364,127 @@ class WorkbookModel:
 _COL, _FIRST, _LAST, _KEY, _TEXT, _AT, _ARRAY = 0, 1, 2, 3, 4, 5, 7
 
 
-#: Sheet parts larger than this (bytes) are read cell by cell into compact arrays instead of with the
-#: column reader, which is faster but holds every cell as Python objects at once (gigabytes at full height).
-STREAMING_PART_SIZE = 200 * 1024 ** 2
-
-
-class _Collected:
-    """One column's cells as streamed: numbers in compact arrays, anything else in lists."""
-
-    __slots__ = ("num_rows", "num_values", "other_rows", "other_values", "first", "last")
-
-    def __init__(self, row: int):
-        self.num_rows = array.array("q")
-        self.num_values = array.array("d")
-        self.other_rows: list[int] = []
-        self.other_values: list = []
-        self.first = self.last = row
-
-
-def _stream_cells(xml: bytes, strings, collected: dict[int, _Collected]):
-    """Collect every cell's value into ``collected``; yield (row, col, formula) of the formula cells."""
-    for _, row, col, value, _, _, f in sheet_xml.iter_cells(xml, strings):
-        if value is None and f is None:
-            continue
-        got = collected.get(col)
-        if got is None:
-            got = collected[col] = _Collected(row)
-        got.last = row
-        if type(value) is float:
-            got.num_rows.append(row)
-            got.num_values.append(value)
-        elif value is not None:
-            got.other_rows.append(row)
-            got.other_values.append(value)
-        if f is not None:
-            yield row, col, f
-
-
 def _read_sheet(xml: bytes, strings) -> tuple[dict, list[list], tuple | None, set[int]]:
     """Cell values by column, formula runs (filled-down cells recognised by :class:`KeyTemplate`), the used
     range, and the shared-formula groups that call registered functions."""
-    if len(xml) > STREAMING_PART_SIZE:
-        collected: dict[int, _Collected] = {}
-        runs, registered_groups = _formula_runs(_stream_cells(xml, strings, collected))
-        used = None
-        if collected:
-            used = (min(g.first for g in collected.values()), min(collected),
-                    max(g.last for g in collected.values()), max(collected))
-        return collected, runs, used, registered_groups
-    sheet = sheet_xml.read_columns(xml, strings)
+    sheet = sheet_xml.read_column_arrays(xml, strings)
     columns = sheet.columns
     runs, registered_groups = _formula_runs(sheet.formulas)
     used = None
-    nonempty = {c: rows for c, (rows, _) in columns.items() if rows}
-    if nonempty:
-        used = (min(r[0] for r in nonempty.values()), min(nonempty), max(r[-1] for r in nonempty.values()),
-                max(nonempty))
+    if columns:
+        used = (min(int(c.rows[0]) for c in columns.values()), min(columns),
+                max(int(c.rows[-1]) for c in columns.values()), max(columns))
     return columns, runs, used, registered_groups
 
 
-def _formula_runs(formula_cells) -> tuple[list[list], set[int]]:
-    """Runs from (row, col, Formula) in document order, and the shared groups calling registered functions."""
-    runs: list[list] = []
-    open_runs: dict[int, list] = {}
-    shared: dict[int, tuple[str, int, int, str]] = {}  # si → (text, row, col, key)
+def _formula_runs(formula_cells: list) -> tuple[list[list], set[int]]:
+    """Runs from (row, col, Formula) in document order, and the shared groups calling registered functions.
+
+    A run is a stretch of consecutive rows of one column whose formulas have
+    the same position-independent form (a filled-down column is one run).
+    The cells are taken column by column; after each ordinary formula, the
+    cells below that read exactly as it does filled down are taken in
+    blocks (:func:`_filled_down`) instead of one by one. A shared formula's
+    dependent takes the text of the last master of its group before it in
+    document order (none: malformed, the cached value stays).
+    """
+    import bisect
+
+    masters: dict[int, list[tuple[int, str, int, int]]] = {}  # si → [(index, text, row, col)] in document order
     registered_groups: set[int] = set()
-    templates: dict[int, tuple[int, KeyTemplate]] = {}  # column → (last row, template of its run)
-    for row, col, f in formula_cells:
-        if f.kind == "dataTable":
-            continue
-        array_ref = None
-        if f.kind == "shared" and f.text is None:
-            master = shared.get(f.shared_index)
-            if master is None:
-                continue  # a dependent before its master: malformed; the cached value stays
-            text, mr, mc, key = master
-            at = (mr, mc)
-        else:
-            text = "=" + (f.text or "")
-            last = templates.get(col)
-            if last is not None and last[0] == row - 1 and last[1].text_at(row) == text:
-                template = last[1]
+    by_col: dict[int, list[int]] = {}
+    for index, (row, col, f) in enumerate(formula_cells):
+        by_col.setdefault(col, []).append(index)
+        if f.kind == "shared" and f.text is not None and f.shared_index is not None:
+            masters.setdefault(f.shared_index, []).append((index, "=" + f.text, row, col))
+            if uses_registered_function("=" + f.text):
+                registered_groups.add(f.shared_index)
+    master_keys: dict[int, str] = {}  # index of a master → its key
+
+    def master_of(si: int, index: int):
+        group = masters.get(si)
+        if not group:
+            return None
+        k = bisect.bisect_left(group, (index,)) - 1
+        if k < 0:
+            return None
+        m_index, text, mr, mc = group[k]
+        key = master_keys.get(m_index)
+        if key is None:
+            key = master_keys[m_index] = KeyTemplate(text, mr, mc).key
+        return text, mr, mc, key
+
+    runs: list[list] = []
+    for col in sorted(by_col):
+        indexes = by_col[col]
+        cells = [formula_cells[i] for i in indexes]
+        template: KeyTemplate | None = None
+        template_row = -1
+        cur: list | None = None
+        i, n = 0, len(cells)
+        while i < n:
+            row, _, f = cells[i]
+            kind = f.kind
+            if kind == "dataTable":
+                i += 1
+                continue
+            array_ref = None
+            if kind == "shared" and f.text is None:
+                master = master_of(f.shared_index, indexes[i])
+                if master is None:
+                    i += 1
+                    continue
+                text, mr, mc, key = master
+                at = (mr, mc)
             else:
-                template = KeyTemplate(text, row, col)
-            templates[col] = (row, template)
-            key = template.key
-            at = (row, col)
-            if f.kind == "shared" and f.shared_index is not None:
-                shared[f.shared_index] = (text, row, col, key)
-                if uses_registered_function(text):
-                    registered_groups.add(f.shared_index)
-            if f.kind == "array":
-                array_ref = f.ref or f"{column_letters(col)}{row}"
-        cur = open_runs.get(col)
-        if cur is not None and cur[_LAST] == row - 1 and cur[_KEY] == key and array_ref is None \
-                and cur[_ARRAY] is None:
-            cur[_LAST] = row
-        else:
-            cur = [col, row, row, key, text, at, False, array_ref]
-            runs.append(cur)
-            open_runs[col] = cur
+                text = "=" + (f.text or "")
+                if template is None or template_row != row - 1 or template.text_at(row) != text:
+                    template = KeyTemplate(text, row, col)
+                template_row = row
+                key = template.key
+                at = (row, col)
+                if kind == "array":
+                    array_ref = f.ref or f"{column_letters(col)}{row}"
+            if cur is not None and cur[_LAST] == row - 1 and cur[_KEY] == key and array_ref is None \
+                    and cur[_ARRAY] is None:
+                cur[_LAST] = row
+            else:
+                cur = [col, row, row, key, text, at, False, array_ref]
+                runs.append(cur)
+            i += 1
+            if kind == "normal" and i < n:
+                k = _filled_down(cells, i, row, template)
+                if k:
+                    cur[_LAST] = template_row = row + k
+                    i += k
+    runs.sort(key=lambda r: (r[_FIRST], r[_COL]))  # document order of their first cells
     return runs, registered_groups
+
+
+def _filled_down(cells: list, i: int, row: int, template: KeyTemplate) -> int:
+    """How many of ``cells[i:]`` are ordinary formulas in the rows right below ``row`` that read as
+    ``template`` filled down (checked a block at a time, the block doubling while all match)."""
+    from operator import eq
+
+    fmt = template.fmt[1:]  # without the "=" the template starts with
+    offsets = template.offsets
+    total, window, n = 0, 8, len(cells)
+    while i < n:
+        m = min(window, n - i)
+        first = row + total + 1
+        if offsets:
+            texts = list(map(fmt.format, *[range(first + o, first + o + m) for o in offsets]))
+        else:
+            texts = [fmt] * m
+        expected = list(zip(range(first, first + m), ["normal"] * m, texts))
+        got = [(c[0], c[2].kind, c[2].text) for c in cells[i:i + m]]
+        same = list(map(eq, got, expected))
+        if not all(same):
+            return total + same.index(False)
+        total += m
+        i += m
+        window = min(window * 2, 1 << 16)
+    return total
 
 
 def _name_compiler(package: WorkbookPackage):
@@ -725,56 +735,6 @@ def _as_values(values: list) -> np.ndarray:
 
 # ---------------------------------------------------------------- writing
 
-#: Sheet parts larger than this are patched a band of rows at a time (bounds the patcher's copies).
-BAND_BYTES = 128 * 1024 ** 2
-_ROW_START = re.compile(rb'<(?:\w+:)?row r="([0-9]+)"')
-
-
-def _patch_in_bands(xml: bytes, updates: dict[str, "sheet_xml.CellUpdate"]) -> bytes:
-    """:func:`sheet_xml.patch_sheet`, applied to bands of whole rows of a large part in turn.
-
-    The patcher holds the part, its pieces and the result at once; on a
-    full-height sheet that is several gigabytes. Each band is patched as a
-    sheet of its own (the part's head and tail around the band's rows) and
-    its patched rows are cut out again, so the result is the same bytes.
-    """
-    start, end, _ = sheet_xml.sheet_data_span(xml)
-    if end - start <= BAND_BYTES or not updates:
-        return sheet_xml.patch_sheet(xml, updates)
-    cuts = [start]  # offsets where a band starts: always at a <row r="..."> element
-    rows = [0]
-    pos = start + BAND_BYTES
-    while pos < end:
-        m = _ROW_START.search(xml, pos, end)
-        if m is None:
-            break
-        cuts.append(m.start())
-        rows.append(int(m.group(1)))
-        pos = m.start() + BAND_BYTES
-    if len(cuts) == 1:
-        return sheet_xml.patch_sheet(xml, updates)
-    cuts.append(end)
-    by_band: list[dict] = [{} for _ in range(len(cuts) - 1)]
-    import bisect
-    for ref, u in updates.items():
-        i = len(ref) - 1
-        while ref[i - 1].isdigit():
-            i -= 1
-        by_band[bisect.bisect_right(rows, int(ref[i:])) - 1][ref] = u
-    head, tail = xml[:start], xml[end:]
-    out = [head]
-    for k, band_updates in enumerate(by_band):
-        body = xml[cuts[k]:cuts[k + 1]]
-        if band_updates:
-            patched = sheet_xml.patch_sheet(head + body + tail, band_updates)
-            body = patched[len(head):len(patched) - len(tail)]
-            del patched
-        out.append(body)
-        del body
-    out.append(tail)
-    return b"".join(out)
-
-
 def _changes(model: WorkbookModel, updates: dict[str, dict[str, object]]):
     """The package edits: each sheet with evaluated cells patched, and no forced recalculation on open."""
     from .safe_write import PackageChanges
@@ -786,19 +746,7 @@ def _changes(model: WorkbookModel, updates: dict[str, dict[str, object]]):
         if not sheet_updates:
             continue
         xml = pkg.read(info.part)
-        cell_update = sheet_xml.CellUpdate
-        # In place, and one update object per distinct value: a full-height sheet has millions of them,
-        # and score sheets repeat values (totals, bands, labels).
-        shared: dict[tuple[type, object], sheet_xml.CellUpdate] = {}
-        for ref, v in sheet_updates.items():
-            key = (type(v), v)
-            u = shared.get(key)
-            if u is None:
-                u = shared[key] = cell_update(v)
-                if len(shared) > 100_000:
-                    shared.clear()
-            sheet_updates[ref] = u
-        patched = _patch_in_bands(xml, sheet_updates)
+        patched = sheet_xml.patch_values(xml, sheet_updates)
         del xml, sheet_updates
         groups = model.shared_groups.get(info.name)
         if groups:
@@ -852,6 +800,10 @@ def recalculate(src, dst=None, *, in_place: bool = False, backup: bool = False, 
     started = time.perf_counter()
     src = Path(src)
     package = open_workbook_package(src)
+    # Millions of small tuples and lists live through a large recalculation and none of them form cycles;
+    # the cyclic collector's passes over them would cost seconds. It runs again once the work is done.
+    gc_was = gc.isenabled()
+    gc.disable()
     try:
         model = load_model(package, progress)
         updates, errors, cycles, evaluated, vectorised = evaluate_model(model, all_formulas=all_formulas,
@@ -870,6 +822,8 @@ def recalculate(src, dst=None, *, in_place: bool = False, backup: bool = False, 
             raise UnusableWorkbook(str(exc), path=src) from None
     finally:
         package.close()
+        if gc_was:
+            gc.enable()
     return RecalcReport(source=src, output=out, formulas=model.formula_count, evaluated=evaluated,
                         vectorised=vectorised, errors=errors, cycles=cycles,
                         seconds=time.perf_counter() - started, values_mode=values)

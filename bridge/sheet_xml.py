@@ -33,6 +33,8 @@ import math
 import re
 from typing import Iterator, Mapping, NamedTuple, Sequence
 
+import numpy as np
+
 from .xlsx_package import unescape_xml
 
 __all__ = [
@@ -47,6 +49,7 @@ __all__ = [
     "used_range",
     "sheet_data_span",
     "patch_sheet",
+    "patch_values",
     "add_cells",
     "set_dimension",
     "column_index",
@@ -57,7 +60,10 @@ __all__ = [
     "translate_formula",
     "unshare_formulas",
     "read_columns",
+    "read_column_arrays",
     "SheetColumns",
+    "SheetArrays",
+    "ColumnArrays",
 ]
 
 #: Error values a cell can hold.
@@ -472,9 +478,6 @@ def _escape_attr(text: str) -> bytes:
     return text.translate(_ATTR_ESCAPES).encode("utf-8")
 
 
-_KEEP = object()
-
-
 @dataclasses.dataclass(frozen=True)
 class CellUpdate:
     """What to write into one existing cell.
@@ -623,6 +626,85 @@ def _formula_cell_pattern(prefix: bytes):
 _R_ATTR = re.compile(rb' r="([A-Z]{1,3}[0-9]+)"')
 
 
+#: A formula cell in the form spreadsheet apps and libraries write (no namespace prefix, the reference
+#: first, the formula and an optional value and nothing else): reference, attributes, formula element,
+#: value element. Every byte of a match is in a group or literal, so a match is rebuilt exactly.
+_VALUE_CELL = re.compile(
+    rb'<c r="([A-Z]{1,3}[0-9]+)"((?: [A-Za-z]+="[^"]*")*)>(<f>[^<]*</f>|<f [^>]*/>|<f [^>]*>[^<]*</f>)'
+    rb"(<v>[^<]*</v>)?</c>")
+_MISSING = object()
+
+
+def _patch_values_chunk(chunk: bytes, values: dict) -> bytes:
+    """One piece of ``<sheetData>`` with new cached values for the listed formula cells (popped from ``values``)."""
+    parts = _VALUE_CELL.split(chunk)
+    if len(parts) == 1:
+        return chunk
+    pop = values.pop
+    cells: list[bytes] = []
+    add = cells.append
+    for ref, attrs, f, v in zip(parts[1::5], parts[2::5], parts[3::5], parts[4::5]):
+        x = pop(ref, _MISSING)
+        if x is _MISSING:
+            add(b'<c r="%b"%b>%b%b</c>' % (ref, attrs, f, v or b""))
+        elif type(x) is float and x - x == 0.0 and b't="' not in attrs:
+            # the commonest: a finite number beside a kept formula; the shortest text that reads back as
+            # the same double, integers without ".0" (as _value_xml writes them)
+            if x.is_integer() and abs(x) < 1e16:
+                add(b'<c r="%b"%b>%b<v>%d</v></c>' % (ref, attrs, f, x))
+            else:
+                add(b'<c r="%b"%b>%b<v>%r</v></c>' % (ref, attrs, f, x))
+        else:
+            t, v_xml = _value_xml(x, True, b"", ref.decode("ascii"))
+            if t is not None or b't="' in attrs:
+                attrs = _set_attr(attrs, b"t", t)
+            add(b'<c r="%b"%b>%b%b</c>' % (ref, attrs, f, v_xml))
+    out = [None] * (2 * len(cells) + 1)
+    out[0::2] = parts[0::5]
+    out[1::2] = cells
+    return b"".join(out)
+
+
+def patch_values(xml: bytes, values: Mapping[str, object]) -> bytes:
+    """Write new cached values beside the kept formulas of the listed formula cells (what a recalculation does).
+
+    Parameters
+    ----------
+    xml : bytes
+        The worksheet part.
+    values : mapping of str to value
+        Cell reference (``"B7"``) → the new value, typed as for :class:`CellUpdate`.
+
+    Returns
+    -------
+    bytes
+        The same as ``patch_sheet(xml, {ref: CellUpdate(value)})``: only the
+        listed cells change, and only in their value and ``t`` attribute.
+
+    Notes
+    -----
+    Formula cells in the usual form are rewritten a piece of the sheet at a
+    time by one split of a regular expression, with one short step per
+    cell; cells in any other form (a namespace prefix, children after the
+    value, a listed cell without a formula) go through :func:`patch_sheet`'s
+    general path afterwards.
+    """
+    if not values:
+        return xml
+    start, end, prefix = sheet_data_span(xml)
+    keyed = dict(zip(map(str.encode, values), values.values()))
+    if not prefix and start < end:
+        pieces = [xml[:start]]
+        for cs, ce in _chunks(xml, start, end, prefix):
+            pieces.append(_patch_values_chunk(xml[cs:ce], keyed))
+        pieces.append(xml[end:])
+        xml = b"".join(pieces)
+        del pieces
+    if keyed:
+        xml = _patch_cells(xml, {ref.decode("ascii"): CellUpdate(v) for ref, v in keyed.items()})
+    return xml
+
+
 def patch_sheet(xml: bytes, updates: Mapping[str, CellUpdate]) -> bytes:
     """Rewrite the listed existing cells; every other byte of the part stays as it was.
 
@@ -655,6 +737,18 @@ def patch_sheet(xml: bytes, updates: Mapping[str, CellUpdate]) -> bytes:
     """
     if not updates:
         return xml
+    simple = {ref: u.value for ref, u in updates.items()
+              if u.formula is None and u.formula_xml is None and u.style is None and not u.drop_formula}
+    if len(simple) == len(updates):
+        return patch_values(xml, simple)
+    if simple:
+        xml = patch_values(xml, simple)
+        updates = {ref: u for ref, u in updates.items() if ref not in simple}
+    return _patch_cells(xml, updates)
+
+
+def _patch_cells(xml: bytes, updates: Mapping[str, CellUpdate]) -> bytes:
+    """The general path of :func:`patch_sheet`: any update, any form of cell."""
     start, end, prefix = sheet_data_span(xml)
     f_re = _f_pattern(prefix)
     close = b"</" + prefix + b"c>"
@@ -1081,100 +1175,243 @@ class SheetColumns:
 
 
 def read_columns(xml: bytes, shared_strings: Sequence[str] = ()) -> SheetColumns:
-    """Every cell of a worksheet part, column by column: the fast bulk form of :func:`iter_cells`.
+    """Every cell of a worksheet part, column by column, as lists (see :func:`read_column_arrays`)."""
+    arrays = read_column_arrays(xml, shared_strings)
+    columns: dict[int, tuple[list[int], list[object]]] = {}
+    for c, col in arrays.columns.items():
+        values: list[object] = col.numbers.tolist()
+        if col.others:
+            where = np.searchsorted(col.rows, np.fromiter(col.others, np.int64, len(col.others))).tolist()
+            for i, v in zip(where, col.others.values()):
+                values[i] = v
+        columns[c] = (col.rows.tolist(), values)
+    return SheetColumns(columns, arrays.formulas, arrays.styles)
 
-    Plain number cells (the bulk of a data sheet: no type, no style, a
-    ``<v>``) cost a few list appends each; their texts are converted to
-    floats a column at a time. Every other cell goes through the same
-    decoding as :func:`iter_cells`, so the two always agree (a test checks it).
-    The cyclic garbage collector is paused meanwhile: the millions of
-    objects kept would make each of its passes longer, and none of them form cycles.
+
+@dataclasses.dataclass
+class ColumnArrays:
+    """One column of :func:`read_column_arrays`: ``rows`` (int64, ascending) of every cell that holds a
+    value or a formula; ``numbers`` (float64, parallel to ``rows``) the value of each number cell and NaN
+    for the others; ``others`` row → value of the cells that are not numbers (text, logical,
+    :class:`ErrorValue`, or None for a formula cell without a cached value)."""
+
+    rows: np.ndarray
+    numbers: np.ndarray
+    others: dict[int, object]
+
+
+@dataclasses.dataclass
+class SheetArrays:
+    """A worksheet's cells column by column in arrays, from :func:`read_column_arrays`; ``formulas`` and
+    ``styles`` as in :class:`SheetColumns`."""
+
+    columns: dict[int, ColumnArrays]
+    formulas: list[tuple[int, int, Formula]]
+    styles: dict[tuple[int, int], int]
+
+
+#: A cell holding only a value, in the form spreadsheet apps and libraries write (the reference first,
+#: then an optional style and type): letters, digits, style, type, value text.
+_PLAIN_CELL = re.compile(rb'<c r="([A-Z]{1,3})([0-9]+)"(?: s="([0-9]+)")?(?: t="([a-zA-Z]+)")?><v>([^<]+)</v></c>')
+#: A formula cell in the usual form: letters, digits, attributes, formula element, value text.
+_FORMULA_CELL = re.compile(rb'<c r="([A-Z]{1,3})([0-9]+)"((?: [A-Za-z]+="[^"]*")*)>'
+                           rb"(<f>[^<]*</f>|<f [^>]*/>|<f [^>]*>[^<]*</f>)(?:<v>([^<]*)</v>)?</c>")
+
+
+class _Collector:
+    """Cells gathered piece by piece: numbers in arrays, everything else as (row, col, value)."""
+
+    def __init__(self, strings: Sequence[str]):
+        self.strings = strings
+        self.cols: list[np.ndarray] = []
+        self.rows: list[np.ndarray] = []
+        self.nums: list[np.ndarray] = []
+        self.others: list[tuple[int, int, object]] = []
+        self.formulas: list[tuple[int, int, Formula]] = []
+        self.styles: dict[tuple[int, int], int] = {}
+        self.single: tuple[list, list, list] = ([], [], [])  # number cells decoded one by one
+
+    def numbers(self, cols, rows, nums):
+        self.cols.append(np.asarray(cols, dtype=np.int16))
+        self.rows.append(np.asarray(rows, dtype=np.int64))
+        self.nums.append(np.asarray(nums, dtype=float))
+
+    def plain(self, parts: list) -> None:
+        """Pass 1: the plain value cells of a piece (its split by :data:`_PLAIN_CELL`)."""
+        letters, digits, styles, types, raws = parts[1::6], parts[2::6], parts[3::6], parts[4::6], parts[5::6]
+        n = len(letters)
+        cols = np.fromiter(map(column_index, letters), np.int16, n)
+        rows = np.fromiter(map(int, digits), np.int64, n)
+        typed = [i for i, t in enumerate(types) if t is not None and t != b"n"]
+        if typed:
+            raws = list(raws)
+            for i in typed:
+                ref = (letters[i] + digits[i]).decode("ascii")
+                value = _plain_value(raws[i], types[i].decode("ascii"), ref, self.strings)
+                self.others.append((int(digits[i]), int(cols[i]), value))
+                raws[i] = b"nan"
+            keep = np.ones(n, dtype=bool)
+            keep[typed] = False
+        try:
+            nums = np.fromiter(map(float, raws), float, n)
+        except ValueError:
+            bad = next(i for i, x in enumerate(raws) if not _is_number(x))
+            raise SheetXmlError(f"cell {(letters[bad] + digits[bad]).decode('ascii')} holds {raws[bad][:40]!r}, "
+                                f"which is not a number") from None
+        if typed:
+            cols, rows, nums = cols[keep], rows[keep], nums[keep]
+        self.numbers(cols, rows, nums)
+        if any(styles):
+            for L, D, s in zip(letters, digits, styles):
+                if s is not None and s != b"0":
+                    self.styles[(int(D), column_index(L))] = int(s)
+
+    def formula_cells(self, parts: list) -> None:
+        """Pass 2: the formula cells of a piece (its split by :data:`_FORMULA_CELL`)."""
+        cols, rows, nums = [], [], []
+        strings = self.strings
+        add_formula = self.formulas.append
+        new = _new_tuple
+        for L, D, attrs, f, raw in zip(parts[1::6], parts[2::6], parts[3::6], parts[4::6], parts[5::6]):
+            row, col = int(D), column_index(L)
+            typ = "n"
+            if attrs:
+                style, typ = _style_type(attrs)
+                if style:
+                    self.styles[(row, col)] = style
+            if f[:3] == b"<f>":
+                text = f[3:-4]
+                formula = new(Formula, (text.decode("utf-8") if b"&" not in text and b"_x" not in text
+                                        else unescape_xml(text), "normal", None, None, False, b""))
+            else:
+                k = f.find(b">")
+                closed = f[k - 1:k] == b"/"
+                fattrs = f[2:k - 1] if closed else f[2:k]
+                kind, si, fref = _formula_attrs(fattrs)
+                text = None if closed or k + 1 == len(f) - 4 else _decode(f[k + 1:-4])
+                if text is None and kind != "shared":
+                    text = ""
+                formula = Formula(text, kind, si, fref, kind == "shared" and fref is not None and text is not None,
+                                  fattrs)
+            add_formula((row, col, formula))
+            value = _plain_value(raw, typ, (L + D).decode("ascii"), strings) if raw else None
+            if type(value) is float:
+                cols.append(col)
+                rows.append(row)
+                nums.append(value)
+            else:
+                self.others.append((row, col, value))
+        if cols:
+            self.numbers(cols, rows, nums)
+
+    def other_cells(self, rest: bytes) -> None:
+        """Pass 3: every other cell of a piece, decoded one by one as :func:`iter_cells` does."""
+        self.add_cells(iter_cells(b"<worksheet><sheetData>" + rest + b"</sheetData></worksheet>", self.strings))
+
+    def add_cells(self, cells) -> None:
+        for cell in cells:
+            if cell.style:
+                self.styles[(cell.row, cell.col)] = cell.style
+            if cell.formula is not None:
+                self.formulas.append((cell.row, cell.col, cell.formula))
+            if cell.value is None and cell.formula is None:
+                continue
+            if type(cell.value) is float:
+                self.single[0].append(cell.col)
+                self.single[1].append(cell.row)
+                self.single[2].append(cell.value)
+            else:
+                self.others.append((cell.row, cell.col, cell.value))
+        if len(self.single[0]) > 100_000:
+            self.numbers(*self.single)
+            self.single = ([], [], [])
+
+    def result(self) -> SheetArrays:
+        if self.single[0]:
+            self.numbers(*self.single)
+            self.single = ([], [], [])
+        others = self.others
+        if others:
+            self.numbers([c for _, c, _ in others], [r for r, _, _ in others], np.full(len(others), np.nan))
+        if not self.cols:
+            return SheetArrays({}, self.formulas, self.styles)
+        cols = np.concatenate(self.cols)
+        rows = np.concatenate(self.rows)
+        nums = np.concatenate(self.nums)
+        self.cols = self.rows = self.nums = []
+        order = np.argsort(cols, kind="stable")  # a radix sort for 16-bit keys; document order kept within
+        cols, rows, nums = cols[order], rows[order], nums[order]
+        del order
+        by_col: dict[int, dict[int, object]] = {}
+        for r, c, v in others:
+            by_col.setdefault(c, {})[r] = v
+        starts = np.flatnonzero(np.diff(cols)) + 1
+        columns: dict[int, ColumnArrays] = {}
+        for a, b in zip(np.concatenate([[0], starts]).tolist(), np.concatenate([starts, [cols.size]]).tolist()):
+            r, x = rows[a:b], nums[a:b]
+            if r.size > 1 and not (r[1:] > r[:-1]).all():  # cells of several passes: put them in row order
+                k = np.argsort(r, kind="stable")
+                r, x = r[k], x[k]
+            c = int(cols[a])
+            columns[c] = ColumnArrays(r, x, by_col.get(c, {}))
+        return SheetArrays(columns, self.formulas, self.styles)
+
+
+def read_column_arrays(xml: bytes, shared_strings: Sequence[str] = ()) -> SheetArrays:
+    """Every cell of a worksheet part, column by column in arrays: the fast bulk form of :func:`iter_cells`.
+
+    Each piece of about :data:`CHUNK_BYTES` of ``<sheetData>`` is read in
+    three passes: the plain value cells (the bulk of a data sheet) are split
+    off by one regular expression and converted a piece at a time with
+    numpy; formula cells in the usual form by a second, with one short
+    step per cell; what is left (inline strings, cells in unusual forms)
+    goes through the same decoding as :func:`iter_cells`, so the readers
+    always agree (tests check it on random sheets). A sheet with cells
+    written without ``r`` attributes is read by the row-aware reader.
+    The cyclic garbage collector is paused meanwhile: none of the objects
+    made form cycles.
     """
     gc_was = gc.isenabled()
     gc.disable()
     try:
-        return _read_columns(xml, shared_strings)
+        start, end, prefix = sheet_data_span(xml)
+        got = _Collector(shared_strings)
+        if start == end:
+            return got.result()
+        if prefix:
+            return _arrays_from_cells(iter_cells(xml, shared_strings))
+        for cs, ce in _chunks(xml, start, end, prefix):
+            parts = _PLAIN_CELL.split(xml[cs:ce])
+            if len(parts) > 1:
+                got.plain(parts)
+            rest = b"".join(parts[0::6])
+            del parts
+            mark = len(got.formulas)
+            parts = _FORMULA_CELL.split(rest)
+            if len(parts) > 1:
+                got.formula_cells(parts)
+                rest = b"".join(parts[0::6])
+            del parts
+            if b"<c" in rest:
+                if _CELL_WITHOUT_R.search(rest):
+                    return _arrays_from_cells(iter_cells(xml, shared_strings))
+                second = len(got.formulas)
+                got.other_cells(rest)
+                if mark < second < len(got.formulas):  # formulas of two passes: back into document order
+                    got.formulas[mark:] = sorted(got.formulas[mark:], key=lambda t: (t[0], t[1]))
+        return got.result()
     finally:
         if gc_was:
             gc.enable()
 
 
-def _read_columns(xml: bytes, shared_strings: Sequence[str]) -> SheetColumns:
-    start, end, prefix = sheet_data_span(xml)
-    per_letters: dict[bytes, tuple[list, list, dict]] = {}  # letters → (row texts, value texts, {i: decoded})
-    formulas: list[tuple[int, int, Formula]] = []
-    styles: dict[tuple[int, int], int] = {}
-    if start == end:
-        return SheetColumns({}, formulas, styles)
-    pattern = _bulk_pattern(prefix)
-    content_re, text_run, phonetic = _patterns(prefix)[1:]
-    get = per_letters.get
-    formulas_append = formulas.append
-    new = _new_tuple
-    col_of = column_index
-    style_type = _style_type
-    for cs, ce in _chunks(xml, start, end, prefix):
-        found = pattern.findall(xml, cs, ce)
-        for letters, rownum, rest, raw, body, other_attrs, other_body in found:
-            if not body and not rest and letters:
-                if not raw:
-                    continue  # an empty cell without style
-                entry = get(letters)
-                if entry is None:
-                    entry = per_letters[letters] = ([], [], {})
-                entry[0].append(rownum)
-                entry[1].append(raw)
-                continue
-            if not letters:
-                # rare forms (attributes in another order, no r): decode them one by one
-                return _columns_from_cells(list(iter_cells(xml, shared_strings)))
-            style, typ = style_type(rest) if rest else (0, "n")
-            if style:
-                styles[(int(rownum), col_of(letters))] = style
-            formula = None
-            if body:
-                i = body.find(b"</f>") if body[:3] == b"<f>" else -1
-                tail = body[i + 4:] if i > 3 else b"x"
-                if not tail or (tail[:3] == b"<v>" and tail[-4:] == b"</v>" and b"<" not in tail[3:-4]):
-                    # the common ordinary formula <f>text</f><v>value</v>, inline
-                    ftext = body[3:i]
-                    formula = new(Formula, (ftext.decode("utf-8") if b"&" not in ftext and b"_x" not in ftext
-                                            else unescape_xml(ftext), "normal", None, None, False, b""))
-                    raw = tail[3:-4]
-                    value = _KEEP
-                else:
-                    value, formula = _body_value(body, typ, (letters + rownum).decode("ascii"), shared_strings,
-                                                 content_re, text_run, phonetic)
-                if formula is not None:
-                    formulas_append((int(rownum), col_of(letters), formula))
-            else:
-                value = _KEEP
-            entry = get(letters)
-            if entry is None:
-                entry = per_letters[letters] = ([], [], {})
-            if value is _KEEP:  # still the raw <v> text
-                if raw and typ == "n":
-                    entry[0].append(rownum)
-                    entry[1].append(raw)  # converted with the rest of its column
-                    continue
-                value = _plain_value(raw, typ, (letters + rownum).decode("ascii"), shared_strings) if raw else None
-            if value is None and formula is None:
-                continue
-            entry[2][len(entry[0])] = value
-            entry[0].append(rownum)
-            entry[1].append(b"0")
-    columns: dict[int, tuple[list[int], list[object]]] = {}
-    for letters, (rows, raws, decoded) in per_letters.items():
-        try:
-            values: list[object] = list(map(float, raws))
-        except ValueError:
-            bad = next(i for i, x in enumerate(raws) if i not in decoded and not _is_number(x))
-            raise SheetXmlError(f"cell {(letters + rows[bad]).decode('ascii')} holds {raws[bad][:40]!r}, "
-                                f"which is not a number") from None
-        for i, value in decoded.items():
-            values[i] = value
-        columns[column_index(letters)] = (list(map(int, rows)), values)
-    return SheetColumns(dict(sorted(columns.items())), formulas, styles)
+_CELL_WITHOUT_R = re.compile(rb'<c(?![^>]*\br=")[\s/>]')
+
+
+def _arrays_from_cells(cells) -> SheetArrays:
+    got = _Collector(())
+    got.add_cells(cells)
+    return got.result()
 
 
 def _is_number(raw: bytes) -> bool:

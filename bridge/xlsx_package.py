@@ -38,6 +38,7 @@ import os
 import posixpath
 import re
 import zipfile
+import zlib
 from pathlib import Path
 from typing import Iterable
 from xml.etree import ElementTree
@@ -63,6 +64,8 @@ __all__ = [
     "REL_CALC_CHAIN",
 ]
 
+#: Entries at least this large are inflated in one call, and the last one read is kept for a second read.
+WHOLE_READ_SIZE = 1 << 20
 #: Total uncompressed size allowed by default: 4 GiB (a full-height sheet of many columns fits).
 DEFAULT_MAX_TOTAL = 4 * 1024 ** 3
 #: Largest compression ratio allowed for an entry over RATIO_FLOOR bytes. Spreadsheet XML compresses
@@ -253,11 +256,13 @@ class WorkbookPackage:
             self.infos[info.filename] = info
             self.entry_names.append(info.filename)
         self._shared_strings: list[str] | None = None
+        self._last: tuple[str, bytes] | None = None  # the last large part read (a recalculation reads it twice)
         self._load()
 
     # -- basic access
 
     def close(self) -> None:
+        self._last = None
         self._zip.close()
 
     def __enter__(self) -> "WorkbookPackage":
@@ -273,11 +278,37 @@ class WorkbookPackage:
         """Uncompressed bytes of one entry; :class:`UnusableWorkbook` if it is missing or corrupt."""
         if part not in self.infos:
             raise UnusableWorkbook(f"{self.path.name}: the package has no part {part!r}", path=self.path)
+        if self._last is not None and self._last[0] == part:
+            return self._last[1]
+        info = self.infos[part]
         try:
-            return self._zip.read(part)
+            if info.file_size < WHOLE_READ_SIZE or info.flag_bits & 0x1 or \
+                    info.compress_type not in (zipfile.ZIP_STORED, zipfile.ZIP_DEFLATED):
+                return self._zip.read(part)
+            data = self._read_whole(info)
+            self._last = (part, data)
+            return data
         except Exception as exc:  # BadZipFile (CRC), EOFError (truncated), zlib.error (damaged deflate data)
             raise UnusableWorkbook(f"{self.path.name} is damaged (part {part}: {exc}); "
                                    f"open and re-save it in a spreadsheet app", path=self.path) from None
+
+    def _read_whole(self, info: zipfile.ZipInfo) -> bytes:
+        """One large entry inflated in one call (the zip module inflates in small pieces and joins them)."""
+        with open(self.path, "rb") as f:
+            f.seek(info.header_offset)
+            head = f.read(30)
+            if len(head) < 30 or head[:4] != b"PK\x03\x04":
+                raise zipfile.BadZipFile(f"bad local header of {info.filename}")
+            name_len, extra_len = int.from_bytes(head[26:28], "little"), int.from_bytes(head[28:30], "little")
+            f.seek(info.header_offset + 30 + name_len + extra_len)
+            raw = f.read(info.compress_size)
+        if len(raw) != info.compress_size:
+            raise EOFError(f"{info.filename} is cut short")
+        data = raw if info.compress_type == zipfile.ZIP_STORED else zlib.decompress(raw, -15, info.file_size)
+        del raw
+        if len(data) != info.file_size or zlib.crc32(data) != info.CRC:
+            raise zipfile.BadZipFile(f"bad CRC-32 or size for {info.filename}")
+        return data
 
     def open_part(self, part: str):
         """A readable binary stream of one entry (for copying large parts in chunks)."""

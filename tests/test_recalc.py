@@ -341,27 +341,15 @@ def test_values_mode_keeps_formulas_for_restore(tmp_path):
 
 
 @pytest.mark.parametrize("book", ["mixed", "forms"])
-def test_streaming_reader_gives_the_same_file(tmp_path, monkeypatch, book):
-    """Full-height sheets are read cell by cell into compact arrays; the output must not change."""
-    from trueband.bridge import recalc as rc
-
+def test_reading_and_patching_in_pieces_gives_the_same_bytes(tmp_path, monkeypatch, book):
+    """Large sheets are read and patched a piece at a time; the output must not depend on the pieces."""
     src = (rb.mixed_inputs_book(tmp_path / "in.xlsx") if book == "mixed"
            else gb.formula_forms_book(tmp_path / "in.xlsx"))
-    normal = recalculate(src, tmp_path / "normal.xlsx", all_formulas=True)
-    monkeypatch.setattr(rc, "STREAMING_PART_SIZE", 0)
-    streamed = recalculate(src, tmp_path / "streamed.xlsx", all_formulas=True)
-    assert entries(normal.output) == entries(streamed.output)
-    assert [tuple(e) for e in normal.errors] == [tuple(e) for e in streamed.errors]
-
-
-def test_patching_in_bands_gives_the_same_bytes(tmp_path, monkeypatch):
-    from trueband.bridge import recalc as rc
-
-    src = rb.mixed_inputs_book(tmp_path / "in.xlsx")
     whole = recalculate(src, tmp_path / "whole.xlsx", all_formulas=True)
-    monkeypatch.setattr(rc, "BAND_BYTES", 700)  # a band every few rows
-    banded = recalculate(src, tmp_path / "banded.xlsx", all_formulas=True)
-    assert entries(whole.output) == entries(banded.output)
+    monkeypatch.setattr(sheet_xml, "CHUNK_BYTES", 700)  # a piece every few rows
+    pieces = recalculate(src, tmp_path / "pieces.xlsx", all_formulas=True)
+    assert entries(whole.output) == entries(pieces.output)
+    assert [tuple(e) for e in whole.errors] == [tuple(e) for e in pieces.errors]
 
 
 def test_alias_names_work_in_cells_and_an_existing_output_is_kept(tmp_path):

@@ -353,6 +353,78 @@ def test_column_reader_agrees_with_the_cell_reader(forms):
     assert cols.columns[2][0] == [1, 2, 3, 5, 6, 7, 8, 9]  # B4 is an empty styled cell: not a value
 
 
+def _usual_sheet(rnd, rows=400):
+    """A sheet in the forms the fast paths take (the reference first), with every kind of cell mixed in."""
+    out = []
+    for r in range(1, rows + 1):
+        cells = []
+        for col in sorted(rnd.sample(range(1, 12), rnd.randint(0, 9))):
+            ref = f"{sx.column_letters(col)}{r}"
+            kind = rnd.random()
+            s = rnd.choice([None, None, 1, 2])
+            if kind < 0.3:
+                cells.append(gb.cell_xml(ref, rnd.choice([0, 1, -2.5, 1e-300, 12345678901234567, 0.1 + 0.2]), s=s))
+            elif kind < 0.35:
+                cells.append(gb.cell_xml(ref, rnd.randint(0, 2), t="s", s=s))  # a shared string
+            elif kind < 0.4:
+                cells.append(gb.cell_xml(ref, rnd.choice([True, False]), t="b", s=s))
+            elif kind < 0.45:
+                cells.append(gb.cell_xml(ref, rnd.choice(sx.ERROR_CODES[:7]), t="e"))
+            elif kind < 0.5:
+                cells.append(f'<c r="{ref}" t="n"><v>{r}.5</v></c>')
+            elif kind < 0.55:
+                cells.append(f'<c r="{ref}" s="1"/>' if s else f'<c r="{ref}"><v></v></c>')  # empty
+            elif kind < 0.6:
+                cells.append(f'<c r="{ref}" t="inlineStr"><is><t>in {r}</t></is></c>')
+            elif kind < 0.72:
+                cells.append(gb.cell_xml(ref, rnd.choice([None, 3, 0.25]), formula=f"SUM(A{r}:B{r})", s=s))
+            elif kind < 0.78:
+                cells.append(gb.cell_xml(ref, rnd.choice(["x", "a&b", ""]), t="str", formula='T("a&b")'))
+            elif kind < 0.82:
+                cells.append(gb.cell_xml(ref, "#DIV/0!", t="e", formula="1/0"))
+            elif kind < 0.86:
+                cells.append(gb.cell_xml(ref, 7, formula=f"A{r}*2", f_attrs=f' t="shared" ref="{ref}:{ref}" si="{r}"'))
+            elif kind < 0.9:
+                cells.append(gb.cell_xml(ref, 7, f_attrs=' t="shared" si="3"'))  # a dependent
+            elif kind < 0.93:
+                cells.append(gb.cell_xml(ref, 4, formula="A1:A2*2", f_attrs=f' t="array" ref="{ref}"'))
+            elif kind < 0.96:
+                cells.append(f'<c r="{ref}"><f></f><v>1</v></c>')
+            else:
+                cells.append(f'<c r="{ref}" t="str"><f>A1&amp;"&lt;"</f><v>x</v><extLst><ext uri="u"/></extLst></c>')
+        out.append(gb.row_xml(r, cells))
+    return gb.sheet_part(out)
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_fast_column_reader_agrees_with_the_cell_reader(seed, monkeypatch):
+    rnd = random.Random(seed)
+    strings = ["alpha", "b&c", "gamma"]
+    sheet = _usual_sheet(rnd)
+    expected = sx._columns_from_cells(list(sx._iter_cells_rowwise(sheet, strings)))
+    if seed % 2:
+        monkeypatch.setattr(sx, "CHUNK_BYTES", rnd.randint(200, 5000))
+    got = sx.read_columns(sheet, strings)
+    assert got.columns == expected.columns
+    assert got.formulas == expected.formulas
+    assert got.styles == expected.styles
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_value_patcher_agrees_with_the_general_patcher(seed, monkeypatch):
+    rnd = random.Random(100 + seed)
+    sheet = _usual_sheet(rnd)
+    formula_cells = [c.ref for c in iter_cells(sheet, ("",) * 3) if c.formula is not None]
+    chosen = rnd.sample(formula_cells, len(formula_cells) // 2)
+    values = {ref: rnd.choice([1.0, -0.0, 2.5e-7, 1e16, 123456789012345678.0, "text & <more>", "", True, False,
+                               ErrorValue("#N/A"), None]) for ref in chosen}
+    expected = sx._patch_cells(sheet, {ref: CellUpdate(v) for ref, v in values.items()})
+    if seed % 2:
+        monkeypatch.setattr(sx, "CHUNK_BYTES", rnd.randint(200, 5000))
+    assert sx.patch_values(sheet, values) == expected
+    assert patch_sheet(sheet, {ref: CellUpdate(v) for ref, v in values.items()}) == expected
+
+
 def test_column_reader_names_a_bad_number():
     xml = gb.sheet_part([gb.row_xml(1, [gb.cell_xml("A1", 1)]), gb.row_xml(2, ['<c r="A2"><v>1,5</v></c>'])])
     with pytest.raises(SheetXmlError, match="A2"):
