@@ -1218,6 +1218,18 @@ _FORMULA_CELL = re.compile(rb'<c r="([A-Z]{1,3})([0-9]+)"((?: [A-Za-z]+="[^"]*")
                            rb"(<f>[^<]*</f>|<f [^>]*/>|<f [^>]*>[^<]*</f>)(?:<v>([^<]*)</v>)?</c>")
 
 
+_NEW_NORMAL = functools.partial(tuple.__new__, Formula)
+_repeat = itertools.repeat
+
+
+def _lookup(items: list, convert):
+    """``convert`` as a dict lookup when ``items`` repeat a lot (row numbers, 0/1 scores, column letters)."""
+    distinct = set(items)
+    if len(distinct) * 4 > len(items):
+        return convert
+    return {x: convert(x) for x in distinct}.__getitem__
+
+
 class _Collector:
     """Cells gathered piece by piece: numbers in arrays, everything else as (row, col, value)."""
 
@@ -1240,9 +1252,9 @@ class _Collector:
         """Pass 1: the plain value cells of a piece (its split by :data:`_PLAIN_CELL`)."""
         letters, digits, styles, types, raws = parts[1::6], parts[2::6], parts[3::6], parts[4::6], parts[5::6]
         n = len(letters)
-        cols = np.fromiter(map(column_index, letters), np.int16, n)
-        rows = np.fromiter(map(int, digits), np.int64, n)
-        typed = [i for i, t in enumerate(types) if t is not None and t != b"n"]
+        cols = np.fromiter(map(_lookup(letters, column_index), letters), np.int16, n)
+        rows = np.fromiter(map(_lookup(digits, int), digits), np.int64, n)
+        typed = [i for i, t in enumerate(types) if t is not None and t != b"n"] if any(types) else []
         if typed:
             raws = list(raws)
             for i in typed:
@@ -1253,7 +1265,7 @@ class _Collector:
             keep = np.ones(n, dtype=bool)
             keep[typed] = False
         try:
-            nums = np.fromiter(map(float, raws), float, n)
+            nums = np.fromiter(map(_lookup(raws, float), raws), float, n)
         except ValueError:
             bad = next(i for i, x in enumerate(raws) if not _is_number(x))
             raise SheetXmlError(f"cell {(letters[bad] + digits[bad]).decode('ascii')} holds {raws[bad][:40]!r}, "
@@ -1268,41 +1280,56 @@ class _Collector:
 
     def formula_cells(self, parts: list) -> None:
         """Pass 2: the formula cells of a piece (its split by :data:`_FORMULA_CELL`)."""
-        cols, rows, nums = [], [], []
+        letters, digits, attrs_l, f_l, raws = parts[1::6], parts[2::6], parts[3::6], parts[4::6], parts[5::6]
+        n = len(letters)
+        cols = list(map(_lookup(letters, column_index), letters))
+        rows = list(map(int, digits))
+        joined = b"\x00".join(f_l)  # formula text holds neither "<" nor NUL, so the elements split back apart
+        if b"<f " in joined or b"_x" in joined:
+            formulas = [self._formula(f) for f in f_l]
+        else:  # all ordinary <f>text</f>: decoded in one go
+            text = joined[3:-4]
+            texts = (text.decode("utf-8") if b"&" not in text else unescape_xml(text)).split("</f>\x00<f>")
+            formulas = list(map(_NEW_NORMAL, zip(texts, _repeat("normal"), _repeat(None), _repeat(None),
+                                                 _repeat(False), _repeat(b""))))
+        self.formulas.extend(zip(rows, cols, formulas))
+        if not any(attrs_l) and not any(raws):
+            return  # formulas without cached values and attributes: nothing more to keep
+        num_cols, num_rows, nums = [], [], []
         strings = self.strings
-        add_formula = self.formulas.append
-        new = _new_tuple
-        for L, D, attrs, f, raw in zip(parts[1::6], parts[2::6], parts[3::6], parts[4::6], parts[5::6]):
-            row, col = int(D), column_index(L)
+        for i in range(n):
             typ = "n"
+            attrs = attrs_l[i]
             if attrs:
                 style, typ = _style_type(attrs)
                 if style:
-                    self.styles[(row, col)] = style
-            if f[:3] == b"<f>":
-                text = f[3:-4]
-                formula = new(Formula, (text.decode("utf-8") if b"&" not in text and b"_x" not in text
-                                        else unescape_xml(text), "normal", None, None, False, b""))
-            else:
-                k = f.find(b">")
-                closed = f[k - 1:k] == b"/"
-                fattrs = f[2:k - 1] if closed else f[2:k]
-                kind, si, fref = _formula_attrs(fattrs)
-                text = None if closed or k + 1 == len(f) - 4 else _decode(f[k + 1:-4])
-                if text is None and kind != "shared":
-                    text = ""
-                formula = Formula(text, kind, si, fref, kind == "shared" and fref is not None and text is not None,
-                                  fattrs)
-            add_formula((row, col, formula))
-            value = _plain_value(raw, typ, (L + D).decode("ascii"), strings) if raw else None
+                    self.styles[(rows[i], cols[i])] = style
+            raw = raws[i]
+            value = _plain_value(raw, typ, (letters[i] + digits[i]).decode("ascii"), strings) if raw else None
             if type(value) is float:
-                cols.append(col)
-                rows.append(row)
+                num_cols.append(cols[i])
+                num_rows.append(rows[i])
                 nums.append(value)
             else:
-                self.others.append((row, col, value))
-        if cols:
-            self.numbers(cols, rows, nums)
+                self.others.append((rows[i], cols[i], value))
+        if num_cols:
+            self.numbers(num_cols, num_rows, nums)
+        return
+
+    @staticmethod
+    def _formula(f: bytes) -> Formula:
+        """The :class:`Formula` of one ``<f>`` element as the cell reader decodes it."""
+        if f[:3] == b"<f>":
+            text = f[3:-4]
+            return _new_tuple(Formula, (_decode(text), "normal", None, None, False, b""))
+        k = f.find(b">")
+        closed = f[k - 1:k] == b"/"
+        fattrs = f[2:k - 1] if closed else f[2:k]
+        kind, si, fref = _formula_attrs(fattrs)
+        text = None if closed or k + 1 == len(f) - 4 else _decode(f[k + 1:-4])
+        if text is None and kind != "shared":
+            text = ""
+        return Formula(text, kind, si, fref, kind == "shared" and fref is not None and text is not None, fattrs)
 
     def other_cells(self, rest: bytes) -> None:
         """Pass 3: every other cell of a piece, decoded one by one as :func:`iter_cells` does."""

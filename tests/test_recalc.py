@@ -375,3 +375,75 @@ def test_alias_names_work_in_cells_and_an_existing_output_is_kept(tmp_path):
     assert cli.main(["recalc", str(book), "-o", str(out)]) == 2  # never overwrite unless asked
     assert out.read_bytes() == before
     assert cli.main(["recalc", str(book), "-o", str(out), "--overwrite"]) == 0
+
+
+def _runs_one_by_one(formula_cells):
+    """The run finder written the plain way, a cell at a time in document order (the reference for
+    recalc._formula_runs, which takes filled-down stretches a block at a time)."""
+    from trueband.bridge.formula_graph import KeyTemplate
+
+    runs, open_runs, shared, templates = [], {}, {}, {}
+    for row, col, f in formula_cells:
+        if f.kind == "dataTable":
+            continue
+        array_ref = None
+        if f.kind == "shared" and f.text is None:
+            if f.shared_index not in shared:
+                continue
+            text, mr, mc, key = shared[f.shared_index]
+            at = (mr, mc)
+        else:
+            text = "=" + (f.text or "")
+            last = templates.get(col)
+            template = last[1] if last is not None and last[0] == row - 1 and last[1].text_at(row) == text \
+                else KeyTemplate(text, row, col)
+            templates[col] = (row, template)
+            key, at = template.key, (row, col)
+            if f.kind == "shared" and f.shared_index is not None:
+                shared[f.shared_index] = (text, row, col, key)
+            if f.kind == "array":
+                array_ref = f.ref or f"{sheet_xml.column_letters(col)}{row}"
+        cur = open_runs.get(col)
+        if cur is not None and cur[2] == row - 1 and cur[3] == key and array_ref is None and cur[7] is None:
+            cur[2] = row
+        else:
+            cur = [col, row, row, key, text, at, False, array_ref]
+            runs.append(cur)
+            open_runs[col] = cur
+    return runs
+
+
+@pytest.mark.parametrize("seed", range(8))
+def test_run_finder_agrees_with_the_one_by_one_reference(seed):
+    import random
+
+    from trueband.bridge.recalc import _formula_runs
+    from trueband.bridge.sheet_xml import Formula
+
+    rnd = random.Random(seed)
+    cells = []
+    si = 0
+    for row in range(1, 400):
+        for col in range(1, 6):
+            k = rnd.random()
+            if k < 0.15:
+                continue  # a gap in the column
+            if k < 0.55:  # the column's usual filled-down formula
+                f = Formula(f"A{row}*{col}+$B$1", "normal", None, None, False, b"")
+            elif k < 0.62:
+                f = Formula(f"A{row + 1}*{col}", "normal", None, None, False, b"")  # another form
+            elif k < 0.7:
+                f = Formula("SUM($A$1:$A$9)", "normal", None, None, False, b"")  # no moving references
+            elif k < 0.78:
+                si += 1
+                f = Formula(f"C{row}-1", "shared", si, f"{sheet_xml.column_letters(col)}{row}", True, b"")
+            elif k < 0.9:
+                f = Formula(None, "shared", rnd.randint(0, si + 1), None, False, b"")  # may precede its master
+            elif k < 0.95:
+                f = Formula(f"A{row}:A{row + 1}*2", "array", None, f"{sheet_xml.column_letters(col)}{row}", False,
+                            b"")
+            else:
+                f = Formula("", "dataTable", None, None, False, b"")
+            cells.append((row, col, f))
+    runs, _ = _formula_runs(cells)
+    assert runs == _runs_one_by_one(cells)
