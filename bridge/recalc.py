@@ -144,7 +144,7 @@ class CellStore:
         for c, entry in columns.items():
             if not isinstance(entry, sheet_xml.ColumnArrays):
                 rows, values = entry
-                others = {r: v for r, v in zip(rows, values) if type(v) is not float}
+                others = {r: v for r, v in zip(rows, values) if type(v) is not float and v is not None}
                 entry = sheet_xml.ColumnArrays(np.asarray(rows, dtype=np.int64),
                                                np.array([v if type(v) is float else np.nan for v in values],
                                                         dtype=float), others)
@@ -152,19 +152,13 @@ class CellStore:
                 continue
             size = int(entry.rows[-1]) + 1
             col = _Column(size)
-            if entry.others:
-                number = np.ones(entry.rows.size, dtype=bool)
-                number[np.searchsorted(entry.rows, np.fromiter(entry.others, np.int64, len(entry.others)))] = False
-                r = entry.rows[number]
-                col.num[r] = entry.numbers[number]
-                col.kind[r] = _KIND_NUMBER
-                for row, v in entry.others.items():
-                    if v is not None:
-                        col.other[row] = _engine_value(v)
-                        col.kind[row] = _KIND_OTHER
-            else:
-                col.num[entry.rows] = entry.numbers
-                col.kind[entry.rows] = _KIND_NUMBER
+            number = ~np.isnan(entry.numbers)  # NaN: text and the like (in others) or a formula without a value
+            r = entry.rows[number] if not number.all() else entry.rows
+            col.num[r] = entry.numbers[number] if r is not entry.rows else entry.numbers
+            col.kind[r] = _KIND_NUMBER
+            for row, v in entry.others.items():
+                col.other[row] = _engine_value(v)
+                col.kind[row] = _KIND_OTHER
             cols[c] = col
             top = max(top, size - 1)
         self.sheets[name] = cols

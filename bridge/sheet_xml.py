@@ -1180,6 +1180,8 @@ def read_columns(xml: bytes, shared_strings: Sequence[str] = ()) -> SheetColumns
     columns: dict[int, tuple[list[int], list[object]]] = {}
     for c, col in arrays.columns.items():
         values: list[object] = col.numbers.tolist()
+        for i in np.flatnonzero(np.isnan(col.numbers)).tolist():
+            values[i] = None
         if col.others:
             where = np.searchsorted(col.rows, np.fromiter(col.others, np.int64, len(col.others))).tolist()
             for i, v in zip(where, col.others.values()):
@@ -1192,8 +1194,9 @@ def read_columns(xml: bytes, shared_strings: Sequence[str] = ()) -> SheetColumns
 class ColumnArrays:
     """One column of :func:`read_column_arrays`: ``rows`` (int64, ascending) of every cell that holds a
     value or a formula; ``numbers`` (float64, parallel to ``rows``) the value of each number cell and NaN
-    for the others; ``others`` row → value of the cells that are not numbers (text, logical,
-    :class:`ErrorValue`, or None for a formula cell without a cached value)."""
+    for the others; ``others`` row → value of the cells that hold text, a logical or an
+    :class:`ErrorValue`. A row with NaN that is not in ``others`` is a formula cell without a cached
+    value (spreadsheet files cannot store NaN as a number)."""
 
     rows: np.ndarray
     numbers: np.ndarray
@@ -1219,6 +1222,7 @@ _FORMULA_CELL = re.compile(rb'<c r="([A-Z]{1,3})([0-9]+)"((?: [A-Za-z]+="[^"]*")
 
 
 _NEW_NORMAL = functools.partial(tuple.__new__, Formula)
+_NAN = float("nan")
 _repeat = itertools.repeat
 
 
@@ -1293,8 +1297,9 @@ class _Collector:
             formulas = list(map(_NEW_NORMAL, zip(texts, _repeat("normal"), _repeat(None), _repeat(None),
                                                  _repeat(False), _repeat(b""))))
         self.formulas.extend(zip(rows, cols, formulas))
-        if not any(attrs_l) and not any(raws):
-            return  # formulas without cached values and attributes: nothing more to keep
+        if not any(attrs_l) and not any(raws):  # no cached values and no attributes: the cells are there, empty
+            self.numbers(cols, rows, np.full(n, np.nan))
+            return
         num_cols, num_rows, nums = [], [], []
         strings = self.strings
         for i in range(n):
@@ -1305,8 +1310,8 @@ class _Collector:
                 if style:
                     self.styles[(rows[i], cols[i])] = style
             raw = raws[i]
-            value = _plain_value(raw, typ, (letters[i] + digits[i]).decode("ascii"), strings) if raw else None
-            if type(value) is float:
+            value = _plain_value(raw, typ, (letters[i] + digits[i]).decode("ascii"), strings) if raw else _NAN
+            if type(value) is float:  # a number, or NaN for a formula without a cached value
                 num_cols.append(cols[i])
                 num_rows.append(rows[i])
                 nums.append(value)
@@ -1314,7 +1319,6 @@ class _Collector:
                 self.others.append((rows[i], cols[i], value))
         if num_cols:
             self.numbers(num_cols, num_rows, nums)
-        return
 
     @staticmethod
     def _formula(f: bytes) -> Formula:
@@ -1341,12 +1345,15 @@ class _Collector:
                 self.styles[(cell.row, cell.col)] = cell.style
             if cell.formula is not None:
                 self.formulas.append((cell.row, cell.col, cell.formula))
-            if cell.value is None and cell.formula is None:
-                continue
-            if type(cell.value) is float:
+            value = cell.value
+            if value is None:
+                if cell.formula is None:
+                    continue
+                value = _NAN  # a formula without a cached value
+            if type(value) is float:
                 self.single[0].append(cell.col)
                 self.single[1].append(cell.row)
-                self.single[2].append(cell.value)
+                self.single[2].append(value)
             else:
                 self.others.append((cell.row, cell.col, cell.value))
         if len(self.single[0]) > 100_000:

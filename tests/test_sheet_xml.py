@@ -460,3 +460,17 @@ def test_pretty_printed_sheet(tmp_path):
     path = gb.handmade_package(tmp_path / "pretty.xlsx", [("P", xml)])
     assert openpyxl.load_workbook(path, data_only=True)["P"]["A1"].value == 4  # reference library agrees
     assert sx.read_columns(xml).columns == sx._columns_from_cells(list(iter_cells(xml))).columns
+
+
+def test_formula_cells_without_values_are_kept_as_empty_cells():
+    # A column of formulas as a library writes them (no cached values, no attributes): the cells are
+    # there (they count for the used range) but empty, as the cell reader says.
+    rows = [gb.row_xml(r, [gb.cell_xml(f"A{r}", r), gb.cell_xml(f"B{r}", formula=f"A{r}*2")]) for r in range(1, 30)]
+    xml = gb.sheet_part(rows)
+    expected = sx._columns_from_cells(list(sx._iter_cells_rowwise(xml, ())))
+    got = sx.read_columns(xml)
+    assert got.columns == expected.columns
+    assert got.columns[2] == (list(range(1, 30)), [None] * 29)
+    assert got.formulas == expected.formulas
+    arrays = sx.read_column_arrays(xml).columns[2]
+    assert arrays.rows.tolist() == list(range(1, 30)) and not arrays.others
