@@ -363,7 +363,7 @@ def _read_sheet(xml: bytes, strings) -> tuple[dict, list[list], tuple | None, se
     range, and the shared-formula groups that call registered functions."""
     sheet = sheet_xml.read_column_arrays(xml, strings)
     columns = sheet.columns
-    runs, registered_groups = _formula_runs(sheet.formulas)
+    runs, registered_groups = _formula_runs(sheet)
     used = None
     if columns:
         used = (min(int(c.rows[0]) for c in columns.values()), min(columns),
@@ -371,74 +371,110 @@ def _read_sheet(xml: bytes, strings) -> tuple[dict, list[list], tuple | None, se
     return columns, runs, used, registered_groups
 
 
-def _formula_runs(formula_cells: list) -> tuple[list[list], set[int]]:
-    """Runs from (row, col, Formula) in document order, and the shared groups calling registered functions.
+def _formula_columns(sheet) -> dict[int, tuple[list[int], list]]:
+    """Formula cells by column, rows ascending: (rows, items), an item the text of an ordinary formula
+    (``str``) or the :class:`~.sheet_xml.Formula` of any other; from a :class:`~.sheet_xml.SheetArrays`
+    or a list of (row, col, Formula)."""
+    if isinstance(sheet, sheet_xml.SheetArrays):
+        blocks, others = sheet.plain_formulas, sheet.other_formulas
+    else:
+        blocks, others = [], sheet
+    out: dict[int, tuple[list[int], list]] = {}
+    if blocks:
+        rows = np.concatenate([b[0] for b in blocks])
+        cols = np.concatenate([b[1] for b in blocks])
+        texts = [t for b in blocks for t in b[2]]
+        order = np.argsort(cols, kind="stable")  # document order kept within a column
+        cols_sorted = cols[order]
+        starts = np.flatnonzero(np.diff(cols_sorted)) + 1
+        for a, b in zip([0, *starts.tolist()], [*starts.tolist(), cols.size]):
+            idx = order[a:b]
+            items = [texts[i] for i in idx.tolist()]
+            out[int(cols_sorted[a])] = (rows[idx].tolist(), items)
+    if others:
+        extra: dict[int, list] = {}
+        for row, col, f in others:
+            if f.kind == "normal":
+                extra.setdefault(col, []).append((row, f.text or ""))
+            else:
+                extra.setdefault(col, []).append((row, f))
+        for col, cells in extra.items():
+            if col in out:
+                rows_l, items = out[col]
+                cells = sorted([*zip(rows_l, items), *cells], key=lambda t: t[0])
+            out[col] = ([r for r, _ in cells], [x for _, x in cells])
+    return out
+
+
+def _formula_runs(sheet) -> tuple[list[list], set[int]]:
+    """Formula runs of a sheet (:func:`_formula_columns` says what it takes), and the shared groups that
+    call registered functions.
 
     A run is a stretch of consecutive rows of one column whose formulas have
     the same position-independent form (a filled-down column is one run).
-    The cells are taken column by column; after each ordinary formula, the
-    cells below that read exactly as it does filled down are taken in
-    blocks (:func:`_filled_down`) instead of one by one. A shared formula's
-    dependent takes the text of the last master of its group before it in
-    document order (none: malformed, the cached value stays).
+    After each ordinary formula, the cells below that read exactly as it
+    does filled down are taken in blocks (:func:`_filled_down`) instead of
+    one by one. A shared formula's dependent takes the text of the last
+    master of its group before it in document order (none: malformed, the
+    cached value stays). Runs come in the document order of their first cells.
     """
     import bisect
 
-    masters: dict[int, list[tuple[int, str, int, int]]] = {}  # si → [(index, text, row, col)] in document order
+    by_col = _formula_columns(sheet)
+    masters: dict[int, list[tuple[int, int, str]]] = {}  # si → [(row, col, text)] in document order
     registered_groups: set[int] = set()
-    by_col: dict[int, list[int]] = {}
-    for index, (row, col, f) in enumerate(formula_cells):
-        by_col.setdefault(col, []).append(index)
-        if f.kind == "shared" and f.text is not None and f.shared_index is not None:
-            masters.setdefault(f.shared_index, []).append((index, "=" + f.text, row, col))
-            if uses_registered_function("=" + f.text):
-                registered_groups.add(f.shared_index)
-    master_keys: dict[int, str] = {}  # index of a master → its key
+    for col, (rows, items) in by_col.items():
+        for row, x in zip(rows, items):
+            if type(x) is not str and x.kind == "shared" and x.text is not None and x.shared_index is not None:
+                masters.setdefault(x.shared_index, []).append((row, col, "=" + x.text))
+                if uses_registered_function("=" + x.text):
+                    registered_groups.add(x.shared_index)
+    for group in masters.values():
+        group.sort()
+    master_keys: dict[tuple[int, int], str] = {}
 
-    def master_of(si: int, index: int):
+    def master_of(si: int, row: int, col: int):
         group = masters.get(si)
-        if not group:
-            return None
-        k = bisect.bisect_left(group, (index,)) - 1
+        k = -1 if not group else bisect.bisect_left(group, (row, col)) - 1
         if k < 0:
             return None
-        m_index, text, mr, mc = group[k]
-        key = master_keys.get(m_index)
+        mr, mc, text = group[k]
+        key = master_keys.get((mr, mc))
         if key is None:
-            key = master_keys[m_index] = KeyTemplate(text, mr, mc).key
+            key = master_keys[(mr, mc)] = KeyTemplate(text, mr, mc).key
         return text, mr, mc, key
 
     runs: list[list] = []
     for col in sorted(by_col):
-        indexes = by_col[col]
-        cells = [formula_cells[i] for i in indexes]
+        rows, items = by_col[col]
         template: KeyTemplate | None = None
         template_row = -1
         cur: list | None = None
-        i, n = 0, len(cells)
+        i, n = 0, len(rows)
         while i < n:
-            row, _, f = cells[i]
-            kind = f.kind
+            row, x = rows[i], items[i]
+            plain = type(x) is str
+            kind = "normal" if plain else x.kind
             if kind == "dataTable":
                 i += 1
                 continue
             array_ref = None
-            if kind == "shared" and f.text is None:
-                master = master_of(f.shared_index, indexes[i])
+            if kind == "shared" and x.text is None:
+                master = master_of(x.shared_index, row, col)
                 if master is None:
                     i += 1
                     continue
                 text, mr, mc, key = master
                 at = (mr, mc)
             else:
-                text = "=" + (f.text or "")
+                text = "=" + (x if plain else (x.text or ""))
                 if template is None or template_row != row - 1 or template.text_at(row) != text:
                     template = KeyTemplate(text, row, col)
                 template_row = row
                 key = template.key
                 at = (row, col)
                 if kind == "array":
-                    array_ref = f.ref or f"{column_letters(col)}{row}"
+                    array_ref = x.ref or f"{column_letters(col)}{row}"
             if cur is not None and cur[_LAST] == row - 1 and cur[_KEY] == key and array_ref is None \
                     and cur[_ARRAY] is None:
                 cur[_LAST] = row
@@ -447,34 +483,33 @@ def _formula_runs(formula_cells: list) -> tuple[list[list], set[int]]:
                 runs.append(cur)
             i += 1
             if kind == "normal" and i < n:
-                k = _filled_down(cells, i, row, template)
+                k = _filled_down(rows, items, i, row, template)
                 if k:
                     cur[_LAST] = template_row = row + k
                     i += k
-    runs.sort(key=lambda r: (r[_FIRST], r[_COL]))  # document order of their first cells
+    runs.sort(key=lambda r: (r[_FIRST], r[_COL]))
     return runs, registered_groups
 
 
-def _filled_down(cells: list, i: int, row: int, template: KeyTemplate) -> int:
-    """How many of ``cells[i:]`` are ordinary formulas in the rows right below ``row`` that read as
-    ``template`` filled down (checked a block at a time, the block doubling while all match)."""
-    from operator import eq
-
+def _filled_down(rows: list[int], items: list, i: int, row: int, template: KeyTemplate) -> int:
+    """How many of ``items[i:]`` are ordinary formulas (texts) in the rows right below ``row`` that read
+    as ``template`` filled down, checked a block at a time (the block doubling while all match)."""
     fmt = template.fmt[1:]  # without the "=" the template starts with
     offsets = template.offsets
-    total, window, n = 0, 8, len(cells)
+    total, window, n = 0, 8, len(rows)
     while i < n:
         m = min(window, n - i)
         first = row + total + 1
         if offsets:
-            texts = list(map(fmt.format, *[range(first + o, first + o + m) for o in offsets]))
+            expected = list(map(fmt.format, *[range(first + o, first + o + m) for o in offsets]))
         else:
-            texts = [fmt] * m
-        expected = list(zip(range(first, first + m), ["normal"] * m, texts))
-        got = [(c[0], c[2].kind, c[2].text) for c in cells[i:i + m]]
-        same = list(map(eq, got, expected))
-        if not all(same):
-            return total + same.index(False)
+            expected = [fmt] * m
+        got_rows, got = rows[i:i + m], items[i:i + m]
+        if got_rows != list(range(first, first + m)) or got != expected:
+            k = 0
+            while k < m and got_rows[k] == first + k and got[k] == expected[k]:
+                k += 1
+            return total + k
         total += m
         i += m
         window = min(window * 2, 1 << 16)
@@ -622,14 +657,15 @@ def _describe_error(compiled: Compiled, code: str, store, sheet, row, col) -> tu
 
 def evaluate_model(model: WorkbookModel, *, all_formulas: bool = False,
                    progress: Callable[[str, float], None] | None = None):
-    """Evaluate what needs it; returns (updates by sheet {ref: value}, errors, cycles, evaluated, vectorised)."""
+    """Evaluate what needs it; returns (updates by sheet {ref as bytes: value}, errors, cycles, evaluated,
+    vectorised)."""
     graph, store = model.graph, model.store
     seeds = set(model.cached_missing)
     for run in model.runs:
         if all_formulas or _uses_registered(run.compiled):
             seeds.add(run.index)
     needed = graph.dependents(seeds)
-    updates: dict[str, dict[str, object]] = {}
+    updates: dict[str, dict[bytes, object]] = {}
     errors: list[CellError] = []
     cycles: list[list[str]] = []
     evaluated = vectorised = 0
@@ -640,7 +676,7 @@ def evaluate_model(model: WorkbookModel, *, all_formulas: bool = False,
         nonlocal evaluated
         evaluated += 1
         out = _cell_value_for_xml(value)
-        updates.setdefault(run.sheet, {})[f"{column_letters(col)}{row}"] = out
+        updates.setdefault(run.sheet, {})[b"%s%d" % (column_letters(col).encode("ascii"), row)] = out
         if isinstance(out, sheet_xml.ErrorValue):
             if problem is not None and problem.code == str(out):
                 errors.append(CellError(run.sheet, f"{column_letters(col)}{row}", problem.function, problem.code,
@@ -682,9 +718,10 @@ def evaluate_model(model: WorkbookModel, *, all_formulas: bool = False,
                     vectorised += run.size
                     values = result.values.tolist()
                     sheet_updates = updates.setdefault(run.sheet, {})
-                    letters = column_letters(run.col)
+                    letters = column_letters(run.col).encode("ascii")
                     first = run.first
-                    sheet_updates.update(zip([f"{letters}{first + i}" for i in range(run.size)], values))
+                    sheet_updates.update(zip([b"%s%d" % (letters, r) for r in range(first, first + run.size)],
+                                             values))
                     evaluated += run.size
                     if result.values.dtype == object:
                         # error values (and anything else not a plain cell value) are recorded one by one
@@ -713,7 +750,8 @@ def evaluate_model(model: WorkbookModel, *, all_formulas: bool = False,
             progress("evaluating", done / total)
     # cells whose formula cannot be read
     for (sheet, row, col), message in model.unreadable.items():
-        updates.setdefault(sheet, {})[f"{column_letters(col)}{row}"] = sheet_xml.ErrorValue("#NAME?")
+        updates.setdefault(sheet, {})[b"%s%d" % (column_letters(col).encode("ascii"), row)] = \
+            sheet_xml.ErrorValue("#NAME?")
         errors.append(CellError(sheet, f"{column_letters(col)}{row}", "", "#NAME?", message))
         evaluated += 1
     return updates, errors, cycles, evaluated, vectorised
@@ -729,7 +767,7 @@ def _as_values(values: list) -> np.ndarray:
 
 # ---------------------------------------------------------------- writing
 
-def _changes(model: WorkbookModel, updates: dict[str, dict[str, object]]):
+def _changes(model: WorkbookModel, updates: dict[str, dict[bytes, object]]):
     """The package edits: each sheet with evaluated cells patched, and no forced recalculation on open."""
     from .safe_write import PackageChanges
 
@@ -740,12 +778,13 @@ def _changes(model: WorkbookModel, updates: dict[str, dict[str, object]]):
         if not sheet_updates:
             continue
         xml = pkg.read(info.part)
-        patched = sheet_xml.patch_values(xml, sheet_updates)
+        patched = sheet_xml.patch_values(xml, sheet_updates, consume=True, pieces=True)
         del xml, sheet_updates
+        pkg.forget(info.part)  # the package's copy of the old part is not needed any more
         groups = model.shared_groups.get(info.name)
         if groups:
             # LibreOffice recomputes shared formulas on opening; written one per cell, ours show their values
-            patched = sheet_xml.unshare_formulas(patched, pkg.shared_strings, groups)
+            patched = sheet_xml.unshare_formulas(b"".join(patched), pkg.shared_strings, groups)
         changes.set(pkg, info.part, patched)
     changes.keep_cached_values(pkg)
     return changes
@@ -807,7 +846,7 @@ def recalculate(src, dst=None, *, in_place: bool = False, backup: bool = False, 
         changes = _changes(model, updates)
         if values:
             from . import values_mode
-            values_mode.replace_with_values(model.package, changes, updates)
+            values_mode.replace_with_values(model.package, changes)  # the values are in the patched sheets
         if progress:
             progress("writing", 1.0)
         try:

@@ -70,6 +70,21 @@ _REPLACE_RETRIES = 10
 _REPLACE_WAIT = 0.25
 
 
+def _size(data: bytes | list[bytes]) -> int:
+    return len(data) if isinstance(data, bytes) else sum(map(len, data))
+
+
+def _same(data: bytes | list[bytes], original: bytes) -> bool:
+    if isinstance(data, bytes):
+        return data == original
+    pos = 0
+    for piece in data:
+        if original[pos:pos + len(piece)] != piece:
+            return False
+        pos += len(piece)
+    return pos == len(original)
+
+
 class OutputRefused(Exception):
     """The output cannot be written as asked (it exists, or it is the input); ``str()`` is one line."""
 
@@ -80,12 +95,13 @@ class PackageChanges:
 
     ``replace`` maps existing entry names to their new bytes, ``add`` new
     entry names to bytes (written after the existing entries, in insertion
-    order), ``remove`` names entries to leave out. Edit helpers read the
-    current state of a part through :meth:`current`, so several edits of the
-    same part compose.
+    order), ``remove`` names entries to leave out. A large part may be given
+    as a list of byte strings, written one after the other (no joined copy
+    of a gigabyte-sized sheet is made). Edit helpers read the current state
+    of a part through :meth:`current`, so several edits of the same part compose.
     """
 
-    replace: dict[str, bytes] = dataclasses.field(default_factory=dict)
+    replace: dict[str, bytes | list[bytes]] = dataclasses.field(default_factory=dict)
     add: dict[str, bytes] = dataclasses.field(default_factory=dict)
     remove: set[str] = dataclasses.field(default_factory=set)
 
@@ -96,20 +112,24 @@ class PackageChanges:
         if part in self.add:
             return self.add[part]
         if part in self.replace:
-            return self.replace[part]
+            data = self.replace[part]
+            if isinstance(data, list):
+                data = self.replace[part] = b"".join(data)
+            return data
         return pkg.read(part) if part in pkg else None
 
-    def set(self, pkg: WorkbookPackage, part: str, data: bytes) -> None:
-        """Write ``data`` as ``part`` (replacing an existing part or adding a new one)."""
+    def set(self, pkg: WorkbookPackage, part: str, data: bytes | list[bytes]) -> None:
+        """Write ``data`` (bytes, or a list of byte strings to be written in turn) as ``part``
+        (replacing an existing part or adding a new one)."""
         self.remove.discard(part)
         if part in pkg:
             # unchanged after all: copy the original (sizes first, so a large part is rarely read again)
-            if pkg.infos[part].file_size == len(data) and data == pkg.read(part):
+            if pkg.infos[part].file_size == _size(data) and _same(data, pkg.read(part)):
                 self.replace.pop(part, None)
             else:
                 self.replace[part] = data
         else:
-            self.add[part] = data
+            self.add[part] = data if isinstance(data, bytes) else b"".join(data)
 
     def delete(self, part: str) -> None:
         self.replace.pop(part, None)
@@ -285,10 +305,17 @@ def write_package(pkg: WorkbookPackage, changes: PackageChanges, dest: str | os.
                 new_info = _copy_info(info)
                 if name in changes.replace:
                     data = changes.replace[name]
-                    if new_info.compress_type == zipfile.ZIP_STORED and len(data) > 1024:
+                    size = _size(data)
+                    if new_info.compress_type == zipfile.ZIP_STORED and size > 1024:
                         new_info.compress_type = default_method
-                    _set_level(new_info, _level_for(len(data), compresslevel))
-                    out.writestr(new_info, data)
+                    _set_level(new_info, _level_for(size, compresslevel))
+                    if isinstance(data, bytes):
+                        out.writestr(new_info, data)
+                    else:  # what writestr does, a piece at a time
+                        new_info.file_size = size
+                        with out.open(new_info, "w") as dst:
+                            for piece in data:
+                                dst.write(piece)
                 elif info.file_size <= _CHUNK * 8:
                     _set_level(new_info, _level_for(info.file_size, compresslevel))
                     out.writestr(new_info, pkg.read(name))

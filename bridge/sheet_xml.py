@@ -633,76 +633,106 @@ _VALUE_CELL = re.compile(
     rb'<c r="([A-Z]{1,3}[0-9]+)"((?: [A-Za-z]+="[^"]*")*)>(<f>[^<]*</f>|<f [^>]*/>|<f [^>]*>[^<]*</f>)'
     rb"(<v>[^<]*</v>)?</c>")
 _MISSING = object()
+_repeat = itertools.repeat
+
+
+def _number_v(x) -> bytes | None:
+    """``<v>…</v></c>`` for a finite float (the shortest text that reads back as the same double,
+    integers without ".0", as :func:`_value_xml` writes them); None for any other value."""
+    if type(x) is float and x - x == 0.0:
+        return b"<v>%d</v></c>" % x if x.is_integer() and -1e16 < x < 1e16 else b"<v>%r</v></c>" % x
+    return None
 
 
 def _patch_values_chunk(chunk: bytes, values: dict) -> bytes:
-    """One piece of ``<sheetData>`` with new cached values for the listed formula cells (popped from ``values``)."""
+    """One piece of ``<sheetData>`` with new cached values for the listed formula cells (popped from ``values``).
+
+    The piece is split by :data:`_VALUE_CELL`; each matched cell is written
+    back as eight pieces (``<c r="``, reference, ``"``, attributes, ``>``,
+    formula, value and ``</c>``), set with list slices, so the common case
+    (a number beside a formula, no type attribute) costs one formatting per cell.
+    """
     parts = _VALUE_CELL.split(chunk)
-    if len(parts) == 1:
+    m = (len(parts) - 1) // 5
+    if not m:
         return chunk
-    pop = values.pop
-    cells: list[bytes] = []
-    add = cells.append
-    for ref, attrs, f, v in zip(parts[1::5], parts[2::5], parts[3::5], parts[4::5]):
-        x = pop(ref, _MISSING)
+    refs, attrs_l, olds = parts[1::5], parts[2::5], parts[4::5]
+    new = list(map(values.pop, refs, _repeat(_MISSING)))
+    tails = list(map(_number_v, new))
+    out: list = [b""] * (8 * m + 1)
+    out[0::8] = parts[0::5]
+    out[1::8] = [b'<c r="'] * m
+    out[2::8] = refs
+    out[3::8] = [b'"'] * m
+    out[4::8] = attrs_l
+    out[5::8] = [b">"] * m
+    out[6::8] = parts[3::5]
+    out[7::8] = tails
+    done: dict[tuple, tuple[bytes, bytes]] = {}  # (type, value, attributes) → (attributes, tail): labels repeat
+    for k in [k for k, t in enumerate(tails) if t is None] + \
+            [k for k, (t, a) in enumerate(zip(tails, attrs_l)) if t is not None and a and b't="' in a]:
+        x = new[k]
         if x is _MISSING:
-            add(b'<c r="%b"%b>%b%b</c>' % (ref, attrs, f, v or b""))
-        elif type(x) is float and x - x == 0.0 and b't="' not in attrs:
-            # the commonest: a finite number beside a kept formula; the shortest text that reads back as
-            # the same double, integers without ".0" (as _value_xml writes them)
-            if x.is_integer() and abs(x) < 1e16:
-                add(b'<c r="%b"%b>%b<v>%d</v></c>' % (ref, attrs, f, x))
-            else:
-                add(b'<c r="%b"%b>%b<v>%r</v></c>' % (ref, attrs, f, x))
-        else:
-            t, v_xml = _value_xml(x, True, b"", ref.decode("ascii"))
-            if t is not None or b't="' in attrs:
-                attrs = _set_attr(attrs, b"t", t)
-            add(b'<c r="%b"%b>%b%b</c>' % (ref, attrs, f, v_xml))
-    out = [None] * (2 * len(cells) + 1)
-    out[0::2] = parts[0::5]
-    out[1::2] = cells
+            out[8 * k + 7] = (olds[k] or b"") + b"</c>"
+            continue
+        attrs = attrs_l[k]
+        key = (type(x), x, attrs)
+        got = done.get(key)
+        if got is None:
+            t, v_xml = _value_xml(x, True, b"", refs[k].decode("ascii"))
+            got = done[key] = (_set_attr(attrs, b"t", t) if t is not None or b't="' in attrs else attrs,
+                               v_xml + b"</c>")
+        out[8 * k + 4], out[8 * k + 7] = got
     return b"".join(out)
 
 
-def patch_values(xml: bytes, values: Mapping[str, object]) -> bytes:
+def patch_values(xml: bytes, values: Mapping, *, consume: bool = False, pieces: bool = False):
     """Write new cached values beside the kept formulas of the listed formula cells (what a recalculation does).
 
     Parameters
     ----------
     xml : bytes
         The worksheet part.
-    values : mapping of str to value
-        Cell reference (``"B7"``) → the new value, typed as for :class:`CellUpdate`.
+    values : mapping of str or bytes to value
+        Cell reference (``"B7"`` or ``b"B7"``) → the new value, typed as for :class:`CellUpdate`.
+    consume : bool, optional
+        Allowed to empty ``values`` (a dict with bytes keys) as it goes, instead of working on a copy:
+        saves a copy of a mapping of millions of cells.
+    pieces : bool, optional
+        Return the new part as a list of byte strings to be joined (or written one after the
+        other) instead of one joined copy.
 
     Returns
     -------
-    bytes
+    bytes or list of bytes
         The same as ``patch_sheet(xml, {ref: CellUpdate(value)})``: only the
         listed cells change, and only in their value and ``t`` attribute.
 
     Notes
     -----
     Formula cells in the usual form are rewritten a piece of the sheet at a
-    time by one split of a regular expression, with one short step per
-    cell; cells in any other form (a namespace prefix, children after the
-    value, a listed cell without a formula) go through :func:`patch_sheet`'s
-    general path afterwards.
+    time by one split of a regular expression (:func:`_patch_values_chunk`);
+    cells in any other form (a namespace prefix, children after the value, a
+    listed cell without a formula) go through :func:`patch_sheet`'s general
+    path afterwards.
     """
     if not values:
-        return xml
+        return [xml] if pieces else xml
     start, end, prefix = sheet_data_span(xml)
-    keyed = dict(zip(map(str.encode, values), values.values()))
+    if type(next(iter(values))) is bytes:
+        keyed = values if consume and isinstance(values, dict) else dict(values)
+    else:
+        keyed = dict(zip(map(str.encode, values), values.values()))
+    out: list[bytes] = [xml]
     if not prefix and start < end:
-        pieces = [xml[:start]]
+        out = [xml[:start]]
         for cs, ce in _chunks(xml, start, end, prefix):
-            pieces.append(_patch_values_chunk(xml[cs:ce], keyed))
-        pieces.append(xml[end:])
-        xml = b"".join(pieces)
-        del pieces
+            out.append(_patch_values_chunk(xml[cs:ce], keyed))
+        out.append(xml[end:])
     if keyed:
-        xml = _patch_cells(xml, {ref.decode("ascii"): CellUpdate(v) for ref, v in keyed.items()})
-    return xml
+        out = [_patch_cells(b"".join(out), {ref.decode("ascii"): CellUpdate(v) for ref, v in keyed.items()})]
+        keyed.clear()
+    return out if pieces else b"".join(out)
 
 
 def patch_sheet(xml: bytes, updates: Mapping[str, CellUpdate]) -> bytes:
@@ -1205,12 +1235,32 @@ class ColumnArrays:
 
 @dataclasses.dataclass
 class SheetArrays:
-    """A worksheet's cells column by column in arrays, from :func:`read_column_arrays`; ``formulas`` and
-    ``styles`` as in :class:`SheetColumns`."""
+    """A worksheet's cells column by column in arrays, from :func:`read_column_arrays`.
+
+    ``columns`` as :class:`ColumnArrays`; ``styles`` as in :class:`SheetColumns`.
+    The formulas come in two parts: ``plain_formulas``, the ordinary
+    formulas (``<f>text</f>``, by far the commonest) as (rows, columns,
+    texts) blocks, rows and columns in int arrays and the texts in a list;
+    and ``other_formulas``, every other formula cell (shared, array, data
+    table) as (row, col, :class:`Formula`). :attr:`formulas` puts them
+    together in document order.
+    """
 
     columns: dict[int, ColumnArrays]
-    formulas: list[tuple[int, int, Formula]]
+    plain_formulas: list[tuple[np.ndarray, np.ndarray, list[str]]]
+    other_formulas: list[tuple[int, int, Formula]]
     styles: dict[tuple[int, int], int]
+
+    @property
+    def formulas(self) -> list[tuple[int, int, Formula]]:
+        """Every formula cell as (row, col, :class:`Formula`), in document order."""
+        cells = list(self.other_formulas)
+        for rows, cols, texts in self.plain_formulas:
+            cells.extend(zip(rows.tolist(), cols.tolist(),
+                             map(_NEW_NORMAL, zip(texts, _repeat("normal"), _repeat(None), _repeat(None),
+                                                  _repeat(False), _repeat(b"")))))
+        cells.sort(key=lambda t: (t[0], t[1]))
+        return cells
 
 
 #: A cell holding only a value, in the form spreadsheet apps and libraries write (the reference first,
@@ -1223,7 +1273,6 @@ _FORMULA_CELL = re.compile(rb'<c r="([A-Z]{1,3})([0-9]+)"((?: [A-Za-z]+="[^"]*")
 
 _NEW_NORMAL = functools.partial(tuple.__new__, Formula)
 _NAN = float("nan")
-_repeat = itertools.repeat
 
 
 def _lookup(items: list, convert):
@@ -1243,7 +1292,8 @@ class _Collector:
         self.rows: list[np.ndarray] = []
         self.nums: list[np.ndarray] = []
         self.others: list[tuple[int, int, object]] = []
-        self.formulas: list[tuple[int, int, Formula]] = []
+        self.plain_formulas: list[tuple[np.ndarray, np.ndarray, list[str]]] = []
+        self.formulas: list[tuple[int, int, Formula]] = []  # the other formula cells
         self.styles: dict[tuple[int, int], int] = {}
         self.single: tuple[list, list, list] = ([], [], [])  # number cells decoded one by one
 
@@ -1290,13 +1340,22 @@ class _Collector:
         rows = list(map(int, digits))
         joined = b"\x00".join(f_l)  # formula text holds neither "<" nor NUL, so the elements split back apart
         if b"<f " in joined or b"_x" in joined:
-            formulas = [self._formula(f) for f in f_l]
+            plain_rows, plain_cols, texts = [], [], []
+            for row, col, f in zip(rows, cols, f_l):
+                if f[:3] == b"<f>":
+                    plain_rows.append(row)
+                    plain_cols.append(col)
+                    texts.append(_decode(f[3:-4]))
+                else:
+                    self.formulas.append((row, col, self._formula(f)))
         else:  # all ordinary <f>text</f>: decoded in one go
             text = joined[3:-4]
             texts = (text.decode("utf-8") if b"&" not in text else unescape_xml(text)).split("</f>\x00<f>")
-            formulas = list(map(_NEW_NORMAL, zip(texts, _repeat("normal"), _repeat(None), _repeat(None),
-                                                 _repeat(False), _repeat(b""))))
-        self.formulas.extend(zip(rows, cols, formulas))
+            plain_rows, plain_cols = rows, cols
+        del joined
+        if texts:
+            self.plain_formulas.append((np.asarray(plain_rows, dtype=np.int64), np.asarray(plain_cols, dtype=np.int16),
+                                        texts))
         if not any(attrs_l) and not any(raws):  # no cached values and no attributes: the cells are there, empty
             self.numbers(cols, rows, np.full(n, np.nan))
             return
@@ -1368,7 +1427,7 @@ class _Collector:
         if others:
             self.numbers([c for _, c, _ in others], [r for r, _, _ in others], np.full(len(others), np.nan))
         if not self.cols:
-            return SheetArrays({}, self.formulas, self.styles)
+            return SheetArrays({}, self.plain_formulas, self.formulas, self.styles)
         cols = np.concatenate(self.cols)
         rows = np.concatenate(self.rows)
         nums = np.concatenate(self.nums)
@@ -1388,7 +1447,7 @@ class _Collector:
                 r, x = r[k], x[k]
             c = int(cols[a])
             columns[c] = ColumnArrays(r, x, by_col.get(c, {}))
-        return SheetArrays(columns, self.formulas, self.styles)
+        return SheetArrays(columns, self.plain_formulas, self.formulas, self.styles)
 
 
 def read_column_arrays(xml: bytes, shared_strings: Sequence[str] = ()) -> SheetArrays:
@@ -1420,7 +1479,6 @@ def read_column_arrays(xml: bytes, shared_strings: Sequence[str] = ()) -> SheetA
                 got.plain(parts)
             rest = b"".join(parts[0::6])
             del parts
-            mark = len(got.formulas)
             parts = _FORMULA_CELL.split(rest)
             if len(parts) > 1:
                 got.formula_cells(parts)
@@ -1429,10 +1487,7 @@ def read_column_arrays(xml: bytes, shared_strings: Sequence[str] = ()) -> SheetA
             if b"<c" in rest:
                 if _CELL_WITHOUT_R.search(rest):
                     return _arrays_from_cells(iter_cells(xml, shared_strings))
-                second = len(got.formulas)
                 got.other_cells(rest)
-                if mark < second < len(got.formulas):  # formulas of two passes: back into document order
-                    got.formulas[mark:] = sorted(got.formulas[mark:], key=lambda t: (t[0], t[1]))
         return got.result()
     finally:
         if gc_was:

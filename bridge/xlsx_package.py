@@ -310,6 +310,11 @@ class WorkbookPackage:
             raise zipfile.BadZipFile(f"bad CRC-32 or size for {info.filename}")
         return data
 
+    def forget(self, part: str) -> None:
+        """Drop the kept copy of a large part (the next :meth:`read` inflates it again)."""
+        if self._last is not None and self._last[0] == part:
+            self._last = None
+
     def open_part(self, part: str):
         """A readable binary stream of one entry (for copying large parts in chunks)."""
         return self._zip.open(self.infos[part])

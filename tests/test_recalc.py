@@ -445,5 +445,15 @@ def test_run_finder_agrees_with_the_one_by_one_reference(seed):
             else:
                 f = Formula("", "dataTable", None, None, False, b"")
             cells.append((row, col, f))
+    expected = _runs_one_by_one(cells)
     runs, _ = _formula_runs(cells)
-    assert runs == _runs_one_by_one(cells)
+    assert runs == expected
+    # the same cells as the column reader gives them: ordinary formulas in blocks, the rest one by one
+    plain = [c for c in cells if c[2].kind == "normal"]
+    half = len(plain) // 2
+    blocks = [(np.array([r for r, _, _ in part]), np.array([c for _, c, _ in part], dtype=np.int16),
+               [f.text for _, _, f in part]) for part in (plain[:half], plain[half:])]
+    sheet = sheet_xml.SheetArrays({}, blocks, [c for c in cells if c[2].kind != "normal"], {})
+    assert sheet.formulas == cells
+    runs, _ = _formula_runs(sheet)
+    assert runs == expected

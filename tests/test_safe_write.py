@@ -305,3 +305,22 @@ def test_an_output_open_in_another_program_is_not_replaced(features):
         with pytest.raises(WorkbookLocked, match="open in another program"):
             save_workbook(pkg, band_changes(pkg), overwrite=True)
     assert digest(first) == before
+
+
+def test_a_part_given_in_pieces_is_written_as_the_joined_bytes(features, tmp_path):
+    """A large sheet is handed over as a list of pieces; the file must be the same as with one joined copy."""
+    with open_workbook_package(features) as pkg:
+        part = pkg.sheet("Applicants").part
+        new = patch_sheet(pkg.read(part), {f"D{r}": CellUpdate(float(r)) for r in range(2, 8)})
+        outputs = []
+        for data in (new, [new[:100], new[100:101], b"", new[101:]]):
+            changes = PackageChanges()
+            changes.set(pkg, part, data)
+            outputs.append(save_workbook(pkg, changes, output=tmp_path / f"out{len(outputs)}{features.suffix}"))
+        assert Path(outputs[0]).read_bytes() == Path(outputs[1]).read_bytes()
+        same = pkg.read(part)
+        changes = PackageChanges()
+        changes.set(pkg, part, [same[:7], same[7:]])  # the original bytes in pieces: nothing to replace
+        assert part not in changes.replace
+        changes.set(pkg, part, [new[:50], new[50:]])
+        assert changes.current(pkg, part) == new  # read back joined
