@@ -48,15 +48,26 @@ def add_output_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--backup", action="store_true", help="with --in-place, keep the original as BOOK.backup.xlsx")
 
 
-def build_parser() -> argparse.ArgumentParser:
-    from trueband.funcs import __version__
+class _VersionAction(argparse.Action):
+    """``--version``, reading the version only when asked."""
 
+    def __init__(self, option_strings, dest=argparse.SUPPRESS, default=argparse.SUPPRESS, help=None):
+        super().__init__(option_strings=option_strings, dest=dest, default=default, nargs=0, help=help)
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        from trueband.funcs import __version__
+
+        print(f"trueband {__version__}")
+        parser.exit()
+
+
+def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="trueband",
         description="Tested reliability, validity, score-band, cut-score and adverse-impact functions "
                     "for hiring-test spreadsheets. The figures are statistical indicators to support "
                     "professional judgment, not legal findings.")
-    parser.add_argument("--version", action="version", version=f"trueband {__version__}")
+    parser.add_argument("--version", action=_VersionAction, help="show the version and exit")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     sub.required = True
     for name in COMMAND_MODULES:

@@ -21,8 +21,6 @@ module             topic
 3.6
 """
 
-from importlib import metadata as _metadata
-
 from . import agreement, cutscores, impact, reliability, scores, utility, validity  # noqa: F401  (registers)
 from .errors import (  # noqa: F401
     ArgumentCountError,
@@ -35,7 +33,16 @@ from .errors import (  # noqa: F401
 )
 from .registry import REGISTRY, call, call_column, catalog, lookup  # noqa: F401
 
-try:
-    __version__ = _metadata.version("trueband")
-except _metadata.PackageNotFoundError:  # running from a source tree that was never installed
-    __version__ = "0+unknown"
+
+def __getattr__(name: str):
+    # The version is read from the installed metadata on first use (importlib.metadata costs start-up time).
+    if name == "__version__":
+        from importlib import metadata
+
+        try:
+            version = metadata.version("trueband")
+        except metadata.PackageNotFoundError:  # running from a source tree that was never installed
+            version = "0+unknown"
+        globals()["__version__"] = version
+        return version
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

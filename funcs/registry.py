@@ -302,7 +302,7 @@ def spreadsheet(name: str, *, returns: str, reference: str, elementwise: bool | 
         for key in (name, *aliases):
             if key in REGISTRY or key in ALIASES:
                 raise ValueError(f"{key} is registered twice")
-        hints = typing.get_type_hints(body)
+        hints = _type_hints(body)
         doc = inspect.getdoc(body) or ""
         arg_docs = _argument_docs(doc)
         arguments = []
@@ -330,6 +330,26 @@ def spreadsheet(name: str, *, returns: str, reference: str, elementwise: bool | 
         return wrapper
 
     return decorate
+
+
+_EVALUATED: dict[tuple[str, str], object] = {}
+
+
+def _type_hints(body: Callable) -> dict[str, object]:
+    """The argument annotations of ``body``, evaluated as ``typing.get_type_hints`` does; each distinct
+    annotation text of a module is evaluated once (the topic modules repeat a handful of them, and
+    evaluating every one again was most of the package's import time)."""
+    out = {}
+    for name, annotation in body.__annotations__.items():
+        if name == "return":
+            continue
+        if isinstance(annotation, str):
+            key = (body.__module__, annotation)
+            if key not in _EVALUATED:
+                _EVALUATED[key] = eval(annotation, body.__globals__)  # noqa: S307 (our own annotations)
+            annotation = _EVALUATED[key]
+        out[name] = annotation
+    return out
 
 
 def normalize_name(name: str) -> str:
