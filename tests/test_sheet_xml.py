@@ -93,29 +93,34 @@ def test_reader_agrees_with_openpyxl_on_the_features_book(tmp_path):
                     assert mine.value == cell.value, ref
 
 
-def _random_sheet(rnd, rows=300):
+def _sheet_from(rnd, rows: int, columns: int, most: int, cell) -> bytes:
+    """A sheet of ``rows`` rows, each with up to ``most`` of the first ``columns`` - 1 columns, cells made by ``cell``."""
     out = []
     for r in range(1, rows + 1):
-        cells = []
-        for col in sorted(rnd.sample(range(1, 30), rnd.randint(0, 8))):
-            ref = f"{sx.column_letters(col)}{r}"
-            kind = rnd.random()
-            if kind < 0.4:
-                cells.append(gb.cell_xml(ref, rnd.choice([0, 1, -2.5, 1e-300, 12345678901234567, 0.1 + 0.2])))
-            elif kind < 0.55:
-                cells.append(gb.cell_xml(ref, rnd.choice(["x", "a&b", "<t>"]), t="str", formula="T(\"x\")"))
-            elif kind < 0.65:
-                cells.append(gb.cell_xml(ref, rnd.choice([True, False]), t="b", s=rnd.randint(0, 2)))
-            elif kind < 0.75:
-                cells.append(gb.cell_xml(ref, rnd.choice(sx.ERROR_CODES[:7]), t="e"))
-            elif kind < 0.85:
-                cells.append(f'<c r="{ref}" s="1" t="inlineStr"><is><t>in {r}</t></is></c>')
-            elif kind < 0.95:
-                cells.append(gb.cell_xml(ref, 3, formula=f"SUM(A{r}:B{r})", s=2))
-            else:
-                cells.append(f'<c s="2" r="{ref}" t="n"><v>{r}</v></c>')  # attributes in another order
-        out.append(gb.row_xml(r, cells))
+        refs = [f"{sx.column_letters(col)}{r}" for col in sorted(rnd.sample(range(1, columns), rnd.randint(0, most)))]
+        out.append(gb.row_xml(r, [cell(rnd, ref, r) for ref in refs]))
     return gb.sheet_part(out)
+
+
+def _random_cell(rnd, ref: str, r: int) -> str:
+    kind = rnd.random()
+    if kind < 0.4:
+        return gb.cell_xml(ref, rnd.choice([0, 1, -2.5, 1e-300, 12345678901234567, 0.1 + 0.2]))
+    if kind < 0.55:
+        return gb.cell_xml(ref, rnd.choice(["x", "a&b", "<t>"]), t="str", formula="T(\"x\")")
+    if kind < 0.65:
+        return gb.cell_xml(ref, rnd.choice([True, False]), t="b", s=rnd.randint(0, 2))
+    if kind < 0.75:
+        return gb.cell_xml(ref, rnd.choice(sx.ERROR_CODES[:7]), t="e")
+    if kind < 0.85:
+        return f'<c r="{ref}" s="1" t="inlineStr"><is><t>in {r}</t></is></c>'
+    if kind < 0.95:
+        return gb.cell_xml(ref, 3, formula=f"SUM(A{r}:B{r})", s=2)
+    return f'<c s="2" r="{ref}" t="n"><v>{r}</v></c>'  # attributes in another order
+
+
+def _random_sheet(rnd, rows=300):
+    return _sheet_from(rnd, rows, 30, 8, _random_cell)
 
 
 def test_fast_reader_matches_the_row_aware_reader():
@@ -353,47 +358,43 @@ def test_column_reader_agrees_with_the_cell_reader(forms):
     assert cols.columns[2][0] == [1, 2, 3, 5, 6, 7, 8, 9]  # B4 is an empty styled cell: not a value
 
 
+def _usual_cell(rnd, ref: str, r: int) -> str:
+    """A cell in the forms the fast paths take (the reference first), of every kind."""
+    kind = rnd.random()
+    s = rnd.choice([None, None, 1, 2])
+    if kind < 0.3:
+        return gb.cell_xml(ref, rnd.choice([0, 1, -2.5, 1e-300, 12345678901234567, 0.1 + 0.2]), s=s)
+    if kind < 0.35:
+        return gb.cell_xml(ref, rnd.randint(0, 2), t="s", s=s)  # a shared string
+    if kind < 0.4:
+        return gb.cell_xml(ref, rnd.choice([True, False]), t="b", s=s)
+    if kind < 0.45:
+        return gb.cell_xml(ref, rnd.choice(sx.ERROR_CODES[:7]), t="e")
+    if kind < 0.5:
+        return f'<c r="{ref}" t="n"><v>{r}.5</v></c>'
+    if kind < 0.55:
+        return f'<c r="{ref}" s="1"/>' if s else f'<c r="{ref}"><v></v></c>'  # empty
+    if kind < 0.6:
+        return f'<c r="{ref}" t="inlineStr"><is><t>in {r}</t></is></c>'
+    if kind < 0.72:
+        return gb.cell_xml(ref, rnd.choice([None, 3, 0.25]), formula=f"SUM(A{r}:B{r})", s=s)
+    if kind < 0.78:
+        return gb.cell_xml(ref, rnd.choice(["x", "a&b", ""]), t="str", formula='T("a&b")')
+    if kind < 0.82:
+        return gb.cell_xml(ref, "#DIV/0!", t="e", formula="1/0")
+    if kind < 0.86:
+        return gb.cell_xml(ref, 7, formula=f"A{r}*2", f_attrs=f' t="shared" ref="{ref}:{ref}" si="{r}"')
+    if kind < 0.9:
+        return gb.cell_xml(ref, 7, f_attrs=' t="shared" si="3"')  # a dependent
+    if kind < 0.93:
+        return gb.cell_xml(ref, 4, formula="A1:A2*2", f_attrs=f' t="array" ref="{ref}"')
+    if kind < 0.96:
+        return f'<c r="{ref}"><f></f><v>1</v></c>'
+    return f'<c r="{ref}" t="str"><f>A1&amp;"&lt;"</f><v>x</v><extLst><ext uri="u"/></extLst></c>'
+
+
 def _usual_sheet(rnd, rows=400):
-    """A sheet in the forms the fast paths take (the reference first), with every kind of cell mixed in."""
-    out = []
-    for r in range(1, rows + 1):
-        cells = []
-        for col in sorted(rnd.sample(range(1, 12), rnd.randint(0, 9))):
-            ref = f"{sx.column_letters(col)}{r}"
-            kind = rnd.random()
-            s = rnd.choice([None, None, 1, 2])
-            if kind < 0.3:
-                cells.append(gb.cell_xml(ref, rnd.choice([0, 1, -2.5, 1e-300, 12345678901234567, 0.1 + 0.2]), s=s))
-            elif kind < 0.35:
-                cells.append(gb.cell_xml(ref, rnd.randint(0, 2), t="s", s=s))  # a shared string
-            elif kind < 0.4:
-                cells.append(gb.cell_xml(ref, rnd.choice([True, False]), t="b", s=s))
-            elif kind < 0.45:
-                cells.append(gb.cell_xml(ref, rnd.choice(sx.ERROR_CODES[:7]), t="e"))
-            elif kind < 0.5:
-                cells.append(f'<c r="{ref}" t="n"><v>{r}.5</v></c>')
-            elif kind < 0.55:
-                cells.append(f'<c r="{ref}" s="1"/>' if s else f'<c r="{ref}"><v></v></c>')  # empty
-            elif kind < 0.6:
-                cells.append(f'<c r="{ref}" t="inlineStr"><is><t>in {r}</t></is></c>')
-            elif kind < 0.72:
-                cells.append(gb.cell_xml(ref, rnd.choice([None, 3, 0.25]), formula=f"SUM(A{r}:B{r})", s=s))
-            elif kind < 0.78:
-                cells.append(gb.cell_xml(ref, rnd.choice(["x", "a&b", ""]), t="str", formula='T("a&b")'))
-            elif kind < 0.82:
-                cells.append(gb.cell_xml(ref, "#DIV/0!", t="e", formula="1/0"))
-            elif kind < 0.86:
-                cells.append(gb.cell_xml(ref, 7, formula=f"A{r}*2", f_attrs=f' t="shared" ref="{ref}:{ref}" si="{r}"'))
-            elif kind < 0.9:
-                cells.append(gb.cell_xml(ref, 7, f_attrs=' t="shared" si="3"'))  # a dependent
-            elif kind < 0.93:
-                cells.append(gb.cell_xml(ref, 4, formula="A1:A2*2", f_attrs=f' t="array" ref="{ref}"'))
-            elif kind < 0.96:
-                cells.append(f'<c r="{ref}"><f></f><v>1</v></c>')
-            else:
-                cells.append(f'<c r="{ref}" t="str"><f>A1&amp;"&lt;"</f><v>x</v><extLst><ext uri="u"/></extLst></c>')
-        out.append(gb.row_xml(r, cells))
-    return gb.sheet_part(out)
+    return _sheet_from(rnd, rows, 12, 9, _usual_cell)
 
 
 @pytest.mark.parametrize("seed", range(6))
