@@ -54,6 +54,9 @@ def io_floor(src: Path, dst: Path) -> float:
     from trueband.bridge.safe_write import PackageChanges, save_workbook
     from trueband.bridge.xlsx_package import open_workbook_package
 
+    import gc
+
+    gc.disable()  # as recalc does: millions of short-lived objects, no cycles
     started = time.perf_counter()
     with open_workbook_package(src) as pkg:
         info = pkg.worksheets[0]
