@@ -304,7 +304,13 @@ class WorkbookPackage:
             raw = f.read(info.compress_size)
         if len(raw) != info.compress_size:
             raise EOFError(f"{info.filename} is cut short")
-        data = raw if info.compress_type == zipfile.ZIP_STORED else zlib.decompress(raw, -15, info.file_size)
+        if info.compress_type == zipfile.ZIP_STORED:
+            data = raw
+        else:  # never more than the declared size, as the zip module's reader: an entry that lies is refused
+            inflate = zlib.decompressobj(-15)
+            data = inflate.decompress(raw, info.file_size)
+            if inflate.unconsumed_tail or not inflate.eof:
+                raise zipfile.BadZipFile(f"{info.filename} inflates to more or less than its declared size")
         del raw
         if len(data) != info.file_size or zlib.crc32(data) != info.CRC:
             raise zipfile.BadZipFile(f"bad CRC-32 or size for {info.filename}")

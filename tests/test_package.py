@@ -198,6 +198,28 @@ def test_damaged_large_part_fails_when_read(tmp_path, monkeypatch):
             pkg.read("xl/worksheets/sheet1.xml")
 
 
+def test_large_part_that_inflates_past_its_declared_size_is_refused(tmp_path, monkeypatch):
+    # The one-call inflate of large parts stops at the declared size, as the zip module's reader does, so an
+    # entry whose central directory understates its size cannot fill the memory. (Random bytes: the ratio
+    # check on opening does not apply.)
+    import os
+
+    data = os.urandom(3 * xp.WHOLE_READ_SIZE)
+    path = tmp_path / "liar.xlsx"
+    gb.handmade_package(path, [("S", gb.sheet_part([]))])
+    with zipfile.ZipFile(path, "a", zipfile.ZIP_DEFLATED) as zf:
+        zf.writestr("xl/media/blob.bin", data)
+    raw = bytearray(path.read_bytes())
+    at = raw.rindex(b"PK\x01\x02")  # the blob's central directory record, written last
+    assert raw[at + 46:at + 46 + 17] == b"xl/media/blob.bin"
+    raw[at + 24:at + 28] = (2 * xp.WHOLE_READ_SIZE).to_bytes(4, "little")  # declared uncompressed size
+    path.write_bytes(bytes(raw))
+    monkeypatch.setattr(xp, "_check_zip", lambda *a: None)  # as for a file too large to test on opening
+    with open_workbook_package(path) as pkg:
+        with pytest.raises(UnusableWorkbook, match="declared size"):
+            pkg.read("xl/media/blob.bin")
+
+
 def test_missing_file_and_folder(tmp_path):
     with pytest.raises(UnusableWorkbook, match="does not exist"):
         open_workbook_package(tmp_path / "absent.xlsx")
