@@ -34,8 +34,9 @@ from formulas.functions import Error, XlError, not_implemented
 from trueband.funcs.errors import ArgumentTypeError, TruebandError, error_for_code
 from trueband.funcs.registry import NAME_PREFIXES, REGISTRY, SpreadsheetFunction
 
-__all__ = ["install", "BUILTIN_NAMES", "builtin_names", "function_table", "FunctionTable", "ERROR_LOG", "evaluate_expression", "to_engine_error", "UnreadableFormula",
-           "message_for", "range_argument", "scalar_argument", "PassError", "NOT_IMPLEMENTED"]
+__all__ = ["install", "BUILTIN_NAMES", "builtin_names", "function_table", "FunctionTable", "ERROR_LOG",
+           "evaluate_expression", "to_engine_error", "UnreadableFormula", "message_for", "range_argument",
+           "scalar_argument", "PassError", "NOT_IMPLEMENTED"]
 
 # The engine logs every failing function with a traceback; errors are values here.
 logging.getLogger("schedula").setLevel(logging.CRITICAL)

@@ -153,9 +153,8 @@ class CellStore:
             size = int(entry.rows[-1]) + 1
             col = _Column(size)
             number = ~np.isnan(entry.numbers)  # NaN: text and the like (in others) or a formula without a value
-            r = entry.rows[number] if not number.all() else entry.rows
-            col.num[r] = entry.numbers[number] if r is not entry.rows else entry.numbers
-            col.kind[r] = _KIND_NUMBER
+            col.num[entry.rows[number]] = entry.numbers[number]
+            col.kind[entry.rows[number]] = _KIND_NUMBER
             for row, v in entry.others.items():
                 col.other[row] = _engine_value(v)
                 col.kind[row] = _KIND_OTHER

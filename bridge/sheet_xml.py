@@ -629,9 +629,9 @@ _R_ATTR = re.compile(rb' r="([A-Z]{1,3}[0-9]+)"')
 #: A formula cell in the form spreadsheet apps and libraries write (no namespace prefix, the reference
 #: first, the formula and an optional value and nothing else): reference, attributes, formula element,
 #: value element. Every byte of a match is in a group or literal, so a match is rebuilt exactly.
-_VALUE_CELL = re.compile(
-    rb'<c r="([A-Z]{1,3}[0-9]+)"((?: [A-Za-z]+="[^"]*")*)>(<f>[^<]*</f>|<f [^>]*/>|<f [^>]*>[^<]*</f>)'
-    rb"(<v>[^<]*</v>)?</c>")
+_CELL_ATTRS = rb'((?: [A-Za-z]+="[^"]*")*)'  # the attributes after r, as one group
+_F_ELEMENT = rb"(<f>[^<]*</f>|<f [^>]*/>|<f [^>]*>[^<]*</f>)"  # a formula element, as one group
+_VALUE_CELL = re.compile(rb'<c r="([A-Z]{1,3}[0-9]+)"' + _CELL_ATTRS + rb">" + _F_ELEMENT + rb"(<v>[^<]*</v>)?</c>")
 _MISSING = object()
 _repeat = itertools.repeat
 
@@ -1267,8 +1267,8 @@ class SheetArrays:
 #: then an optional style and type): letters, digits, style, type, value text.
 _PLAIN_CELL = re.compile(rb'<c r="([A-Z]{1,3})([0-9]+)"(?: s="([0-9]+)")?(?: t="([a-zA-Z]+)")?><v>([^<]+)</v></c>')
 #: A formula cell in the usual form: letters, digits, attributes, formula element, value text.
-_FORMULA_CELL = re.compile(rb'<c r="([A-Z]{1,3})([0-9]+)"((?: [A-Za-z]+="[^"]*")*)>'
-                           rb"(<f>[^<]*</f>|<f [^>]*/>|<f [^>]*>[^<]*</f>)(?:<v>([^<]*)</v>)?</c>")
+_FORMULA_CELL = re.compile(rb'<c r="([A-Z]{1,3})([0-9]+)"' + _CELL_ATTRS + rb">" + _F_ELEMENT
+                           + rb"(?:<v>([^<]*)</v>)?</c>")
 
 
 _NEW_NORMAL = functools.partial(tuple.__new__, Formula)
@@ -1306,7 +1306,7 @@ class _Collector:
         """Pass 1: the plain value cells of a piece (its split by :data:`_PLAIN_CELL`)."""
         letters, digits, styles, types, raws = parts[1::6], parts[2::6], parts[3::6], parts[4::6], parts[5::6]
         n = len(letters)
-        cols = np.fromiter(map(_lookup(letters, column_index), letters), np.int16, n)
+        cols = cols_all = np.fromiter(map(_lookup(letters, column_index), letters), np.int16, n)
         rows = np.fromiter(map(_lookup(digits, int), digits), np.int64, n)
         typed = [i for i, t in enumerate(types) if t is not None and t != b"n"] if any(types) else []
         if typed:
@@ -1328,9 +1328,9 @@ class _Collector:
             cols, rows, nums = cols[keep], rows[keep], nums[keep]
         self.numbers(cols, rows, nums)
         if any(styles):
-            for L, D, s in zip(letters, digits, styles):
+            for i, s in enumerate(styles):
                 if s is not None and s != b"0":
-                    self.styles[(int(D), column_index(L))] = int(s)
+                    self.styles[(int(digits[i]), int(cols_all[i]))] = int(s)
 
     def formula_cells(self, parts: list) -> None:
         """Pass 2: the formula cells of a piece (its split by :data:`_FORMULA_CELL`)."""
@@ -1381,18 +1381,8 @@ class _Collector:
 
     @staticmethod
     def _formula(f: bytes) -> Formula:
-        """The :class:`Formula` of one ``<f>`` element as the cell reader decodes it."""
-        if f[:3] == b"<f>":
-            text = f[3:-4]
-            return _new_tuple(Formula, (_decode(text), "normal", None, None, False, b""))
-        k = f.find(b">")
-        closed = f[k - 1:k] == b"/"
-        fattrs = f[2:k - 1] if closed else f[2:k]
-        kind, si, fref = _formula_attrs(fattrs)
-        text = None if closed or k + 1 == len(f) - 4 else _decode(f[k + 1:-4])
-        if text is None and kind != "shared":
-            text = ""
-        return Formula(text, kind, si, fref, kind == "shared" and fref is not None and text is not None, fattrs)
+        """The :class:`Formula` of one ``<f>`` element, decoded by the cell reader's own code."""
+        return _body_value(f, "n", "", (), *_patterns(b"")[1:])[1]
 
     def other_cells(self, rest: bytes) -> None:
         """Pass 3: every other cell of a piece, decoded one by one as :func:`iter_cells` does."""
