@@ -2,12 +2,10 @@
 
 from __future__ import annotations
 
-import difflib
 import sys
 import time
 from pathlib import Path
 
-from trueband.funcs.registry import NAME_PREFIXES, REGISTRY
 
 from .cli import EXIT_CELL_ERRORS, EXIT_FAILED, EXIT_OK, add_output_options
 
@@ -88,20 +86,6 @@ def _recalc(args) -> int:
         print(f"circular reference (not iterated): {' → '.join(cycle + cycle[:1])}", file=sys.stderr)
     print(report.summary(), file=sys.stderr)
     return EXIT_OK if report.ok else EXIT_CELL_ERRORS
-
-
-def suggestion(name: str) -> str | None:
-    """The closest registered or standard function name, for "did you mean"."""
-    from .formula_functions import BUILTIN_NAMES
-
-    key = name.upper()
-    for prefix in NAME_PREFIXES:
-        if key.startswith(prefix):
-            key = key[len(prefix):]
-            break
-    candidates = list(REGISTRY) + [n for n in BUILTIN_NAMES if "." not in n]
-    found = difflib.get_close_matches(key, candidates, n=1, cutoff=0.6)
-    return found[0] if found else None
 
 
 def _check(args) -> int:

@@ -290,15 +290,28 @@ def evaluate_expression(expression: str):
     function (with its message), or :class:`UnreadableFormula` for a formula
     that cannot be evaluated here.
     """
+    from .formula_graph import FormulaSyntaxError, compile_formula
+    from .formula_text import TypedFormulaError, call_findings, parser, typed_formula
+
     install()
     text = expression.strip()
     if not text.startswith("="):
         text = "=" + text
+    try:
+        text = typed_formula(text)
+    except TypedFormulaError as exc:
+        raise UnreadableFormula(str(exc)) from None
+    try:
+        unknown, _ = call_findings(compile_formula(text, 1, 1).tree)
+    except FormulaSyntaxError as exc:
+        raise UnreadableFormula(str(exc)) from None
+    if unknown:
+        raise error_for_code("#NAME?", f"unknown function {', '.join(unknown)} in {expression}")
     ERROR_LOG.clear()  # before compiling: the engine folds constant calls at compile time
     try:
-        fn = formulas.Parser().ast(text)[1].compile()
-    except Exception as exc:  # the parser's own exception types vary by version
-        raise UnreadableFormula(f"cannot read the formula {expression!r}: {exc}") from None
+        fn = parser().ast(text)[1].compile()
+    except Exception as exc:  # the engine's own exception types vary by version
+        raise UnreadableFormula(f"cannot evaluate {expression!r}: {exc}") from None
     if fn.inputs:
         refs = ", ".join(fn.inputs)
         raise UnreadableFormula(f"eval takes literal arguments only; the formula refers to {refs}")

@@ -43,6 +43,7 @@ from formulas.tokens.function import Function
 from formulas.tokens.operand import Empty, Error, Number, Range, String
 from formulas.tokens.operator import Operator
 
+from .formula_text import parser, syntax_message
 from .sheet_xml import column_index, column_letters, split_ref
 
 __all__ = [
@@ -297,14 +298,14 @@ def compile_formula(formula: str, row: int, col: int) -> Compiled:
     if not text.startswith(("=", "{")):
         text = "=" + text
     refs: list[Ref] = []
-    parser = formulas.Parser()
-    parser.ast_builder = functools.partial(_TreeBuilder, row=row, col=col, refs=refs)
+    reader = parser()
+    reader.ast_builder = functools.partial(_TreeBuilder, row=row, col=col, refs=refs)
     try:
-        _, builder = parser.ast(text)
+        _, builder = reader.ast(text)
     except FormulaSyntaxError:
         raise
     except Exception as exc:  # the parser's exception types vary by version
-        raise FormulaSyntaxError(f"cannot read the formula {formula!r}: {exc}") from None
+        raise FormulaSyntaxError(syntax_message(formula, reader, exc)) from None
     root = builder._deque[-1][1]
     key, _ = formula_key(text, row, col)
     functions = frozenset(n.name for n in root.walk() if n.kind == "fn")

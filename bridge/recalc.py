@@ -899,10 +899,7 @@ def _run_where(run: Run) -> str:
 
 def check_workbook(src) -> CheckFindings:
     """Read a workbook and list registered-function cells and likely mistakes (see ``trueband check``)."""
-    from trueband.funcs.registry import REGISTRY
-
-    from .cmd_recalc import suggestion
-    from .formula_functions import BUILTIN_NAMES
+    from .formula_text import call_findings
 
     findings = CheckFindings()
     with open_workbook_package(src) as package:
@@ -912,21 +909,9 @@ def check_workbook(src) -> CheckFindings:
         names = sorted({registered_name(n) for n in run.compiled.functions if registered_name(n)})
         if names:
             findings.registered.append((where, ", ".join(names)))
-        for node in run.compiled.tree.walk():
-            if node.kind != "fn" or node.name in ("ARRAY", "ARRAYROW"):
-                continue
-            reg = registered_name(node.name)
-            if reg is None:
-                if node.name not in BUILTIN_NAMES:
-                    hint = suggestion(node.name)
-                    findings.unknown.append((where, node.name + (f" (did you mean {hint}?)" if hint else "")))
-                continue
-            spec = REGISTRY[reg]
-            n = len(node.args)
-            if n < spec.min_args or n > spec.max_args:
-                need = (f"{spec.min_args}" if spec.min_args == spec.max_args
-                        else f"{spec.min_args} to {spec.max_args}")
-                findings.argument_counts.append((where, f"{reg} takes {need} arguments, got {n}: {spec.signature}"))
+        unknown, counts = call_findings(run.compiled.tree)
+        findings.unknown.extend((where, text) for text in unknown)
+        findings.argument_counts.extend((where, text) for text in counts)
         for ref in run.compiled.refs:
             target = ref.sheet or run.sheet
             canonical = model.store.canonical(target)

@@ -10,7 +10,7 @@ from __future__ import annotations
 import golden_books as gb
 import recalc_books as rb
 from trueband.bridge import cli
-from trueband.bridge.cmd_recalc import suggestion
+from trueband.bridge.formula_text import suggestions
 from trueband.bridge.recalc import check_workbook
 
 
@@ -50,6 +50,13 @@ def test_check_of_an_unusable_file(tmp_path, capsys):
 
 
 def test_suggestions_cover_prefixes_and_standard_names():
-    assert suggestion("_xludf.SCORECI") == "SCORE_CI"
-    assert suggestion("AVERAG") == "AVERAGE"
-    assert suggestion("QQQQQQ") is None
+    assert suggestions("_xludf.SCORECI")[0] == "SCORE_CI"
+    assert suggestions("AVERAG") == ["AVERAGE"]
+    assert suggestions("QQQQQQ") == []
+
+
+def test_a_misspelt_name_gets_the_close_names_of_both_families():
+    # SME is as close to the standard SUM as to trueband's SEM (difflib ratio 2/3 each): both are offered,
+    # trueband's first on the tie.
+    assert suggestions("SME") == ["SEM", "SUM"]
+    assert suggestions("_xludf.sme") == ["SEM", "SUM"]

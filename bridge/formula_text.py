@@ -1,0 +1,188 @@
+"""Reading formula text: the parser every part of trueband uses, typed-formula separators, name suggestions.
+
+* :func:`parser` gives the ``formulas`` library's parser with one token fixed: the
+  library reads the start of a name such as ``TRUE_SCORE`` as the logical
+  ``TRUE`` (its lookahead forgets ``_``), so ``TRUE_SCORE(…)`` and
+  ``FALSE_…(…)`` could not be read at all. It also remembers where reading
+  stopped, so :func:`syntax_message` can show the formula with the position.
+* :func:`typed_formula` accepts a formula typed by a person (``trueband eval``,
+  ``trueband fill``): spreadsheet apps in many settings show ``;`` between
+  arguments, files always store ``,``.
+* :func:`suggestions` lists the closest registered and standard function names
+  for "did you mean", from both families (``SME`` → ``SEM`` and ``SUM``).
+
+This module is the engine's; the command line imports it, never the reverse.
+"""
+
+from __future__ import annotations
+
+import difflib
+
+import formulas
+import regex
+from formulas.errors import ParenthesesError
+from formulas.tokens.operand import Number
+
+from trueband.funcs.registry import NAME_PREFIXES, REGISTRY, normalize_name
+
+# The library's number-and-logical token, with "_" added to what may not follow TRUE/FALSE.
+_LOOKAHEAD = r"(?!([a-z]|[0-9]|\.|\s*\:))"
+_FIXED_LOOKAHEAD = r"(?!([a-z]|[0-9]|\.|_|\s*\:))"
+
+
+class _Number(Number):
+    _re = regex.compile(Number._re.pattern.replace(_LOOKAHEAD, _FIXED_LOOKAHEAD), Number._re.flags)
+
+
+
+def _tracking(token_class):
+    """A filter that notes, on the parser, the text still to read before it tries its token."""
+    def read(text, context, parser):
+        parser.rest = text
+        return token_class(text, context, parser)
+    return read
+
+
+class _Parser(formulas.Parser):
+    filters = [_tracking(_Number if f is Number else f) for f in formulas.Parser.filters]
+    rest: str | None = None
+
+
+def parser() -> formulas.Parser:
+    """A new parser (its ``ast`` as the library's; ``.rest`` is the unread text after a failure)."""
+    return _Parser()
+
+
+def syntax_message(formula: str, parser_used: formulas.Parser, exc: Exception) -> str:
+    """A one-line description of why ``formula`` could not be read, with the position where reading stopped.
+
+    >>> p = parser()
+    >>> try:
+    ...     p.ast("=SEM(12,, 0.9))")
+    ... except Exception as exc:
+    ...     print(syntax_message("=SEM(12,, 0.9))", p, exc))
+    cannot read the formula '=SEM(12,, 0.9))': parentheses do not match
+    """
+    if isinstance(exc, ParenthesesError):
+        return f"cannot read the formula {formula!r}: parentheses do not match"
+    rest = getattr(parser_used, "rest", None)
+    text = formula.strip().replace("\n", "")
+    if rest and text.endswith(rest):
+        pos = len(text) - len(rest) + 1
+        shown = rest if len(rest) <= 20 else rest[:20] + "…"
+        hint = " (files store ',' between arguments, not ';')" if ";" in text else ""
+        return f"cannot read the formula {formula!r}: stops at character {pos}, at {shown!r}{hint}"
+    return f"cannot read the formula {formula!r}: it is not a complete formula"
+
+
+def _outside_literals(text: str):
+    """Yield (index, character, brace depth) for each character outside "strings" and 'sheet names'."""
+    quote, depth = None, 0
+    for i, ch in enumerate(text):
+        if quote:
+            if ch == quote:
+                quote = None  # a doubled quote reopens at once on the next character
+            continue
+        if ch in "\"'":
+            quote = ch
+        elif ch == "{":
+            depth += 1
+        elif ch == "}":
+            depth -= 1
+        else:
+            yield i, ch, depth
+
+
+class TypedFormulaError(ValueError):
+    """A typed formula whose separators cannot be read either way."""
+
+
+def typed_formula(text: str) -> str:
+    """``text`` with ``;`` between arguments turned into ``,`` (outside strings, sheet names and arrays).
+
+    Spreadsheet apps show ``;`` as the argument separator in many language
+    settings, files store ``,``. A formula that uses both at the top level is
+    refused (``SEM(10;0,9)`` is probably a decimal comma).
+
+    >>> typed_formula('=SEM(10; 0.9)')
+    '=SEM(10, 0.9)'
+    >>> typed_formula('=IF(A1="a;b"; 1; 2)')
+    '=IF(A1="a;b", 1, 2)'
+    >>> typed_formula('=SUM({1,2;3,4})')
+    '=SUM({1,2;3,4})'
+    """
+    semis, commas = [], False
+    for i, ch, depth in _outside_literals(text):
+        if depth == 0 and ch == ";":
+            semis.append(i)
+        elif depth == 0 and ch == ",":
+            commas = True
+    if not semis:
+        return text
+    if commas:
+        raise TypedFormulaError(
+            f"the formula {text!r} uses both ';' and ',' between its parts; write ',' between arguments and '.' "
+            f"in decimals (0.9, not 0,9)")
+    chars = list(text)
+    for i in semis:
+        chars[i] = ","
+    return "".join(chars)
+
+
+def _bare(name: str) -> str:
+    key = name.upper()
+    for prefix in NAME_PREFIXES:
+        if key.startswith(prefix):
+            return key[len(prefix):]
+    return key
+
+
+def suggestions(name: str) -> list[str]:
+    """The closest registered name and the closest standard name to ``name``, closest first (trueband's on a tie).
+
+    The other family's name is offered only when it is about as close (difflib
+    ratio within 0.1 of the best); no name is offered below a ratio of 0.6.
+
+    >>> suggestions("SME")
+    ['SEM', 'SUM']
+    """
+    from .formula_functions import BUILTIN_NAMES
+
+    key = _bare(name)
+    scored = []
+    for rank, family in enumerate((list(REGISTRY), [n for n in BUILTIN_NAMES if "." not in n])):
+        found = difflib.get_close_matches(key, family, n=1, cutoff=0.6)
+        if found:
+            scored.append((-difflib.SequenceMatcher(None, key, found[0]).ratio(), rank, found[0]))
+    scored.sort()
+    return [n for ratio, _, n in scored if ratio <= scored[0][0] + 0.1]  # the other family's only if about as close
+
+
+def did_you_mean(name: str) -> str:
+    """`` (did you mean X or Y?)`` for a message, or an empty string."""
+    found = suggestions(name)
+    return f" (did you mean {' or '.join(found)}?)" if found else ""
+
+
+def call_findings(tree) -> tuple[list[str], list[str]]:
+    """What is wrong with the function calls of a compiled formula tree (:class:`formula_graph.Node`).
+
+    Returns (unknown names, each with its "did you mean"; registered calls
+    with too few or too many arguments, each with the function's signature).
+    """
+    from .formula_functions import BUILTIN_NAMES
+
+    unknown, counts = [], []
+    for node in tree.walk():
+        if node.kind != "fn" or node.name in ("ARRAY", "ARRAYROW"):
+            continue
+        spec = REGISTRY.get(normalize_name(node.name))
+        if spec is None:
+            if node.name not in BUILTIN_NAMES and node.name + did_you_mean(node.name) not in unknown:
+                unknown.append(node.name + did_you_mean(node.name))
+            continue
+        n = len(node.args)
+        if n < spec.min_args or n > spec.max_args:
+            need = f"{spec.min_args}" if spec.min_args == spec.max_args else f"{spec.min_args} to {spec.max_args}"
+            counts.append(f"{spec.name} takes {need} arguments, got {n}: {spec.signature}")
+    return unknown, counts
