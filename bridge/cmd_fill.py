@@ -141,17 +141,45 @@ def plan_fill(pkg: WorkbookPackage, sheet: str, column: str, *, rows: tuple[int,
     return FillPlan(info.name, column, first, last, header_ref, header_style)
 
 
-def fill_changes(pkg: WorkbookPackage, plan: FillPlan, formula: str, *, header: str | None = None,
-                 replace: bool = False) -> PackageChanges:
-    """The package edits of a fill: the new cells in the sheet part, the calculation chain dropped.
+def checked_formula(formula: str, plan: FillPlan, *, same_formula: bool = False) -> str:
+    """The formula text to write (without ``=``, ``;`` separators read as ``,``), once it has passed the checks
+    ``trueband check`` makes: it reads as a formula, names only known functions, gives registered functions an
+    allowed number of arguments, and holds ``{row}`` (unless ``same_formula``, or the fill is one row).
 
-    ``formula`` may contain ``{row}``, replaced by each row's number.
+    Raises :class:`CommandError` with one line naming the first problem, before anything is written.
     """
+    from .formula_graph import FormulaSyntaxError, compile_formula
+    from .formula_text import TypedFormulaError, call_findings, typed_formula
+
     text = formula.strip()
     if text.startswith("="):
-        text = text[1:]
+        text = text[1:].lstrip()
     if not text:
         raise CommandError("--formula is empty")
+    if "{row}" not in text and plan.rows > 1 and not same_formula:
+        raise CommandError(f"--formula {formula!r} has no {{row}}, so all {plan.rows} rows would get the same formula; "
+                           f"write {{row}} where each row's own number goes (e.g. H{{row}}), or add --same-formula")
+    try:
+        text = typed_formula(text)
+        first = compile_formula(text.replace("{row}", str(plan.first)), plan.first, column_index(plan.column))
+    except (TypedFormulaError, FormulaSyntaxError) as exc:
+        raise CommandError(f"--formula: {exc}") from None
+    unknown, counts = call_findings(first.tree)
+    if unknown:
+        raise CommandError(f"--formula: unknown function {', '.join(unknown)}; nothing was written")
+    if counts:
+        raise CommandError(f"--formula: {counts[0]}; nothing was written")
+    return text
+
+
+def fill_changes(pkg: WorkbookPackage, plan: FillPlan, formula: str, *, header: str | None = None,
+                 replace: bool = False, same_formula: bool = False) -> PackageChanges:
+    """The package edits of a fill: the new cells in the sheet part, the calculation chain dropped.
+
+    ``formula`` may contain ``{row}``, replaced by each row's number; it is checked first
+    (:func:`checked_formula`).
+    """
+    text = checked_formula(formula, plan, same_formula=same_formula)
     cells = {f"{plan.column}{r}": NewCell(formula=text.replace("{row}", str(r))) for r in range(plan.first,
                                                                                             plan.last + 1)}
     if plan.header_ref is not None and header is not None:
@@ -176,7 +204,8 @@ def _recalculate(path: Path, dst: Path, overwrite: bool):
 
 def fill_workbook(book: str | os.PathLike, sheet: str, column: str, formula: str, *, rows=None,
                   header: str | None = None, output=None, in_place: bool = False, backup: bool = False,
-                  overwrite: bool = False, replace: bool = False, recalculate: bool = True, tag: str = "filled"):
+                  overwrite: bool = False, replace: bool = False, recalculate: bool = True, tag: str = "filled",
+                  same_formula: bool = False):
     """Fill a column and (by default) recalculate; returns (FillPlan, output path, RecalcReport or None).
 
     The filled package is first written to a temporary file beside the
@@ -201,7 +230,7 @@ def fill_workbook(book: str | os.PathLike, sheet: str, column: str, formula: str
     try:
         try:
             plan = plan_fill(pkg, sheet, column, rows=rows, header=header)
-            changes = fill_changes(pkg, plan, formula, header=header, replace=replace)
+            changes = fill_changes(pkg, plan, formula, header=header, replace=replace, same_formula=same_formula)
             if not recalculate:
                 save_workbook(pkg, changes, output=None if in_place else dest, in_place=in_place, backup=backup,
                               overwrite=overwrite)
@@ -310,7 +339,8 @@ def _fill(args) -> int:
     rows = parse_rows(args.rows) if args.rows else None
     plan, dest, report = _run(lambda: fill_workbook(
         args.book, args.sheet, column, args.formula, rows=rows, header=args.header, output=args.output,
-        in_place=args.in_place, backup=args.backup, overwrite=args.overwrite, replace=args.replace))
+        in_place=args.in_place, backup=args.backup, overwrite=args.overwrite, replace=args.replace,
+        same_formula=args.same_formula))
     return _print_outcome(plan, dest, report)
 
 
@@ -367,7 +397,9 @@ def register(sub) -> None:
     p = sub.add_parser(
         "fill", help="write a formula down a table column, then recalculate",
         description="Write FORMULA into every data row of a column ({row} becomes the row number), add an "
-                    "optional header styled like its neighbour, then recalculate so the file shows the values. "
+                    "optional header styled like its neighbour, then recalculate so the file shows the values. The "
+                    "formula is checked first as `trueband check` does (unknown names, argument counts); ';' between "
+                    "arguments is read as ','. "
                     "Nothing else in the workbook changes. Default output: BOOK.filled.xlsx beside the input.")
     p.add_argument("book", help="the .xlsx or .xlsm workbook")
     p.add_argument("--sheet", required=True, help="the sheet holding the table")
@@ -376,6 +408,8 @@ def register(sub) -> None:
     p.add_argument("--header", help="text for the header cell above the filled rows")
     p.add_argument("--rows", help="FIRST:LAST data rows (default: the rows of the table under its header)")
     p.add_argument("--replace", action="store_true", help="overwrite cells of the column that are not empty")
+    p.add_argument("--same-formula", action="store_true",
+                   help="allow a formula without {row} (every row then gets the same formula)")
     add_output_options(p)
     p.set_defaults(handler=_fill)
 

@@ -109,6 +109,22 @@ def test_fill_command_end_to_end(features, capsys):
     assert "filled Applicants!F2:F7 (6 rows)" in capsys.readouterr().err
 
 
+def test_fill_reads_semicolons_as_typed_in_a_spreadsheet_app_and_allows_one_formula_on_request(features, capsys):
+    # Spreadsheet apps show ';' between arguments in many language settings; files store ',' (ECMA-376 Part 1,
+    # 18.17: the formula grammar's list separator is ',').
+    code = main(["fill", str(features), "--sheet", "Applicants", "--column", "F",
+                 "--formula", "=SEM(C{row}; 0.9)", "--rows", "2:3"])
+    assert code == EXIT_OK, capsys.readouterr().err
+    out = features.with_name("features.filled.xlsx")
+    c = cells(out, "Applicants")
+    assert c["F3"].formula.text == "SEM(C3, 0.9)" and c["F3"].value == pytest.approx(c["C3"].value * 0.1 ** 0.5)
+    code = main(["fill", str(out), "--in-place", "--sheet", "Applicants", "--column", "G",
+                 "--formula", "=SEM($C$2, 0.9)", "--same-formula"])
+    assert code == EXIT_OK, capsys.readouterr().err
+    c = cells(out, "Applicants")
+    assert {c[f"G{r}"].formula.text for r in range(2, 8)} == {"SEM($C$2, 0.9)"}
+
+
 def test_bands_command_builds_the_formula(features, capsys):
     code = main(["bands", str(features), "--scores", "Applicants!C2:C7", "--sd", "Settings!B1",
                  "--reliability", "0.88", "--confidence", "0.9"])
@@ -141,11 +157,20 @@ def test_fill_drops_the_calculation_chain(tmp_path):
 
 
 @pytest.mark.parametrize("argv, words", [
-    (["--sheet", "Pool", "--column", "F", "--formula", "=1"], ["Pool", "Applicants", "Settings"]),
-    (["--sheet", "Applicants", "--column", "C", "--formula", "=1"], ["Applicants", "C2", "not empty"]),
-    (["--sheet", "Applicants", "--column", "F9", "--formula", "=1"], ["--column", "F9"]),
-    (["--sheet", "Applicants", "--column", "F", "--formula", "=1", "--rows", "9:2"], ["--rows", "9:2"]),
+    (["--sheet", "Pool", "--column", "F", "--formula", "=C{row}"], ["Pool", "Applicants", "Settings"]),
+    (["--sheet", "Applicants", "--column", "C", "--formula", "=C{row}"], ["Applicants", "C2", "not empty"]),
+    (["--sheet", "Applicants", "--column", "F9", "--formula", "=C{row}"], ["--column", "F9"]),
+    (["--sheet", "Applicants", "--column", "F", "--formula", "=C{row}", "--rows", "9:2"], ["--rows", "9:2"]),
     (["--sheet", "Applicants", "--column", "F", "--formula", "  "], ["--formula"]),
+    # The formula is checked before anything is written, as `trueband check` checks a saved one.
+    (["--sheet", "Applicants", "--column", "F", "--formula", "=SME(C{row}, 0.9)"],
+     ["unknown function SME (did you mean SEM or SUM?)", "nothing was written"]),
+    (["--sheet", "Applicants", "--column", "F", "--formula", "=SEM(C{row})"],
+     ["SEM takes 2 arguments, got 1: SEM(sd, reliability)"]),
+    (["--sheet", "Applicants", "--column", "F", "--formula", "=C2*2"], ["has no {row}", "6 rows", "--same-formula"]),
+    (["--sheet", "Applicants", "--column", "F", "--formula", "=SEM(C{row}, 0.9"], ["parentheses do not match"]),
+    (["--sheet", "Applicants", "--column", "F", "--formula", "=SEM(C{row};0,9)"], ["';'", "decimals"]),
+    (["--sheet", "Applicants", "--column", "F", "--formula", "=C{row}+*2"], ["--formula", "stops at character"]),
 ])
 def test_fill_mistakes_are_one_line_and_write_nothing(features, argv, words, capsys):
     before = sorted(p.name for p in features.parent.iterdir())
