@@ -12,13 +12,18 @@ code  meaning
 2     nothing done: bad usage or unusable input (one line says why)
 130   interrupted (Ctrl-C); inputs are left as they were
 ====  ===========================================================
+
+No command ends in a traceback: an unexpected problem is one line and code 2
+(set ``TRUEBAND_TRACEBACK=1`` to see the traceback when reporting it).
 """
 
 from __future__ import annotations
 
 import argparse
 import importlib
+import os
 import sys
+import textwrap
 
 EXIT_OK = 0
 EXIT_CELL_ERRORS = 1
@@ -89,6 +94,27 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         print(f"trueband {args.command}: interrupted; inputs are unchanged", file=sys.stderr)
         return EXIT_INTERRUPTED
+    except Exception as exc:  # never a traceback: one line, exit 2 (TRUEBAND_TRACEBACK=1 shows it)
+        if os.environ.get("TRUEBAND_TRACEBACK"):
+            raise
+        print(f"trueband {args.command}: {_one_line(exc)}", file=sys.stderr)
+        return EXIT_FAILED
+
+
+def _one_line(exc: Exception) -> str:
+    """What an unexpected exception says, in one line: the project's message, a file problem, or a bug."""
+    from trueband.funcs.errors import TruebandError
+
+    if isinstance(exc, TruebandError):
+        return exc.message
+    if isinstance(exc, OSError):
+        where = f" ({exc.filename})" if exc.filename else ""
+        return f"cannot use a file{where}: {exc.strerror or exc}"
+    if isinstance(exc, MemoryError):
+        return "not enough memory for this work"
+    text = textwrap.shorten(str(exc), 300, placeholder=" …") or "no message"
+    return (f"stopped by an unexpected problem ({type(exc).__name__}: {text}). "
+            f"This is a fault in trueband: please report it (TRUEBAND_TRACEBACK=1 shows the details)")
 
 
 if __name__ == "__main__":  # pragma: no cover
