@@ -148,7 +148,11 @@ def headline_lines(h: dict) -> list[str]:
 
 
 def _report(result: StudyResult, out: Path) -> int:
+    for line in result.problems:
+        print(f"data problem: {line}", file=sys.stderr)
     print(f"Study written: {out}")
+    if result.problems:
+        print(f"  {len(result.problems)} data problem(s), listed above and on the Notes sheet")
     for line in headline_lines(headline_values(out, result)):
         print(line)
     if result.not_computable:

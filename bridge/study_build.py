@@ -172,6 +172,7 @@ class StudyResult:
     recalc_report: Any = None
     timings: dict[str, float] = dataclasses.field(default_factory=dict)
     notes: list[str] = dataclasses.field(default_factory=list)
+    problems: list[str] = dataclasses.field(default_factory=list)  # doubtful data cells, one line each
 
 
 class _Unavailable(TruebandError):
@@ -462,6 +463,16 @@ class _Builder:
                              "CI lower", "CI upper", "Band", "At or above cut (1 = yes)"]
         if d.criterion is not None:
             self.bands_header += ["Criterion", "Score of people with a criterion value"]
+        # the study's reading of two label columns, as numbers the counts can match exactly (a
+        # spreadsheet's COUNTIF would treat a label such as "<40" or "A*" as a condition)
+        self.group_numbers = {name: k + 1 for k, name in enumerate(d.group_tally.names)} if d.group_tally else {}
+        self.group_col = self.hired_col = None
+        if d.group_tally is not None:
+            self.bands_header.append("Group number (as counted on Impact)")
+            self.group_col = get_column_letter(len(self.bands_header))
+        if d.hired is not None:
+            self.bands_header.append("Hired (1 = yes, as read from the hired column)")
+            self.hired_col = get_column_letter(len(self.bands_header))
         can_band = isinstance(self.values.get("sem"), float)
         self.bands_can = can_band
         if not can_band:
@@ -484,7 +495,11 @@ class _Builder:
         data_q = quote(d.sheet)
         id_col = d.columns.get("id")
         grp_col = d.columns.get("group")
-        any_blank_group = grp_col is not None and any(g is None for g in d.groups)
+        hired_codes = None
+        if d.hired is not None:
+            from .study_setup import hired_code
+
+            hired_codes = [hired_code(row[d.columns["hired"]]) for row in d.rows]
         if d.items is not None:
             a, b = self.data_col(d.item_columns[0]), self.data_col(d.item_columns[-1])
         else:
@@ -498,13 +513,8 @@ class _Builder:
             r = i + 2
             row: list[Any] = []
             row.append(f"={data_q}!{self.data_col(id_col)}{r}" if id_col is not None else d.ids[i])
-            if grp_col is None:
-                row.append(None)
-            elif any_blank_group:
-                g = self.data_col(grp_col)
-                row.append(f'=IF(ISBLANK({data_q}!{g}{r}),"",{data_q}!{g}{r})')
-            else:
-                row.append(f"={data_q}!{self.data_col(grp_col)}{r}")
+            # the group as counted: labels differing only in case or spacing are one group (see Impact)
+            row.append(d.groups[i] if grp_col is not None else None)
             if d.items is not None:
                 row.append(f'=IF(D{r}=0,"",SUM({data_q}!{a}{r}:{b}{r}))' if guard else f"=SUM({data_q}!{a}{r}:{b}{r})")
                 row.append(f"=COUNT({data_q}!{a}{r}:{b}{r})")
@@ -526,6 +536,10 @@ class _Builder:
                 # for the whole column at once
                 row.append(f'=IF(COUNT({data_q}!{crit}{r})=1,{data_q}!{crit}{r},"")')
                 row.append(f'=IF(COUNT(C{r},I{r})=2,C{r},"")')
+            if self.group_col is not None:
+                row.append(self.group_numbers.get(d.groups[i]))
+            if hired_codes is not None:
+                row.append(None if hired_codes[i] is None else int(hired_codes[i]))
             yield row
 
     # -- Items
@@ -691,9 +705,9 @@ class _Builder:
         self.put(g, 3, 2, f"=COUNT({sh_rng})", lambda: n, style="count", key="n_criterion")
         if d.hired is not None:
             g.set(4, 1, "People hired (hired column)")
-            hired_rng = self.data_range([d.columns["hired"]])
-            self.put(g, 4, 2, f'=COUNTIF({hired_rng},"yes")+COUNTIF({hired_rng},1)+COUNTIF({hired_rng},TRUE)',
-                     lambda: int(d.hired.sum()), style="count")
+            self.put(g, 4, 2, f"=SUM({self.bands_range(self.hired_col)})", lambda: int(d.hired.sum()), style="count")
+            g.set(4, 3, f"(yes/no, y/n, 1/0 or TRUE/FALSE in column {self.s.hired!r}, read into Bands column "
+                        f"{self.hired_col})")
 
         def r_check():
             if n < 3:
@@ -840,7 +854,7 @@ class _Builder:
         sel_all = self.has_score & (S >= cut)
         self.impact_rows = None
         row = cut_row + 3
-        groups = sorted({x for x in d.groups if x is not None})
+        groups = list(d.group_tally.names) if d.group_tally is not None else []
         grp_ok = True
         if "group" not in d.columns:
             self.na(g, row, 1, "no group column was given", key="min_ratio")
@@ -851,23 +865,27 @@ class _Builder:
                     key="min_ratio")
             grp_ok = False
         if grp_ok:
-            self._impact_table(g, row, groups, sel_all, chart_row=row + len(groups) + 6)
-            self._distribution(g, row + len(groups) + 6, col="E")  # beside the rates chart, on the same page
+            self._impact_table(g, row, groups, sel_all, chart_row=row + len(groups) + 10)
+            self._distribution(g, row + len(groups) + 10, col="E")  # beside the rates chart, on the same page
         else:
             self._distribution(g, row + 3)
 
     def _impact_table(self, g: Grid, row: int, groups: list[str], sel_all, chart_row: int):
         d, s = self.d, self.s
-        counts = {}
-        garr = np.array([x if x is not None else "" for x in d.groups], dtype=object)
-        for name in groups:
-            member = (garr == name) & self.has_score
-            counts[name] = (int((member & sel_all).sum()), int(member.sum()))
+        from trueband.funcs.impact import tally_groups
+
+        # people with a score, counted by group as the Python functions count them (labels merged as
+        # funcs.impact.group_key does); the sheet's COUNTIFS count the same rows by group number
+        scored = np.flatnonzero(self.has_score)
+        tally = tally_groups([d.groups[i] for i in scored], [bool(sel_all[i]) for i in scored])
+        counts = {name: (tally.selected.get(name, 0), tally.applicants.get(name, 0)) for name in groups}
         rates = {k: (sel / app if app else 0.0) for k, (sel, app) in counts.items()}
         ref = s.reference_group
-        if ref is not None and ref not in counts:
-            raise SetupError(f"reference group: no group {ref!r} in column {s.group!r} on sheet '{d.sheet}' (groups: "
-                             f"{', '.join(groups)})")
+        if ref is not None:
+            ref = d.group_tally.name(ref)
+            if ref is None:
+                raise SetupError(f"reference group: no group {s.reference_group!r} in column {s.group!r} on sheet "
+                                 f"'{d.sheet}' (groups: {', '.join(groups)})")
         if ref is None:
             ref = max(groups, key=lambda k: (rates[k], counts[k][1]))
             self.notes.append(f"Reference group for impact: {ref}, the group with the highest selection rate at the cut "
@@ -883,7 +901,7 @@ class _Builder:
             g.set(row, c, h, "header")
         first, last = row + 1, row + len(groups)
         self.impact_rows = (first, last)
-        grp_rng, sel_rng = self.bands_range("B"), self.bands_range("H")
+        grp_rng, sel_rng = self.bands_range(self.group_col), self.bands_range("H")
         rs, ra = counts[ref]
         ref_sel = f"INDEX($C${first}:$C${last},MATCH({ref_name},$A${first}:$A${last},0))"
         ref_app = f"INDEX($B${first}:$B${last},MATCH({ref_name},$A${first}:$A${last},0))"
@@ -891,8 +909,9 @@ class _Builder:
             r = first + i
             fs, fa = counts[name]
             g.set(r, 1, name)
-            g.set(r, 2, f'=COUNTIFS({grp_rng},$A{r},{sel_rng},">=0")', "count")
-            g.set(r, 3, f"=COUNTIFS({grp_rng},$A{r},{sel_rng},1)", "count")
+            number = self.group_numbers[name]
+            g.set(r, 2, f'=COUNTIFS({grp_rng},{number},{sel_rng},">=0")', "count")
+            g.set(r, 3, f"=COUNTIFS({grp_rng},{number},{sel_rng},1)", "count")
             self.put(g, r, 4, f"=SELECTION_RATE(C{r},B{r})", lambda fs=fs, fa=fa: call("SELECTION_RATE", fs, fa),
                      style="coef", key=f"rate_{name}")
             g.set(r, 10, f"=0.8*MAX($D${first}:$D${last})", "coef")
@@ -919,6 +938,17 @@ class _Builder:
             self.cells["n_below"] = ("Impact", f"E{last + 3}")
         else:
             self.na(g, last + 2, 5, "an impact ratio is not computable (see the table)", key="min_ratio")
+        at = last + 5
+        at += g.para(at, 1, f"Applicants and Selected count the rows of the Bands sheet by group number (Bands column "
+                            f"{self.group_col}: group 1 is the first row of this table, and so on); people with a "
+                            f"blank group are in no group.", width=150)
+        merged = [f"{', '.join(repr(x) for x in raw)} counted as {name!r}"
+                  for name, raw in d.group_tally.merged.items()]
+        if merged:
+            at += g.para(at, 1, "Labels that differ only in letter case or spacing are one group: "
+                                + "; ".join(merged) + ".", width=150)
+        if d.group_tally.blank:
+            g.para(at, 1, f"{d.group_tally.blank} row(s) have a blank group (listed on Notes).", width=150)
         g.charts.append((charts.selection_rates(charts.area("Impact", "A", first, "A", last),
                                                 charts.area("Impact", "D", row, "D", last),
                                                 charts.area("Impact", "J", row, "J", last)), f"A{chart_row}"))
@@ -1120,6 +1150,9 @@ class _Builder:
              f"trueband's recalculation and are stored with the formulas.", "wrap"),
         ]
         lines += [(n, "wrap") for n in self.notes]
+        if d.problems:
+            lines.append(("Problems in the data (check these cells)", "heading"))
+            lines += [(n, "wrap") for n in d.problems]
         lines += [
             ("Conventions", "heading"),
             ("A person's score is the sum of their item scores (a blank item counts 0); a person with no item "
@@ -1181,7 +1214,14 @@ class _Builder:
         self.grids[SETUP_SHEET].write(wb)
         ws = wb.create_sheet(self.d.sheet)
         ws.freeze_panes = "A2"
-        ws.append([_styled(ws, h, "header") for h in self.d.header])
+        # the header as written in the source (not trimmed), and the source's number formats (dates stay dates)
+        ws.append([_styled(ws, h, "header") for h in (self.d.raw_header or self.d.header)])
+        style_of: dict[str, int] = {}
+        for code in sorted(set(self.d.formats.values())):
+            cell = WriteOnlyCell(ws)
+            cell.number_format = code
+            style_of[code] = cell.style_id
+        self.copy_styles = {(i + 2, c): style_of[f] for (i, c), f in self.d.formats.items()}
         return wb
 
     def save(self, path: Path):
@@ -1192,7 +1232,7 @@ class _Builder:
         study_xml.splice_rows(
             path,
             {"Bands": lambda: study_xml.rows_xml(self.bands_rows(), 2, formulas=True),
-             d.sheet: lambda: study_xml.rows_xml(d.rows, 2, formulas=False)},
+             d.sheet: lambda: study_xml.rows_xml(d.rows, 2, formulas=False, styles=self.copy_styles)},
             {"Bands": f"{get_column_letter(len(self.bands_header))}{last}",
              d.sheet: f"{get_column_letter(max(1, len(d.header)))}{last}"})
 
@@ -1215,7 +1255,7 @@ def build_study(data: StudyData, path: str | Path) -> StudyResult:
     builder.plan()
     builder.save(Path(path))
     return StudyResult(path=Path(path), cells=builder.cells, not_computable=builder.not_computable,
-                       notes=builder.notes)
+                       notes=builder.notes, problems=list(data.problems))
 
 
 def make_study(data_path: str | Path, out_path: str | Path, overrides: Mapping[str, Any] | None = None, *,
