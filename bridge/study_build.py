@@ -48,6 +48,9 @@ __all__ = ["StudyError", "StudyResult", "build_study", "make_study", "CAUTION", 
 
 ANALYSIS_SHEETS = ("Summary", "Reliability", "Items", "Raters", "Validity", "Bands", "Impact", "Utility", "Notes")
 
+#: The sheet of item scores after reverse keying (written only when some items are reverse keyed).
+SCORED_SHEET = "Scored items"
+
 #: Up to this many cells in the item (or rating) range, every range function is called once while the
 #: study is built, to mark what cannot be computed; above it only cheap numpy checks are made.
 FULL_CHECK_CELLS = 400_000
@@ -253,6 +256,28 @@ class _Builder:
     def data_range(self, cols0: list[int]) -> str:
         return range_ref(self.data_sheet, cols0[0] + 1, self.first, cols0[-1] + 1, self.last)
 
+    def items_ref(self) -> str:
+        """The item scores the statistics use: the data's item columns, or the Scored items sheet."""
+        d = self.d
+        if d.reverse_items:
+            return range_ref(SCORED_SHEET, 1, self.first, len(d.item_columns), self.last)
+        return self.data_range(d.item_columns)
+
+    def scored_rows(self):
+        """The Scored items rows: each item score as in the data, reverse-keyed ones as min + max − response."""
+        d = self.d
+        data_q = quote(d.sheet)
+        lo, hi = (self.setup_ref("item_min"), self.setup_ref("item_max"))
+        letters = [self.data_col(c) for c in d.item_columns]
+        reverse = set(d.reverse_items)
+        for i in range(d.n):
+            r = i + 2
+            yield [f'=IF(COUNT({data_q}!{x}{r})=1,{lo}+{hi}-{data_q}!{x}{r},"")' if j in reverse
+                   else f'=IF(COUNT({data_q}!{x}{r})=1,{data_q}!{x}{r},"")' for j, x in enumerate(letters)]
+
+    def setup_ref(self, field: str) -> str:
+        return cell_ref(SETUP_SHEET, 2, self.setup_rows[field])
+
     def bands_range(self, letter: str) -> str:
         return f"{quote('Bands')}!${letter}${self.first}:${letter}${self.last}"
 
@@ -278,7 +303,7 @@ class _Builder:
                 if b != a + 1:
                     raise SetupError(f"{role}: the columns must stand side by side on sheet '{d.sheet}'; "
                                      f"{d.header[b]!r} does not follow {d.header[a]!r}")
-        taken = {t.lower() for t in ANALYSIS_SHEETS} | {SETUP_SHEET.lower()}
+        taken = {t.lower() for t in ANALYSIS_SHEETS} | {SETUP_SHEET.lower(), SCORED_SHEET.lower()}
         if d.sheet.lower() in taken:
             raise SetupError(f"the data sheet is called '{d.sheet}', a name the study uses for one of its own "
                              f"sheets; rename it (e.g. 'Candidates')")
@@ -365,7 +390,7 @@ class _Builder:
         g.set(row, 3, f"{conf:.0%} CI lower", "header")
         g.set(row, 4, f"{conf:.0%} CI upper", "header")
         if x is not None:
-            items_rng = self.data_range(d.item_columns)
+            items_rng = self.items_ref()
             self.items_range = items_rng
             complete = ~np.isnan(x).any(axis=1)
             xc = x[complete]
@@ -502,6 +527,8 @@ class _Builder:
             hired_codes = [hired_code(row[d.columns["hired"]]) for row in d.rows]
         if d.items is not None:
             a, b = self.data_col(d.item_columns[0]), self.data_col(d.item_columns[-1])
+            if d.reverse_items:  # the scores after reverse keying
+                a, b = "A", get_column_letter(len(d.item_columns))
         else:
             t = self.data_col(d.columns["total"])
         crit = self.data_col(d.columns["criterion"]) if d.criterion is not None else None
@@ -516,8 +543,9 @@ class _Builder:
             # the group as counted: labels differing only in case or spacing are one group (see Impact)
             row.append(d.groups[i] if grp_col is not None else None)
             if d.items is not None:
-                row.append(f'=IF(D{r}=0,"",SUM({data_q}!{a}{r}:{b}{r}))' if guard else f"=SUM({data_q}!{a}{r}:{b}{r})")
-                row.append(f"=COUNT({data_q}!{a}{r}:{b}{r})")
+                src = quote(SCORED_SHEET) if d.reverse_items else data_q
+                row.append(f'=IF(D{r}=0,"",SUM({src}!{a}{r}:{b}{r}))' if guard else f"=SUM({src}!{a}{r}:{b}{r})")
+                row.append(f"=COUNT({src}!{a}{r}:{b}{r})")
             else:
                 row.append(f'=IF(COUNT({data_q}!{t}{r})=1,{data_q}!{t}{r},"")' if guard else f"={data_q}!{t}{r}")
                 row.append(f"=COUNT({data_q}!{t}{r})")
@@ -546,7 +574,7 @@ class _Builder:
 
     def items_sheet(self):
         g = self.grid("Items")
-        g.widths.update({1: 16, 2: 16, 3: 18, 4: 16, 5: 34})
+        g.widths.update({1: 18, 2: 16, 3: 14, 4: 16, 5: 16, 6: 34})
         d = self.d
         g.set(1, 1, "Item analysis", "title")
         if d.items is None:
@@ -554,17 +582,33 @@ class _Builder:
             return
         x = d.items
         rng = self.items_range
+        binary = d.binary_items
         g.set(2, 1, "Flag an item when its corrected item–total correlation is below", "label")
-        g.set(2, 5, 0.2, "input_coef")
-        g.set(3, 1, "or fewer than this proportion answer it correctly", "label")
-        g.set(3, 5, 0.2, "input_coef")
-        g.set(4, 1, "or more than this proportion answer it correctly", "label")
-        g.set(4, 5, 0.9, "input_coef")
-        head = ("Item", "Difficulty (mean score; proportion correct)", "Corrected item–total r", "Alpha if deleted",
-                "Flag")
+        g.set(2, 6, 0.2, "input_coef")
+        if binary:
+            g.set(3, 1, "or fewer than this proportion answer it correctly", "label")
+            g.set(3, 6, 0.2, "input_coef")
+            g.set(4, 1, "or more than this proportion answer it correctly", "label")
+            g.set(4, 6, 0.9, "input_coef")
+            mean_head = "Difficulty (proportion correct)"
+        else:
+            lo, hi = d.item_scale
+            g.set(3, 1, "or its mean lies within this share of the scale's range from either end", "label")
+            g.set(3, 6, 0.1, "input_coef")
+            g.set(4, 1, "or its standard deviation is below (scale points)", "label")
+            g.set(4, 6, round((hi - lo) / 8, 4), "input_coef")
+            given = "from Setup" if d.item_scale_given else "the lowest and highest response in the data"
+            g.set(5, 1, f"Item scale: lowest and highest response ({given})", "label")
+            if d.item_scale_given:
+                g.set(5, 6, f"={self.setup_ref('item_min')}", "score")
+                g.set(5, 7, f"={self.setup_ref('item_max')}", "score")
+            else:
+                g.set(5, 6, lo, "input")
+                g.set(5, 7, hi, "input")
+            mean_head = "Mean item score"
+        head = ("Item", mean_head, "Standard deviation", "Corrected item–total r", "Alpha if deleted", "Flag")
         for c, h in enumerate(head, start=1):
             g.set(6, c, h, "header")
-        alpha = self.cells.get("alpha")
         alpha_ref = cell_ref("Reliability", 2, 10)
         first = 7
         complete = x[~np.isnan(x).any(axis=1)]
@@ -574,35 +618,49 @@ class _Builder:
             suspect = (item_var <= 1e-12 * max(1.0, float(item_var.max()))) | (rest_var <= 1e-12)
         else:
             suspect = np.ones(x.shape[1], dtype=bool)
+        reverse = set(d.reverse_items)
         for j in range(x.shape[1]):
             r = first + j
             name = d.header[d.item_columns[j]]
-            g.set(r, 1, name)
+            g.set(r, 1, name + (" (reversed)" if j in reverse else ""))
             # with large data only the items numpy finds degenerate are checked by calling the function
             check = self.full_checks or bool(suspect[j])
-            self.put(g, r, 2, f"=ITEM_DIFFICULTY({rng},{j + 1})",
-                     (lambda j=j: call("ITEM_DIFFICULTY", x, j + 1)) if check else None,
-                     style="coef", key=f"item{j + 1}_difficulty")
-            self.put(g, r, 3, f"=ITEM_TOTAL({rng},{j + 1})",
-                     (lambda j=j: call("ITEM_TOTAL", x, j + 1)) if check else None,
-                     style="coef", key=f"item{j + 1}_total")
-            self.put(g, r, 4, f"=ALPHA_IF_DELETED({rng},{j + 1})",
-                     (lambda j=j: call("ALPHA_IF_DELETED", x, j + 1)) if check else None,
-                     style="coef", key=f"item{j + 1}_aid")
+            for c, fn, part in ((2, "ITEM_DIFFICULTY", "difficulty"), (3, "ITEM_SD", "sd"),
+                                (4, "ITEM_TOTAL", "total"), (5, "ALPHA_IF_DELETED", "aid")):
+                self.put(g, r, c, f"={fn}({rng},{j + 1})", (lambda j=j, fn=fn: call(fn, x, j + 1)) if check else None,
+                         style="coef", key=f"item{j + 1}_{part}")
             ok = not any(isinstance(self.values.get(f"item{j + 1}_{p}"), Exception)
-                         for p in ("difficulty", "total", "aid"))
+                         for p in ("difficulty", "sd", "total", "aid"))
             if ok and isinstance(self.values.get("alpha"), float):
-                g.set(r, 5, f'=IF(C{r}<$E$2,"weak discrimination",IF(B{r}<$E$3,"very hard",IF(B{r}>$E$4,"very easy",'
-                            f'IF(D{r}>{alpha_ref},"alpha rises without it",""))))')
+                last_flag = f'IF(E{r}>{alpha_ref},"alpha rises without it","")'
+                if binary:
+                    g.set(r, 6, f'=IF(D{r}<$F$2,"weak discrimination",IF(B{r}<$F$3,"very hard",'
+                                f'IF(B{r}>$F$4,"very easy",{last_flag})))')
+                else:
+                    span = "($G$5-$F$5)"
+                    g.set(r, 6, f'=IF(D{r}<$F$2,"weak discrimination",IF((B{r}-$F$5)/{span}<$F$3,'
+                                f'"mean near the bottom of the scale",IF(($G$5-B{r})/{span}<$F$3,'
+                                f'"mean near the top of the scale",IF(C{r}<$F$4,"little spread",{last_flag}))))')
             else:
-                g.set(r, 5, "see the statistics to the left", "na")
+                g.set(r, 6, "see the statistics to the left", "na")
         self.item_rows = (first, first + x.shape[1] - 1)
+        scale = (0.0, 1.0) if binary else d.item_scale
         g.charts.append((charts.item_map(charts.area("Items", "B", first, "B", self.item_rows[1]),
-                                         charts.area("Items", "C", first, "C", self.item_rows[1])),
-                         "G6"))  # beside the table: below it, a page break would cut it in two
-        g.para(first + x.shape[1] + 1, 1, "Difficulty is the mean item score (the proportion correct for 0/1 items); "
-                                          "the corrected item–total r correlates the item with the total of the other "
-                                          "items. Flags are prompts for review by a test developer, not verdicts.")
+                                         charts.area("Items", "D", first, "D", self.item_rows[1]),
+                                         binary=binary, scale=scale),
+                         "H6"))  # beside the table: below it, a page break would cut it in two
+        if binary:
+            text = ("Difficulty is the proportion answering the item correctly; the corrected item–total r "
+                    "correlates the item with the total of the other items.")
+        else:
+            text = ("The items are rating-scale (polytomous) items: the mean and standard deviation describe where "
+                    "the answers lie on the scale and how much they spread; the corrected item–total r correlates "
+                    "the item with the total of the other items.")
+        if reverse:
+            text += (f" Reverse-keyed items are scored minimum + maximum − response (scale {d.item_scale[0]:g} to "
+                     f"{d.item_scale[1]:g}; the scores are on the '{SCORED_SHEET}' sheet) before every statistic.")
+        g.para(first + x.shape[1] + 1, 1, text + " Flags are prompts for review by a test developer, not verdicts; "
+                                                 "the thresholds above are common practice and can be edited.")
 
     # -- Raters
 
@@ -1168,7 +1226,7 @@ class _Builder:
             ("Methods and references", "heading"),
         ]
         used = ["CRONBACH_ALPHA", "ALPHA_CI", "KR20", "SPLIT_HALF", "OMEGA", "SEM", "SED", "BAND_WIDTH",
-                "SCORE_CI", "SCORE_BAND", "ITEM_DIFFICULTY", "ITEM_TOTAL", "ALPHA_IF_DELETED", "ICC",
+                "SCORE_CI", "SCORE_BAND", "ITEM_DIFFICULTY", "ITEM_SD", "ITEM_TOTAL", "ALPHA_IF_DELETED", "ICC",
                 "KRIPPENDORFF_ALPHA", "COHEN_KAPPA", "R_CI", "R_PVALUE", "DISATTENUATE", "RANGE_CORRECT",
                 "OPERATIONAL_VALIDITY", "RANGE_CORRECT_INDIRECT", "MAX_VALIDITY", "SELECTION_RATE", "IMPACT_RATIO",
                 "FOUR_FIFTHS", "IMPACT_Z", "IMPACT_FISHER", "IMPACT_SHORTFALL", "TAYLOR_RUSSELL", "NAYLOR_SHINE",
@@ -1212,6 +1270,11 @@ class _Builder:
                 continue  # the rows are spliced in by study_xml after saving
             self.grids[title].write(wb)
         self.grids[SETUP_SHEET].write(wb)
+        if self.d.reverse_items:
+            ws = wb.create_sheet(SCORED_SHEET)
+            ws.freeze_panes = "A2"
+            ws.append([_styled(ws, self.d.header[c] + (" (reversed)" if j in self.d.reverse_items else ""),
+                               "header") for j, c in enumerate(self.d.item_columns)])
         ws = wb.create_sheet(self.d.sheet)
         ws.freeze_panes = "A2"
         # the header as written in the source (not trimmed), and the source's number formats (dates stay dates)
@@ -1229,12 +1292,14 @@ class _Builder:
         self.workbook().save(path)
         d = self.d
         last = d.n + 1
-        study_xml.splice_rows(
-            path,
-            {"Bands": lambda: study_xml.rows_xml(self.bands_rows(), 2, formulas=True),
-             d.sheet: lambda: study_xml.rows_xml(d.rows, 2, formulas=False, styles=self.copy_styles)},
-            {"Bands": f"{get_column_letter(len(self.bands_header))}{last}",
-             d.sheet: f"{get_column_letter(max(1, len(d.header)))}{last}"})
+        rows = {"Bands": lambda: study_xml.rows_xml(self.bands_rows(), 2, formulas=True),
+                d.sheet: lambda: study_xml.rows_xml(d.rows, 2, formulas=False, styles=self.copy_styles)}
+        corners = {"Bands": f"{get_column_letter(len(self.bands_header))}{last}",
+                   d.sheet: f"{get_column_letter(max(1, len(d.header)))}{last}"}
+        if d.reverse_items:
+            rows[SCORED_SHEET] = lambda: study_xml.rows_xml(self.scored_rows(), 2, formulas=True)
+            corners[SCORED_SHEET] = f"{get_column_letter(len(d.item_columns))}{last}"
+        study_xml.splice_rows(path, rows, corners)
 
 
 def _degenerate(x: np.ndarray | None) -> bool:
