@@ -158,6 +158,8 @@ def _report(result: StudyResult, out: Path) -> int:
     print(f"Study written: {out}")
     if result.problems:
         print(f"  {len(result.problems)} data problem(s), listed above and on the Notes sheet")
+    if result.cut_message:
+        print(f"  Cut score: {result.cut_message}")
     for line in headline_lines(headline_values(out, result)):
         print(line)
     if result.not_computable:

@@ -176,6 +176,7 @@ class StudyResult:
     timings: dict[str, float] = dataclasses.field(default_factory=dict)
     notes: list[str] = dataclasses.field(default_factory=list)
     problems: list[str] = dataclasses.field(default_factory=list)  # doubtful data cells, one line each
+    cut_message: str | None = None  # why nobody passes the cut, when nobody does
 
 
 class _Unavailable(TruebandError):
@@ -238,6 +239,27 @@ class _Builder:
         g.set(row, col, formula, style)
         if key:
             self.cells[key] = (g.title, f"{get_column_letter(col)}{row}")
+
+    def _cut_message(self, cut: float) -> str | None:
+        """Why nobody passes the cut (above the highest possible score, or above every score), or None."""
+        d = self.d
+        s = self.scores[self.has_score]
+        if not s.size or (s >= cut).any():
+            return None
+        again = "; set a lower cut score on the Setup sheet (or --cut)"
+        if d.total is None and d.items is not None and d.item_scale is not None:
+            lo, hi = d.item_scale
+            k = d.items.shape[1]
+            whence = "" if d.item_scale_given or d.binary_items else ", the range found in the data"
+            if cut > k * hi:
+                return (f"the cut score, {cut:g}, is above the highest possible score, {k * hi:g} ({k} items scored "
+                        f"{lo:g} to {hi:g}{whence}), so nobody can pass{again}")
+        return f"nobody reaches the cut score, {cut:g}: the highest score in the data is {s.max():g}{again}"
+
+    def passes(self):
+        """Raise the plain reason when nobody reaches the cut (the checks of cut-dependent figures call it)."""
+        if self.cut_message:
+            raise InsufficientDataError(self.cut_message)
 
     def heavy(self, check: Callable) -> Callable | None:
         """A check over a whole item or rating range: run it only while the data are small."""
@@ -322,6 +344,9 @@ class _Builder:
             self.notes.append(f"No cut score was given; the study uses the median score, {cut:g}. Set 'cut score' on "
                               f"the Setup sheet (or --cut) to study your own cut.")
         self.cut = cut
+        self.cut_message = self._cut_message(cut)
+        if self.cut_message:
+            self.notes.append("Cut score: " + self.cut_message + ".")
         self.setup_rows: dict[str, int] = {}
         row = 2
         for key, (field, kind, meaning) in SETTINGS.items():
@@ -984,7 +1009,13 @@ class _Builder:
                     # shown as yes/no: spreadsheet apps show a stored TRUE/FALSE of a function they do not
                     # know as an error, while stored text shows as it is
                     text = f'IF({text},"yes","no")'
-                self.put(g, r, c, "=" + text, lambda fn=fn, fs=fs, fa=fa: call(fn, fs, fa, rs, ra), style=style,
+
+                def check(fn=fn, fs=fs, fa=fa):
+                    if fn != "IMPACT_FISHER":  # Fisher's p is defined (1) when nobody passes; the rest are not
+                        self.passes()
+                    return call(fn, fs, fa, rs, ra)
+
+                self.put(g, r, c, "=" + text, check, style=style,
                          key=f"{fn.lower()}_{name}")
         ratio_rng = f"E{first}:E{last}"
         g.set(last + 2, 1, "Lowest impact ratio")
@@ -995,7 +1026,8 @@ class _Builder:
             g.set(last + 3, 5, f'=COUNTIF(F{first}:F{last},"yes")', "count")
             self.cells["n_below"] = ("Impact", f"E{last + 3}")
         else:
-            self.na(g, last + 2, 5, "an impact ratio is not computable (see the table)", key="min_ratio")
+            self.na(g, last + 2, 5, self.cut_message or "an impact ratio is not computable (see the table)",
+                    key="min_ratio")
         at = last + 5
         at += g.para(at, 1, f"Applicants and Selected count the rows of the Bands sheet by group number (Bands column "
                             f"{self.group_col}: group 1 is the first row of this table, and so on); people with a "
@@ -1098,18 +1130,18 @@ class _Builder:
         g.set(12, 1, "Results", "heading")
         g.set(13, 1, "Success rate among those selected (Taylor–Russell)")
         self.put(g, 13, 2, "=TAYLOR_RUSSELL(B4,B6,B5)",
-                 lambda: call("TAYLOR_RUSSELL", self.value("validity_used"), self.value("base_rate"),
+                 lambda: self.passes() or call("TAYLOR_RUSSELL", self.value("validity_used"), self.value("base_rate"),
                               self.value("selection_ratio")), style="pct", key="taylor_russell")
         g.set(14, 1, "Gain in success rate over hiring without the test")
         self.put(g, 14, 2, "=B13-B6", lambda: self.value("taylor_russell") - self.value("base_rate"), style="pct",
                  key="success_gain")
         g.set(15, 1, "Mean standard criterion score of those selected (Naylor–Shine)")
         self.put(g, 15, 2, "=NAYLOR_SHINE(B4,B5)",
-                 lambda: call("NAYLOR_SHINE", self.value("validity_used"), self.value("selection_ratio")),
+                 lambda: self.passes() or call("NAYLOR_SHINE", self.value("validity_used"), self.value("selection_ratio")),
                  style="coef", key="naylor_shine")
         g.set(16, 1, "Money gain over the tenure of one year's hires, less testing cost (Brogden–Cronbach–Gleser)")
         self.put(g, 16, 2, "=BCG_UTILITY(B7,B8,B4,B9,B5,B10)",
-                 lambda: call("BCG_UTILITY", 20, 3, self.value("validity_used"), 19200,
+                 lambda: self.passes() or call("BCG_UTILITY", 20, 3, self.value("validity_used"), 19200,
                               self.value("selection_ratio"), 40), style="money", key="bcg")
         g.para(18, 1, "Utility figures rest on assumptions (validity, performance value, tenure) that the inputs "
                      "state; treat them as orders of magnitude, not forecasts.")
@@ -1320,7 +1352,7 @@ def build_study(data: StudyData, path: str | Path) -> StudyResult:
     builder.plan()
     builder.save(Path(path))
     return StudyResult(path=Path(path), cells=builder.cells, not_computable=builder.not_computable,
-                       notes=builder.notes, problems=list(data.problems))
+                       notes=builder.notes, problems=list(data.problems), cut_message=builder.cut_message)
 
 
 def make_study(data_path: str | Path, out_path: str | Path, overrides: Mapping[str, Any] | None = None, *,
