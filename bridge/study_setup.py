@@ -175,13 +175,8 @@ class StudyData:
 
     @property
     def binary_items(self) -> bool:
-        """Every answered item is scored 0 or 1 (and no other scale was given)."""
-        if self.items is None:
-            return False
-        if self.item_scale_given and self.item_scale != (0.0, 1.0):
-            return False
-        x = self.items[~np.isnan(self.items)]
-        return bool(x.size) and bool(np.isin(x, (0.0, 1.0)).all())
+        """The items are scored 0/1: given so, or (nearly) every answer is 0 or 1 (see :func:`_item_scale`)."""
+        return self.items is not None and self.item_scale == (0.0, 1.0)
 
     @property
     def n(self) -> int:

@@ -192,3 +192,15 @@ def test_copy_keeps_dates_header_text_and_formula_values(tmp_path):
     assert values["J2"].value == datetime.datetime(2026, 3, 1)
     assert [values.cell(i + 2, 11).value for i in range(30)] == [float(sum(r[2:8])) for r in rows]
     assert values["L2"].value == "#DIV/0!" and copy["L2"].data_type == "e"
+
+
+def test_formulas_without_stored_values_are_reported(tmp_path):
+    # openpyxl writes formulas without computing them: the study cannot know their values
+    header, rows = small_table(n=30)
+    header = header + ["check"]
+    for i, r in enumerate(rows):
+        r.append(f"=C{i + 2}*2")
+    result, _ = build(tmp_path, header, rows, SETUP)
+    line = next(x for x in result.problems if "without a stored value" in x)
+    assert "column 'check'" in line and "30 formula cell(s)" in line and "J2, J3" in line
+    assert "recalculate the data workbook first" in line

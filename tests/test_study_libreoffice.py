@@ -68,13 +68,13 @@ def same(ours, theirs: str) -> bool:
     return theirs == str(ours)
 
 
-def test_libreoffice_shows_the_computed_value_of_every_formula_cell(exported):
-    result, folder = exported
+def mismatched_cells(result, folder, sheets):
+    """(checked, mismatches) over every formula cell of ``sheets``: stored value against LibreOffice's export."""
     formulas = load_workbook(result.path, data_only=False)
     values = load_workbook(result.path, data_only=True)
     checked = 0
     mismatches = []
-    for sheet in ANALYSIS_SHEETS:
+    for sheet in sheets:
         rows = read_csv(folder, sheet)
         for row in formulas[sheet].iter_rows():
             for cell in row:
@@ -84,6 +84,25 @@ def test_libreoffice_shows_the_computed_value_of_every_formula_cell(exported):
                     checked += 1
                     if not same(ours, theirs):
                         mismatches.append((sheet, cell.coordinate, cell.value[:60], ours, theirs))
+    return checked, mismatches
+
+
+def test_libreoffice_shows_a_rating_scale_study_with_reverse_keyed_items(tmp_path, soffice):
+    # rating-scale items with two reverse-keyed ones: the Scored items sheet and the item statistics
+    from test_study_likert import SETUP as LIKERT_SETUP, likert_table
+    from test_study_setup import write_book
+
+    header, rows, _ = likert_table(n=120)
+    result = make_study(write_book(tmp_path / "d.xlsx", header, rows, LIKERT_SETUP), tmp_path / "study.xlsx")
+    convert(soffice, result.path, CSV_FILTER, tmp_path / "csv", tmp_path / "profile")
+    checked, mismatches = mismatched_cells(result, tmp_path, ("Items", "Reliability", "Bands", "Scored items"))
+    assert checked > 8 * 120
+    assert not mismatches, mismatches[:10]
+
+
+def test_libreoffice_shows_the_computed_value_of_every_formula_cell(exported):
+    result, folder = exported
+    checked, mismatches = mismatched_cells(result, folder, ANALYSIS_SHEETS)
     assert checked > 3000  # the Bands sheet alone has 400 rows of formulas
     assert not mismatches, mismatches[:10]
 
