@@ -225,11 +225,10 @@ def write_demo(target: Path, *, n: int = 400) -> tuple[StudyResult, dict[str, Pa
         study_data_workbook(paths["data"], demo, cut=cut)
         scoring_template(paths["scoring"], ids=demo.ids, responses=demo.items.tolist(),
                          title="Scoring sheet: Dispatch Knowledge Test (demo)")
-        groups = sorted(set(demo.groups))
-        counts = []
-        for g in groups:
-            member = np.array([x == g for x in demo.groups])
-            counts.append((g, int(member.sum()), int((member & (scores >= cut)).sum())))
+        from trueband.funcs.impact import tally_groups
+
+        tally = tally_groups(demo.groups, scores >= cut)  # labels merged as the study merges them
+        counts = [(g, tally.applicants[g], tally.selected[g]) for g in tally.names]
         impact_template(paths["impact"], groups=counts,
                         title=f"Adverse impact at a cut of {cut:g} on the Dispatch Knowledge Test (demo)")
         study_data_workbook(paths["blank_data"])

@@ -494,7 +494,7 @@ def _item_scale(data: StudyData) -> None:
         return
     binary = np.isin(answered, (0.0, 1.0))
     # a few stray values among 0/1 answers are slips (a 2, an 11), not a wider scale (common practice)
-    if binary.mean() >= 0.99 and np.isin(answered[binary], (0.0, 1.0)).size and len(np.unique(answered[binary])) == 2:
+    if binary.mean() >= 0.99 and np.unique(answered[binary]).size == 2:
         data.item_scale = (0.0, 1.0)
         if not binary.all():
             data.notes.append("The items are scored 0/1 (every answer but a few is 0 or 1); the other values are "
@@ -651,9 +651,11 @@ def _check(setup: StudySetup, path: Path, sheet: str, header, rows) -> StudyData
     raw_groups = [row[columns["group"]] for row in rows] if "group" in columns else [None] * len(rows)
     from trueband.funcs.impact import tally_groups
 
-    tally = tally_groups([_cell_text(g) if isinstance(g, (int, float)) and not isinstance(g, bool) else g
-                          for g in raw_groups]) if "group" in columns else None
-    groups = [tally.name(g) for g in raw_groups] if tally is not None else [None] * len(rows)
+    # a label as the cell shows it: 2.0 is "2", a logical value is TRUE/FALSE, text keeps its spaces
+    labels = [("TRUE" if g else "FALSE") if isinstance(g, bool) else g if isinstance(g, str) else _cell_text(g)
+              for g in raw_groups]
+    tally = tally_groups(labels) if "group" in columns else None
+    groups = [tally.name(g) for g in labels] if tally is not None else [None] * len(rows)
 
     data = StudyData(setup=setup, path=path, sheet=sheet, header=list(header), rows=rows, columns=columns,
                      item_columns=item_cols, rating_columns=rating_cols, ids=ids, groups=groups, items=items,

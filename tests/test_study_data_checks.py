@@ -204,3 +204,12 @@ def test_formulas_without_stored_values_are_reported(tmp_path):
     line = next(x for x in result.problems if "without a stored value" in x)
     assert "column 'check'" in line and "30 formula cell(s)" in line and "J2, J3" in line
     assert "recalculate the data workbook first" in line
+
+
+def test_numbers_and_logical_values_as_group_labels(tmp_path):
+    header, rows = small_table(n=40)
+    for i, r in enumerate(rows):
+        r[1] = (1, 1.0, "1 ", True, "true")[i % 5]  # 1, 1.0 and "1 " are one group; TRUE and "true" another
+    result, wb = build(tmp_path, header, rows, SETUP)
+    assert {k: v[0] for k, v in impact_table(wb).items()} == {"1": 24, "TRUE": 16}
+    assert result.recalc_report.ok
