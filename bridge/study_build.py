@@ -1205,9 +1205,12 @@ class _Builder:
             else:
                 self.na(g, r, 2, "not part of this study (see Notes)")
             r += 1
-        g.para(r + 1, 1, "Every number is a formula: click it to see how it was computed. The sheets Reliability, "
-                        "Items, Raters, Validity, Bands, Impact and Utility hold the detail; Notes lists the methods "
-                        "and references.")
+        r += 1 + g.para(r + 1, 1, "Every number is a formula: click it to see how it was computed. The sheets "
+                                 "Reliability, Items, Raters, Validity, Bands, Impact and Utility hold the detail; "
+                                 "Notes lists the methods and references.")
+        if d.problems:
+            g.para(r + 1, 1, f"{len(d.problems)} problem(s) were found in the data (values outside the item scale, "
+                             f"duplicate ids, blank groups and the like); the Notes sheet lists each cell.", "caution")
         self.summary_last = r + 1
 
     def _summary_value(self, g, r, c, key, formula, style):

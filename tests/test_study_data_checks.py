@@ -134,7 +134,9 @@ def test_doubtful_cells_are_reported_one_line_each(tmp_path, capsys):
     assert any("cell E5" in x and "'i3'" in x and "outside the item scale 0 to 1" in x for x in err)
     assert any("cells A10, A11" in x and repr(rows[8][0]) in x for x in err)
     assert any("cell B14" in x and "blank" in x for x in err)
-    notes = sheet_text(load_workbook(tmp_path / "s.xlsx", data_only=True)["Notes"])
+    study = load_workbook(tmp_path / "s.xlsx", data_only=True)
+    assert "3 problem(s) were found in the data" in sheet_text(study["Summary"])
+    notes = sheet_text(study["Notes"])
     assert "Problems in the data" in notes
     for cell in ("cell E5", "cells A10, A11", "cell B14"):
         assert cell in notes
