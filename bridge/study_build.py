@@ -1319,7 +1319,7 @@ class _Builder:
             cell = WriteOnlyCell(ws)
             cell.number_format = code
             style_of[code] = cell.style_id
-        self.copy_styles = {(i + 2, c): style_of[f] for (i, c), f in self.d.formats.items()}
+        self.copy_styles = _CopyStyles(self.d.formats, style_of)
         return wb
 
     def save(self, path: Path):
@@ -1335,6 +1335,28 @@ class _Builder:
             rows[SCORED_SHEET] = lambda: study_xml.rows_xml(self.scored_rows(), 2, formulas=True)
             corners[SCORED_SHEET] = f"{get_column_letter(len(d.item_columns))}{last}"
         study_xml.splice_rows(path, rows, corners)
+
+
+class _CopyStyles(Mapping):
+    """(sheet row, 0-based column) -> style index of the copy, looked up through the source's formats
+    (no second per-cell table: a source may style every cell)."""
+
+    def __init__(self, formats: Mapping[tuple[int, int], str], style_of: Mapping[str, int]):
+        self.formats, self.style_of = formats, style_of
+
+    def __getitem__(self, key):
+        r, c = key
+        return self.style_of[self.formats[(r - 2, c)]]
+
+    def __contains__(self, key):
+        r, c = key
+        return (r - 2, c) in self.formats
+
+    def __iter__(self):
+        return ((i + 2, c) for i, c in self.formats)
+
+    def __len__(self):
+        return len(self.formats)
 
 
 def _degenerate(x: np.ndarray | None) -> bool:
