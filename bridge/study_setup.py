@@ -538,8 +538,10 @@ def _duplicate_ids(data: StudyData) -> list[str]:
     for key, rows in first.items():
         if len(rows) > 1:
             cells = ", ".join(f"{col}{i + 2}" for i in rows)
+            spelled = {str(data.ids[i]) for i in rows}
+            how = "" if len(spelled) == 1 else " (letter case and spacing aside)"
             lines.append(f"sheet '{data.sheet}', cells {cells} (id column): the id {data.ids[rows[0]]!r} appears "
-                         f"{len(rows)} times; each row is counted as a person of its own")
+                         f"{len(rows)} times{how}; each row is counted as a person of its own")
     return lines
 
 
