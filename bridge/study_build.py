@@ -1251,10 +1251,16 @@ class _Builder:
             ("A person's score is the sum of their item scores (a blank item counts 0); a person with no item "
              "answered has no score. The item statistics use only people who answered every item (listwise "
              "deletion).", "wrap"),
+            ("Item statistics are those of the scores after reverse keying (minimum + maximum of the item scale − "
+             "response for the reverse-keyed items); the flags of 0/1 items use the proportion correct, those of "
+             "rating-scale items the mean's place on the scale and the standard deviation.", "wrap"),
             ("Standard deviations use the n − 1 denominator (STDEV). Intervals are two-sided at the confidence on the "
              "Setup sheet.", "wrap"),
             ("Range restriction: the restricted group is the people with a criterion value; the unrestricted group "
              "is every applicant with a score.", "wrap"),
+            ("Group labels that differ only in letter case or spacing ('Group A', ' group a') are one group; a "
+             "blank group label puts the person in no group. Labels are matched through a group number on the Bands "
+             "sheet, so a label such as '<40' is counted as written.", "wrap"),
             ("Adverse impact compares each group's selection rate at the cut with the reference group's rate. The "
              "four-fifths rule of thumb is that of the Uniform Guidelines, 29 CFR 1607.4(D); z is the pooled "
              "two-proportion z test (positive when the group's rate is lower); Fisher p is two-sided.", "wrap"),
