@@ -507,20 +507,22 @@ def _item_scale(data: StudyData) -> None:
                       f"to have responses outside the scale reported.")
 
 
-def _outside_scale(data: StudyData) -> list[str]:
+def _outside_scale(data: StudyData) -> tuple[list[str], int]:
+    """Lines for the first values outside the item scale, and how many there are."""
     if data.item_scale is None:
-        return []
+        return [], 0
     lo, hi = data.item_scale
     x = data.raw_items
     with np.errstate(invalid="ignore"):
         bad = (x < lo) | (x > hi)
     lines = []
-    for i, j in zip(*np.nonzero(bad)):
+    where = np.argwhere(bad)  # row by row, as a reader goes down the sheet
+    for i, j in where[:MAX_LINES_PER_PROBLEM]:
         c = data.item_columns[j]
         lines.append(f"sheet '{data.sheet}', cell {get_column_letter(c + 1)}{i + 2} (item {data.header[c]!r}): "
                      f"{x[i, j]:g} is outside the item scale {lo:g} to {hi:g}; the study uses it as it stands "
                      f"(correct it and run the study again)")
-    return lines
+    return lines, len(where)
 
 
 def _duplicate_ids(data: StudyData) -> list[str]:
@@ -592,10 +594,12 @@ def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None
 MAX_LINES_PER_PROBLEM = 25
 
 
-def _report(data: StudyData, kind: str, lines: list[str]) -> None:
+def _report(data: StudyData, kind: str, lines: list[str], count: int | None = None) -> None:
+    """Add the first lines of one kind of problem; ``count`` is how many there are (default: the lines)."""
+    count = len(lines) if count is None else count
     data.problems.extend(lines[:MAX_LINES_PER_PROBLEM])
-    if len(lines) > MAX_LINES_PER_PROBLEM:
-        data.problems.append(f"sheet '{data.sheet}': {len(lines) - MAX_LINES_PER_PROBLEM} more {kind} like those "
+    if count > MAX_LINES_PER_PROBLEM:
+        data.problems.append(f"sheet '{data.sheet}': {count - MAX_LINES_PER_PROBLEM} more {kind} like those "
                              f"above (not listed)")
 
 
@@ -665,7 +669,7 @@ def _check(setup: StudySetup, path: Path, sheet: str, header, rows) -> StudyData
                      groups_raw=raw_groups, group_tally=tally, raw_items=items)
     if items is not None:
         _item_scale(data)
-        _report(data, "values outside the item scale", _outside_scale(data))
+        _report(data, "values outside the item scale", *_outside_scale(data))
         if reverse:
             lo, hi = data.item_scale
             data.reverse_items = reverse

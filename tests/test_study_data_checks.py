@@ -215,3 +215,19 @@ def test_numbers_and_logical_values_as_group_labels(tmp_path):
     result, wb = build(tmp_path, header, rows, SETUP)
     assert {k: v[0] for k, v in impact_table(wb).items()} == {"1": 24, "TRUE": 16}
     assert result.recalc_report.ok
+
+
+def test_many_values_outside_the_scale_are_listed_then_counted(tmp_path):
+    # responses coded 0-4 while the Setup says 1-5: every 0 is outside the scale
+    rng = np.random.default_rng(2)
+    header = ["id", "group", *[f"L{j}" for j in range(1, 6)]]
+    rows = [[f"P{i}", "AB"[i % 2], *rng.integers(0, 5, 5).tolist()] for i in range(60)]
+    zeros = sum(v == 0 for r in rows for v in r[2:])
+    setup = {"id column": "id", "group column": "group", "item columns": "L1:L5", "cut score": 10,
+             "item scale minimum": 1, "item scale maximum": 5}
+    result, _ = build(tmp_path, header, rows, setup)
+    outside = [x for x in result.problems if "outside the item scale" in x]
+    assert zeros > 26 and len(outside) == 26
+    assert outside[-1].endswith(f"{zeros - 25} more values outside the item scale like those above (not listed)")
+    first = next((i, j) for i, r in enumerate(rows) for j, v in enumerate(r[2:]) if v == 0)
+    assert f"cell {'CDEFG'[first[1]]}{first[0] + 2} " in outside[0]  # listed from the top of the sheet down
