@@ -28,7 +28,8 @@ DEMO_FILES = {
 }
 
 #: command-line option -> setup field
-_OPTIONS = {"sheet": "data_sheet", "id": "id", "group": "group", "items": "items", "total": "total",
+_OPTIONS = {"sheet": "data_sheet", "id": "id", "group": "group", "items": "items", "reverse": "reverse",
+            "item_min": "item_min", "item_max": "item_max", "total": "total",
             "ratings": "ratings", "criterion": "criterion", "retest": "retest", "hired": "hired", "cut": "cut",
             "confidence": "confidence", "criterion_reliability": "criterion_reliability", "success": "success",
             "reference_group": "reference_group", "test_name": "test_name"}
@@ -48,6 +49,10 @@ def register(sub) -> None:
     p.add_argument("--id", help="header of the id column")
     p.add_argument("--group", help="header of the applicant-group column")
     p.add_argument("--items", help="item columns: FIRST:LAST or a comma-separated list of headers")
+    p.add_argument("--reverse", help="reverse-keyed items (scored minimum + maximum - response): FIRST:LAST or a "
+                                     "comma-separated list of headers; needs --item-min and --item-max")
+    p.add_argument("--item-min", type=float, help="lowest response an item allows (e.g. 1)")
+    p.add_argument("--item-max", type=float, help="highest response an item allows (e.g. 5)")
     p.add_argument("--total", help="header of a total-score column")
     p.add_argument("--ratings", help="rating columns: FIRST:LAST or a list")
     p.add_argument("--criterion", help="header of the job-performance column")
@@ -76,7 +81,7 @@ def _overrides(args) -> dict:
         value = getattr(args, opt, None)
         if value is None:
             continue
-        if field in ("items", "ratings"):
+        if field in ("items", "ratings", "reverse"):
             value = tuple(p.strip() for p in value.split(",") if p.strip())
         out[field] = value
     return out
@@ -148,7 +153,13 @@ def headline_lines(h: dict) -> list[str]:
 
 
 def _report(result: StudyResult, out: Path) -> int:
+    for line in result.problems:
+        print(f"data problem: {line}", file=sys.stderr)
     print(f"Study written: {out}")
+    if result.problems:
+        print(f"  {len(result.problems)} data problem(s), listed above and on the Notes sheet")
+    if result.cut_message:
+        print(f"  Cut score: {result.cut_message}")
     for line in headline_lines(headline_values(out, result)):
         print(line)
     if result.not_computable:
@@ -214,11 +225,10 @@ def write_demo(target: Path, *, n: int = 400) -> tuple[StudyResult, dict[str, Pa
         study_data_workbook(paths["data"], demo, cut=cut)
         scoring_template(paths["scoring"], ids=demo.ids, responses=demo.items.tolist(),
                          title="Scoring sheet: Dispatch Knowledge Test (demo)")
-        groups = sorted(set(demo.groups))
-        counts = []
-        for g in groups:
-            member = np.array([x == g for x in demo.groups])
-            counts.append((g, int(member.sum()), int((member & (scores >= cut)).sum())))
+        from trueband.funcs.impact import tally_groups
+
+        tally = tally_groups(demo.groups, scores >= cut)  # labels merged as the study merges them
+        counts = [(g, tally.applicants[g], tally.selected[g]) for g in tally.names]
         impact_template(paths["impact"], groups=counts,
                         title=f"Adverse impact at a cut of {cut:g} on the Dispatch Knowledge Test (demo)")
         study_data_workbook(paths["blank_data"])

@@ -48,6 +48,9 @@ __all__ = ["StudyError", "StudyResult", "build_study", "make_study", "CAUTION", 
 
 ANALYSIS_SHEETS = ("Summary", "Reliability", "Items", "Raters", "Validity", "Bands", "Impact", "Utility", "Notes")
 
+#: The sheet of item scores after reverse keying (written only when some items are reverse keyed).
+SCORED_SHEET = "Scored items"
+
 #: Up to this many cells in the item (or rating) range, every range function is called once while the
 #: study is built, to mark what cannot be computed; above it only cheap numpy checks are made.
 FULL_CHECK_CELLS = 400_000
@@ -172,6 +175,8 @@ class StudyResult:
     recalc_report: Any = None
     timings: dict[str, float] = dataclasses.field(default_factory=dict)
     notes: list[str] = dataclasses.field(default_factory=list)
+    problems: list[str] = dataclasses.field(default_factory=list)  # doubtful data cells, one line each
+    cut_message: str | None = None  # why nobody passes the cut, when nobody does
 
 
 class _Unavailable(TruebandError):
@@ -235,6 +240,27 @@ class _Builder:
         if key:
             self.cells[key] = (g.title, f"{get_column_letter(col)}{row}")
 
+    def _cut_message(self, cut: float) -> str | None:
+        """Why nobody passes the cut (above the highest possible score, or above every score), or None."""
+        d = self.d
+        s = self.scores[self.has_score]
+        if not s.size or (s >= cut).any():
+            return None
+        again = "; set a lower cut score on the Setup sheet (or --cut)"
+        if d.total is None and d.items is not None and d.item_scale is not None:
+            lo, hi = d.item_scale
+            k = d.items.shape[1]
+            whence = "" if d.item_scale_given or d.binary_items else ", the range found in the data"
+            if cut > k * hi:
+                return (f"the cut score, {cut:g}, is above the highest possible score, {k * hi:g} ({k} items scored "
+                        f"{lo:g} to {hi:g}{whence}), so nobody can pass{again}")
+        return f"nobody reaches the cut score, {cut:g}: the highest score in the data is {s.max():g}{again}"
+
+    def passes(self):
+        """Raise the plain reason when nobody reaches the cut (the checks of cut-dependent figures call it)."""
+        if self.cut_message:
+            raise InsufficientDataError(self.cut_message)
+
     def heavy(self, check: Callable) -> Callable | None:
         """A check over a whole item or rating range: run it only while the data are small."""
         return check if self.full_checks else None
@@ -251,6 +277,28 @@ class _Builder:
 
     def data_range(self, cols0: list[int]) -> str:
         return range_ref(self.data_sheet, cols0[0] + 1, self.first, cols0[-1] + 1, self.last)
+
+    def items_ref(self) -> str:
+        """The item scores the statistics use: the data's item columns, or the Scored items sheet."""
+        d = self.d
+        if d.reverse_items:
+            return range_ref(SCORED_SHEET, 1, self.first, len(d.item_columns), self.last)
+        return self.data_range(d.item_columns)
+
+    def scored_rows(self):
+        """The Scored items rows: each item score as in the data, reverse-keyed ones as min + max − response."""
+        d = self.d
+        data_q = quote(d.sheet)
+        lo, hi = (self.setup_ref("item_min"), self.setup_ref("item_max"))
+        letters = [self.data_col(c) for c in d.item_columns]
+        reverse = set(d.reverse_items)
+        for i in range(d.n):
+            r = i + 2
+            yield [f'=IF(COUNT({data_q}!{x}{r})=1,{lo}+{hi}-{data_q}!{x}{r},"")' if j in reverse
+                   else f'=IF(COUNT({data_q}!{x}{r})=1,{data_q}!{x}{r},"")' for j, x in enumerate(letters)]
+
+    def setup_ref(self, field: str) -> str:
+        return cell_ref(SETUP_SHEET, 2, self.setup_rows[field])
 
     def bands_range(self, letter: str) -> str:
         return f"{quote('Bands')}!${letter}${self.first}:${letter}${self.last}"
@@ -277,7 +325,7 @@ class _Builder:
                 if b != a + 1:
                     raise SetupError(f"{role}: the columns must stand side by side on sheet '{d.sheet}'; "
                                      f"{d.header[b]!r} does not follow {d.header[a]!r}")
-        taken = {t.lower() for t in ANALYSIS_SHEETS} | {SETUP_SHEET.lower()}
+        taken = {t.lower() for t in ANALYSIS_SHEETS} | {SETUP_SHEET.lower(), SCORED_SHEET.lower()}
         if d.sheet.lower() in taken:
             raise SetupError(f"the data sheet is called '{d.sheet}', a name the study uses for one of its own "
                              f"sheets; rename it (e.g. 'Candidates')")
@@ -296,6 +344,9 @@ class _Builder:
             self.notes.append(f"No cut score was given; the study uses the median score, {cut:g}. Set 'cut score' on "
                               f"the Setup sheet (or --cut) to study your own cut.")
         self.cut = cut
+        self.cut_message = self._cut_message(cut)
+        if self.cut_message:
+            self.notes.append("Cut score: " + self.cut_message + ".")
         self.setup_rows: dict[str, int] = {}
         row = 2
         for key, (field, kind, meaning) in SETTINGS.items():
@@ -364,7 +415,7 @@ class _Builder:
         g.set(row, 3, f"{conf:.0%} CI lower", "header")
         g.set(row, 4, f"{conf:.0%} CI upper", "header")
         if x is not None:
-            items_rng = self.data_range(d.item_columns)
+            items_rng = self.items_ref()
             self.items_range = items_rng
             complete = ~np.isnan(x).any(axis=1)
             xc = x[complete]
@@ -462,6 +513,16 @@ class _Builder:
                              "CI lower", "CI upper", "Band", "At or above cut (1 = yes)"]
         if d.criterion is not None:
             self.bands_header += ["Criterion", "Score of people with a criterion value"]
+        # the study's reading of two label columns, as numbers the counts can match exactly (a
+        # spreadsheet's COUNTIF would treat a label such as "<40" or "A*" as a condition)
+        self.group_numbers = {name: k + 1 for k, name in enumerate(d.group_tally.names)} if d.group_tally else {}
+        self.group_col = self.hired_col = None
+        if d.group_tally is not None:
+            self.bands_header.append("Group number (as counted on Impact)")
+            self.group_col = get_column_letter(len(self.bands_header))
+        if d.hired is not None:
+            self.bands_header.append("Hired (1 = yes, as read from the hired column)")
+            self.hired_col = get_column_letter(len(self.bands_header))
         can_band = isinstance(self.values.get("sem"), float)
         self.bands_can = can_band
         if not can_band:
@@ -484,9 +545,15 @@ class _Builder:
         data_q = quote(d.sheet)
         id_col = d.columns.get("id")
         grp_col = d.columns.get("group")
-        any_blank_group = grp_col is not None and any(g is None for g in d.groups)
+        hired_codes = None
+        if d.hired is not None:
+            from .study_setup import hired_code
+
+            hired_codes = [hired_code(row[d.columns["hired"]]) for row in d.rows]
         if d.items is not None:
             a, b = self.data_col(d.item_columns[0]), self.data_col(d.item_columns[-1])
+            if d.reverse_items:  # the scores after reverse keying
+                a, b = "A", get_column_letter(len(d.item_columns))
         else:
             t = self.data_col(d.columns["total"])
         crit = self.data_col(d.columns["criterion"]) if d.criterion is not None else None
@@ -498,16 +565,12 @@ class _Builder:
             r = i + 2
             row: list[Any] = []
             row.append(f"={data_q}!{self.data_col(id_col)}{r}" if id_col is not None else d.ids[i])
-            if grp_col is None:
-                row.append(None)
-            elif any_blank_group:
-                g = self.data_col(grp_col)
-                row.append(f'=IF(ISBLANK({data_q}!{g}{r}),"",{data_q}!{g}{r})')
-            else:
-                row.append(f"={data_q}!{self.data_col(grp_col)}{r}")
+            # the group as counted: labels differing only in case or spacing are one group (see Impact)
+            row.append(d.groups[i] if grp_col is not None else None)
             if d.items is not None:
-                row.append(f'=IF(D{r}=0,"",SUM({data_q}!{a}{r}:{b}{r}))' if guard else f"=SUM({data_q}!{a}{r}:{b}{r})")
-                row.append(f"=COUNT({data_q}!{a}{r}:{b}{r})")
+                src = quote(SCORED_SHEET) if d.reverse_items else data_q
+                row.append(f'=IF(D{r}=0,"",SUM({src}!{a}{r}:{b}{r}))' if guard else f"=SUM({src}!{a}{r}:{b}{r})")
+                row.append(f"=COUNT({src}!{a}{r}:{b}{r})")
             else:
                 row.append(f'=IF(COUNT({data_q}!{t}{r})=1,{data_q}!{t}{r},"")' if guard else f"={data_q}!{t}{r}")
                 row.append(f"=COUNT({data_q}!{t}{r})")
@@ -526,13 +589,17 @@ class _Builder:
                 # for the whole column at once
                 row.append(f'=IF(COUNT({data_q}!{crit}{r})=1,{data_q}!{crit}{r},"")')
                 row.append(f'=IF(COUNT(C{r},I{r})=2,C{r},"")')
+            if self.group_col is not None:
+                row.append(self.group_numbers.get(d.groups[i]))
+            if hired_codes is not None:
+                row.append(None if hired_codes[i] is None else int(hired_codes[i]))
             yield row
 
     # -- Items
 
     def items_sheet(self):
         g = self.grid("Items")
-        g.widths.update({1: 16, 2: 16, 3: 18, 4: 16, 5: 34})
+        g.widths.update({1: 18, 2: 16, 3: 14, 4: 16, 5: 16, 6: 34})
         d = self.d
         g.set(1, 1, "Item analysis", "title")
         if d.items is None:
@@ -540,17 +607,33 @@ class _Builder:
             return
         x = d.items
         rng = self.items_range
+        binary = d.binary_items
         g.set(2, 1, "Flag an item when its corrected item–total correlation is below", "label")
-        g.set(2, 5, 0.2, "input_coef")
-        g.set(3, 1, "or fewer than this proportion answer it correctly", "label")
-        g.set(3, 5, 0.2, "input_coef")
-        g.set(4, 1, "or more than this proportion answer it correctly", "label")
-        g.set(4, 5, 0.9, "input_coef")
-        head = ("Item", "Difficulty (mean score; proportion correct)", "Corrected item–total r", "Alpha if deleted",
-                "Flag")
+        g.set(2, 6, 0.2, "input_coef")
+        if binary:
+            g.set(3, 1, "or fewer than this proportion answer it correctly", "label")
+            g.set(3, 6, 0.2, "input_coef")
+            g.set(4, 1, "or more than this proportion answer it correctly", "label")
+            g.set(4, 6, 0.9, "input_coef")
+            mean_head = "Difficulty (proportion correct)"
+        else:
+            lo, hi = d.item_scale
+            g.set(3, 1, "or its mean lies within this share of the scale's range from either end", "label")
+            g.set(3, 6, 0.1, "input_coef")
+            g.set(4, 1, "or its standard deviation is below (scale points)", "label")
+            g.set(4, 6, round((hi - lo) / 8, 4), "input_coef")
+            given = "from Setup" if d.item_scale_given else "the lowest and highest response in the data"
+            g.set(5, 1, f"Item scale: lowest and highest response ({given})", "label")
+            if d.item_scale_given:
+                g.set(5, 6, f"={self.setup_ref('item_min')}", "score")
+                g.set(5, 7, f"={self.setup_ref('item_max')}", "score")
+            else:
+                g.set(5, 6, lo, "input")
+                g.set(5, 7, hi, "input")
+            mean_head = "Mean item score"
+        head = ("Item", mean_head, "Standard deviation", "Corrected item–total r", "Alpha if deleted", "Flag")
         for c, h in enumerate(head, start=1):
             g.set(6, c, h, "header")
-        alpha = self.cells.get("alpha")
         alpha_ref = cell_ref("Reliability", 2, 10)
         first = 7
         complete = x[~np.isnan(x).any(axis=1)]
@@ -560,35 +643,49 @@ class _Builder:
             suspect = (item_var <= 1e-12 * max(1.0, float(item_var.max()))) | (rest_var <= 1e-12)
         else:
             suspect = np.ones(x.shape[1], dtype=bool)
+        reverse = set(d.reverse_items)
         for j in range(x.shape[1]):
             r = first + j
             name = d.header[d.item_columns[j]]
-            g.set(r, 1, name)
+            g.set(r, 1, name + (" (reversed)" if j in reverse else ""))
             # with large data only the items numpy finds degenerate are checked by calling the function
             check = self.full_checks or bool(suspect[j])
-            self.put(g, r, 2, f"=ITEM_DIFFICULTY({rng},{j + 1})",
-                     (lambda j=j: call("ITEM_DIFFICULTY", x, j + 1)) if check else None,
-                     style="coef", key=f"item{j + 1}_difficulty")
-            self.put(g, r, 3, f"=ITEM_TOTAL({rng},{j + 1})",
-                     (lambda j=j: call("ITEM_TOTAL", x, j + 1)) if check else None,
-                     style="coef", key=f"item{j + 1}_total")
-            self.put(g, r, 4, f"=ALPHA_IF_DELETED({rng},{j + 1})",
-                     (lambda j=j: call("ALPHA_IF_DELETED", x, j + 1)) if check else None,
-                     style="coef", key=f"item{j + 1}_aid")
+            for c, fn, part in ((2, "ITEM_DIFFICULTY", "difficulty"), (3, "ITEM_SD", "sd"),
+                                (4, "ITEM_TOTAL", "total"), (5, "ALPHA_IF_DELETED", "aid")):
+                self.put(g, r, c, f"={fn}({rng},{j + 1})", (lambda j=j, fn=fn: call(fn, x, j + 1)) if check else None,
+                         style="coef", key=f"item{j + 1}_{part}")
             ok = not any(isinstance(self.values.get(f"item{j + 1}_{p}"), Exception)
-                         for p in ("difficulty", "total", "aid"))
+                         for p in ("difficulty", "sd", "total", "aid"))
             if ok and isinstance(self.values.get("alpha"), float):
-                g.set(r, 5, f'=IF(C{r}<$E$2,"weak discrimination",IF(B{r}<$E$3,"very hard",IF(B{r}>$E$4,"very easy",'
-                            f'IF(D{r}>{alpha_ref},"alpha rises without it",""))))')
+                last_flag = f'IF(E{r}>{alpha_ref},"alpha rises without it","")'
+                if binary:
+                    g.set(r, 6, f'=IF(D{r}<$F$2,"weak discrimination",IF(B{r}<$F$3,"very hard",'
+                                f'IF(B{r}>$F$4,"very easy",{last_flag})))')
+                else:
+                    span = "($G$5-$F$5)"
+                    g.set(r, 6, f'=IF(D{r}<$F$2,"weak discrimination",IF((B{r}-$F$5)/{span}<$F$3,'
+                                f'"mean near the bottom of the scale",IF(($G$5-B{r})/{span}<$F$3,'
+                                f'"mean near the top of the scale",IF(C{r}<$F$4,"little spread",{last_flag}))))')
             else:
-                g.set(r, 5, "see the statistics to the left", "na")
+                g.set(r, 6, "see the statistics to the left", "na")
         self.item_rows = (first, first + x.shape[1] - 1)
+        scale = (0.0, 1.0) if binary else d.item_scale
         g.charts.append((charts.item_map(charts.area("Items", "B", first, "B", self.item_rows[1]),
-                                         charts.area("Items", "C", first, "C", self.item_rows[1])),
-                         "G6"))  # beside the table: below it, a page break would cut it in two
-        g.para(first + x.shape[1] + 1, 1, "Difficulty is the mean item score (the proportion correct for 0/1 items); "
-                                          "the corrected item–total r correlates the item with the total of the other "
-                                          "items. Flags are prompts for review by a test developer, not verdicts.")
+                                         charts.area("Items", "D", first, "D", self.item_rows[1]),
+                                         binary=binary, scale=scale),
+                         "H6"))  # beside the table: below it, a page break would cut it in two
+        if binary:
+            text = ("Difficulty is the proportion answering the item correctly; the corrected item–total r "
+                    "correlates the item with the total of the other items.")
+        else:
+            text = ("The items are rating-scale (polytomous) items: the mean and standard deviation describe where "
+                    "the answers lie on the scale and how much they spread; the corrected item–total r correlates "
+                    "the item with the total of the other items.")
+        if reverse:
+            text += (f" Reverse-keyed items are scored minimum + maximum − response (scale {d.item_scale[0]:g} to "
+                     f"{d.item_scale[1]:g}; the scores are on the '{SCORED_SHEET}' sheet) before every statistic.")
+        g.para(first + x.shape[1] + 1, 1, text + " Flags are prompts for review by a test developer, not verdicts; "
+                                                 "the thresholds above are common practice and can be edited.")
 
     # -- Raters
 
@@ -691,9 +788,9 @@ class _Builder:
         self.put(g, 3, 2, f"=COUNT({sh_rng})", lambda: n, style="count", key="n_criterion")
         if d.hired is not None:
             g.set(4, 1, "People hired (hired column)")
-            hired_rng = self.data_range([d.columns["hired"]])
-            self.put(g, 4, 2, f'=COUNTIF({hired_rng},"yes")+COUNTIF({hired_rng},1)+COUNTIF({hired_rng},TRUE)',
-                     lambda: int(d.hired.sum()), style="count")
+            self.put(g, 4, 2, f"=SUM({self.bands_range(self.hired_col)})", lambda: int(d.hired.sum()), style="count")
+            g.set(4, 3, f"(yes/no, y/n, 1/0 or TRUE/FALSE in column {self.s.hired!r}, read into Bands column "
+                        f"{self.hired_col})")
 
         def r_check():
             if n < 3:
@@ -840,7 +937,7 @@ class _Builder:
         sel_all = self.has_score & (S >= cut)
         self.impact_rows = None
         row = cut_row + 3
-        groups = sorted({x for x in d.groups if x is not None})
+        groups = list(d.group_tally.names) if d.group_tally is not None else []
         grp_ok = True
         if "group" not in d.columns:
             self.na(g, row, 1, "no group column was given", key="min_ratio")
@@ -851,23 +948,27 @@ class _Builder:
                     key="min_ratio")
             grp_ok = False
         if grp_ok:
-            self._impact_table(g, row, groups, sel_all, chart_row=row + len(groups) + 6)
-            self._distribution(g, row + len(groups) + 6, col="E")  # beside the rates chart, on the same page
+            self._impact_table(g, row, groups, sel_all, chart_row=row + len(groups) + 10)
+            self._distribution(g, row + len(groups) + 10, col="E")  # beside the rates chart, on the same page
         else:
             self._distribution(g, row + 3)
 
     def _impact_table(self, g: Grid, row: int, groups: list[str], sel_all, chart_row: int):
         d, s = self.d, self.s
-        counts = {}
-        garr = np.array([x if x is not None else "" for x in d.groups], dtype=object)
-        for name in groups:
-            member = (garr == name) & self.has_score
-            counts[name] = (int((member & sel_all).sum()), int(member.sum()))
+        from trueband.funcs.impact import tally_groups
+
+        # people with a score, counted by group as the Python functions count them (labels merged as
+        # funcs.impact.group_key does); the sheet's COUNTIFS count the same rows by group number
+        scored = np.flatnonzero(self.has_score)
+        tally = tally_groups([d.groups[i] for i in scored], [bool(sel_all[i]) for i in scored])
+        counts = {name: (tally.selected.get(name, 0), tally.applicants.get(name, 0)) for name in groups}
         rates = {k: (sel / app if app else 0.0) for k, (sel, app) in counts.items()}
         ref = s.reference_group
-        if ref is not None and ref not in counts:
-            raise SetupError(f"reference group: no group {ref!r} in column {s.group!r} on sheet '{d.sheet}' (groups: "
-                             f"{', '.join(groups)})")
+        if ref is not None:
+            ref = d.group_tally.name(ref)
+            if ref is None:
+                raise SetupError(f"reference group: no group {s.reference_group!r} in column {s.group!r} on sheet "
+                                 f"'{d.sheet}' (groups: {', '.join(groups)})")
         if ref is None:
             ref = max(groups, key=lambda k: (rates[k], counts[k][1]))
             self.notes.append(f"Reference group for impact: {ref}, the group with the highest selection rate at the cut "
@@ -883,7 +984,7 @@ class _Builder:
             g.set(row, c, h, "header")
         first, last = row + 1, row + len(groups)
         self.impact_rows = (first, last)
-        grp_rng, sel_rng = self.bands_range("B"), self.bands_range("H")
+        grp_rng, sel_rng = self.bands_range(self.group_col), self.bands_range("H")
         rs, ra = counts[ref]
         ref_sel = f"INDEX($C${first}:$C${last},MATCH({ref_name},$A${first}:$A${last},0))"
         ref_app = f"INDEX($B${first}:$B${last},MATCH({ref_name},$A${first}:$A${last},0))"
@@ -891,8 +992,9 @@ class _Builder:
             r = first + i
             fs, fa = counts[name]
             g.set(r, 1, name)
-            g.set(r, 2, f'=COUNTIFS({grp_rng},$A{r},{sel_rng},">=0")', "count")
-            g.set(r, 3, f"=COUNTIFS({grp_rng},$A{r},{sel_rng},1)", "count")
+            number = self.group_numbers[name]
+            g.set(r, 2, f'=COUNTIFS({grp_rng},{number},{sel_rng},">=0")', "count")
+            g.set(r, 3, f"=COUNTIFS({grp_rng},{number},{sel_rng},1)", "count")
             self.put(g, r, 4, f"=SELECTION_RATE(C{r},B{r})", lambda fs=fs, fa=fa: call("SELECTION_RATE", fs, fa),
                      style="coef", key=f"rate_{name}")
             g.set(r, 10, f"=0.8*MAX($D${first}:$D${last})", "coef")
@@ -907,7 +1009,13 @@ class _Builder:
                     # shown as yes/no: spreadsheet apps show a stored TRUE/FALSE of a function they do not
                     # know as an error, while stored text shows as it is
                     text = f'IF({text},"yes","no")'
-                self.put(g, r, c, "=" + text, lambda fn=fn, fs=fs, fa=fa: call(fn, fs, fa, rs, ra), style=style,
+
+                def check(fn=fn, fs=fs, fa=fa):
+                    if fn != "IMPACT_FISHER":  # Fisher's p is defined (1) when nobody passes; the rest are not
+                        self.passes()
+                    return call(fn, fs, fa, rs, ra)
+
+                self.put(g, r, c, "=" + text, check, style=style,
                          key=f"{fn.lower()}_{name}")
         ratio_rng = f"E{first}:E{last}"
         g.set(last + 2, 1, "Lowest impact ratio")
@@ -918,7 +1026,19 @@ class _Builder:
             g.set(last + 3, 5, f'=COUNTIF(F{first}:F{last},"yes")', "count")
             self.cells["n_below"] = ("Impact", f"E{last + 3}")
         else:
-            self.na(g, last + 2, 5, "an impact ratio is not computable (see the table)", key="min_ratio")
+            self.na(g, last + 2, 5, self.cut_message or "an impact ratio is not computable (see the table)",
+                    key="min_ratio")
+        at = last + 5
+        at += g.para(at, 1, f"Applicants and Selected count the rows of the Bands sheet by group number (Bands column "
+                            f"{self.group_col}: group 1 is the first row of this table, and so on); people with a "
+                            f"blank group are in no group.", width=150)
+        merged = [f"{', '.join(repr(x) for x in raw)} counted as {name!r}"
+                  for name, raw in d.group_tally.merged.items()]
+        if merged:
+            at += g.para(at, 1, "Labels that differ only in letter case or spacing are one group: "
+                                + "; ".join(merged) + ".", width=150)
+        if d.group_tally.blank:
+            g.para(at, 1, f"{d.group_tally.blank} row(s) have a blank group (listed on Notes).", width=150)
         g.charts.append((charts.selection_rates(charts.area("Impact", "A", first, "A", last),
                                                 charts.area("Impact", "D", row, "D", last),
                                                 charts.area("Impact", "J", row, "J", last)), f"A{chart_row}"))
@@ -1010,18 +1130,18 @@ class _Builder:
         g.set(12, 1, "Results", "heading")
         g.set(13, 1, "Success rate among those selected (Taylor–Russell)")
         self.put(g, 13, 2, "=TAYLOR_RUSSELL(B4,B6,B5)",
-                 lambda: call("TAYLOR_RUSSELL", self.value("validity_used"), self.value("base_rate"),
+                 lambda: self.passes() or call("TAYLOR_RUSSELL", self.value("validity_used"), self.value("base_rate"),
                               self.value("selection_ratio")), style="pct", key="taylor_russell")
         g.set(14, 1, "Gain in success rate over hiring without the test")
         self.put(g, 14, 2, "=B13-B6", lambda: self.value("taylor_russell") - self.value("base_rate"), style="pct",
                  key="success_gain")
         g.set(15, 1, "Mean standard criterion score of those selected (Naylor–Shine)")
         self.put(g, 15, 2, "=NAYLOR_SHINE(B4,B5)",
-                 lambda: call("NAYLOR_SHINE", self.value("validity_used"), self.value("selection_ratio")),
+                 lambda: self.passes() or call("NAYLOR_SHINE", self.value("validity_used"), self.value("selection_ratio")),
                  style="coef", key="naylor_shine")
         g.set(16, 1, "Money gain over the tenure of one year's hires, less testing cost (Brogden–Cronbach–Gleser)")
         self.put(g, 16, 2, "=BCG_UTILITY(B7,B8,B4,B9,B5,B10)",
-                 lambda: call("BCG_UTILITY", 20, 3, self.value("validity_used"), 19200,
+                 lambda: self.passes() or call("BCG_UTILITY", 20, 3, self.value("validity_used"), 19200,
                               self.value("selection_ratio"), 40), style="money", key="bcg")
         g.para(18, 1, "Utility figures rest on assumptions (validity, performance value, tenure) that the inputs "
                      "state; treat them as orders of magnitude, not forecasts.")
@@ -1085,9 +1205,12 @@ class _Builder:
             else:
                 self.na(g, r, 2, "not part of this study (see Notes)")
             r += 1
-        g.para(r + 1, 1, "Every number is a formula: click it to see how it was computed. The sheets Reliability, "
-                        "Items, Raters, Validity, Bands, Impact and Utility hold the detail; Notes lists the methods "
-                        "and references.")
+        r += 1 + g.para(r + 1, 1, "Every number is a formula: click it to see how it was computed. The sheets "
+                                 "Reliability, Items, Raters, Validity, Bands, Impact and Utility hold the detail; "
+                                 "Notes lists the methods and references.")
+        if d.problems:
+            g.para(r + 1, 1, f"{len(d.problems)} problem(s) were found in the data (values outside the item scale, "
+                             f"duplicate ids, blank groups and the like); the Notes sheet lists each cell.", "caution")
         self.summary_last = r + 1
 
     def _summary_value(self, g, r, c, key, formula, style):
@@ -1120,22 +1243,31 @@ class _Builder:
              f"trueband's recalculation and are stored with the formulas.", "wrap"),
         ]
         lines += [(n, "wrap") for n in self.notes]
+        if d.problems:
+            lines.append(("Problems in the data (check these cells)", "heading"))
+            lines += [(n, "wrap") for n in d.problems]
         lines += [
             ("Conventions", "heading"),
             ("A person's score is the sum of their item scores (a blank item counts 0); a person with no item "
              "answered has no score. The item statistics use only people who answered every item (listwise "
              "deletion).", "wrap"),
+            ("Item statistics are those of the scores after reverse keying (minimum + maximum of the item scale − "
+             "response for the reverse-keyed items); the flags of 0/1 items use the proportion correct, those of "
+             "rating-scale items the mean's place on the scale and the standard deviation.", "wrap"),
             ("Standard deviations use the n − 1 denominator (STDEV). Intervals are two-sided at the confidence on the "
              "Setup sheet.", "wrap"),
             ("Range restriction: the restricted group is the people with a criterion value; the unrestricted group "
              "is every applicant with a score.", "wrap"),
+            ("Group labels that differ only in letter case or spacing ('Group A', ' group a') are one group; a "
+             "blank group label puts the person in no group. Labels are matched through a group number on the Bands "
+             "sheet, so a label such as '<40' is counted as written.", "wrap"),
             ("Adverse impact compares each group's selection rate at the cut with the reference group's rate. The "
              "four-fifths rule of thumb is that of the Uniform Guidelines, 29 CFR 1607.4(D); z is the pooled "
              "two-proportion z test (positive when the group's rate is lower); Fisher p is two-sided.", "wrap"),
             ("Methods and references", "heading"),
         ]
         used = ["CRONBACH_ALPHA", "ALPHA_CI", "KR20", "SPLIT_HALF", "OMEGA", "SEM", "SED", "BAND_WIDTH",
-                "SCORE_CI", "SCORE_BAND", "ITEM_DIFFICULTY", "ITEM_TOTAL", "ALPHA_IF_DELETED", "ICC",
+                "SCORE_CI", "SCORE_BAND", "ITEM_DIFFICULTY", "ITEM_SD", "ITEM_TOTAL", "ALPHA_IF_DELETED", "ICC",
                 "KRIPPENDORFF_ALPHA", "COHEN_KAPPA", "R_CI", "R_PVALUE", "DISATTENUATE", "RANGE_CORRECT",
                 "OPERATIONAL_VALIDITY", "RANGE_CORRECT_INDIRECT", "MAX_VALIDITY", "SELECTION_RATE", "IMPACT_RATIO",
                 "FOUR_FIFTHS", "IMPACT_Z", "IMPACT_FISHER", "IMPACT_SHORTFALL", "TAYLOR_RUSSELL", "NAYLOR_SHINE",
@@ -1179,9 +1311,21 @@ class _Builder:
                 continue  # the rows are spliced in by study_xml after saving
             self.grids[title].write(wb)
         self.grids[SETUP_SHEET].write(wb)
+        if self.d.reverse_items:
+            ws = wb.create_sheet(SCORED_SHEET)
+            ws.freeze_panes = "A2"
+            ws.append([_styled(ws, self.d.header[c] + (" (reversed)" if j in self.d.reverse_items else ""),
+                               "header") for j, c in enumerate(self.d.item_columns)])
         ws = wb.create_sheet(self.d.sheet)
         ws.freeze_panes = "A2"
-        ws.append([_styled(ws, h, "header") for h in self.d.header])
+        # the header as written in the source (not trimmed), and the source's number formats (dates stay dates)
+        ws.append([_styled(ws, h, "header") for h in (self.d.raw_header or self.d.header)])
+        style_of: dict[str, int] = {}
+        for code in sorted(set(self.d.formats.values())):
+            cell = WriteOnlyCell(ws)
+            cell.number_format = code
+            style_of[code] = cell.style_id
+        self.copy_styles = _CopyStyles(self.d.formats, style_of)
         return wb
 
     def save(self, path: Path):
@@ -1189,12 +1333,36 @@ class _Builder:
         self.workbook().save(path)
         d = self.d
         last = d.n + 1
-        study_xml.splice_rows(
-            path,
-            {"Bands": lambda: study_xml.rows_xml(self.bands_rows(), 2, formulas=True),
-             d.sheet: lambda: study_xml.rows_xml(d.rows, 2, formulas=False)},
-            {"Bands": f"{get_column_letter(len(self.bands_header))}{last}",
-             d.sheet: f"{get_column_letter(max(1, len(d.header)))}{last}"})
+        rows = {"Bands": lambda: study_xml.rows_xml(self.bands_rows(), 2, formulas=True),
+                d.sheet: lambda: study_xml.rows_xml(d.rows, 2, formulas=False, styles=self.copy_styles)}
+        corners = {"Bands": f"{get_column_letter(len(self.bands_header))}{last}",
+                   d.sheet: f"{get_column_letter(max(1, len(d.header)))}{last}"}
+        if d.reverse_items:
+            rows[SCORED_SHEET] = lambda: study_xml.rows_xml(self.scored_rows(), 2, formulas=True)
+            corners[SCORED_SHEET] = f"{get_column_letter(len(d.item_columns))}{last}"
+        study_xml.splice_rows(path, rows, corners)
+
+
+class _CopyStyles(Mapping):
+    """(sheet row, 0-based column) -> style index of the copy, looked up through the source's formats
+    (no second per-cell table: a source may style every cell)."""
+
+    def __init__(self, formats: Mapping[tuple[int, int], str], style_of: Mapping[str, int]):
+        self.formats, self.style_of = formats, style_of
+
+    def __getitem__(self, key):
+        r, c = key
+        return self.style_of[self.formats[(r - 2, c)]]
+
+    def __contains__(self, key):
+        r, c = key
+        return (r - 2, c) in self.formats
+
+    def __iter__(self):
+        return ((i + 2, c) for i, c in self.formats)
+
+    def __len__(self):
+        return len(self.formats)
 
 
 def _degenerate(x: np.ndarray | None) -> bool:
@@ -1215,7 +1383,7 @@ def build_study(data: StudyData, path: str | Path) -> StudyResult:
     builder.plan()
     builder.save(Path(path))
     return StudyResult(path=Path(path), cells=builder.cells, not_computable=builder.not_computable,
-                       notes=builder.notes)
+                       notes=builder.notes, problems=list(data.problems), cut_message=builder.cut_message)
 
 
 def make_study(data_path: str | Path, out_path: str | Path, overrides: Mapping[str, Any] | None = None, *,

@@ -89,18 +89,20 @@ def selection_rates(groups: Reference, rates: Reference, line: Reference) -> Bar
     return bars
 
 
-def item_map(difficulty: Reference, discrimination: Reference) -> ScatterChart:
-    """Each item's difficulty (proportion correct) against its corrected item-total correlation."""
+def item_map(difficulty: Reference, discrimination: Reference, *, binary: bool = True,
+             scale: tuple[float, float] = (0.0, 1.0)) -> ScatterChart:
+    """Each item's difficulty (proportion correct; for rating-scale items the mean, on an axis spanning
+    the item scale) against its corrected item-total correlation."""
     chart = ScatterChart()
-    chart.title = "Item difficulty against discrimination"
+    chart.title = "Item difficulty against discrimination" if binary else "Item mean against discrimination"
     chart.scatterStyle = "marker"
     chart.style = 13
     series = Series(discrimination, difficulty, title="Items")
     _points_only(series)
     chart.series.append(series)
-    chart.x_axis.scaling.min = 0
-    chart.x_axis.scaling.max = 1
-    _axes(chart, "Difficulty (proportion correct)", "Corrected item-total correlation")
+    chart.x_axis.scaling.min = scale[0]
+    chart.x_axis.scaling.max = scale[1]
+    _axes(chart, "Difficulty (proportion correct)" if binary else "Mean item score",
+          "Corrected item-total correlation")
     chart.legend = None
     return chart
-

@@ -21,6 +21,8 @@ from xml.sax.saxutils import escape
 
 from openpyxl.utils import get_column_letter
 
+from .sheet_xml import ErrorValue
+
 __all__ = ["rows_xml", "splice_rows", "sheet_parts"]
 
 _ILLEGAL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f]")
@@ -33,9 +35,11 @@ def _text(value: str) -> str:
     return f"<is><t{space}>{escape(value)}</t></is>"
 
 
-def rows_xml(rows: Iterable[list], first_row: int, *, formulas: bool) -> Iterator[str]:
+def rows_xml(rows: Iterable[list], first_row: int, *, formulas: bool,
+             styles: Mapping[tuple[int, int], int] | None = None) -> Iterator[str]:
     """``<row>`` elements for ``rows`` starting at ``first_row``; with ``formulas``, text starting
-    with ``=`` is a formula, otherwise all text is text."""
+    with ``=`` is a formula, otherwise all text is text. ``styles`` maps (row, 0-based column) to
+    the style index a cell is written with (a date keeps its date format)."""
     letters: list[str] = []
     for r, row in enumerate(rows, start=first_row):
         while len(letters) < len(row):
@@ -45,6 +49,8 @@ def rows_xml(rows: Iterable[list], first_row: int, *, formulas: bool) -> Iterato
             if value is None:
                 continue
             ref = f"{letters[c]}{r}"
+            if styles and (r, c) in styles:
+                ref += f'" s="{styles[(r, c)]}'  # the attribute rides on the reference
             if isinstance(value, bool):
                 parts.append(f'<c r="{ref}" t="b"><v>{int(value)}</v></c>')
             elif isinstance(value, int):
@@ -52,6 +58,8 @@ def rows_xml(rows: Iterable[list], first_row: int, *, formulas: bool) -> Iterato
             elif isinstance(value, float):
                 if math.isfinite(value):
                     parts.append(f'<c r="{ref}"><v>{value!r}</v></c>')
+            elif isinstance(value, ErrorValue):  # a formula's error result in the source stays an error
+                parts.append(f'<c r="{ref}" t="e"><v>{escape(str(value))}</v></c>')
             elif isinstance(value, str):
                 if formulas and value.startswith("="):
                     parts.append(f'<c r="{ref}"><f>{escape(value[1:])}</f></c>')

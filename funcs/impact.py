@@ -9,6 +9,7 @@ spreadsheet name      Python function                              what it gives
 ``IMPACT_Z``          :func:`impact_z`                             pooled two-proportion z (> 0: focal lower)
 ``IMPACT_FISHER``     :func:`impact_fisher`                        two-sided Fisher exact p
 ``IMPACT_SHORTFALL``  :func:`impact_shortfall`                     extra focal selections to reach a ratio
+(Python only)         :func:`group_key`, :func:`tally_groups`      which group a label names; counts by group
 ====================  ==========================================  ===========================================
 
 **Caution.** Adverse impact figures are statistical indicators, not legal
@@ -30,17 +31,26 @@ Conventions
 * The four-fifths comparison and the shortfall are computed in exact integer
   arithmetic, so a ratio of exactly 0.8 is never pushed across the line by
   floating-point error.
+* Group labels: wherever trueband counts people by group from a column of
+  labels (the validation study, :func:`tally_groups`), two labels name the
+  same group when they differ only in letter case or in spaces around or
+  between words: ``"Group A"``, ``"group a"`` and ``" Group  A "`` are one
+  group (:func:`group_key`: spaces trimmed and collapsed, then Unicode case
+  folding). A blank label belongs to no group. Numbers are labels too
+  (``2`` and ``2.0`` are one group).
 """
 
 from __future__ import annotations
 
+import dataclasses
+from collections import Counter
 from fractions import Fraction
 
 import numpy as np
 
 from . import _validate as v
 from ._lazy import lazy_module
-from .errors import DomainError, ZeroVarianceError
+from .errors import ArgumentTypeError, DomainError, ZeroVarianceError
 from .registry import spreadsheet
 
 # scipy.stats and scipy.optimize are slow to import: load them on first use (see _lazy)
@@ -55,6 +65,9 @@ __all__ = [
     "impact_shortfall",
     "EXACT_TEST_MAX_APPLICANTS",
     "CAUTION",
+    "group_key",
+    "tally_groups",
+    "GroupTally",
 ]
 
 #: The caution shown wherever impact figures are shown (catalog, README, reports).
@@ -500,3 +513,110 @@ def impact_shortfall(focal_selected: int, focal_applicants: int, ref_selected: i
         a, b, c, d, t = (col[i] for col in cols)
         out[i] = _shortfall(int(a), int(b), int(c), int(d), _exact_target(t))
     return out
+
+
+# ---------------------------------------------------------------- counting by group
+
+def group_key(label) -> str | None:
+    """The group a label names: surrounding and repeated spaces removed, case folded; None for a blank.
+
+    Labels that differ only in letter case or spacing name one group (a data
+    entry slip, not a different group of people). A whole-number float is the
+    same label as the integer (``2.0`` is ``"2"``); logical values are refused.
+
+    Examples
+    --------
+    >>> group_key("  Group  A ") == group_key("group a")
+    True
+    >>> group_key(2.0), group_key(" "), group_key(None)
+    ('2', None, None)
+    """
+    if label is None:
+        return None
+    if isinstance(label, (bool, np.bool_)):
+        raise ArgumentTypeError(f"a group label must be text or a number, got {label!r}", argument="groups")
+    if isinstance(label, (float, np.floating)):
+        if label != label:  # NaN: a blank cell
+            return None
+        if float(label).is_integer():
+            label = int(label)
+    text = " ".join(str(label).split())
+    return text.casefold() or None
+
+
+@dataclasses.dataclass(frozen=True)
+class GroupTally:
+    """People counted by group: ``names`` in sorted order, ``applicants[name]`` and ``selected[name]``,
+    ``merged[name]`` the distinct raw labels (as written) counted as that group when there is more than
+    one, and ``blank`` the number of blank labels (counted in no group)."""
+
+    names: tuple[str, ...]
+    applicants: dict[str, int]
+    selected: dict[str, int]
+    merged: dict[str, tuple[str, ...]]
+    blank: int
+    label_of: dict[str, str]   # group key -> the name shown
+
+    def name(self, label) -> str | None:
+        """The group name shown for a raw label (None for a blank or an unseen label)."""
+        key = group_key(label)
+        return None if key is None else self.label_of.get(key)
+
+
+def tally_groups(labels, selected=None) -> GroupTally:
+    """Count applicants (and, with ``selected``, the selected) by group, merging labels as :func:`group_key` does.
+
+    Parameters
+    ----------
+    labels : sequence
+        One group label per applicant (text or a number; ``None`` or blank
+        text for no group).
+    selected : sequence of bool, optional
+        Whether each applicant was selected; same length as ``labels``.
+
+    Notes
+    -----
+    Each group is shown under the spelling of its label that occurs most
+    often (trimmed; on a tie, the one seen first), so a group keeps the name
+    most of its rows use.
+
+    Examples
+    --------
+    >>> t = tally_groups(["A", "a ", "B", None], [True, False, True, True])
+    >>> t.names, t.applicants, t.selected, t.merged, t.blank
+    (('A', 'B'), {'A': 2, 'B': 1}, {'A': 1, 'B': 1}, {'A': ('A', 'a ')}, 1)
+    """
+    labels = list(labels)
+    sel = [False] * len(labels) if selected is None else [bool(x) for x in selected]
+    if len(sel) != len(labels):
+        raise ArgumentTypeError(f"selected must have one entry per label ({len(labels)}), got {len(sel)}",
+                                argument="selected")
+    spellings: dict[str, Counter] = {}
+    raw: dict[str, list[str]] = {}
+    keys = []
+    for label in labels:
+        key = group_key(label)
+        keys.append(key)
+        if key is None:
+            continue
+        shown = label if isinstance(label, str) else str(int(label)) if (
+            isinstance(label, (float, np.floating)) and float(label).is_integer()) else str(label)
+        spellings.setdefault(key, Counter())[" ".join(shown.split())] += 1
+        seen = raw.setdefault(key, [])
+        if shown not in seen:
+            seen.append(shown)
+    # Counter.most_common keeps first-seen order among equal counts
+    label_of = {key: c.most_common(1)[0][0] for key, c in spellings.items()}
+    applicants: dict[str, int] = {}
+    chosen: dict[str, int] = {}
+    for key, s in zip(keys, sel):
+        if key is None:
+            continue
+        name = label_of[key]
+        applicants[name] = applicants.get(name, 0) + 1
+        chosen[name] = chosen.get(name, 0) + int(s)
+    names = tuple(sorted(applicants, key=lambda n: (n.casefold(), n)))
+    merged = {label_of[k]: tuple(v) for k, v in raw.items() if len(v) > 1}
+    return GroupTally(names=names, applicants={n: applicants[n] for n in names},
+                      selected={n: chosen[n] for n in names}, merged=merged,
+                      blank=sum(k is None for k in keys), label_of=label_of)

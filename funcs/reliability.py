@@ -14,6 +14,7 @@ spreadsheet name        Python function                              what it giv
 ``LENGTH_FACTOR``       :func:`length_factor`                        n needed to reach a target reliability
 ``OMEGA``               :func:`omega_total`                          McDonald's omega total, one-factor ML model
 ``ITEM_DIFFICULTY``     :func:`item_difficulty`                      mean item score (proportion correct for 0/1)
+``ITEM_SD``             :func:`item_standard_deviation`              standard deviation of one item's scores
 ``ITEM_TOTAL``          :func:`item_total_correlation`               item against the total of the other items
 ``ALPHA_IF_DELETED``    :func:`alpha_if_deleted`                     alpha of the other items
 ======================  ==========================================  ==========================================
@@ -67,6 +68,7 @@ __all__ = [
     "one_factor_ml",
     "OneFactorFit",
     "item_difficulty",
+    "item_standard_deviation",
     "item_total_correlation",
     "alpha_if_deleted",
 ]
@@ -635,6 +637,43 @@ def item_difficulty(items: Range, item: int) -> float:
     """
     x, j = _item_and_rows(items, item, min_people=1, min_items=1)
     return float(x[:, j].mean())
+
+
+@spreadsheet("ITEM_SD", returns="nonnegative number",
+             reference="Crocker, L. & Algina, J. (1986). Introduction to Classical and Modern Test Theory, "
+                       "ch. 14 (item variance); the n - 1 denominator as in STDEV.")
+def item_standard_deviation(items: Range, item: int) -> float:
+    """Standard deviation of the scores on one item, over the same people as the other item statistics.
+
+    s = √( Σ (xᵢⱼ − x̄ⱼ)² / (n − 1) ) over the n people with complete rows
+
+    For rating-scale (Likert) items it says how much the answers spread; for
+    0/1 items it is √(p(1 − p) · n/(n − 1)).
+
+    Parameters
+    ----------
+    items : range
+        Item scores, one row per person and one column per item; at least 2
+        complete rows. Rows with a blank anywhere are left out (listwise
+        deletion, as every item statistic of the range); text is refused.
+    item : int
+        Column number of the item within the range, from 1.
+
+    Notes
+    -----
+    The n − 1 (sample) denominator, as the spreadsheet's STDEV; over the
+    complete rows only, so it can differ from STDEV of the item's column
+    when other items have blanks.
+
+    Examples
+    --------
+    >>> round(item_standard_deviation([[1, 2], [3, 4], [5, 1], [4, 4]], 1), 6)
+    1.707825
+    """
+    x, j = _item_and_rows(items, item, min_people=2, min_items=1)
+    col = x[:, j]
+    dev = col - col.mean()  # two passes: centre, then square
+    return float(np.sqrt(dev @ dev / (col.size - 1)))
 
 
 @spreadsheet("ITEM_TOTAL", returns="correlation",

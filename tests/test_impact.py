@@ -322,3 +322,37 @@ def test_bodies_compute_whole_columns_of_counts(name, monkeypatch):
         else:
             assert got[i] == pytest.approx(want, rel=1e-12, abs=0), (i, got[i], want)
             assert type(got[i]) is type(want), (i, got[i], want)
+
+
+# ---------------------------------------------------------------- counting by group
+
+def test_tally_groups_merges_labels_as_documented_and_agrees_with_pandas():
+    """Labels differing only in case or spacing are one group (the convention in funcs/impact.py);
+    the counts are checked against pandas grouping on the stripped, space-collapsed, casefolded label."""
+    import pandas as pd
+
+    from trueband.funcs.impact import group_key, tally_groups
+
+    labels = ["Group A", " group a", "GROUP  A ", "Group B", "group b", None, "  ", 2, 2.0, "Straße", "STRASSE"]
+    selected = [True, False, True, False, True, True, False, True, False, True, True]
+    t = tally_groups(labels, selected)
+    df = pd.DataFrame({"label": [x if isinstance(x, str) else None if x is None else str(int(x)) for x in labels],
+                       "selected": selected})
+    df["key"] = df["label"].str.split().str.join(" ").str.casefold().replace("", None)
+    expected = df.dropna(subset=["key"]).groupby("key")["selected"].agg(["size", "sum"])
+    assert {group_key(n): (t.applicants[n], t.selected[n]) for n in t.names} == {
+        k: (int(r["size"]), int(r["sum"])) for k, r in expected.iterrows()}
+    assert t.blank == 2
+    assert t.merged["Group A"] == ("Group A", " group a", "GROUP  A ")
+    assert t.names == ("2", "Group A", "Group B", "Straße")  # casefold: "ß" is "ss" (Unicode case folding)
+    assert t.name(" GROUP b ") == "Group B" and t.name("Group C") is None
+
+
+def test_tally_groups_refuses_logical_labels_and_mismatched_lengths():
+    from trueband.funcs.errors import ArgumentTypeError
+    from trueband.funcs.impact import tally_groups
+
+    with pytest.raises(ArgumentTypeError, match="group label"):
+        tally_groups(["A", True])
+    with pytest.raises(ArgumentTypeError, match="selected"):
+        tally_groups(["A", "B"], [True])

@@ -359,6 +359,29 @@ def test_item_difficulty_is_the_item_mean_of_complete_rows():
         assert call("ITEM_DIFFICULTY", as_cells(data), j) == pytest.approx(complete[col].mean(), rel=1e-12)
 
 
+def test_item_sd_against_pandas_and_statistics_on_rating_items():
+    # ITEM_SD: the n - 1 standard deviation of one item over the complete rows (listwise deletion, as
+    # documented); references: pandas Series.std (ddof=1) and the standard library's statistics.stdev.
+    import statistics
+
+    data = real_statistics_ratings()
+    for j, col in enumerate(data.columns, start=1):
+        got = call("ITEM_SD", as_cells(data), j)
+        assert got == pytest.approx(data.dropna()[col].std(ddof=1), rel=1e-12)
+        assert got == pytest.approx(statistics.stdev(data.dropna()[col].tolist()), rel=1e-12)
+    blanks = binary_with_blanks()
+    for j, col in enumerate(blanks.columns, start=1):
+        assert call("ITEM_SD", as_cells(blanks), j) == pytest.approx(blanks.dropna()[col].std(ddof=1), rel=1e-12)
+
+
+def test_item_sd_needs_two_complete_rows_and_a_valid_item():
+    with raises_code("#N/A", "items"):
+        call("ITEM_SD", [[1, 2], [3, None]], 1)
+    with raises_code("#NUM!", "item", match="between 1 and 2, got 3"):
+        call("ITEM_SD", [[1, 2], [3, 4]], 3)
+    assert call("ITEM_SD", [[2, 1], [2, 5], [2, 3]], 1) == 0.0  # no spread is a spread of 0, not an error
+
+
 def test_item_total_against_pandas():
     # Corrected item-total correlation: the item against the sum of the other items (Crocker & Algina
     # 1986, ch. 14); reference: pandas Series.corr on the bundled ratings.
@@ -499,7 +522,7 @@ def test_item_functions_leave_the_callers_array_alone():
     x = np.round(rng.normal(3, 1, size=(60, 6)))
     before = x.copy()
     for name, extra in [("CRONBACH_ALPHA", ()), ("OMEGA", ()), ("ALPHA_IF_DELETED", (2,)), ("ITEM_TOTAL", (3,)),
-                        ("SPLIT_HALF", ()), ("ITEM_DIFFICULTY", (1,))]:
+                        ("SPLIT_HALF", ()), ("ITEM_DIFFICULTY", (1,)), ("ITEM_SD", (2,))]:
         call(name, x, *extra)
         np.testing.assert_array_equal(x, before, err_msg=name)
 

@@ -126,8 +126,13 @@ def test_item_analysis_against_pandas(study, demo):
             pingouin.cronbach_alpha(rest, nan_policy="listwise")[0], abs=1e-10)
     # the item made weak on purpose in the demo is flagged
     _, wb, _ = study
-    flags = {wb["Items"].cell(r, 1).value: wb["Items"].cell(r, 5).value for r in range(7, 47)}
+    flags = {wb["Items"].cell(r, 1).value: wb["Items"].cell(r, 6).value for r in range(7, 47)}
+    assert wb["Items"]["F6"].value == "Flag"
     assert flags["Q13"] == "weak discrimination"
+    assert flags["Q27"] == "very easy"  # made very easy on purpose in the demo
+    # standard deviation of a 0/1 item: pandas' n - 1 SD
+    for j in (0, 26):
+        assert value(study, f"item{j + 1}_sd") == pytest.approx(x[j].std(ddof=1), abs=1e-12)
 
 
 def test_rater_agreement_against_pingouin_and_krippendorff(study, demo):

@@ -75,6 +75,33 @@ def test_cut_that_selects_nobody(tmp_path):
     assert result.recalc_report.ok
 
 
+def test_cut_above_the_highest_possible_score_says_so_plainly(tmp_path, capsys):
+    # six 0/1 items: the highest possible score is 6
+    header, rows = small_table(n=40)
+    book = write_book(tmp_path / "d.xlsx", header, rows, {**SETUP, "cut score": 45})
+    code = cli.main(["study", str(book), "-o", str(tmp_path / "s.xlsx")])
+    out = capsys.readouterr().out
+    assert code == cli.EXIT_OK
+    plain = "the cut score, 45, is above the highest possible score, 6 (6 items scored 0 to 1), so nobody can pass"
+    assert plain in out
+    wb = load_workbook(tmp_path / "s.xlsx", data_only=True)
+    shown = [str(c.value) for name in ("Utility", "Impact", "Summary", "Notes") for row in wb[name].iter_rows()
+             for c in row if c.value is not None]
+    assert not [t for t in shown if "1e-12" in t or "selection_ratio" in t]
+    assert wb["Utility"]["B13"].value == NOT_COMPUTABLE + plain + "; set a lower cut score on the Setup sheet (or --cut)"
+    assert plain in " ".join(shown)
+
+
+def test_cut_above_every_score_but_not_the_possible_maximum(tmp_path):
+    header, rows = small_table(n=40)
+    for r in rows:
+        r[7] = 0  # nobody answers item 6: the highest score in the data is at most 5, the possible maximum 6
+    top = max(sum(r[2:8]) for r in rows)
+    result, wb = build(tmp_path, header, rows, {**SETUP, "cut score": 5.5})
+    assert result.cut_message.startswith(f"nobody reaches the cut score, 5.5: the highest score in the data is {top}")
+    assert cell(result, wb, "taylor_russell") == NOT_COMPUTABLE + result.cut_message
+
+
 def test_optional_columns_absent(tmp_path):
     header, rows = small_table(n=40)
     setup = {"item columns": "i1:i6"}

@@ -1,0 +1,233 @@
+"""Data a study can use but that look wrong, and group labels that differ only in case or spacing.
+
+Each doubtful cell is reported in one line naming the sheet and the cell (on the Notes sheet and on
+stderr); common codings of the hired column are understood; labels such as "Group A" and
+" group a" are one group, and the Impact sheet's counts agree with an independent count made
+here with pandas (strip + casefold, the convention documented in funcs/impact.py). The data are
+small random tables generated in the tests; no check value is invented.
+"""
+
+from __future__ import annotations
+
+import datetime
+
+import numpy as np
+import pandas as pd
+import pytest
+from openpyxl import Workbook, load_workbook
+
+from test_study_setup import SETUP, small_table, write_book
+from trueband.bridge import cli
+from trueband.bridge.study_build import make_study
+
+
+def build(tmp_path, header, rows, setup, name="study.xlsx"):
+    book = write_book(tmp_path / "d.xlsx", header, rows, setup)
+    result = make_study(book, tmp_path / name)
+    return result, load_workbook(result.path, data_only=True)
+
+
+def sheet_text(ws) -> str:
+    return " ".join(str(c.value) for row in ws.iter_rows() for c in row if c.value is not None)
+
+
+def impact_table(wb) -> dict[str, tuple[int, int]]:
+    """Group -> (applicants, selected) as the Impact sheet shows them."""
+    ws = wb["Impact"]
+    head = next(r for r in range(1, 40) if ws.cell(r, 1).value == "Group")
+    out = {}
+    r = head + 1
+    while ws.cell(r, 1).value not in (None, ""):
+        out[ws.cell(r, 1).value] = (ws.cell(r, 2).value, ws.cell(r, 3).value)
+        r += 1
+    return out
+
+
+# ---------------------------------------------------------------- group labels
+
+def test_labels_differing_in_case_or_spaces_are_one_group(tmp_path):
+    header, rows = small_table(n=60, seed=5)
+    spellings = ["Group A", "group a ", " GROUP A", "Group B", "group  b", "Group B "]
+    for i, r in enumerate(rows):
+        r[1] = spellings[i % 6]
+    result, wb = build(tmp_path, header, rows, SETUP)
+    table = impact_table(wb)
+    assert sorted(table) == ["Group A", "Group B"]
+    # independent count: pandas, labels stripped, inner spaces collapsed, case folded
+    df = pd.DataFrame(rows, columns=header)
+    df["score"] = df[[f"i{j}" for j in range(1, 7)]].sum(axis=1)
+    df["key"] = df["group"].str.split().str.join(" ").str.casefold()
+    for name, (applicants, selected) in table.items():
+        member = df[df["key"] == name.casefold()]
+        assert applicants == len(member)
+        assert selected == int((member["score"] >= SETUP["cut score"]).sum())
+    assert sum(a for a, _ in table.values()) == len(rows)
+    text = sheet_text(wb["Impact"])
+    assert "'group a ', ' GROUP A'" in text and "counted as 'Group A'" in text
+    assert result.recalc_report.ok, [tuple(e) for e in result.recalc_report.errors]
+
+
+def test_labels_that_look_like_conditions_are_counted_exactly(tmp_path):
+    # a spreadsheet's COUNTIF reads "<40" as "less than 40" and "A*" as a wildcard
+    header, rows = small_table(n=40, seed=8)
+    for i, r in enumerate(rows):
+        r[1] = ("<40", "40 or over", "A*", "AB")[i % 4]
+    result, wb = build(tmp_path, header, rows, SETUP)
+    table = impact_table(wb)
+    assert {k: v[0] for k, v in table.items()} == {"<40": 10, "40 or over": 10, "A*": 10, "AB": 10}
+    assert result.recalc_report.ok
+
+
+def test_reference_group_setting_is_matched_like_the_labels(tmp_path):
+    header, rows = small_table(n=40)
+    result, wb = build(tmp_path, header, rows, {**SETUP, "reference group": " b "})
+    assert "B" in impact_table(wb)
+    assert wb["Impact"].cell(next(r for r in range(1, 40) if str(wb["Impact"].cell(r, 1).value).startswith(
+        "Reference group")), 3).value == "B"
+
+
+# ---------------------------------------------------------------- the hired column
+
+def test_hired_codings_are_understood(tmp_path):
+    header, rows = small_table(n=40)
+    header = header + ["hired"]
+    codes = ["Y", "n", " yes ", "NO", "TRUE", "false", 1, 0, True, False]
+    hired_truth = [True, False, True, False, True, False, True, False, True, False]
+    for i, r in enumerate(rows):
+        r.append(codes[i % 10])
+    result, wb = build(tmp_path, header, rows, {**SETUP, "hired column": "hired"})
+    expected = sum(hired_truth[i % 10] for i in range(len(rows)))
+    assert wb["Validity"]["A4"].value.startswith("People hired")
+    assert wb["Validity"]["B4"].value == expected == 20
+    assert result.problems == []
+
+
+def test_unreadable_hired_value_is_reported_not_refused(tmp_path, capsys):
+    header, rows = small_table(n=40)
+    header = header + ["hired"]
+    for i, r in enumerate(rows):
+        r.append("yes" if i % 2 else "no")
+    rows[6][-1] = "maybe"
+    book = write_book(tmp_path / "d.xlsx", header, rows, {**SETUP, "hired column": "hired"})
+    code = cli.main(["study", str(book), "-o", str(tmp_path / "s.xlsx")])
+    err = capsys.readouterr().err
+    assert code == cli.EXIT_OK
+    line = next(x for x in err.splitlines() if "'maybe'" in x)
+    assert "sheet 'Candidates', cell J8" in line and "not counted as hired" in line
+    wb = load_workbook(tmp_path / "s.xlsx", data_only=True)
+    assert wb["Validity"]["B4"].value == 20
+    assert "cell J8" in sheet_text(wb["Notes"])
+
+
+# ---------------------------------------------------------------- other doubtful cells
+
+def test_doubtful_cells_are_reported_one_line_each(tmp_path, capsys):
+    header, rows = small_table(n=40)
+    rows[3][4] = 2          # a 0/1 item (cell E5) holding 2
+    rows[9][0] = rows[8][0]  # the same id in A10 and A11
+    rows[12][1] = None       # a blank group (B14)
+    book = write_book(tmp_path / "d.xlsx", header, rows, SETUP)
+    code = cli.main(["study", str(book), "-o", str(tmp_path / "s.xlsx")])
+    err = [x for x in capsys.readouterr().err.splitlines() if x.startswith("data problem")]
+    assert code == cli.EXIT_OK
+    assert len(err) == 3, err
+    assert any("cell E5" in x and "'i3'" in x and "outside the item scale 0 to 1" in x for x in err)
+    assert any("cells A10, A11" in x and repr(rows[8][0]) in x for x in err)
+    assert any("cell B14" in x and "blank" in x for x in err)
+    study = load_workbook(tmp_path / "s.xlsx", data_only=True)
+    assert "3 problem(s) were found in the data" in sheet_text(study["Summary"])
+    notes = sheet_text(study["Notes"])
+    assert "Problems in the data" in notes
+    for cell in ("cell E5", "cells A10, A11", "cell B14"):
+        assert cell in notes
+
+
+def test_values_outside_a_given_scale(tmp_path):
+    rng = np.random.default_rng(11)
+    header = ["id", "group", *[f"L{j}" for j in range(1, 6)], "perf"]
+    rows = [[f"P{i}", "AB"[i % 2], *rng.integers(1, 6, 5).tolist(), None] for i in range(30)]
+    rows[4][3] = 7   # D6
+    rows[7][6] = 0   # G9
+    setup = {"id column": "id", "group column": "group", "item columns": "L1:L5", "cut score": 15,
+             "item scale minimum": 1, "item scale maximum": 5}
+    result, _ = build(tmp_path, header, rows, setup)
+    outside = [x for x in result.problems if "outside the item scale 1 to 5" in x]
+    assert len(outside) == 2
+    assert "cell D6" in outside[0] and "7 is outside" in outside[0]
+    assert "cell G9" in outside[1] and "0 is outside" in outside[1]
+
+
+def test_many_problems_of_one_kind_are_capped(tmp_path):
+    header, rows = small_table(n=60)
+    for i, r in enumerate(rows):
+        if i % 2:
+            r[1] = None  # 30 blank group cells
+    result, _ = build(tmp_path, header, rows, SETUP)
+    blank = [x for x in result.problems if "blank" in x]
+    assert len(blank) == 26 and "5 more blank group cells" in blank[-1]  # 25 listed, then the rest counted
+
+
+# ---------------------------------------------------------------- the copy of the data
+
+def test_copy_keeps_dates_header_text_and_formula_values(tmp_path):
+    from trueband.bridge.recalc import recalculate
+
+    header, rows = small_table(n=30)
+    wb = Workbook()
+    ws = wb.active
+    ws.title = "Candidates"
+    ws.append([" id ", *header[1:], "applied", "total", 2026])
+    for i, r in enumerate(rows):
+        ws.append([*r, datetime.date(2026, 3, 1 + i), f"=SUM(C{i + 2}:H{i + 2})", f"=1/(C{i + 2}-C{i + 2})"])
+        ws.cell(i + 2, 10).number_format = "dd.mm.yyyy"
+    st = wb.create_sheet("Setup")
+    for k, v in SETUP.items():
+        st.append([k, v])
+    book = tmp_path / "d.xlsx"
+    wb.save(book)
+    recalculate(book, in_place=True)  # the formulas get stored values, as a spreadsheet app would store
+    result = make_study(book, tmp_path / "s.xlsx")
+    copy = load_workbook(result.path)["Candidates"]
+    assert [c.value for c in copy[1]] == [" id ", *header[1:], "applied", "total", 2026]
+    assert copy["J2"].is_date and copy["J2"].number_format == "dd.mm.yyyy"
+    values = load_workbook(result.path, data_only=True)["Candidates"]
+    assert values["J2"].value == datetime.datetime(2026, 3, 1)
+    assert [values.cell(i + 2, 11).value for i in range(30)] == [float(sum(r[2:8])) for r in rows]
+    assert values["L2"].value == "#DIV/0!" and copy["L2"].data_type == "e"
+
+
+def test_formulas_without_stored_values_are_reported(tmp_path):
+    # openpyxl writes formulas without computing them: the study cannot know their values
+    header, rows = small_table(n=30)
+    header = header + ["check"]
+    for i, r in enumerate(rows):
+        r.append(f"=C{i + 2}*2")
+    result, _ = build(tmp_path, header, rows, SETUP)
+    line = next(x for x in result.problems if "without a stored value" in x)
+    assert "column 'check'" in line and "30 formula cell(s)" in line and "J2, J3" in line
+    assert "recalculate the data workbook first" in line
+
+
+def test_numbers_and_logical_values_as_group_labels(tmp_path):
+    header, rows = small_table(n=40)
+    for i, r in enumerate(rows):
+        r[1] = (1, 1.0, "1 ", True, "true")[i % 5]  # 1, 1.0 and "1 " are one group; TRUE and "true" another
+    result, wb = build(tmp_path, header, rows, SETUP)
+    assert {k: v[0] for k, v in impact_table(wb).items()} == {"1": 24, "TRUE": 16}
+    assert result.recalc_report.ok
+
+
+def test_many_values_outside_the_scale_are_listed_then_counted(tmp_path):
+    # responses coded 0-4 while the Setup says 1-5: every 0 is outside the scale
+    rng = np.random.default_rng(2)
+    header = ["id", "group", *[f"L{j}" for j in range(1, 6)]]
+    rows = [[f"P{i}", "AB"[i % 2], *rng.integers(0, 5, 5).tolist()] for i in range(60)]
+    zeros = sum(v == 0 for r in rows for v in r[2:])
+    setup = {"id column": "id", "group column": "group", "item columns": "L1:L5", "cut score": 10,
+             "item scale minimum": 1, "item scale maximum": 5}
+    result, _ = build(tmp_path, header, rows, setup)
+    outside = [x for x in result.problems if "outside the item scale" in x]
+    assert zeros > 26 and len(outside) == 26
+    assert outside[-1].endswith(f"{zeros - 25} more values outside the item scale like those above (not listed)")
+    first = next((i, j) for i, r in enumerate(rows) for j, v in enumerate(r[2:]) if v == 0)
+    assert f"cell {'CDEFG'[first[1]]}{first[0] + 2} " in outside[0]  # listed from the top of the sheet down
