@@ -50,6 +50,7 @@ labels that differ only in letter case or spacing are one group.
 from __future__ import annotations
 
 import dataclasses
+import difflib
 import math
 import numbers
 from pathlib import Path
@@ -376,15 +377,32 @@ def _header_index(header: list[str], sheet: str):
     return index, dupes
 
 
+def whole_names(names: list[str], budget: int = 300) -> str:
+    """``names`` joined by commas, as many whole names as fit in about ``budget`` characters, then how many more.
+
+    >>> whole_names(["id", "group", "a long heading"], budget=12)
+    'id, group and 1 more'
+    """
+    shown, used = [], 0
+    for n in names:
+        if shown and used + len(n) > budget:
+            break
+        shown.append(n)
+        used += len(n) + 2
+    rest = len(names) - len(shown)
+    return ", ".join(shown) + (f" and {rest} more" if rest else "")
+
+
 def _resolve(name: str, setting: str, index, dupes, header, sheet: str) -> int:
     key = name.strip().lower()
     if key in dupes:
         raise SetupError(f"{setting}: sheet '{sheet}' has more than one column headed {name!r}; rename one")
     if key not in index:
-        shown = ", ".join(h for h in header if h)
-        if len(shown) > 300:
-            shown = shown[:300] + ", ..."
-        raise SetupError(f"{setting}: no column headed {name!r} in row 1 of sheet '{sheet}' (its columns: {shown})")
+        names = [str(h) for h in header if h]
+        close = difflib.get_close_matches(key, [n.strip().lower() for n in names], n=1, cutoff=0.6)
+        hint = next((f"; did you mean {n!r}?" for n in names if close and n.strip().lower() == close[0]), "")
+        raise SetupError(f"{setting}: no column headed {name!r} in row 1 of sheet '{sheet}'{hint} "
+                         f"(its columns: {whole_names(names)})")
     return index[key]
 
 

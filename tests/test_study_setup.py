@@ -170,3 +170,20 @@ def test_cli_reports_one_line_and_exit_2(tmp_path, capsys):
     assert code == cli.EXIT_FAILED
     assert "no column headed 'rating'" in err and "nothing was written" in err
     assert not (tmp_path / "s.xlsx").exists()
+
+
+def test_a_missing_column_lists_whole_headings_and_the_closest_one(tmp_path):
+    # Before: the list of headings was cut at 300 characters, mid-word. Headings are never cut now.
+    header, rows = small_table()
+    extra = [f"dispatch exercise part {j} rating" for j in range(1, 40)]
+    header = [*header, *extra]
+    rows = [[*r, *([3] * len(extra))] for r in rows]
+    book = write_book(tmp_path / "d.xlsx", header, rows, {**SETUP, "criterion column": "Perf."})
+    with pytest.raises(SetupError) as info:
+        make_study(book, tmp_path / "study.xlsx")
+    message = str(info.value)
+    assert "did you mean 'perf'?" in message
+    listed = message.split("(its columns: ", 1)[1].rstrip(")")
+    shown, more = listed.rsplit(" and ", 1)
+    names = shown.split(", ")
+    assert names == header[:len(names)] and more == f"{len(header) - len(names)} more"
