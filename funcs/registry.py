@@ -225,19 +225,18 @@ class SpreadsheetFunction:
         """
         steps = tuple((a.name, a.coerce, a.required, a.default) for a in self.arguments)
         n_max, body, check = len(steps), self.body, self.check_result
+        n_needed = max((i + 1 for i, a in enumerate(self.arguments) if a.required), default=0)
         errstate = np.errstate
 
         def call(args: Sequence):
-            if len(args) > n_max:
-                self.bind(args)  # raises the count error, with its message
-            kwargs = {}
             n = len(args)
+            if n > n_max or n < n_needed:
+                self.bind(args)  # raises the count error bind raises, before any argument is converted
+            kwargs = {}
             for i, (name, coerce, required, default) in enumerate(steps):
                 value = args[i] if i < n else None
                 if value is None and not required:
                     value = default  # a blank optional argument takes its default, as bind does
-                elif i >= n:
-                    self.bind(args)  # raises the missing-argument error, with its message
                 kwargs[name] = coerce(value)
             with errstate(all="ignore"):
                 return check(body(**kwargs))

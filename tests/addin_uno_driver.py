@@ -5,7 +5,7 @@ test environment: ``python3 addin_uno_driver.py < job.json``. The job names soff
 profile, the folder of unpacked extensions and a list of steps; the answer (JSON on stdout)
 has one entry per step. Steps:
 
-- ``{"open": PATH}``; ``{"new": true}``; ``{"set": [[SHEET, CELL, FORMULA_OR_NUMBER_OR_NULL], ...]}``
+- ``{"open": PATH}``; ``{"new": true}``; ``{"add_sheet": NAME}``; ``{"set": [[SHEET, CELL, FORMULA_OR_NUMBER_OR_NULL], ...]}``
   (``null`` clears the cell); ``{"recalc": true}``;
 - ``{"read": [[SHEET, CELL], ...]}``: each cell's value, text or error code;
 - ``{"formula": [[SHEET, CELL], ...]}``: each cell's formula as Calc shows it;
@@ -88,6 +88,9 @@ def run(job):
             elif "new" in step:
                 doc = desktop.loadComponentFromURL("private:factory/scalc", "_blank", 0, (prop("Hidden", True),))
                 out.append(True)
+            elif "add_sheet" in step:
+                doc.Sheets.insertNewByName(step["add_sheet"], doc.Sheets.getCount())
+                out.append(True)
             elif "set" in step:
                 for sheet, address, value in step["set"]:
                     c = cell(doc, sheet, address)
@@ -102,7 +105,6 @@ def run(job):
                 f = step["fill"]
                 first, last = f["rows"]
                 rng = cell(doc, f["sheet"], "%s%d:%s%d" % (f["column"], first, f["column"], last))
-                rng.setFormulaArray  # noqa: B018 (exists on ranges)
                 rng.setFormulas(tuple((f["formula"].replace("{row}", str(r)),) for r in range(first, last + 1)))
                 out.append(True)
             elif "recalc" in step:

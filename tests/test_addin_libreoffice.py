@@ -1,0 +1,264 @@
+"""The add-in in a real LibreOffice Calc, headless: live cells against ``trueband.funcs.call``.
+
+The extension written by ``trueband addin`` is unpacked into a folder that LibreOffice is
+started with as its bundled extensions (``-env:BUNDLED_EXTENSIONS``), with a fresh private
+profile, so nothing is installed for the user. ``addin_uno_driver.py`` drives Calc through UNO
+from LibreOffice's Python (on Linux the system ``python3`` with ``python3-uno``): it opens or
+creates a document, types formulas and inputs, recalculates, reads the cells back and saves
+as xlsx. Each value is compared with ``call`` on the same inputs, or, for whole workbooks
+written by trueband (a template, the demo study), with what ``trueband recalc`` computes from
+the file Calc saved.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import shutil
+import subprocess
+import sys
+import zipfile
+from pathlib import Path
+
+import pytest
+
+from openpyxl import load_workbook
+
+from trueband.bridge import calc_addin
+from trueband.bridge.recalc import recalculate
+from trueband.bridge.study_build import ANALYSIS_SHEETS
+from trueband.funcs import call
+from trueband.funcs.errors import TruebandError
+from trueband.funcs.registry import REGISTRY, normalize_name
+
+pytestmark = [pytest.mark.libreoffice, pytest.mark.slow]
+
+DRIVER = Path(__file__).with_name("addin_uno_driver.py")
+
+
+def libreoffice_python() -> str | None:
+    """A Python that can import LibreOffice's uno module (the one LibreOffice runs its Python components in)."""
+    candidates = [shutil.which("python3"), "/usr/bin/python3", sys.executable]
+    program = Path(os.path.realpath(shutil.which("soffice") or "")).parent
+    candidates += [str(program / "python"), str(program / "python.exe")]
+    for exe in dict.fromkeys(c for c in candidates if c):
+        try:
+            if subprocess.run([exe, "-c", "import uno"], capture_output=True, timeout=30).returncode == 0:
+                return exe
+        except OSError:
+            continue
+    return None
+
+
+@pytest.fixture(scope="module")
+def calc(soffice, tmp_path_factory):
+    """Run a job of steps in a headless Calc that has the add-in; returns the steps' answers."""
+    python = libreoffice_python()
+    if python is None:
+        if os.environ.get("CI"):
+            pytest.fail("no Python can import uno; .ci/run installs python3-uno")
+        pytest.skip("python3-uno is not installed")
+    folder = tmp_path_factory.mktemp("addin")
+    oxt = calc_addin.write_extension(folder / "trueband.oxt")
+    unpacked = folder / "extensions" / "trueband"
+    unpacked.mkdir(parents=True)
+    with zipfile.ZipFile(oxt) as z:
+        z.extractall(unpacked)
+    runs = iter(range(1000))
+
+    def run(steps):
+        job = {"soffice": soffice, "profile": (folder / f"profile{next(runs)}").as_uri(),
+               "bundled": (folder / "extensions").as_uri(), "steps": steps}
+        done = subprocess.run([python, str(DRIVER)], input=json.dumps(job), capture_output=True, text=True,
+                              timeout=600)
+        assert done.returncode == 0, done.stderr[-3000:]
+        return json.loads(done.stdout.strip().splitlines()[-1])
+
+    return run
+
+
+def expected(name, *args):
+    """What a cell must show: trueband's value (logical results as 1/0) or its error code."""
+    try:
+        return float(call(name, *args))
+    except TruebandError as exc:
+        return exc.code
+
+
+def same(cell, want) -> bool:
+    if isinstance(want, str) or isinstance(cell, str):
+        return cell == want
+    return cell == want or math.isclose(cell, want, rel_tol=1e-15, abs_tol=1e-300)
+
+
+# Inputs on a sheet of their own: A1:D8 items scored 0/1 (one blank), F1:H6 ratings 1-5 by three raters.
+ITEMS = [[1, 1, 0, 1], [1, 0, 0, 1], [1, 1, 1, 1], [0, 0, 0, 1], [1, 1, 1, 0], [0, 1, None, 0], [1, 1, 1, 1],
+         [0, 0, 0, 0]]
+RATINGS = [[4, 5, 4], [2, 2, 3], [5, 5, 5], [3, 2, 3], [1, 2, 1], [4, 4, 3]]
+
+
+def _inputs():
+    cells = []
+    for r, row in enumerate(ITEMS, start=1):
+        cells += [["Data", f"{'ABCD'[c]}{r}", v] for c, v in enumerate(row) if v is not None]
+    for r, row in enumerate(RATINGS, start=1):
+        cells += [["Data", f"{'FGH'[c]}{r}", v] for c, v in enumerate(row)]
+    return cells
+
+
+def _as_range(rows):
+    return tuple(tuple(None if v is None else float(v) for v in row) for row in rows)
+
+
+def _arguments(fn, profile: int):
+    """Cell texts and the Python values Calc passes for them, for one generic argument profile."""
+    texts, values = [], []
+    numbers = iter([0.8, 40.0, 0.3, 12.0, 0.5, 2.0, 0.9, 5.0] if profile == 0 else [25.0, 0.75, 6.0, 0.2, 3.0, 0.6])
+    for arg in fn.arguments:
+        if arg.kind == "range":
+            ratings = any(w in (fn.name + arg.name).upper() for w in ("ICC", "KAPPA", "KRIPP", "RATER", "RATING"))
+            block, rows = ("$Data.$F$1:$H$6", RATINGS) if ratings else ("$Data.$A$1:$D$8", ITEMS)
+            texts.append(block)
+            values.append(_as_range(rows))
+        elif arg.choices:
+            choice = arg.choices[profile % len(arg.choices)]
+            texts.append(f'"{choice}"')
+            values.append(choice)
+        elif arg.kind == "boolean":
+            texts.append("1")
+            values.append(1.0)
+        elif arg.kind == "integer":
+            texts.append("3")
+            values.append(3.0)
+        else:
+            x = next(numbers, 1.0)
+            texts.append(repr(x))
+            values.append(x)
+    return texts, values
+
+
+def test_every_function_agrees_with_call_in_live_cells(calc):
+    """Every registered function under every cell name, with two generic argument profiles each: values and
+    errors alike must be what ``call`` gives for the values Calc passes."""
+    cases = []
+    for fn in REGISTRY.values():
+        for name in calc_addin.cell_names(fn):
+            for profile in (0, 1):
+                texts, values = _arguments(fn, profile)
+                cases.append((f"={name}({';'.join(texts)})", expected(fn.name, *values)))
+    cells = [["Sheet1", f"A{i}", formula] for i, (formula, _) in enumerate(cases, start=1)]
+    # the input sheet first, then the formulas
+    steps = [{"new": True}, {"add_sheet": "Data"}, {"set": _inputs()}, {"set": cells}, {"recalc": True},
+             {"read": [[c[0], c[1]] for c in cells]}]
+    got = calc(steps)[-1]
+    wrong = [(formula, cell, want) for (formula, want), cell in zip(cases, got) if not same(cell, want)]
+    assert not wrong, wrong[:10]
+    # generic inputs do not suit every function: a third or more compute a value, the rest are trueband's errors
+    values = sum(isinstance(w, float) for _, w in cases)
+    assert values >= len(cases) // 3, "too few cases compute a value; the profiles test mostly errors"
+    assert {"#NUM!", "#VALUE!"} <= {w for _, w in cases if isinstance(w, str)}
+
+
+def test_blank_missing_extra_and_logical_arguments(calc):
+    rows = [
+        ("=SEM(A1;A2)", expected("SEM", 10.0, 0.9)),
+        ("=SEM(A1;1.3)", "#NUM!"),
+        ("=SEM(A1)", expected("SEM", 10.0)),                            # too few: #VALUE!, not Err:504
+        ("=SEM(A1;A2;3)", expected("SEM", 10.0, 0.9, 3.0)),             # too many: #VALUE!, not Err:504
+        ('=SEM("ten";A2)', expected("SEM", "ten", 0.9)),
+        ('=SCORE_CI(31;5.2;0.86;"upper")', expected("SCORE_CI", 31.0, 5.2, 0.86, "upper")),
+        ('=SCORE_CI(31;5.2;0.86;"upper";)', expected("SCORE_CI", 31.0, 5.2, 0.86, "upper", None)),  # empty: default
+        ('=SCORE_CI(31;5.2;0.86;;0.9)', expected("SCORE_CI", 31.0, 5.2, 0.86, None, 0.9)),
+        ("=FOUR_FIFTHS(10;100;20;100)", expected("FOUR_FIFTHS", 10.0, 100.0, 20.0, 100.0)),  # TRUE as 1
+        ("=FOUR_FIFTHS(19;100;20;100)", expected("FOUR_FIFTHS", 19.0, 100.0, 20.0, 100.0)),  # FALSE as 0
+        ("=KR_20(C1:E4)", expected("KR20", ((1.0, 0.0, 1.0), (1.0, 1.0, 1.0), (0.0, None, 1.0), (0.0, 0.0, 0.0)))),
+        ("=CRONBACH_ALPHA(C1:D3)", expected("CRONBACH_ALPHA", ((1.0, 0.0), (1.0, 1.0), (0.0, None)))),
+        ("=SEM(A1/0;A2)", "#DIV/0!"),                                    # an input error passes through
+        # Known difference: LibreOffice hands an add-in a blank single cell as 0 (a blank inside a range stays
+        # blank). trueband's call says #VALUE! for a blank sd; the cell computes with 0.
+        ("=SEM(A9;A2)", expected("SEM", 0.0, 0.9)),
+    ]
+    inputs = [[0, "A1", 10], [0, "A2", 0.9], [0, "C1", 1], [0, "D1", 0], [0, "E1", 1], [0, "C2", 1], [0, "D2", 1],
+              [0, "E2", 1], [0, "C3", 0], [0, "E3", 1], [0, "C4", 0], [0, "D4", 0], [0, "E4", 0]]
+    cells = [[0, f"G{i}", f] for i, (f, _) in enumerate(rows, start=1)]
+    got = calc([{"new": True}, {"set": inputs + cells}, {"recalc": True}, {"read": [c[:2] for c in cells]}])[-1]
+    wrong = [(f, cell, want) for (f, want), cell in zip(rows, got) if not same(cell, want)]
+    assert not wrong, wrong
+    assert expected("SEM", None, 0.9) == "#VALUE!"  # the difference the last row documents
+
+
+def _registered_cells(path: Path) -> dict[tuple[str, str], object]:
+    """(sheet, cell) → stored value of every formula cell that calls a registered function (read with openpyxl)."""
+    import re
+
+    formulas, values = load_workbook(path), load_workbook(path, data_only=True)
+    out = {}
+    for ws in formulas.worksheets:
+        for row in ws.iter_rows():
+            for c in row:
+                if c.data_type == "f" and isinstance(c.value, str) and any(
+                        normalize_name(name) in REGISTRY for name in re.findall(r"([A-Za-z_][\w.]*)\s*\(", c.value)):
+                    out[(ws.title, c.coordinate)] = values[ws.title][c.coordinate].value
+    return out
+
+
+def _compare_with_recalc(saved: Path, tmp: Path):
+    """Every registered cell Calc saved equals trueband recalc's value of the same saved file."""
+    ours = recalculate(saved, tmp / "recalculated.xlsx").output
+    live, again = _registered_cells(saved), _registered_cells(ours)
+    assert live and live.keys() == again.keys()
+    wrong = []
+    for key, value in live.items():
+        other = again[key]
+        if isinstance(value, (int, float)) and not isinstance(value, bool) and isinstance(other, (int, float)):
+            # Calc writes 15 significant digits into xlsx
+            if not math.isclose(value, other, rel_tol=1e-13, abs_tol=1e-13):
+                wrong.append((key, value, other))
+        elif value != other and not (value in ("", None) and other in ("", None)):
+            wrong.append((key, value, other))
+    assert not wrong, wrong[:10]
+    return live
+
+
+def test_template_computes_live_and_calc_saved_file_recalculates(calc, tmp_path):
+    from trueband.bridge.templates import scoring_template
+
+    responses = [[1, 1, 1, 1], [1, 1, 1, 0], [0, 0, 1, 0], [1, 1, 0, 1], [0, 0, 0, 0], [1, 0, 1, 1]]
+    book = scoring_template(tmp_path / "scoring.xlsx", n_items=4, capacity=6, ids=list("abcdef"),
+                            responses=responses)
+    book = recalculate(book, tmp_path / "scoring.recalc.xlsx").output
+    saved = tmp_path / "saved.xlsx"
+    # the first person's first item 1 -> 0: their total, interval and band, the alpha, the sd all move
+    got = calc([{"open": str(book)}, {"set": [[0, "B8", 0]]}, {"recalc": True},
+                {"read": [[0, "F8"], [0, "G8"], [0, "H8"], [0, "C3"], [0, "C4"]]}, {"store": str(saved)}])
+    total, lower, upper, alpha, sd = got[3]
+    responses[0][0] = 0
+    items = tuple(tuple(float(v) for v in row) for row in responses)
+    assert same(alpha, expected("CRONBACH_ALPHA", items))
+    assert total == sum(responses[0]) and isinstance(alpha, float)
+    assert same(lower, expected("SCORE_CI", total, sd, alpha, "lower", 0.95))
+    assert same(upper, expected("SCORE_CI", total, sd, alpha, "upper", 0.95))
+    _compare_with_recalc(saved, tmp_path)
+
+
+def test_demo_study_computes_live_and_calc_saved_file_recalculates(calc, tmp_path):
+    from trueband.bridge.demo_data import make_demo
+    from trueband.bridge.study_build import make_study
+    from trueband.bridge.templates import study_data_workbook
+
+    data = study_data_workbook(tmp_path / "data.xlsx", make_demo(), cut=24)
+    study = make_study(data, tmp_path / "study.xlsx").path
+    before = _registered_cells(study)
+    saved = tmp_path / "saved.xlsx"
+    # an item response of the first applicant in the study's copy of the data flips: the reliability figures move
+    book = load_workbook(study, data_only=True)
+    data_sheet = next(n for n in book.sheetnames if n not in ANALYSIS_SHEETS and n != "Setup")
+    flipped = 1 - float(book[data_sheet]["C2"].value)
+    answers = calc([{"open": str(study)}, {"set": [[data_sheet, "C2", flipped]]}, {"recalc": True},
+                    {"store": str(saved)}])
+    assert answers[-1] is True
+    live = _compare_with_recalc(saved, tmp_path)
+    assert not [k for k, v in live.items() if v == "#NAME?"]
+    changed = [k for k in live if k in before and live[k] != before[k]]
+    assert any(sheet == "Reliability" for sheet, _ in changed), "the changed input did not reach the reliability"
