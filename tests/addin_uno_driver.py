@@ -105,7 +105,7 @@ def run(job):
                 f = step["fill"]
                 first, last = f["rows"]
                 rng = cell(doc, f["sheet"], "%s%d:%s%d" % (f["column"], first, f["column"], last))
-                rng.setFormulas(tuple((f["formula"].replace("{row}", str(r)),) for r in range(first, last + 1)))
+                rng.setFormulaArray(tuple((f["formula"].replace("{row}", str(r)),) for r in range(first, last + 1)))
                 out.append(True)
             elif "recalc" in step:
                 doc.calculateAll()
