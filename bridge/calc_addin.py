@@ -80,6 +80,8 @@ def _argument_text(arg) -> str:
         shown = "TRUE" if default is True else "FALSE" if default is False else f'"{default}"' if isinstance(
             default, str) else format(default, "g") if isinstance(default, float) else str(default)
         text += f"; optional, {shown} if left out"
+    else:
+        text += "; required"  # the wizard marks every argument optional (Calc's rule for arguments of type any)
     return text + "."
 
 
@@ -88,7 +90,7 @@ def addin_functions() -> dict[str, dict]:
 
     >>> functions = addin_functions()
     >>> functions["SEM"]["arguments"][1]
-    ('reliability', 'Reliability of the scores, between 0 and 1.')
+    ('reliability', 'Reliability of the scores, between 0 and 1; required.')
     >>> functions["KR_20"]["registered"]
     'KR20'
     """

@@ -11,6 +11,7 @@ has one entry per step. Steps:
 - ``{"formula": [[SHEET, CELL], ...]}``: each cell's formula as Calc shows it;
 - ``{"store": PATH}``: save as xlsx;
 - ``{"fill": {"sheet", "column", "rows", "formula"}}``: one formula down a column ({row} is the row);
+- ``{"describe": [NAME, ...]}``: the function wizard's description, category and arguments of each;
 - ``{"time_recalc": N}``: seconds for N full recomputations (calculateAll), fastest and all.
 """
 
@@ -54,7 +55,7 @@ def connect(job):
                 raise SystemExit("soffice did not start: " + proc.stderr.read().decode(errors="replace")[-2000:])
             time.sleep(0.3)
     desktop = ctx.ServiceManager.createInstanceWithContext("com.sun.star.frame.Desktop", ctx)
-    return proc, desktop
+    return proc, desktop, ctx
 
 
 def cell(doc, sheet, address):
@@ -76,7 +77,7 @@ def value_of(c):
 
 
 def run(job):
-    proc, desktop = connect(job)
+    proc, desktop, ctx = connect(job)
     out = []
     doc = None
     try:
@@ -118,6 +119,18 @@ def run(job):
                 url = uno.systemPathToFileUrl(os.path.abspath(step["store"]))
                 doc.storeToURL(url, (prop("FilterName", "Calc MS Excel 2007 XML"),))
                 out.append(True)
+            elif "describe" in step:
+                # what the function wizard shows: the sheet's function descriptions
+                descriptions = ctx.ServiceManager.createInstanceWithContext(
+                    "com.sun.star.sheet.FunctionDescriptions", ctx)
+                found = {}
+                for i in range(descriptions.getCount()):
+                    entry = {p.Name: p.Value for p in descriptions.getByIndex(i)}
+                    if entry["Name"] in step["describe"]:
+                        found[entry["Name"]] = {
+                            "description": entry["Description"], "category": entry["Category"],
+                            "arguments": [[a.Name, a.Description, a.IsOptional] for a in entry["Arguments"]]}
+                out.append(found)
             elif "time_recalc" in step:
                 times = []
                 for _ in range(step["time_recalc"]):

@@ -175,17 +175,30 @@ def test_blank_missing_extra_and_logical_arguments(calc):
         ("=KR_20(C1:E4)", expected("KR20", ((1.0, 0.0, 1.0), (1.0, 1.0, 1.0), (0.0, None, 1.0), (0.0, 0.0, 0.0)))),
         ("=CRONBACH_ALPHA(C1:D3)", expected("CRONBACH_ALPHA", ((1.0, 0.0), (1.0, 1.0), (0.0, None)))),
         ("=SEM(A1/0;A2)", "#DIV/0!"),                                    # an input error passes through
+        ("=SEM(A3;A2)", "#DIV/0!"),                                      # from a cell holding it too
+        # Known difference: a range holding an error value makes Calc refuse the call before trueband sees it.
+        ("=CRONBACH_ALPHA(A1:A3)", "Err:504"),
         # Known difference: LibreOffice hands an add-in a blank single cell as 0 (a blank inside a range stays
         # blank). trueband's call says #VALUE! for a blank sd; the cell computes with 0.
         ("=SEM(A9;A2)", expected("SEM", 0.0, 0.9)),
     ]
-    inputs = [[0, "A1", 10], [0, "A2", 0.9], [0, "C1", 1], [0, "D1", 0], [0, "E1", 1], [0, "C2", 1], [0, "D2", 1],
+    inputs = [[0, "A1", 10], [0, "A2", 0.9], [0, "A3", "=1/0"], [0, "C1", 1], [0, "D1", 0], [0, "E1", 1], [0, "C2", 1], [0, "D2", 1],
               [0, "E2", 1], [0, "C3", 0], [0, "E3", 1], [0, "C4", 0], [0, "D4", 0], [0, "E4", 0]]
     cells = [[0, f"G{i}", f] for i, (f, _) in enumerate(rows, start=1)]
     got = calc([{"new": True}, {"set": inputs + cells}, {"recalc": True}, {"read": [c[:2] for c in cells]}])[-1]
     wrong = [(f, cell, want) for (f, want), cell in zip(rows, got) if not same(cell, want)]
     assert not wrong, wrong
     assert expected("SEM", None, 0.9) == "#VALUE!"  # the difference the last row documents
+
+
+def test_function_wizard_shows_the_registry_descriptions(calc):
+    functions = calc_addin.addin_functions()
+    shown = calc([{"describe": sorted(functions)}])[0]
+    assert set(shown) == set(functions)
+    for name, entry in functions.items():
+        assert shown[name]["description"] == entry["description"]
+        assert shown[name]["category"] == 8  # com.sun.star.sheet.FunctionCategory.STATISTICAL
+        assert [a[:2] for a in shown[name]["arguments"]] == [list(a) for a in entry["arguments"]]
 
 
 def _registered_cells(path: Path) -> dict[tuple[str, str], object]:
