@@ -51,16 +51,14 @@ def libreoffice_python() -> str | None:
     return None
 
 
-@pytest.fixture(scope="module")
-def calc(soffice, tmp_path_factory):
-    """Run a job of steps in a headless Calc that has the add-in; returns the steps' answers."""
+def _runner(soffice: str, folder: Path, **options):
+    """Run a job of steps in a headless Calc that has the add-in (written with ``options``); returns the answers."""
     python = libreoffice_python()
     if python is None:
         if os.environ.get("CI"):
             pytest.fail("no Python can import uno; .ci/run installs python3-uno")
         pytest.skip("python3-uno is not installed")
-    folder = tmp_path_factory.mktemp("addin")
-    oxt = calc_addin.write_extension(folder / "trueband.oxt")
+    oxt = calc_addin.write_extension(folder / "trueband.oxt", **options)
     unpacked = folder / "extensions" / "trueband"
     unpacked.mkdir(parents=True)
     with zipfile.ZipFile(oxt) as z:
@@ -76,6 +74,11 @@ def calc(soffice, tmp_path_factory):
         return json.loads(done.stdout.strip().splitlines()[-1])
 
     return run
+
+
+@pytest.fixture(scope="module")
+def calc(soffice, tmp_path_factory):
+    return _runner(soffice, tmp_path_factory.mktemp("addin"))
 
 
 def expected(name, *args):
@@ -189,6 +192,29 @@ def test_blank_missing_extra_and_logical_arguments(calc):
     wrong = [(f, cell, want) for (f, want), cell in zip(rows, got) if not same(cell, want)]
     assert not wrong, wrong
     assert expected("SEM", None, 0.9) == "#VALUE!"  # the difference the last row documents
+
+
+def test_thin_mode_cells_agree_with_call_through_trueband_serve(soffice, tmp_path):
+    """Thin mode: LibreOffice's Python sends each call to a running server (standard library only)."""
+    from trueband.bridge.cmd_serve import serving_in_background
+    from trueband.bridge.http_app import create_app
+
+    with serving_in_background(create_app()) as url:
+        run = _runner(soffice, tmp_path, mode="thin", server_url=url)
+        rows = [
+            ("=SEM(10;0.9)", expected("SEM", 10.0, 0.9)),
+            ("=SEM(10;1.3)", "#NUM!"),
+            ("=SEM(10)", "#VALUE!"),
+            ('=SCORE_CI(31;5.2;0.86;"upper")', expected("SCORE_CI", 31.0, 5.2, 0.86, "upper")),
+            ("=FOUR_FIFTHS(10;100;20;100)", expected("FOUR_FIFTHS", 10.0, 100.0, 20.0, 100.0)),
+            ("=KR_20(C1:E4)", expected("KR20", ((1.0, 0.0, 1.0), (1.0, 1.0, 1.0), (0.0, None, 1.0), (0.0, 0.0, 0.0)))),
+        ]
+        inputs = [[0, c, v] for c, v in (("C1", 1), ("D1", 0), ("E1", 1), ("C2", 1), ("D2", 1), ("E2", 1),
+                                         ("C3", 0), ("E3", 1), ("C4", 0), ("D4", 0), ("E4", 0))]
+        cells = [[0, f"G{i}", f] for i, (f, _) in enumerate(rows, start=1)]
+        got = run([{"new": True}, {"set": inputs + cells}, {"recalc": True}, {"read": [c[:2] for c in cells]}])[-1]
+    wrong = [(f, cell, want) for (f, want), cell in zip(rows, got) if not same(cell, want)]
+    assert not wrong, wrong
 
 
 def test_function_wizard_shows_the_registry_descriptions(calc):
