@@ -32,12 +32,19 @@ _QUOTED = re.compile(r"""("(?:[^"]|"")*"|'(?:[^']|'')*')""")
 _F_ELEMENT = re.compile(r"(<f(?:\s[^>]*)?>)([^<]+)(</f>)")
 
 
+# A name followed by an opening bracket and not preceded by a letter, digit, _, ., $ or ! (so
+# neither part of a longer name, nor already prefixed, nor a sheet-qualified reference).
+_CALL = re.compile(r"(?<![\w.$!])([A-Za-z_][A-Za-z0-9_]*)(?=\s*\()")
+
+
 @functools.lru_cache(maxsize=1)
-def _calls() -> re.Pattern:
-    names = sorted({*REGISTRY, *ALIASES}, key=len, reverse=True)
-    # A name not preceded by a letter, digit, _, ., $ or ! (so neither part of a longer name,
-    # nor already prefixed, nor a sheet-qualified reference) and followed by an opening bracket.
-    return re.compile(r"(?<![\w.$!])(" + "|".join(map(re.escape, names)) + r")(?=\s*\()", re.IGNORECASE)
+def _registered() -> frozenset[str]:
+    return frozenset({*REGISTRY, *ALIASES})
+
+
+def _prefix(match: re.Match) -> str:
+    name = match.group(1)
+    return PREFIX + name if name.upper() in _registered() else name
 
 
 def bind_for_calc(formula: str) -> str:
@@ -50,12 +57,13 @@ def bind_for_calc(formula: str) -> str:
     >>> bind_for_calc("=_xludf.SEM(B2,B3)+SUM('SEM(x'!A1:A3)")
     "=_xludf.SEM(B2,B3)+SUM('SEM(x'!A1:A3)"
     """
-    calls = _calls()
+    if "(" not in formula:
+        return formula
     if '"' not in formula and "'" not in formula:
-        return calls.sub(PREFIX + r"\1", formula)
+        return _CALL.sub(_prefix, formula)
     parts = _QUOTED.split(formula)
     for i in range(0, len(parts), 2):  # even pieces are outside quotes
-        parts[i] = calls.sub(PREFIX + r"\1", parts[i])
+        parts[i] = _CALL.sub(_prefix, parts[i])
     return "".join(parts)
 
 
