@@ -40,7 +40,8 @@ from xml.sax.saxutils import escape, quoteattr
 from trueband.funcs.registry import REGISTRY, SpreadsheetFunction
 
 __all__ = ["SERVICE_NAME", "INTERFACE", "EXTENSION_ID", "cell_names", "addin_functions", "type_library",
-           "component_source", "write_extension", "install_line", "python_version_note", "site_folders"]
+           "component_source", "write_extension", "install_line", "python_version_note", "site_folders",
+           "libreoffice_python"]
 
 #: The add-in's service name: Calc prefixes it to the function names it saves.
 SERVICE_NAME = "_xludf"
@@ -234,6 +235,35 @@ def write_extension(out: str | Path, *, mode: str = "full", server_url: str = "h
         if tmp.exists():
             tmp.unlink()
     return out
+
+
+def libreoffice_python() -> tuple[str, str] | None:
+    """(path, "major.minor") of the Python LibreOffice runs its Python components in, if one is found.
+
+    Windows and macOS: the ``python`` LibreOffice bundles beside ``soffice``; Linux: a Python that
+    imports ``uno`` (the system ``python3`` with ``python3-uno``).
+    """
+    import os
+    import shutil
+    import subprocess
+
+    soffice = shutil.which("soffice") or shutil.which("libreoffice")
+    candidates = []
+    if soffice:
+        program = Path(os.path.realpath(soffice)).parent
+        candidates += [program / "python.exe", program / "python", program.parent / "Resources" / "python"]
+    candidates += [Path(p) for p in (shutil.which("python3"), "/usr/bin/python3") if p]
+    for exe in dict.fromkeys(candidates):
+        if not exe.is_file():
+            continue
+        try:
+            done = subprocess.run([str(exe), "-c", "import sys, uno; print('%d.%d' % sys.version_info[:2])"],
+                                  capture_output=True, text=True, timeout=60)
+        except (OSError, subprocess.SubprocessError):
+            continue
+        if done.returncode == 0 and done.stdout.strip():
+            return str(exe), done.stdout.strip()
+    return None
 
 
 def python_version_note() -> str:

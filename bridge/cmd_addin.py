@@ -31,7 +31,7 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
-    from .calc_addin import install_line, python_version_note, write_extension
+    from .calc_addin import install_line, libreoffice_python, python_version_note, write_extension
 
     folder = Path(args.out)
     if not folder.is_dir():
@@ -51,6 +51,15 @@ def run(args) -> int:
     print('uninstall: unopkg remove trueband.calc.addin')
     if mode == "full":
         print(python_version_note())
+        found = libreoffice_python()
+        ours = "%d.%d" % sys.version_info[:2]
+        if found is None:
+            print("warning: no LibreOffice Python found here (on Linux: is python3-uno installed?); the add-in "
+                  "needs one of Python " + ours, file=sys.stderr)
+        elif found[1] != ours:
+            print(f"warning: LibreOffice's Python ({found[0]}) is {found[1]}, this one is {ours}: it cannot load "
+                  f"this environment's numpy, so the cells would show #NAME?. Run trueband addin from a Python "
+                  f"{found[1]} environment, or use --thin", file=sys.stderr)
     else:
         print(f"the cells call {args.url}: keep `trueband serve` running while you work")
     print("In a cell: =SEM(B2; B3). The figures are statistical indicators to support professional judgment, "

@@ -151,6 +151,18 @@ def test_command_writes_and_refuses(tmp_path):
         assert "MODE = 'thin'" in z.read("trueband_calc.py").decode("utf-8")
 
 
+def test_command_warns_when_libreoffice_runs_another_python(tmp_path, monkeypatch, capsys):
+    from trueband.bridge.cli import main
+
+    monkeypatch.setattr(calc_addin, "libreoffice_python", lambda: ("/opt/lo/python", "2.7"))
+    assert main(["addin", "--out", str(tmp_path)]) == 0
+    err = capsys.readouterr().err
+    assert "LibreOffice's Python (/opt/lo/python) is 2.7" in err and "--thin" in err
+    monkeypatch.setattr(calc_addin, "libreoffice_python", lambda: ("/usr/bin/python3", "%d.%d" % sys.version_info[:2]))
+    assert main(["addin", "--out", str(tmp_path), "--overwrite"]) == 0
+    assert "warning" not in capsys.readouterr().err
+
+
 # ---------------------------------------------------------------- the component, with uno stand-ins
 
 @pytest.fixture
@@ -180,7 +192,8 @@ def component(monkeypatch):
         monkeypatch.setitem(sys.modules, "com.sun.star.lang", lang)
         monkeypatch.setitem(sys.modules, "com.sun.star.sheet", sheet)
         namespace = {"__name__": "trueband_calc"}
-        exec(compile(calc_addin.component_source(folders=[], **options), "trueband_calc.py", "exec"), namespace)
+        options.setdefault("folders", [])
+        exec(compile(calc_addin.component_source(**options), "trueband_calc.py", "exec"), namespace)
         return namespace
 
     return load
@@ -242,6 +255,19 @@ def test_component_says_name_error_when_trueband_cannot_load(component, capsys):
     value = ns["TruebandFunctions"](None).SEM(10.0, 0.9, ())
     assert calc_error_of(value) == "#NAME?"
     assert "generated with Python 2.7.18" in capsys.readouterr().err
+
+
+def test_component_puts_the_environment_first_with_its_pth_files(component, tmp_path, monkeypatch):
+    site_packages, hooked = tmp_path / "site-packages", tmp_path / "editable-source"
+    site_packages.mkdir()
+    hooked.mkdir()
+    (site_packages / "hook.pth").write_text(f"{hooked}\n")
+    monkeypatch.setattr(sys, "path", list(sys.path))
+    ns = component(folders=[str(site_packages)])
+    assert str(site_packages) not in sys.path  # nothing happens before a cell calls
+    value = ns["TruebandFunctions"](None).SEM(10.0, 0.9, ())
+    assert value == call("SEM", 10.0, 0.9)
+    assert sys.path[:2] == [str(site_packages), str(hooked)]
 
 
 def test_thin_component_agrees_with_call_through_the_server(component):

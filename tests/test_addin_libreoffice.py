@@ -15,9 +15,7 @@ from __future__ import annotations
 import json
 import math
 import os
-import shutil
 import subprocess
-import sys
 import zipfile
 from pathlib import Path
 
@@ -37,23 +35,10 @@ pytestmark = [pytest.mark.libreoffice, pytest.mark.slow]
 DRIVER = Path(__file__).with_name("addin_uno_driver.py")
 
 
-def libreoffice_python() -> str | None:
-    """A Python that can import LibreOffice's uno module (the one LibreOffice runs its Python components in)."""
-    candidates = [shutil.which("python3"), "/usr/bin/python3", sys.executable]
-    program = Path(os.path.realpath(shutil.which("soffice") or "")).parent
-    candidates += [str(program / "python"), str(program / "python.exe")]
-    for exe in dict.fromkeys(c for c in candidates if c):
-        try:
-            if subprocess.run([exe, "-c", "import uno"], capture_output=True, timeout=30).returncode == 0:
-                return exe
-        except OSError:
-            continue
-    return None
-
-
 def _runner(soffice: str, folder: Path, **options):
     """Run a job of steps in a headless Calc that has the add-in (written with ``options``); returns the answers."""
-    python = libreoffice_python()
+    found = calc_addin.libreoffice_python()
+    python = found and found[0]
     if python is None:
         if os.environ.get("CI"):
             pytest.fail("no Python can import uno; .ci/run installs python3-uno")

@@ -60,9 +60,13 @@ class _Full:
                                f"{here}, which cannot load that environment's numpy; generate it from a Python "
                                f"{here} environment, or with --thin")
 
+        before = list(sys.path)
         for folder in SITE_FOLDERS:
             if folder not in sys.path:
                 site.addsitedir(folder)  # also runs the folder's .pth files (an editable install's hook)
+        # ahead of the system's folders: a numpy or scipy of the system's own must not shadow the
+        # versions trueband was installed (and tested) with
+        sys.path[:] = [p for p in sys.path if p not in before] + before
         from trueband.funcs.errors import TruebandError
         from trueband.funcs.registry import REGISTRY
 
