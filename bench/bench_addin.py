@@ -8,7 +8,7 @@ the fastest of several runs of each, their difference per cell, and the ratio; a
 process, the per-call time of ``call`` and of the add-in's path (``cell_call``) with the body
 alone for reference. Target: the SEM sheet under 0.2 s.
 
-Run with LibreOffice and python3-uno installed: ``python bench/bench_addin.py [--cells N] [--repeat R]``.
+Run with LibreOffice and python3-uno installed: ``python bench/bench_addin.py [--cells N] [--repeat R] [--thin]``.
 """
 
 from __future__ import annotations
@@ -31,7 +31,7 @@ HERE = Path(__file__).resolve().parent
 DRIVER = HERE.parent / "tests" / "addin_uno_driver.py"
 
 
-def calc_times(n: int, repeat: int) -> dict[str, list[float]]:
+def calc_times(n: int, repeat: int, **options) -> dict[str, list[float]]:
     soffice = shutil.which("soffice") or shutil.which("libreoffice")
     if soffice is None:
         raise SystemExit("LibreOffice (soffice) is not installed")
@@ -40,7 +40,7 @@ def calc_times(n: int, repeat: int) -> dict[str, list[float]]:
         folder = Path(tmp)
         unpacked = folder / "extensions" / "trueband"
         unpacked.mkdir(parents=True)
-        with zipfile.ZipFile(calc_addin.write_extension(folder / "trueband.oxt")) as z:
+        with zipfile.ZipFile(calc_addin.write_extension(folder / "trueband.oxt", **options)) as z:
             z.extractall(unpacked)
         numbers = [[0, f"A{r}", 5.0 + (r % 97) / 10] for r in range(1, n + 1)]
         steps = [{"new": True}, {"set": numbers},
@@ -79,10 +79,19 @@ def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--cells", type=int, default=10_000)
     parser.add_argument("--repeat", type=int, default=5)
+    parser.add_argument("--thin", action="store_true",
+                        help="the thin add-in, calling a trueband serve started here (try --cells 1000)")
     args = parser.parse_args(argv)
-    t = calc_times(args.cells, args.repeat)
+    if args.thin:
+        from trueband.bridge.cmd_serve import serving_in_background
+        from trueband.bridge.http_app import create_app
+
+        with serving_in_background(create_app()) as url:
+            t = calc_times(args.cells, args.repeat, mode="thin", server_url=url)
+    else:
+        t = calc_times(args.cells, args.repeat)
     sem, arithmetic = min(t["sem"]), min(t["arithmetic"])
-    print(f"LibreOffice {args.cells:,} cells, full recomputation (fastest of {len(t['sem'])} / {args.repeat}):")
+    print(f"LibreOffice, {'thin' if args.thin else 'full'} mode, {args.cells:,} cells, full recomputation (fastest of {len(t['sem'])} / {args.repeat}):")
     print(f"  =SEM(An;0.9)         {sem:8.3f} s   ({sem / args.cells * 1e6:.1f} µs a cell)   target < 0.2 s")
     print(f"  =An*SQRT(1-0.9)      {arithmetic:8.3f} s   ({arithmetic / args.cells * 1e6:.1f} µs a cell)")
     print(f"  ratio SEM / built-in {sem / arithmetic:8.1f}×   (difference {(sem - arithmetic) / args.cells * 1e6:.1f} µs a cell)")

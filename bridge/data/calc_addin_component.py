@@ -10,12 +10,12 @@
 # low 32 bits hold one of its error numbers as that error, so #NUM!, #DIV/0!, #N/A and #VALUE!
 # show as themselves (an exception would show as #VALUE! or Err:504 whatever the cause).
 
+import http.client
 import json
 import math
 import struct
 import sys
-import urllib.error
-import urllib.request
+import urllib.parse
 
 import uno
 import unohelper
@@ -89,28 +89,46 @@ class _Full:
 
 
 class _Thin:
-    """Sends each call to a running `trueband serve` (standard library only)."""
+    """Sends each call to a running `trueband serve` (standard library only), over one kept-open connection."""
 
     def __init__(self):
-        self.url = SERVER_URL.rstrip("/") + "/v1/call"
+        parts = urllib.parse.urlsplit(SERVER_URL)
+        if parts.scheme not in ("http", "https") or not parts.hostname:
+            raise RuntimeError(f"the server address must be http://HOST:PORT, got {SERVER_URL!r}")
+        self.parts = parts
+        self.path = parts.path.rstrip("/") + "/v1/call"
+        self.connection = None
+        self.silent = False
+
+    def _connect(self):
+        kind = http.client.HTTPSConnection if self.parts.scheme == "https" else http.client.HTTPConnection
+        return kind(self.parts.hostname, self.parts.port, timeout=60)
+
+    def _post(self, body):
+        for attempt in (1, 2):  # a kept-open connection the server has since closed: open a new one, once
+            if self.connection is None:
+                self.connection = self._connect()
+            try:
+                self.connection.request("POST", self.path, body=body, headers={"Content-Type": "application/json"})
+                answer = self.connection.getresponse()
+                return json.loads(answer.read().decode("utf-8"))
+            except (OSError, http.client.HTTPException):
+                self.connection.close()
+                self.connection = None
+                if attempt == 2:
+                    raise
 
     def caller(self, name):
-        url = self.url
-
         def call(args):
             body = json.dumps({"function": name, "args": [_json_cell(a) for a in args]}).encode("utf-8")
-            request = urllib.request.Request(url, data=body, headers={"Content-Type": "application/json"})
             try:
-                with urllib.request.urlopen(request, timeout=60) as answer:
-                    reply = json.loads(answer.read().decode("utf-8"))
-            except urllib.error.HTTPError as exc:
-                try:
-                    reply = json.loads(exc.read().decode("utf-8"))
-                except ValueError:
-                    reply = {}
-            except (OSError, ValueError) as exc:
-                _report(f"no answer from {url} ({exc}); is `trueband serve` running?")
+                reply = self._post(body)
+            except (OSError, http.client.HTTPException, ValueError) as exc:
+                if not self.silent:  # once, not once a cell
+                    _report(f"no answer from {SERVER_URL} ({exc}); is `trueband serve` running?")
+                    self.silent = True
                 return _VALUE_ERROR
+            self.silent = False
             if "value" in reply:
                 value = reply["value"]
                 return float(value) if isinstance(value, (bool, int)) else value
