@@ -192,7 +192,8 @@ def _description(version: str, mode: str) -> str:
   <display-name><name lang="en">{escape("trueband functions")}</name></display-name>
   <platform value="all"/>
   <dependencies>
-    <OpenOffice.org-minimal-version xmlns:d="http://openoffice.org/extensions/description/2006" d:name="OpenOffice.org 3.4" value="3.4"/>
+    <lo:LibreOffice-minimal-version xmlns:lo="http://libreoffice.org/extensions/description/2011"
+                                    lo:name="LibreOffice 4.1" value="4.1"/>
   </dependencies>
   <extension-description><src lang="en" xlink:href="description-en.txt"/></extension-description>
 </description>

@@ -80,10 +80,11 @@ class _Full:
 
         def call(args):
             try:
-                # float: a logical result as 1/0 (Calc shows a Python True as 0), a count as a number
-                return float(fast(args))
+                value = fast(args)
             except error_type as exc:
                 return errors.get(exc.code, _VALUE_ERROR)
+            # a logical result as 1/0 (Calc shows a Python True as 0), a whole number as a double
+            return float(value) if isinstance(value, (bool, int)) else value
 
         return call
 
