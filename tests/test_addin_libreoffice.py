@@ -291,6 +291,23 @@ def test_template_computes_live_and_calc_saved_file_recalculates(calc, tmp_path)
     _compare_with_recalc(saved, tmp_path)
 
 
+def test_impact_template_computes_live_and_calc_saved_file_recalculates(calc, tmp_path):
+    from trueband.bridge.templates import IMPACT_LAYOUT, impact_template
+
+    groups = [("Group A", 120, 48), ("Group B", 80, 22), ("Group C", 40, 15)]  # invented counts
+    book = recalculate(impact_template(tmp_path / "impact.xlsx", groups=groups),
+                       tmp_path / "impact.recalc.xlsx").output
+    first = IMPACT_LAYOUT["first_row"]
+    saved = tmp_path / "saved.xlsx"
+    # Group B's selections 22 -> 30: its rate, ratio, flag, z, p and shortfall move
+    got = calc([{"open": str(book)}, {"set": [[0, f"C{first + 1}", 30]]}, {"recalc": True},
+                {"read": [[0, f"E{first + 1}"], [0, f"F{first + 1}"]]}, {"store": str(saved)}])
+    ratio, flag = got[3]
+    assert same(ratio, expected("IMPACT_RATIO", 30.0, 80.0, 48.0, 120.0))
+    assert flag == ("yes" if call("FOUR_FIFTHS", 30.0, 80.0, 48.0, 120.0) else "no")
+    _compare_with_recalc(saved, tmp_path)
+
+
 def test_demo_study_computes_live_and_calc_saved_file_recalculates(calc, tmp_path):
     from trueband.bridge.demo_data import make_demo
     from trueband.bridge.study_build import make_study
