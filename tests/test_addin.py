@@ -252,9 +252,11 @@ def test_component_describes_functions_for_the_wizard(component):
 def test_component_says_name_error_when_trueband_cannot_load(component, capsys):
     ns = component()
     ns["GENERATED_WITH"] = "2.7.18"  # another Python than LibreOffice's: its numpy cannot load
-    value = ns["TruebandFunctions"](None).SEM(10.0, 0.9, ())
-    assert calc_error_of(value) == "#NAME?"
-    assert "generated with Python 2.7.18" in capsys.readouterr().err
+    addin = ns["TruebandFunctions"](None)
+    assert calc_error_of(addin.SEM(10.0, 0.9, ())) == "#NAME?"
+    assert calc_error_of(addin.SED(10.0, 0.9, ())) == "#NAME?"
+    err = capsys.readouterr().err
+    assert "generated with Python 2.7.18" in err and err.count("cannot load trueband") == 1
 
 
 def test_component_puts_the_environment_first_with_its_pth_files(component, tmp_path, monkeypatch):

@@ -205,22 +205,28 @@ _WAY = []
 
 
 def _way():
+    """The way to values, made on the first call; a failure is kept (and reported) once for all functions."""
     if not _WAY:
-        _WAY.append(_Thin() if MODE == "thin" else _Full())
+        try:
+            _WAY.append(_Thin() if MODE == "thin" else _Full())
+        except Exception as exc:  # trueband cannot be loaded: every cell says #NAME?
+            _report(f"cannot load trueband ({type(exc).__name__}: {exc}); rerun `trueband addin`")
+            _WAY.append(exc)
     return _WAY[0]
 
 
-def _cell_function(name, registered, n_declared):
+def _name_error(args):
+    return _ERRORS["#NAME?"]
+
+
+def _cell_function(name, registered):
     """The method Calc calls for ``name``: the declared arguments, then the rest (a tuple)."""
     slot = []
 
     def method(self, *args):
         if not slot:
-            try:
-                slot.append(_way().caller(registered))
-            except Exception as exc:  # trueband not importable: every cell says #NAME?, once reported
-                _report(f"cannot load trueband ({type(exc).__name__}: {exc}); rerun `trueband addin`")
-                slot.append(lambda args: _ERRORS["#NAME?"])
+            way = _way()
+            slot.append(_name_error if isinstance(way, Exception) else way.caller(registered))
         extra = args[-1]
         args = args[:-1]
         if extra:
@@ -239,7 +245,7 @@ def _cell_function(name, registered, n_declared):
 
 
 for _name, _spec in FUNCTIONS.items():
-    setattr(TruebandFunctions, _name, _cell_function(_name, _spec["registered"], len(_spec["arguments"])))
+    setattr(TruebandFunctions, _name, _cell_function(_name, _spec["registered"]))
 
 g_ImplementationHelper = unohelper.ImplementationHelper()
 g_ImplementationHelper.addImplementation(TruebandFunctions, IMPLEMENTATION_NAME, SERVICES)
