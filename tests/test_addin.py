@@ -136,6 +136,37 @@ def test_the_extension_package(tmp_path):
     assert not list(tmp_path.glob("*.part"))
 
 
+def test_a_function_added_to_the_registry_is_in_the_next_addin(component):
+    from trueband.bridge import calc_binding
+    from trueband.funcs.registry import spreadsheet
+
+    def halved_difference(a: float, b: float, divisor: float = 2.0) -> float:
+        """The difference of two numbers over a divisor (a stand-in registered by this test only).
+
+        Parameters
+        ----------
+        a : float
+            The first number.
+        b : float
+            The second number.
+        divisor : float
+            What the difference is divided by.
+        """
+        return (a - b) / divisor
+
+    spreadsheet("ADDIN_PROBE", returns="number", reference="none: a test stand-in")(halved_difference)
+    try:
+        assert "any ADDIN_PROBE([in] any a0, [in] any a1, [in] any a2, [in] sequence<any> more);" in \
+            calc_addin.type_library()
+        entry = calc_addin.addin_functions()["ADDIN_PROBE"]
+        assert entry["arguments"][2] == ("divisor", "What the difference is divided by; optional, 2 if left out.")
+        addin = component()["TruebandFunctions"](None)
+        assert addin.ADDIN_PROBE(7.0, 3.0, None, ()) == call("ADDIN_PROBE", 7.0, 3.0) == 2.0
+    finally:
+        REGISTRY.pop("ADDIN_PROBE")
+        calc_binding._registered.cache_clear()
+
+
 def test_command_writes_and_refuses(tmp_path):
     run = [sys.executable, "-m", "trueband.bridge", "addin", "--out", str(tmp_path)]
     first = subprocess.run(run, capture_output=True, text=True)

@@ -15,6 +15,7 @@ from __future__ import annotations
 import json
 import math
 import os
+import re
 import subprocess
 import zipfile
 from pathlib import Path
@@ -239,8 +240,6 @@ def test_function_wizard_shows_the_registry_descriptions(calc):
 
 def _registered_cells(path: Path) -> dict[tuple[str, str], object]:
     """(sheet, cell) → stored value of every formula cell that calls a registered function (read with openpyxl)."""
-    import re
-
     formulas, values = load_workbook(path), load_workbook(path, data_only=True)
     out = {}
     for ws in formulas.worksheets:
@@ -321,9 +320,19 @@ def test_demo_study_computes_live_and_calc_saved_file_recalculates(calc, tmp_pat
     book = load_workbook(study, data_only=True)
     data_sheet = next(n for n in book.sheetnames if n not in ANALYSIS_SHEETS and n != "Setup")
     flipped = 1 - float(book[data_sheet]["C2"].value)
+    # the study's coefficient alpha cell, read back from Calc and compared with call on the changed data
+    formulas = load_workbook(study)
+    alpha_cell, block = next(
+        (c.coordinate, re.search(r"CRONBACH_ALPHA\('?([^'!]+)'?!([$A-Z0-9:]+)\)", c.value, re.I).groups())
+        for row in formulas["Reliability"].iter_rows() for c in row
+        if c.data_type == "f" and re.match(r"=_xludf\.CRONBACH_ALPHA\(", c.value, re.I))
     answers = calc([{"open": str(study)}, {"set": [[data_sheet, "C2", flipped]]}, {"recalc": True},
-                    {"store": str(saved)}])
+                    {"read": [["Reliability", alpha_cell]]}, {"store": str(saved)}])
     assert answers[-1] is True
+    book[data_sheet]["C2"].value = flipped
+    rows = book[block[0]][block[1].replace("$", "")]
+    items = tuple(tuple(None if c.value is None else float(c.value) for c in row) for row in rows)
+    assert same(answers[3][0], expected("CRONBACH_ALPHA", items))
     live = _compare_with_recalc(saved, tmp_path)
     assert not [k for k, v in live.items() if v == "#NAME?"]
     changed = [k for k in live if k in before and live[k] != before[k]]
