@@ -37,6 +37,7 @@ COMMAND_MODULES = (
     "trueband.bridge.cmd_recalc",
     "trueband.bridge.cmd_fill",
     "trueband.bridge.cmd_study",
+    "trueband.bridge.cmd_addin",
 )
 
 

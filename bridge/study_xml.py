@@ -21,6 +21,7 @@ from xml.sax.saxutils import escape
 
 from openpyxl.utils import get_column_letter
 
+from .calc_binding import bind_for_calc, bind_sheet_xml
 from .sheet_xml import ErrorValue
 
 __all__ = ["rows_xml", "splice_rows", "sheet_parts"]
@@ -62,7 +63,7 @@ def rows_xml(rows: Iterable[list], first_row: int, *, formulas: bool,
                 parts.append(f'<c r="{ref}" t="e"><v>{escape(str(value))}</v></c>')
             elif isinstance(value, str):
                 if formulas and value.startswith("="):
-                    parts.append(f'<c r="{ref}"><f>{escape(value[1:])}</f></c>')
+                    parts.append(f'<c r="{ref}"><f>{escape(bind_for_calc(value[1:]))}</f></c>')
                 elif value:
                     parts.append(f'<c r="{ref}" t="inlineStr">{_text(value)}</c>')
             elif isinstance(value, (datetime.datetime, datetime.date, datetime.time)):
@@ -102,11 +103,14 @@ def splice_rows(path: Path, rows: Mapping[str, Callable[[], Iterator[str]]], las
             wanted = {parts[name]: name for name in rows}
             for info in src.infolist():
                 data = src.read(info.filename)
+                sheet = info.filename.startswith("xl/worksheets/") and info.filename.endswith(".xml")
                 if info.filename not in wanted:
+                    if sheet:  # registered calls as _xludf.NAME(, the form LibreOffice binds to the add-in
+                        data = bind_sheet_xml(data.decode("utf-8")).encode("utf-8")
                     dst.writestr(info, data, compress_type=zipfile.ZIP_DEFLATED, compresslevel=6)
                     continue
                 name = wanted[info.filename]
-                xml = data.decode("utf-8")
+                xml = bind_sheet_xml(data.decode("utf-8"))
                 xml = re.sub(r'<dimension ref="[^"]*"\s*/>', f'<dimension ref="A1:{last_cell[name]}"/>', xml, count=1)
                 if "</sheetData>" in xml:
                     head, tail = xml.split("</sheetData>", 1)

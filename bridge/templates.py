@@ -30,6 +30,7 @@ from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.datavalidation import DataValidation
 
+from .calc_binding import bind_workbook
 from .demo_data import DemoData
 from .study_build import CAUTION
 from .study_setup import DEFAULT_CRITERION_RELIABILITY, SETTINGS, SETUP_SHEET
@@ -139,6 +140,7 @@ def study_data_workbook(path: str | Path, demo: DemoData | None = None, *, n_ite
                                   "for people not hired), name your columns above, then run: trueband study "
                                   "THIS_FILE.xlsx -o study.xlsx").alignment = _WRAP
     _caution(st, f"A{len(SETTINGS) + 5}", 3)
+    bind_workbook(wb)  # registered calls as _xludf.NAME(, the form LibreOffice binds to the add-in
     wb.save(path)
     return path
 
@@ -207,6 +209,7 @@ def scoring_template(path: str | Path, *, n_items: int = 40, capacity: int = 500
         ws.cell(r, tc + 2, f'={guard}SCORE_CI({T}{r},{sd},{rel},"upper",{conf}))').number_format = "0.0"
         ws.cell(r, tc + 3, f"={guard}SCORE_BAND({T}{r},{totals},{sd},{rel},{conf}))")
     _caution(ws, f"A{last + 2}", 10)
+    bind_workbook(wb)  # registered calls as _xludf.NAME(, the form LibreOffice binds to the add-in
     wb.save(path)
     return path
 
@@ -273,5 +276,6 @@ def impact_template(path: str | Path, *, capacity: int = 8,
                          "selections from the group that bring the ratio to 0.8.").alignment = _WRAP
     ws.merge_cells(start_row=last + 2, start_column=1, end_row=last + 2, end_column=9)
     ws.row_dimensions[last + 2].height = 60
+    bind_workbook(wb)  # registered calls as _xludf.NAME(, the form LibreOffice binds to the add-in
     wb.save(path)
     return path

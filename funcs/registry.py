@@ -210,6 +210,39 @@ class SpreadsheetFunction:
             value = self.body(**self.coerced(bound))
         return self.check_result(value)
 
+    @functools.cached_property
+    def cell_call(self) -> Callable[[Sequence], Any]:
+        """``self(*args)`` for positional arguments, with less work per call (a live spreadsheet cell
+        calls this once per recomputation).
+
+        The same binding, conversion, defaults, errors and result check as :meth:`__call__`; the
+        per-argument steps are looked up once, and numpy's error state is set only around a body
+        that is not plain scalar Python (a NaN or infinity from a scalar body is refused by the
+        result check either way).
+
+        >>> REGISTRY["SEM"].cell_call((10, 0.75))
+        5.0
+        """
+        steps = tuple((a.name, a.coerce, a.required, a.default) for a in self.arguments)
+        n_max, body, check = len(steps), self.body, self.check_result
+        n_needed = max((i + 1 for i, a in enumerate(self.arguments) if a.required), default=0)
+        errstate = np.errstate
+
+        def call(args: Sequence):
+            n = len(args)
+            if n > n_max or n < n_needed:
+                self.bind(args)  # raises the count error bind raises, before any argument is converted
+            kwargs = {}
+            for i, (name, coerce, required, default) in enumerate(steps):
+                value = args[i] if i < n else None
+                if value is None and not required:
+                    value = default  # a blank optional argument takes its default, as bind does
+                kwargs[name] = coerce(value)
+            with errstate(all="ignore"):
+                return check(body(**kwargs))
+
+        return call
+
     @property
     def caution(self) -> str | None:
         """The topic module's ``CAUTION`` sentence, where it has one (e.g. adverse impact)."""

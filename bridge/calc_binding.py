@@ -1,0 +1,84 @@
+"""Registered function calls written so that LibreOffice Calc binds them to trueband's add-in.
+
+Calc reads a function it does not know from an xlsx file as an unknown name, and LibreOffice
+7.4 does not bind a plain ``SEM(...)`` in an xlsx to an add-in. It does bind
+``_xludf.SEM(...)``: ``_xludf`` is the add-in's service name (see :mod:`.calc_addin`), and
+``_xludf.`` is also the prefix other spreadsheet apps give to functions they do not know.
+``trueband recalc`` reads both forms. The workbooks trueband writes (templates, the study)
+therefore carry the prefix:
+
+==========================  ==================================================================
+function                    what
+==========================  ==================================================================
+:func:`bind_for_calc`       one formula's registered calls prefixed (strings and quoted sheet
+                            names untouched, already prefixed calls left as they are)
+:func:`bind_sheet_xml`      the same for every ``<f>`` element of a sheet part's XML
+:func:`bind_workbook`       the same for every formula cell of an openpyxl workbook
+==========================  ==================================================================
+"""
+
+from __future__ import annotations
+
+import functools
+import re
+
+from trueband.funcs.registry import ALIASES, REGISTRY
+
+__all__ = ["PREFIX", "bind_for_calc", "bind_sheet_xml", "bind_workbook"]
+
+PREFIX = "_xludf."
+
+_QUOTED = re.compile(r"""("(?:[^"]|"")*"|'(?:[^']|'')*')""")
+_F_ELEMENT = re.compile(r"(<f(?:\s[^>]*)?>)([^<]+)(</f>)")
+
+
+# A name followed by an opening bracket and not preceded by a letter, digit, _, ., $ or ! (so
+# neither part of a longer name, nor already prefixed, nor a sheet-qualified reference).
+_CALL = re.compile(r"(?<![\w.$!])([A-Za-z_][A-Za-z0-9_]*)(?=\s*\()")
+
+
+@functools.lru_cache(maxsize=1)
+def _registered() -> frozenset[str]:
+    return frozenset({*REGISTRY, *ALIASES})
+
+
+def _prefix(match: re.Match) -> str:
+    name = match.group(1)
+    return PREFIX + name if name.upper() in _registered() else name
+
+
+def bind_for_calc(formula: str) -> str:
+    """``formula`` with each call of a registered function written ``_xludf.NAME(``.
+
+    >>> bind_for_calc('=IF(A2="","",SCORE_CI(A2,$C$4,$C$3,"lower"))')
+    '=IF(A2="","",_xludf.SCORE_CI(A2,$C$4,$C$3,"lower"))'
+    >>> bind_for_calc('=ROUND(sem(12, 0.91), 2) & "SEM(1,2)"')
+    '=ROUND(_xludf.sem(12, 0.91), 2) & "SEM(1,2)"'
+    >>> bind_for_calc("=_xludf.SEM(B2,B3)+SUM('SEM(x'!A1:A3)")
+    "=_xludf.SEM(B2,B3)+SUM('SEM(x'!A1:A3)"
+    """
+    if "(" not in formula:
+        return formula
+    if '"' not in formula and "'" not in formula:
+        return _CALL.sub(_prefix, formula)
+    parts = _QUOTED.split(formula)
+    for i in range(0, len(parts), 2):  # even pieces are outside quotes
+        parts[i] = _CALL.sub(_prefix, parts[i])
+    return "".join(parts)
+
+
+def bind_sheet_xml(xml: str) -> str:
+    """Every ``<f>`` element of a sheet part (XML text) through :func:`bind_for_calc`.
+
+    >>> bind_sheet_xml('<c r="B2"><f>SEM(A2,0.9)</f><v>1</v></c><c r="B3"><f t="shared" si="0">A2+1</f></c>')
+    '<c r="B2"><f>_xludf.SEM(A2,0.9)</f><v>1</v></c><c r="B3"><f t="shared" si="0">A2+1</f></c>'
+    """
+    return _F_ELEMENT.sub(lambda m: m.group(1) + bind_for_calc(m.group(2)) + m.group(3), xml)
+
+
+def bind_workbook(wb) -> None:
+    """Every formula cell of an openpyxl workbook through :func:`bind_for_calc`, in place."""
+    for ws in wb.worksheets:
+        for cell in list(ws._cells.values()):  # the cells that exist (iter_rows would create the empty ones)
+            if cell.data_type == "f" and isinstance(cell.value, str):
+                cell.value = bind_for_calc(cell.value)
