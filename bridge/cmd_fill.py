@@ -177,9 +177,12 @@ def fill_changes(pkg: WorkbookPackage, plan: FillPlan, formula: str, *, header: 
     """The package edits of a fill: the new cells in the sheet part, the calculation chain dropped.
 
     ``formula`` may contain ``{row}``, replaced by each row's number; it is checked first
-    (:func:`checked_formula`).
+    (:func:`checked_formula`), and registered calls are written ``_xludf.NAME(`` (the form LibreOffice
+    Calc binds to trueband's add-in, :mod:`.calc_binding`).
     """
-    text = checked_formula(formula, plan, same_formula=same_formula)
+    from .calc_binding import bind_for_calc
+
+    text = bind_for_calc(checked_formula(formula, plan, same_formula=same_formula))  # so Calc's add-in binds it
     cells = {f"{plan.column}{r}": NewCell(formula=text.replace("{row}", str(r))) for r in range(plan.first,
                                                                                             plan.last + 1)}
     if plan.header_ref is not None and header is not None:

@@ -89,7 +89,7 @@ def test_fill_adds_only_the_new_cells(features):
     added = sorted(set(after) - set(before), key=lambda r: (int(r[1:]), r[0]))
     assert added == ["F1", "F2", "F3", "F4", "F5", "F6", "F7"]
     assert after["F1"].value == "Band" and after["F1"].style == before["D1"].style
-    assert after["F5"].formula.text == "SCORE_BAND(C5,$C$2:$C$7,Settings!$B$1,Reliability)"
+    assert after["F5"].formula.text == "_xludf.SCORE_BAND(C5,$C$2:$C$7,Settings!$B$1,Reliability)"  # the form Calc binds to the add-in
 
 
 def test_fill_command_end_to_end(features, capsys):
@@ -100,7 +100,7 @@ def test_fill_command_end_to_end(features, capsys):
     scores = [a[2] for a in gb.APPLICANTS]
     wb = openpyxl.load_workbook(out, data_only=True)  # reference library
     assert [wb["Applicants"][f"F{r}"].value for r in range(2, 8)] == fixed_bands(scores, SD, RELIABILITY)
-    assert openpyxl.load_workbook(out)["Applicants"]["F2"].value == "=SCORE_BAND(C2, $C$2:$C$7, Settings!$B$1, Reliability)"
+    assert openpyxl.load_workbook(out)["Applicants"]["F2"].value == "=_xludf.SCORE_BAND(C2, $C$2:$C$7, Settings!$B$1, Reliability)"
     with zipfile.ZipFile(features) as a, zipfile.ZipFile(out) as b:
         assert a.namelist() == b.namelist()
         for name in a.namelist():
@@ -117,12 +117,12 @@ def test_fill_reads_semicolons_as_typed_in_a_spreadsheet_app_and_allows_one_form
     assert code == EXIT_OK, capsys.readouterr().err
     out = features.with_name("features.filled.xlsx")
     c = cells(out, "Applicants")
-    assert c["F3"].formula.text == "SEM(C3, 0.9)" and c["F3"].value == pytest.approx(c["C3"].value * 0.1 ** 0.5)
+    assert c["F3"].formula.text == "_xludf.SEM(C3, 0.9)" and c["F3"].value == pytest.approx(c["C3"].value * 0.1 ** 0.5)
     code = main(["fill", str(out), "--in-place", "--sheet", "Applicants", "--column", "G",
                  "--formula", "=SEM($C$2, 0.9)", "--same-formula"])
     assert code == EXIT_OK, capsys.readouterr().err
     c = cells(out, "Applicants")
-    assert {c[f"G{r}"].formula.text for r in range(2, 8)} == {"SEM($C$2, 0.9)"}
+    assert {c[f"G{r}"].formula.text for r in range(2, 8)} == {"_xludf.SEM($C$2, 0.9)"}
 
 
 def test_bands_command_builds_the_formula(features, capsys):
@@ -131,7 +131,7 @@ def test_bands_command_builds_the_formula(features, capsys):
     assert code == EXIT_OK, capsys.readouterr().err
     c = cells(features.with_name("features.filled.xlsx"), "Applicants")
     assert c["F1"].value == "Score band"  # the first empty column; the default header
-    assert c["F2"].formula.text == "SCORE_BAND(C2,$C$2:$C$7,Settings!$B$1,0.88,0.9)"
+    assert c["F2"].formula.text == "_xludf.SCORE_BAND(C2,$C$2:$C$7,Settings!$B$1,0.88,0.9)"
     scores = [a[2] for a in gb.APPLICANTS]
     assert [c[f"F{r}"].value for r in range(2, 8)] == [float(b) for b in fixed_bands(scores, SD, RELIABILITY, 0.9)]
 
@@ -143,7 +143,7 @@ def test_fill_in_place_with_backup(features):
     assert code == EXIT_OK
     assert features.with_name("features.backup.xlsx").read_bytes() == original
     c = cells(features, "Applicants")
-    assert c["G2"].formula.text == "SCORE_BAND(C2,$C$2:$C$7,4.2,0.88)" and c["G2"].value == 1.0
+    assert c["G2"].formula.text == "_xludf.SCORE_BAND(C2,$C$2:$C$7,4.2,0.88)" and c["G2"].value == 1.0
     assert sorted(p.name for p in features.parent.iterdir()) == ["features.backup.xlsx", "features.xlsx"]
 
 
