@@ -175,13 +175,13 @@ def _existing_records(pkg: WorkbookPackage) -> list[FormulaRecord]:
         info = pkg.sheet(FORMULA_SHEET)
     except KeyError:
         return []
-    return read_records(pkg.read(info.part))
+    return read_records(pkg.read(info.part), pkg.shared_strings)
 
 
-def read_records(xml: bytes) -> list[FormulaRecord]:
+def read_records(xml: bytes, shared_strings=()) -> list[FormulaRecord]:
     """The records of a formula sheet part (the inverse of what :func:`replace_with_values` writes)."""
     rows: dict[int, dict[int, object]] = {}
-    for cell in iter_cells(xml):
+    for cell in iter_cells(xml, shared_strings):
         rows.setdefault(cell.row, {})[cell.col] = cell.value
     out = []
     for r in sorted(rows):
@@ -256,20 +256,32 @@ def restore_formulas(pkg: WorkbookPackage, changes: PackageChanges) -> RestoreRe
 
     Each formula goes back into its cell beside the cell's current value (so
     the file still shows the same values until recalculated). A recorded
-    cell whose sheet was renamed or deleted, or that no longer exists, is
-    listed in ``skipped``.
+    cell whose sheet was renamed or deleted, or that holds a formula again,
+    is listed in ``skipped``.
+
+    Works on files that a spreadsheet app opened and saved meanwhile:
+    the app rewrites the hidden sheet with shared strings (read through the
+    workbook's table), drops the cells whose value was empty text (they are
+    written again, with their formula and no cached value), and numbers its
+    own shared formulas, so a restored shared group whose ``si`` is taken in
+    its sheet gets a free one.
 
     Raises
     ------
     UnusableWorkbook
-        The workbook has no hidden formula sheet (nothing to restore).
+        The workbook has no hidden formula sheet (nothing to restore), or a
+        part cannot be read (one line naming the sheet and the cell).
     """
     try:
         info = pkg.sheet(FORMULA_SHEET)
     except KeyError:
         raise UnusableWorkbook(f"{pkg.path.name} has no sheet {FORMULA_SHEET}: there are no replaced formulas "
                                f"to restore", path=pkg.path) from None
-    records = read_records(pkg.read(info.part))
+    try:
+        records = read_records(pkg.read(info.part), pkg.shared_strings)
+    except sheet_xml.SheetXmlError as exc:
+        raise UnusableWorkbook(f"{pkg.path.name}: the hidden sheet {FORMULA_SHEET} cannot be read ({exc})",
+                               path=pkg.path) from None
     report = RestoreReport()
     by_sheet: dict[str, list[FormulaRecord]] = {}
     for rec in records:
@@ -280,26 +292,67 @@ def restore_formulas(pkg: WorkbookPackage, changes: PackageChanges) -> RestoreRe
         except KeyError:
             report.skipped += [(f"{rec.sheet}!{rec.cell}", "the sheet no longer exists") for rec in recs]
             continue
-        xml = changes.current(pkg, target.part)
-        current = {c.ref: c for c in iter_cells(xml, pkg.shared_strings)}
-        updates = {}
-        for rec in recs:
-            cell = current.get(rec.cell)
-            if cell is None:
-                report.skipped.append((f"{rec.sheet}!{rec.cell}", "the cell no longer exists"))
-                continue
-            if cell.formula is not None:
-                report.skipped.append((f"{rec.sheet}!{rec.cell}", "the cell holds a formula again"))
-                continue
-            # text values (shared or inline strings) become the formula's text result (t="str")
-            updates[rec.cell] = CellUpdate(cell.value, formula_xml=rec.element)
-        if updates:
-            changes.set(pkg, target.part, sheet_xml.patch_sheet(xml, updates))
-            report.restored += len(updates)
+        try:
+            report.restored += _restore_sheet(pkg, changes, target, recs, report)
+        except sheet_xml.SheetXmlError as exc:
+            raise UnusableWorkbook(f"{pkg.path.name}: sheet {name!r}: {exc}; nothing was restored",
+                                   path=pkg.path) from None
     _remove_sheet(pkg, changes, info)
     changes.drop_calc_chain(pkg)
     changes.keep_cached_values(pkg)
     return report
+
+
+_SI = re.compile(rb'(\bsi=")([0-9]+)(")')
+
+
+def _restore_sheet(pkg: WorkbookPackage, changes: PackageChanges, target, recs: list[FormulaRecord],
+                   report: RestoreReport) -> int:
+    """Put one sheet's records back; the number of formulas restored."""
+    xml = changes.current(pkg, target.part)
+    current = {}
+    taken_si: set[int] = set()
+    for c in iter_cells(xml, pkg.shared_strings):
+        current[c.ref] = c
+        if c.formula is not None and c.formula.shared_index is not None:
+            taken_si.add(c.formula.shared_index)
+    # a recorded shared group whose si the sheet uses now (an app numbered its own groups) gets a free one
+    recorded_si = {int(m.group(2)) for m in (_SI.search(rec.element) for rec in recs) if m is not None}
+    renumber: dict[int, int] = {}
+    used_si = taken_si | recorded_si
+    for si in sorted(recorded_si & taken_si):
+        renumber[si] = max(used_si) + 1
+        used_si.add(renumber[si])
+    updates: dict[str, CellUpdate] = {}
+    absent: dict[str, sheet_xml.NewCell] = {}
+    for rec in recs:
+        ref = rec.cell.replace("$", "").upper()
+        try:
+            sheet_xml.split_ref(ref)
+        except ValueError:
+            report.skipped.append((f"{rec.sheet}!{rec.cell}", "the record does not name a cell"))
+            continue
+        cell = current.get(ref)
+        element = rec.element
+        if renumber:
+            element = _SI.sub(lambda m: m.group(1) + str(renumber.get(int(m.group(2)), int(m.group(2)))).encode()
+                              + m.group(3), element, count=1)
+        if cell is None:
+            # spreadsheet apps do not save a cell whose value is empty text: it comes back without a value
+            absent[ref] = sheet_xml.NewCell()
+            updates[ref] = CellUpdate(None, formula_xml=element)
+            continue
+        if cell.formula is not None:
+            report.skipped.append((f"{rec.sheet}!{rec.cell}", "the cell holds a formula again"))
+            continue
+        # text values (shared or inline strings) become the formula's text result (t="str")
+        updates[ref] = CellUpdate(cell.value, formula_xml=element)
+    if not updates:
+        return 0
+    if absent:
+        xml = sheet_xml.add_cells(xml, absent)
+    changes.set(pkg, target.part, sheet_xml.patch_sheet(xml, updates))
+    return len(updates)
 
 
 def _remove_sheet(pkg: WorkbookPackage, changes: PackageChanges, info) -> None:

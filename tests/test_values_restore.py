@@ -192,3 +192,91 @@ def test_libreoffice_shows_values_of_a_values_book(forms, tmp_path, soffice):
     scores = shown["Scores"]
     assert [gb.csv_cell(scores, f"C{r}") for r in range(2, 10)] == [str(r % 2 + 1) for r in range(2, 10)]
     assert gb.csv_cell(scores, "D2") == "1.45" and gb.csv_cell(scores, "D3") == "3.6"
+
+
+# ------------------------------------------------------------------ restore after another program saved the file
+
+
+def _formulas(path, sheet):
+    """Every formula of a sheet as openpyxl (a reference reader) sees it, shared formulas translated."""
+    ws = openpyxl.load_workbook(path)[sheet]
+    return {c.coordinate: c.value for row in ws.iter_rows() for c in row
+            if isinstance(c.value, str) and c.value.startswith("=")}
+
+
+@pytest.fixture
+def demo_scoring(tmp_path):
+    """The demo's scoring sheet (invented data), written as `trueband demo` writes it."""
+    from trueband.bridge.demo_data import make_demo
+    from trueband.bridge.templates import scoring_template
+
+    demo = make_demo()
+    return scoring_template(tmp_path / "scoring.xlsx", ids=demo.ids, responses=demo.items.tolist(),
+                            title="Scoring sheet: Dispatch Knowledge Test (demo)")
+
+
+def _values_file(path):
+    from trueband.bridge.recalc import recalculate
+
+    return recalculate(path, values=True).output
+
+
+@pytest.mark.libreoffice
+def test_restore_after_libreoffice_saved_the_values_file(demo_scoring, tmp_path, soffice, capsys):
+    # reproduces issue 10 item 3: Calc rewrote the hidden sheet with shared strings and left out the cells
+    # whose value was empty text; restore ended in a traceback (SheetXmlError about a shared string)
+    values = _values_file(demo_scoring)
+    saved = gb.libreoffice_resave(soffice, values, tmp_path / "calc")
+    assert main(["restore", str(saved), "-o", str(tmp_path / "back.xlsx")]) == EXIT_OK
+    assert "restored 1501 formula(s)" in capsys.readouterr().err  # 500 rows x 3 trueband columns + C3
+    assert openpyxl.load_workbook(tmp_path / "back.xlsx").sheetnames == ["Scoring"]
+    before, after = _formulas(demo_scoring, "Scoring"), _formulas(tmp_path / "back.xlsx", "Scoring")
+    assert after == before
+    # Calc shows the restored cells with the values they had in the values file
+    frozen = gb.libreoffice_csv(soffice, saved, tmp_path / "csv1")["Scoring"]
+    shown = gb.libreoffice_csv(soffice, tmp_path / "back.xlsx", tmp_path / "csv2")["Scoring"]
+    for ref in ("C3", "AQ8", "AR8", "AS8", "AS407"):
+        assert gb.csv_cell(shown, ref) == gb.csv_cell(frozen, ref) != "", ref
+
+
+def test_restore_after_openpyxl_saved_the_values_file(demo_scoring, tmp_path):
+    values = _values_file(demo_scoring)
+    wb = openpyxl.load_workbook(values)  # another writer: its own shared strings, styles and parts
+    wb.save(tmp_path / "resaved.xlsx")
+    assert main(["restore", str(tmp_path / "resaved.xlsx"), "-o", str(tmp_path / "back.xlsx")]) == EXIT_OK
+    assert _formulas(tmp_path / "back.xlsx", "Scoring") == _formulas(demo_scoring, "Scoring")
+
+
+def test_restored_shared_group_does_not_take_a_shared_index_in_use(forms, tmp_path):
+    out, _ = values_book(forms)
+    # an app saved the file and numbered a shared formula of its own 0, the index the recorded group had
+    with open_workbook_package(out) as pkg:
+        from trueband.bridge.sheet_xml import NewCell, add_cells, patch_sheet, CellUpdate
+        changes = PackageChanges()
+        part = pkg.sheet("Scores").part
+        xml = add_cells(pkg.read(part), {"G2": NewCell(value=1.0), "G3": NewCell(value=1.0)})
+        xml = patch_sheet(xml, {"G2": CellUpdate(62.0, formula_xml=b'<f t="shared" ref="G2:G3" si="0">B2*2</f>'),
+                                "G3": CellUpdate(54.0, formula_xml=b'<f t="shared" si="0"/>')})
+        changes.set(pkg, part, xml)
+        edited = save_workbook(pkg, changes, output=tmp_path / "edited.xlsx")
+    assert main(["restore", str(edited)]) == EXIT_OK
+    got = _formulas(tmp_path / "edited.restored.xlsx", "Scores")
+    assert got["G3"] == "=B3*2"
+    assert got["C3"] == "=SCORE_BAND(B3,$B$2:$B$9,Settings!$B$1,Reliability)"
+    assert got["C9"] == "=SCORE_BAND(B9,$B$2:$B$9,Settings!$B$1,Reliability)"
+
+
+def test_restore_of_an_unreadable_record_sheet_is_one_line(forms, tmp_path, capsys):
+    out, _ = values_book(forms)
+    with open_workbook_package(out) as pkg:  # a record cell points at a shared string the file does not have
+        changes = PackageChanges()
+        part = pkg.sheet(vm.FORMULA_SHEET).part
+        xml = pkg.read(part).replace(b'<c r="A2" t="inlineStr"><is><t>Scores</t></is></c>',
+                                     b'<c r="A2" t="s"><v>999</v></c>', 1)
+        assert xml != pkg.read(part)
+        changes.set(pkg, part, xml)
+        broken = save_workbook(pkg, changes, output=tmp_path / "broken.xlsx")
+    assert main(["restore", str(broken)]) == EXIT_FAILED
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1 and "trueband_formulas" in err and "A2" in err
+    assert not (tmp_path / "broken.restored.xlsx").exists()
