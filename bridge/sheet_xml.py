@@ -64,6 +64,9 @@ __all__ = [
     "SheetColumns",
     "SheetArrays",
     "ColumnArrays",
+    "unusual_form",
+    "parsed_form",
+    "normal_form",
 ]
 
 #: Error values a cell can hold.
@@ -207,6 +210,208 @@ def sheet_data_span(xml: bytes) -> tuple[int, int, bytes]:
     return j + 1, end, prefix
 
 
+# ------------------------------------------------------------------ unusual forms: the pre-scan and the parser path
+#
+# The regular expressions read the forms spreadsheet apps and libraries write: double-quoted attributes
+# separated by single spaces, "</c>" end tags, no comments, CDATA sections, processing instructions or
+# character references, one prefix for the main namespace (the root's). Other writers may produce other
+# valid XML. A cheap scan of the bytes (searches for single bytes and short strings, most of them only
+# over what the fast patterns left over) flags a part that may hold such a form; a flagged part is read
+# with expat, the standard library's XML parser, and written out again in the usual form, which the
+# regular expressions then read. Nothing is guessed: a part the parser refuses is refused in one line.
+
+#: Root tags binding the main namespace twice (a prefix and the default, or two prefixes).
+_MAIN_URIS = (b"http://schemas.openxmlformats.org/spreadsheetml/2006/main", b"http://purl.oclc.org/ooxml/spreadsheetml/main")
+#: Confirms a hit of the quick search: whitespace other than single spaces inside a tag, whitespace
+#: around "=", a single-quoted value, a comment, CDATA section or processing instruction, a character reference.
+_ODD_TAG = re.compile(rb"<[^<>]*?(?:[\t\n\r]|\s>|\s\s|\s=|=\s|=')|<[!?]|&#")
+_XML_DECL = re.compile(rb"\A(?:\xef\xbb\xbf)?<\?xml[^>]*?\?>")
+_DECL_ENCODING = re.compile(rb"""encoding\s*=\s*["']([A-Za-z0-9._-]+)["']""")
+
+
+class _Parsed(bytes):
+    """A part as :func:`parsed_form` wrote it: in the usual form by construction, not scanned again."""
+
+    __slots__ = ()
+
+
+_SPACE_BEFORE = re.compile(rb" [ =>]")  # one pattern with a literal first byte: searched at memchr-like speed
+
+
+def _odd(region: bytes) -> bool:
+    """True when ``region`` may hold an unusual form: quick searches (single bytes first, a short string only
+    where its rarer byte occurs), then one confirming pattern, so that text such as ``a  b`` or ``x = y``
+    alone does not count."""
+    hit = (b"'" in region or b"\t" in region or b"\r" in region
+           or (b"!" in region and b"<!" in region) or (b"?" in region and b"<?" in region)
+           or (b"#" in region and b"&#" in region) or b"= " in region or _SPACE_BEFORE.search(region) is not None)
+    if not hit and b"\n" in region:  # a newline anywhere but right after a tag (pretty-printed parts)
+        hit = region.count(b"\n") != region.count(b">\n")
+    return hit and _ODD_TAG.search(region) is not None
+
+
+def _odd_outside(xml: bytes, start: int, end: int) -> str | None:
+    """The parts of the scan that do not depend on the cells: encoding, root tag, the bytes around ``<sheetData>``."""
+    head = xml[:start]
+    if head[:2] in (b"\xff\xfe", b"\xfe\xff") or b"\x00" in head[:64]:
+        return "it is not UTF-8"
+    decl = _XML_DECL.match(head)
+    if decl:
+        enc = _DECL_ENCODING.search(decl.group(0))
+        if enc and enc.group(1).lower() not in (b"utf-8", b"utf8"):
+            return f"it is encoded as {enc.group(1).decode('ascii')}"
+        head = head[decl.end():]
+    root = _ROOT.search(head)
+    if root is not None:
+        tag_end = head.find(b">", root.end())
+        tag = head[root.start():tag_end + 1]
+        if sum(tag.count(u) for u in _MAIN_URIS) > 1:
+            return "the root binds the spreadsheet namespace twice"
+    if _odd(head) or _odd(xml[end:]):
+        return "its tags are written in an unusual form"
+    if xml.find(b"xmlns", start, end) >= 0:
+        return "it declares namespaces inside the cell data"
+    if b"\r" in xml or (b"&#" in xml if b"#" in xml else False):
+        return "it holds character references or carriage returns"
+    return None
+
+
+def unusual_form(xml: bytes) -> str | None:
+    """Why the part must go through the XML parser (see :func:`parsed_form`), or None for the usual form.
+
+    A scan of the whole part: cheap searches over the bytes; a hit is
+    confirmed by one pattern (text such as ``a  b`` or ``x = y`` alone does not
+    send a part to the parser). The bulk readers scan less: only what their
+    fast patterns did not take.
+    """
+    if type(xml) is _Parsed:
+        return None
+    try:
+        start, end, _ = sheet_data_span(xml)
+    except SheetXmlError:
+        return "its root or cell data cannot be found by the fast reader"
+    why = _odd_outside(xml, start, end)
+    if why is None and _odd(xml[start:end]):
+        why = "its tags are written in an unusual form"
+    return why
+
+
+def _span(xml: bytes) -> tuple[bytes, tuple[int, int, bytes]]:
+    """(part, :func:`sheet_data_span`), the part through the parser when the fast search cannot find its
+    root or cell data (another encoding, say)."""
+    try:
+        return xml, sheet_data_span(xml)
+    except SheetXmlError:
+        if type(xml) is _Parsed:
+            raise
+        xml = parsed_form(xml)
+        return xml, sheet_data_span(xml)
+
+
+def normal_form(xml: bytes) -> bytes:
+    """The part itself when it is in the usual form, else :func:`parsed_form` of it."""
+    return xml if unusual_form(xml) is None else parsed_form(xml)
+
+
+_TEXT_OUT = {ord("&"): "&amp;", ord("<"): "&lt;", ord(">"): "&gt;", ord("\r"): "_x000D_"}
+_ATTR_OUT = {ord("&"): "&amp;", ord("<"): "&lt;", ord(">"): "&gt;", ord('"'): "&quot;", ord("\t"): "&#9;",
+             ord("\n"): "&#10;", ord("\r"): "&#13;"}
+
+
+def parsed_form(xml: bytes) -> bytes:
+    """The part read by expat (the standard library's XML parser) and written again in the usual form.
+
+    Written: every element with its attributes in their order, double-quoted
+    and single-space separated; text escaped; CDATA sections as text;
+    character references as the characters; an empty element as a start and
+    an end tag; elements of the spreadsheet namespace under the root's prefix;
+    namespace declarations kept where they were. Left out: comments and
+    processing instructions (nothing a spreadsheet app reads), the document's
+    own XML declaration (a UTF-8 one is written).
+
+    Raises
+    ------
+    SheetXmlError
+        The part is not well-formed XML, has a document type declaration
+        (never needed by a workbook part, and a way to expand entities), or
+        rebinds the root's prefix to another namespace.
+    """
+    from xml.parsers import expat
+
+    if type(xml) is _Parsed:
+        return xml
+    parser = expat.ParserCreate()  # no namespace processing: names come with their prefixes, as written
+    parser.ordered_attributes = True
+    parser.buffer_text = True
+    out: list[str] = []
+    scopes: list[dict[str, str]] = [{"xml": "http://www.w3.org/XML/1998/namespace"}]
+    names: list[str] = []
+    root: list[str] = []  # [prefix, uri] of the root element
+    pending = [False]  # the last start tag is still open (no content yet)
+
+    def close_pending():
+        if pending[0]:
+            out.append(">")
+            pending[0] = False
+
+    def start(name, attrs):
+        close_pending()
+        scope = scopes[-1]
+        declared = {}
+        for k in range(0, len(attrs), 2):
+            a = attrs[k]
+            if a == "xmlns":
+                declared[""] = attrs[k + 1]
+            elif a.startswith("xmlns:"):
+                declared[a[6:]] = attrs[k + 1]
+        if declared:
+            scope = {**scope, **declared}
+        scopes.append(scope)
+        prefix, _, local = name.rpartition(":")
+        uri = scope.get(prefix)
+        if uri is None and prefix:
+            raise SheetXmlError(f"the part uses the prefix {prefix!r} without declaring it")
+        if not root:
+            root.extend([prefix, uri])
+        elif uri == root[1] and prefix != root[0]:
+            if scope.get(root[0]) != root[1]:
+                raise SheetXmlError(f"the part rebinds the prefix {root[0] or '(default)'!r} inside the sheet; "
+                                    f"it cannot be read")
+            name = f"{root[0]}:{local}" if root[0] else local
+        elif prefix == root[0] and uri != root[1] and local in ("c", "row", "v", "f", "is", "t", "sheetData"):
+            raise SheetXmlError(f"the part rebinds the prefix {root[0] or '(default)'!r} inside the sheet; "
+                                f"it cannot be read")
+        names.append(name)
+        out.append("<" + name)
+        for k in range(0, len(attrs), 2):
+            out.append(f' {attrs[k]}="{attrs[k + 1].translate(_ATTR_OUT)}"')
+        pending[0] = True
+
+    def end(name):
+        close_pending()
+        out.append(f"</{names.pop()}>")
+        scopes.pop()
+
+    def text(data):
+        close_pending()
+        out.append(data.translate(_TEXT_OUT))
+
+    def doctype(*args):
+        raise SheetXmlError("the part has a document type declaration, which a workbook part never needs")
+
+    parser.StartElementHandler = start
+    parser.EndElementHandler = end
+    parser.CharacterDataHandler = text
+    parser.StartDoctypeDeclHandler = doctype
+    parser.EntityDeclHandler = doctype
+    try:
+        parser.Parse(bytes(xml), True)
+    except expat.ExpatError as exc:
+        raise SheetXmlError(f"the part is not well-formed XML ({exc})") from None
+    head = '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
+    return _Parsed((head + "".join(out)).encode("utf-8"))
+
+
 def _attrs(raw: bytes) -> dict[bytes, bytes]:
     return dict(_ATTR.findall(raw))
 
@@ -289,8 +494,11 @@ def iter_cells(xml: bytes, shared_strings: Sequence[str] = ()) -> Iterator[Cell]
     The sheet is matched in pieces of about :data:`CHUNK_BYTES` with one
     ``findall`` each, so the Python work per cell is a handful of operations.
     A sheet whose cells are written without ``r`` attributes (allowed, rare)
-    is read by a slower row-aware path.
+    is read by a slower row-aware path. A part in an unusual form
+    (:func:`unusual_form`) is read through the XML parser (:func:`parsed_form`).
     """
+    if type(xml) is not _Parsed and unusual_form(xml) is not None:
+        xml = parsed_form(xml)
     start, end, prefix = sheet_data_span(xml)
     if start == end:
         return
@@ -398,6 +606,7 @@ def _body_value(body: bytes, typ: str, ref: str, strings, content_re, text_run, 
 
 def _iter_cells_rowwise(xml: bytes, shared_strings: Sequence[str]) -> Iterator[Cell]:
     """The slow path of :func:`iter_cells`, tracking rows for cells written without ``r``."""
+    xml = normal_form(xml)
     start, end, prefix = sheet_data_span(xml)
     token, content_re, text_run, phonetic = _patterns(prefix)
     row = 0
@@ -437,7 +646,11 @@ _DIMENSION = re.compile(rb'<(?:\w+:)?dimension\b[^>]*?\bref="([^"]*)"')
 
 def dimension(xml: bytes) -> str | None:
     """The ``<dimension ref>`` the writing app recorded (e.g. ``"A1:K401"``), or None."""
-    m = _DIMENSION.search(xml, 0, 1 << 16) or _DIMENSION.search(xml, 0, sheet_data_span(xml)[0])
+    start = sheet_data_span(xml)[0]
+    if type(xml) is not _Parsed and (_odd(xml[:start]) or _odd_outside(xml[:start], start, start)):
+        xml = parsed_form(xml)
+        start = sheet_data_span(xml)[0]
+    m = _DIMENSION.search(xml, 0, start)
     return m.group(1).decode("ascii") if m else None
 
 
@@ -718,7 +931,10 @@ def patch_values(xml: bytes, values: Mapping, *, consume: bool = False, pieces: 
     """
     if not values:
         return [xml] if pieces else xml
-    start, end, prefix = sheet_data_span(xml)
+    xml, (start, end, prefix) = _span(xml)
+    if type(xml) is not _Parsed and _odd_for_patching(xml, start, end):
+        xml = parsed_form(xml)
+        start, end, prefix = sheet_data_span(xml)
     if type(next(iter(values))) is bytes:
         keyed = values if consume and isinstance(values, dict) else dict(values)
     else:
@@ -733,6 +949,17 @@ def patch_values(xml: bytes, values: Mapping, *, consume: bool = False, pieces: 
         out = [_patch_cells(b"".join(out), {ref.decode("ascii"): CellUpdate(v) for ref, v in keyed.items()})]
         keyed.clear()
     return out if pieces else b"".join(out)
+
+
+def _odd_for_patching(xml: bytes, start: int, end: int) -> bool:
+    """The scan :func:`patch_values` needs before its fast pass: the forms that could make a cell in the
+    usual form mean something else (inside a comment or CDATA section, another namespace, character
+    references). A cell that is itself in an unusual form is not taken by the fast pass and goes
+    through :func:`_patch_cells`, which scans the whole part."""
+    if _odd_outside(xml, start, end) is not None:
+        return True
+    return ((xml.find(b"!", start, end) >= 0 and xml.find(b"<!", start, end) >= 0)
+            or (xml.find(b"?", start, end) >= 0 and xml.find(b"<?", start, end) >= 0))
 
 
 def patch_sheet(xml: bytes, updates: Mapping[str, CellUpdate]) -> bytes:
@@ -779,6 +1006,7 @@ def patch_sheet(xml: bytes, updates: Mapping[str, CellUpdate]) -> bytes:
 
 def _patch_cells(xml: bytes, updates: Mapping[str, CellUpdate]) -> bytes:
     """The general path of :func:`patch_sheet`: any update, any form of cell."""
+    xml = normal_form(xml)
     start, end, prefix = sheet_data_span(xml)
     f_re = _f_pattern(prefix)
     close = b"</" + prefix + b"c>"
@@ -926,6 +1154,7 @@ def add_cells(xml: bytes, cells: Mapping[str, NewCell], *, replace: bool = False
     """
     if not cells:
         return xml
+    xml = normal_form(xml)
     start, end, prefix = sheet_data_span(xml)
     if start == end:  # <sheetData/>: open it up
         tag_end = xml.index(b">", start) + 1
@@ -1457,7 +1686,9 @@ def read_column_arrays(xml: bytes, shared_strings: Sequence[str] = ()) -> SheetA
     gc_was = gc.isenabled()
     gc.disable()
     try:
-        start, end, prefix = sheet_data_span(xml)
+        xml, (start, end, prefix) = _span(xml)
+        if type(xml) is not _Parsed and _odd_outside(xml, start, end) is not None:
+            return read_column_arrays(parsed_form(xml), shared_strings)
         got = _Collector(shared_strings)
         if start == end:
             return got.result()
@@ -1474,6 +1705,8 @@ def read_column_arrays(xml: bytes, shared_strings: Sequence[str] = ()) -> SheetA
                 got.formula_cells(parts)
                 rest = b"".join(parts[0::6])
             del parts
+            if type(xml) is not _Parsed and _odd(rest):  # what the fast patterns left: an unusual form?
+                return read_column_arrays(parsed_form(xml), shared_strings)
             if b"<c" in rest:
                 if _CELL_WITHOUT_R.search(rest):
                     return _arrays_from_cells(iter_cells(xml, shared_strings))

@@ -26,13 +26,14 @@ import dataclasses
 import posixpath
 import re
 from typing import Mapping
+from xml.etree import ElementTree
 
 from trueband.funcs.registry import REGISTRY, normalize_name
 
 from . import sheet_xml
 from .safe_write import PackageChanges, add_override, remove_override
 from .sheet_xml import CellUpdate, escape_text, iter_cells
-from .xlsx_package import REL_WORKSHEET, UnusableWorkbook, WorkbookPackage, rels_part_of
+from .xlsx_package import NS_REL, REL_WORKSHEET, UnusableWorkbook, WorkbookPackage, rels_part_of
 
 __all__ = [
     "FORMULA_SHEET",
@@ -108,7 +109,10 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
     for info in pkg.worksheets:
         if info.name == FORMULA_SHEET:
             continue
-        xml = changes.current(pkg, info.part)
+        try:  # a part in an unusual form is read and edited in the parser's form (sheet_xml.normal_form)
+            xml = sheet_xml.normal_form(changes.current(pkg, info.part))
+        except sheet_xml.SheetXmlError as exc:
+            raise UnusableWorkbook(f"{pkg.path.name}: sheet {info.name!r}: {exc}", path=pkg.path) from None
         masters: dict[int, str] = {}
         chosen: dict[str, tuple[str | None, object]] = {}
         for cell in iter_cells(xml, pkg.shared_strings):
@@ -219,25 +223,54 @@ def _write_formula_sheet(pkg: WorkbookPackage, changes: PackageChanges, records:
     changes.set(pkg, part, data)
     rels_name = rels_part_of(pkg.workbook_part)
     rels = changes.current(pkg, rels_name)
-    ids = set(re.findall(rb'\bId="([^"]*)"', rels))
-    rid = _free_name({i.decode() for i in ids}, "rId{}")
+    rid = _free_name({el.get("Id", "") for el in _small_xml(pkg, rels_name, rels)}, "rId{}")
     target = posixpath.relpath(part, posixpath.dirname(pkg.workbook_part))
     rel_el = f'<Relationship Id="{rid}" Type="{REL_WORKSHEET}" Target="{target}"/>'.encode()
     i = rels.rindex(b"</")
     changes.set(pkg, rels_name, rels[:i] + rel_el + rels[i:])
     ct = changes.current(pkg, "[Content_Types].xml")
     changes.set(pkg, "[Content_Types].xml", add_override(ct, "/" + part, CT_WORKSHEET))
-    wb = changes.current(pkg, pkg.workbook_part)
-    prefix_m = re.search(rb'<(\w+:)?sheet\b[^>]*?\s(\w+):id="', wb)
-    el_prefix = (prefix_m.group(1) or b"") if prefix_m else b""
-    r_prefix = prefix_m.group(2) if prefix_m else b"r"
-    ids = [int(x) for x in re.findall(rb'<(?:\w+:)?sheet\b[^>]*?\bsheetId="([0-9]+)"', wb)]
-    sheet_el = (b"<" + el_prefix + b'sheet name="' + FORMULA_SHEET.encode() + b'" sheetId="'
-                + str(max(ids, default=0) + 1).encode() + b'" state="' + FORMULA_SHEET_STATE.encode() + b'" '
-                + r_prefix + b':id="' + rid.encode() + b'"/>')
-    close = b"</" + el_prefix + b"sheets>"
-    j = wb.index(close)
-    changes.set(pkg, pkg.workbook_part, wb[:j] + sheet_el + wb[j:])
+    changes.set(pkg, pkg.workbook_part, _append_sheet(pkg, changes.current(pkg, pkg.workbook_part), rid))
+
+
+_SHEETS_END = re.compile(rb"</((?:[A-Za-z_][\w.-]*:)?)sheets\s*>")
+
+
+def _small_xml(pkg: WorkbookPackage, name: str, data: bytes):
+    try:
+        return ElementTree.fromstring(data)
+    except ElementTree.ParseError as exc:
+        raise UnusableWorkbook(f"{pkg.path.name}: part {name} is not well-formed XML ({exc})", path=pkg.path) from None
+
+
+def _append_sheet(pkg: WorkbookPackage, wb: bytes, rid: str) -> bytes:
+    """``workbook.xml`` with the hidden sheet's ``<sheet>`` appended to ``<sheets>``, namespace-aware.
+
+    The new element declares the relationships namespace itself (writers bind
+    it on the root, or, as openpyxl with lxml does, on each ``<sheet>``), and
+    takes the prefix of the ``</sheets>`` it goes before, which is bound
+    there. The result is parsed to check that the new sheet names its
+    relationship as the package reader will look it up.
+    """
+    root = _small_xml(pkg, pkg.workbook_part, wb)
+    ns = root.tag[1:].split("}", 1)[0] if root.tag.startswith("{") else ""
+    q = (lambda t: f"{{{ns}}}{t}") if ns else (lambda t: t)
+    ids = [int(el.get("sheetId")) for el in root.iter(q("sheet")) if (el.get("sheetId") or "").isdigit()]
+    ends = list(_SHEETS_END.finditer(wb))
+    if len(ends) != 1:
+        raise UnusableWorkbook(f"{pkg.path.name}: {pkg.workbook_part} has no single <sheets> list", path=pkg.path)
+    prefix = ends[0].group(1)
+    sheet_el = (b"<" + prefix + b'sheet xmlns:r="' + NS_REL.encode() + b'" name="' + FORMULA_SHEET.encode()
+                + b'" sheetId="' + str(max(ids, default=0) + 1).encode() + b'" state="'
+                + FORMULA_SHEET_STATE.encode() + b'" r:id="' + rid.encode() + b'"/>')
+    j = ends[0].start()
+    new = wb[:j] + sheet_el + wb[j:]
+    check = [el for el in _small_xml(pkg, pkg.workbook_part, new).iter(q("sheet"))
+             if el.get("name") == FORMULA_SHEET]
+    if len(check) != 1 or check[0].get(f"{{{NS_REL}}}id") != rid:
+        raise UnusableWorkbook(f"{pkg.path.name}: the hidden sheet could not be added to {pkg.workbook_part}",
+                               path=pkg.path)
+    return new
 
 
 # ------------------------------------------------------------------ restoring
@@ -309,7 +342,7 @@ _SI = re.compile(rb'(\bsi=")([0-9]+)(")')
 def _restore_sheet(pkg: WorkbookPackage, changes: PackageChanges, target, recs: list[FormulaRecord],
                    report: RestoreReport) -> int:
     """Put one sheet's records back; the number of formulas restored."""
-    xml = changes.current(pkg, target.part)
+    xml = sheet_xml.normal_form(changes.current(pkg, target.part))
     current = {}
     taken_si: set[int] = set()
     for c in iter_cells(xml, pkg.shared_strings):
@@ -361,22 +394,32 @@ def _remove_sheet(pkg: WorkbookPackage, changes: PackageChanges, info) -> None:
     if own_rels in pkg:
         changes.delete(own_rels)
     wb = changes.current(pkg, pkg.workbook_part)
-    wb = re.sub(rb'<(?:\w+:)?sheet\b[^>]*?\bname="' + re.escape(FORMULA_SHEET.encode()) + rb'"[^>]*?/>', b"", wb,
-                count=1)
+    # either quote, any prefix, whitespace in the tag: the file may have been saved by another app
+    wb, n = re.subn(rb'<(?:[\w.-]+:)?sheet\s[^>]*?\bname\s*=\s*(["\'])' + re.escape(_xml_attr(FORMULA_SHEET))
+                    + rb'\1[^>]*?/>', b"", wb, count=1)
+    if n != 1 or any(el.get("name") == FORMULA_SHEET for el in _small_xml(pkg, pkg.workbook_part, wb).iter()
+                     if el.tag.rsplit("}", 1)[-1] == "sheet"):
+        raise UnusableWorkbook(f"{pkg.path.name}: the hidden sheet {FORMULA_SHEET} could not be taken out of "
+                               f"{pkg.workbook_part}; nothing was restored", path=pkg.path)
     if info.index != len(pkg.sheets) - 1:
         wb = _renumber_local_names(wb, info.index)
     changes.set(pkg, pkg.workbook_part, wb)
     rels_name = rels_part_of(pkg.workbook_part)
     rels = changes.current(pkg, rels_name)
-    rels = re.sub(rb'<(?:\w+:)?Relationship\b[^>]*?\bId="' + re.escape(info.rel_id.encode()) + rb'"[^>]*?/>', b"",
-                  rels, count=1)
+    rels = re.sub(rb'<(?:[\w.-]+:)?Relationship\s[^>]*?\bId\s*=\s*(["\'])' + re.escape(info.rel_id.encode())
+                  + rb'\1[^>]*?/>', b"", rels, count=1)
     changes.set(pkg, rels_name, rels)
     ct = changes.current(pkg, "[Content_Types].xml")
     changes.set(pkg, "[Content_Types].xml", remove_override(ct, "/" + info.part))
 
 
 
-_LOCAL_NAME = re.compile(rb'(<(?:\w+:)?definedName\b[^>]*?\blocalSheetId=")([0-9]+)("[^>]*>.*?</(?:\w+:)?definedName>)', re.S)
+_LOCAL_NAME = re.compile(rb'(<(?:[\w.-]+:)?definedName\b[^>]*?\blocalSheetId\s*=\s*["\'])([0-9]+)'
+                         rb'(["\'][^>]*>.*?</(?:[\w.-]+:)?definedName\s*>)', re.S)
+
+
+def _xml_attr(text: str) -> bytes:
+    return text.replace("&", "&amp;").replace("<", "&lt;").encode("utf-8")
 
 
 def _renumber_local_names(wb: bytes, removed: int) -> bytes:

@@ -280,3 +280,57 @@ def test_restore_of_an_unreadable_record_sheet_is_one_line(forms, tmp_path, caps
     err = capsys.readouterr().err.strip()
     assert len(err.splitlines()) == 1 and "trueband_formulas" in err and "A2" in err
     assert not (tmp_path / "broken.restored.xlsx").exists()
+
+
+# ------------------------------------------------------------------ workbook.xml from other writers
+
+
+def _rewrite_part(src, dst, name, change):
+    with zipfile.ZipFile(src) as zf:
+        parts = {n: zf.read(n) for n in zf.namelist()}
+    new = change(parts[name])
+    assert new != parts[name]
+    parts[name] = new
+    return gb.write_zip(dst, parts)
+
+
+def test_values_mode_when_each_sheet_binds_the_relationship_prefix(forms, tmp_path):
+    # issue 10 item 8: openpyxl with lxml installed declares xmlns:r on each <sheet>, not on the root;
+    # the <sheet r:id=...> appended for the hidden sheet had an unbound prefix and the write failed
+    decl = f'xmlns:r="{gb.NS_R}"'.encode()
+    book = _rewrite_part(forms, tmp_path / "per-sheet.xlsx", "xl/workbook.xml",
+                         lambda wb: wb.replace(b" " + decl, b"", 1).replace(b"<sheet ", b"<sheet " + decl + b" "))
+    out, records = values_book(book)
+    assert len(records) == len(REGISTERED_CELLS)
+    wb = openpyxl.load_workbook(out)  # reference reader
+    assert wb.sheetnames[-1] == vm.FORMULA_SHEET and wb[vm.FORMULA_SHEET].sheet_state == "hidden"
+    with open_workbook_package(out) as pkg:
+        changes = PackageChanges()
+        assert vm.restore_formulas(pkg, changes).restored == len(REGISTERED_CELLS)
+        back = save_workbook(pkg, changes, tag="restored")
+    with zipfile.ZipFile(book) as a, zipfile.ZipFile(back) as b:
+        assert a.read("xl/workbook.xml") == b.read("xl/workbook.xml")
+
+
+def test_values_mode_on_a_workbook_written_by_openpyxl(tmp_path, capsys):
+    # With lxml installed (the second CI run) openpyxl writes the per-sheet declarations of the test above.
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Bands"
+    ws["A1"], ws["A2"], ws["B1"] = 4.2, 0.88, "=SEM(A1,A2)"
+    wb.create_sheet("Notes")["A1"] = "Osterfell Harbour Logistics"
+    wb.save(tmp_path / "written.xlsx")
+    assert main(["recalc", "--values", str(tmp_path / "written.xlsx")]) == EXIT_OK
+    got = openpyxl.load_workbook(tmp_path / "written.recalc.xlsx")
+    assert got.sheetnames == ["Bands", "Notes", vm.FORMULA_SHEET]
+    assert got["Bands"]["B1"].value == pytest.approx(4.2 * (1 - 0.88) ** 0.5)  # SEM = SD * sqrt(1 - r)
+
+
+def test_restore_takes_out_a_hidden_sheet_entry_written_with_single_quotes(forms, tmp_path):
+    out, _ = values_book(forms)
+    edited = _rewrite_part(out, tmp_path / "quoted.xlsx", "xl/workbook.xml",
+                           lambda wb: wb.replace(f'name="{vm.FORMULA_SHEET}"'.encode(),
+                                                 f"name = '{vm.FORMULA_SHEET}'".encode()))
+    assert main(["restore", str(edited)]) == EXIT_OK
+    back = openpyxl.load_workbook(tmp_path / "quoted.restored.xlsx")
+    assert back.sheetnames == ["Scores", "Settings"]
