@@ -67,6 +67,7 @@ __all__ = [
     "unusual_form",
     "parsed_form",
     "normal_form",
+    "odd_part",
 ]
 
 #: Error values a cell can hold.
@@ -274,6 +275,21 @@ def _odd_outside(xml: bytes, start: int, end: int) -> str | None:
     if b"\r" in xml or (b"&#" in xml if b"#" in xml else False):
         return "it holds character references or carriage returns"
     return None
+
+
+def odd_part(xml: bytes) -> bool:
+    """The pre-scan for any other XML part read with regular expressions (the shared strings): True when
+    the part may hold a form they do not take, or is not UTF-8."""
+    head = xml[:256]
+    if head[:2] in (b"\xff\xfe", b"\xfe\xff") or b"\x00" in head[:64]:
+        return True
+    decl = _XML_DECL.match(head)
+    if decl:
+        enc = _DECL_ENCODING.search(decl.group(0))
+        if enc and enc.group(1).lower() not in (b"utf-8", b"utf8"):
+            return True
+        xml = xml[decl.end():]
+    return _odd(xml)
 
 
 def unusual_form(xml: bytes) -> str | None:
