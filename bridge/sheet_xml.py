@@ -68,6 +68,8 @@ __all__ = [
     "parsed_form",
     "normal_form",
     "odd_part",
+    "remove_cells",
+    "merged_ranges",
 ]
 
 #: Error values a cell can hold.
@@ -1220,6 +1222,55 @@ def add_cells(xml: bytes, cells: Mapping[str, NewCell], *, replace: bool = False
         ti += 1
     out = xml[:start] + b"".join(pieces) + xml[end:]
     return _widen_dimension(out, cells.keys())
+
+
+def remove_cells(xml: bytes, refs, *, empty_rows=()) -> bytes:
+    """Take the listed cells out of the part (the inverse of :func:`add_cells`); cells not there are ignored.
+
+    ``empty_rows`` lists row numbers whose ``<row>`` element is taken out too
+    when no cell is left in it (rows that :func:`add_cells` made).
+    """
+    xml = normal_form(xml)
+    start, end, prefix = sheet_data_span(xml)
+    want = {ref.encode("ascii") for ref in refs}
+    spans = []
+    for m in _cell_pattern(prefix).finditer(xml, start, end):
+        rm = _R_ATTR.search(m.group(1))
+        if rm is not None and rm.group(1) in want:
+            spans.append((m.start(), m.end()))
+    for a, b in reversed(spans):
+        xml = xml[:a] + xml[b:]
+    if empty_rows:
+        start, end, prefix = sheet_data_span(xml)
+        drop = {str(r).encode("ascii") for r in empty_rows}
+        close = b"</" + prefix + b"row>"
+        spans = []
+        for m in _row_pattern(prefix).finditer(xml, start, end):
+            if _attrs(m.group(1)).get(b"r") not in drop:
+                continue
+            if m.group(2) == b"/":
+                spans.append((m.start(), m.end()))
+            elif xml.startswith(close, m.end()):
+                spans.append((m.start(), m.end() + len(close)))
+        for a, b in reversed(spans):
+            xml = xml[:a] + xml[b:]
+    return xml
+
+
+def merged_ranges(xml: bytes) -> list[tuple[int, int, int, int]]:
+    """(first row, first column, last row, last column) of each merged range (``<mergeCell ref>``)."""
+    out = []
+    for m in _MERGE_CELL.finditer(normal_form(xml)):
+        a, _, b = m.group(1).decode("ascii").partition(":")
+        try:
+            (r1, c1), (r2, c2) = split_ref(a), split_ref(b or a)
+        except ValueError:
+            continue
+        out.append((min(r1, r2), min(c1, c2), max(r1, r2), max(c1, c2)))
+    return out
+
+
+_MERGE_CELL = re.compile(rb'<(?:[\w.-]+:)?mergeCell\b[^>]*?\bref="([^"]*)"')
 
 
 def _new_row_xml(rnum: int, new: list, prefix: bytes) -> bytes:

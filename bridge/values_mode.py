@@ -13,6 +13,24 @@ attributes). Formulas that only use standard functions stay formulas.
 cell's current value, removes the hidden sheet (its part, its ``<sheet>``
 entry, its relationship and content type) and drops the calculation chain.
 
+Why a notice on every sheet, not live formulas: the values of trueband
+functions cannot be kept live in a file for people without trueband (their
+spreadsheet app does not have the functions; that is why the values are
+written). Standard formulas that read them stay live, so once an input is
+edited in a spreadsheet app the file mixes new figures with frozen ones (a
+new cut beside an old selection ratio). So every sheet gets one text cell, a
+notice, saying that the values of trueband functions were fixed when the
+file was written (with the date and time), which cells hold them, which
+inputs they were computed from with the inputs' values then, and how to
+update them. The notice goes where it overwrites nothing and changes no
+result: a row with no cells near the top (above the data, or under a title),
+else the first free column right of the used range, else the row under it;
+never a merged cell, never a cell that any formula of the workbook reads. A
+cell, not a header or a note: spreadsheet apps show header text only in
+print preview and a note only on hover, and LibreOffice Calc shows the cell
+(tests check it). Its place is recorded in the hidden sheet, and ``trueband
+restore`` takes it out again (unless it was edited).
+
 Package edits made here, all as byte edits of the small parts involved:
 ``xl/workbook.xml`` (a ``<sheet>`` appended at the end, so the positions that
 sheet-local defined names count are unchanged), the workbook relationships,
@@ -23,6 +41,7 @@ are removed or added, so the chain is stale; apps rebuild it).
 from __future__ import annotations
 
 import dataclasses
+import datetime
 import posixpath
 import re
 from typing import Mapping
@@ -42,6 +61,12 @@ __all__ = [
     "replace_with_values",
     "restore_formulas",
     "RestoreReport",
+    "Notice",
+    "NOTICE_OPENING",
+    "notice_text",
+    "read_notices",
+    "frozen_inputs",
+    "reader_of",
 ]
 
 #: Name of the hidden sheet that keeps the replaced formulas.
@@ -76,11 +101,189 @@ class FormulaRecord:
     element: bytes
 
 
+@dataclasses.dataclass(frozen=True)
+class Notice:
+    """The notice cell written on a sheet: where, its text, and whether its row was made for it."""
+
+    sheet: str
+    cell: str
+    text: str
+    new_row: bool = False
+
+
+#: First words of every notice (how a notice is told from other text).
+NOTICE_OPENING = "Fixed values, not formulas:"
+_NOTICE_MARK = "(values notice)"
+_NOTICE_NEW_ROW = "(values notice, own row)"
+#: Items listed in a notice before "and N more".
+NOTICE_ITEMS = 8
+
+
+def _cell_ranges(refs) -> list[str]:
+    """Cells as compact ranges: runs down a column, then neighbouring columns with the same rows."""
+    by_col: dict[int, list[int]] = {}
+    for ref in refs:
+        r, c = sheet_xml.split_ref(ref)
+        by_col.setdefault(c, []).append(r)
+    runs: list[tuple[int, int, int, int]] = []  # (c1, c2, r1, r2)
+    for c in sorted(by_col):
+        rows = sorted(set(by_col[c]))
+        start = prev = rows[0]
+        for r in rows[1:] + [None]:
+            if r is not None and r == prev + 1:
+                prev = r
+                continue
+            last = next((k for k in range(len(runs) - 1, -1, -1) if runs[k][1] == c - 1
+                         and runs[k][2:] == (start, prev)), None)
+            if last is not None:
+                runs[last] = (runs[last][0], c, start, prev)
+            else:
+                runs.append((c, c, start, prev))
+            if r is not None:
+                start = prev = r
+    runs.sort(key=lambda t: (t[2], t[0]))
+    L = sheet_xml.column_letters
+    return [f"{L(c1)}{r1}" if (c1, r1) == (c2, r2) else f"{L(c1)}{r1}:{L(c2)}{r2}" for c1, c2, r1, r2 in runs]
+
+
+def _listed(items: list[str]) -> str:
+    if len(items) <= NOTICE_ITEMS:
+        return ", ".join(items)
+    return ", ".join(items[:NOTICE_ITEMS]) + f" and {len(items) - NOTICE_ITEMS} more"
+
+
+def _quoted_sheet(name: str) -> str:
+    return name if re.fullmatch(r"[A-Za-z_][A-Za-z0-9_.]*", name) else "'" + name.replace("'", "''") + "'"
+
+
+def _shown(value) -> str:
+    if isinstance(value, bool):
+        return "TRUE" if value else "FALSE"
+    if isinstance(value, float):
+        return f"{value:.6g}"
+    if isinstance(value, str):
+        return value if isinstance(value, sheet_xml.ErrorValue) else f'"{value[:40]}"'
+    return "(blank)"
+
+
+def notice_text(records: list[FormulaRecord], inputs=(), written_at: datetime.datetime | None = None) -> str:
+    """The text of the notice: when, which cells hold fixed values, from which inputs (values then), what to do.
+
+    ``inputs`` are (``Sheet!A1`` or ``Sheet!A1:B9``, value or None) pairs; a
+    single cell's value is shown as it was when the file was written.
+    """
+    when = (written_at or datetime.datetime.now(datetime.timezone.utc)).strftime("%Y-%m-%d %H:%M UTC")
+    cells: dict[str, list[str]] = {}
+    for rec in records:
+        cells.setdefault(rec.sheet, []).append(rec.cell)
+    held = [f"{_quoted_sheet(sheet)}!{r}" for sheet, refs in cells.items() for r in _cell_ranges(refs)]
+    text = (f"{NOTICE_OPENING} trueband recalc --values wrote the results of trueband functions in this file as "
+            f"fixed values on {when} ({_listed(held)}). They do not change when their inputs are edited")
+    shown = [label if value is None else f"{label} = {_shown(value)}" for label, value in inputs]
+    if shown:
+        text += f"; they were computed from {_listed(shown)}"
+    return text + (". Formulas that read them show mixed results after an edit. To update them: trueband restore "
+                   "FILE, then trueband recalc.")
+
+
+def frozen_inputs(runs, store, uses_registered, as_value) -> list[tuple[str, object]]:
+    """What the formula runs that call registered functions read, for the notice.
+
+    ``Sheet!A1`` with its value from ``store`` (a blank one labelled
+    ``(blank)``), or ``Sheet!A1:B9`` with None for a range; single cells first.
+    ``runs`` are the recalculation's formula runs, ``uses_registered(compiled)``
+    tells the ones to describe, ``as_value`` turns a stored value into a cell value.
+    """
+    from .column_eval import EMPTY
+
+    out: dict[str, object] = {}
+    for run in runs:
+        if not uses_registered(run.compiled):
+            continue
+        for ref in run.compiled.refs:
+            if ref.name is not None:
+                continue
+            sheet = store.canonical(ref.sheet or run.sheet) or (ref.sheet or run.sheet)
+            r1, c1, r2, c2 = _run_area(ref, run)
+            L = sheet_xml.column_letters
+            label = f"{_quoted_sheet(sheet)}!{L(c1)}{r1}" + ("" if (r1, c1) == (r2, c2) else f":{L(c2)}{r2}")
+            if label in out or label + " (blank)" in out:
+                continue
+            value = store.value(sheet, r1, c1) if (r1, c1) == (r2, c2) else None
+            if value is EMPTY:
+                out[label + " (blank)"] = None
+            else:
+                out[label] = None if value is None else as_value(value)
+    return sorted(out.items(), key=lambda item: item[1] is None)
+
+
+def _run_area(ref, run) -> tuple[int, int, int, int]:
+    a1, a2 = ref.area(run.first, run.col), ref.area(run.last, run.col)
+    return min(a1[0], a2[0]), min(a1[1], a2[1]), max(a1[2], a2[2]), max(a1[3], a2[3])
+
+
+def reader_of(runs):
+    """``is_read(sheet, row, col)``: True when one of the formula runs reads that cell (through any reference)."""
+    boxes: dict[str, list[tuple[int, int, int, int]]] = {}
+    for run in runs:
+        for ref in run.compiled.refs:
+            if ref.name is None:
+                boxes.setdefault((ref.sheet or run.sheet).casefold(), []).append(_run_area(ref, run))
+
+    def is_read(sheet: str, row: int, col: int) -> bool:
+        return any(r1 <= row <= r2 and c1 <= col <= c2 for r1, c1, r2, c2 in boxes.get(sheet.casefold(), ()))
+    return is_read
+
+
+def _place_notice(xml: bytes, strings, sheet: str, is_read) -> tuple[str, bool] | None:
+    """Where a sheet's notice goes, (cell, whether its row is new), or None when no place is safe.
+
+    A place is safe when its cell holds nothing, lies in no merged range and
+    no formula reads it; its row must also be free for a row choice (so the
+    text shows across the empty cells to its right).
+    """
+    used_rows: dict[int, int] = {}  # row → cells holding something
+    existing_rows: set[int] = set()
+    r0 = c0 = 10 ** 9
+    r1 = c1 = 0
+    for cell in iter_cells(xml, strings):
+        existing_rows.add(cell.row)
+        if cell.value is None and cell.formula is None:
+            continue
+        used_rows[cell.row] = used_rows.get(cell.row, 0) + 1
+        r0, r1, c0, c1 = min(r0, cell.row), max(r1, cell.row), min(c0, cell.col), max(c1, cell.col)
+    merges = sheet_xml.merged_ranges(xml)
+
+    def free(row, col):
+        return (not any(a <= row <= c and b <= col <= d for a, b, c, d in merges)
+                and not (is_read is not None and is_read(sheet, row, col)))
+
+    if not used_rows:
+        return ("A1", 1 not in existing_rows) if free(1, 1) else None
+    col = 1 if c0 > 1 and free(1, 1) else c0
+    for row in range(1, min(r1, 8) + 1):  # a free row above the data, or under a title or caption
+        if row in used_rows:
+            continue
+        above = used_rows.get(row - 1, 0)
+        if (row < r0 or above <= 2) and free(row, col) and not any(
+                a <= row <= c for a, b, c, d in merges):
+            return f"{sheet_xml.column_letters(col)}{row}", row not in existing_rows
+    for c in range(c1 + 1, min(c1 + 4, 16384) + 1):  # beside the used range, on its first row
+        if free(r0, c):
+            return f"{sheet_xml.column_letters(c)}{r0}", False
+    for row in range(r1 + 1, min(r1 + 4, 1048576) + 1):  # under it
+        if row not in used_rows and free(row, c0):
+            return f"{sheet_xml.column_letters(c0)}{row}", row not in existing_rows
+    return None
+
+
 # ------------------------------------------------------------------ replacing
 
 
 def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
-                        values: Mapping[str, Mapping[str, object]] | None = None) -> list[FormulaRecord]:
+                        values: Mapping[str, Mapping[str, object]] | None = None, *, inputs=(),
+                        is_read=None, written_at: datetime.datetime | None = None,
+                        unplaced: list[str] | None = None) -> list[FormulaRecord]:
     """Drop every formula that uses a registered function, keeping its value; record it in the hidden sheet.
 
     Parameters
@@ -92,6 +295,17 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
     values : mapping, optional
         ``{sheet name: {cell: value}}`` of freshly computed values; a replaced
         cell takes its value from here, else keeps its cached value.
+    inputs : sequence of (str, value or None), optional
+        The inputs the replaced formulas read (``Sheet!A1`` with its value then,
+        or a range with None), named in the notice (:func:`notice_text`).
+    is_read : callable, optional
+        ``is_read(sheet, row, col)`` is True for a cell that some formula of the
+        workbook reads: the notice never goes there. Default: no formula is
+        known to read any empty cell.
+    written_at : datetime, optional
+        The time named in the notice (default now, UTC).
+    unplaced : list, optional
+        Receives the names of sheets where no safe place for a notice was found.
 
     Returns
     -------
@@ -133,9 +347,42 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
             updates[ref] = CellUpdate(value, drop_formula=True)
         changes.set(pkg, info.part, sheet_xml.patch_sheet(xml, updates))
     if records:
-        _write_formula_sheet(pkg, changes, _existing_records(pkg) + records)
+        all_records = _existing_records(pkg) + records
+        notices = _write_notices(pkg, changes, notice_text(all_records, inputs, written_at), is_read, unplaced)
+        _write_formula_sheet(pkg, changes, all_records, notices)
         changes.drop_calc_chain(pkg)
     return records
+
+
+def _write_notices(pkg: WorkbookPackage, changes: PackageChanges, text: str, is_read,
+                   unplaced: list[str] | None) -> list[Notice]:
+    """A notice cell on every worksheet (a notice from an earlier run is rewritten where it is)."""
+    earlier = {n.sheet.casefold(): n for n in _existing_notices(pkg)}
+    notices = []
+    for info in pkg.worksheets:
+        if info.name == FORMULA_SHEET:
+            continue
+        xml = sheet_xml.normal_form(changes.current(pkg, info.part))
+        old = earlier.get(info.name.casefold())
+        if old is not None:
+            cell = next((c for c in iter_cells(xml, pkg.shared_strings) if c.ref == old.cell), None)
+            if cell is not None and isinstance(cell.value, str) and cell.value.startswith(NOTICE_OPENING):
+                changes.set(pkg, info.part, sheet_xml.patch_sheet(xml, {old.cell: CellUpdate(text)}))
+                notices.append(Notice(info.name, old.cell, text, old.new_row))
+                continue
+        place = _place_notice(xml, pkg.shared_strings, info.name, is_read)
+        if place is None:
+            if unplaced is not None:
+                unplaced.append(info.name)
+            continue
+        ref, new_row = place
+        before = sheet_xml.dimension(xml)
+        new = sheet_xml.add_cells(xml, {ref: sheet_xml.NewCell(value=text)})
+        if before is not None:  # the notice stays outside the recorded extent: restore gives the same bytes back
+            new = sheet_xml.set_dimension(new, before)
+        changes.set(pkg, info.part, new)
+        notices.append(Notice(info.name, ref, text, new_row))
+    return notices
 
 
 _CELL = re.compile(rb'<(?:\w+:)?c\b[^>]*?\br="([A-Z]+[0-9]+)"[^>]*?(?:/>|>(.*?)</(?:\w+:)?c>)', re.S)
@@ -160,14 +407,19 @@ def _inline(ref: str, text: str) -> bytes:
     return (f'<c r="{ref}" t="inlineStr"><is><t'.encode() + space + b">" + escape_text(text) + b"</t></is></c>")
 
 
-def _records_part(records: list[FormulaRecord]) -> bytes:
+def _records_part(records: list[FormulaRecord], notices: list[Notice] = ()) -> bytes:
     rows = [b'<row r="1">' + b"".join(_inline(f"{c}1", h) for c, h in zip("ABCD", _HEADER))
             + _inline("F1", _NOTE) + b"</row>"]
+    i = 1
     for i, rec in enumerate(records, start=2):
         shown = "=" + rec.text if rec.text is not None else "(shares the formula above it in its group)"
         rows.append(f'<row r="{i}">'.encode() + _inline(f"A{i}", rec.sheet) + _inline(f"B{i}", rec.cell)
                     + _inline(f"C{i}", shown) + _inline(f"D{i}", rec.element.decode("utf-8")) + b"</row>")
-    last = len(records) + 1
+    for i, note in enumerate(notices, start=i + 1):
+        mark = _NOTICE_NEW_ROW if note.new_row else _NOTICE_MARK
+        rows.append(f'<row r="{i}">'.encode() + _inline(f"A{i}", note.sheet) + _inline(f"B{i}", note.cell)
+                    + _inline(f"C{i}", note.text) + _inline(f"D{i}", mark) + b"</row>")
+    last = len(records) + len(notices) + 1
     return (b'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
             b'<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main" '
             b'xmlns:r="http://schemas.openxmlformats.org/officeDocument/2006/relationships">'
@@ -184,21 +436,42 @@ def _existing_records(pkg: WorkbookPackage) -> list[FormulaRecord]:
 
 def read_records(xml: bytes, shared_strings=()) -> list[FormulaRecord]:
     """The records of a formula sheet part (the inverse of what :func:`replace_with_values` writes)."""
+    return _read_sheet_records(xml, shared_strings)[0]
+
+
+def read_notices(xml: bytes, shared_strings=()) -> list[Notice]:
+    """The notices recorded in a formula sheet part."""
+    return _read_sheet_records(xml, shared_strings)[1]
+
+
+def _existing_notices(pkg: WorkbookPackage) -> list[Notice]:
+    try:
+        info = pkg.sheet(FORMULA_SHEET)
+    except KeyError:
+        return []
+    return read_notices(pkg.read(info.part), pkg.shared_strings)
+
+
+def _read_sheet_records(xml: bytes, shared_strings=()) -> tuple[list[FormulaRecord], list[Notice]]:
     rows: dict[int, dict[int, object]] = {}
     for cell in iter_cells(xml, shared_strings):
         rows.setdefault(cell.row, {})[cell.col] = cell.value
     out = []
+    notices = []
     for r in sorted(rows):
         if r == 1:
             continue
         row = rows[r]
         sheet, ref, shown, element = (row.get(i) for i in (1, 2, 3, 4))
+        if element in (_NOTICE_MARK, _NOTICE_NEW_ROW) and isinstance(sheet, str) and isinstance(ref, str):
+            notices.append(Notice(sheet, ref, shown if isinstance(shown, str) else "", element == _NOTICE_NEW_ROW))
+            continue
         if not (isinstance(sheet, str) and isinstance(ref, str) and isinstance(element, str)):
             raise UnusableWorkbook(f"the hidden sheet {FORMULA_SHEET} has an incomplete record in row {r}; "
                                    f"it was edited by hand")
         text = shown[1:] if isinstance(shown, str) and shown.startswith("=") else None
         out.append(FormulaRecord(sheet, ref, text, element.encode("utf-8")))
-    return out
+    return out, notices
 
 
 def _free_name(names, pattern: str) -> str:
@@ -208,8 +481,9 @@ def _free_name(names, pattern: str) -> str:
     return pattern.format(n)
 
 
-def _write_formula_sheet(pkg: WorkbookPackage, changes: PackageChanges, records: list[FormulaRecord]) -> None:
-    data = _records_part(records)
+def _write_formula_sheet(pkg: WorkbookPackage, changes: PackageChanges, records: list[FormulaRecord],
+                         notices: list[Notice] = ()) -> None:
+    data = _records_part(records, notices)
     try:
         existing = pkg.sheet(FORMULA_SHEET)
     except KeyError:
@@ -311,7 +585,7 @@ def restore_formulas(pkg: WorkbookPackage, changes: PackageChanges) -> RestoreRe
         raise UnusableWorkbook(f"{pkg.path.name} has no sheet {FORMULA_SHEET}: there are no replaced formulas "
                                f"to restore", path=pkg.path) from None
     try:
-        records = read_records(pkg.read(info.part), pkg.shared_strings)
+        records, notices = _read_sheet_records(pkg.read(info.part), pkg.shared_strings)
     except sheet_xml.SheetXmlError as exc:
         raise UnusableWorkbook(f"{pkg.path.name}: the hidden sheet {FORMULA_SHEET} cannot be read ({exc})",
                                path=pkg.path) from None
@@ -319,6 +593,10 @@ def restore_formulas(pkg: WorkbookPackage, changes: PackageChanges) -> RestoreRe
     by_sheet: dict[str, list[FormulaRecord]] = {}
     for rec in records:
         by_sheet.setdefault(rec.sheet, []).append(rec)
+    notes_by_sheet: dict[str, list[Notice]] = {}
+    for note in notices:
+        by_sheet.setdefault(note.sheet, [])
+        notes_by_sheet.setdefault(note.sheet, []).append(note)
     for name, recs in by_sheet.items():
         try:
             target = pkg.sheet(name)
@@ -326,7 +604,7 @@ def restore_formulas(pkg: WorkbookPackage, changes: PackageChanges) -> RestoreRe
             report.skipped += [(f"{rec.sheet}!{rec.cell}", "the sheet no longer exists") for rec in recs]
             continue
         try:
-            report.restored += _restore_sheet(pkg, changes, target, recs, report)
+            report.restored += _restore_sheet(pkg, changes, target, recs, report, notes_by_sheet.get(name, []))
         except sheet_xml.SheetXmlError as exc:
             raise UnusableWorkbook(f"{pkg.path.name}: sheet {name!r}: {exc}; nothing was restored",
                                    path=pkg.path) from None
@@ -340,8 +618,8 @@ _SI = re.compile(rb'(\bsi=")([0-9]+)(")')
 
 
 def _restore_sheet(pkg: WorkbookPackage, changes: PackageChanges, target, recs: list[FormulaRecord],
-                   report: RestoreReport) -> int:
-    """Put one sheet's records back; the number of formulas restored."""
+                   report: RestoreReport, notices: list[Notice] = ()) -> int:
+    """Put one sheet's records back and take its notice out; the number of formulas restored."""
     xml = sheet_xml.normal_form(changes.current(pkg, target.part))
     current = {}
     taken_si: set[int] = set()
@@ -380,11 +658,26 @@ def _restore_sheet(pkg: WorkbookPackage, changes: PackageChanges, target, recs: 
             continue
         # text values (shared or inline strings) become the formula's text result (t="str")
         updates[ref] = CellUpdate(cell.value, formula_xml=element)
-    if not updates:
+    gone, own_rows = [], []
+    for note in notices:
+        cell = current.get(note.cell)
+        if cell is None:
+            continue
+        if cell.value == note.text and cell.formula is None:
+            gone.append(note.cell)
+            if note.new_row:
+                own_rows.append(cell.row)
+        else:
+            report.skipped.append((f"{note.sheet}!{note.cell}", "the values notice was edited; it is left there"))
+    if not updates and not gone:
         return 0
     if absent:
         xml = sheet_xml.add_cells(xml, absent)
-    changes.set(pkg, target.part, sheet_xml.patch_sheet(xml, updates))
+    if updates:
+        xml = sheet_xml.patch_sheet(xml, updates)
+    if gone:
+        xml = sheet_xml.remove_cells(xml, gone, empty_rows=own_rows)
+    changes.set(pkg, target.part, xml)
     return len(updates)
 
 

@@ -17,6 +17,7 @@ import golden_books as gb
 from trueband.bridge import values_mode as vm
 from trueband.bridge.cli import EXIT_FAILED, EXIT_OK, main
 from trueband.bridge.safe_write import PackageChanges, save_workbook
+from trueband.bridge import sheet_xml as sx
 from trueband.bridge.sheet_xml import iter_cells
 from trueband.bridge.xlsx_package import UnusableWorkbook, open_workbook_package
 
@@ -114,13 +115,13 @@ def test_a_second_values_run_adds_to_the_records(forms, tmp_path):
         from trueband.bridge.sheet_xml import NewCell, add_cells
         changes = PackageChanges()
         part = pkg.sheet("Settings").part
-        changes.set(pkg, part, add_cells(pkg.read(part), {"C1": NewCell(formula="SED(4.2,0.88)", value=2.0)}))
+        changes.set(pkg, part, add_cells(pkg.read(part), {"C5": NewCell(formula="SED(4.2,0.88)", value=2.0)}))
         typed = save_workbook(pkg, changes, output=tmp_path / "typed.xlsx")
     again, second = values_book(typed)
     with open_workbook_package(again) as pkg:
         stored = vm.read_records(pkg.read(pkg.sheet(vm.FORMULA_SHEET).part))
         assert [s.name for s in pkg.sheets].count(vm.FORMULA_SHEET) == 1
-    assert [(r.sheet, r.cell) for r in second] == [("Settings", "C1")]
+    assert [(r.sheet, r.cell) for r in second] == [("Settings", "C5")]
     assert stored == first + second
 
 
@@ -232,6 +233,7 @@ def test_restore_after_libreoffice_saved_the_values_file(demo_scoring, tmp_path,
     assert openpyxl.load_workbook(tmp_path / "back.xlsx").sheetnames == ["Scoring"]
     before, after = _formulas(demo_scoring, "Scoring"), _formulas(tmp_path / "back.xlsx", "Scoring")
     assert after == before
+    assert _notices(saved) and _notices(tmp_path / "back.xlsx") == []  # Calc kept the notice; restore took it out
     # Calc shows the restored cells with the values they had in the values file
     frozen = gb.libreoffice_csv(soffice, saved, tmp_path / "csv1")["Scoring"]
     shown = gb.libreoffice_csv(soffice, tmp_path / "back.xlsx", tmp_path / "csv2")["Scoring"]
@@ -245,6 +247,7 @@ def test_restore_after_openpyxl_saved_the_values_file(demo_scoring, tmp_path):
     wb.save(tmp_path / "resaved.xlsx")
     assert main(["restore", str(tmp_path / "resaved.xlsx"), "-o", str(tmp_path / "back.xlsx")]) == EXIT_OK
     assert _formulas(tmp_path / "back.xlsx", "Scoring") == _formulas(demo_scoring, "Scoring")
+    assert _notices(tmp_path / "back.xlsx") == []
 
 
 def test_restored_shared_group_does_not_take_a_shared_index_in_use(forms, tmp_path):
@@ -334,3 +337,94 @@ def test_restore_takes_out_a_hidden_sheet_entry_written_with_single_quotes(forms
     assert main(["restore", str(edited)]) == EXIT_OK
     back = openpyxl.load_workbook(tmp_path / "quoted.restored.xlsx")
     assert back.sheetnames == ["Scores", "Settings"]
+
+
+# ------------------------------------------------------------------ the notice on every sheet of a --values file
+
+
+def _notices(path):
+    """(sheet, cell, text) of every cell that holds a values notice, as openpyxl (a reference reader) sees them."""
+    wb = openpyxl.load_workbook(path)
+    return [(ws.title, c.coordinate, c.value) for ws in wb.worksheets if ws.title != vm.FORMULA_SHEET
+            for row in ws.iter_rows() for c in row if isinstance(c.value, str) and c.value.startswith(vm.NOTICE_OPENING)]
+
+
+def test_every_sheet_of_a_values_file_says_its_values_are_fixed(forms, tmp_path):
+    # issue 10 item 2: after an input was edited in a spreadsheet app the file mixed new and frozen figures
+    # without saying so; now each sheet carries a notice with the time, the fixed cells and the inputs
+    from trueband.bridge.recalc import recalculate
+
+    out = recalculate(forms, tmp_path / "values.xlsx", values=True).output
+    notices = _notices(out)
+    assert sorted(s for s, _, _ in notices) == ["Scores", "Settings"]  # every sheet but the hidden one, once
+    text = notices[0][2]
+    assert "Scores!C2:C9" in text and "Scores!D2:D3" in text  # the cells holding fixed values
+    assert "Settings!B1 = 4.2" in text and "Settings!B2 = 0.88" in text  # inputs with their values then
+    assert "trueband restore" in text and " UTC" in text
+    # nothing the file held is overwritten: every cell of the original reads the same but the replaced ones
+    before, after = openpyxl.load_workbook(forms, data_only=True), openpyxl.load_workbook(out, data_only=True)
+    for ws in before.worksheets:
+        for row in ws.iter_rows():
+            for c in row:
+                if c.value is not None:
+                    assert after[ws.title][c.coordinate].value == c.value or ws.title == "Scores" and \
+                        c.coordinate in REGISTERED_CELLS, (ws.title, c.coordinate)
+    # and the places chosen are empty cells that no formula reads (Scores!D4 is SUM(B:B): not column B)
+    for sheet, cell, _ in notices:
+        assert before[sheet][cell].value is None
+        assert not cell.startswith("B")
+
+
+def test_the_notice_avoids_cells_formulas_read_and_merged_cells(tmp_path):
+    from trueband.bridge.recalc import recalculate
+
+    title = gb.row_xml(1, ['<c r="A1" t="inlineStr"><is><t>Dispatch scores</t></is></c>'])
+    data = [gb.row_xml(r, [gb.cell_xml(f"A{r}", r * 3), gb.cell_xml(f"B{r}", 0, formula=f"SEM(A{r},0.9)")])
+            for r in range(3, 6)]
+    counting = gb.row_xml(7, [gb.cell_xml("A7", 0, formula="COUNTA(2:2)")])  # reads all of row 2
+    xml = gb.sheet_part([title, *data, counting], after='<mergeCells count="1"><mergeCell ref="A8:D8"/></mergeCells>')
+    book = gb.handmade_package(tmp_path / "reads.xlsx", [("Scores", xml)])
+    out = recalculate(book, values=True).output
+    [(sheet, cell, _)] = _notices(out)
+    row, col = sx.split_ref(cell)
+    assert row != 2 and not (row == 8 and col <= 4), cell  # not where COUNTA(2:2) reads, not in A8:D8
+    assert openpyxl.load_workbook(book)["Scores"][cell].value is None
+    assert openpyxl.load_workbook(out, data_only=True)["Scores"]["A7"].value == 0  # COUNTA(2:2) still 0
+
+
+def test_restore_takes_the_notices_out(forms, tmp_path):
+    from trueband.bridge.recalc import recalculate
+
+    out = recalculate(forms, tmp_path / "values.xlsx", values=True).output
+    assert main(["restore", str(out)]) == EXIT_OK
+    assert _notices(tmp_path / "values.restored.xlsx") == []
+
+
+def test_an_edited_notice_is_left_and_reported(forms, tmp_path, capsys):
+    from trueband.bridge.recalc import recalculate
+
+    out = recalculate(forms, tmp_path / "values.xlsx", values=True).output
+    sheet, cell, _ = next(n for n in _notices(out) if n[0] == "Settings")
+    with open_workbook_package(out) as pkg:
+        from trueband.bridge.sheet_xml import CellUpdate, patch_sheet
+        changes = PackageChanges()
+        part = pkg.sheet("Settings").part
+        changes.set(pkg, part, patch_sheet(pkg.read(part), {cell: CellUpdate(vm.NOTICE_OPENING + " seen, K.")}))
+        edited = save_workbook(pkg, changes, output=tmp_path / "edited.xlsx")
+    assert main(["restore", str(edited)]) == 1
+    assert f"Settings!{cell}: not restored (the values notice was edited" in capsys.readouterr().out
+    assert [(s, c) for s, c, _ in _notices(tmp_path / "edited.restored.xlsx")] == [("Settings", cell)]
+
+
+@pytest.mark.libreoffice
+def test_libreoffice_shows_the_notice_on_every_sheet(demo_scoring, tmp_path, soffice):
+    from trueband.bridge.templates import impact_template
+
+    impact = impact_template(tmp_path / "impact.xlsx", groups=[("Group A", 40, 20), ("Group B", 30, 9)])
+    for book in (demo_scoring, impact):
+        values = _values_file(book)
+        expected = _notices(values)
+        assert expected, book.name
+        shown = gb.libreoffice_csv(soffice, values, tmp_path / ("csv-" + book.stem))
+        for sheet, cell, text in expected:
+            assert gb.csv_cell(shown[sheet], cell) == text, (book.name, sheet, cell)
