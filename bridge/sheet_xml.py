@@ -16,6 +16,13 @@ Writing
     restored formula); :func:`add_cells` inserts new cells into existing or
     new rows in order and widens ``<dimension>``.
 
+Unusual forms
+    Valid XML that the regular expressions do not take (single-quoted
+    attributes, whitespace inside tags, CDATA, comments, character
+    references, another prefix or encoding) is found by a cheap scan
+    (:func:`unusual_form`) and read through the XML parser
+    (:func:`parsed_form`), so every reader and patcher gives what a parser reads.
+
 Cell values
     numbers are ``float``; shared and inline strings and formula string
     results ``str``; logical values ``bool``; error values the code as
