@@ -262,6 +262,20 @@ def _odd(region: bytes) -> bool:
 
 def _odd_outside(xml: bytes, start: int, end: int) -> str | None:
     """The parts of the scan that do not depend on the cells: encoding, root tag, the bytes around ``<sheetData>``."""
+    why = _odd_head(xml, start)
+    if why is not None:
+        return why
+    if _odd(xml[end:]):
+        return "its tags are written in an unusual form"
+    if xml.find(b"xmlns", start, end) >= 0:
+        return "it declares namespaces inside the cell data"
+    if b"\r" in xml or (b"&#" in xml if b"#" in xml else False):
+        return "it holds character references or carriage returns"
+    return None
+
+
+def _odd_head(xml: bytes, start: int) -> str | None:
+    """The scan of what comes before the cells: encoding, XML declaration, root tag, sheet properties."""
     head = xml[:start]
     if head[:2] in (b"\xff\xfe", b"\xfe\xff") or b"\x00" in head[:64]:
         return "it is not UTF-8"
@@ -277,12 +291,8 @@ def _odd_outside(xml: bytes, start: int, end: int) -> str | None:
         tag = head[root.start():tag_end + 1]
         if sum(tag.count(u) for u in _MAIN_URIS) > 1:
             return "the root binds the spreadsheet namespace twice"
-    if _odd(head) or _odd(xml[end:]):
+    if _odd(head):
         return "its tags are written in an unusual form"
-    if xml.find(b"xmlns", start, end) >= 0:
-        return "it declares namespaces inside the cell data"
-    if b"\r" in xml or (b"&#" in xml if b"#" in xml else False):
-        return "it holds character references or carriage returns"
     return None
 
 
@@ -672,7 +682,7 @@ _DIMENSION = re.compile(rb'<(?:\w+:)?dimension\b[^>]*?\bref="([^"]*)"')
 def dimension(xml: bytes) -> str | None:
     """The ``<dimension ref>`` the writing app recorded (e.g. ``"A1:K401"``), or None."""
     start = sheet_data_span(xml)[0]
-    if type(xml) is not _Parsed and (_odd(xml[:start]) or _odd_outside(xml[:start], start, start)):
+    if type(xml) is not _Parsed and _odd_head(xml, start) is not None:
         xml = parsed_form(xml)
         start = sheet_data_span(xml)[0]
     m = _DIMENSION.search(xml, 0, start)

@@ -657,9 +657,15 @@ def test_usual_forms_stay_on_the_fast_path(monkeypatch):
     calls = []
     monkeypatch.setattr(sx, "parsed_form", lambda xml: calls.append(1) or xml)
     rnd = random.Random(5)
-    for sheet in [_usual_sheet(rnd), _sheet(_BASE_ROWS).encode()]:
+    for sheet in [_usual_sheet(rnd), _sheet(_BASE_ROWS).encode()]:  # both with an XML declaration
+        assert sheet.startswith(b"<?xml")
         list(iter_cells(sheet, ("a", "b", "c")))
         sx.read_columns(sheet, ("a", "b", "c"))
+        sx.dimension(sheet)
+        formula_cell = next(c.ref for c in iter_cells(sheet, ("a", "b", "c")) if c.formula is not None)
+        sx.patch_values(sheet, {formula_cell: 2.0})
+        patch_sheet(sheet, {formula_cell: CellUpdate(3.0, formula="1+2")})
+        sx.remove_cells(sx.add_cells(sheet, {"XFD1": NewCell(value=1.0)}), ["XFD1"])
     assert calls == []
 
 
