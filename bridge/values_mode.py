@@ -615,12 +615,26 @@ def restore_formulas(pkg: WorkbookPackage, changes: PackageChanges) -> RestoreRe
 
 
 _SI = re.compile(rb'(\bsi=")([0-9]+)(")')
+_F_RECORD = re.compile(rb'<(?:[A-Za-z_][\w.-]*:)?f((?: [A-Za-z]+="[^"<>]*")*) ?(?:/>|>([^<]*)</(?:[A-Za-z_][\w.-]*:)?f>)')
+
+
+def _element_for(element: bytes, prefix: bytes) -> bytes | None:
+    """A recorded ``<f>`` element under the target sheet's namespace prefix (the file may have been saved
+    by an app that writes another); None when the record no longer holds a formula element."""
+    m = _F_RECORD.fullmatch(element.strip())
+    if m is None:
+        return None
+    attrs, text = m.group(1), m.group(2)
+    if text is None:
+        return b"<" + prefix + b"f" + attrs + b"/>"
+    return b"<" + prefix + b"f" + attrs + b">" + text + b"</" + prefix + b"f>"
 
 
 def _restore_sheet(pkg: WorkbookPackage, changes: PackageChanges, target, recs: list[FormulaRecord],
                    report: RestoreReport, notices: list[Notice] = ()) -> int:
     """Put one sheet's records back and take its notice out; the number of formulas restored."""
     xml = sheet_xml.normal_form(changes.current(pkg, target.part))
+    prefix = sheet_xml.sheet_data_span(xml)[2]
     current = {}
     taken_si: set[int] = set()
     for c in iter_cells(xml, pkg.shared_strings):
@@ -644,7 +658,10 @@ def _restore_sheet(pkg: WorkbookPackage, changes: PackageChanges, target, recs: 
             report.skipped.append((f"{rec.sheet}!{rec.cell}", "the record does not name a cell"))
             continue
         cell = current.get(ref)
-        element = rec.element
+        element = _element_for(rec.element, prefix)
+        if element is None:
+            report.skipped.append((f"{rec.sheet}!{rec.cell}", "the recorded formula element was edited"))
+            continue
         if renumber:
             element = _SI.sub(lambda m: m.group(1) + str(renumber.get(int(m.group(2)), int(m.group(2)))).encode()
                               + m.group(3), element, count=1)

@@ -428,3 +428,21 @@ def test_libreoffice_shows_the_notice_on_every_sheet(demo_scoring, tmp_path, sof
         shown = gb.libreoffice_csv(soffice, values, tmp_path / ("csv-" + book.stem))
         for sheet, cell, text in expected:
             assert gb.csv_cell(shown[sheet], cell) == text, (book.name, sheet, cell)
+
+
+def test_restore_checks_each_recorded_formula_element(forms, tmp_path, capsys):
+    out, _ = values_book(forms)
+    with open_workbook_package(out) as pkg:  # records edited by hand or written under another prefix
+        changes = PackageChanges()
+        part = pkg.sheet(vm.FORMULA_SHEET).part
+        xml = pkg.read(part)
+        new = xml.replace(b"<t>&lt;f&gt;sem(12,0.91)&lt;/f&gt;</t>", b"<t>&lt;f&gt;sem(12,</t>", 1).replace(
+            b"<t>&lt;f&gt;_xludf.SEM(Settings!B1,Reliability)&lt;/f&gt;</t>",
+            b"<t>&lt;x:f&gt;_xludf.SEM(Settings!B1,Reliability)&lt;/x:f&gt;</t>", 1)
+        assert new.count(b"&lt;x:f") == 1 and b"sem(12,</t>" in new
+        changes.set(pkg, part, new)
+        edited = save_workbook(pkg, changes, output=tmp_path / "edited.xlsx")
+    assert main(["restore", str(edited)]) == 1
+    assert "Scores!D3: not restored (the recorded formula element was edited)" in capsys.readouterr().out
+    got = _formulas(tmp_path / "edited.restored.xlsx", "Scores")  # openpyxl parses the restored sheet
+    assert got["D2"] == "=_xludf.SEM(Settings!B1,Reliability)" and "D3" not in got
