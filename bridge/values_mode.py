@@ -25,7 +25,8 @@ inputs they were computed from with the inputs' values then, and how to
 update them. The notice goes where it overwrites nothing and changes no
 result: a row with no cells near the top (above the data, or under a title),
 else the first free column right of the used range, else the row under it;
-never a merged cell, never a cell that any formula of the workbook reads. A
+never a merged cell, a cell that any formula of the workbook reads, or a cell of
+a table, filter, chart series or defined name (chart sheets hold no cells and get none). A
 cell, not a header or a note: spreadsheet apps show header text only in
 print preview and a note only on hover, and LibreOffice Calc shows the cell
 (tests check it). Its place is recorded in the hidden sheet, and ``trueband
@@ -235,11 +236,56 @@ def reader_of(runs):
     return is_read
 
 
-def _place_notice(xml: bytes, strings, sheet: str, is_read) -> tuple[str, bool] | None:
+_AREA = re.compile(r"(?:'((?:[^']|'')+)'|([A-Za-z_][\w.]*))!\$?([A-Za-z]{1,3})\$?([0-9]+)"
+                   r"(?::\$?([A-Za-z]{1,3})\$?([0-9]+))?")
+_REF_ATTR = re.compile(rb'<(?:[\w.-]+:)?(?:autoFilter|table)\b[^>]*?\bref\s*=\s*["\']([A-Z]+[0-9]+(?::[A-Z]+[0-9]+)?)["\']')
+_CHART_FORMULA = re.compile(rb"<(?:[\w.-]+:)?f>([^<]*)</(?:[\w.-]+:)?f>")
+
+
+def _areas_in(text: str, sheet: str) -> list[tuple[int, int, int, int]]:
+    """The areas of ``sheet`` named in a formula text (``Sheet!$A$1:$B$9``, quoted names too)."""
+    out = []
+    for m in _AREA.finditer(text):
+        name = (m.group(1) or "").replace("''", "'") or m.group(2)
+        if name.casefold() != sheet.casefold():
+            continue
+        (r1, c1) = sheet_xml.split_ref(m.group(3) + m.group(4))
+        (r2, c2) = sheet_xml.split_ref((m.group(5) or m.group(3)) + (m.group(6) or m.group(4)))
+        out.append((min(r1, r2), min(c1, c2), max(r1, r2), max(c1, c2)))
+    return out
+
+
+def _kept_areas(pkg: WorkbookPackage, info, xml: bytes) -> list[tuple[int, int, int, int]]:
+    """Areas of a sheet that belong to something other than formulas: its tables and filter, chart series,
+    defined names. A notice placed there would join a table or a chart."""
+    areas = []
+    for m in _REF_ATTR.finditer(xml):
+        a, _, b = m.group(1).decode("ascii").partition(":")
+        (r1, c1), (r2, c2) = sheet_xml.split_ref(a), sheet_xml.split_ref(b or a)
+        areas.append((r1, c1, r2, c2))
+    for rel in pkg.relationships(info.part):
+        part = rel.get("part")
+        if part and rel.get("Type", "").endswith("/table") and part in pkg:
+            m = _REF_ATTR.search(pkg.read(part))
+            if m:
+                a, _, b = m.group(1).decode("ascii").partition(":")
+                (r1, c1), (r2, c2) = sheet_xml.split_ref(a), sheet_xml.split_ref(b or a)
+                areas.append((r1, c1, r2, c2))
+    for name in pkg.entry_names:
+        if name.startswith("xl/charts/chart") and name.endswith(".xml"):
+            for m in _CHART_FORMULA.finditer(pkg.read(name)):
+                areas += _areas_in(sheet_xml.unescape_xml(m.group(1)), info.name)
+    for d in pkg.defined_names:
+        areas += _areas_in(d.text, info.name)
+    return areas
+
+
+def _place_notice(xml: bytes, strings, sheet: str, is_read, kept=()) -> tuple[str, bool] | None:
     """Where a sheet's notice goes, (cell, whether its row is new), or None when no place is safe.
 
-    A place is safe when its cell holds nothing, lies in no merged range and
-    no formula reads it; its row must also be free for a row choice (so the
+    A place is safe when its cell holds nothing, lies in no merged range, no
+    ``kept`` area (tables, filters, chart series, defined names) and no
+    formula reads it; its row must also be free for a row choice (so the
     text shows across the empty cells to its right).
     """
     used_rows: dict[int, int] = {}  # row → cells holding something
@@ -253,14 +299,15 @@ def _place_notice(xml: bytes, strings, sheet: str, is_read) -> tuple[str, bool] 
         used_rows[cell.row] = used_rows.get(cell.row, 0) + 1
         r0, r1, c0, c1 = min(r0, cell.row), max(r1, cell.row), min(c0, cell.col), max(c1, cell.col)
     merges = sheet_xml.merged_ranges(xml)
+    blocked = merges + list(kept)
 
     def free(row, col):
-        return (not any(a <= row <= c and b <= col <= d for a, b, c, d in merges)
+        return (not any(a <= row <= c and b <= col <= d for a, b, c, d in blocked)
                 and not (is_read is not None and is_read(sheet, row, col)))
 
     if not used_rows:
         return ("A1", 1 not in existing_rows) if free(1, 1) else None
-    col = 1 if c0 > 1 and free(1, 1) else c0
+    col = 1
     for row in range(1, min(r1, 8) + 1):  # a free row above the data, or under a title or caption
         if row in used_rows:
             continue
@@ -370,7 +417,7 @@ def _write_notices(pkg: WorkbookPackage, changes: PackageChanges, text: str, is_
                 changes.set(pkg, info.part, sheet_xml.patch_sheet(xml, {old.cell: CellUpdate(text)}))
                 notices.append(Notice(info.name, old.cell, text, old.new_row))
                 continue
-        place = _place_notice(xml, pkg.shared_strings, info.name, is_read)
+        place = _place_notice(xml, pkg.shared_strings, info.name, is_read, _kept_areas(pkg, info, xml))
         if place is None:
             if unplaced is not None:
                 unplaced.append(info.name)

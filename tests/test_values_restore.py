@@ -446,3 +446,18 @@ def test_restore_checks_each_recorded_formula_element(forms, tmp_path, capsys):
     assert "Scores!D3: not restored (the recorded formula element was edited)" in capsys.readouterr().out
     got = _formulas(tmp_path / "edited.restored.xlsx", "Scores")  # openpyxl parses the restored sheet
     assert got["D2"] == "=_xludf.SEM(Settings!B1,Reliability)" and "D3" not in got
+
+
+def test_the_notice_stays_out_of_named_areas_and_filters(tmp_path):
+    from trueband.bridge.recalc import recalculate
+
+    title = gb.row_xml(1, ['<c r="A1" t="inlineStr"><is><t>Dispatch scores</t></is></c>'])
+    data = [gb.row_xml(r, [gb.cell_xml(f"A{r}", r * 3), gb.cell_xml(f"B{r}", 0, formula=f"SEM(A{r},0.9)")])
+            for r in range(3, 6)]
+    xml = gb.sheet_part([title, *data], after='<autoFilter ref="A3:B6"/>')
+    book = gb.handmade_package(tmp_path / "kept.xlsx", [("Scores", xml)],
+                               defined_names=[("Pool", "Scores!$A$2:$D$2", None)])
+    out = recalculate(book, values=True).output
+    [(_, cell, _)] = _notices(out)
+    row, col = sx.split_ref(cell)
+    assert row != 2 and not (3 <= row <= 6 and col <= 2), cell  # not in the named area nor the filter's
