@@ -362,7 +362,9 @@ def parsed_form(xml: bytes) -> bytes:
     an end tag; elements of the spreadsheet namespace under the root's prefix;
     namespace declarations kept where they were. Left out: comments and
     processing instructions (nothing a spreadsheet app reads), the document's
-    own XML declaration (a UTF-8 one is written).
+    own XML declaration (a UTF-8 one is written). Added: the ``r`` of a row
+    or cell written without one (the position gives it), so every cell can
+    be addressed.
 
     Raises
     ------
@@ -383,6 +385,8 @@ def parsed_form(xml: bytes) -> bytes:
     names: list[str] = []
     root: list[str] = []  # [prefix, uri] of the root element
     pending = [False]  # the last start tag is still open (no content yet)
+    kinds: list[str | None] = []  # local names of the open elements of the spreadsheet namespace
+    position = [0, 0]  # row and column of the last row and cell
 
     def close_pending():
         if pending[0]:
@@ -416,8 +420,28 @@ def parsed_form(xml: bytes) -> bytes:
         elif prefix == root[0] and uri != root[1] and local in ("c", "row", "v", "f", "is", "t", "sheetData"):
             raise SheetXmlError(f"the part rebinds the prefix {root[0] or '(default)'!r} inside the sheet; "
                                 f"it cannot be read")
+        parent = kinds[-1] if kinds else None
+        kind = local if uri == root[1] else None
+        kinds.append(kind)
+        extra = ""
+        if kind == "row" and parent == "sheetData":  # rows and cells without r get the one their position gives
+            r = next((attrs[k + 1] for k in range(0, len(attrs), 2) if attrs[k] == "r"), None)
+            position[0] = int(r) if r and r.isdigit() else position[0] + 1
+            position[1] = 0
+            if r is None:
+                extra = f' r="{position[0]}"'
+        elif kind == "c" and parent == "row":
+            r = next((attrs[k + 1] for k in range(0, len(attrs), 2) if attrs[k] == "r"), None)
+            if r is None:
+                position[1] += 1
+                extra = f' r="{column_letters(position[1])}{position[0]}"'
+            else:
+                try:
+                    position[1] = split_ref(r)[1]
+                except ValueError:
+                    raise SheetXmlError(f"a cell has the reference {r[:20]!r}, which is not a cell") from None
         names.append(name)
-        out.append("<" + name)
+        out.append("<" + name + extra)
         for k in range(0, len(attrs), 2):
             out.append(f' {attrs[k]}="{attrs[k + 1].translate(_ATTR_OUT)}"')
         pending[0] = True
@@ -426,6 +450,7 @@ def parsed_form(xml: bytes) -> bytes:
         close_pending()
         out.append(f"</{names.pop()}>")
         scopes.pop()
+        kinds.pop()
 
     def text(data):
         close_pending()
@@ -1090,6 +1115,8 @@ def _patch_cells(xml: bytes, updates: Mapping[str, CellUpdate]) -> bytes:
             spans.append((m.start(), m.end(), _cell_xml(ref, m.group(1), body, update, prefix, f_re)))
             if not by_bytes:
                 break
+    if by_bytes and type(xml) is not _Parsed and _CELL_WITHOUT_R.search(xml, start, end):
+        return _patch_cells(parsed_form(xml), updates)  # cells without r: the parser's form names them
     if by_bytes:
         pending = sorted(by_bytes.values(), key=split_ref)
         raise SheetXmlError(f"cells not found in the sheet: {', '.join(pending[:5])}"
@@ -1209,6 +1236,8 @@ def add_cells(xml: bytes, cells: Mapping[str, NewCell], *, replace: bool = False
     for m in row_re.finditer(xml, start, end):
         ra = _attrs(m.group(1))
         if b"r" not in ra:
+            if type(xml) is not _Parsed:  # the parser's form numbers every row and cell
+                return add_cells(parsed_form(xml), cells, replace=replace)
             raise SheetXmlError("the sheet has rows written without row numbers; cells cannot be added")
         rnum = int(ra[b"r"])
         # new rows that come before this one

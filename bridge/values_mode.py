@@ -388,11 +388,22 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
         if not chosen:
             continue
         elements = formula_elements(xml, chosen)
+        if len(elements) < len(chosen):  # cells written without r: the parser's form gives each its reference
+            xml = sheet_xml.parsed_form(xml)
+            elements = formula_elements(xml, chosen)
+        missing = sorted(set(chosen) - set(elements), key=sheet_xml.split_ref)
+        if missing:
+            raise UnusableWorkbook(f"{pkg.path.name}: sheet {info.name!r}: cell {missing[0]} is written without "
+                                   f"its reference (r); --values cannot replace its formula (re-save the file "
+                                   f"in a spreadsheet app first)", path=pkg.path)
         updates = {}
         for ref, (text, value) in chosen.items():
             records.append(FormulaRecord(info.name, ref, text, elements[ref]))
             updates[ref] = CellUpdate(value, drop_formula=True)
-        changes.set(pkg, info.part, sheet_xml.patch_sheet(xml, updates))
+        try:
+            changes.set(pkg, info.part, sheet_xml.patch_sheet(xml, updates))
+        except sheet_xml.SheetXmlError as exc:
+            raise UnusableWorkbook(f"{pkg.path.name}: sheet {info.name!r}: {exc}", path=pkg.path) from None
     if records:
         all_records = _existing_records(pkg) + records
         notices = _write_notices(pkg, changes, notice_text(all_records, inputs, written_at), is_read, unplaced)
@@ -424,7 +435,12 @@ def _write_notices(pkg: WorkbookPackage, changes: PackageChanges, text: str, is_
             continue
         ref, new_row = place
         before = sheet_xml.dimension(xml)
-        new = sheet_xml.add_cells(xml, {ref: sheet_xml.NewCell(value=text)})
+        try:
+            new = sheet_xml.add_cells(xml, {ref: sheet_xml.NewCell(value=text)})
+        except sheet_xml.SheetXmlError:  # rows written without numbers: no cell can be added safely
+            if unplaced is not None:
+                unplaced.append(info.name)
+            continue
         if before is not None:  # the notice stays outside the recorded extent: restore gives the same bytes back
             new = sheet_xml.set_dimension(new, before)
         changes.set(pkg, info.part, new)

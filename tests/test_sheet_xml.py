@@ -681,3 +681,20 @@ def test_check_and_recalc_on_a_sheet_with_single_quoted_attributes(tmp_path, cap
     assert main(["recalc", str(path)]) == 0
     got = openpyxl.load_workbook(tmp_path / "quoted.recalc.xlsx", data_only=True)["Bands"]  # reference reader
     assert got["D2"].value == pytest.approx(12 * (1 - 0.91) ** 0.5) and got["A1"].value == 12  # SEM = SD*sqrt(1-r)
+
+
+def test_cells_and_rows_without_references_can_be_patched_and_added_to():
+    # ECMA-376 Part 1, 18.3.1.4 and 18.3.1.73: r is optional on c and row (the position gives it);
+    # patching such a cell used to fail with "cells not found", adding to such rows was refused
+    xml = _sheet(['<row><c t="inlineStr"><is><t>OHL-1</t></is></c><c><f>SEM(12,0.9)</f><v>1</v></c></row>',
+                  '<row><c><v>5</v></c></row>']).encode()
+    patched = ET.fromstring(patch_sheet(xml, {"B1": CellUpdate(3.79)}))
+    q = f"{{{MAIN}}}"
+    rows = patched.find(q + "sheetData").findall(q + "row")
+    assert [c.get("r") for c in rows[0]] == ["A1", "B1"] and rows[0][1].find(q + "v").text == "3.79"
+    assert rows[0][1].find(q + "f").text == "SEM(12,0.9)" and rows[1][0].find(q + "v").text == "5"
+    added = parser_cells(sx.add_cells(xml, {"B2": NewCell(value=7.0)}))
+    assert added["B2"] == (7.0, "n", 0, None) and added["A2"] == (5.0, "n", 0, None)
+    assert reader_cells(xml) == {"A1": ("OHL-1", "inlineStr", 0, None), "B1": (1.0, "n", 0, ("SEM(12,0.9)", "normal",
+                                                                                             None, None)),
+                                 "A2": (5.0, "n", 0, None)}

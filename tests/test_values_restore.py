@@ -461,3 +461,18 @@ def test_the_notice_stays_out_of_named_areas_and_filters(tmp_path):
     [(_, cell, _)] = _notices(out)
     row, col = sx.split_ref(cell)
     assert row != 2 and not (3 <= row <= 6 and col <= 2), cell  # not in the named area nor the filter's
+
+
+def test_recalc_and_values_on_cells_written_without_references(tmp_path):
+    # r is optional on a cell (ECMA-376 Part 1, 18.3.1.4); recalc ended in a traceback ("cells not found")
+    xml = gb.sheet_part(['<row r="1"><c r="A1"><v>12</v></c><c><f>SEM(A1,0.91)</f><v>1</v></c></row>'])
+    book = gb.handmade_package(tmp_path / "positions.xlsx", [("Bands", xml)])
+    assert main(["recalc", str(book)]) == EXIT_OK
+    assert main(["recalc", "--values", str(book), "-o", str(tmp_path / "values.xlsx")]) == EXIT_OK
+    sem = 12 * (1 - 0.91) ** 0.5  # SEM = SD * sqrt(1 - reliability)
+    assert openpyxl.load_workbook(tmp_path / "positions.recalc.xlsx", data_only=True)["Bands"]["B1"].value == \
+        pytest.approx(sem)
+    got = openpyxl.load_workbook(tmp_path / "values.xlsx")["Bands"]["B1"].value  # a value now, not a formula
+    assert got == pytest.approx(sem)
+    assert main(["restore", str(tmp_path / "values.xlsx")]) == EXIT_OK
+    assert _formulas(tmp_path / "values.restored.xlsx", "Bands") == {"B1": "=SEM(A1,0.91)"}
