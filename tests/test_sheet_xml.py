@@ -698,3 +698,35 @@ def test_cells_and_rows_without_references_can_be_patched_and_added_to():
     assert reader_cells(xml) == {"A1": ("OHL-1", "inlineStr", 0, None), "B1": (1.0, "n", 0, ("SEM(12,0.9)", "normal",
                                                                                              None, None)),
                                  "A2": (5.0, "n", 0, None)}
+
+
+_RANDOM_CHANGES = [
+    _single_quotes,
+    lambda s: s.replace("</c>", "</c >"),
+    lambda s: s.replace("</row>", "</row><!-- row end -->"),
+    lambda s: s.replace(' r="', ' r = "'),
+    lambda s: s.replace(' s="', '\n\t s="'),
+    lambda s: s.replace("<v>", "<v ><![CDATA[]]>"),
+]
+
+
+@pytest.mark.parametrize("seed", range(8))
+def test_readers_and_patcher_agree_with_a_parser_on_random_unusual_sheets(seed, monkeypatch):
+    rnd = random.Random(300 + seed)
+    strings = ["alpha", "b&c", "gamma"]
+    text = _usual_sheet(rnd, rows=150).decode()
+    for change in rnd.sample(_RANDOM_CHANGES, rnd.randint(1, 3)):
+        text = change(text)
+    xml = text.encode()
+    expected = parser_cells(xml, strings)
+    if seed % 2:
+        monkeypatch.setattr(sx, "CHUNK_BYTES", rnd.randint(200, 5000))
+    assert reader_cells(xml, strings) == expected
+    assert column_cells(xml, strings) == expected_columns(expected)
+    formula_cells = [ref for ref, cell in expected.items() if cell[3] is not None]
+    chosen = rnd.sample(formula_cells, len(formula_cells) // 3)
+    after = parser_cells(sx.patch_values(xml, {ref: 0.5 for ref in chosen}), strings)
+    for ref in chosen:
+        value, _, style, formula = after.pop(ref)
+        assert (value, style, formula) == (0.5, expected[ref][2], expected[ref][3])
+    assert after == {ref: cell for ref, cell in expected.items() if ref not in chosen}
