@@ -178,13 +178,14 @@ def notice_text(records: list[FormulaRecord], inputs=(), written_at: datetime.da
     for rec in records:
         cells.setdefault(rec.sheet, []).append(rec.cell)
     held = [f"{_quoted_sheet(sheet)}!{r}" for sheet, refs in cells.items() for r in _cell_ranges(refs)]
-    text = (f"{NOTICE_OPENING} trueband recalc --values wrote the results of trueband functions in this file as "
-            f"fixed values on {when} ({_listed(held)}). They do not change when their inputs are edited")
+    # the essentials first: a spreadsheet app shows the start of a long text in the row, the rest in the cell
+    text = (f"{NOTICE_OPENING} trueband results in this file do not follow edits of their inputs (fixed on "
+            f"{when} by trueband recalc --values). Cells: {_listed(held)}.")
     shown = [label if value is None else f"{label} = {_shown(value)}" for label, value in inputs]
     if shown:
-        text += f"; they were computed from {_listed(shown)}"
-    return text + (". Formulas that read them show mixed results after an edit. To update them: trueband restore "
-                   "FILE, then trueband recalc.")
+        text += f" Computed from: {_listed(shown)}."
+    return text + (" After an edit, formulas that read them mix new and fixed figures. To update them: trueband "
+                   "restore FILE, then trueband recalc.")
 
 
 def frozen_inputs(runs, store, uses_registered, as_value) -> list[tuple[str, object]]:

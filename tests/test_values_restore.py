@@ -476,3 +476,21 @@ def test_recalc_and_values_on_cells_written_without_references(tmp_path):
     assert got == pytest.approx(sem)
     assert main(["restore", str(tmp_path / "values.xlsx")]) == EXIT_OK
     assert _formulas(tmp_path / "values.restored.xlsx", "Bands") == {"B1": "=SEM(A1,0.91)"}
+
+
+@pytest.mark.libreoffice
+def test_libreoffice_prints_the_start_of_the_notice_on_the_first_page(demo_scoring, tmp_path, soffice):
+    # what Calc draws, not only what the cell holds: the notice's first words on the sheet's first page
+    import shutil
+    import subprocess
+
+    if shutil.which("pdftotext") is None:
+        pytest.skip("pdftotext (poppler-utils) is not installed")
+    values = _values_file(demo_scoring)
+    profile = (tmp_path / "lo-profile").resolve().as_uri()
+    subprocess.run([soffice, f"-env:UserInstallation={profile}", "--headless", "--norestore", "--convert-to", "pdf",
+                    "--outdir", str(tmp_path), str(values)], check=True, capture_output=True, timeout=180)
+    first = subprocess.run(["pdftotext", "-l", "1", str(tmp_path / (values.stem + ".pdf")), "-"],
+                           capture_output=True, text=True, check=True).stdout
+    flat = " ".join(first.split())
+    assert f"{vm.NOTICE_OPENING} trueband results in this file do not follow edits of their inputs" in flat
