@@ -343,6 +343,13 @@ def _span(xml: bytes) -> tuple[bytes, tuple[int, int, bytes]]:
         return xml, sheet_data_span(xml)
 
 
+def _column_of(ref: str) -> int:
+    try:
+        return split_ref(ref)[1]
+    except ValueError:
+        raise SheetXmlError(f"a cell has the reference {ref[:20]!r}, which is not a cell") from None
+
+
 def normal_form(xml: bytes) -> bytes:
     """The part itself when it is in the usual form, else :func:`parsed_form` of it."""
     return xml if unusual_form(xml) is None else parsed_form(xml)
@@ -386,25 +393,21 @@ def parsed_form(xml: bytes) -> bytes:
     root: list[str] = []  # [prefix, uri] of the root element
     pending = [False]  # the last start tag is still open (no content yet)
     kinds: list[str | None] = []  # local names of the open elements of the spreadsheet namespace
-    position = [0, 0]  # row and column of the last row and cell
-
-    def close_pending():
-        if pending[0]:
-            out.append(">")
-            pending[0] = False
+    position: list = [0, 0, None]
 
     def start(name, attrs):
-        close_pending()
+        if pending[0]:
+            out.append(">")
         scope = scopes[-1]
-        declared = {}
+        r = None
+        written = []
         for k in range(0, len(attrs), 2):
-            a = attrs[k]
-            if a == "xmlns":
-                declared[""] = attrs[k + 1]
-            elif a.startswith("xmlns:"):
-                declared[a[6:]] = attrs[k + 1]
-        if declared:
-            scope = {**scope, **declared}
+            a, v = attrs[k], attrs[k + 1]
+            if a == "r":
+                r = v
+            elif a[:5] == "xmlns" and (len(a) == 5 or a[5] == ":"):
+                scope = {**scope, a[6:]: v}  # "" for the default namespace
+            written.append(f' {a}="{v.translate(_ATTR_OUT)}"')
         scopes.append(scope)
         prefix, _, local = name.rpartition(":")
         uri = scope.get(prefix)
@@ -423,37 +426,36 @@ def parsed_form(xml: bytes) -> bytes:
         parent = kinds[-1] if kinds else None
         kind = local if uri == root[1] else None
         kinds.append(kind)
-        extra = ""
-        if kind == "row" and parent == "sheetData":  # rows and cells without r get the one their position gives
-            r = next((attrs[k + 1] for k in range(0, len(attrs), 2) if attrs[k] == "r"), None)
-            position[0] = int(r) if r and r.isdigit() else position[0] + 1
-            position[1] = 0
-            if r is None:
-                extra = f' r="{position[0]}"'
-        elif kind == "c" and parent == "row":
-            r = next((attrs[k + 1] for k in range(0, len(attrs), 2) if attrs[k] == "r"), None)
-            if r is None:
-                position[1] += 1
-                extra = f' r="{column_letters(position[1])}{position[0]}"'
-            else:
-                try:
-                    position[1] = split_ref(r)[1]
-                except ValueError:
-                    raise SheetXmlError(f"a cell has the reference {r[:20]!r}, which is not a cell") from None
         names.append(name)
-        out.append("<" + name + extra)
-        for k in range(0, len(attrs), 2):
-            out.append(f' {attrs[k]}="{attrs[k + 1].translate(_ATTR_OUT)}"')
+        # rows and cells without r get the one their position gives (position: row, column, last cell's r)
+        if kind == "c" and parent == "row":
+            if r is None:
+                col = position[1] if position[2] is None else _column_of(position[2])
+                position[1], position[2] = col + 1, None
+                name += f' r="{column_letters(col + 1)}{position[0]}"'
+            else:
+                position[2] = r
+        elif kind == "row" and parent == "sheetData":
+            position[0] = int(r) if r and r.isdigit() else position[0] + 1
+            position[1], position[2] = 0, None
+            if r is None:
+                name += f' r="{position[0]}"'
+        out.append("<" + name)
+        out.extend(written)
         pending[0] = True
 
     def end(name):
-        close_pending()
+        if pending[0]:
+            out.append(">")
+            pending[0] = False
         out.append(f"</{names.pop()}>")
         scopes.pop()
         kinds.pop()
 
     def text(data):
-        close_pending()
+        if pending[0]:
+            out.append(">")
+            pending[0] = False
         out.append(data.translate(_TEXT_OUT))
 
     def doctype(*args):
