@@ -680,7 +680,8 @@ def test_check_and_recalc_on_a_sheet_with_single_quoted_attributes(tmp_path, cap
     assert "Bands!D2  SEM" in capsys.readouterr().out
     assert main(["recalc", str(path)]) == 0
     got = openpyxl.load_workbook(tmp_path / "quoted.recalc.xlsx", data_only=True)["Bands"]  # reference reader
-    assert got["D2"].value == pytest.approx(12 * (1 - 0.91) ** 0.5) and got["A1"].value == 12  # SEM = SD*sqrt(1-r)
+    # SEM = SD·√(1 − r), Lord & Novick (1968), from memory
+    assert got["D2"].value == pytest.approx(12 * (1 - 0.91) ** 0.5) and got["A1"].value == 12
 
 
 def test_cells_and_rows_without_references_can_be_patched_and_added_to():

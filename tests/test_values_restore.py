@@ -326,7 +326,8 @@ def test_values_mode_on_a_workbook_written_by_openpyxl(tmp_path, capsys):
     assert main(["recalc", "--values", str(tmp_path / "written.xlsx")]) == EXIT_OK
     got = openpyxl.load_workbook(tmp_path / "written.recalc.xlsx")
     assert got.sheetnames == ["Bands", "Notes", vm.FORMULA_SHEET]
-    assert got["Bands"]["B1"].value == pytest.approx(4.2 * (1 - 0.88) ** 0.5)  # SEM = SD * sqrt(1 - r)
+    # SEM = SD·√(1 − r), Lord & Novick (1968), from memory
+    assert got["Bands"]["B1"].value == pytest.approx(4.2 * (1 - 0.88) ** 0.5)
 
 
 def test_restore_takes_out_a_hidden_sheet_entry_written_with_single_quotes(forms, tmp_path):
@@ -469,7 +470,7 @@ def test_recalc_and_values_on_cells_written_without_references(tmp_path):
     book = gb.handmade_package(tmp_path / "positions.xlsx", [("Bands", xml)])
     assert main(["recalc", str(book)]) == EXIT_OK
     assert main(["recalc", "--values", str(book), "-o", str(tmp_path / "values.xlsx")]) == EXIT_OK
-    sem = 12 * (1 - 0.91) ** 0.5  # SEM = SD * sqrt(1 - reliability)
+    sem = 12 * (1 - 0.91) ** 0.5  # SEM = SD·√(1 − r), Lord & Novick (1968), from memory
     assert openpyxl.load_workbook(tmp_path / "positions.recalc.xlsx", data_only=True)["Bands"]["B1"].value == \
         pytest.approx(sem)
     got = openpyxl.load_workbook(tmp_path / "values.xlsx")["Bands"]["B1"].value  # a value now, not a formula
