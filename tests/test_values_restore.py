@@ -495,3 +495,14 @@ def test_libreoffice_prints_the_start_of_the_notice_on_the_first_page(demo_scori
                            capture_output=True, text=True, check=True).stdout
     flat = " ".join(first.split())
     assert f"{vm.NOTICE_OPENING} trueband results in this file do not follow edits of their inputs" in flat
+
+
+def test_a_sheet_without_a_safe_cell_gets_no_notice_and_the_summary_says_so(tmp_path, capsys):
+    scores = gb.sheet_part([gb.row_xml(1, [gb.cell_xml("A1", 12), gb.cell_xml("B1", 0, formula="SEM(A1,0.9)")])])
+    count = gb.sheet_part([gb.row_xml(1, [gb.cell_xml("A1", 2, formula="COUNTA(Scores!A:XFD)")])])  # every cell
+    book = gb.handmade_package(tmp_path / "full.xlsx", [("Scores", scores), ("Count", count)])
+    assert main(["recalc", "--values", str(book)]) == EXIT_OK
+    assert "no free cell for the values notice on Scores" in capsys.readouterr().err
+    assert [s for s, _, _ in _notices(tmp_path / "full.recalc.xlsx")] == ["Count"]
+    got = openpyxl.load_workbook(tmp_path / "full.recalc.xlsx", data_only=True)
+    assert got["Scores"]["B1"].value == pytest.approx(12 * (1 - 0.9) ** 0.5) and got["Count"]["A1"].value == 2
