@@ -59,8 +59,13 @@ def _cell_ranges(refs) -> list[str]:
     """Cells as compact ranges: runs down a column, then neighbouring columns with the same rows."""
     by_col: dict[int, list[int]] = {}
     for ref in refs:
-        r, c = sheet_xml.split_ref(ref)
+        try:
+            r, c = sheet_xml.split_ref(ref)
+        except ValueError:  # a record edited by hand: restore reports it
+            continue
         by_col.setdefault(c, []).append(r)
+    if not by_col:
+        return []
     runs: list[tuple[int, int, int, int]] = []  # (c1, c2, r1, r2)
     for c in sorted(by_col):
         rows = sorted(set(by_col[c]))
@@ -185,7 +190,7 @@ def reader_of(runs):
 
 _AREA = re.compile(r"(?:'((?:[^']|'')+)'|([A-Za-z_][\w.]*))!\$?([A-Za-z]{1,3})\$?([0-9]+)"
                    r"(?::\$?([A-Za-z]{1,3})\$?([0-9]+))?")
-_REF_ATTR = re.compile(rb'<(?:[\w.-]+:)?(?:autoFilter|table)\b[^>]*?\bref\s*=\s*["\']([A-Z]+[0-9]+(?::[A-Z]+[0-9]+)?)["\']')
+_REF_ATTR = re.compile(rb'<(?:[\w.-]+:)?(?:autoFilter|table)\b[^>]*?\bref\s*=\s*["\']([A-Z]{1,3}[0-9]+(?::[A-Z]{1,3}[0-9]+)?)["\']')
 _CHART_FORMULA = re.compile(rb"<(?:[\w.-]+:)?f>([^<]*)</(?:[\w.-]+:)?f>")
 
 
