@@ -506,3 +506,20 @@ def test_a_sheet_without_a_safe_cell_gets_no_notice_and_the_summary_says_so(tmp_
     assert [s for s, _, _ in _notices(tmp_path / "full.recalc.xlsx")] == ["Count"]
     got = openpyxl.load_workbook(tmp_path / "full.recalc.xlsx", data_only=True)
     assert got["Scores"]["B1"].value == pytest.approx(12 * (1 - 0.9) ** 0.5) and got["Count"]["A1"].value == 2
+
+
+def test_a_hand_edited_record_does_not_break_a_second_values_run(forms, tmp_path, capsys):
+    out, _ = values_book(forms)
+    with open_workbook_package(out) as pkg:  # a record's cell edited by hand, and a new formula typed in
+        from trueband.bridge.sheet_xml import NewCell, add_cells
+        changes = PackageChanges()
+        part = pkg.sheet(vm.FORMULA_SHEET).part
+        xml = pkg.read(part).replace(b"<t>D3</t>", b"<t>somewhere</t>", 1)
+        assert b"somewhere" in xml
+        changes.set(pkg, part, xml)
+        settings = pkg.sheet("Settings").part
+        changes.set(pkg, settings, add_cells(pkg.read(settings), {"C5": NewCell(formula="SED(4.2,0.88)", value=2.0)}))
+        edited = save_workbook(pkg, changes, output=tmp_path / "edited.xlsx")
+    assert main(["recalc", "--values", str(edited)]) == EXIT_OK
+    assert main(["restore", str(tmp_path / "edited.recalc.xlsx")]) == 1
+    assert "Scores!somewhere: not restored (the record does not name a cell)" in capsys.readouterr().out
