@@ -81,6 +81,8 @@ class RecalcReport:
     cycles: list[list[str]] = dataclasses.field(default_factory=list)
     seconds: float = 0.0
     values_mode: bool = False
+    #: With ``values_mode``: sheets where no safe cell for the values notice was found.
+    notices_missing: list[str] = dataclasses.field(default_factory=list)
 
     @property
     def ok(self) -> bool:
@@ -88,9 +90,11 @@ class RecalcReport:
 
     def summary(self) -> str:
         where = f" → {self.output}" if self.output else ""
+        missing = (f"; no free cell for the values notice on {', '.join(self.notices_missing)}"
+                   if self.notices_missing else "")
         return (f"{self.evaluated} of {self.formulas} formula cells evaluated, {len(self.errors)} errors"
                 + (f", {len(self.cycles)} circular references" if self.cycles else "")
-                + f", {self.seconds:.2f} s{where}")
+                + f", {self.seconds:.2f} s{where}{missing}")
 
 
 # ---------------------------------------------------------------- the cell values of a workbook
@@ -791,6 +795,11 @@ def _changes(model: WorkbookModel, updates: dict[str, dict[bytes, object]]):
 
 # ---------------------------------------------------------------- the entry point
 
+def _values_mode():
+    from . import values_mode
+    return values_mode
+
+
 def recalculate(src, dst=None, *, in_place: bool = False, backup: bool = False, all_formulas: bool = False,
                 values: bool = False, progress: Callable[[str, float], None] | None = None,
                 overwrite: bool = False) -> RecalcReport:
@@ -840,12 +849,17 @@ def recalculate(src, dst=None, *, in_place: bool = False, backup: bool = False, 
         model = load_model(package, progress)
         updates, errors, cycles, evaluated, vectorised = evaluate_model(model, all_formulas=all_formulas,
                                                                         progress=progress)
+        inputs = _values_mode().frozen_inputs(model.runs, model.store, _uses_registered, _cell_value_for_xml) \
+            if values else ()
         model.store = None  # the values are in ``updates`` now; free them before the sheets are patched
         model.graph = None
         changes = _changes(model, updates)
+        missing: list[str] = []
         if values:
-            from . import values_mode
-            values_mode.replace_with_values(model.package, changes)  # the values are in the patched sheets
+            values_mode = _values_mode()
+            values_mode.replace_with_values(model.package, changes, inputs=inputs,
+                                            is_read=values_mode.reader_of(model.runs),
+                                            unplaced=missing)  # the values are in the patched sheets
         if progress:
             progress("writing", 1.0)
         try:
@@ -858,7 +872,7 @@ def recalculate(src, dst=None, *, in_place: bool = False, backup: bool = False, 
             gc.enable()
     return RecalcReport(source=src, output=out, formulas=model.formula_count, evaluated=evaluated,
                         vectorised=vectorised, errors=errors, cycles=cycles,
-                        seconds=time.perf_counter() - started, values_mode=values)
+                        seconds=time.perf_counter() - started, values_mode=values, notices_missing=missing)
 
 
 # ---------------------------------------------------------------- check (reads, writes nothing)

@@ -167,7 +167,8 @@ class PackageChanges:
         when absent, the workbook part is left byte-identical.
         """
         wb = self.current(pkg, pkg.workbook_part)
-        new = re.sub(rb'(<(?:\w+:)?calcPr\b[^>]*?)\s+fullCalcOnLoad="(?:1|true)"', rb"\1", wb, count=1)
+        new = re.sub(rb'(<(?:[\w.-]+:)?calcPr\b[^>]*?)\s+fullCalcOnLoad\s*=\s*(["\'])(?:1|true)\2', rb"\1", wb,
+                     count=1)
         if new != wb:
             self.set(pkg, pkg.workbook_part, new)
 
@@ -178,18 +179,19 @@ class PackageChanges:
 
 def _remove_relationship_of_type(rels: bytes, rel_type: str) -> bytes:
     word = re.escape(rel_type.rsplit("/", 1)[-1].encode())
-    return re.sub(rb'<(?:\w+:)?Relationship\b[^>]*?Type="[^"]*/' + word + rb'"[^>]*?/>', b"", rels)
+    return re.sub(rb'<(?:[\w.-]+:)?Relationship\b[^>]*?Type\s*=\s*(["\'])[^"\']*/' + word + rb'\1[^>]*?/>', b"", rels)
 
 
 def remove_override(content_types: bytes, part_name: str) -> bytes:
     """``[Content_Types].xml`` without the ``<Override>`` of ``part_name`` (``/xl/calcChain.xml``)."""
-    return re.sub(rb'<(?:\w+:)?Override\b[^>]*?PartName="' + re.escape(part_name.encode()) + rb'"[^>]*?/>', b"",
+    return re.sub(rb'<(?:[\w.-]+:)?Override\b[^>]*?PartName\s*=\s*(["\'])' + re.escape(part_name.encode())
+                  + rb'\1[^>]*?/>', b"",
                   content_types, flags=re.I)
 
 
 def add_override(content_types: bytes, part_name: str, content_type: str) -> bytes:
     """``[Content_Types].xml`` with an ``<Override>`` for ``part_name`` (unchanged if it has one)."""
-    if re.search(rb'PartName="' + re.escape(part_name.encode()) + rb'"', content_types, re.I):
+    if re.search(rb'PartName\s*=\s*["\']' + re.escape(part_name.encode()) + rb'["\']', content_types, re.I):
         return content_types
     el = f'<Override PartName="{part_name}" ContentType="{content_type}"/>'.encode()
     i = content_types.rindex(b"</")

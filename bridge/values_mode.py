@@ -13,6 +13,10 @@ attributes). Formulas that only use standard functions stay formulas.
 cell's current value, removes the hidden sheet (its part, its ``<sheet>``
 entry, its relationship and content type) and drops the calculation chain.
 
+Each sheet of a values file also gets a notice cell saying that those values
+are fixed (:mod:`~trueband.bridge.values_notice` says why a notice and where
+it goes); it is recorded in the hidden sheet too, and restore takes it out.
+
 Package edits made here, all as byte edits of the small parts involved:
 ``xl/workbook.xml`` (a ``<sheet>`` appended at the end, so the positions that
 sheet-local defined names count are unchanged), the workbook relationships,
@@ -23,16 +27,19 @@ are removed or added, so the chain is stale; apps rebuild it).
 from __future__ import annotations
 
 import dataclasses
+import datetime
 import posixpath
 import re
 from typing import Mapping
+from xml.etree import ElementTree
 
 from trueband.funcs.registry import REGISTRY, normalize_name
 
 from . import sheet_xml
 from .safe_write import PackageChanges, add_override, remove_override
+from .values_notice import NOTICE_OPENING, Notice, frozen_inputs, kept_areas, notice_text, place_notice, reader_of
 from .sheet_xml import CellUpdate, escape_text, iter_cells
-from .xlsx_package import REL_WORKSHEET, UnusableWorkbook, WorkbookPackage, rels_part_of
+from .xlsx_package import NS_REL, REL_WORKSHEET, UnusableWorkbook, WorkbookPackage, rels_part_of
 
 __all__ = [
     "FORMULA_SHEET",
@@ -41,6 +48,12 @@ __all__ = [
     "replace_with_values",
     "restore_formulas",
     "RestoreReport",
+    "Notice",
+    "NOTICE_OPENING",
+    "notice_text",
+    "read_notices",
+    "frozen_inputs",
+    "reader_of",
 ]
 
 #: Name of the hidden sheet that keeps the replaced formulas.
@@ -48,6 +61,9 @@ FORMULA_SHEET = "trueband_formulas"
 FORMULA_SHEET_STATE = "hidden"
 _HEADER = ("sheet", "cell", "formula", "formula element")
 _NOTE = "Formulas replaced by their values by trueband; `trueband restore FILE` puts them back."
+#: Column D of a hidden-sheet row that records a notice (its own row: made for the notice).
+_NOTICE_MARK = "(values notice)"
+_NOTICE_NEW_ROW = "(values notice, own row)"
 CT_WORKSHEET = "application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"
 
 _NAME_CALL = re.compile(r'"[^"]*"|((?:_xludf\.|_xlfn\._xlws\.|_xlfn\.|_xlws\.|com\.microsoft\.|org\.openoffice\.)?'
@@ -79,7 +95,9 @@ class FormulaRecord:
 
 
 def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
-                        values: Mapping[str, Mapping[str, object]] | None = None) -> list[FormulaRecord]:
+                        values: Mapping[str, Mapping[str, object]] | None = None, *, inputs=(),
+                        is_read=None, written_at: datetime.datetime | None = None,
+                        unplaced: list[str] | None = None) -> list[FormulaRecord]:
     """Drop every formula that uses a registered function, keeping its value; record it in the hidden sheet.
 
     Parameters
@@ -91,6 +109,17 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
     values : mapping, optional
         ``{sheet name: {cell: value}}`` of freshly computed values; a replaced
         cell takes its value from here, else keeps its cached value.
+    inputs : sequence of (str, value or None), optional
+        The inputs the replaced formulas read (``Sheet!A1`` with its value then,
+        or a range with None), named in the notice (:func:`notice_text`).
+    is_read : callable, optional
+        ``is_read(sheet, row, col)`` is True for a cell that some formula of the
+        workbook reads: the notice never goes there. Default: no formula is
+        known to read any empty cell.
+    written_at : datetime, optional
+        The time named in the notice (default now, UTC).
+    unplaced : list, optional
+        Receives the names of sheets where no safe place for a notice was found.
 
     Returns
     -------
@@ -108,7 +137,10 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
     for info in pkg.worksheets:
         if info.name == FORMULA_SHEET:
             continue
-        xml = changes.current(pkg, info.part)
+        try:  # a part in an unusual form is read and edited in the parser's form (sheet_xml.normal_form)
+            xml = sheet_xml.normal_form(changes.current(pkg, info.part))
+        except sheet_xml.SheetXmlError as exc:
+            raise UnusableWorkbook(f"{pkg.path.name}: sheet {info.name!r}: {exc}", path=pkg.path) from None
         masters: dict[int, str] = {}
         chosen: dict[str, tuple[str | None, object]] = {}
         for cell in iter_cells(xml, pkg.shared_strings):
@@ -123,15 +155,64 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
         if not chosen:
             continue
         elements = formula_elements(xml, chosen)
+        if len(elements) < len(chosen):  # cells written without r: the parser's form gives each its reference
+            xml = sheet_xml.parsed_form(xml)
+            elements = formula_elements(xml, chosen)
+        missing = sorted(set(chosen) - set(elements), key=sheet_xml.split_ref)
+        if missing:
+            raise UnusableWorkbook(f"{pkg.path.name}: sheet {info.name!r}: cell {missing[0]} is written without "
+                                   f"its reference (r); --values cannot replace its formula (re-save the file "
+                                   f"in a spreadsheet app first)", path=pkg.path)
         updates = {}
         for ref, (text, value) in chosen.items():
             records.append(FormulaRecord(info.name, ref, text, elements[ref]))
             updates[ref] = CellUpdate(value, drop_formula=True)
-        changes.set(pkg, info.part, sheet_xml.patch_sheet(xml, updates))
+        try:
+            changes.set(pkg, info.part, sheet_xml.patch_sheet(xml, updates))
+        except sheet_xml.SheetXmlError as exc:
+            raise UnusableWorkbook(f"{pkg.path.name}: sheet {info.name!r}: {exc}", path=pkg.path) from None
     if records:
-        _write_formula_sheet(pkg, changes, _existing_records(pkg) + records)
+        all_records = _existing_records(pkg) + records
+        notices = _write_notices(pkg, changes, notice_text(all_records, inputs, written_at), is_read, unplaced)
+        _write_formula_sheet(pkg, changes, all_records, notices)
         changes.drop_calc_chain(pkg)
     return records
+
+
+def _write_notices(pkg: WorkbookPackage, changes: PackageChanges, text: str, is_read,
+                   unplaced: list[str] | None) -> list[Notice]:
+    """A notice cell on every worksheet (a notice from an earlier run is rewritten where it is)."""
+    earlier = {n.sheet.casefold(): n for n in _existing_notices(pkg)}
+    notices = []
+    for info in pkg.worksheets:
+        if info.name == FORMULA_SHEET:
+            continue
+        xml = sheet_xml.normal_form(changes.current(pkg, info.part))
+        old = earlier.get(info.name.casefold())
+        if old is not None:
+            cell = next((c for c in iter_cells(xml, pkg.shared_strings) if c.ref == old.cell), None)
+            if cell is not None and isinstance(cell.value, str) and cell.value.startswith(NOTICE_OPENING):
+                changes.set(pkg, info.part, sheet_xml.patch_sheet(xml, {old.cell: CellUpdate(text)}))
+                notices.append(Notice(info.name, old.cell, text, old.new_row))
+                continue
+        place = place_notice(xml, pkg.shared_strings, info.name, is_read, kept_areas(pkg, info, xml))
+        if place is None:
+            if unplaced is not None:
+                unplaced.append(info.name)
+            continue
+        ref, new_row = place
+        before = sheet_xml.dimension(xml)
+        try:
+            new = sheet_xml.add_cells(xml, {ref: sheet_xml.NewCell(value=text)})
+        except sheet_xml.SheetXmlError:  # rows written without numbers: no cell can be added safely
+            if unplaced is not None:
+                unplaced.append(info.name)
+            continue
+        if before is not None:  # the notice stays outside the recorded extent: restore gives the same bytes back
+            new = sheet_xml.set_dimension(new, before)
+        changes.set(pkg, info.part, new)
+        notices.append(Notice(info.name, ref, text, new_row))
+    return notices
 
 
 _CELL = re.compile(rb'<(?:\w+:)?c\b[^>]*?\br="([A-Z]+[0-9]+)"[^>]*?(?:/>|>(.*?)</(?:\w+:)?c>)', re.S)
@@ -156,14 +237,19 @@ def _inline(ref: str, text: str) -> bytes:
     return (f'<c r="{ref}" t="inlineStr"><is><t'.encode() + space + b">" + escape_text(text) + b"</t></is></c>")
 
 
-def _records_part(records: list[FormulaRecord]) -> bytes:
+def _records_part(records: list[FormulaRecord], notices: list[Notice] = ()) -> bytes:
     rows = [b'<row r="1">' + b"".join(_inline(f"{c}1", h) for c, h in zip("ABCD", _HEADER))
             + _inline("F1", _NOTE) + b"</row>"]
+    i = 1
     for i, rec in enumerate(records, start=2):
         shown = "=" + rec.text if rec.text is not None else "(shares the formula above it in its group)"
         rows.append(f'<row r="{i}">'.encode() + _inline(f"A{i}", rec.sheet) + _inline(f"B{i}", rec.cell)
                     + _inline(f"C{i}", shown) + _inline(f"D{i}", rec.element.decode("utf-8")) + b"</row>")
-    last = len(records) + 1
+    for i, note in enumerate(notices, start=i + 1):
+        mark = _NOTICE_NEW_ROW if note.new_row else _NOTICE_MARK
+        rows.append(f'<row r="{i}">'.encode() + _inline(f"A{i}", note.sheet) + _inline(f"B{i}", note.cell)
+                    + _inline(f"C{i}", note.text) + _inline(f"D{i}", mark) + b"</row>")
+    last = len(records) + len(notices) + 1
     return (b'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
             b'<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main" '
             b'xmlns:r="http://schemas.openxmlformats.org/officeDocument/2006/relationships">'
@@ -175,26 +261,47 @@ def _existing_records(pkg: WorkbookPackage) -> list[FormulaRecord]:
         info = pkg.sheet(FORMULA_SHEET)
     except KeyError:
         return []
-    return read_records(pkg.read(info.part))
+    return read_records(pkg.read(info.part), pkg.shared_strings)
 
 
-def read_records(xml: bytes) -> list[FormulaRecord]:
+def read_records(xml: bytes, shared_strings=()) -> list[FormulaRecord]:
     """The records of a formula sheet part (the inverse of what :func:`replace_with_values` writes)."""
+    return _read_sheet_records(xml, shared_strings)[0]
+
+
+def read_notices(xml: bytes, shared_strings=()) -> list[Notice]:
+    """The notices recorded in a formula sheet part."""
+    return _read_sheet_records(xml, shared_strings)[1]
+
+
+def _existing_notices(pkg: WorkbookPackage) -> list[Notice]:
+    try:
+        info = pkg.sheet(FORMULA_SHEET)
+    except KeyError:
+        return []
+    return read_notices(pkg.read(info.part), pkg.shared_strings)
+
+
+def _read_sheet_records(xml: bytes, shared_strings=()) -> tuple[list[FormulaRecord], list[Notice]]:
     rows: dict[int, dict[int, object]] = {}
-    for cell in iter_cells(xml):
+    for cell in iter_cells(xml, shared_strings):
         rows.setdefault(cell.row, {})[cell.col] = cell.value
     out = []
+    notices = []
     for r in sorted(rows):
         if r == 1:
             continue
         row = rows[r]
         sheet, ref, shown, element = (row.get(i) for i in (1, 2, 3, 4))
+        if element in (_NOTICE_MARK, _NOTICE_NEW_ROW) and isinstance(sheet, str) and isinstance(ref, str):
+            notices.append(Notice(sheet, ref, shown if isinstance(shown, str) else "", element == _NOTICE_NEW_ROW))
+            continue
         if not (isinstance(sheet, str) and isinstance(ref, str) and isinstance(element, str)):
             raise UnusableWorkbook(f"the hidden sheet {FORMULA_SHEET} has an incomplete record in row {r}; "
                                    f"it was edited by hand")
         text = shown[1:] if isinstance(shown, str) and shown.startswith("=") else None
         out.append(FormulaRecord(sheet, ref, text, element.encode("utf-8")))
-    return out
+    return out, notices
 
 
 def _free_name(names, pattern: str) -> str:
@@ -204,8 +311,9 @@ def _free_name(names, pattern: str) -> str:
     return pattern.format(n)
 
 
-def _write_formula_sheet(pkg: WorkbookPackage, changes: PackageChanges, records: list[FormulaRecord]) -> None:
-    data = _records_part(records)
+def _write_formula_sheet(pkg: WorkbookPackage, changes: PackageChanges, records: list[FormulaRecord],
+                         notices: list[Notice] = ()) -> None:
+    data = _records_part(records, notices)
     try:
         existing = pkg.sheet(FORMULA_SHEET)
     except KeyError:
@@ -219,25 +327,54 @@ def _write_formula_sheet(pkg: WorkbookPackage, changes: PackageChanges, records:
     changes.set(pkg, part, data)
     rels_name = rels_part_of(pkg.workbook_part)
     rels = changes.current(pkg, rels_name)
-    ids = set(re.findall(rb'\bId="([^"]*)"', rels))
-    rid = _free_name({i.decode() for i in ids}, "rId{}")
+    rid = _free_name({el.get("Id", "") for el in _small_xml(pkg, rels_name, rels)}, "rId{}")
     target = posixpath.relpath(part, posixpath.dirname(pkg.workbook_part))
     rel_el = f'<Relationship Id="{rid}" Type="{REL_WORKSHEET}" Target="{target}"/>'.encode()
     i = rels.rindex(b"</")
     changes.set(pkg, rels_name, rels[:i] + rel_el + rels[i:])
     ct = changes.current(pkg, "[Content_Types].xml")
     changes.set(pkg, "[Content_Types].xml", add_override(ct, "/" + part, CT_WORKSHEET))
-    wb = changes.current(pkg, pkg.workbook_part)
-    prefix_m = re.search(rb'<(\w+:)?sheet\b[^>]*?\s(\w+):id="', wb)
-    el_prefix = (prefix_m.group(1) or b"") if prefix_m else b""
-    r_prefix = prefix_m.group(2) if prefix_m else b"r"
-    ids = [int(x) for x in re.findall(rb'<(?:\w+:)?sheet\b[^>]*?\bsheetId="([0-9]+)"', wb)]
-    sheet_el = (b"<" + el_prefix + b'sheet name="' + FORMULA_SHEET.encode() + b'" sheetId="'
-                + str(max(ids, default=0) + 1).encode() + b'" state="' + FORMULA_SHEET_STATE.encode() + b'" '
-                + r_prefix + b':id="' + rid.encode() + b'"/>')
-    close = b"</" + el_prefix + b"sheets>"
-    j = wb.index(close)
-    changes.set(pkg, pkg.workbook_part, wb[:j] + sheet_el + wb[j:])
+    changes.set(pkg, pkg.workbook_part, _append_sheet(pkg, changes.current(pkg, pkg.workbook_part), rid))
+
+
+_SHEETS_END = re.compile(rb"</((?:[A-Za-z_][\w.-]*:)?)sheets\s*>")
+
+
+def _small_xml(pkg: WorkbookPackage, name: str, data: bytes):
+    try:
+        return ElementTree.fromstring(data)
+    except ElementTree.ParseError as exc:
+        raise UnusableWorkbook(f"{pkg.path.name}: part {name} is not well-formed XML ({exc})", path=pkg.path) from None
+
+
+def _append_sheet(pkg: WorkbookPackage, wb: bytes, rid: str) -> bytes:
+    """``workbook.xml`` with the hidden sheet's ``<sheet>`` appended to ``<sheets>``, namespace-aware.
+
+    The new element declares the relationships namespace itself (writers bind
+    it on the root, or, as openpyxl with lxml does, on each ``<sheet>``), and
+    takes the prefix of the ``</sheets>`` it goes before, which is bound
+    there. The result is parsed to check that the new sheet names its
+    relationship as the package reader will look it up.
+    """
+    root = _small_xml(pkg, pkg.workbook_part, wb)
+    ns = root.tag[1:].split("}", 1)[0] if root.tag.startswith("{") else ""
+    q = (lambda t: f"{{{ns}}}{t}") if ns else (lambda t: t)
+    ids = [int(el.get("sheetId")) for el in root.iter(q("sheet")) if (el.get("sheetId") or "").isdigit()]
+    ends = list(_SHEETS_END.finditer(wb))
+    if len(ends) != 1:
+        raise UnusableWorkbook(f"{pkg.path.name}: {pkg.workbook_part} has no single <sheets> list", path=pkg.path)
+    prefix = ends[0].group(1)
+    sheet_el = (b"<" + prefix + b'sheet xmlns:r="' + NS_REL.encode() + b'" name="' + FORMULA_SHEET.encode()
+                + b'" sheetId="' + str(max(ids, default=0) + 1).encode() + b'" state="'
+                + FORMULA_SHEET_STATE.encode() + b'" r:id="' + rid.encode() + b'"/>')
+    j = ends[0].start()
+    new = wb[:j] + sheet_el + wb[j:]
+    check = [el for el in _small_xml(pkg, pkg.workbook_part, new).iter(q("sheet"))
+             if el.get("name") == FORMULA_SHEET]
+    if len(check) != 1 or check[0].get(f"{{{NS_REL}}}id") != rid:
+        raise UnusableWorkbook(f"{pkg.path.name}: the hidden sheet could not be added to {pkg.workbook_part}",
+                               path=pkg.path)
+    return new
 
 
 # ------------------------------------------------------------------ restoring
@@ -256,50 +393,139 @@ def restore_formulas(pkg: WorkbookPackage, changes: PackageChanges) -> RestoreRe
 
     Each formula goes back into its cell beside the cell's current value (so
     the file still shows the same values until recalculated). A recorded
-    cell whose sheet was renamed or deleted, or that no longer exists, is
-    listed in ``skipped``.
+    cell whose sheet was renamed or deleted, or that holds a formula again,
+    is listed in ``skipped``.
+
+    Works on files that a spreadsheet app opened and saved meanwhile:
+    the app rewrites the hidden sheet with shared strings (read through the
+    workbook's table), drops the cells whose value was empty text (they are
+    written again, with their formula and no cached value), and numbers its
+    own shared formulas, so a restored shared group whose ``si`` is taken in
+    its sheet gets a free one.
 
     Raises
     ------
     UnusableWorkbook
-        The workbook has no hidden formula sheet (nothing to restore).
+        The workbook has no hidden formula sheet (nothing to restore), or a
+        part cannot be read (one line naming the sheet and the cell).
     """
     try:
         info = pkg.sheet(FORMULA_SHEET)
     except KeyError:
         raise UnusableWorkbook(f"{pkg.path.name} has no sheet {FORMULA_SHEET}: there are no replaced formulas "
                                f"to restore", path=pkg.path) from None
-    records = read_records(pkg.read(info.part))
+    try:
+        records, notices = _read_sheet_records(pkg.read(info.part), pkg.shared_strings)
+    except sheet_xml.SheetXmlError as exc:
+        raise UnusableWorkbook(f"{pkg.path.name}: the hidden sheet {FORMULA_SHEET} cannot be read ({exc})",
+                               path=pkg.path) from None
     report = RestoreReport()
     by_sheet: dict[str, list[FormulaRecord]] = {}
     for rec in records:
         by_sheet.setdefault(rec.sheet, []).append(rec)
+    notes_by_sheet: dict[str, list[Notice]] = {}
+    for note in notices:
+        by_sheet.setdefault(note.sheet, [])
+        notes_by_sheet.setdefault(note.sheet, []).append(note)
     for name, recs in by_sheet.items():
         try:
             target = pkg.sheet(name)
         except KeyError:
             report.skipped += [(f"{rec.sheet}!{rec.cell}", "the sheet no longer exists") for rec in recs]
             continue
-        xml = changes.current(pkg, target.part)
-        current = {c.ref: c for c in iter_cells(xml, pkg.shared_strings)}
-        updates = {}
-        for rec in recs:
-            cell = current.get(rec.cell)
-            if cell is None:
-                report.skipped.append((f"{rec.sheet}!{rec.cell}", "the cell no longer exists"))
-                continue
-            if cell.formula is not None:
-                report.skipped.append((f"{rec.sheet}!{rec.cell}", "the cell holds a formula again"))
-                continue
-            # text values (shared or inline strings) become the formula's text result (t="str")
-            updates[rec.cell] = CellUpdate(cell.value, formula_xml=rec.element)
-        if updates:
-            changes.set(pkg, target.part, sheet_xml.patch_sheet(xml, updates))
-            report.restored += len(updates)
+        try:
+            report.restored += _restore_sheet(pkg, changes, target, recs, report, notes_by_sheet.get(name, []))
+        except sheet_xml.SheetXmlError as exc:
+            raise UnusableWorkbook(f"{pkg.path.name}: sheet {name!r}: {exc}; nothing was restored",
+                                   path=pkg.path) from None
     _remove_sheet(pkg, changes, info)
     changes.drop_calc_chain(pkg)
     changes.keep_cached_values(pkg)
     return report
+
+
+_SI = re.compile(rb'(\bsi=")([0-9]+)(")')
+_F_RECORD = re.compile(rb'<(?:[A-Za-z_][\w.-]*:)?f((?: [A-Za-z]+="[^"<>]*")*) ?(?:/>|>([^<]*)</(?:[A-Za-z_][\w.-]*:)?f>)')
+
+
+def _element_for(element: bytes, prefix: bytes) -> bytes | None:
+    """A recorded ``<f>`` element under the target sheet's namespace prefix (the file may have been saved
+    by an app that writes another); None when the record no longer holds a formula element."""
+    m = _F_RECORD.fullmatch(element.strip())
+    if m is None:
+        return None
+    attrs, text = m.group(1), m.group(2)
+    if text is None:
+        return b"<" + prefix + b"f" + attrs + b"/>"
+    return b"<" + prefix + b"f" + attrs + b">" + text + b"</" + prefix + b"f>"
+
+
+def _restore_sheet(pkg: WorkbookPackage, changes: PackageChanges, target, recs: list[FormulaRecord],
+                   report: RestoreReport, notices: list[Notice] = ()) -> int:
+    """Put one sheet's records back and take its notice out; the number of formulas restored."""
+    xml = sheet_xml.normal_form(changes.current(pkg, target.part))
+    prefix = sheet_xml.sheet_data_span(xml)[2]
+    current = {}
+    taken_si: set[int] = set()
+    for c in iter_cells(xml, pkg.shared_strings):
+        current[c.ref] = c
+        if c.formula is not None and c.formula.shared_index is not None:
+            taken_si.add(c.formula.shared_index)
+    # a recorded shared group whose si the sheet uses now (an app numbered its own groups) gets a free one
+    recorded_si = {int(m.group(2)) for m in (_SI.search(rec.element) for rec in recs) if m is not None}
+    renumber: dict[int, int] = {}
+    used_si = taken_si | recorded_si
+    for si in sorted(recorded_si & taken_si):
+        renumber[si] = max(used_si) + 1
+        used_si.add(renumber[si])
+    updates: dict[str, CellUpdate] = {}
+    absent: dict[str, sheet_xml.NewCell] = {}
+    for rec in recs:
+        ref = rec.cell.replace("$", "").upper()
+        try:
+            sheet_xml.split_ref(ref)
+        except ValueError:
+            report.skipped.append((f"{rec.sheet}!{rec.cell}", "the record does not name a cell"))
+            continue
+        cell = current.get(ref)
+        element = _element_for(rec.element, prefix)
+        if element is None:
+            report.skipped.append((f"{rec.sheet}!{rec.cell}", "the recorded formula element was edited"))
+            continue
+        if renumber:
+            element = _SI.sub(lambda m: m.group(1) + str(renumber.get(int(m.group(2)), int(m.group(2)))).encode()
+                              + m.group(3), element, count=1)
+        if cell is None:
+            # spreadsheet apps do not save a cell whose value is empty text: it comes back without a value
+            absent[ref] = sheet_xml.NewCell()
+            updates[ref] = CellUpdate(None, formula_xml=element)
+            continue
+        if cell.formula is not None:
+            report.skipped.append((f"{rec.sheet}!{rec.cell}", "the cell holds a formula again"))
+            continue
+        # text values (shared or inline strings) become the formula's text result (t="str")
+        updates[ref] = CellUpdate(cell.value, formula_xml=element)
+    gone, own_rows = [], []
+    for note in notices:
+        cell = current.get(note.cell)
+        if cell is None:
+            continue
+        if cell.value == note.text and cell.formula is None:
+            gone.append(note.cell)
+            if note.new_row:
+                own_rows.append(cell.row)
+        else:
+            report.skipped.append((f"{note.sheet}!{note.cell}", "the values notice was edited; it is left there"))
+    if not updates and not gone:
+        return 0
+    if absent:
+        xml = sheet_xml.add_cells(xml, absent)
+    if updates:
+        xml = sheet_xml.patch_sheet(xml, updates)
+    if gone:
+        xml = sheet_xml.remove_cells(xml, gone, empty_rows=own_rows)
+    changes.set(pkg, target.part, xml)
+    return len(updates)
 
 
 def _remove_sheet(pkg: WorkbookPackage, changes: PackageChanges, info) -> None:
@@ -308,22 +534,32 @@ def _remove_sheet(pkg: WorkbookPackage, changes: PackageChanges, info) -> None:
     if own_rels in pkg:
         changes.delete(own_rels)
     wb = changes.current(pkg, pkg.workbook_part)
-    wb = re.sub(rb'<(?:\w+:)?sheet\b[^>]*?\bname="' + re.escape(FORMULA_SHEET.encode()) + rb'"[^>]*?/>', b"", wb,
-                count=1)
+    # either quote, any prefix, whitespace in the tag: the file may have been saved by another app
+    wb, n = re.subn(rb'<(?:[\w.-]+:)?sheet\s[^>]*?\bname\s*=\s*(["\'])' + re.escape(_xml_attr(FORMULA_SHEET))
+                    + rb'\1[^>]*?/>', b"", wb, count=1)
+    if n != 1 or any(el.get("name") == FORMULA_SHEET for el in _small_xml(pkg, pkg.workbook_part, wb).iter()
+                     if el.tag.rsplit("}", 1)[-1] == "sheet"):
+        raise UnusableWorkbook(f"{pkg.path.name}: the hidden sheet {FORMULA_SHEET} could not be taken out of "
+                               f"{pkg.workbook_part}; nothing was restored", path=pkg.path)
     if info.index != len(pkg.sheets) - 1:
         wb = _renumber_local_names(wb, info.index)
     changes.set(pkg, pkg.workbook_part, wb)
     rels_name = rels_part_of(pkg.workbook_part)
     rels = changes.current(pkg, rels_name)
-    rels = re.sub(rb'<(?:\w+:)?Relationship\b[^>]*?\bId="' + re.escape(info.rel_id.encode()) + rb'"[^>]*?/>', b"",
-                  rels, count=1)
+    rels = re.sub(rb'<(?:[\w.-]+:)?Relationship\s[^>]*?\bId\s*=\s*(["\'])' + re.escape(info.rel_id.encode())
+                  + rb'\1[^>]*?/>', b"", rels, count=1)
     changes.set(pkg, rels_name, rels)
     ct = changes.current(pkg, "[Content_Types].xml")
     changes.set(pkg, "[Content_Types].xml", remove_override(ct, "/" + info.part))
 
 
 
-_LOCAL_NAME = re.compile(rb'(<(?:\w+:)?definedName\b[^>]*?\blocalSheetId=")([0-9]+)("[^>]*>.*?</(?:\w+:)?definedName>)', re.S)
+_LOCAL_NAME = re.compile(rb'(<(?:[\w.-]+:)?definedName\b[^>]*?\blocalSheetId\s*=\s*["\'])([0-9]+)'
+                         rb'(["\'][^>]*>.*?</(?:[\w.-]+:)?definedName\s*>)', re.S)
+
+
+def _xml_attr(text: str) -> bytes:
+    return text.replace("&", "&amp;").replace("<", "&lt;").encode("utf-8")
 
 
 def _renumber_local_names(wb: bytes, removed: int) -> bytes:

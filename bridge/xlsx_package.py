@@ -178,7 +178,17 @@ _SIMPLE_SI = re.compile(rb"<t(?: [^>]*)?>([^<]*)</t>\Z")
 
 
 def parse_shared_strings(xml: bytes) -> list[str]:
-    """Shared-string table as a list of str; rich-text runs are joined, phonetic guides dropped."""
+    """Shared-string table as a list of str; rich-text runs are joined, phonetic guides dropped.
+
+    Read with regular expressions over the bytes; a part that the pre-scan
+    (:func:`~trueband.bridge.sheet_xml.odd_part`) flags as holding a form they
+    do not take (single-quoted attributes, whitespace in tags, CDATA, comments,
+    character references, another encoding) is read with ElementTree instead.
+    """
+    from .sheet_xml import odd_part  # (sheet_xml imports this module)
+
+    if odd_part(xml):
+        return _parsed_shared_strings(xml)
     out: list[str] = []
     append = out.append
     for m in _SI.finditer(xml):
@@ -195,6 +205,23 @@ def parse_shared_strings(xml: bytes) -> list[str]:
             body = _PHONETIC.sub(b"", body)
         append("".join(unescape_xml(t.group(1) or b"") for t in _T.finditer(body)))
     return out
+
+
+def _parsed_shared_strings(xml: bytes) -> list[str]:
+    """:func:`parse_shared_strings` through ElementTree (the standard library's parser)."""
+    root = _safe_xml(xml)
+
+    def texts(el, into):
+        for child in el:
+            local = child.tag.rsplit("}", 1)[-1]
+            if local == "t":
+                into.append(child.text or "")
+            elif local != "rPh":
+                texts(child, into)
+        return into
+
+    return [_ESCAPED_CHAR.sub(lambda m: chr(int(m.group(1), 16)), "".join(texts(si, [])))
+            for si in root if si.tag.rsplit("}", 1)[-1] == "si"]
 
 
 # ------------------------------------------------------------------ package
@@ -421,8 +448,12 @@ class WorkbookPackage:
     def shared_strings(self) -> list[str]:
         """The shared-string table (read once, on first use)."""
         if self._shared_strings is None:
-            self._shared_strings = ([] if self.shared_strings_part is None
-                                    else parse_shared_strings(self.read(self.shared_strings_part)))
+            try:
+                self._shared_strings = ([] if self.shared_strings_part is None
+                                        else parse_shared_strings(self.read(self.shared_strings_part)))
+            except ElementTree.ParseError as exc:
+                raise UnusableWorkbook(f"{self.path.name}: part {self.shared_strings_part} is not well-formed XML "
+                                       f"({exc})", path=self.path) from None
         return self._shared_strings
 
     @property

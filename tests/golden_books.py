@@ -519,3 +519,25 @@ def csv_cell(rows: list[list[str]], ref: str) -> str:
     if r >= len(rows) or col - 1 >= len(rows[r]):
         return ""
     return rows[r][col - 1]
+
+
+def libreoffice_resave(soffice: str, book: str | Path, outdir: str | Path, *, timeout: float = 180) -> Path:
+    """``book`` opened and saved again as .xlsx by LibreOffice Calc (headless, private profile in ``outdir``).
+
+    Calc rewrites the whole package on saving: its own shared-string table
+    (inline strings become shared ones), styles, sheet parts and relationship
+    ids, and it leaves out cells whose value is empty text.
+    """
+    import subprocess
+
+    book = Path(book)
+    outdir = Path(outdir)
+    outdir.mkdir(parents=True, exist_ok=True)
+    profile = (outdir / "lo-profile").resolve().as_uri()
+    subprocess.run([soffice, f"-env:UserInstallation={profile}", "--headless", "--norestore",
+                    "--convert-to", "xlsx:Calc MS Excel 2007 XML", "--outdir", str(outdir), str(book)],
+                   check=True, capture_output=True, timeout=timeout)
+    out = outdir / (book.stem + ".xlsx")
+    if not out.exists():
+        raise RuntimeError(f"LibreOffice did not save {book.name} as {out}")
+    return out

@@ -236,3 +236,29 @@ def test_doctype_in_a_part_is_refused(tmp_path):
     gb.write_zip(tmp_path / "dtd.xlsx", parts)
     with pytest.raises(UnusableWorkbook, match="not well-formed|document type"):
         open_workbook_package(tmp_path / "dtd.xlsx")
+
+
+_SST_FORMS = {
+    "single quotes": "<si><t xml:space='preserve'> Dock 4 </t></si>",
+    "end tag with space": "<si><t>Quay</t ></si ><si><t>crane</t></si>",
+    "CDATA": "<si><t><![CDATA[R&D <lab>]]></t></si>",
+    "comment": "<!-- <si><t>not a string</t></si> --><si><t>Berth</t></si>",
+    "character reference": "<si><t>&#79;HL</t></si>",
+    "rich text with a phonetic guide": "<si><r><t>Car</t></r><r ><t>go</t></r><rPh sb='0' eb='1'><t>KA</t></rPh></si>",
+}
+
+
+@pytest.mark.parametrize("form", list(_SST_FORMS))
+def test_shared_strings_in_unusual_forms_agree_with_openpyxl(form, tmp_path):
+    # XML 1.0 (3.1 quotes and end tags, 2.7 CDATA, 2.5 comments, 4.1 character references); openpyxl,
+    # a reference library with its own XML parser, reads the same strings
+    body = _SST_FORMS[form] + "<si><t>last</t></si>"
+    sst = (f'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n<sst xmlns="{gb.NS}">{body}</sst>').encode()
+    from xml.etree import ElementTree as ET
+    count = sum(1 for el in ET.fromstring(sst) if el.tag.endswith("}si"))
+    sheet = gb.sheet_part([gb.row_xml(1, [gb.cell_xml(f"{chr(65 + i)}1", i, t="s") for i in range(count)])])
+    path = gb.handmade_package(tmp_path / "sst.xlsx", [("Words", sheet)], shared_strings=sst)
+    ws = openpyxl.load_workbook(path)["Words"]
+    with open_workbook_package(path) as pkg:
+        assert pkg.shared_strings == [ws.cell(1, i + 1).value or "" for i in range(count)]
+        assert pkg.shared_strings[-1] == "last"

@@ -324,3 +324,28 @@ def test_a_part_given_in_pieces_is_written_as_the_joined_bytes(features, tmp_pat
         assert part not in changes.replace
         changes.set(pkg, part, [new[:50], new[50:]])
         assert changes.current(pkg, part) == new  # read back joined
+
+
+def test_package_edits_on_parts_written_with_single_quotes(tmp_path):
+    # Other writers may quote attributes with ' (XML 1.0, 3.1); the edits must find them too.
+    import re
+    from xml.etree import ElementTree as ET  # the standard library's parser is the reference
+
+    path = gb.formula_forms_book(tmp_path / "forms.xlsx", full_calc_on_load=True)
+    with zipfile.ZipFile(path) as zf:
+        parts = {n: zf.read(n) for n in zf.namelist()}
+    for name in ("xl/workbook.xml", "xl/_rels/workbook.xml.rels", "[Content_Types].xml"):
+        parts[name] = re.sub(rb' ([A-Za-z:]+)="([^"]*)"', rb" \1 = '\2'", parts[name])
+    quoted = gb.write_zip(tmp_path / "quoted.xlsx", parts)
+    with open_workbook_package(quoted) as pkg:
+        changes = PackageChanges()
+        changes.drop_calc_chain(pkg)
+        changes.keep_cached_values(pkg)
+        out = save_workbook(pkg, changes)
+    with zipfile.ZipFile(out) as zf:
+        rels = ET.fromstring(zf.read("xl/_rels/workbook.xml.rels"))
+        types = ET.fromstring(zf.read("[Content_Types].xml"))
+        calc = ET.fromstring(zf.read("xl/workbook.xml")).find(f"{{{gb.NS}}}calcPr")
+    assert [r.get("Type") for r in rels if r.get("Type", "").endswith("/calcChain")] == []
+    assert [o.get("PartName") for o in types if o.get("PartName") == "/xl/calcChain.xml"] == []
+    assert calc.get("fullCalcOnLoad") is None and calc.get("calcId") == "191029"

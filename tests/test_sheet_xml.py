@@ -475,3 +475,259 @@ def test_formula_cells_without_values_are_kept_as_empty_cells():
     assert got.formulas == expected.formulas
     arrays = sx.read_column_arrays(xml).columns[2]
     assert arrays.rows.tolist() == list(range(1, 30)) and not arrays.others
+
+
+# ------------------------------------------------------------------ unusual but valid XML (checked against a parser)
+#
+# Forms any XML writer may produce (XML 1.0, 5th edition: 2.10 white space, 3.1 start tags with
+# whitespace around "=" and single- or double-quoted attribute values, 3.1 end tags "</c >",
+# 4.1 character references, 2.7 CDATA sections, 2.5 comments, 2.6 processing instructions;
+# Namespaces in XML 1.0, 6: any prefix bound to the namespace). The reference is
+# xml.etree.ElementTree (the standard library's XML parser) reading the same bytes.
+
+from xml.etree import ElementTree as ET  # noqa: E402
+
+MAIN = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
+_ESCAPE = re.compile(r"_x([0-9A-Fa-f]{4})_")
+
+
+def parser_cells(xml: bytes, strings=()):
+    """ref → (value, type, style, formula (text, kind, si, ref) or None), read with ElementTree."""
+    root = ET.fromstring(xml)
+    q = lambda t: f"{{{MAIN}}}{t}"  # noqa: E731
+    out = {}
+    for c in root.find(q("sheetData")).iter(q("c")):
+        t, s = c.get("t", "n"), int(c.get("s", "0"))
+        f, v, inline = c.find(q("f")), c.find(q("v")), c.find(q("is"))
+        formula = None
+        if f is not None:
+            kind = f.get("t", "normal")
+            text = _ESCAPE.sub(lambda m: chr(int(m.group(1), 16)), f.text) if f.text else None
+            formula = (text if text is not None or kind == "shared" else "", kind,
+                       None if f.get("si") is None else int(f.get("si")), f.get("ref"))
+        value = None
+        if inline is not None:
+            value = "".join(x.text or "" for x in inline.iter(q("t")))
+        elif v is not None and v.text:
+            raw = v.text
+            value = {"n": lambda: float(raw), "s": lambda: strings[int(raw)], "b": lambda: raw.strip() in ("1", "true"),
+                     "e": lambda: raw}.get(t, lambda: _ESCAPE.sub(lambda m: chr(int(m.group(1), 16)), raw))()
+        out[c.get("r")] = (value, t, s, formula)
+    return out
+
+
+def reader_cells(xml: bytes, strings=()):
+    return {c.ref: (c.value, c.type, c.style, None if c.formula is None else c.formula[:4])
+            for c in iter_cells(xml, strings)}
+
+
+def column_cells(xml: bytes, strings=()):
+    """The column reader's view in the same shape (values by cell; formulas; styles)."""
+    got = sx.read_columns(xml, strings)
+    values = {(r, c): v for c, (rows, vals) in got.columns.items() for r, v in zip(rows, vals)}
+    formulas = {(r, c): f[:4] for r, c, f in got.formulas}
+    return values, formulas, got.styles
+
+
+def expected_columns(cells):
+    values, formulas, styles = {}, {}, {}
+    for ref, (value, _, style, formula) in cells.items():
+        r, c = sx.split_ref(ref)
+        if value is not None or formula is not None:
+            values[(r, c)] = value
+        if formula is not None:
+            formulas[(r, c)] = formula
+        if style:
+            styles[(r, c)] = style
+    return values, formulas, styles
+
+
+_BASE_ROWS = [
+    '<row r="1"><c r="A1" t="s"><v>0</v></c><c r="B1" s="1"><v>4</v></c><c r="C1"><f>B1*2</f><v>8</v></c>'
+    '<c r="D1" t="str"><f>T("x")</f><v>x</v></c></row>',
+    '<row r="2"><c r="A2" t="inlineStr"><is><t>OHL-7</t></is></c><c r="B2"><v>0.5</v></c>'
+    '<c r="C2"><f t="shared" ref="C2:C3" si="0">B2+1</f><v>1.5</v></c><c r="D2" t="e"><f>1/0</f><v>#DIV/0!</v></c>'
+    '</row>',
+    '<row r="3"><c r="B3"><v>7</v></c><c r="C3"><f t="shared" si="0"/><v>8</v></c><c r="D3" t="b"><v>1</v></c></row>',
+]
+
+
+def _sheet(rows, root_attrs=f'xmlns="{MAIN}"', head='<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'):
+    return (head + f"<worksheet {root_attrs}><dimension ref=\"A1:D3\"/><sheetData>" + "".join(rows)
+            + "</sheetData></worksheet>")
+
+
+def _single_quotes(text):
+    return re.sub(r' ([A-Za-z:]+)="([^"]*)"', r" \1='\2'", text)
+
+
+UNUSUAL_FORMS = {
+    "space before > in end tags": lambda s: s.replace("</c>", "</c >").replace("</v>", "</v\t>"),
+    "space before > in start tags": lambda s: s.replace('">', '" >').replace("<v>", "<v >").replace("<is>", "<is >"),
+    "newlines and tabs between attributes": lambda s: s.replace(' s="', '\n\ts="').replace(' t="', '\r\n t="'),
+    "whitespace around =": lambda s: s.replace(' r="', ' r = "'),
+    "single-quoted attributes": _single_quotes,
+    "mixed quotes": lambda s: s.replace('r="D2"', "r='D2'").replace('t="s"', "t='s'"),
+    "character references": lambda s: s.replace('r="B3"', 'r="&#66;3"').replace("<v>7</v>", "<v>&#55;</v>")
+    .replace("<f>B1*2</f>", "<f>B1&#42;2</f>"),
+    "CDATA sections": lambda s: s.replace('<f>T("x")</f>', '<f><![CDATA[T("x")]]></f>')
+    .replace("<t>OHL-7</t>", "<t><![CDATA[OHL-]]>7</t>"),
+    "comments": lambda s: s.replace('<row r="2">', '<!-- <c r="A9"><v>9</v></c> --><row r="2"><!--x-->')
+    .replace("</row>", "<!-- end --></row>", 1),
+    "processing instructions": lambda s: s.replace('<row r="3">', '<?app keep?><row r="3">'),
+    "another prefix for the main namespace": lambda s: s.replace('<row r="3"><c r="B3"><v>7</v></c>',
+                                                                 f'<row r="3"><x:c xmlns:x="{MAIN}" r="B3"><x:v>7</x:v></x:c>'),
+    "empty elements": lambda s: s.replace('<c r="B2"><v>0.5</v></c>', '<c r="B2"><v>0.5</v></c><c r="E2"></c >'),
+}
+
+
+def _corpus():
+    base = _sheet(_BASE_ROWS)
+    for name, change in UNUSUAL_FORMS.items():
+        text = change(base)
+        assert text != base, name
+        yield name, text.encode("utf-8")
+    yield "both prefixes bound", _sheet(_BASE_ROWS, f'xmlns="{MAIN}" xmlns:x="{MAIN}"').replace(
+        "<dimension", "<x:dimension").encode()
+    latin = _sheet(_BASE_ROWS, head='<?xml version="1.0" encoding="ISO-8859-1"?>\n').replace("OHL-7", "Ærø-7")
+    yield "ISO-8859-1 encoding", latin.encode("latin-1")
+    yield "UTF-16", _sheet(_BASE_ROWS, head='<?xml version="1.0" encoding="UTF-16"?>\n').encode("utf-16")
+
+
+CORPUS = dict(_corpus())
+STRINGS = ["Applicant"]
+
+
+@pytest.mark.parametrize("name", list(CORPUS))
+def test_readers_agree_with_an_xml_parser_on_unusual_forms(name):
+    xml = CORPUS[name]
+    expected = parser_cells(xml, STRINGS)
+    assert len(expected) >= 11, name  # the corpus case keeps every cell of the base sheet
+    assert reader_cells(xml, STRINGS) == expected
+    assert column_cells(xml, STRINGS) == expected_columns(expected)
+
+
+@pytest.mark.parametrize("name", list(CORPUS))
+def test_patchers_agree_with_an_xml_parser_on_unusual_forms(name):
+    xml = CORPUS[name]
+    before = parser_cells(xml, STRINGS)
+    for patch in (lambda x: sx.patch_values(x, {"C1": 9.0, "D2": ErrorValue("#N/A")}),
+                  lambda x: patch_sheet(x, {"C1": CellUpdate(9.0), "D2": CellUpdate(ErrorValue("#N/A"))})):
+        after = parser_cells(patch(xml), STRINGS)  # well-formed, and every other cell as it was
+        assert after.pop("C1") == (9.0, "n", 0, ("B1*2", "normal", None, None))
+        assert after.pop("D2") == ("#N/A", "e", 0, ("1/0", "normal", None, None))
+        assert after == {k: v for k, v in before.items() if k not in ("C1", "D2")}
+    dropped = parser_cells(patch_sheet(xml, {"D1": CellUpdate("x", drop_formula=True)}), STRINGS)
+    assert dropped.pop("D1") == ("x", "inlineStr", 0, None)
+    assert dropped == {k: v for k, v in before.items() if k != "D1"}
+    added = parser_cells(sx.add_cells(xml, {"E1": NewCell(value=2.0), "A4": NewCell(formula="B3")}), STRINGS)
+    assert added.pop("E1") == (2.0, "n", 0, None) and added.pop("A4") == (None, "n", 0, ("B3", "normal", None, None))
+    assert added == before
+
+
+def test_end_tag_with_space_does_not_lose_the_next_cell():
+    # issue 10 item 8: "<c ...></c >" made the patcher take the next cell into the first one
+    xml = _sheet(['<row r="1"><c r="A1"><f>1+1</f><v>2</v></c ><c r="B1"><f>A1*2</f><v>4</v></c></row>']).encode()
+    patched = sx.patch_values(xml, {"A1": 3.0})
+    assert parser_cells(patched) == {"A1": (3.0, "n", 0, ("1+1", "normal", None, None)),
+                                     "B1": (4.0, "n", 0, ("A1*2", "normal", None, None))}
+
+
+def test_single_quoted_reference_names_the_right_cell():
+    # issue 10 item 8: r='D2' was read as another cell
+    xml = _sheet(["<row r='2'><c r='D2'><f>SEM(12,0.9)</f><v>3.79</v></c></row>"]).encode()
+    assert list(reader_cells(xml)) == ["D2"] and list(sx.read_columns(xml).columns) == [4]
+
+
+def test_a_document_type_declaration_is_refused_in_one_line():
+    xml = ('<?xml version="1.0"?>\n<!DOCTYPE worksheet [<!ENTITY a "x">]>' + _sheet(_BASE_ROWS, head="")).encode()
+    with pytest.raises(SheetXmlError, match="document type") as info:
+        list(iter_cells(xml, STRINGS))
+    assert "\n" not in str(info.value)
+
+
+def test_malformed_xml_on_the_parser_path_is_one_line():
+    xml = _sheet(["<row r='1'><c r='A1'><v>1</v></row>"]).encode()  # </c> missing
+    with pytest.raises(SheetXmlError, match="not well-formed") as info:
+        sx.read_columns(xml)
+    assert "\n" not in str(info.value)
+
+
+def test_usual_forms_stay_on_the_fast_path(monkeypatch):
+    calls = []
+    monkeypatch.setattr(sx, "parsed_form", lambda xml: calls.append(1) or xml)
+    rnd = random.Random(5)
+    for sheet in [_usual_sheet(rnd), _sheet(_BASE_ROWS).encode()]:  # both with an XML declaration
+        assert sheet.startswith(b"<?xml")
+        list(iter_cells(sheet, ("a", "b", "c")))
+        sx.read_columns(sheet, ("a", "b", "c"))
+        sx.dimension(sheet)
+        formula_cell = next(c.ref for c in iter_cells(sheet, ("a", "b", "c")) if c.formula is not None)
+        sx.patch_values(sheet, {formula_cell: 2.0})
+        patch_sheet(sheet, {formula_cell: CellUpdate(3.0, formula="1+2")})
+        sx.remove_cells(sx.add_cells(sheet, {"XFD1": NewCell(value=1.0)}), ["XFD1"])
+    assert calls == []
+
+
+def test_check_and_recalc_on_a_sheet_with_single_quoted_attributes(tmp_path, capsys):
+    # issue 10 item 8: check named the wrong cell and recalc ended in a traceback
+    from trueband.bridge.cli import main
+
+    xml = _sheet(["<row r='1'><c r='A1'><v>12</v></c></row>",
+                  "<row r='2'><c r='D2'><f>SEM(A1,0.91)</f><v>0</v></c ></row>"]).encode()
+    path = gb.handmade_package(tmp_path / "quoted.xlsx", [("Bands", xml)])
+    assert main(["check", str(path)]) == 0
+    assert "Bands!D2  SEM" in capsys.readouterr().out
+    assert main(["recalc", str(path)]) == 0
+    got = openpyxl.load_workbook(tmp_path / "quoted.recalc.xlsx", data_only=True)["Bands"]  # reference reader
+    # SEM = SD·√(1 − r), Lord & Novick (1968), from memory
+    assert got["D2"].value == pytest.approx(12 * (1 - 0.91) ** 0.5) and got["A1"].value == 12
+
+
+def test_cells_and_rows_without_references_can_be_patched_and_added_to():
+    # ECMA-376 Part 1, 18.3.1.4 and 18.3.1.73: r is optional on c and row (the position gives it);
+    # patching such a cell used to fail with "cells not found", adding to such rows was refused
+    xml = _sheet(['<row><c t="inlineStr"><is><t>OHL-1</t></is></c><c><f>SEM(12,0.9)</f><v>1</v></c></row>',
+                  '<row><c><v>5</v></c></row>']).encode()
+    patched = ET.fromstring(patch_sheet(xml, {"B1": CellUpdate(3.79)}))
+    q = f"{{{MAIN}}}"
+    rows = patched.find(q + "sheetData").findall(q + "row")
+    assert [c.get("r") for c in rows[0]] == ["A1", "B1"] and rows[0][1].find(q + "v").text == "3.79"
+    assert rows[0][1].find(q + "f").text == "SEM(12,0.9)" and rows[1][0].find(q + "v").text == "5"
+    added = parser_cells(sx.add_cells(xml, {"B2": NewCell(value=7.0)}))
+    assert added["B2"] == (7.0, "n", 0, None) and added["A2"] == (5.0, "n", 0, None)
+    assert reader_cells(xml) == {"A1": ("OHL-1", "inlineStr", 0, None), "B1": (1.0, "n", 0, ("SEM(12,0.9)", "normal",
+                                                                                             None, None)),
+                                 "A2": (5.0, "n", 0, None)}
+
+
+_RANDOM_CHANGES = [
+    _single_quotes,
+    lambda s: s.replace("</c>", "</c >"),
+    lambda s: s.replace("</row>", "</row><!-- row end -->"),
+    lambda s: s.replace(' r="', ' r = "'),
+    lambda s: s.replace(' s="', '\n\t s="'),
+    lambda s: s.replace("<v>", "<v ><![CDATA[]]>"),
+]
+
+
+@pytest.mark.parametrize("seed", range(8))
+def test_readers_and_patcher_agree_with_a_parser_on_random_unusual_sheets(seed, monkeypatch):
+    rnd = random.Random(300 + seed)
+    strings = ["alpha", "b&c", "gamma"]
+    text = _usual_sheet(rnd, rows=150).decode()
+    for change in rnd.sample(_RANDOM_CHANGES, rnd.randint(1, 3)):
+        text = change(text)
+    xml = text.encode()
+    expected = parser_cells(xml, strings)
+    if seed % 2:
+        monkeypatch.setattr(sx, "CHUNK_BYTES", rnd.randint(200, 5000))
+    assert reader_cells(xml, strings) == expected
+    assert column_cells(xml, strings) == expected_columns(expected)
+    formula_cells = [ref for ref, cell in expected.items() if cell[3] is not None]
+    chosen = rnd.sample(formula_cells, len(formula_cells) // 3)
+    after = parser_cells(sx.patch_values(xml, {ref: 0.5 for ref in chosen}), strings)
+    for ref in chosen:
+        value, _, style, formula = after.pop(ref)
+        assert (value, style, formula) == (0.5, expected[ref][2], expected[ref][3])
+    assert after == {ref: cell for ref, cell in expected.items() if ref not in chosen}

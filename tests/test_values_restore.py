@@ -17,6 +17,7 @@ import golden_books as gb
 from trueband.bridge import values_mode as vm
 from trueband.bridge.cli import EXIT_FAILED, EXIT_OK, main
 from trueband.bridge.safe_write import PackageChanges, save_workbook
+from trueband.bridge import sheet_xml as sx
 from trueband.bridge.sheet_xml import iter_cells
 from trueband.bridge.xlsx_package import UnusableWorkbook, open_workbook_package
 
@@ -114,13 +115,13 @@ def test_a_second_values_run_adds_to_the_records(forms, tmp_path):
         from trueband.bridge.sheet_xml import NewCell, add_cells
         changes = PackageChanges()
         part = pkg.sheet("Settings").part
-        changes.set(pkg, part, add_cells(pkg.read(part), {"C1": NewCell(formula="SED(4.2,0.88)", value=2.0)}))
+        changes.set(pkg, part, add_cells(pkg.read(part), {"C5": NewCell(formula="SED(4.2,0.88)", value=2.0)}))
         typed = save_workbook(pkg, changes, output=tmp_path / "typed.xlsx")
     again, second = values_book(typed)
     with open_workbook_package(again) as pkg:
         stored = vm.read_records(pkg.read(pkg.sheet(vm.FORMULA_SHEET).part))
         assert [s.name for s in pkg.sheets].count(vm.FORMULA_SHEET) == 1
-    assert [(r.sheet, r.cell) for r in second] == [("Settings", "C1")]
+    assert [(r.sheet, r.cell) for r in second] == [("Settings", "C5")]
     assert stored == first + second
 
 
@@ -192,3 +193,333 @@ def test_libreoffice_shows_values_of_a_values_book(forms, tmp_path, soffice):
     scores = shown["Scores"]
     assert [gb.csv_cell(scores, f"C{r}") for r in range(2, 10)] == [str(r % 2 + 1) for r in range(2, 10)]
     assert gb.csv_cell(scores, "D2") == "1.45" and gb.csv_cell(scores, "D3") == "3.6"
+
+
+# ------------------------------------------------------------------ restore after another program saved the file
+
+
+def _formulas(path, sheet):
+    """Every formula of a sheet as openpyxl (a reference reader) sees it, shared formulas translated."""
+    ws = openpyxl.load_workbook(path)[sheet]
+    return {c.coordinate: c.value for row in ws.iter_rows() for c in row
+            if isinstance(c.value, str) and c.value.startswith("=")}
+
+
+@pytest.fixture
+def demo_scoring(tmp_path):
+    """The demo's scoring sheet (invented data), written as `trueband demo` writes it."""
+    from trueband.bridge.demo_data import make_demo
+    from trueband.bridge.templates import scoring_template
+
+    demo = make_demo()
+    return scoring_template(tmp_path / "scoring.xlsx", ids=demo.ids, responses=demo.items.tolist(),
+                            title="Scoring sheet: Dispatch Knowledge Test (demo)")
+
+
+def _values_file(path):
+    from trueband.bridge.recalc import recalculate
+
+    return recalculate(path, values=True).output
+
+
+@pytest.mark.libreoffice
+def test_restore_after_libreoffice_saved_the_values_file(demo_scoring, tmp_path, soffice, capsys):
+    # reproduces issue 10 item 3: Calc rewrote the hidden sheet with shared strings and left out the cells
+    # whose value was empty text; restore ended in a traceback (SheetXmlError about a shared string)
+    values = _values_file(demo_scoring)
+    saved = gb.libreoffice_resave(soffice, values, tmp_path / "calc")
+    assert main(["restore", str(saved), "-o", str(tmp_path / "back.xlsx")]) == EXIT_OK
+    assert "restored 1501 formula(s)" in capsys.readouterr().err  # 500 rows x 3 trueband columns + C3
+    assert openpyxl.load_workbook(tmp_path / "back.xlsx").sheetnames == ["Scoring"]
+    before, after = _formulas(demo_scoring, "Scoring"), _formulas(tmp_path / "back.xlsx", "Scoring")
+    assert after == before
+    assert _notices(saved) and _notices(tmp_path / "back.xlsx") == []  # Calc kept the notice; restore took it out
+    # Calc shows the restored cells with the values they had in the values file
+    frozen = gb.libreoffice_csv(soffice, saved, tmp_path / "csv1")["Scoring"]
+    shown = gb.libreoffice_csv(soffice, tmp_path / "back.xlsx", tmp_path / "csv2")["Scoring"]
+    for ref in ("C3", "AQ8", "AR8", "AS8", "AS407"):
+        assert gb.csv_cell(shown, ref) == gb.csv_cell(frozen, ref) != "", ref
+
+
+def test_restore_after_openpyxl_saved_the_values_file(demo_scoring, tmp_path):
+    values = _values_file(demo_scoring)
+    wb = openpyxl.load_workbook(values)  # another writer: its own shared strings, styles and parts
+    wb.save(tmp_path / "resaved.xlsx")
+    assert main(["restore", str(tmp_path / "resaved.xlsx"), "-o", str(tmp_path / "back.xlsx")]) == EXIT_OK
+    assert _formulas(tmp_path / "back.xlsx", "Scoring") == _formulas(demo_scoring, "Scoring")
+    assert _notices(tmp_path / "back.xlsx") == []
+
+
+def test_restored_shared_group_does_not_take_a_shared_index_in_use(forms, tmp_path):
+    out, _ = values_book(forms)
+    # an app saved the file and numbered a shared formula of its own 0, the index the recorded group had
+    with open_workbook_package(out) as pkg:
+        from trueband.bridge.sheet_xml import NewCell, add_cells, patch_sheet, CellUpdate
+        changes = PackageChanges()
+        part = pkg.sheet("Scores").part
+        xml = add_cells(pkg.read(part), {"G2": NewCell(value=1.0), "G3": NewCell(value=1.0)})
+        xml = patch_sheet(xml, {"G2": CellUpdate(62.0, formula_xml=b'<f t="shared" ref="G2:G3" si="0">B2*2</f>'),
+                                "G3": CellUpdate(54.0, formula_xml=b'<f t="shared" si="0"/>')})
+        changes.set(pkg, part, xml)
+        edited = save_workbook(pkg, changes, output=tmp_path / "edited.xlsx")
+    assert main(["restore", str(edited)]) == EXIT_OK
+    got = _formulas(tmp_path / "edited.restored.xlsx", "Scores")
+    assert got["G3"] == "=B3*2"
+    assert got["C3"] == "=SCORE_BAND(B3,$B$2:$B$9,Settings!$B$1,Reliability)"
+    assert got["C9"] == "=SCORE_BAND(B9,$B$2:$B$9,Settings!$B$1,Reliability)"
+
+
+def test_restore_of_an_unreadable_record_sheet_is_one_line(forms, tmp_path, capsys):
+    out, _ = values_book(forms)
+    with open_workbook_package(out) as pkg:  # a record cell points at a shared string the file does not have
+        changes = PackageChanges()
+        part = pkg.sheet(vm.FORMULA_SHEET).part
+        xml = pkg.read(part).replace(b'<c r="A2" t="inlineStr"><is><t>Scores</t></is></c>',
+                                     b'<c r="A2" t="s"><v>999</v></c>', 1)
+        assert xml != pkg.read(part)
+        changes.set(pkg, part, xml)
+        broken = save_workbook(pkg, changes, output=tmp_path / "broken.xlsx")
+    assert main(["restore", str(broken)]) == EXIT_FAILED
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1 and "trueband_formulas" in err and "A2" in err
+    assert not (tmp_path / "broken.restored.xlsx").exists()
+
+
+# ------------------------------------------------------------------ workbook.xml from other writers
+
+
+def _rewrite_part(src, dst, name, change):
+    with zipfile.ZipFile(src) as zf:
+        parts = {n: zf.read(n) for n in zf.namelist()}
+    new = change(parts[name])
+    assert new != parts[name]
+    parts[name] = new
+    return gb.write_zip(dst, parts)
+
+
+def test_values_mode_when_each_sheet_binds_the_relationship_prefix(forms, tmp_path):
+    # issue 10 item 8: openpyxl with lxml installed declares xmlns:r on each <sheet>, not on the root;
+    # the <sheet r:id=...> appended for the hidden sheet had an unbound prefix and the write failed
+    decl = f'xmlns:r="{gb.NS_R}"'.encode()
+    book = _rewrite_part(forms, tmp_path / "per-sheet.xlsx", "xl/workbook.xml",
+                         lambda wb: wb.replace(b" " + decl, b"", 1).replace(b"<sheet ", b"<sheet " + decl + b" "))
+    out, records = values_book(book)
+    assert len(records) == len(REGISTERED_CELLS)
+    wb = openpyxl.load_workbook(out)  # reference reader
+    assert wb.sheetnames[-1] == vm.FORMULA_SHEET and wb[vm.FORMULA_SHEET].sheet_state == "hidden"
+    with open_workbook_package(out) as pkg:
+        changes = PackageChanges()
+        assert vm.restore_formulas(pkg, changes).restored == len(REGISTERED_CELLS)
+        back = save_workbook(pkg, changes, tag="restored")
+    with zipfile.ZipFile(book) as a, zipfile.ZipFile(back) as b:
+        assert a.read("xl/workbook.xml") == b.read("xl/workbook.xml")
+
+
+def test_values_mode_on_a_workbook_written_by_openpyxl(tmp_path, capsys):
+    # With lxml installed (the second CI run) openpyxl writes the per-sheet declarations of the test above.
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Bands"
+    ws["A1"], ws["A2"], ws["B1"] = 4.2, 0.88, "=SEM(A1,A2)"
+    wb.create_sheet("Notes")["A1"] = "Osterfell Harbour Logistics"
+    wb.save(tmp_path / "written.xlsx")
+    assert main(["recalc", "--values", str(tmp_path / "written.xlsx")]) == EXIT_OK
+    got = openpyxl.load_workbook(tmp_path / "written.recalc.xlsx")
+    assert got.sheetnames == ["Bands", "Notes", vm.FORMULA_SHEET]
+    # SEM = SD·√(1 − r), Lord & Novick (1968), from memory
+    assert got["Bands"]["B1"].value == pytest.approx(4.2 * (1 - 0.88) ** 0.5)
+
+
+def test_restore_takes_out_a_hidden_sheet_entry_written_with_single_quotes(forms, tmp_path):
+    out, _ = values_book(forms)
+    edited = _rewrite_part(out, tmp_path / "quoted.xlsx", "xl/workbook.xml",
+                           lambda wb: wb.replace(f'name="{vm.FORMULA_SHEET}"'.encode(),
+                                                 f"name = '{vm.FORMULA_SHEET}'".encode()))
+    assert main(["restore", str(edited)]) == EXIT_OK
+    back = openpyxl.load_workbook(tmp_path / "quoted.restored.xlsx")
+    assert back.sheetnames == ["Scores", "Settings"]
+
+
+# ------------------------------------------------------------------ the notice on every sheet of a --values file
+
+
+def _notices(path):
+    """(sheet, cell, text) of every cell that holds a values notice, as openpyxl (a reference reader) sees them."""
+    wb = openpyxl.load_workbook(path)
+    return [(ws.title, c.coordinate, c.value) for ws in wb.worksheets if ws.title != vm.FORMULA_SHEET
+            for row in ws.iter_rows() for c in row if isinstance(c.value, str) and c.value.startswith(vm.NOTICE_OPENING)]
+
+
+def test_every_sheet_of_a_values_file_says_its_values_are_fixed(forms, tmp_path):
+    # issue 10 item 2: after an input was edited in a spreadsheet app the file mixed new and frozen figures
+    # without saying so; now each sheet carries a notice with the time, the fixed cells and the inputs
+    from trueband.bridge.recalc import recalculate
+
+    out = recalculate(forms, tmp_path / "values.xlsx", values=True).output
+    notices = _notices(out)
+    assert sorted(s for s, _, _ in notices) == ["Scores", "Settings"]  # every sheet but the hidden one, once
+    text = notices[0][2]
+    assert "Scores!C2:C9" in text and "Scores!D2:D3" in text  # the cells holding fixed values
+    assert "Settings!B1 = 4.2" in text and "Settings!B2 = 0.88" in text  # inputs with their values then
+    assert "trueband restore" in text and " UTC" in text
+    # nothing the file held is overwritten: every cell of the original reads the same but the replaced ones
+    before, after = openpyxl.load_workbook(forms, data_only=True), openpyxl.load_workbook(out, data_only=True)
+    for ws in before.worksheets:
+        for row in ws.iter_rows():
+            for c in row:
+                if c.value is not None:
+                    assert after[ws.title][c.coordinate].value == c.value or ws.title == "Scores" and \
+                        c.coordinate in REGISTERED_CELLS, (ws.title, c.coordinate)
+    # and the places chosen are empty cells that no formula reads (Scores!D4 is SUM(B:B): not column B)
+    for sheet, cell, _ in notices:
+        assert before[sheet][cell].value is None
+        assert not cell.startswith("B")
+
+
+def test_the_notice_avoids_cells_formulas_read_and_merged_cells(tmp_path):
+    from trueband.bridge.recalc import recalculate
+
+    title = gb.row_xml(1, ['<c r="A1" t="inlineStr"><is><t>Dispatch scores</t></is></c>'])
+    data = [gb.row_xml(r, [gb.cell_xml(f"A{r}", r * 3), gb.cell_xml(f"B{r}", 0, formula=f"SEM(A{r},0.9)")])
+            for r in range(3, 6)]
+    counting = gb.row_xml(7, [gb.cell_xml("A7", 0, formula="COUNTA(2:2)")])  # reads all of row 2
+    xml = gb.sheet_part([title, *data, counting], after='<mergeCells count="1"><mergeCell ref="A8:D8"/></mergeCells>')
+    book = gb.handmade_package(tmp_path / "reads.xlsx", [("Scores", xml)])
+    out = recalculate(book, values=True).output
+    [(sheet, cell, _)] = _notices(out)
+    row, col = sx.split_ref(cell)
+    assert row != 2 and not (row == 8 and col <= 4), cell  # not where COUNTA(2:2) reads, not in A8:D8
+    assert openpyxl.load_workbook(book)["Scores"][cell].value is None
+    assert openpyxl.load_workbook(out, data_only=True)["Scores"]["A7"].value == 0  # COUNTA(2:2) still 0
+
+
+def test_restore_takes_the_notices_out(forms, tmp_path):
+    from trueband.bridge.recalc import recalculate
+
+    out = recalculate(forms, tmp_path / "values.xlsx", values=True).output
+    assert main(["restore", str(out)]) == EXIT_OK
+    assert _notices(tmp_path / "values.restored.xlsx") == []
+
+
+def test_an_edited_notice_is_left_and_reported(forms, tmp_path, capsys):
+    from trueband.bridge.recalc import recalculate
+
+    out = recalculate(forms, tmp_path / "values.xlsx", values=True).output
+    sheet, cell, _ = next(n for n in _notices(out) if n[0] == "Settings")
+    with open_workbook_package(out) as pkg:
+        from trueband.bridge.sheet_xml import CellUpdate, patch_sheet
+        changes = PackageChanges()
+        part = pkg.sheet("Settings").part
+        changes.set(pkg, part, patch_sheet(pkg.read(part), {cell: CellUpdate(vm.NOTICE_OPENING + " seen, K.")}))
+        edited = save_workbook(pkg, changes, output=tmp_path / "edited.xlsx")
+    assert main(["restore", str(edited)]) == 1
+    assert f"Settings!{cell}: not restored (the values notice was edited" in capsys.readouterr().out
+    assert [(s, c) for s, c, _ in _notices(tmp_path / "edited.restored.xlsx")] == [("Settings", cell)]
+
+
+@pytest.mark.libreoffice
+def test_libreoffice_shows_the_notice_on_every_sheet(demo_scoring, tmp_path, soffice):
+    from trueband.bridge.templates import impact_template
+
+    impact = impact_template(tmp_path / "impact.xlsx", groups=[("Group A", 40, 20), ("Group B", 30, 9)])
+    for book in (demo_scoring, impact):
+        values = _values_file(book)
+        expected = _notices(values)
+        assert expected, book.name
+        shown = gb.libreoffice_csv(soffice, values, tmp_path / ("csv-" + book.stem))
+        for sheet, cell, text in expected:
+            assert gb.csv_cell(shown[sheet], cell) == text, (book.name, sheet, cell)
+
+
+def test_restore_checks_each_recorded_formula_element(forms, tmp_path, capsys):
+    out, _ = values_book(forms)
+    with open_workbook_package(out) as pkg:  # records edited by hand or written under another prefix
+        changes = PackageChanges()
+        part = pkg.sheet(vm.FORMULA_SHEET).part
+        xml = pkg.read(part)
+        new = xml.replace(b"<t>&lt;f&gt;sem(12,0.91)&lt;/f&gt;</t>", b"<t>&lt;f&gt;sem(12,</t>", 1).replace(
+            b"<t>&lt;f&gt;_xludf.SEM(Settings!B1,Reliability)&lt;/f&gt;</t>",
+            b"<t>&lt;x:f&gt;_xludf.SEM(Settings!B1,Reliability)&lt;/x:f&gt;</t>", 1)
+        assert new.count(b"&lt;x:f") == 1 and b"sem(12,</t>" in new
+        changes.set(pkg, part, new)
+        edited = save_workbook(pkg, changes, output=tmp_path / "edited.xlsx")
+    assert main(["restore", str(edited)]) == 1
+    assert "Scores!D3: not restored (the recorded formula element was edited)" in capsys.readouterr().out
+    got = _formulas(tmp_path / "edited.restored.xlsx", "Scores")  # openpyxl parses the restored sheet
+    assert got["D2"] == "=_xludf.SEM(Settings!B1,Reliability)" and "D3" not in got
+
+
+def test_the_notice_stays_out_of_named_areas_and_filters(tmp_path):
+    from trueband.bridge.recalc import recalculate
+
+    title = gb.row_xml(1, ['<c r="A1" t="inlineStr"><is><t>Dispatch scores</t></is></c>'])
+    data = [gb.row_xml(r, [gb.cell_xml(f"A{r}", r * 3), gb.cell_xml(f"B{r}", 0, formula=f"SEM(A{r},0.9)")])
+            for r in range(3, 6)]
+    xml = gb.sheet_part([title, *data], after='<autoFilter ref="A3:B6"/>')
+    book = gb.handmade_package(tmp_path / "kept.xlsx", [("Scores", xml)],
+                               defined_names=[("Pool", "Scores!$A$2:$D$2", None)])
+    out = recalculate(book, values=True).output
+    [(_, cell, _)] = _notices(out)
+    row, col = sx.split_ref(cell)
+    assert row != 2 and not (3 <= row <= 6 and col <= 2), cell  # not in the named area nor the filter's
+
+
+def test_recalc_and_values_on_cells_written_without_references(tmp_path):
+    # r is optional on a cell (ECMA-376 Part 1, 18.3.1.4); recalc ended in a traceback ("cells not found")
+    xml = gb.sheet_part(['<row r="1"><c r="A1"><v>12</v></c><c><f>SEM(A1,0.91)</f><v>1</v></c></row>'])
+    book = gb.handmade_package(tmp_path / "positions.xlsx", [("Bands", xml)])
+    assert main(["recalc", str(book)]) == EXIT_OK
+    assert main(["recalc", "--values", str(book), "-o", str(tmp_path / "values.xlsx")]) == EXIT_OK
+    sem = 12 * (1 - 0.91) ** 0.5  # SEM = SD·√(1 − r), Lord & Novick (1968), from memory
+    assert openpyxl.load_workbook(tmp_path / "positions.recalc.xlsx", data_only=True)["Bands"]["B1"].value == \
+        pytest.approx(sem)
+    got = openpyxl.load_workbook(tmp_path / "values.xlsx")["Bands"]["B1"].value  # a value now, not a formula
+    assert got == pytest.approx(sem)
+    assert main(["restore", str(tmp_path / "values.xlsx")]) == EXIT_OK
+    assert _formulas(tmp_path / "values.restored.xlsx", "Bands") == {"B1": "=SEM(A1,0.91)"}
+
+
+@pytest.mark.libreoffice
+def test_libreoffice_prints_the_start_of_the_notice_on_the_first_page(demo_scoring, tmp_path, soffice):
+    # what Calc draws, not only what the cell holds: the notice's first words on the sheet's first page
+    import shutil
+    import subprocess
+
+    if shutil.which("pdftotext") is None:
+        pytest.skip("pdftotext (poppler-utils) is not installed")
+    values = _values_file(demo_scoring)
+    profile = (tmp_path / "lo-profile").resolve().as_uri()
+    subprocess.run([soffice, f"-env:UserInstallation={profile}", "--headless", "--norestore", "--convert-to", "pdf",
+                    "--outdir", str(tmp_path), str(values)], check=True, capture_output=True, timeout=180)
+    first = subprocess.run(["pdftotext", "-l", "1", str(tmp_path / (values.stem + ".pdf")), "-"],
+                           capture_output=True, text=True, check=True).stdout
+    flat = " ".join(first.split())
+    assert f"{vm.NOTICE_OPENING} trueband results in this file do not follow edits of their inputs" in flat
+
+
+def test_a_sheet_without_a_safe_cell_gets_no_notice_and_the_summary_says_so(tmp_path, capsys):
+    scores = gb.sheet_part([gb.row_xml(1, [gb.cell_xml("A1", 12), gb.cell_xml("B1", 0, formula="SEM(A1,0.9)")])])
+    count = gb.sheet_part([gb.row_xml(1, [gb.cell_xml("A1", 2, formula="COUNTA(Scores!A:XFD)")])])  # every cell
+    book = gb.handmade_package(tmp_path / "full.xlsx", [("Scores", scores), ("Count", count)])
+    assert main(["recalc", "--values", str(book)]) == EXIT_OK
+    assert "no free cell for the values notice on Scores" in capsys.readouterr().err
+    assert [s for s, _, _ in _notices(tmp_path / "full.recalc.xlsx")] == ["Count"]
+    got = openpyxl.load_workbook(tmp_path / "full.recalc.xlsx", data_only=True)
+    assert got["Scores"]["B1"].value == pytest.approx(12 * (1 - 0.9) ** 0.5) and got["Count"]["A1"].value == 2
+
+
+def test_a_hand_edited_record_does_not_break_a_second_values_run(forms, tmp_path, capsys):
+    out, _ = values_book(forms)
+    with open_workbook_package(out) as pkg:  # a record's cell edited by hand, and a new formula typed in
+        from trueband.bridge.sheet_xml import NewCell, add_cells
+        changes = PackageChanges()
+        part = pkg.sheet(vm.FORMULA_SHEET).part
+        xml = pkg.read(part).replace(b"<t>D3</t>", b"<t>somewhere</t>", 1)
+        assert b"somewhere" in xml
+        changes.set(pkg, part, xml)
+        settings = pkg.sheet("Settings").part
+        changes.set(pkg, settings, add_cells(pkg.read(settings), {"C5": NewCell(formula="SED(4.2,0.88)", value=2.0)}))
+        edited = save_workbook(pkg, changes, output=tmp_path / "edited.xlsx")
+    assert main(["recalc", "--values", str(edited)]) == EXIT_OK
+    assert main(["restore", str(tmp_path / "edited.recalc.xlsx")]) == 1
+    assert "Scores!somewhere: not restored (the record does not name a cell)" in capsys.readouterr().out

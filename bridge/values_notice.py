@@ -1,0 +1,276 @@
+"""The notice that a ``--values`` file carries on every sheet: its text and where it goes.
+
+Why a notice on every sheet, not live formulas: the values of trueband
+functions cannot be kept live in a file for people without trueband (their
+spreadsheet app does not have the functions; that is why the values are
+written). Standard formulas that read them stay live, so once an input is
+edited in a spreadsheet app the file mixes new figures with frozen ones (a
+new cut beside an old selection ratio). So every sheet gets one text cell, a
+notice, saying that the values of trueband functions were fixed when the
+file was written (with the date and time), which cells hold them, which
+inputs they were computed from with the inputs' values then, and how to
+update them. The notice goes where it overwrites nothing and changes no
+result: a row with no cells near the top (above the data, or under a title),
+else the first free column right of the used range, else the row under it;
+never a merged cell, a cell that any formula of the workbook reads, or a cell of
+a table, filter, chart series or defined name (chart sheets hold no cells and get none). A
+cell, not a header or a note: spreadsheet apps show header text only in
+print preview and a note only on hover, and LibreOffice Calc shows the cell
+(tests check it). Its place is recorded in the hidden sheet, and ``trueband
+restore`` takes it out again (unless it was edited).
+
+:func:`notice_text` writes the text, :func:`frozen_inputs` lists the inputs
+(from the recalculation's formula runs), :func:`reader_of` tells the cells
+formulas read, :func:`place_notice` chooses the cell; :mod:`.values_mode`
+writes, records and removes it.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime
+import re
+
+from . import sheet_xml
+from .sheet_xml import iter_cells
+from .xlsx_package import WorkbookPackage
+
+__all__ = ["Notice", "NOTICE_OPENING", "NOTICE_ITEMS", "notice_text", "frozen_inputs", "reader_of", "kept_areas",
+           "place_notice"]
+
+
+@dataclasses.dataclass(frozen=True)
+class Notice:
+    """The notice cell written on a sheet: where, its text, and whether its row was made for it."""
+
+    sheet: str
+    cell: str
+    text: str
+    new_row: bool = False
+
+
+#: First words of every notice (how a notice is told from other text).
+NOTICE_OPENING = "Fixed values, not formulas:"
+#: Items listed in a notice before "and N more".
+NOTICE_ITEMS = 8
+
+
+def _cell_ranges(refs) -> list[str]:
+    """Cells as compact ranges: runs down a column, then neighbouring columns with the same rows."""
+    by_col: dict[int, list[int]] = {}
+    for ref in refs:
+        try:
+            r, c = sheet_xml.split_ref(ref)
+        except ValueError:  # a record edited by hand: restore reports it
+            continue
+        by_col.setdefault(c, []).append(r)
+    if not by_col:
+        return []
+    runs: list[tuple[int, int, int, int]] = []  # (c1, c2, r1, r2)
+    for c in sorted(by_col):
+        rows = sorted(set(by_col[c]))
+        start = prev = rows[0]
+        for r in rows[1:] + [None]:
+            if r is not None and r == prev + 1:
+                prev = r
+                continue
+            last = next((k for k in range(len(runs) - 1, -1, -1) if runs[k][1] == c - 1
+                         and runs[k][2:] == (start, prev)), None)
+            if last is not None:
+                runs[last] = (runs[last][0], c, start, prev)
+            else:
+                runs.append((c, c, start, prev))
+            if r is not None:
+                start = prev = r
+    runs.sort(key=lambda t: (t[2], t[0]))
+    L = sheet_xml.column_letters
+    return [f"{L(c1)}{r1}" if (c1, r1) == (c2, r2) else f"{L(c1)}{r1}:{L(c2)}{r2}" for c1, c2, r1, r2 in runs]
+
+
+def _listed(items: list[str]) -> str:
+    if len(items) <= NOTICE_ITEMS:
+        return ", ".join(items)
+    return ", ".join(items[:NOTICE_ITEMS]) + f" and {len(items) - NOTICE_ITEMS} more"
+
+
+def _quoted_sheet(name: str) -> str:
+    return name if re.fullmatch(r"[A-Za-z_][A-Za-z0-9_.]*", name) else "'" + name.replace("'", "''") + "'"
+
+
+def _shown(value) -> str:
+    if isinstance(value, bool):
+        return "TRUE" if value else "FALSE"
+    if isinstance(value, float):
+        return f"{value:.6g}"
+    if isinstance(value, str):
+        return value if isinstance(value, sheet_xml.ErrorValue) else f'"{value[:40]}"'
+    return "(blank)"
+
+
+def notice_text(records, inputs=(), written_at: datetime.datetime | None = None) -> str:
+    """The text of the notice: when, which cells hold fixed values, from which inputs (values then), what to do.
+
+    ``records`` name the cells (``.sheet``, ``.cell``: the formula records of
+    :mod:`.values_mode`).
+    ``inputs`` are (``Sheet!A1`` or ``Sheet!A1:B9``, value or None) pairs; a
+    single cell's value is shown as it was when the file was written.
+
+    >>> from types import SimpleNamespace as R
+    >>> cells = [R(sheet="Bands", cell=f"C{r}") for r in range(2, 6)] + [R(sheet="Bands", cell="D2")]
+    >>> print(notice_text(cells, [("Setup!B3", 23.0), ("Bands!B2:B5", None)],
+    ...                   datetime.datetime(2026, 3, 2, 9, 30)))  # doctest: +NORMALIZE_WHITESPACE
+    Fixed values, not formulas: trueband results in this file do not follow edits of their inputs (fixed on
+    2026-03-02 09:30 UTC by trueband recalc --values). Cells: Bands!C2:C5, Bands!D2. Computed from:
+    Setup!B3 = 23, Bands!B2:B5. After an edit, formulas that read them mix new and fixed figures. To update
+    them: trueband restore FILE, then trueband recalc.
+    """
+    when = (written_at or datetime.datetime.now(datetime.timezone.utc)).strftime("%Y-%m-%d %H:%M UTC")
+    cells: dict[str, list[str]] = {}
+    for rec in records:
+        cells.setdefault(rec.sheet, []).append(rec.cell)
+    held = [f"{_quoted_sheet(sheet)}!{r}" for sheet, refs in cells.items() for r in _cell_ranges(refs)]
+    # the essentials first: a spreadsheet app shows the start of a long text in the row, the rest in the cell
+    text = (f"{NOTICE_OPENING} trueband results in this file do not follow edits of their inputs (fixed on "
+            f"{when} by trueband recalc --values). Cells: {_listed(held)}.")
+    shown = [label if value is None else f"{label} = {_shown(value)}" for label, value in inputs]
+    if shown:
+        text += f" Computed from: {_listed(shown)}."
+    return text + (" After an edit, formulas that read them mix new and fixed figures. To update them: trueband "
+                   "restore FILE, then trueband recalc.")
+
+
+def frozen_inputs(runs, store, uses_registered, as_value) -> list[tuple[str, object]]:
+    """What the formula runs that call registered functions read, for the notice.
+
+    ``Sheet!A1`` with its value from ``store`` (a blank one labelled
+    ``(blank)``), or ``Sheet!A1:B9`` with None for a range; single cells first.
+    ``runs`` are the recalculation's formula runs, ``uses_registered(compiled)``
+    tells the ones to describe, ``as_value`` turns a stored value into a cell value.
+    """
+    from .column_eval import EMPTY
+
+    out: dict[str, object] = {}
+    for run in runs:
+        if not uses_registered(run.compiled):
+            continue
+        for ref in run.compiled.refs:
+            if ref.name is not None:
+                continue
+            sheet = store.canonical(ref.sheet or run.sheet) or (ref.sheet or run.sheet)
+            r1, c1, r2, c2 = _run_area(ref, run)
+            L = sheet_xml.column_letters
+            label = f"{_quoted_sheet(sheet)}!{L(c1)}{r1}" + ("" if (r1, c1) == (r2, c2) else f":{L(c2)}{r2}")
+            if label in out or label + " (blank)" in out:
+                continue
+            value = store.value(sheet, r1, c1) if (r1, c1) == (r2, c2) else None
+            if value is EMPTY:
+                out[label + " (blank)"] = None
+            else:
+                out[label] = None if value is None else as_value(value)
+    return sorted(out.items(), key=lambda item: item[1] is None)
+
+
+def _run_area(ref, run) -> tuple[int, int, int, int]:
+    a1, a2 = ref.area(run.first, run.col), ref.area(run.last, run.col)
+    return min(a1[0], a2[0]), min(a1[1], a2[1]), max(a1[2], a2[2]), max(a1[3], a2[3])
+
+
+def reader_of(runs):
+    """``is_read(sheet, row, col)``: True when one of the formula runs reads that cell (through any reference)."""
+    boxes: dict[str, list[tuple[int, int, int, int]]] = {}
+    for run in runs:
+        for ref in run.compiled.refs:
+            if ref.name is None:
+                boxes.setdefault((ref.sheet or run.sheet).casefold(), []).append(_run_area(ref, run))
+
+    def is_read(sheet: str, row: int, col: int) -> bool:
+        return any(r1 <= row <= r2 and c1 <= col <= c2 for r1, c1, r2, c2 in boxes.get(sheet.casefold(), ()))
+    return is_read
+
+
+_AREA = re.compile(r"(?:'((?:[^']|'')+)'|([A-Za-z_][\w.]*))!\$?([A-Za-z]{1,3})\$?([0-9]+)"
+                   r"(?::\$?([A-Za-z]{1,3})\$?([0-9]+))?")
+_REF_ATTR = re.compile(rb'<(?:[\w.-]+:)?(?:autoFilter|table)\b[^>]*?\bref\s*=\s*["\']([A-Z]{1,3}[0-9]+(?::[A-Z]{1,3}[0-9]+)?)["\']')
+_CHART_FORMULA = re.compile(rb"<(?:[\w.-]+:)?f>([^<]*)</(?:[\w.-]+:)?f>")
+
+
+def _areas_in(text: str, sheet: str) -> list[tuple[int, int, int, int]]:
+    """The areas of ``sheet`` named in a formula text (``Sheet!$A$1:$B$9``, quoted names too)."""
+    out = []
+    for m in _AREA.finditer(text):
+        name = (m.group(1) or "").replace("''", "'") or m.group(2)
+        if name.casefold() != sheet.casefold():
+            continue
+        (r1, c1) = sheet_xml.split_ref(m.group(3) + m.group(4))
+        (r2, c2) = sheet_xml.split_ref((m.group(5) or m.group(3)) + (m.group(6) or m.group(4)))
+        out.append((min(r1, r2), min(c1, c2), max(r1, r2), max(c1, c2)))
+    return out
+
+
+def kept_areas(pkg: WorkbookPackage, info, xml: bytes) -> list[tuple[int, int, int, int]]:
+    """Areas of a sheet that belong to something other than formulas: its tables and filter, chart series,
+    defined names. A notice placed there would join a table or a chart."""
+    areas = []
+    for m in _REF_ATTR.finditer(xml):
+        a, _, b = m.group(1).decode("ascii").partition(":")
+        (r1, c1), (r2, c2) = sheet_xml.split_ref(a), sheet_xml.split_ref(b or a)
+        areas.append((r1, c1, r2, c2))
+    for rel in pkg.relationships(info.part):
+        part = rel.get("part")
+        if part and rel.get("Type", "").endswith("/table") and part in pkg:
+            m = _REF_ATTR.search(pkg.read(part))
+            if m:
+                a, _, b = m.group(1).decode("ascii").partition(":")
+                (r1, c1), (r2, c2) = sheet_xml.split_ref(a), sheet_xml.split_ref(b or a)
+                areas.append((r1, c1, r2, c2))
+    for name in pkg.entry_names:
+        if name.startswith("xl/charts/chart") and name.endswith(".xml"):
+            for m in _CHART_FORMULA.finditer(pkg.read(name)):
+                areas += _areas_in(sheet_xml.unescape_xml(m.group(1)), info.name)
+    for d in pkg.defined_names:
+        areas += _areas_in(d.text, info.name)
+    return areas
+
+
+def place_notice(xml: bytes, strings, sheet: str, is_read, kept=()) -> tuple[str, bool] | None:
+    """Where a sheet's notice goes, (cell, whether its row is new), or None when no place is safe.
+
+    A place is safe when its cell holds nothing, lies in no merged range, no
+    ``kept`` area (tables, filters, chart series, defined names) and no
+    formula reads it; its row must also be free for a row choice (so the
+    text shows across the empty cells to its right).
+    """
+    used_rows: dict[int, int] = {}  # row → cells holding something
+    existing_rows: set[int] = set()
+    r0 = c0 = 10 ** 9
+    r1 = c1 = 0
+    for cell in iter_cells(xml, strings):
+        existing_rows.add(cell.row)
+        if cell.value is None and cell.formula is None:
+            continue
+        used_rows[cell.row] = used_rows.get(cell.row, 0) + 1
+        r0, r1, c0, c1 = min(r0, cell.row), max(r1, cell.row), min(c0, cell.col), max(c1, cell.col)
+    merges = sheet_xml.merged_ranges(xml)
+    blocked = merges + list(kept)
+
+    def free(row, col):
+        return (not any(a <= row <= c and b <= col <= d for a, b, c, d in blocked)
+                and not (is_read is not None and is_read(sheet, row, col)))
+
+    if not used_rows:
+        return ("A1", 1 not in existing_rows) if free(1, 1) else None
+    col = 1
+    for row in range(1, min(r1, 8) + 1):  # a free row above the data, or under a title or caption
+        if row in used_rows:
+            continue
+        above = used_rows.get(row - 1, 0)
+        if (row < r0 or above <= 2) and free(row, col) and not any(
+                a <= row <= c for a, b, c, d in merges):
+            return f"{sheet_xml.column_letters(col)}{row}", row not in existing_rows
+    for c in range(c1 + 1, min(c1 + 4, 16384) + 1):  # beside the used range, on its first row
+        if free(r0, c):
+            return f"{sheet_xml.column_letters(c)}{r0}", False
+    for row in range(r1 + 1, min(r1 + 4, 1048576) + 1):  # under it
+        if row not in used_rows and free(row, c0):
+            return f"{sheet_xml.column_letters(c0)}{row}", row not in existing_rows
+    return None
