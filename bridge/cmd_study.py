@@ -147,8 +147,11 @@ def headline_lines(h: dict) -> list[str]:
         flag = (f"; {below} group(s) below four-fifths" if isinstance(below, (int, float)) else "")
         lines.append(f"  lowest impact ratio at cut {_fmt(h.get('cut'), 1)}: {_fmt(h['min_ratio'])}{flag}")
     if "taylor_russell" in h:
-        lines.append(f"  success rate among those selected (Taylor–Russell): {_fmt(h['taylor_russell'])} against a "
-                     f"base rate of {_fmt(h.get('base_rate'))}")
+        tr, base = _fmt(h["taylor_russell"]), _fmt(h.get("base_rate"))
+        if isinstance(h["taylor_russell"], (int, float)):
+            lines.append(f"  success rate among those selected (Taylor–Russell): {tr} against a base rate of {base}")
+        else:  # a reason, which reads last
+            lines.append(f"  success rate among those selected (Taylor–Russell; base rate {base}): {tr}")
     return lines
 
 

@@ -161,3 +161,15 @@ def test_cli_study_prints_headlines_and_caution(tmp_path, capsys):
     assert code == cli.EXIT_OK
     assert "Study written" in out and "coefficient alpha" in out and "not legal findings" in out
     assert "Uniform Guidelines" in out
+
+
+def test_a_headline_reason_reads_last():
+    # Before: "...(Taylor–Russell): not computable: <reason> against a base rate of 0.519", the reason cut in two.
+    from trueband.bridge.cmd_study import headline_lines
+    from trueband.bridge.study_words import NOT_COMPUTABLE
+
+    reason = NOT_COMPUTABLE + "nobody reaches the cut score"
+    (line,) = [t for t in headline_lines({"taylor_russell": reason, "base_rate": 0.519}) if "Taylor" in t]
+    assert line.endswith(": " + reason) and "base rate 0.519" in line
+    (line,) = [t for t in headline_lines({"taylor_russell": 0.764, "base_rate": 0.539}) if "Taylor" in t]
+    assert line.endswith("0.764 against a base rate of 0.539")
