@@ -20,7 +20,9 @@ saved as xlsx holds ``_xludf.SEM(...)``, the form other spreadsheet apps use for
 they do not know and the form ``trueband recalc`` reads.
 
 Every method takes each registered argument as ``any`` (a number, a text, a range as rows of
-cells with ``None`` for a blank) and a last ``sequence<any>`` that collects any further
+cells with an empty text for a blank cell; ``None`` for an argument left out or empty; a blank
+single cell arrives as 0, which LibreOffice gives every add-in argument type that also takes
+constants) and a last ``sequence<any>`` that collects any further
 arguments, so that a wrong argument count reaches trueband (``#VALUE!``) instead of Calc
 refusing the call (``Err:504``). Nothing here knows a single function: a function added to the
 registry is in the next generated add-in.

@@ -35,13 +35,31 @@ def prop(name, value):
     return p
 
 
+def soffice_environment():
+    """This environment without an activated virtual environment's traces.
+
+    LibreOffice's embedded Python finds its home through PATH: with a virtual environment's
+    ``bin`` first on PATH it takes that environment's pyvenv.cfg, cannot import ``uno`` and
+    loads no Python component at all (every add-in cell is then ``#NAME?``).
+    """
+    env = dict(os.environ)
+    venv = env.pop("VIRTUAL_ENV", None)
+    for name in ("PYTHONHOME", "PYTHONPATH"):
+        env.pop(name, None)
+    if venv:
+        bins = os.path.normcase(os.path.abspath(venv))
+        env["PATH"] = os.pathsep.join(p for p in env.get("PATH", "").split(os.pathsep)
+                                      if not os.path.normcase(os.path.abspath(p)).startswith(bins))
+    return env
+
+
 def connect(job):
     pipe = "trueband_test_%d" % os.getpid()
     args = [job["soffice"], "-env:UserInstallation=" + job["profile"], "--headless", "--invisible", "--norestore",
             "--nologo", "--nodefault", "--accept=pipe,name=%s;urp;" % pipe]
     if job.get("bundled"):
         args.insert(1, "-env:BUNDLED_EXTENSIONS=" + job["bundled"])
-    proc = subprocess.Popen(args, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    proc = subprocess.Popen(args, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, env=soffice_environment())
     local = uno.getComponentContext()
     resolver = local.ServiceManager.createInstanceWithContext("com.sun.star.bridge.UnoUrlResolver", local)
     deadline = time.monotonic() + job.get("start_timeout", 120)
