@@ -172,7 +172,7 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
         except sheet_xml.SheetXmlError as exc:
             raise UnusableWorkbook(f"{pkg.path.name}: sheet {info.name!r}: {exc}", path=pkg.path) from None
     if records:
-        all_records = _existing_records(pkg) + records
+        all_records = _existing(pkg)[0] + records
         notices = _write_notices(pkg, changes, notice_text(all_records, inputs, written_at), is_read, unplaced)
         _write_formula_sheet(pkg, changes, all_records, notices)
         changes.drop_calc_chain(pkg)
@@ -182,7 +182,7 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
 def _write_notices(pkg: WorkbookPackage, changes: PackageChanges, text: str, is_read,
                    unplaced: list[str] | None) -> list[Notice]:
     """A notice cell on every worksheet (a notice from an earlier run is rewritten where it is)."""
-    earlier = {n.sheet.casefold(): n for n in _existing_notices(pkg)}
+    earlier = {n.sheet.casefold(): n for n in _existing(pkg)[1]}
     notices = []
     for info in pkg.worksheets:
         if info.name == FORMULA_SHEET:
@@ -256,12 +256,13 @@ def _records_part(records: list[FormulaRecord], notices: list[Notice] = ()) -> b
             + f'<dimension ref="A1:F{last}"/>'.encode() + b"<sheetData>" + b"".join(rows) + b"</sheetData></worksheet>")
 
 
-def _existing_records(pkg: WorkbookPackage) -> list[FormulaRecord]:
+def _existing(pkg: WorkbookPackage) -> tuple[list[FormulaRecord], list[Notice]]:
+    """The records and notices of an earlier ``--values`` run (none without its formula sheet)."""
     try:
         info = pkg.sheet(FORMULA_SHEET)
     except KeyError:
-        return []
-    return read_records(pkg.read(info.part), pkg.shared_strings)
+        return [], []
+    return _read_sheet_records(pkg.read(info.part), pkg.shared_strings)
 
 
 def read_records(xml: bytes, shared_strings=()) -> list[FormulaRecord]:
@@ -272,14 +273,6 @@ def read_records(xml: bytes, shared_strings=()) -> list[FormulaRecord]:
 def read_notices(xml: bytes, shared_strings=()) -> list[Notice]:
     """The notices recorded in a formula sheet part."""
     return _read_sheet_records(xml, shared_strings)[1]
-
-
-def _existing_notices(pkg: WorkbookPackage) -> list[Notice]:
-    try:
-        info = pkg.sheet(FORMULA_SHEET)
-    except KeyError:
-        return []
-    return read_notices(pkg.read(info.part), pkg.shared_strings)
 
 
 def _read_sheet_records(xml: bytes, shared_strings=()) -> tuple[list[FormulaRecord], list[Notice]]:
