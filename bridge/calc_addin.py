@@ -182,10 +182,15 @@ def _manifest() -> str:
     return "\n".join(lines) + "\n"
 
 
-def _description(version: str, mode: str) -> str:
-    words = ("trueband's spreadsheet functions (reliability, SEM and score bands, validity, cut scores, "
-             "adverse impact) as live Calc functions" + (", computed by a running `trueband serve`" if mode == "thin"
-                                                        else ""))
+def _description_text(mode: str) -> str:
+    """What the Extension Manager shows about the add-in."""
+    how = " (thin mode: each cell asks a running `trueband serve`)" if mode == "thin" else ""
+    return (f"trueband's spreadsheet functions (reliability, SEM and score bands, validity, cut scores, adverse "
+            f"impact) as live Calc functions{how}: type =SEM(B2; B3) and the cell computes with trueband's tested "
+            f"code. The figures are statistical indicators to support professional judgment, not legal findings.\n")
+
+
+def _description(version: str) -> str:
     return f"""<?xml version="1.0" encoding="UTF-8"?>
 <description xmlns="http://openoffice.org/extensions/description/2006"
              xmlns:xlink="http://www.w3.org/1999/xlink">
@@ -220,11 +225,8 @@ def write_extension(out: str | Path, *, mode: str = "full", server_url: str = "h
     functions = addin_functions()
     parts = {
         "META-INF/manifest.xml": _manifest(),
-        "description.xml": _description(_version(), mode),
-        "description-en.txt": (
-            "Live trueband functions in LibreOffice Calc: type =SEM(B2; B3) and the cell computes with "
-            "trueband's tested code. The figures are statistical indicators to support professional "
-            "judgment, not legal findings.\n"),
+        "description.xml": _description(_version()),
+        "description-en.txt": _description_text(mode),
         TYPES_FILE: type_library(functions) + "\n",
         COMPONENT_FILE: component_source(functions, mode=mode, server_url=server_url, folders=folders),
     }

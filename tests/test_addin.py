@@ -133,7 +133,12 @@ def test_the_extension_package(tmp_path):
         compile(source, "trueband_calc.py", "exec")  # valid Python for LibreOffice's interpreter
         assert "SITE_FOLDERS = ['/nowhere']" in source
         assert z.read("trueband_calc.idl").decode("utf-8").strip() == calc_addin.type_library()
+        shown = z.read("description-en.txt").decode("utf-8")
+        assert "not legal findings" in shown and "thin mode" not in shown
     assert not list(tmp_path.glob("*.part"))
+    thin = calc_addin.write_extension(tmp_path / "thin.oxt", mode="thin")
+    with zipfile.ZipFile(thin) as z:
+        assert "thin mode: each cell asks a running `trueband serve`" in z.read("description-en.txt").decode("utf-8")
 
 
 def test_a_function_added_to_the_registry_is_in_the_next_addin(component):
