@@ -28,10 +28,9 @@ from __future__ import annotations
 import dataclasses
 import gc
 import math
-import re
 import time
 from pathlib import Path
-from typing import Callable, Iterable
+from typing import Callable
 
 import numpy as np
 from formulas.functions import XlError
