@@ -25,8 +25,9 @@ def register(sub) -> None:
     p.add_argument("--overwrite", action="store_true", help="replace an existing trueband.oxt")
     p.add_argument("--thin", action="store_true",
                    help="call a running `trueband serve` over HTTP instead of importing trueband in LibreOffice")
-    p.add_argument("--url", default="http://127.0.0.1:8765", help="with --thin, the server's address "
-                                                                  "(default: %(default)s)")
+    p.add_argument("--url", default="http://127.0.0.1:8765",
+                   help="with --thin, the server's address on this computer (default: %(default)s); an access token, "
+                        "where the server needs one, is read from TRUEBAND_TOKEN in LibreOffice's environment")
     p.set_defaults(handler=run)
 
 
@@ -44,6 +45,8 @@ def run(args) -> int:
     mode = "thin" if args.thin else "full"
     try:
         write_extension(out, mode=mode, server_url=args.url)
+    except ValueError as exc:  # a thin-mode address that is not this computer's loopback
+        raise CommandError(str(exc)) from None
     except OSError as exc:
         raise CommandError(f"cannot write {out}: {exc.strerror or exc}") from None
     print(f"wrote {out} ({mode} mode)")

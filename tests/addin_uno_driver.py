@@ -19,6 +19,7 @@ import json
 import os
 import subprocess
 import sys
+import tempfile
 import time
 
 import uno
@@ -59,7 +60,9 @@ def connect(job):
             "--nologo", "--nodefault", "--accept=pipe,name=%s;urp;" % pipe]
     if job.get("bundled"):
         args.insert(1, "-env:BUNDLED_EXTENSIONS=" + job["bundled"])
-    proc = subprocess.Popen(args, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, env=soffice_environment())
+    # soffice's stderr (where the add-in reports) goes to a file: a pipe nobody reads could fill and stall it
+    errors = tempfile.TemporaryFile()
+    proc = subprocess.Popen(args, stdout=subprocess.DEVNULL, stderr=errors, env=soffice_environment())
     local = uno.getComponentContext()
     resolver = local.ServiceManager.createInstanceWithContext("com.sun.star.bridge.UnoUrlResolver", local)
     deadline = time.monotonic() + job.get("start_timeout", 120)
@@ -70,7 +73,8 @@ def connect(job):
         except Exception:
             if time.monotonic() > deadline or proc.poll() is not None:
                 proc.kill()
-                raise SystemExit("soffice did not start: " + proc.stderr.read().decode(errors="replace")[-2000:])
+                errors.seek(0)
+                raise SystemExit("soffice did not start: " + errors.read().decode(errors="replace")[-2000:])
             time.sleep(0.3)
     desktop = ctx.ServiceManager.createInstanceWithContext("com.sun.star.frame.Desktop", ctx)
     return proc, desktop, ctx
@@ -98,14 +102,19 @@ def run(job):
     proc, desktop, ctx = connect(job)
     out = []
     doc = None
+    opened = []  # every document of the job, closed at the end (the last one is the one the steps work on)
     try:
         for step in job["steps"]:
             if "open" in step:
                 url = uno.systemPathToFileUrl(os.path.abspath(step["open"]))
                 doc = desktop.loadComponentFromURL(url, "_blank", 0, (prop("Hidden", True),))
+                if doc is None:
+                    raise SystemExit("Calc could not open %s" % step["open"])
+                opened.append(doc)
                 out.append(True)
             elif "new" in step:
                 doc = desktop.loadComponentFromURL("private:factory/scalc", "_blank", 0, (prop("Hidden", True),))
+                opened.append(doc)
                 out.append(True)
             elif "add_sheet" in step:
                 doc.Sheets.insertNewByName(step["add_sheet"], doc.Sheets.getCount())
@@ -159,9 +168,12 @@ def run(job):
             else:
                 raise SystemExit("unknown step %r" % (step,))
     finally:
+        for document in opened:
+            try:
+                document.close(True)
+            except Exception:
+                pass
         try:
-            if doc is not None:
-                doc.close(True)
             desktop.terminate()
         except Exception:
             pass

@@ -187,6 +187,31 @@ def test_command_writes_and_refuses(tmp_path):
         assert "MODE = 'thin'" in z.read("trueband_calc.py").decode("utf-8")
 
 
+@pytest.mark.parametrize("url, words", [
+    ("http://203.0.113.9:80", "must be on this computer"),     # a documentation address (RFC 5737), not loopback
+    ("http://example.org:8765", "must be on this computer"),
+    ("ftp://127.0.0.1:8765", "write http://127.0.0.1:PORT"),
+    ("https://127.0.0.1:8765", "write http://127.0.0.1:PORT"),
+    ("http://127.0.0.1:notaport", "with a port number"),
+    ("http://127.0.0.1", "with a port number"),
+    ("http://user:pw@127.0.0.1:8765", "with a port number"),
+])
+def test_thin_mode_sends_cells_only_to_this_computer(tmp_path, capsys, url, words):
+    # Thin mode posts every cell's inputs (applicant data) to the address: it must be loopback (RFC 1122 3.2.1.3).
+    from trueband.bridge.cli import main
+
+    assert main(["addin", "--out", str(tmp_path), "--thin", "--url", url]) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1 and words in err
+    assert not list(tmp_path.iterdir())
+
+
+@pytest.mark.parametrize("url", ["http://127.0.0.1:8765", "http://localhost:9000", "http://[::1]:8765",
+                                 "http://127.1.2.3:8765/"])
+def test_loopback_addresses_are_accepted(url):
+    assert calc_addin.checked_server_url(url) == url
+
+
 def test_command_warns_when_libreoffice_runs_another_python(tmp_path, monkeypatch, capsys):
     from trueband.bridge.cli import main
 
@@ -328,6 +353,52 @@ def test_thin_component_without_a_server_gives_value_errors(component, capsys):
     ns = component(mode="thin", server_url="http://127.0.0.1:9")
     assert calc_error_of(ns["TruebandFunctions"](None).SEM(10.0, 0.9, ())) == "#VALUE!"
     assert "trueband serve" in capsys.readouterr().err
+
+
+def test_thin_component_does_not_hold_calc_up_when_the_server_does_not_answer(component, capsys):
+    # A program that accepts connections and never answers (a suspended server): the first cell waits for the
+    # timeout, the cells after it fail at once (no new connection) until the pause is over.
+    import socket
+    import threading
+
+    listener = socket.create_server(("127.0.0.1", 0))
+    accepted = []
+
+    def accept():
+        while True:
+            try:
+                conn, _ = listener.accept()
+            except OSError:
+                return
+            accepted.append(conn)
+
+    threading.Thread(target=accept, daemon=True).start()
+    try:
+        ns = component(mode="thin", server_url=f"http://127.0.0.1:{listener.getsockname()[1]}")
+        ns["_Thin"].TIMEOUT = 0.2
+        addin = ns["TruebandFunctions"](None)
+        values = [addin.SEM(10.0, 0.9, ()) for _ in range(5)]
+        assert [calc_error_of(v) for v in values] == ["#VALUE!"] * 5
+        assert len(accepted) == 1
+        assert capsys.readouterr().err.count("no answer from") == 1
+    finally:
+        listener.close()
+        for conn in accepted:
+            conn.close()
+
+
+def test_thin_component_sends_the_access_token_from_the_environment(component, monkeypatch, capsys):
+    from trueband.bridge.cmd_serve import serving_in_background
+    from trueband.bridge.http_app import create_app
+
+    with serving_in_background(create_app({"TOKEN": "s3cret-for-tests"})) as url:
+        monkeypatch.delenv("TRUEBAND_TOKEN", raising=False)
+        refused = component(mode="thin", server_url=url)["TruebandFunctions"](None)
+        assert calc_error_of(refused.SEM(10.0, 0.9, ())) == "#VALUE!"
+        assert "needs an access token: set TRUEBAND_TOKEN" in capsys.readouterr().err
+        monkeypatch.setenv("TRUEBAND_TOKEN", "s3cret-for-tests")
+        allowed = component(mode="thin", server_url=url)["TruebandFunctions"](None)
+        assert allowed.SEM(10.0, 0.9, ()) == call("SEM", 10.0, 0.9)
 
 
 # ---------------------------------------------------------------- formulas written so that Calc binds them

@@ -13,8 +13,10 @@
 import http.client
 import json
 import math
+import os
 import struct
 import sys
+import time
 import urllib.parse
 
 import uno
@@ -90,46 +92,73 @@ class _Full:
 
 
 class _Thin:
-    """Sends each call to a running `trueband serve` (standard library only), over one kept-open connection."""
+    """Sends each call to a running `trueband serve` (standard library only), over one kept-open connection.
+
+    The server must be on this computer (a loopback address; checked when the add-in is generated and
+    again here), so no applicant data leave it. A server that does not answer within TIMEOUT seconds
+    (suspended, busy, or another program on the port) fails that cell, and the cells after it fail at
+    once for PAUSE seconds, so Calc is never held up cell after cell. An access token, where the server
+    needs one, comes from the TRUEBAND_TOKEN environment variable of LibreOffice's process.
+    """
+
+    TIMEOUT = 15.0  # the server stops any one call after a few seconds of work (its too_much_work)
+    PAUSE = 30.0
 
     def __init__(self):
         parts = urllib.parse.urlsplit(SERVER_URL)
-        if parts.scheme not in ("http", "https") or not parts.hostname:
-            raise RuntimeError(f"the server address must be http://HOST:PORT, got {SERVER_URL!r}")
+        if parts.scheme != "http" or parts.hostname not in LOOPBACK_HOSTS and not parts.hostname.startswith("127."):
+            raise RuntimeError(f"the server address must be http://127.0.0.1:PORT (this computer), got {SERVER_URL!r}")
         self.parts = parts
         self.path = parts.path.rstrip("/") + "/v1/call"
+        self.headers = {"Content-Type": "application/json"}
+        token = os.environ.get("TRUEBAND_TOKEN")
+        if token:
+            self.headers["Authorization"] = "Bearer " + token
         self.connection = None
-        self.silent = False
+        self.down_until = 0.0
+        self.reported = False
 
     def _connect(self):
-        kind = http.client.HTTPSConnection if self.parts.scheme == "https" else http.client.HTTPConnection
-        return kind(self.parts.hostname, self.parts.port, timeout=60)
+        return http.client.HTTPConnection(self.parts.hostname, self.parts.port, timeout=self.TIMEOUT)
 
     def _post(self, body):
-        for attempt in (1, 2):  # a kept-open connection the server has since closed: open a new one, once
+        fresh = self.connection is None
+        for attempt in (1, 2):
             if self.connection is None:
                 self.connection = self._connect()
             try:
-                self.connection.request("POST", self.path, body=body, headers={"Content-Type": "application/json"})
+                self.connection.request("POST", self.path, body=body, headers=self.headers)
                 answer = self.connection.getresponse()
-                return json.loads(answer.read().decode("utf-8"))
-            except (OSError, http.client.HTTPException):
+                return answer.status, json.loads(answer.read().decode("utf-8"))
+            except (OSError, http.client.HTTPException) as exc:
                 self.connection.close()
                 self.connection = None
-                if attempt == 2:
+                # a kept-open connection the server has since closed: open a new one, once (never after a timeout)
+                if attempt == 2 or fresh or isinstance(exc, TimeoutError):
                     raise
+
+    def _report_once(self, text):
+        if not self.reported:  # once, not once a cell
+            _report(text)
+            self.reported = True
 
     def caller(self, name):
         def call(args):
+            if time.monotonic() < self.down_until:
+                return _VALUE_ERROR
             body = json.dumps({"function": name, "args": [_json_cell(a) for a in args]}).encode("utf-8")
             try:
-                reply = self._post(body)
+                status, reply = self._post(body)
             except (OSError, http.client.HTTPException, ValueError) as exc:
-                if not self.silent:  # once, not once a cell
-                    _report(f"no answer from {SERVER_URL} ({exc}); is `trueband serve` running?")
-                    self.silent = True
+                self.down_until = time.monotonic() + self.PAUSE
+                self._report_once(f"no answer from {SERVER_URL} ({exc}); is `trueband serve` running? Cells show "
+                                  f"#VALUE! and are tried again after {self.PAUSE:.0f} s")
                 return _VALUE_ERROR
-            self.silent = False
+            if status == 401:
+                self._report_once(f"{SERVER_URL} needs an access token: set TRUEBAND_TOKEN for LibreOffice to the "
+                                  f"server's token")
+                return _VALUE_ERROR
+            self.reported = False
             if "value" in reply:
                 value = reply["value"]
                 return float(value) if isinstance(value, (bool, int)) else value
