@@ -27,6 +27,7 @@ import shutil
 import sys
 import uuid
 from pathlib import Path
+from typing import Iterable
 
 from trueband.funcs import _validate as v
 from trueband.funcs.errors import TruebandError
@@ -141,10 +142,12 @@ def plan_fill(pkg: WorkbookPackage, sheet: str, column: str, *, rows: tuple[int,
     return FillPlan(info.name, column, first, last, header_ref, header_style)
 
 
-def checked_formula(formula: str, plan: FillPlan, *, same_formula: bool = False) -> str:
+def checked_formula(formula: str, plan: FillPlan, *, same_formula: bool = False,
+                    sheets: Iterable[str] | None = None) -> str:
     """The formula text to write (without ``=``, ``;`` separators read as ``,``), once it has passed the checks
     ``trueband check`` makes: it reads as a formula, names only known functions, gives registered functions an
-    allowed number of arguments, and holds ``{row}`` (unless ``same_formula``, or the fill is one row).
+    allowed number of arguments, refers only to sheets of the workbook (``sheets``, when given), and holds
+    ``{row}`` (unless ``same_formula``, or the fill is one row).
 
     Raises :class:`CommandError` with one line naming the first problem, before anything is written.
     """
@@ -161,14 +164,25 @@ def checked_formula(formula: str, plan: FillPlan, *, same_formula: bool = False)
                            f"write {{row}} where each row's own number goes (e.g. H{{row}}), or add --same-formula")
     try:
         text = typed_formula(text)
-        first = compile_formula(text.replace("{row}", str(plan.first)), plan.first, column_index(plan.column))
-    except (TypedFormulaError, FormulaSyntaxError) as exc:
-        raise CommandError(f"--formula: {exc}") from None
+    except TypedFormulaError as exc:
+        raise CommandError(f"--formula: {exc}; nothing was written") from None
+    row_text = text.replace("{row}", str(plan.first))
+    try:
+        first = compile_formula(row_text, plan.first, column_index(plan.column))
+    except FormulaSyntaxError as exc:
+        shown = f" as written in row {plan.first}, {row_text!r}" if row_text != text else ""
+        raise CommandError(f"--formula {formula!r}{shown}: {exc.reason}; nothing was written") from None
     unknown, counts = call_findings(first.tree)
     if unknown:
         raise CommandError(f"--formula: unknown function {', '.join(unknown)}; nothing was written")
     if counts:
         raise CommandError(f"--formula: {counts[0]}; nothing was written")
+    if sheets is not None:
+        known = {name.casefold() for name in sheets}
+        missing = sorted({r.sheet for r in first.refs if r.sheet and r.sheet.casefold() not in known})
+        if missing:
+            raise CommandError(f"--formula refers to a sheet that does not exist: {missing[0]!r} (the workbook's "
+                               f"sheets: {', '.join(sheets)}); nothing was written")
     return text
 
 
@@ -182,7 +196,8 @@ def fill_changes(pkg: WorkbookPackage, plan: FillPlan, formula: str, *, header: 
     """
     from .calc_binding import bind_for_calc
 
-    text = bind_for_calc(checked_formula(formula, plan, same_formula=same_formula))  # so Calc's add-in binds it
+    sheets = [info.name for info in pkg.worksheets]
+    text = bind_for_calc(checked_formula(formula, plan, same_formula=same_formula, sheets=sheets))  # Calc binds it
     cells = {f"{plan.column}{r}": NewCell(formula=text.replace("{row}", str(r))) for r in range(plan.first,
                                                                                             plan.last + 1)}
     if plan.header_ref is not None and header is not None:

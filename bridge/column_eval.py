@@ -92,6 +92,15 @@ class CellProblem:
     message: str
 
 
+def unknown_function(name: str) -> CellProblem:
+    """The problem of a call of a function nobody knows, with the closest names (``SME``: SEM or SUM)."""
+    from .formula_text import did_you_mean
+
+    return CellProblem(name, "#NAME?", f"{name} is not a function trueband or the formula engine knows"
+                                       f"{did_you_mean(name)}")
+
+
+
 class VectorUnsupported(Exception):
     """The run cannot be evaluated as arrays (the caller evaluates its cells one by one)."""
 
@@ -249,8 +258,7 @@ class _CellEval:
             return fast
         table = _functions()
         if name not in table or table[name] is ff.NOT_IMPLEMENTED:
-            self.problems.append(CellProblem(name, "#NAME?", f"{name} is not a function trueband or the formula "
-                                                             f"engine knows"))
+            self.problems.append(unknown_function(name))
             return _NAME
         fn = table[name]
         args = [self.ev(a) for a in node.args]
@@ -575,9 +583,9 @@ class _RunEval:
             return fast
         table = _functions()
         if name not in table or table[name] is ff.NOT_IMPLEMENTED:
+            problem = unknown_function(name)
             for i in range(self.n):
-                self.problems[i] = CellProblem(name, "#NAME?", f"{name} is not a function trueband or the formula "
-                                                               f"engine knows")
+                self.problems[i] = problem
             return _NAME
         if name == "IF":
             return self.xif(node)

@@ -297,6 +297,7 @@ def evaluate_expression(expression: str):
     text = expression.strip()
     if not text.startswith("="):
         text = "=" + text
+    typed = text  # as typed (with "=" added): messages show it; ';' -> ',' keeps every position
     try:
         text = typed_formula(text)
     except TypedFormulaError as exc:
@@ -304,7 +305,7 @@ def evaluate_expression(expression: str):
     try:
         unknown, _ = call_findings(compile_formula(text, 1, 1).tree)
     except FormulaSyntaxError as exc:
-        raise UnreadableFormula(str(exc)) from None
+        raise UnreadableFormula(f"cannot read the formula {typed!r}: {exc.reason}") from None
     if unknown:
         raise error_for_code("#NAME?", f"unknown function {', '.join(unknown)} in {expression}")
     ERROR_LOG.clear()  # before compiling: the engine folds constant calls at compile time

@@ -43,7 +43,7 @@ from formulas.tokens.function import Function
 from formulas.tokens.operand import Empty, Error, Number, Range, String
 from formulas.tokens.operator import Operator
 
-from .formula_text import parser, syntax_message
+from .formula_text import parser, syntax_reason
 from .sheet_xml import column_index, column_letters, split_ref
 
 __all__ = [
@@ -56,7 +56,11 @@ MAX_COL = 16_384
 
 
 class FormulaSyntaxError(ValueError):
-    """A formula the parser cannot read."""
+    """A formula the parser cannot read; ``reason`` is the message without the formula (why, and where)."""
+
+    def __init__(self, message: str, reason: str | None = None):
+        super().__init__(message)
+        self.reason = reason or message
 
 
 # Cell addresses are read and written by the package layer's helpers (one definition of each).
@@ -305,7 +309,8 @@ def compile_formula(formula: str, row: int, col: int) -> Compiled:
     except FormulaSyntaxError:
         raise
     except Exception as exc:  # the parser's exception types vary by version
-        raise FormulaSyntaxError(syntax_message(formula, reader, exc)) from None
+        reason = syntax_reason(formula, reader, exc)
+        raise FormulaSyntaxError(f"cannot read the formula {formula!r}: {reason}", reason) from None
     root = builder._deque[-1][1]
     key, _ = formula_key(text, row, col)
     functions = frozenset(n.name for n in root.walk() if n.kind == "fn")

@@ -61,18 +61,44 @@ def syntax_message(formula: str, parser_used: formulas.Parser, exc: Exception) -
     ...     p.ast("=SEM(12,, 0.9))")
     ... except Exception as exc:
     ...     print(syntax_message("=SEM(12,, 0.9))", p, exc))
-    cannot read the formula '=SEM(12,, 0.9))': parentheses do not match
+    cannot read the formula '=SEM(12,, 0.9))': the ')' at character 15 closes no '('
     """
-    if isinstance(exc, ParenthesesError):
-        return f"cannot read the formula {formula!r}: parentheses do not match"
-    rest = getattr(parser_used, "rest", None)
+    return f"cannot read the formula {formula!r}: {syntax_reason(formula, parser_used, exc)}"
+
+
+def syntax_reason(formula: str, parser_used: formulas.Parser, exc: Exception) -> str:
+    """Why ``formula`` could not be read and where (characters counted from 1, as typed), without the formula."""
     text = formula.strip().replace("\n", "")
+    semis = [i for i, ch, depth in _outside_literals(text) if ch == ";" and depth == 0]
+    if semis:
+        return (f"the ';' at character {semis[0] + 1} is not an argument separator in a file (files store ',' "
+                f"between arguments)")
+    if isinstance(exc, ParenthesesError) or _unmatched(text) is not None:
+        where = _unmatched(text)
+        if where is not None:
+            pos, ch = where
+            return (f"the ')' at character {pos + 1} closes no '('" if ch == ")"
+                    else f"the '(' at character {pos + 1} is never closed")
+        return "parentheses do not match"
+    rest = getattr(parser_used, "rest", None)
     if rest and text.endswith(rest):
         pos = len(text) - len(rest) + 1
         shown = rest if len(rest) <= 20 else rest[:20] + "…"
-        hint = " (files store ',' between arguments, not ';')" if ";" in text else ""
-        return f"cannot read the formula {formula!r}: stops at character {pos}, at {shown!r}{hint}"
-    return f"cannot read the formula {formula!r}: it is not a complete formula"
+        return f"stops at character {pos}, at {shown!r}"
+    return "it is not a complete formula"
+
+
+def _unmatched(text: str) -> tuple[int, str] | None:
+    """(index, bracket) of the first ')' that closes nothing, else of the last '(' never closed; None if they match."""
+    opened = []
+    for i, ch, _ in _outside_literals(text):
+        if ch == "(":
+            opened.append(i)
+        elif ch == ")":
+            if not opened:
+                return i, ")"
+            opened.pop()
+    return (opened[-1], "(") if opened else None
 
 
 def _outside_literals(text: str):

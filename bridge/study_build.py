@@ -42,7 +42,7 @@ from trueband.funcs.errors import InsufficientDataError, TruebandError, UnknownF
 from . import study_charts as charts
 from . import study_xml
 from .study_words import CAUTION, NOT_COMPUTABLE
-from .study_setup import SETTINGS, SETUP_SHEET, SetupError, StudyData, read_study_data
+from .study_setup import HIRED_CODINGS, SETTINGS, SETUP_SHEET, SetupError, StudyData, read_study_data
 
 __all__ = ["StudyError", "StudyResult", "build_study", "make_study", "CAUTION", "ANALYSIS_SHEETS"]
 
@@ -789,7 +789,7 @@ class _Builder:
         if d.hired is not None:
             g.set(4, 1, "People hired (hired column)")
             self.put(g, 4, 2, f"=SUM({self.bands_range(self.hired_col)})", lambda: int(d.hired.sum()), style="count")
-            g.set(4, 3, f"(yes/no, y/n, 1/0 or TRUE/FALSE in column {self.s.hired!r}, read into Bands column "
+            g.set(4, 3, f"({HIRED_CODINGS} in column {self.s.hired!r}, read into Bands column "
                         f"{self.hired_col})")
 
         def r_check():

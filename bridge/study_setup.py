@@ -23,7 +23,8 @@ setting                  value
 ``rating columns``       interview or assessor ratings, one column per rater
 ``criterion column``     job performance, blank for people not hired
 ``retest column``        a second sitting of the test (optional)
-``hired column``         yes/no, y/n, 1/0 or TRUE/FALSE, any case (optional)
+``hired column``         yes/no, y/n, hired/not hired, 1/0, TRUE/FALSE or
+                         T/F, any case (optional)
 ``cut score``            the cut for the adverse-impact analysis
 ``confidence``           confidence level of every interval (default 0.95)
 ``criterion reliability``  reliability of the criterion (default 0.52)
@@ -69,6 +70,13 @@ SETUP_SHEET = "Setup"
 DEFAULT_CRITERION_RELIABILITY = 0.52
 
 #: setting -> (field name, kind, what it means); kinds: column, columns, number, text
+#: Codings of the hired column, compared after trimming and case folding (common practice).
+YES_CODES = frozenset({"yes", "y", "true", "t", "1", "1.0", "hired"})
+NO_CODES = frozenset({"no", "n", "false", "f", "0", "0.0", "not hired"})
+#: The codings in words, for the Setup help, the study and the messages.
+HIRED_CODINGS = "yes/no, y/n, hired/not hired, 1/0, TRUE/FALSE or T/F"
+
+
 SETTINGS: dict[str, tuple[str, str, str]] = {
     "data sheet": ("data_sheet", "text", "the sheet that holds one row per candidate, headers in row 1"),
     "id column": ("id", "column", "header of the candidate id column"),
@@ -82,7 +90,7 @@ SETTINGS: dict[str, tuple[str, str, str]] = {
     "rating columns": ("ratings", "columns", "interview ratings, one column per rater (optional)"),
     "criterion column": ("criterion", "column", "job performance; blank for people not hired"),
     "retest column": ("retest", "column", "score on a second sitting of the test (optional)"),
-    "hired column": ("hired", "column", "was the person hired: yes/no, y/n, 1/0 or TRUE/FALSE (optional)"),
+    "hired column": ("hired", "column", "was the person hired: " + HIRED_CODINGS + " (optional)"),
     "cut score": ("cut", "number", "scores at or above the cut pass (adverse impact and utility)"),
     "confidence": ("confidence", "number", "confidence level of every interval, e.g. 0.95"),
     "criterion reliability": ("criterion_reliability", "number",
@@ -443,9 +451,6 @@ def _numeric(rows, col: int, setting: str, sheet: str, header) -> np.ndarray:
     return out
 
 
-#: Codings of the hired column, compared after trimming and case folding (common practice).
-YES_CODES = frozenset({"yes", "y", "true", "t", "1", "1.0", "hired"})
-NO_CODES = frozenset({"no", "n", "false", "f", "0", "0.0", "not hired"})
 
 
 def hired_code(cell) -> bool | None:
@@ -470,7 +475,7 @@ def _flags(rows, col: int, sheet: str, header) -> tuple[np.ndarray, list[str]]:
             out[i] = True
         elif code is None and _cell_text(cell) is not None:
             bad.append(f"sheet '{sheet}', cell {get_column_letter(col + 1)}{i + 2} (column {header[col]!r}, hired "
-                       f"column): {cell!r} is not a yes/no coding (yes/no, y/n, 1/0, TRUE/FALSE); the person is "
+                       f"column): {cell!r} is not a yes/no coding ({HIRED_CODINGS}); the person is "
                        f"not counted as hired")
     return out, bad
 
@@ -558,9 +563,10 @@ def _duplicate_ids(data: StudyData) -> list[str]:
     for key, rows in first.items():
         if len(rows) > 1:
             cells = ", ".join(f"{col}{i + 2}" for i in rows)
-            spelled = {str(data.ids[i]) for i in rows}
+            spelled = {_cell_text(data.ids[i]) for i in rows}
             how = "" if len(spelled) == 1 else " (letter case and spacing aside)"
-            lines.append(f"sheet '{data.sheet}', cells {cells} (id column): the id {data.ids[rows[0]]!r} appears "
+            shown = _cell_text(data.ids[rows[0]])  # as the cell shows it: 7, not 7.0
+            lines.append(f"sheet '{data.sheet}', cells {cells} (id column): the id {shown!r} appears "
                          f"{len(rows)} times{how}; each row is counted as a person of its own")
     return lines
 

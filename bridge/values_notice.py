@@ -121,8 +121,9 @@ def notice_text(records, inputs=(), written_at: datetime.datetime | None = None)
     ...                   datetime.datetime(2026, 3, 2, 9, 30)))  # doctest: +NORMALIZE_WHITESPACE
     Fixed values, not formulas: trueband results in this file do not follow edits of their inputs (fixed on
     2026-03-02 09:30 UTC by trueband recalc --values). Cells: Bands!C2:C5, Bands!D2. Computed from:
-    Setup!B3 = 23, Bands!B2:B5. After an edit, formulas that read them mix new and fixed figures. To update
-    them: trueband restore FILE, then trueband recalc.
+    Setup!B3 = 23, Bands!B2:B5, and every cell those are computed from. After an edit of any of them, formulas
+    that read the fixed cells mix new and fixed figures. To update them: trueband restore FILE, then trueband
+    recalc.
     """
     when = (written_at or datetime.datetime.now(datetime.timezone.utc)).strftime("%Y-%m-%d %H:%M UTC")
     cells: dict[str, list[str]] = {}
@@ -134,9 +135,9 @@ def notice_text(records, inputs=(), written_at: datetime.datetime | None = None)
             f"{when} by trueband recalc --values). Cells: {_listed(held)}.")
     shown = [label if value is None else f"{label} = {_shown(value)}" for label, value in inputs]
     if shown:
-        text += f" Computed from: {_listed(shown)}."
-    return text + (" After an edit, formulas that read them mix new and fixed figures. To update them: trueband "
-                   "restore FILE, then trueband recalc.")
+        text += f" Computed from: {_listed(shown)}, and every cell those are computed from."
+    return text + (" After an edit of any of them, formulas that read the fixed cells mix new and fixed figures. "
+                   "To update them: trueband restore FILE, then trueband recalc.")
 
 
 def frozen_inputs(runs, store, uses_registered, as_value) -> list[tuple[str, object]]:

@@ -168,7 +168,11 @@ def test_fill_drops_the_calculation_chain(tmp_path):
     (["--sheet", "Applicants", "--column", "F", "--formula", "=SEM(C{row})"],
      ["SEM takes 2 arguments, got 1: SEM(sd, reliability)"]),
     (["--sheet", "Applicants", "--column", "F", "--formula", "=C2*2"], ["has no {row}", "6 rows", "--same-formula"]),
-    (["--sheet", "Applicants", "--column", "F", "--formula", "=SEM(C{row}, 0.9"], ["parentheses do not match"]),
+    (["--sheet", "Applicants", "--column", "F", "--formula", "=SEM(C{row}, 0.9"],
+     ["'=SEM(C{row}, 0.9' as written in row 2, 'SEM(C2, 0.9': the '(' at character 4 is never closed",
+      "nothing was written"]),
+    (["--sheet", "Applicants", "--column", "F", "--formula", "=SEM(Sheet9!C{row}, 0.9)"],
+     ["refers to a sheet that does not exist: 'Sheet9'", "Applicants", "nothing was written"]),
     (["--sheet", "Applicants", "--column", "F", "--formula", "=SEM(C{row};0,9)"], ["';'", "decimals"]),
     (["--sheet", "Applicants", "--column", "F", "--formula", "=C{row}+*2"], ["--formula", "stops at character"]),
 ])

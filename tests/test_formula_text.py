@@ -53,7 +53,9 @@ def test_eval_reads_true_score_and_semicolons(argv, out, capsys):
 
 @pytest.mark.parametrize("formula, words", [
     ("SEM(10;0,9)", ["uses both ';' and ','", "0.9, not 0,9"]),
-    ("SEM(10, 0.9", ["'=SEM(10, 0.9'", "parentheses do not match"]),
+    ("SEM(10, 0.9", ["'=SEM(10, 0.9'", "the '(' at character 5 is never closed"]),
+    ("SEM(10; 0.9", ["'=SEM(10; 0.9'", "the '(' at character 5 is never closed"]),  # shown as typed
+    ("SEM(10, 0.9))", ["'=SEM(10, 0.9))'", "the ')' at character 14 closes no '('"]),  # counted in the formula shown
     ("1+*2", ["'=1+*2'", "stops at character"]),
 ])
 def test_eval_of_an_unreadable_formula_is_one_line_with_the_formula(formula, words, capsys):
@@ -71,8 +73,10 @@ def test_eval_of_a_misspelt_name_suggests_both_families(capsys):
 
 def test_file_formulas_with_semicolons_get_a_hint_not_a_rewrite():
     # Inside a file ';' is never an argument separator (ECMA-376 Part 1, 18.17), so it is not rewritten there.
-    with pytest.raises(FormulaSyntaxError, match="files store ',' between arguments"):
+    with pytest.raises(FormulaSyntaxError, match="the ';' at character 7 is not an argument separator in a file"):
         compile_formula("SEM(A1;0.9)", 1, 2)
+    with pytest.raises(FormulaSyntaxError, match="character 15"):
+        compile_formula("=TRUE_SCORE(A1;25;0.8)", 1, 2)
 
 
 def test_typed_separators_leave_strings_sheet_names_and_arrays_alone():
@@ -93,3 +97,14 @@ def test_true_score_cells_recalculate(tmp_path):
         got = {c.ref: c.value for c in iter_cells(pkg.sheet_xml("Scores"), pkg.shared_strings)}
     assert got["B1"] == pytest.approx(127.0, rel=1e-14)  # Kelley (1947): .9 * 130 + .1 * 100
     assert got["C1"] == pytest.approx(call("TRUE_SCORE_CI", 130, 100, 15, 0.9, "lower"), rel=1e-14)
+
+
+def test_recalc_names_the_close_functions_of_an_unknown_one(tmp_path):
+    # Before: "SME is not a function trueband or the formula engine knows", with no suggestion (check had one).
+    rows = [gb.row_xml(r, [gb.cell_xml(f"A{r}", 10 + r), gb.cell_xml(f"B{r}", formula=f"SME(A{r},0.9)")])
+            for r in (1, 2, 3)]
+    src = gb.handmade_package(tmp_path / "typo.xlsx", [("Scores", gb.sheet_part(rows))])
+    report = recalculate(src, tmp_path / "typo.out.xlsx")
+    assert [(e.sheet, e.cell) for e in report.errors] == [("Scores", "B1"), ("Scores", "B2"), ("Scores", "B3")]
+    assert {e.code for e in report.errors} == {"#NAME?"}
+    assert all("(did you mean SEM or SUM?)" in e.message for e in report.errors)

@@ -231,3 +231,26 @@ def test_many_values_outside_the_scale_are_listed_then_counted(tmp_path):
     assert outside[-1].endswith(f"{zeros - 25} more values outside the item scale like those above (not listed)")
     first = next((i, j) for i, r in enumerate(rows) for j, v in enumerate(r[2:]) if v == 0)
     assert f"cell {'CDEFG'[first[1]]}{first[0] + 2} " in outside[0]  # listed from the top of the sheet down
+
+
+def test_the_hired_codings_named_in_messages_are_the_ones_read():
+    # The words shown on Setup, in the study and in messages must be exactly the codings understood.
+    from trueband.bridge.study_setup import HIRED_CODINGS, NO_CODES, YES_CODES, hired_code
+
+    pairs = [p.strip() for p in HIRED_CODINGS.replace(" or ", ", ").split(",")]
+    named = set()
+    for pair in pairs:
+        yes, no = pair.split("/")
+        assert hired_code(yes) is True and hired_code(no.upper()) is False, pair
+        named |= {yes.casefold(), no.casefold()}
+    assert named == {c for c in YES_CODES | NO_CODES if not c.endswith(".0")}
+
+
+def test_a_numeric_duplicate_id_is_named_as_its_cell_shows_it(tmp_path, capsys):
+    # Before: "the id 7.0 appears 3 times" for cells showing 7 (numbers are read as floats).
+    header, rows = small_table(n=30)
+    rows[4][0], rows[5][0], rows[6][0] = 7, 7.0, " 7"
+    book = write_book(tmp_path / "d.xlsx", header, rows, SETUP)
+    assert cli.main(["study", str(book), "-o", str(tmp_path / "s.xlsx")]) == cli.EXIT_OK
+    (line,) = [x for x in capsys.readouterr().err.splitlines() if "id column" in x]
+    assert "cells A6, A7, A8" in line and "the id '7' appears 3 times" in line
