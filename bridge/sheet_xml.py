@@ -77,6 +77,7 @@ __all__ = [
     "odd_part",
     "remove_cells",
     "merged_ranges",
+    "range_box",
 ]
 
 #: Error values a cell can hold.
@@ -274,17 +275,25 @@ def _odd_outside(xml: bytes, start: int, end: int) -> str | None:
     return None
 
 
+def _odd_encoding(head: bytes) -> tuple[str | None, int]:
+    """(why the part is not UTF-8, or None; where its content starts after the XML declaration)."""
+    if head[:2] in (b"\xff\xfe", b"\xfe\xff") or b"\x00" in head[:64]:
+        return "it is not UTF-8", 0
+    decl = _XML_DECL.match(head)
+    if not decl:
+        return None, 0
+    enc = _DECL_ENCODING.search(decl.group(0))
+    if enc and enc.group(1).lower() not in (b"utf-8", b"utf8"):
+        return f"it is encoded as {enc.group(1).decode('ascii')}", 0
+    return None, decl.end()
+
+
 def _odd_head(xml: bytes, start: int) -> str | None:
     """The scan of what comes before the cells: encoding, XML declaration, root tag, sheet properties."""
-    head = xml[:start]
-    if head[:2] in (b"\xff\xfe", b"\xfe\xff") or b"\x00" in head[:64]:
-        return "it is not UTF-8"
-    decl = _XML_DECL.match(head)
-    if decl:
-        enc = _DECL_ENCODING.search(decl.group(0))
-        if enc and enc.group(1).lower() not in (b"utf-8", b"utf8"):
-            return f"it is encoded as {enc.group(1).decode('ascii')}"
-        head = head[decl.end():]
+    why, after = _odd_encoding(xml[:start])
+    if why is not None:
+        return why
+    head = xml[after:start]
     root = _ROOT.search(head)
     if root is not None:
         tag_end = head.find(b">", root.end())
@@ -299,16 +308,8 @@ def _odd_head(xml: bytes, start: int) -> str | None:
 def odd_part(xml: bytes) -> bool:
     """The pre-scan for any other XML part read with regular expressions (the shared strings): True when
     the part may hold a form they do not take, or is not UTF-8."""
-    head = xml[:256]
-    if head[:2] in (b"\xff\xfe", b"\xfe\xff") or b"\x00" in head[:64]:
-        return True
-    decl = _XML_DECL.match(head)
-    if decl:
-        enc = _DECL_ENCODING.search(decl.group(0))
-        if enc and enc.group(1).lower() not in (b"utf-8", b"utf8"):
-            return True
-        xml = xml[decl.end():]
-    return _odd(xml)
+    why, after = _odd_encoding(xml[:256])
+    return why is not None or _odd(xml[after:])
 
 
 def unusual_form(xml: bytes) -> str | None:
@@ -353,11 +354,6 @@ def _column_of(ref: str) -> int:
 def normal_form(xml: bytes) -> bytes:
     """The part itself when it is in the usual form, else :func:`parsed_form` of it."""
     return xml if unusual_form(xml) is None else parsed_form(xml)
-
-
-_TEXT_OUT = {ord("&"): "&amp;", ord("<"): "&lt;", ord(">"): "&gt;", ord("\r"): "_x000D_"}
-_ATTR_OUT = {ord("&"): "&amp;", ord("<"): "&lt;", ord(">"): "&gt;", ord('"'): "&quot;", ord("\t"): "&#9;",
-             ord("\n"): "&#10;", ord("\r"): "&#13;"}
 
 
 def parsed_form(xml: bytes) -> bytes:
@@ -738,6 +734,10 @@ def used_range(xml: bytes, shared_strings: Sequence[str] = ()) -> tuple[int, int
 
 _TEXT_ESCAPES = {ord("&"): "&amp;", ord("<"): "&lt;", ord(">"): "&gt;"}
 _ATTR_ESCAPES = {**_TEXT_ESCAPES, ord('"'): "&quot;"}
+# what parsed_form writes: also a carriage return in text (as the format escapes it) and whitespace in
+# attribute values (as character references, which attribute-value normalisation would otherwise turn to spaces)
+_TEXT_OUT = {**_TEXT_ESCAPES, ord("\r"): "_x000D_"}
+_ATTR_OUT = {**_ATTR_ESCAPES, ord("\t"): "&#9;", ord("\n"): "&#10;", ord("\r"): "&#13;"}
 _CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]|_(?=x[0-9A-Fa-f]{4}_)")
 
 
@@ -1305,16 +1305,26 @@ def remove_cells(xml: bytes, refs, *, empty_rows=()) -> bytes:
     return xml
 
 
+def range_box(text: str) -> tuple[int, int, int, int]:
+    """(first row, first column, last row, last column) of ``A1`` or ``A1:C9`` (either corner first);
+    ``ValueError`` for anything else.
+
+    >>> range_box("C9:A1")
+    (1, 1, 9, 3)
+    """
+    a, _, b = text.partition(":")
+    (r1, c1), (r2, c2) = split_ref(a), split_ref(b or a)
+    return min(r1, r2), min(c1, c2), max(r1, r2), max(c1, c2)
+
+
 def merged_ranges(xml: bytes) -> list[tuple[int, int, int, int]]:
     """(first row, first column, last row, last column) of each merged range (``<mergeCell ref>``)."""
     out = []
     for m in _MERGE_CELL.finditer(normal_form(xml)):
-        a, _, b = m.group(1).decode("ascii").partition(":")
         try:
-            (r1, c1), (r2, c2) = split_ref(a), split_ref(b or a)
+            out.append(range_box(m.group(1).decode("ascii")))
         except ValueError:
             continue
-        out.append((min(r1, r2), min(c1, c2), max(r1, r2), max(c1, c2)))
     return out
 
 

@@ -211,19 +211,14 @@ def _areas_in(text: str, sheet: str) -> list[tuple[int, int, int, int]]:
 def kept_areas(pkg: WorkbookPackage, info, xml: bytes) -> list[tuple[int, int, int, int]]:
     """Areas of a sheet that belong to something other than formulas: its tables and filter, chart series,
     defined names. A notice placed there would join a table or a chart."""
-    areas = []
-    for m in _REF_ATTR.finditer(xml):
-        a, _, b = m.group(1).decode("ascii").partition(":")
-        (r1, c1), (r2, c2) = sheet_xml.split_ref(a), sheet_xml.split_ref(b or a)
-        areas.append((r1, c1, r2, c2))
+    refs = [m.group(1) for m in _REF_ATTR.finditer(xml)]
     for rel in pkg.relationships(info.part):
         part = rel.get("part")
         if part and rel.get("Type", "").endswith("/table") and part in pkg:
             m = _REF_ATTR.search(pkg.read(part))
             if m:
-                a, _, b = m.group(1).decode("ascii").partition(":")
-                (r1, c1), (r2, c2) = sheet_xml.split_ref(a), sheet_xml.split_ref(b or a)
-                areas.append((r1, c1, r2, c2))
+                refs.append(m.group(1))
+    areas = [sheet_xml.range_box(ref.decode("ascii")) for ref in refs]  # the pattern takes only A1 or A1:B9
     for name in pkg.entry_names:
         if name.startswith("xl/charts/chart") and name.endswith(".xml"):
             for m in _CHART_FORMULA.finditer(pkg.read(name)):
