@@ -35,7 +35,7 @@ from typing import Callable
 import numpy as np
 from formulas.functions import XlError
 
-from . import sheet_xml
+from . import sheet_xml, values_mode
 from .column_eval import (EMPTY, CellProblem, VectorUnsupported, error_value, evaluate_array_formula, evaluate_cell,
                           evaluate_run, registered_name)
 from .formula_graph import (MAX_ROW, Compiled, FormulaGraph, FormulaSyntaxError, KeyTemplate, Node, Ref, Run,
@@ -794,11 +794,6 @@ def _changes(model: WorkbookModel, updates: dict[str, dict[bytes, object]]):
 
 # ---------------------------------------------------------------- the entry point
 
-def _values_mode():
-    from . import values_mode
-    return values_mode
-
-
 def recalculate(src, dst=None, *, in_place: bool = False, backup: bool = False, all_formulas: bool = False,
                 values: bool = False, progress: Callable[[str, float], None] | None = None,
                 overwrite: bool = False) -> RecalcReport:
@@ -848,14 +843,13 @@ def recalculate(src, dst=None, *, in_place: bool = False, backup: bool = False, 
         model = load_model(package, progress)
         updates, errors, cycles, evaluated, vectorised = evaluate_model(model, all_formulas=all_formulas,
                                                                         progress=progress)
-        inputs = _values_mode().frozen_inputs(model.runs, model.store, _uses_registered, _cell_value_for_xml) \
-            if values else ()
+        if values:  # the inputs are read from the store before it is freed
+            inputs = values_mode.frozen_inputs(model.runs, model.store, _uses_registered, _cell_value_for_xml)
         model.store = None  # the values are in ``updates`` now; free them before the sheets are patched
         model.graph = None
         changes = _changes(model, updates)
         missing: list[str] = []
         if values:
-            values_mode = _values_mode()
             values_mode.replace_with_values(model.package, changes, inputs=inputs,
                                             is_read=values_mode.reader_of(model.runs),
                                             unplaced=missing)  # the values are in the patched sheets

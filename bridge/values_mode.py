@@ -528,7 +528,7 @@ def _remove_sheet(pkg: WorkbookPackage, changes: PackageChanges, info) -> None:
         changes.delete(own_rels)
     wb = changes.current(pkg, pkg.workbook_part)
     # either quote, any prefix, whitespace in the tag: the file may have been saved by another app
-    wb, n = re.subn(rb'<(?:[\w.-]+:)?sheet\s[^>]*?\bname\s*=\s*(["\'])' + re.escape(_xml_attr(FORMULA_SHEET))
+    wb, n = re.subn(rb'<(?:[\w.-]+:)?sheet\s[^>]*?\bname\s*=\s*(["\'])' + re.escape(FORMULA_SHEET.encode())
                     + rb'\1[^>]*?/>', b"", wb, count=1)
     if n != 1 or any(el.get("name") == FORMULA_SHEET for el in _small_xml(pkg, pkg.workbook_part, wb).iter()
                      if el.tag.rsplit("}", 1)[-1] == "sheet"):
@@ -549,10 +549,6 @@ def _remove_sheet(pkg: WorkbookPackage, changes: PackageChanges, info) -> None:
 
 _LOCAL_NAME = re.compile(rb'(<(?:[\w.-]+:)?definedName\b[^>]*?\blocalSheetId\s*=\s*["\'])([0-9]+)'
                          rb'(["\'][^>]*>.*?</(?:[\w.-]+:)?definedName\s*>)', re.S)
-
-
-def _xml_attr(text: str) -> bytes:
-    return text.replace("&", "&amp;").replace("<", "&lt;").encode("utf-8")
 
 
 def _renumber_local_names(wb: bytes, removed: int) -> bytes:
