@@ -545,11 +545,7 @@ class _Builder:
         data_q = quote(d.sheet)
         id_col = d.columns.get("id")
         grp_col = d.columns.get("group")
-        hired_codes = None
-        if d.hired is not None:
-            from .study_setup import hired_code
-
-            hired_codes = [hired_code(row[d.columns["hired"]]) for row in d.rows]
+        hired_codes = d.hired_codes
         if d.items is not None:
             a, b = self.data_col(d.item_columns[0]), self.data_col(d.item_columns[-1])
             if d.reverse_items:  # the scores after reverse keying
@@ -1351,15 +1347,13 @@ class _CopyStyles(Mapping):
         self.formats, self.style_of = formats, style_of
 
     def __getitem__(self, key):
-        r, c = key
-        return self.style_of[self.formats[(r - 2, c)]]
+        return self.style_of[self.formats[key]]
 
     def __contains__(self, key):
-        r, c = key
-        return (r - 2, c) in self.formats
+        return key in self.formats
 
     def __iter__(self):
-        return ((i + 2, c) for i, c in self.formats)
+        return iter(self.formats)
 
     def __len__(self):
         return len(self.formats)

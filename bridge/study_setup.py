@@ -171,10 +171,11 @@ class StudyData:
     criterion: np.ndarray | None
     retest: np.ndarray | None
     hired: np.ndarray | None       # bool, or None when no hired column (an unreadable value counts False)
+    hired_codes: list | None = None  # each row's reading of the hired cell: True, False, or None (blank, unreadable)
     notes: list[str] = dataclasses.field(default_factory=list)
     problems: list[str] = dataclasses.field(default_factory=list)   # one line per doubtful cell
     raw_header: list = dataclasses.field(default_factory=list)      # row 1 as written, for the copy
-    formats: dict = dataclasses.field(default_factory=dict)         # (row index, col) -> number format
+    formats: dict = dataclasses.field(default_factory=dict)         # (sheet row, 0-based col) -> number format
     groups_raw: list = dataclasses.field(default_factory=list)      # the group cells as written
     group_tally: Any = None                                         # funcs.impact.GroupTally of the groups
     reverse_items: list[int] = dataclasses.field(default_factory=list)  # 0-based positions among the items
@@ -451,8 +452,6 @@ def _numeric(rows, col: int, setting: str, sheet: str, header) -> np.ndarray:
     return out
 
 
-
-
 def hired_code(cell) -> bool | None:
     """True / False for a yes / no coding of the hired column, None for a blank or anything else."""
     if isinstance(cell, bool):
@@ -464,20 +463,22 @@ def hired_code(cell) -> bool | None:
     return True if key in YES_CODES else False if key in NO_CODES else None
 
 
-def _flags(rows, col: int, sheet: str, header) -> tuple[np.ndarray, list[str]]:
-    """The hired flags (a blank is not hired) and one line per value that is no yes/no coding."""
+def _flags(rows, col: int, sheet: str, header) -> tuple[np.ndarray, list, list[str]]:
+    """The hired flags (a blank is not hired), each cell's :func:`hired_code`, and one line per value that is
+    no yes/no coding."""
     out = np.zeros(len(rows), dtype=bool)
-    bad = []
+    codes, bad = [], []
     for i, row in enumerate(rows):
         cell = row[col] if col < len(row) else None
         code = hired_code(cell)
+        codes.append(code)
         if code:
             out[i] = True
         elif code is None and _cell_text(cell) is not None:
             bad.append(f"sheet '{sheet}', cell {get_column_letter(col + 1)}{i + 2} (column {header[col]!r}, hired "
                        f"column): {cell!r} is not a yes/no coding ({HIRED_CODINGS}); the person is "
                        f"not counted as hired")
-    return out, bad
+    return out, codes, bad
 
 
 def _reverse_items(setup: StudySetup, item_cols, index, dupes, header, sheet: str) -> list[int]:
@@ -608,8 +609,8 @@ def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None
         raise SetupError(f"sheet '{sheet}' has a header row but no data rows below it")
     data = _check(setup, path, sheet, header, rows)
     data.raw_header = list(grid[0][:width])
-    # the copy's rows start at row 2 as the source's do: (source row - 2, column - 1)
-    data.formats = {(r - 2, c - 1): f for (r, c), f in formats.items() if 2 <= r <= len(rows) + 1 and c <= width}
+    # the copy's rows stand in the same sheet rows as the source's (from row 2)
+    data.formats = {(r, c - 1): f for (r, c), f in formats.items() if 2 <= r <= len(rows) + 1 and c <= width}
     _note_uncached(data, uncached, width)
     return data
 
@@ -676,7 +677,8 @@ def _check(setup: StudySetup, path: Path, sheet: str, header, rows) -> StudyData
     ratings = matrix(rating_cols, "rating columns") if rating_cols else None
     criterion = _numeric(rows, columns["criterion"], "criterion column", sheet, header) if "criterion" in columns else None
     retest = _numeric(rows, columns["retest"], "retest column", sheet, header) if "retest" in columns else None
-    hired, hired_problems = _flags(rows, columns["hired"], sheet, header) if "hired" in columns else (None, [])
+    hired, hired_codes, hired_problems = (_flags(rows, columns["hired"], sheet, header) if "hired" in columns
+                                          else (None, None, []))
     ids = [row[columns["id"]] for row in rows] if "id" in columns else list(range(1, len(rows) + 1))
     raw_groups = [row[columns["group"]] for row in rows] if "group" in columns else [None] * len(rows)
     from trueband.funcs.impact import tally_groups
@@ -690,7 +692,7 @@ def _check(setup: StudySetup, path: Path, sheet: str, header, rows) -> StudyData
     data = StudyData(setup=setup, path=path, sheet=sheet, header=list(header), rows=rows, columns=columns,
                      item_columns=item_cols, rating_columns=rating_cols, ids=ids, groups=groups, items=items,
                      total=total, ratings=ratings, criterion=criterion, retest=retest, hired=hired,
-                     groups_raw=raw_groups, group_tally=tally, raw_items=items)
+                     hired_codes=hired_codes, groups_raw=raw_groups, group_tally=tally, raw_items=items)
     if items is not None:
         _item_scale(data)
         _report(data, "values outside the item scale", *_outside_scale(data))
