@@ -100,7 +100,6 @@ def unknown_function(name: str) -> CellProblem:
                                        f"{did_you_mean(name)}")
 
 
-
 class VectorUnsupported(Exception):
     """The run cannot be evaluated as arrays (the caller evaluates its cells one by one)."""
 

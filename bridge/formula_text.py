@@ -204,7 +204,7 @@ def call_findings(tree) -> tuple[list[str], list[str]]:
             continue
         spec = REGISTRY.get(normalize_name(node.name))
         if spec is None:
-            if node.name not in BUILTIN_NAMES and node.name + did_you_mean(node.name) not in unknown:
+            if node.name not in BUILTIN_NAMES and not any(u.split(" ", 1)[0] == node.name for u in unknown):
                 unknown.append(node.name + did_you_mean(node.name))
             continue
         n = len(node.args)

@@ -215,10 +215,8 @@ class SpreadsheetFunction:
         """``self(*args)`` for positional arguments, with less work per call (a live spreadsheet cell
         calls this once per recomputation).
 
-        The same binding, conversion, defaults, errors and result check as :meth:`__call__`; the
-        per-argument steps are looked up once, and numpy's error state is set only around a body
-        that is not plain scalar Python (a NaN or infinity from a scalar body is refused by the
-        result check either way).
+        The same binding, conversion, defaults, errors, numpy error state and result check as
+        :meth:`__call__`; the per-argument steps are looked up once.
 
         >>> REGISTRY["SEM"].cell_call((10, 0.75))
         5.0

@@ -671,9 +671,7 @@ def item_standard_deviation(items: Range, item: int) -> float:
     1.707825
     """
     x, j = _item_and_rows(items, item, min_people=2, min_items=1)
-    col = x[:, j]
-    dev = col - col.mean()  # two passes: centre, then square
-    return float(np.sqrt(dev @ dev / (col.size - 1)))
+    return float(np.std(x[:, j], ddof=1))
 
 
 @spreadsheet("ITEM_TOTAL", returns="correlation",

@@ -41,6 +41,12 @@ _ERRORS = {code: _error_value(code) for code in _CALC_ERRORS}
 _VALUE_ERROR = _ERRORS["#VALUE!"]
 
 
+def _cell_value(value):
+    """A result as Calc takes it: a logical result as 1/0 (Calc shows a Python True as 0), a whole number as a
+    double, text and doubles as they are."""
+    return float(value) if isinstance(value, (bool, int)) else value
+
+
 def _report(message):
     try:
         print("trueband add-in: " + message, file=sys.stderr)
@@ -85,8 +91,7 @@ class _Full:
                 value = fast(args)
             except error_type as exc:
                 return errors.get(exc.code, _VALUE_ERROR)
-            # a logical result as 1/0 (Calc shows a Python True as 0), a whole number as a double
-            return float(value) if isinstance(value, (bool, int)) else value
+            return _cell_value(value)
 
         return call
 
@@ -160,8 +165,7 @@ class _Thin:
                 return _VALUE_ERROR
             self.reported = False
             if "value" in reply:
-                value = reply["value"]
-                return float(value) if isinstance(value, (bool, int)) else value
+                return _cell_value(reply["value"])
             code = (reply.get("error") or {}).get("code")
             return _ERRORS.get(code, _VALUE_ERROR)
 
