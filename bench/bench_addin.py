@@ -24,7 +24,7 @@ import timeit
 import zipfile
 from pathlib import Path
 
-from trueband.bridge import calc_addin
+from trueband.bridge.addin import extension as calc_addin
 from trueband.funcs.registry import REGISTRY, call
 
 HERE = Path(__file__).resolve().parent
@@ -83,8 +83,8 @@ def main(argv=None) -> int:
                         help="the thin add-in, calling a trueband serve started here (try --cells 1000)")
     args = parser.parse_args(argv)
     if args.thin:
-        from trueband.bridge.cmd_serve import serving_in_background
-        from trueband.bridge.http_app import create_app
+        from trueband.bridge.http.server import serving_in_background
+        from trueband.bridge.http.app import create_app
 
         with serving_in_background(create_app()) as url:
             t = calc_times(args.cells, args.repeat, mode="thin", server_url=url)

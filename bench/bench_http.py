@@ -40,7 +40,7 @@ import time
 import numpy as np
 from flask import Response
 
-from trueband.bridge.http_app import DEFAULT_LIMITS, create_app
+from trueband.bridge.http.app import DEFAULT_LIMITS, create_app
 from trueband.funcs import REGISTRY, call
 from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import call_column
@@ -303,7 +303,7 @@ def _swallow(fn, args):
 
 def serve_forever() -> int:
     """The server side, run in its own process so that client and server do not share one interpreter lock."""
-    from trueband.bridge.cmd_serve import make_server
+    from trueband.bridge.http.server import make_server
 
     logging.getLogger("waitress.queue").setLevel(logging.ERROR)  # queueing is expected under load
     server = make_server(bench_app(), "127.0.0.1", 0, threads=SERVER_THREADS)

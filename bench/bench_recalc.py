@@ -52,9 +52,9 @@ def io_floor(src: Path, dst: Path) -> float:
     """(a): read, compute with numpy, patch and write; returns seconds (in this process)."""
     import gc
 
-    from trueband.bridge import sheet_xml
-    from trueband.bridge.safe_write import PackageChanges, save_workbook
-    from trueband.bridge.xlsx_package import open_workbook_package
+    from trueband.bridge.workbook import sheet_xml
+    from trueband.bridge.workbook.save import PackageChanges, save_workbook
+    from trueband.bridge.workbook.package import open_workbook_package
 
     gc.disable()  # as recalc does: millions of short-lived objects, no cycles
     started = time.perf_counter()

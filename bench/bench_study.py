@@ -37,7 +37,7 @@ def write_data(path: Path, n: int):
     """The demo generator at size n, written in streaming mode (not timed)."""
     from openpyxl import Workbook
 
-    from trueband.bridge.demo_data import make_demo
+    from trueband.bridge.study.demo import make_demo
 
     demo = make_demo(n)
     scores = demo.items.sum(axis=1)
@@ -71,7 +71,7 @@ def copy_floor(src: Path, dst: Path) -> float:
 
 
 def one(n: int) -> dict:
-    from trueband.bridge.study_build import make_study
+    from trueband.bridge.study.build import make_study
 
     with tempfile.TemporaryDirectory() as tmp:
         tmp = Path(tmp)

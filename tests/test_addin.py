@@ -24,9 +24,9 @@ from openpyxl import load_workbook
 from openpyxl.formula import Tokenizer
 from openpyxl.formula.tokenizer import Token
 
-from trueband.bridge import calc_addin
-from trueband.bridge.calc_binding import bind_for_calc, bind_sheet_xml
-from trueband.bridge.formula_functions import evaluate_expression
+from trueband.bridge.addin import extension as calc_addin
+from trueband.bridge.formulas.calc_binding import bind_for_calc, bind_sheet_xml
+from trueband.bridge.formulas.library import evaluate_expression
 from trueband.funcs import call
 from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import REGISTRY, normalize_name
@@ -142,7 +142,7 @@ def test_the_extension_package(tmp_path):
 
 
 def test_a_function_added_to_the_registry_is_in_the_next_addin(component):
-    from trueband.bridge import calc_binding
+    from trueband.bridge.formulas import calc_binding
     from trueband.funcs.registry import spreadsheet
 
     def halved_difference(a: float, b: float, divisor: float = 2.0) -> float:
@@ -334,8 +334,8 @@ def test_component_puts_the_environment_first_with_its_pth_files(component, tmp_
 
 
 def test_thin_component_agrees_with_call_through_the_server(component):
-    from trueband.bridge.cmd_serve import serving_in_background
-    from trueband.bridge.http_app import create_app
+    from trueband.bridge.http.server import serving_in_background
+    from trueband.bridge.http.app import create_app
 
     with serving_in_background(create_app()) as url:
         ns = component(mode="thin", server_url=url)
@@ -388,8 +388,8 @@ def test_thin_component_does_not_hold_calc_up_when_the_server_does_not_answer(co
 
 
 def test_thin_component_sends_the_access_token_from_the_environment(component, monkeypatch, capsys):
-    from trueband.bridge.cmd_serve import serving_in_background
-    from trueband.bridge.http_app import create_app
+    from trueband.bridge.http.server import serving_in_background
+    from trueband.bridge.http.app import create_app
 
     with serving_in_background(create_app({"TOKEN": "s3cret-for-tests"})) as url:
         monkeypatch.delenv("TRUEBAND_TOKEN", raising=False)
@@ -420,7 +420,7 @@ def test_prefixed_formulas_evaluate_as_the_plain_ones(formula):
 
 
 def test_sheet_xml_and_templates_carry_the_prefix(tmp_path):
-    from trueband.bridge.templates import impact_template, scoring_template
+    from trueband.bridge.study.templates import impact_template, scoring_template
 
     assert bind_sheet_xml('<f t="array" ref="A1">SEM(1,0.5)</f>') == '<f t="array" ref="A1">_xludf.SEM(1,0.5)</f>'
     for book in (scoring_template(tmp_path / "s.xlsx", n_items=3, capacity=3), impact_template(tmp_path / "i.xlsx")):

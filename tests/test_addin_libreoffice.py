@@ -25,9 +25,9 @@ import pytest
 
 from openpyxl import load_workbook
 
-from trueband.bridge import calc_addin
-from trueband.bridge.recalc import recalculate
-from trueband.bridge.study_build import ANALYSIS_SHEETS
+from trueband.bridge.addin import extension as calc_addin
+from trueband.bridge.engine.recalc import recalculate
+from trueband.bridge.study.build import ANALYSIS_SHEETS
 from trueband.funcs import call
 from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import REGISTRY, normalize_name
@@ -214,8 +214,8 @@ def test_blank_missing_extra_and_logical_arguments(calc):
 
 def test_thin_mode_cells_agree_with_call_through_trueband_serve(soffice, tmp_path):
     """Thin mode: LibreOffice's Python sends each call to a running server (standard library only)."""
-    from trueband.bridge.cmd_serve import serving_in_background
-    from trueband.bridge.http_app import create_app
+    from trueband.bridge.http.server import serving_in_background
+    from trueband.bridge.http.app import create_app
 
     with serving_in_background(create_app()) as url:
         run = _runner(soffice, tmp_path, mode="thin", server_url=url)
@@ -277,7 +277,7 @@ def _compare_with_recalc(saved: Path, tmp: Path):
 
 
 def test_template_computes_live_and_calc_saved_file_recalculates(calc, tmp_path):
-    from trueband.bridge.templates import scoring_template
+    from trueband.bridge.study.templates import scoring_template
 
     responses = [[1, 1, 1, 1], [1, 1, 1, 0], [0, 0, 1, 0], [1, 1, 0, 1], [0, 0, 0, 0], [1, 0, 1, 1]]
     book = scoring_template(tmp_path / "scoring.xlsx", n_items=4, capacity=6, ids=list("abcdef"),
@@ -298,7 +298,7 @@ def test_template_computes_live_and_calc_saved_file_recalculates(calc, tmp_path)
 
 
 def test_impact_template_computes_live_and_calc_saved_file_recalculates(calc, tmp_path):
-    from trueband.bridge.templates import IMPACT_LAYOUT, impact_template
+    from trueband.bridge.study.templates import IMPACT_LAYOUT, impact_template
 
     groups = [("Group A", 120, 48), ("Group B", 80, 22), ("Group C", 40, 15)]  # invented counts
     book = recalculate(impact_template(tmp_path / "impact.xlsx", groups=groups),
@@ -315,9 +315,9 @@ def test_impact_template_computes_live_and_calc_saved_file_recalculates(calc, tm
 
 
 def test_demo_study_computes_live_and_calc_saved_file_recalculates(calc, tmp_path):
-    from trueband.bridge.demo_data import make_demo
-    from trueband.bridge.study_build import make_study
-    from trueband.bridge.templates import study_data_workbook
+    from trueband.bridge.study.demo import make_demo
+    from trueband.bridge.study.build import make_study
+    from trueband.bridge.study.templates import study_data_workbook
 
     data = study_data_workbook(tmp_path / "data.xlsx", make_demo(), cut=24)
     study = make_study(data, tmp_path / "study.xlsx").path

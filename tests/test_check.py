@@ -10,8 +10,8 @@ from __future__ import annotations
 import golden_books as gb
 import recalc_books as rb
 from trueband.bridge import cli
-from trueband.bridge.formula_text import suggestions
-from trueband.bridge.recalc import check_workbook
+from trueband.bridge.formulas.text import suggestions
+from trueband.bridge.engine.recalc import check_workbook
 
 
 def test_findings_of_the_check_book(tmp_path):

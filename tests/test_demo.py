@@ -13,8 +13,8 @@ import pytest
 from openpyxl import load_workbook
 
 from trueband.bridge import cli
-from trueband.bridge.cmd_study import DEMO_FILES
-from trueband.bridge.demo_data import ORGANISATION, make_demo
+from trueband.bridge.cli.study import DEMO_FILES
+from trueband.bridge.study.demo import ORGANISATION, make_demo
 
 pingouin = pytest.importorskip("pingouin")
 

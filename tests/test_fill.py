@@ -17,10 +17,10 @@ import pytest
 from scipy import stats
 
 import golden_books as gb
-from trueband.bridge import cmd_fill as cf
+from trueband.bridge.cli import fill as cf
 from trueband.bridge.cli import EXIT_FAILED, EXIT_OK, CommandError, main
-from trueband.bridge.sheet_xml import iter_cells
-from trueband.bridge.xlsx_package import open_workbook_package
+from trueband.bridge.workbook.sheet_xml import iter_cells
+from trueband.bridge.workbook.package import open_workbook_package
 
 SD, RELIABILITY = 4.2, 0.88  # Settings!B1 and B2 of the features book
 

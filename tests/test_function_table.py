@@ -16,10 +16,10 @@ import pytest
 
 import formulas
 from formulas.functions import SUBMODULES
-from trueband.bridge import formula_functions as ff
-from trueband.bridge.column_eval import _RANGE_AGGREGATES, _range_aggregate
-from trueband.bridge.formula_graph import compile_formula
-from trueband.bridge.recalc import CellStore
+from trueband.bridge.formulas import library as ff
+from trueband.bridge.engine.evaluate import _RANGE_AGGREGATES, _range_aggregate
+from trueband.bridge.formulas.compile import compile_formula
+from trueband.bridge.engine.recalc import CellStore
 from trueband.funcs.registry import REGISTRY
 
 
@@ -60,7 +60,7 @@ def test_a_workbook_without_statistics_functions_does_not_load_scipy_stats(tmp_p
     ws["C1"] = "=AVERAGE(A1:A5)+STDEV(A1:A5)"  # number-only ranges: computed without the statistics module
     wb.save(src)
     code = ("import sys\n"
-            "from trueband.bridge.recalc import recalculate\n"
+            "from trueband.bridge.engine.recalc import recalculate\n"
             f"r = recalculate({str(src)!r}, {str(tmp_path / 'out.xlsx')!r})\n"
             "assert r.ok, r.errors\n"
             "print(sorted(m for m in sys.modules if m in ('scipy.stats', 'formulas.functions.stat')))\n")

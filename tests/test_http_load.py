@@ -13,8 +13,8 @@ import random
 import threading
 import urllib.parse
 
-from trueband.bridge.cmd_serve import serving_in_background
-from trueband.bridge.http_app import create_app
+from trueband.bridge.http.server import serving_in_background
+from trueband.bridge.http.app import create_app
 from trueband.funcs import call, lookup
 from trueband.funcs.errors import TruebandError
 

@@ -11,8 +11,10 @@ import json
 
 import pytest
 
-from trueband.bridge import cli, cmd_serve
-from trueband.bridge.http_app import DEFAULT_LIMITS, create_app
+from trueband.bridge import cli
+
+from trueband.bridge.cli import serve as cmd_serve
+from trueband.bridge.http.app import DEFAULT_LIMITS, create_app
 from trueband.funcs import call
 
 CALL = {"function": "SEM", "args": [15, 0.91]}
@@ -117,7 +119,7 @@ def test_right_token_is_accepted(guarded):
 
 
 def test_token_is_compared_in_constant_time(guarded, monkeypatch):
-    from trueband.bridge import http_app
+    from trueband.bridge.http import app as http_app
 
     seen = []
     real = hmac.compare_digest

@@ -22,9 +22,9 @@ import subprocess
 import pytest
 
 import recalc_books as rb
-from trueband.bridge import sheet_xml
-from trueband.bridge.recalc import recalculate
-from trueband.bridge.xlsx_package import open_workbook_package
+from trueband.bridge.workbook import sheet_xml
+from trueband.bridge.engine.recalc import recalculate
+from trueband.bridge.workbook.package import open_workbook_package
 
 pytestmark = pytest.mark.libreoffice
 

@@ -18,9 +18,9 @@ import openpyxl
 import pytest
 
 import golden_books as gb
-from trueband.bridge import xlsx_package as xp
+from trueband.bridge.workbook import package as xp
 from trueband.bridge.cli import EXIT_FAILED, main
-from trueband.bridge.xlsx_package import UnusableWorkbook, WorkbookLocked, open_workbook_package
+from trueband.bridge.workbook.package import UnusableWorkbook, WorkbookLocked, open_workbook_package
 
 
 @pytest.fixture

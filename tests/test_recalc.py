@@ -26,10 +26,11 @@ from scipy import stats
 
 import golden_books as gb
 import recalc_books as rb
-from trueband.bridge import cli, sheet_xml
-from trueband.bridge.column_eval import VectorUnsupported, evaluate_cell, evaluate_run
-from trueband.bridge.recalc import load_model, recalculate
-from trueband.bridge.xlsx_package import open_workbook_package
+from trueband.bridge import cli
+from trueband.bridge.workbook import sheet_xml
+from trueband.bridge.engine.evaluate import VectorUnsupported, evaluate_cell, evaluate_run
+from trueband.bridge.engine.recalc import load_model, recalculate
+from trueband.bridge.workbook.package import open_workbook_package
 from trueband.funcs import call
 
 
@@ -325,7 +326,7 @@ def test_killed_in_place_run_leaves_the_input(forms_book):
     assert proc.returncode != 0
     assert forms_book.read_bytes() == original
     # only the writer's own temporary file can be left behind (removed by a later run once stale)
-    from trueband.bridge.safe_write import TEMP_PREFIX
+    from trueband.bridge.workbook.save import TEMP_PREFIX
     assert all(p.name.startswith(TEMP_PREFIX) for p in forms_book.parent.iterdir() if p.name != forms_book.name)
 
 
@@ -380,7 +381,7 @@ def test_alias_names_work_in_cells_and_an_existing_output_is_kept(tmp_path):
 def _runs_one_by_one(formula_cells):
     """The run finder written the plain way, a cell at a time in document order (the reference for
     recalc._formula_runs, which takes filled-down stretches a block at a time)."""
-    from trueband.bridge.formula_graph import KeyTemplate
+    from trueband.bridge.formulas.compile import KeyTemplate
 
     runs, open_runs, shared, templates = [], {}, {}, {}
     for row, col, f in formula_cells:
@@ -417,8 +418,8 @@ def _runs_one_by_one(formula_cells):
 def test_run_finder_agrees_with_the_one_by_one_reference(seed):
     import random
 
-    from trueband.bridge.recalc import _formula_runs
-    from trueband.bridge.sheet_xml import Formula
+    from trueband.bridge.engine.recalc import _formula_runs
+    from trueband.bridge.workbook.sheet_xml import Formula
 
     rnd = random.Random(seed)
     cells = []

@@ -12,8 +12,8 @@ from pathlib import Path
 import pytest
 from openpyxl.utils.formulas import FORMULAE
 
-from trueband.bridge.cmd_catalog import render_markdown
-from trueband.bridge.formula_functions import BUILTIN_NAMES
+from trueband.bridge.cli.functions import render_markdown
+from trueband.bridge.formulas.library import BUILTIN_NAMES
 from trueband.funcs import REGISTRY, catalog
 from trueband.funcs.registry import RESULT_KINDS, normalize_name
 

@@ -22,10 +22,10 @@ import openpyxl
 import pytest
 
 import golden_books as gb
-from trueband.bridge import safe_write as sw
-from trueband.bridge.safe_write import OutputRefused, PackageChanges, save_workbook
-from trueband.bridge.sheet_xml import CellUpdate, patch_sheet, unshare_formulas
-from trueband.bridge.xlsx_package import WorkbookLocked, open_workbook_package
+from trueband.bridge.workbook import save as sw
+from trueband.bridge.workbook.save import OutputRefused, PackageChanges, save_workbook
+from trueband.bridge.workbook.sheet_xml import CellUpdate, patch_sheet, unshare_formulas
+from trueband.bridge.workbook.package import WorkbookLocked, open_workbook_package
 
 
 def digest(path: Path) -> str:
@@ -167,9 +167,9 @@ def test_failed_verification_leaves_nothing(features, monkeypatch):
 
 CHILD = """
 import sys
-from trueband.bridge.xlsx_package import open_workbook_package
-from trueband.bridge.safe_write import PackageChanges, save_workbook
-from trueband.bridge.sheet_xml import CellUpdate, patch_sheet, unshare_formulas
+from trueband.bridge.workbook.package import open_workbook_package
+from trueband.bridge.workbook.save import PackageChanges, save_workbook
+from trueband.bridge.workbook.sheet_xml import CellUpdate, patch_sheet, unshare_formulas
 path, mode = sys.argv[1], sys.argv[2]
 pkg = open_workbook_package(path)
 part = pkg.sheet("Applicants").part
@@ -235,8 +235,8 @@ def test_ctrl_c_mid_write_cleans_up_and_exits_130(tmp_path):
     (tmp_path / "book").mkdir()
     forms = gb.formula_forms_book(tmp_path / "book" / "forms.xlsx")
     from trueband.bridge.cli import EXIT_INTERRUPTED
-    from trueband.bridge import values_mode
-    from trueband.bridge.safe_write import PackageChanges as PC
+    from trueband.bridge.engine import values_mode
+    from trueband.bridge.workbook.save import PackageChanges as PC
 
     with open_workbook_package(forms) as pkg:  # a values-mode file, so `trueband restore` has work to do
         changes = PC()

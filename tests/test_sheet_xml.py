@@ -14,9 +14,9 @@ import openpyxl
 import pytest
 
 import golden_books as gb
-from trueband.bridge import sheet_xml as sx
-from trueband.bridge.sheet_xml import CellUpdate, ErrorValue, NewCell, SheetXmlError, iter_cells, patch_sheet
-from trueband.bridge.xlsx_package import open_workbook_package
+from trueband.bridge.workbook import sheet_xml as sx
+from trueband.bridge.workbook.sheet_xml import CellUpdate, ErrorValue, NewCell, SheetXmlError, iter_cells, patch_sheet
+from trueband.bridge.workbook.package import open_workbook_package
 
 
 @pytest.fixture

@@ -22,9 +22,9 @@ import pytest
 from openpyxl import load_workbook
 from scipy import stats
 
-from trueband.bridge.demo_data import make_demo
-from trueband.bridge.study_build import NOT_COMPUTABLE, make_study
-from trueband.bridge.templates import study_data_workbook
+from trueband.bridge.study.demo import make_demo
+from trueband.bridge.study.build import NOT_COMPUTABLE, make_study
+from trueband.bridge.study.templates import study_data_workbook
 from trueband.funcs import call
 
 pingouin = pytest.importorskip("pingouin")

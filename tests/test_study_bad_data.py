@@ -13,7 +13,7 @@ from openpyxl import load_workbook
 
 from test_study_setup import SETUP, small_table, write_book
 from trueband.bridge import cli
-from trueband.bridge.study_build import NOT_COMPUTABLE, make_study
+from trueband.bridge.study.build import NOT_COMPUTABLE, make_study
 
 
 def build(tmp_path, header, rows, setup, name="study.xlsx"):
@@ -124,7 +124,7 @@ def test_constant_item_is_not_computable_for_its_correlation(tmp_path):
 
 
 def test_constant_item_with_the_cheap_checks_of_large_data(tmp_path, monkeypatch):
-    from trueband.bridge import study_build
+    from trueband.bridge.study import build as study_build
 
     monkeypatch.setattr(study_build, "FULL_CHECK_CELLS", 0)  # behave as with a large data set
     header, rows = small_table(n=40)
@@ -165,8 +165,8 @@ def test_cli_study_prints_headlines_and_caution(tmp_path, capsys):
 
 def test_a_headline_reason_reads_last():
     # Before: "...(Taylor–Russell): not computable: <reason> against a base rate of 0.519", the reason cut in two.
-    from trueband.bridge.cmd_study import headline_lines
-    from trueband.bridge.study_words import NOT_COMPUTABLE
+    from trueband.bridge.cli.study import headline_lines
+    from trueband.bridge.study.words import NOT_COMPUTABLE
 
     reason = NOT_COMPUTABLE + "nobody reaches the cut score"
     (line,) = [t for t in headline_lines({"taylor_russell": reason, "base_rate": 0.519}) if "Taylor" in t]

@@ -18,7 +18,7 @@ from openpyxl import Workbook, load_workbook
 
 from test_study_setup import SETUP, small_table, write_book
 from trueband.bridge import cli
-from trueband.bridge.study_build import make_study
+from trueband.bridge.study.build import make_study
 
 
 def build(tmp_path, header, rows, setup, name="study.xlsx"):
@@ -170,7 +170,7 @@ def test_many_problems_of_one_kind_are_capped(tmp_path):
 # ---------------------------------------------------------------- the copy of the data
 
 def test_copy_keeps_dates_header_text_and_formula_values(tmp_path):
-    from trueband.bridge.recalc import recalculate
+    from trueband.bridge.engine.recalc import recalculate
 
     header, rows = small_table(n=30)
     wb = Workbook()
@@ -235,7 +235,7 @@ def test_many_values_outside_the_scale_are_listed_then_counted(tmp_path):
 
 def test_the_hired_codings_named_in_messages_are_the_ones_read():
     # The words shown on Setup, in the study and in messages must be exactly the codings understood.
-    from trueband.bridge.study_setup import HIRED_CODINGS, NO_CODES, YES_CODES, hired_code
+    from trueband.bridge.study.setup import HIRED_CODINGS, NO_CODES, YES_CODES, hired_code
 
     pairs = [p.strip() for p in HIRED_CODINGS.replace(" or ", ", ").split(",")]
     named = set()

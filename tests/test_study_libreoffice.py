@@ -17,9 +17,9 @@ from pathlib import Path
 import pytest
 from openpyxl import load_workbook
 
-from trueband.bridge.demo_data import make_demo
-from trueband.bridge.study_build import ANALYSIS_SHEETS, make_study
-from trueband.bridge.templates import study_data_workbook
+from trueband.bridge.study.demo import make_demo
+from trueband.bridge.study.build import ANALYSIS_SHEETS, make_study
+from trueband.bridge.study.templates import study_data_workbook
 
 pytestmark = [pytest.mark.libreoffice, pytest.mark.slow]
 

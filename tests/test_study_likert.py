@@ -22,7 +22,7 @@ from scipy import stats
 
 from test_study_setup import refuse, write_book
 from trueband.bridge import cli
-from trueband.bridge.study_build import make_study
+from trueband.bridge.study.build import make_study
 
 pingouin = pytest.importorskip("pingouin")
 

@@ -12,8 +12,8 @@ import pytest
 from openpyxl import Workbook
 
 from trueband.bridge import cli
-from trueband.bridge.study_build import StudyError, make_study
-from trueband.bridge.study_setup import SetupError, read_study_data
+from trueband.bridge.study.build import StudyError, make_study
+from trueband.bridge.study.setup import SetupError, read_study_data
 
 
 def write_book(path: Path, header, rows, setup: dict | None = None, sheet: str = "Candidates",

@@ -13,11 +13,11 @@ import pytest
 from openpyxl import load_workbook
 from scipy import stats
 
-from trueband.bridge.recalc import recalculate
-from trueband.bridge.study_build import make_study
-from trueband.bridge.study_setup import read_study_data
-from trueband.bridge.templates import IMPACT_LAYOUT, SCORING_LAYOUT, impact_template, scoring_template, study_data_workbook
-from trueband.bridge.demo_data import make_demo
+from trueband.bridge.engine.recalc import recalculate
+from trueband.bridge.study.build import make_study
+from trueband.bridge.study.setup import read_study_data
+from trueband.bridge.study.templates import IMPACT_LAYOUT, SCORING_LAYOUT, impact_template, scoring_template, study_data_workbook
+from trueband.bridge.study.demo import make_demo
 from trueband.funcs import call
 
 pingouin = pytest.importorskip("pingouin")

@@ -14,12 +14,12 @@ import openpyxl
 import pytest
 
 import golden_books as gb
-from trueband.bridge import values_mode as vm
+from trueband.bridge.engine import values_mode as vm
 from trueband.bridge.cli import EXIT_FAILED, EXIT_OK, main
-from trueband.bridge.safe_write import PackageChanges, save_workbook
-from trueband.bridge import sheet_xml as sx
-from trueband.bridge.sheet_xml import iter_cells
-from trueband.bridge.xlsx_package import UnusableWorkbook, open_workbook_package
+from trueband.bridge.workbook.save import PackageChanges, save_workbook
+from trueband.bridge.workbook import sheet_xml as sx
+from trueband.bridge.workbook.sheet_xml import iter_cells
+from trueband.bridge.workbook.package import UnusableWorkbook, open_workbook_package
 
 REGISTERED_CELLS = {f"C{r}" for r in range(2, 10)} | {"D2", "D3"}
 
@@ -112,7 +112,7 @@ def test_a_second_values_run_adds_to_the_records(forms, tmp_path):
     out, first = values_book(forms)
     # a new registered formula typed in after the first run
     with open_workbook_package(out) as pkg:
-        from trueband.bridge.sheet_xml import NewCell, add_cells
+        from trueband.bridge.workbook.sheet_xml import NewCell, add_cells
         changes = PackageChanges()
         part = pkg.sheet("Settings").part
         changes.set(pkg, part, add_cells(pkg.read(part), {"C5": NewCell(formula="SED(4.2,0.88)", value=2.0)}))
@@ -128,7 +128,7 @@ def test_a_second_values_run_adds_to_the_records(forms, tmp_path):
 def test_restore_reports_cells_it_cannot_put_back(forms, tmp_path):
     out, _ = values_book(forms)
     with open_workbook_package(out) as pkg:  # the user typed a formula into D2 meanwhile
-        from trueband.bridge.sheet_xml import CellUpdate, patch_sheet
+        from trueband.bridge.workbook.sheet_xml import CellUpdate, patch_sheet
         changes = PackageChanges()
         part = pkg.sheet("Scores").part
         changes.set(pkg, part, patch_sheet(pkg.read(part), {"D2": CellUpdate(7.0, formula="3+4")}))
@@ -208,8 +208,8 @@ def _formulas(path, sheet):
 @pytest.fixture
 def demo_scoring(tmp_path):
     """The demo's scoring sheet (invented data), written as `trueband demo` writes it."""
-    from trueband.bridge.demo_data import make_demo
-    from trueband.bridge.templates import scoring_template
+    from trueband.bridge.study.demo import make_demo
+    from trueband.bridge.study.templates import scoring_template
 
     demo = make_demo()
     return scoring_template(tmp_path / "scoring.xlsx", ids=demo.ids, responses=demo.items.tolist(),
@@ -217,7 +217,7 @@ def demo_scoring(tmp_path):
 
 
 def _values_file(path):
-    from trueband.bridge.recalc import recalculate
+    from trueband.bridge.engine.recalc import recalculate
 
     return recalculate(path, values=True).output
 
@@ -254,7 +254,7 @@ def test_restored_shared_group_does_not_take_a_shared_index_in_use(forms, tmp_pa
     out, _ = values_book(forms)
     # an app saved the file and numbered a shared formula of its own 0, the index the recorded group had
     with open_workbook_package(out) as pkg:
-        from trueband.bridge.sheet_xml import NewCell, add_cells, patch_sheet, CellUpdate
+        from trueband.bridge.workbook.sheet_xml import NewCell, add_cells, patch_sheet, CellUpdate
         changes = PackageChanges()
         part = pkg.sheet("Scores").part
         xml = add_cells(pkg.read(part), {"G2": NewCell(value=1.0), "G3": NewCell(value=1.0)})
@@ -353,7 +353,7 @@ def _notices(path):
 def test_every_sheet_of_a_values_file_says_its_values_are_fixed(forms, tmp_path):
     # issue 10 item 2: after an input was edited in a spreadsheet app the file mixed new and frozen figures
     # without saying so; now each sheet carries a notice with the time, the fixed cells and the inputs
-    from trueband.bridge.recalc import recalculate
+    from trueband.bridge.engine.recalc import recalculate
 
     out = recalculate(forms, tmp_path / "values.xlsx", values=True).output
     notices = _notices(out)
@@ -377,7 +377,7 @@ def test_every_sheet_of_a_values_file_says_its_values_are_fixed(forms, tmp_path)
 
 
 def test_the_notice_avoids_cells_formulas_read_and_merged_cells(tmp_path):
-    from trueband.bridge.recalc import recalculate
+    from trueband.bridge.engine.recalc import recalculate
 
     title = gb.row_xml(1, ['<c r="A1" t="inlineStr"><is><t>Dispatch scores</t></is></c>'])
     data = [gb.row_xml(r, [gb.cell_xml(f"A{r}", r * 3), gb.cell_xml(f"B{r}", 0, formula=f"SEM(A{r},0.9)")])
@@ -394,7 +394,7 @@ def test_the_notice_avoids_cells_formulas_read_and_merged_cells(tmp_path):
 
 
 def test_restore_takes_the_notices_out(forms, tmp_path):
-    from trueband.bridge.recalc import recalculate
+    from trueband.bridge.engine.recalc import recalculate
 
     out = recalculate(forms, tmp_path / "values.xlsx", values=True).output
     assert main(["restore", str(out)]) == EXIT_OK
@@ -402,12 +402,12 @@ def test_restore_takes_the_notices_out(forms, tmp_path):
 
 
 def test_an_edited_notice_is_left_and_reported(forms, tmp_path, capsys):
-    from trueband.bridge.recalc import recalculate
+    from trueband.bridge.engine.recalc import recalculate
 
     out = recalculate(forms, tmp_path / "values.xlsx", values=True).output
     sheet, cell, _ = next(n for n in _notices(out) if n[0] == "Settings")
     with open_workbook_package(out) as pkg:
-        from trueband.bridge.sheet_xml import CellUpdate, patch_sheet
+        from trueband.bridge.workbook.sheet_xml import CellUpdate, patch_sheet
         changes = PackageChanges()
         part = pkg.sheet("Settings").part
         changes.set(pkg, part, patch_sheet(pkg.read(part), {cell: CellUpdate(vm.NOTICE_OPENING + " seen, K.")}))
@@ -419,7 +419,7 @@ def test_an_edited_notice_is_left_and_reported(forms, tmp_path, capsys):
 
 @pytest.mark.libreoffice
 def test_libreoffice_shows_the_notice_on_every_sheet(demo_scoring, tmp_path, soffice):
-    from trueband.bridge.templates import impact_template
+    from trueband.bridge.study.templates import impact_template
 
     impact = impact_template(tmp_path / "impact.xlsx", groups=[("Group A", 40, 20), ("Group B", 30, 9)])
     for book in (demo_scoring, impact):
@@ -450,7 +450,7 @@ def test_restore_checks_each_recorded_formula_element(forms, tmp_path, capsys):
 
 
 def test_the_notice_stays_out_of_named_areas_and_filters(tmp_path):
-    from trueband.bridge.recalc import recalculate
+    from trueband.bridge.engine.recalc import recalculate
 
     title = gb.row_xml(1, ['<c r="A1" t="inlineStr"><is><t>Dispatch scores</t></is></c>'])
     data = [gb.row_xml(r, [gb.cell_xml(f"A{r}", r * 3), gb.cell_xml(f"B{r}", 0, formula=f"SEM(A{r},0.9)")])
@@ -511,7 +511,7 @@ def test_a_sheet_without_a_safe_cell_gets_no_notice_and_the_summary_says_so(tmp_
 def test_a_hand_edited_record_does_not_break_a_second_values_run(forms, tmp_path, capsys):
     out, _ = values_book(forms)
     with open_workbook_package(out) as pkg:  # a record's cell edited by hand, and a new formula typed in
-        from trueband.bridge.sheet_xml import NewCell, add_cells
+        from trueband.bridge.workbook.sheet_xml import NewCell, add_cells
         changes = PackageChanges()
         part = pkg.sheet(vm.FORMULA_SHEET).part
         xml = pkg.read(part).replace(b"<t>D3</t>", b"<t>somewhere</t>", 1)

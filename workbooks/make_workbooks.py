@@ -11,7 +11,7 @@ import shutil
 import sys
 from pathlib import Path
 
-from trueband.bridge.cmd_study import write_demo
+from trueband.bridge.study.demo_folder import write_demo
 
 
 def main() -> int:

@@ -1,10 +1,10 @@
 """Recalculate a saved workbook offline and write the values as the cells' cached values.
 
 :func:`recalculate` reads every worksheet of the package (the package layer:
-:mod:`~trueband.bridge.xlsx_package`, :mod:`~trueband.bridge.sheet_xml`),
+:mod:`~trueband.bridge.workbook.package`, :mod:`~trueband.bridge.workbook.sheet_xml`),
 groups the formula cells into filled-down runs and links them
-(:mod:`~trueband.bridge.formula_graph`), evaluates what needs it in
-dependency order (:mod:`~trueband.bridge.column_eval`) and patches only the
+(:mod:`~trueband.bridge.formulas.compile`), evaluates what needs it in
+dependency order (:mod:`~trueband.bridge.engine.evaluate`) and patches only the
 evaluated cells into the sheet parts; every other part of the package is
 copied unchanged.
 
@@ -35,13 +35,14 @@ from typing import Callable
 import numpy as np
 from formulas.functions import XlError
 
-from . import sheet_xml, values_mode
-from .column_eval import (EMPTY, CellProblem, VectorUnsupported, error_value, evaluate_array_formula, evaluate_cell,
+from ..workbook import sheet_xml
+from . import values_mode
+from .evaluate import (EMPTY, CellProblem, VectorUnsupported, error_value, evaluate_array_formula, evaluate_cell,
                           evaluate_run, registered_name)
-from .formula_graph import (MAX_ROW, Compiled, FormulaGraph, FormulaSyntaxError, KeyTemplate, Node, Ref, Run,
+from ..formulas.compile import (MAX_ROW, Compiled, FormulaGraph, FormulaSyntaxError, KeyTemplate, Node, Ref, Run,
                             column_letters, compile_formula, split_address)
 from .values_mode import uses_registered_function
-from .xlsx_package import UnusableWorkbook, WorkbookPackage, open_workbook_package
+from ..workbook.package import UnusableWorkbook, WorkbookPackage, open_workbook_package
 
 __all__ = ["recalculate", "RecalcReport", "CellError", "WorkbookModel", "load_model", "evaluate_model",
            "check_workbook", "CheckFindings", "UnusableWorkbook"]
@@ -771,7 +772,7 @@ def _as_values(values: list) -> np.ndarray:
 
 def _changes(model: WorkbookModel, updates: dict[str, dict[bytes, object]]):
     """The package edits: each sheet with evaluated cells patched, and no forced recalculation on open."""
-    from .safe_write import PackageChanges
+    from ..workbook.save import PackageChanges
 
     changes = PackageChanges()
     pkg = model.package
@@ -830,7 +831,7 @@ def recalculate(src, dst=None, *, in_place: bool = False, backup: bool = False, 
     UnusableWorkbook
         The file cannot be processed; nothing was written.
     """
-    from .safe_write import OutputRefused, save_workbook
+    from ..workbook.save import OutputRefused, save_workbook
 
     started = time.perf_counter()
     src = Path(src)
@@ -906,7 +907,7 @@ def _run_where(run: Run) -> str:
 
 def check_workbook(src) -> CheckFindings:
     """Read a workbook and list registered-function cells and likely mistakes (see ``trueband check``)."""
-    from .formula_text import call_findings
+    from ..formulas.text import call_findings
 
     findings = CheckFindings()
     with open_workbook_package(src) as package:

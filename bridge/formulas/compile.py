@@ -43,8 +43,8 @@ from formulas.tokens.function import Function
 from formulas.tokens.operand import Empty, Error, Number, Range, String
 from formulas.tokens.operator import Operator
 
-from .formula_text import parser, syntax_reason
-from .sheet_xml import column_index, column_letters, split_ref
+from .text import parser, syntax_reason
+from ..workbook.sheet_xml import column_index, column_letters, split_ref
 
 __all__ = [
     "MAX_ROW", "MAX_COL", "Ref", "Node", "Compiled", "Run", "FormulaGraph", "formula_key", "compile_formula",

@@ -7,12 +7,10 @@ import time
 from pathlib import Path
 
 
-from .cli import EXIT_CELL_ERRORS, EXIT_FAILED, EXIT_OK, add_output_options
+from .common import EXIT_CELL_ERRORS, EXIT_FAILED, EXIT_OK, add_output_options, error_table
 
 #: Workbook files at least this large (bytes) show a progress bar (when stderr is a terminal).
 PROGRESS_THRESHOLD = 1_000_000
-#: Rows of the error table printed before "... and N more".
-TABLE_LIMIT = 50
 
 
 class _Progress:
@@ -43,22 +41,8 @@ class _Progress:
             self.stream.flush()
 
 
-def error_table(errors, limit: int = TABLE_LIMIT) -> str:
-    """The compact table of error cells: sheet!cell, function, message."""
-    rows = [(f"{e.sheet}!{e.cell}", e.function or "-", f"{e.code}  {e.message}") for e in errors[:limit]]
-    if not rows:
-        return ""
-    w1 = max(len("cell"), *(len(r[0]) for r in rows))
-    w2 = max(len("function"), *(len(r[1]) for r in rows))
-    lines = [f"{'cell':<{w1}}  {'function':<{w2}}  message"]
-    lines += [f"{a:<{w1}}  {b:<{w2}}  {c}" for a, b, c in rows]
-    if len(errors) > limit:
-        lines.append(f"... and {len(errors) - limit} more error cells")
-    return "\n".join(lines)
-
-
 def _recalc(args) -> int:
-    from .recalc import UnusableWorkbook, recalculate
+    from ..engine.recalc import UnusableWorkbook, recalculate
 
     if args.backup and not args.in_place:
         print("trueband recalc: --backup goes with --in-place", file=sys.stderr)
@@ -89,7 +73,7 @@ def _recalc(args) -> int:
 
 
 def _check(args) -> int:
-    from .recalc import UnusableWorkbook, check_workbook
+    from ..engine.recalc import UnusableWorkbook, check_workbook
 
     try:
         findings = check_workbook(args.book)

@@ -1,7 +1,7 @@
 """The local HTTP bridge: every registered function over HTTP, generated from the registry.
 
 :func:`create_app` builds the Flask application; ``trueband serve``
-(:mod:`~trueband.bridge.cmd_serve`) runs it under waitress. Nothing here
+(:mod:`~trueband.bridge.http.server`) runs it under waitress. Nothing here
 knows any single function: routes, argument checks and the OpenAPI document
 all come from :data:`~trueband.funcs.registry.REGISTRY`, and every error
 status and code comes from the error classes of :mod:`trueband.funcs.errors`.

@@ -19,7 +19,7 @@ calculation chain, clearing "recalculate everything on open");
   ``BOOK.backup.xlsx``;
 * a replace refused because another program holds the file open
   (``PermissionError``, as on Windows) is retried briefly, then reported as
-  :class:`~trueband.bridge.xlsx_package.WorkbookLocked` in one line.
+  :class:`~trueband.bridge.workbook.package.WorkbookLocked` in one line.
 
 Test hook: the environment variable ``TRUEBAND_TEST_WRITE_HOOK`` set to
 ``pause:N:MARKER`` makes the writer create the file ``MARKER`` after ``N``
@@ -39,7 +39,7 @@ import zipfile
 from pathlib import Path
 from typing import Iterable, Mapping
 
-from .xlsx_package import (
+from .package import (
     REL_CALC_CHAIN,
     UnusableWorkbook,
     WorkbookLocked,

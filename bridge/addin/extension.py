@@ -209,7 +209,7 @@ def component_source(functions: dict[str, dict] | None = None, *, mode: str = "f
         f"CATEGORY = {CATEGORY!r}",
         f"FUNCTIONS = {functions!r}",
     ]
-    body = resources.files("trueband.bridge").joinpath("data/calc_addin_component.py").read_text(encoding="utf-8")
+    body = resources.files("trueband.bridge.addin").joinpath("data/calc_addin_component.py").read_text(encoding="utf-8")
     return "\n".join(header) + "\n" + body
 
 

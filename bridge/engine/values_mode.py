@@ -14,7 +14,7 @@ cell's current value, removes the hidden sheet (its part, its ``<sheet>``
 entry, its relationship and content type) and drops the calculation chain.
 
 Each sheet of a values file also gets a notice cell saying that those values
-are fixed (:mod:`~trueband.bridge.values_notice` says why a notice and where
+are fixed (:mod:`~trueband.bridge.engine.values_notice` says why a notice and where
 it goes); it is recorded in the hidden sheet too, and restore takes it out.
 
 Package edits made here, all as byte edits of the small parts involved:
@@ -35,11 +35,11 @@ from xml.etree import ElementTree
 
 from trueband.funcs.registry import REGISTRY, normalize_name
 
-from . import sheet_xml
-from .safe_write import PackageChanges, add_override, remove_override
+from ..workbook import sheet_xml
+from ..workbook.save import PackageChanges, add_override, remove_override
 from .values_notice import NOTICE_OPENING, Notice, frozen_inputs, kept_areas, notice_text, place_notice, reader_of
-from .sheet_xml import CellUpdate, escape_text, iter_cells
-from .xlsx_package import NS_REL, REL_WORKSHEET, UnusableWorkbook, WorkbookPackage, rels_part_of
+from ..workbook.sheet_xml import CellUpdate, escape_text, iter_cells
+from ..workbook.package import NS_REL, REL_WORKSHEET, UnusableWorkbook, WorkbookPackage, rels_part_of
 
 __all__ = [
     "FORMULA_SHEET",

@@ -30,10 +30,10 @@ from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.datavalidation import DataValidation
 
-from .calc_binding import bind_workbook
-from .demo_data import DemoData
-from .study_build import CAUTION
-from .study_setup import DEFAULT_CRITERION_RELIABILITY, SETTINGS, SETUP_SHEET
+from ..formulas.calc_binding import bind_workbook
+from .demo import DemoData
+from .build import CAUTION
+from .setup import DEFAULT_CRITERION_RELIABILITY, SETTINGS, SETUP_SHEET
 
 __all__ = ["study_data_workbook", "scoring_template", "impact_template", "SCORING_LAYOUT", "IMPACT_LAYOUT"]
 

@@ -2,30 +2,18 @@
 
 from __future__ import annotations
 
-import os
-import shutil
 import sys
-import tempfile
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-import numpy as np
 
-from .cli import EXIT_CELL_ERRORS, EXIT_OK, CommandError
-from .study_words import CAUTION, NOT_COMPUTABLE
+from .common import EXIT_CELL_ERRORS, EXIT_OK, CommandError
+from ..study.demo_folder import DEMO_FILES, DemoFolderError, write_demo  # noqa: F401  (DEMO_FILES: tests)
+from ..study.words import CAUTION, NOT_COMPUTABLE
 
 if TYPE_CHECKING:
-    from .study_build import StudyResult
+    from ..study.build import StudyResult
 
-DEMO_FILES = {
-    "data": "osterfell-applicants.xlsx",
-    "study": "osterfell-study.xlsx",
-    "scoring": "osterfell-scoring-sheet.xlsx",
-    "impact": "osterfell-adverse-impact.xlsx",
-    "blank_data": "templates/study-data-template.xlsx",
-    "blank_scoring": "templates/scoring-sheet-template.xlsx",
-    "blank_impact": "templates/adverse-impact-template.xlsx",
-}
 
 #: command-line option -> setup field
 _OPTIONS = {"sheet": "data_sheet", "id": "id", "group": "group", "items": "items", "reverse": "reverse",
@@ -183,8 +171,8 @@ def _report(result: StudyResult, out: Path) -> int:
 def run_study(args) -> int:
     src = Path(args.data)
     out = Path(args.output) if args.output else src.with_name(src.stem + "-study.xlsx")
-    from .study_build import StudyError, make_study
-    from .study_setup import SetupError
+    from ..study.build import StudyError, make_study
+    from ..study.setup import SetupError
 
     try:
         result = make_study(src, out, _overrides(args), overwrite=args.overwrite, progress=_progress_printer())
@@ -204,60 +192,15 @@ def _new_folder(base: Path) -> Path:
     return path
 
 
-def write_demo(target: Path, *, n: int = 400) -> tuple[StudyResult, dict[str, Path]]:
-    """Write the demo into ``target`` (a new or empty folder) through a temporary folder beside it."""
-    from .demo_data import make_demo
-    from .recalc import recalculate
-    from .study_build import make_study
-    from .templates import impact_template, scoring_template, study_data_workbook
-
-    if target.exists() and (not target.is_dir() or any(target.iterdir())):
-        raise CommandError(f"{target} exists and is not an empty folder; give a new folder (nothing was written)")
-    parent = target.parent if target.parent != Path("") else Path.cwd()
-    parent.mkdir(parents=True, exist_ok=True)
-    work = Path(tempfile.mkdtemp(prefix=".trueband-demo-", dir=parent))
-    umask = os.umask(0)
-    os.umask(umask)
-    os.chmod(work, 0o777 & ~umask)  # a private temporary folder becomes an ordinary one
-    try:
-        (work / "templates").mkdir()
-        demo = make_demo(n)
-        scores = demo.items.sum(axis=1)
-        cut = float(np.ceil(np.quantile(scores, 0.6)))  # about 40% pass
-        paths = {k: work / v for k, v in DEMO_FILES.items()}
-        study_data_workbook(paths["data"], demo, cut=cut)
-        scoring_template(paths["scoring"], ids=demo.ids, responses=demo.items.tolist(),
-                         title="Scoring sheet: Dispatch Knowledge Test (demo)")
-        from trueband.funcs.impact import tally_groups
-
-        tally = tally_groups(demo.groups, scores >= cut)  # labels merged as the study merges them
-        counts = [(g, tally.applicants[g], tally.selected[g]) for g in tally.names]
-        impact_template(paths["impact"], groups=counts,
-                        title=f"Adverse impact at a cut of {cut:g} on the Dispatch Knowledge Test (demo)")
-        study_data_workbook(paths["blank_data"])
-        scoring_template(paths["blank_scoring"])
-        impact_template(paths["blank_impact"])
-        for key in ("data", "scoring", "impact", "blank_data", "blank_scoring", "blank_impact"):
-            recalculate(paths[key], in_place=True)
-        result = make_study(paths["data"], paths["study"])
-        if target.exists():
-            target.rmdir()  # empty, checked above; a rename cannot replace a folder on every platform
-        os.replace(work, target)
-    except BaseException:
-        shutil.rmtree(work, ignore_errors=True)
-        raise
-    final = {k: target / v for k, v in DEMO_FILES.items()}
-    result.path = final["study"]
-    return result, final
-
-
 def run_demo(args) -> int:
-    from .study_build import StudyError
-    from .study_setup import SetupError
+    from ..study.build import StudyError
+    from ..study.setup import SetupError
 
     target = Path(args.dir) if args.dir else _new_folder(Path.cwd())
     try:
         result, paths = write_demo(target)
+    except DemoFolderError as exc:
+        raise CommandError(str(exc)) from None
     except (SetupError, StudyError) as exc:
         raise CommandError(f"{exc}; nothing was written") from None
     print(f"Demo written to {target}/ (Osterfell Harbour Logistics, an invented employer hiring cargo dispatch "

@@ -9,7 +9,7 @@ import textwrap
 from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import REGISTRY, catalog, lookup
 
-from .cli import EXIT_CELL_ERRORS, EXIT_FAILED, EXIT_OK
+from .common import EXIT_CELL_ERRORS, EXIT_FAILED, EXIT_OK
 
 TOPIC_TITLES = {
     "scores": "Measurement error and score interpretation",
@@ -117,7 +117,7 @@ def _functions(args) -> int:
 
 
 def _eval(args) -> int:
-    from .formula_functions import UnreadableFormula, evaluate_expression
+    from ..formulas.library import UnreadableFormula, evaluate_expression
 
     try:
         value = evaluate_expression(args.expression)

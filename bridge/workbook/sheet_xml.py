@@ -42,7 +42,7 @@ from typing import Iterator, Mapping, NamedTuple, Sequence
 
 import numpy as np
 
-from .xlsx_package import unescape_xml
+from .package import unescape_xml
 
 __all__ = [
     "Cell",

@@ -214,7 +214,7 @@ class _Book:
     spreadsheet app shows it; dates are their serial numbers."""
 
     def __init__(self, path: Path):
-        from .xlsx_package import UnusableWorkbook, open_workbook_package
+        from ..workbook.package import UnusableWorkbook, open_workbook_package
 
         if not path.exists():
             raise SetupError(f"{path} does not exist")
@@ -238,7 +238,7 @@ class _Book:
         ``(row, col)`` (1-based) to the number format of each cell that has one other than General
         (dates keep their date format in the study's copy); ``uncached`` lists ``(row, col)`` of the
         formula cells without a stored value."""
-        from .sheet_xml import SheetXmlError, read_columns
+        from ..workbook.sheet_xml import SheetXmlError, read_columns
 
         try:
             sc = read_columns(self.pkg.sheet_xml(name), self.pkg.shared_strings)
@@ -256,7 +256,7 @@ class _Book:
             return self._formats
         from openpyxl.styles.numbers import BUILTIN_FORMATS
 
-        from .xlsx_package import UnusableWorkbook
+        from ..workbook.package import UnusableWorkbook
 
         self._formats: dict[int, str] = {}
         part = next((r["part"] for r in self.pkg.workbook_rels if r.get("Type", "").endswith("/styles")

@@ -25,33 +25,18 @@ import os
 import sys
 import textwrap
 
-EXIT_OK = 0
-EXIT_CELL_ERRORS = 1
-EXIT_FAILED = 2
-EXIT_INTERRUPTED = 130
+from .common import EXIT_CELL_ERRORS, EXIT_FAILED, EXIT_INTERRUPTED, EXIT_OK, CommandError, add_output_options  # noqa: F401
+
 
 #: Modules that add subcommands, in the order they appear in ``--help``.
 COMMAND_MODULES = (
-    "trueband.bridge.cmd_catalog",
-    "trueband.bridge.cmd_serve",
-    "trueband.bridge.cmd_recalc",
-    "trueband.bridge.cmd_fill",
-    "trueband.bridge.cmd_study",
-    "trueband.bridge.cmd_addin",
+    "trueband.bridge.cli.functions",
+    "trueband.bridge.cli.serve",
+    "trueband.bridge.cli.recalc",
+    "trueband.bridge.cli.fill",
+    "trueband.bridge.cli.study",
+    "trueband.bridge.cli.addin",
 )
-
-
-class CommandError(Exception):
-    """A problem that ends a command with one clear line and exit status 2."""
-
-
-def add_output_options(parser: argparse.ArgumentParser) -> None:
-    """The output options every command that writes a workbook takes (same words everywhere)."""
-    parser.add_argument("-o", "--output", help="where to write (default: a new file beside the input)")
-    parser.add_argument("--overwrite", action="store_true", help="allow replacing an existing output file")
-    parser.add_argument("--in-place", action="store_true",
-                        help="replace the input, only once the new file is complete and re-opens cleanly")
-    parser.add_argument("--backup", action="store_true", help="with --in-place, keep the original as BOOK.backup.xlsx")
 
 
 class _VersionAction(argparse.Action):

@@ -2,7 +2,7 @@
 
 :func:`make_study` reads a data workbook (:mod:`.study_setup`), writes a new
 workbook with a copy of the data and the analysis sheets, recalculates it with
-:func:`trueband.bridge.recalc.recalculate` so every cell carries its value, and
+:func:`trueband.bridge.engine.recalc.recalculate` so every cell carries its value, and
 only then moves it to the output path (a failure at any point leaves no file).
 
 Every number on the analysis sheets is a live formula over the copy of the
@@ -39,10 +39,10 @@ from openpyxl.utils import get_column_letter
 from trueband.funcs import call, lookup
 from trueband.funcs.errors import InsufficientDataError, TruebandError, UnknownFunctionError
 
-from . import study_charts as charts
-from . import study_xml
-from .study_words import CAUTION, NOT_COMPUTABLE
-from .study_setup import HIRED_CODINGS, SETTINGS, SETUP_SHEET, SetupError, StudyData, read_study_data
+from . import charts
+from . import long_sheets as study_xml
+from .words import CAUTION, NOT_COMPUTABLE
+from .setup import HIRED_CODINGS, SETTINGS, SETUP_SHEET, SetupError, StudyData, read_study_data
 
 __all__ = ["StudyError", "StudyResult", "build_study", "make_study", "CAUTION", "ANALYSIS_SHEETS"]
 
@@ -1394,7 +1394,7 @@ def make_study(data_path: str | Path, out_path: str | Path, overrides: Mapping[s
     if not out.parent.exists():
         raise StudyError(f"the folder {out.parent} does not exist")
     try:
-        from .recalc import recalculate
+        from ..engine.recalc import recalculate
     except ImportError as exc:
         raise StudyError(f"the workbook recalculation engine is not available ({exc})") from None
     timings = {}

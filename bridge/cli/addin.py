@@ -12,7 +12,7 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
-from .cli import EXIT_OK, CommandError
+from .common import EXIT_OK, CommandError
 
 
 def register(sub) -> None:
@@ -32,7 +32,7 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
-    from .calc_addin import install_line, libreoffice_python, python_version_note, write_extension
+    from ..addin.extension import install_line, libreoffice_python, python_version_note, write_extension
 
     folder = Path(args.out)
     if not folder.is_dir():

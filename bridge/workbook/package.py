@@ -181,7 +181,7 @@ def parse_shared_strings(xml: bytes) -> list[str]:
     """Shared-string table as a list of str; rich-text runs are joined, phonetic guides dropped.
 
     Read with regular expressions over the bytes; a part that the pre-scan
-    (:func:`~trueband.bridge.sheet_xml.odd_part`) flags as holding a form they
+    (:func:`~trueband.bridge.workbook.sheet_xml.odd_part`) flags as holding a form they
     do not take (single-quoted attributes, whitespace in tags, CDATA, comments,
     character references, another encoding) is read with ElementTree instead.
     """

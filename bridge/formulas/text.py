@@ -172,7 +172,7 @@ def suggestions(name: str) -> list[str]:
     >>> suggestions("SME")
     ['SEM', 'SUM']
     """
-    from .formula_functions import BUILTIN_NAMES
+    from .library import BUILTIN_NAMES
 
     key = _bare(name)
     scored = []
@@ -196,7 +196,7 @@ def call_findings(tree) -> tuple[list[str], list[str]]:
     Returns (unknown names, each with its "did you mean"; registered calls
     with too few or too many arguments, each with the function's signature).
     """
-    from .formula_functions import BUILTIN_NAMES
+    from .library import BUILTIN_NAMES
 
     unknown, counts = [], []
     for node in tree.walk():

@@ -31,9 +31,9 @@ import dataclasses
 import datetime
 import re
 
-from . import sheet_xml
-from .sheet_xml import iter_cells
-from .xlsx_package import WorkbookPackage
+from ..workbook import sheet_xml
+from ..workbook.sheet_xml import iter_cells
+from ..workbook.package import WorkbookPackage
 
 __all__ = ["Notice", "NOTICE_OPENING", "NOTICE_ITEMS", "notice_text", "frozen_inputs", "reader_of", "kept_areas",
            "place_notice"]
@@ -148,7 +148,7 @@ def frozen_inputs(runs, store, uses_registered, as_value) -> list[tuple[str, obj
     ``runs`` are the recalculation's formula runs, ``uses_registered(compiled)``
     tells the ones to describe, ``as_value`` turns a stored value into a cell value.
     """
-    from .column_eval import EMPTY
+    from .evaluate import EMPTY
 
     out: dict[str, object] = {}
     for run in runs:

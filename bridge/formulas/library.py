@@ -290,8 +290,8 @@ def evaluate_expression(expression: str):
     function (with its message), or :class:`UnreadableFormula` for a formula
     that cannot be evaluated here.
     """
-    from .formula_graph import FormulaSyntaxError, compile_formula
-    from .formula_text import TypedFormulaError, call_findings, parser, typed_formula
+    from .compile import FormulaSyntaxError, compile_formula
+    from .text import TypedFormulaError, call_findings, parser, typed_formula
 
     install()
     text = expression.strip()

@@ -4,13 +4,13 @@
 with the header styled like the neighbouring header, and changes nothing else
 in the package (the calculation chain is dropped because formulas were added;
 apps rebuild it). It then recalculates through
-:func:`trueband.bridge.recalc.recalculate`, so the file opens showing the values.
+:func:`trueband.bridge.engine.recalc.recalculate`, so the file opens showing the values.
 
 ``bands`` builds the commonest fill, fixed score bands:
 ``=SCORE_BAND(H2,$H$2:$H$401,sd,reliability[,confidence])`` down a new column.
 
 ``restore`` puts back the formulas that ``trueband recalc --values`` replaced
-(see :mod:`~trueband.bridge.values_mode`).
+(see :mod:`~trueband.bridge.engine.values_mode`).
 
 The table's data rows, when ``--rows`` is not given: the header row is the
 first row of the sheet that has a filled row right under it (so a title line
@@ -32,10 +32,10 @@ from typing import Iterable
 from trueband.funcs import _validate as v
 from trueband.funcs.errors import TruebandError
 
-from .cli import EXIT_CELL_ERRORS, EXIT_OK, CommandError, add_output_options
-from .safe_write import OutputRefused, PackageChanges, backup_path_for, default_output_path, save_workbook
-from .sheet_xml import NewCell, SheetXmlError, add_cells, column_index, column_letters, iter_cells
-from .xlsx_package import UnusableWorkbook, WorkbookPackage, open_workbook_package
+from .common import EXIT_CELL_ERRORS, EXIT_OK, CommandError, add_output_options, error_table
+from ..workbook.save import OutputRefused, PackageChanges, backup_path_for, default_output_path, save_workbook
+from ..workbook.sheet_xml import NewCell, SheetXmlError, add_cells, column_index, column_letters, iter_cells
+from ..workbook.package import UnusableWorkbook, WorkbookPackage, open_workbook_package
 
 __all__ = ["FillPlan", "plan_fill", "fill_changes", "fill_workbook", "bands_formula", "register", "MAX_ROW"]
 
@@ -85,7 +85,7 @@ def plan_fill(pkg: WorkbookPackage, sheet: str, column: str, *, rows: tuple[int,
               header: str | None = None) -> FillPlan:
     """Work out the rows to fill and the header cell, from the sheet's cells.
 
-    Raises :class:`~trueband.bridge.cli.CommandError` naming the sheet when it
+    Raises :class:`~trueband.bridge.cli.common.CommandError` naming the sheet when it
     is missing, is not a worksheet, or has no data rows to fill.
     """
     try:
@@ -151,8 +151,8 @@ def checked_formula(formula: str, plan: FillPlan, *, same_formula: bool = False,
 
     Raises :class:`CommandError` with one line naming the first problem, before anything is written.
     """
-    from .formula_graph import FormulaSyntaxError, compile_formula
-    from .formula_text import TypedFormulaError, call_findings, typed_formula
+    from ..formulas.compile import FormulaSyntaxError, compile_formula
+    from ..formulas.text import TypedFormulaError, call_findings, typed_formula
 
     text = formula.strip()
     if text.startswith("="):
@@ -194,7 +194,7 @@ def fill_changes(pkg: WorkbookPackage, plan: FillPlan, formula: str, *, header: 
     (:func:`checked_formula`), and registered calls are written ``_xludf.NAME(`` (the form LibreOffice
     Calc binds to trueband's add-in, :mod:`.calc_binding`).
     """
-    from .calc_binding import bind_for_calc
+    from ..formulas.calc_binding import bind_for_calc
 
     sheets = [info.name for info in pkg.worksheets]
     text = bind_for_calc(checked_formula(formula, plan, same_formula=same_formula, sheets=sheets))  # Calc binds it
@@ -215,7 +215,7 @@ def fill_changes(pkg: WorkbookPackage, plan: FillPlan, formula: str, *, header: 
 
 
 def _recalculate(path: Path, dst: Path, overwrite: bool):
-    from .recalc import recalculate  # the evaluation engine (imported late: it loads the formula parser)
+    from ..engine.recalc import recalculate  # the evaluation engine (imported late: it loads the formula parser)
 
     return recalculate(path, dst, overwrite=overwrite)
 
@@ -335,7 +335,6 @@ def _print_outcome(plan: FillPlan, dest: Path, report) -> int:
     print(f"filled {plan.range} ({plan.rows} rows) → {dest}", file=sys.stderr)
     if report is None:
         return EXIT_OK
-    from .cmd_recalc import error_table
 
     if report.errors:
         print(error_table(report.errors))
@@ -384,7 +383,7 @@ def _bands(args) -> int:
 
 
 def _restore(args) -> int:
-    from .values_mode import restore_formulas
+    from ..engine.values_mode import restore_formulas
 
     if args.in_place and args.output:
         raise CommandError("give either -o/--output or --in-place, not both")

@@ -1,7 +1,7 @@
 """Evaluate compiled formulas: a whole filled-down run as arrays, or one cell.
 
 Two evaluators share the ``formulas`` package's function library and the
-registry (through :mod:`~trueband.bridge.formula_functions`):
+registry (through :mod:`~trueband.bridge.formulas.library`):
 
 * :func:`evaluate_cell` evaluates one cell the way the ``formulas`` engine
   does: references are 2-D object arrays (blanks ``EMPTY``), every operator
@@ -25,7 +25,7 @@ never ``EMPTY`` (a formula that points at a blank cell shows 0), never a
 non-finite number (``#NUM!``) and never a complex number (``#NUM!``).
 
 >>> import numpy as np
->>> from trueband.bridge.formula_graph import compile_formula, Run
+>>> from trueband.bridge.formulas.compile import compile_formula, Run
 >>> class Store:
 ...     def column(self, sheet, col, r1, r2):
 ...         return np.arange(r1, r2 + 1, dtype=float)
@@ -52,8 +52,8 @@ from formulas.functions.operators import OPERATORS
 from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import REGISTRY, normalize_name
 
-from . import formula_functions as ff
-from .formula_graph import MAX_COL, MAX_ROW, Compiled, Node, Run
+from ..formulas import library as ff
+from ..formulas.compile import MAX_COL, MAX_ROW, Compiled, Node, Run
 
 __all__ = ["EMPTY", "CellResult", "RunResult", "CellProblem", "evaluate_run", "evaluate_cell", "error_value",
            "is_error", "registered_name", "VectorUnsupported"]
@@ -94,7 +94,7 @@ class CellProblem:
 
 def unknown_function(name: str) -> CellProblem:
     """The problem of a call of a function nobody knows, with the closest names (``SME``: SEM or SUM)."""
-    from .formula_text import did_you_mean
+    from ..formulas.text import did_you_mean
 
     return CellProblem(name, "#NAME?", f"{name} is not a function trueband or the formula engine knows"
                                        f"{did_you_mean(name)}")
