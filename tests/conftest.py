@@ -21,6 +21,15 @@ def soffice():
     return path
 
 
+def pytest_collection_modifyitems(config, items):
+    # Every test that starts LibreOffice is slow (seconds each): the quick loop, `-m "not slow"`, leaves
+    # them out without each test having to say so.
+    for item in items:
+        if "soffice" in getattr(item, "fixturenames", ()):
+            item.add_marker(pytest.mark.slow)
+            item.add_marker(pytest.mark.libreoffice)
+
+
 # Property tests explore new random inputs on developers' machines; in CI they run a fixed
 # sequence, so a green main stays green and a failure found locally is reproduced by its test.
 from hypothesis import settings as _hypothesis_settings  # noqa: E402
