@@ -24,7 +24,7 @@ module             topic
 3.6
 """
 
-from . import agreement, cutscores, dif, fairness, impact, reliability, scores, utility, validity  # noqa: F401  (registers)
+from . import agreement, composite, cutscores, dif, fairness, impact, reliability, scores, utility, validity  # noqa: F401  (registers)
 from .errors import (  # noqa: F401
     ArgumentCountError,
     ArgumentTypeError,
