@@ -264,6 +264,9 @@ def _regression_data(criterion, blocks: dict) -> tuple[np.ndarray, list[np.ndarr
 
 
 def _r2(y: np.ndarray, x: np.ndarray, argument: str) -> float:
+    if y.size <= x.shape[1] + 1:
+        raise InsufficientDataError(f"the regression on {x.shape[1]} predictors needs more than {x.shape[1] + 1} "
+                                    f"complete rows, got {y.size}", argument=argument)
     tss = total_sum_of_squares(y)
     if not tss > 0:
         raise ZeroVarianceError("criterion has no variance among the complete rows", argument="criterion")
