@@ -215,13 +215,13 @@ def _mantel_haenszel_one(j: int, a, b, c, d, alpha: float) -> MantelHaenszelDIF:
     # the odds ratio's sums and has zero variance: it carries no information and is dropped.
     use = (n_ref > 0) & (n_foc > 0) & (m1 > 0) & (m0 > 0)
     if not use.any():
-        raise ZeroVarianceError(f"item {j + 1} has no score level where both groups are present and the item's "
+        raise ZeroVarianceError(f"item {j + 1} of items has no score level where both groups are present and the item's "
                                 f"responses vary; the MH statistics are undefined", argument="items")
     a, b, c, d, t, n_ref, n_foc, m1, m0 = (q[use] for q in (a, b, c, d, t, n_ref, n_foc, m1, m0))
     r, s = a * d / t, b * c / t
     sum_r, sum_s = r.sum(), s.sum()
     if sum_r == 0 or sum_s == 0:
-        raise DomainError(f"item {j + 1}: the MH common odds ratio is {'0' if sum_r == 0 else 'infinite'} (at every "
+        raise DomainError(f"item {j + 1} of items: the MH common odds ratio is {'0' if sum_r == 0 else 'infinite'} (at every "
                           f"matched score one group always or never gives the keyed response)", argument="items")
     odds = sum_r / sum_s
     pp, qq = (a + d) / t, (b + c) / t
@@ -229,7 +229,9 @@ def _mantel_haenszel_one(j: int, a, b, c, d, alpha: float) -> MantelHaenszelDIF:
                + (qq * s).sum() / (2 * sum_s ** 2))
     expected = n_ref * m1 / t
     variance = n_ref * n_foc * m1 * m0 / (t * t * (t - 1.0))
-    deviation = max(abs(a.sum() - expected.sum()) - 0.5, 0.0)  # continuity correction, never below 0
+    # The continuity correction as published (and as statsmodels computes it): when |ΣA − ΣE(A)| < ½ the
+    # statistic is (½ − |ΣA − ΣE(A)|)², small and far from significant, not clipped to 0.
+    deviation = abs(a.sum() - expected.sum()) - 0.5
     chi2 = deviation * deviation / variance.sum()
     p = float(special.chdtrc(1.0, chi2))
     delta = -DELTA_SCALE * float(np.log(odds))
@@ -364,7 +366,7 @@ def _nagelkerke(ll_model: float, ll_null: float, n: float) -> float:
 def _logistic_one(j: int, design, trials, successes, alpha: float) -> LogisticDIF:
     n, keyed = trials.sum(), successes.sum()
     if keyed == 0 or keyed == n:
-        raise ZeroVarianceError(f"item {j + 1} was answered alike by everybody analysed; its DIF is undefined",
+        raise ZeroVarianceError(f"item {j + 1} of items was answered alike by everybody analysed; its DIF is undefined",
                                 argument="items")
     rate = keyed / n
     ll_null = float(keyed * np.log(rate) + (n - keyed) * np.log1p(-rate))
