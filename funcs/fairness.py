@@ -152,12 +152,12 @@ class DifferentialPrediction:
 
 def _line(name: str, x: np.ndarray, y: np.ndarray) -> RegressionLine:
     if x.size < 3:
-        raise InsufficientDataError(f"the {name} group needs at least 3 people with a score and a criterion, "
+        raise InsufficientDataError(f"groups: the {name} group needs at least 3 people with a score and a criterion, "
                                     f"got {x.size}", argument="groups")
     mean = x.mean()
     ss = float(((x - mean) ** 2).sum())
     if not ss > 0:
-        raise ZeroVarianceError(f"every person of the {name} group has the same score; its line is undefined",
+        raise ZeroVarianceError(f"scores: every person of the {name} group has the same score; its line is undefined",
                                 argument="scores")
     fit = least_squares(np.column_stack([np.ones_like(x), x]), y, argument="criterion",
                         what=f"the {name} group's line")

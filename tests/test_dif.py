@@ -132,14 +132,12 @@ def test_logistic_dif_matches_statsmodels_logit(seed):
     (-2.0, 0.9, 0.20, "A", "not significantly different from 0: A (Zwick 2012)"),
     (1.0, 0.1, 0.001, "B", "|D| = 1 exactly is not below 1, significant: B"),
     (-1.49, 0.01, 1e-9, "B", "|D| < 1.5: never C"),
-    (-1.5, 0.30, 1e-9, "B", "|D| = 1.5 but (1.5 - 1)/0.30 = 1.67 > 1.645 ... see next"),
+    (-1.5, 0.30, 1e-9, "C", "|D| = 1.5 and (1.5 - 1)/0.30 = 1.67 > 1.645, significantly beyond 1: C"),
     (-1.5, 0.31, 1e-9, "B", "(1.5 - 1)/0.31 = 1.61 < 1.645: not significantly beyond 1: B (Paek & Holland 2015)"),
     (1.8, 0.40, 1e-9, "C", "(1.8 - 1)/0.40 = 2 > 1.645 and |D| >= 1.5: C"),
 ])
 def test_ets_rule(delta, se, p, expected, why):
-    if delta == -1.5 and se == 0.30:
-        expected = "C"  # 0.5 / 0.30 = 1.667 exceeds the one-sided 5% normal point 1.645 (scipy.stats.norm)
-        assert 0.5 / 0.30 > stats.norm.ppf(0.95)
+    assert 1.6448 < stats.norm.ppf(0.95) < 1.6449  # the one-sided 5% point of the interval test (scipy.stats.norm)
     assert ets_class(delta, se, p) == expected, why
 
 
