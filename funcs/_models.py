@@ -20,7 +20,7 @@ import dataclasses
 import numpy as np
 
 from . import _validate as v
-from .errors import ArgumentTypeError, DomainError, InsufficientDataError, ZeroVarianceError
+from .errors import ArgumentTypeError, DomainError, InsufficientDataError, TruebandError, ZeroVarianceError
 from .impact import group_key
 
 #: Newton–Raphson stops when the log-likelihood changes by less than this (relative) and the step is tiny.
@@ -143,19 +143,65 @@ def group_label(name: str, value) -> str:
 
 def two_groups(groups, focal, reference, n_rows: int) -> np.ndarray:
     """Per row: 1 for the focal group, 0 for the reference group, −1 for anyone else (blank or another group)."""
-    labels = v.label_vector("groups", groups)
-    if labels.size != n_rows:
-        raise ArgumentTypeError(f"groups must have one label per row ({n_rows}), got {labels.size}",
+    distinct, inverse = _distinct_labels(groups)
+    if inverse.size != n_rows:
+        raise ArgumentTypeError(f"groups must have one label per row ({n_rows}), got {inverse.size}",
                                 argument="groups")
     focal_key, reference_key = group_label("focal", focal), group_label("reference", reference)
     if focal_key == reference_key:
         raise DomainError(f"focal and reference name the same group ({v.show(focal)})", argument="reference")
-    code_of: dict = {}
-    for label in set(labels.tolist()):
-        key = group_key(label)
-        code_of[label] = 1 if key == focal_key else 0 if key == reference_key else -1
-    codes = np.fromiter((code_of[label] for label in labels.tolist()), dtype=np.int64, count=labels.size)
+    keys = [group_key(label) for label in distinct]
+    code_of = np.array([1 if key == focal_key else 0 if key == reference_key else -1 for key in keys],
+                       dtype=np.int64)
+    codes = code_of[inverse]
     for code, name, value in ((1, "focal", focal), (0, "reference", reference)):
         if not (codes == code).any():
             raise InsufficientDataError(f"{name} group {v.show(value)} has nobody in groups", argument=name)
     return codes
+
+
+def _column_cells(groups) -> list | None:
+    """The cells of a one-row or one-column range as a flat list, without a Python step per cell; None for
+    anything else (the general path then reads or refuses it)."""
+    if isinstance(groups, np.ndarray):
+        if groups.ndim == 1 or (groups.ndim == 2 and 1 in groups.shape):
+            return groups.ravel().tolist()
+        return None
+    if not isinstance(groups, (list, tuple)) or not groups:
+        return None
+    kinds = set(map(type, groups))
+    if not kinds & {list, tuple, np.ndarray}:
+        return list(groups)
+    if kinds <= {list, tuple} and set(map(len, groups)) == {1}:
+        return [row[0] for row in groups]
+    if len(groups) == 1 and isinstance(groups[0], (list, tuple)):
+        return list(groups[0])
+    return None
+
+
+def _distinct_labels(groups) -> tuple[list, np.ndarray]:
+    """The distinct labels of a label column (read as :func:`_validate.label_vector` reads them) and, per row,
+    the index of its label.
+
+    Each distinct cell value is read once, not each of 100,000 cells; any cell the fast path cannot take
+    (a logical value, something unhashable) sends the whole column through ``label_vector``, which also
+    gives the messages their row numbers.
+    """
+    flat = _column_cells(groups)
+    if flat is not None and not set(map(type, flat)) & {bool, np.bool_, list, tuple, dict, np.ndarray}:
+        try:
+            distinct = dict.fromkeys(flat)  # 1 and 1.0 are one key here, as label_vector makes them
+        except TypeError:  # an unhashable cell: the general path reports it
+            distinct = None
+        if distinct is not None:
+            position = {label: i for i, label in enumerate(distinct)}
+            inverse = np.fromiter(map(position.__getitem__, flat), dtype=np.int64, count=len(flat))
+            try:
+                return v.label_vector("groups", list(distinct)).tolist(), inverse
+            except TruebandError:
+                pass  # read again cell by cell, so the message names the cell's row
+    labels = v.label_vector("groups", groups).tolist()
+    position = {}
+    for label in labels:
+        position.setdefault(label, len(position))
+    return list(position), np.fromiter(map(position.__getitem__, labels), dtype=np.int64, count=len(labels))

@@ -9,7 +9,7 @@ spreadsheet name   Python function                             what it gives
 ``DIF_LR_P``       :func:`dif_lr_p`                            p of the 2-df likelihood-ratio test
 ``DIF_LR_R2``      :func:`dif_lr_r2`                           Nagelkerke ΔR² of group and score × group
 ``DIF_LR_CLASS``   :func:`dif_lr_class`                        "A"/"B"/"C" by Zumbo–Thomas or Jodoin–Gierl
-(Python only)      :func:`mantel_haenszel_dif`,                every item's results in one pass
+(Python only)      :func:`item_dif`, :func:`mantel_haenszel_dif`, every item's results in one pass
                    :func:`logistic_dif`
 =================  ==========================================  =============================================
 
@@ -66,6 +66,8 @@ __all__ = [
     "DifData",
     "MantelHaenszelDIF",
     "LogisticDIF",
+    "ItemDIF",
+    "item_dif",
     "dif_data",
     "mantel_haenszel_dif",
     "logistic_dif",
@@ -122,25 +124,32 @@ class DifData:
         return self.keyed.shape[0]
 
 
-def _binary_items(items) -> np.ndarray:
+def _binary_items(items) -> tuple[np.ndarray, bool]:
+    """The item matrix, and whether it holds any blank; any value other than 0 and 1 is refused."""
     x = v.numeric_matrix("items", items)
-    bad = ~np.isnan(x) & (x != 0) & (x != 1)
+    other = (x != 0) & (x != 1)  # blanks (nan) too: two passes over the data, not three, when all is clean
+    if not other.any():
+        return x, False
+    blank = np.isnan(x)
+    bad = other & ~blank
     if bad.any():
         r, c = np.argwhere(bad)[0]
         raise DomainError(f"items must hold 0/1 scores only; found {v.show(float(x[r, c]))} at row {r + 1}, "
                           f"column {c + 1}", argument="items")
-    return x
+    return x, True
 
 
 def dif_data(items, groups, focal, reference) -> DifData:
     """The tables every DIF statistic here is computed from, for all items at once.
 
-    One pass over the data: people are sorted by (total score, group) and the
-    item columns summed within each of those cells.
+    One pass over the data: each (person, item) score is counted into its
+    (item, group, total score) cell by a single ``numpy.bincount``.
     """
-    x = _binary_items(items)
+    x, has_blanks = _binary_items(items)
     codes = two_groups(groups, focal, reference, x.shape[0])
-    keep = (codes >= 0) & ~np.isnan(x).any(axis=1)
+    keep = codes >= 0
+    if has_blanks:
+        keep &= ~np.isnan(x).any(axis=1)
     if not keep.all():
         x, codes = x[keep], codes[keep]
     n_focal, n_reference = int(codes.sum()), int((codes == 0).sum())
@@ -149,14 +158,11 @@ def dif_data(items, groups, focal, reference) -> DifData:
             raise InsufficientDataError(f"the {name} group needs at least 2 people with complete item scores, "
                                         f"got {n}", argument=name)
     k = x.shape[1]
-    total = x.sum(axis=1).astype(np.int64)
-    cell = codes * (k + 1) + total
+    cell = codes * (k + 1) + x.sum(axis=1).astype(np.int64)   # group g, total s -> g·(k + 1) + s
     people = np.bincount(cell, minlength=2 * (k + 1))
-    order = np.argsort(cell, kind="stable")
-    starts = np.concatenate(([0], np.cumsum(people)[:-1]))
-    occupied = people > 0
-    keyed = np.zeros((2 * (k + 1), k))
-    keyed[occupied] = np.add.reduceat(x[order], starts[occupied], axis=0)
+    # (cell, item) -> cell·k + item, counted with the scores as weights: keyed responses per cell and item
+    keyed = np.bincount(((cell * k)[:, None] + np.arange(k)).ravel(), weights=x.ravel(),
+                        minlength=2 * (k + 1) * k).reshape(2 * (k + 1), k)
     return DifData(people=people.reshape(2, k + 1).astype(float),
                    keyed=keyed.T.reshape(k, 2, k + 1), n_focal=n_focal, n_reference=n_reference)
 
@@ -288,7 +294,10 @@ def mantel_haenszel_dif(items, groups, focal, reference, *, alpha: float = 0.05
     ['C', 'A', 'A', 'A', 'A']
     """
     v.between("alpha", alpha, 0.0, 1.0, low_open=True, high_open=True)
-    data = dif_data(items, groups, focal, reference)
+    return _mantel_haenszel_all(dif_data(items, groups, focal, reference), alpha)
+
+
+def _mantel_haenszel_all(data: DifData, alpha: float) -> tuple:
     out: list = []
     for j in range(data.n_items):
         a, c = data.keyed[j, 0], data.keyed[j, 1]
@@ -447,7 +456,10 @@ def logistic_dif(items, groups, focal, reference, *, alpha: float = 0.05
     (20.0803, 0.0387, 'A', 'B')
     """
     v.between("alpha", alpha, 0.0, 1.0, low_open=True, high_open=True)
-    data = dif_data(items, groups, focal, reference)
+    return _logistic_all(dif_data(items, groups, focal, reference), alpha)
+
+
+def _logistic_all(data: DifData, alpha: float) -> tuple:
     design, trials, g, s = _cell_design(data)
     out: list = []
     for j in range(data.n_items):
@@ -456,6 +468,40 @@ def logistic_dif(items, groups, focal, reference, *, alpha: float = 0.05
         except TruebandError as exc:
             out.append(exc)
     return tuple(out)
+
+
+@dataclasses.dataclass(frozen=True)
+class ItemDIF:
+    """Both DIF methods for every item, from one tabulation (see :func:`item_dif`)."""
+
+    mantel_haenszel: tuple   # of MantelHaenszelDIF or TruebandError, one per item
+    logistic: tuple          # of LogisticDIF or TruebandError, one per item
+    n_focal: int
+    n_reference: int
+
+
+def item_dif(items, groups, focal, reference, *, alpha: float = 0.05) -> ItemDIF:
+    """Mantel–Haenszel and logistic-regression DIF of every item, the data tabulated once.
+
+    The same results as :func:`mantel_haenszel_dif` and :func:`logistic_dif`
+    (see them for the statistics), with the group sizes actually analysed.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> rng = np.random.default_rng(7)
+    >>> groups = np.where(rng.random(400) < 0.5, "a", "b").tolist()
+    >>> latent = rng.normal(size=(400, 1)) + rng.normal(size=(400, 5))
+    >>> latent[:, 0] -= 0.8 * (np.array(groups) == "b")
+    >>> items = (latent > [-1, -0.5, 0, 0.5, 1]).astype(int)
+    >>> result = item_dif(items, groups, "b", "a")
+    >>> result.n_focal + result.n_reference, result.mantel_haenszel[0].ets_class, result.logistic[0].jodoin_gierl
+    (400, 'C', 'B')
+    """
+    v.between("alpha", alpha, 0.0, 1.0, low_open=True, high_open=True)
+    data = dif_data(items, groups, focal, reference)
+    return ItemDIF(mantel_haenszel=_mantel_haenszel_all(data, alpha), logistic=_logistic_all(data, alpha),
+                   n_focal=data.n_focal, n_reference=data.n_reference)
 
 
 # ---------------------------------------------------------------- spreadsheet functions

@@ -246,3 +246,28 @@ def test_argument_refusals():
         call("DIF_LR_CLASS", rows, labels, 1, "Focal", "Reference", "Cohen")
     with raises_code("#NUM!", "alpha"):
         mantel_haenszel_dif(rows, labels, "Focal", "Reference", alpha=1.5)
+
+
+def test_item_dif_is_both_methods_from_one_table():
+    from trueband.funcs.dif import item_dif
+
+    items, groups = simulate(n=300, k=6, seed=6)
+    both = item_dif(items, groups, "Focal", "Reference")
+    assert both.mantel_haenszel == mantel_haenszel_dif(items, groups, "Focal", "Reference")
+    assert both.logistic == logistic_dif(items, groups, "Focal", "Reference")
+    assert (both.n_focal, both.n_reference) == ((groups == "Focal").sum(), (groups == "Reference").sum())
+
+
+def test_every_form_of_a_label_column_reads_alike():
+    # the label column is read once per distinct value; every range shape gives what label_vector gives
+    items, groups = simulate(n=200, k=5, seed=7)
+    expected = mantel_haenszel_dif(items, groups.tolist(), "Focal", "Reference")
+    for form in (groups, groups.tolist(), [[g] for g in groups], [groups.tolist()], tuple(groups)):
+        assert mantel_haenszel_dif(items, form, "Focal", "Reference") == expected
+    labels = groups.tolist()
+    labels[4] = True
+    with raises_code("#VALUE!", "groups", match="row 5"):
+        mantel_haenszel_dif(items, labels, "Focal", "Reference")
+    labels[4] = float("inf")
+    with raises_code("#NUM!", "groups", match="row 5"):
+        mantel_haenszel_dif(items, [[g] for g in labels], "Focal", "Reference")
