@@ -485,12 +485,9 @@ def cross_validity(r2: float, n: int, k: int) -> float:
     """
     _shrinkage_inputs(r2, n, k, 4)
     rho2 = np.maximum(1.0 - (1.0 - r2) * (n - 1.0) / (n - k - 1.0), 0.0)
-    denominator = (n - 2.0 * k - 2.0) * rho2 + k
-    bad = ~(np.asarray(denominator) > 0)
-    if bad.any():
-        raise InsufficientDataError("n is too small for k: Browne's formula needs (n − 2k − 2)·ρ² + k > 0",
-                                    argument="n")
-    return ((n - k - 3.0) * rho2 * rho2 + rho2) / denominator
+    # With n ≥ k + 4 and 0 ≤ ρ² ≤ 1 the denominator is at least min(k, n − k − 2) > 0, and the result at
+    # most ρ² (equality at 0 and 1): no division by zero, no value outside 0..1.
+    return ((n - k - 3.0) * rho2 * rho2 + rho2) / ((n - 2.0 * k - 2.0) * rho2 + k)
 
 
 # ---------------------------------------------------------------- subgroup differences
