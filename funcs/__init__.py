@@ -14,6 +14,9 @@ module             topic
 ``utility``        selection utility
 ``impact``         adverse impact
 ``cutscores``      cut-score setting
+``dif``            item bias: differential item functioning
+``fairness``       differential prediction
+``composite``      several predictors combined
 =================  ==================================================
 
 >>> from trueband.funcs import call
@@ -21,7 +24,7 @@ module             topic
 3.6
 """
 
-from . import agreement, cutscores, impact, reliability, scores, utility, validity  # noqa: F401  (registers)
+from . import agreement, composite, cutscores, dif, fairness, impact, reliability, scores, utility, validity  # noqa: F401  (registers)
 from .errors import (  # noqa: F401
     ArgumentCountError,
     ArgumentTypeError,

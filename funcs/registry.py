@@ -68,6 +68,7 @@ RESULT_KINDS: dict[str, tuple[type, float | None, float | None]] = {
     "positive integer": (int, 1, None),
     "integer": (int, None, None),
     "boolean": (bool, None, None),
+    "text": (str, None, None),  # a category word (e.g. an ETS DIF class "A", "B" or "C")
 }
 
 #: Prefixes that spreadsheet apps put before function names they do not know.
@@ -170,6 +171,10 @@ class SpreadsheetFunction:
         kind, low, high = RESULT_KINDS[self.returns]
         if kind is bool:
             return bool(value)
+        if kind is str:
+            if not isinstance(value, str):
+                raise TypeError(f"{self.name} returned {type(value).__name__}, not text")
+            return value
         if isinstance(value, np.ndarray):
             value = value.item() if value.ndim == 0 else value
         try:
@@ -194,6 +199,8 @@ class SpreadsheetFunction:
         kind, low, high = RESULT_KINDS[self.returns]
         if kind is bool:
             return np.asarray(values, dtype=bool).tolist()
+        if kind is str:
+            return [self.check_result(value) for value in np.asarray(values, dtype=object).ravel().tolist()]
         x = np.asarray(values, dtype=float)
         if not np.isfinite(x).all():
             raise DomainError(f"{self.name} has no finite result for these inputs")

@@ -72,7 +72,9 @@ def argument_strategy(arg):
 def check_value(spec, value):
     kind, low, high = RESULT_KINDS[spec.returns]
     assert isinstance(value, kind) and (kind is not int or not isinstance(value, bool)), (spec.name, value)
-    if kind is not bool:
+    if kind is str:
+        assert value, (spec.name, value)
+    elif kind is not bool:
         assert math.isfinite(value), (spec.name, value)
         assert low is None or value >= low, (spec.name, value)
         assert high is None or value <= high, (spec.name, value)
