@@ -321,16 +321,21 @@ def beta_binomial_parameters(mean, sd, n_items: int) -> tuple[float, float, floa
     n = float(n_items)
     v.between("mean", mean, 0.0, n, low_open=True, high_open=True)
     v.positive("sd", sd)
-    variance = float(sd) ** 2
     ceiling = mean * (n - mean)
-    if not variance < ceiling:
+    if not sd < np.sqrt(ceiling):  # compared before squaring: a huge sd must not overflow
         raise DomainError(f"sd must be less than √(mean·(n_items − mean)) = {v.show(np.sqrt(ceiling))} for scores "
                           f"from 0 to n_items, got {v.show(sd)}", argument="sd")
+    variance = float(sd) ** 2
+    if not variance > 0:
+        raise DomainError(f"sd is too small for the beta-binomial model, got {v.show(sd)}", argument="sd")
     kr21 = n / (n - 1.0) * (1.0 - ceiling / (n * variance))
     if not kr21 > 0:
         raise DomainError(f"sd is too small for the beta-binomial model: KR-21 from these figures is "
                           f"{v.show(kr21)}, and it must be greater than 0", argument="sd")
     excess = 1.0 / kr21 - 1.0
+    if not excess > 0:  # sd within rounding of its ceiling: KR-21 of 1, no beta distribution
+        raise DomainError(f"sd must be less than √(mean·(n_items − mean)) = {v.show(np.sqrt(ceiling))}, got "
+                          f"{v.show(sd)}", argument="sd")
     return mean * excess, (n - mean) * excess, kr21
 
 
