@@ -4,27 +4,46 @@ Importing this package registers every spreadsheet function; call one by its
 spreadsheet name with :func:`call`, or import its Python function from the
 topic module:
 
-=================  ==================================================
-module             topic
-=================  ==================================================
-``scores``         measurement error and score interpretation
-``reliability``    reliability from item data, item analysis
-``agreement``      rater agreement
-``validity``       validity coefficients and their corrections
-``utility``        selection utility
-``impact``         adverse impact
-``cutscores``      cut-score setting
-``dif``            item bias: differential item functioning
-``fairness``       differential prediction
-``composite``      several predictors combined
-=================  ==================================================
+=====================  ===================================================================================
+module                 topic
+=====================  ===================================================================================
+``scores``             measurement error and score interpretation; score bands
+``reliability``        reliability from item data, item analysis
+``agreement``          rater agreement
+``validity``           validity coefficients and their corrections
+``utility``            selection utility
+``impact``             adverse impact
+``cutscores``          cut-score setting: Angoff
+``standard_setting``   cut-score setting: Nedelsky, Ebel, Hofstee, Beuk, contrasting and borderline groups
+``decision_accuracy``  conditional SEM, decision consistency and accuracy at a cut
+``content``            content validity ratio (Lawshe)
+``options``            item analysis from raw answers and a key
+``dif``                item bias: differential item functioning
+``fairness``           differential prediction
+``composite``          several predictors combined
+=====================  ===================================================================================
 
 >>> from trueband.funcs import call
 >>> round(call("SEM", 12, 0.91), 12)
 3.6
 """
 
-from . import agreement, composite, cutscores, dif, fairness, impact, reliability, scores, utility, validity  # noqa: F401  (registers)
+from . import (  # noqa: F401  (registers)
+    agreement,
+    composite,
+    content,
+    cutscores,
+    decision_accuracy,
+    dif,
+    fairness,
+    impact,
+    options,
+    reliability,
+    scores,
+    standard_setting,
+    utility,
+    validity,
+)
 from .errors import (  # noqa: F401
     ArgumentCountError,
     ArgumentTypeError,

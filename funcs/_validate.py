@@ -36,6 +36,9 @@ _PLAIN_NUMBERS = {float, int, type(None)}
 #: Annotation marking a range argument: 2-D data as a spreadsheet gives it.
 Range = NewType("Range", object)
 
+#: Annotation marking a single category label: a number or a text (an answer option such as "B" or 2).
+Label = NewType("Label", object)
+
 
 def show(value) -> str:
     """A value as it is echoed in a message."""
@@ -107,7 +110,7 @@ def boolean(name: str, value) -> bool:
         value = value.item()
     if isinstance(value, (bool, np.bool_)):
         return bool(value)
-    if isinstance(value, numbers.Real) and float(value) in (0.0, 1.0):
+    if isinstance(value, numbers.Real) and to_float(value) in (0.0, 1.0):  # to_float: no overflow on 10**400
         return bool(value)
     if isinstance(value, str) and value.strip().upper() in ("TRUE", "FALSE"):
         return value.strip().upper() == "TRUE"
@@ -128,6 +131,29 @@ def choice(name: str, value, options: Iterable[str]) -> str:
             return option
     raise DomainError(
         f"{name} must be one of {', '.join(show(o) for o in options)}, got {show(value)}", argument=name)
+
+
+def label(name: str, value):
+    """A single category label: a number (as float, so 2 and 2.0 are one label) or a text, stripped.
+
+    Blanks, logical values and ranges are refused.
+    """
+    if isinstance(value, np.ndarray) and value.ndim == 0:
+        value = value.item()
+    if isinstance(value, str):
+        if value.strip() == "":
+            raise ArgumentTypeError(f"{name} is blank; it must be a number or a text", argument=name)
+        return value.strip()
+    if value is None:
+        raise ArgumentTypeError(f"{name} is blank; it must be a number or a text", argument=name)
+    if isinstance(value, (bool, np.bool_)) or not isinstance(value, numbers.Real):
+        kind = "a logical value" if isinstance(value, (bool, np.bool_)) else (
+            "a range" if isinstance(value, (list, tuple, np.ndarray)) else show(value))
+        raise ArgumentTypeError(f"{name} must be a number or a text, got {kind}", argument=name)
+    value = to_float(value)
+    if not math.isfinite(value):
+        raise DomainError(f"{name} must be a finite number or a text, got {show(value)}", argument=name)
+    return value
 
 
 def text(name: str, value) -> str:

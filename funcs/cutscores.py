@@ -7,6 +7,9 @@ spreadsheet     Python function                  what it gives
 ``ANGOFF_SE``   :func:`angoff_standard_error`    SD of the judges' implied cuts / √(judges)
 ==============  ==============================  ==================================================
 
+The other standard-setting methods (Nedelsky, Ebel, Hofstee, Beuk,
+contrasting groups, borderline group) are in :mod:`standard_setting`.
+
 Conventions
 -----------
 * ``judgments`` is a range with one row per item and one column per judge;
@@ -32,20 +35,24 @@ from ._validate import Range
 from .errors import DomainError, InsufficientDataError
 from .registry import spreadsheet
 
-__all__ = ["angoff_cut", "angoff_standard_error", "judgment_matrix"]
+__all__ = ["angoff_cut", "angoff_standard_error", "judgment_matrix", "panel_matrix"]
 
 _ANGOFF = ("Angoff, W. H. (1971). Scales, norms, and equivalent scores. In R. L. Thorndike (Ed.), "
            "Educational Measurement (2nd ed.), 508-600, pp. 514-515; Cizek, G. J. & Bunch, M. B. (2007). "
            "Standard Setting: A Guide to Establishing and Evaluating Performance Standards on Tests, ch. 6.")
 
 
-def judgment_matrix(name: str, judgments) -> np.ndarray:
-    """The items × judges matrix of probabilities, with the blank policy of this module applied."""
-    m = v.numeric_matrix(name, judgments)
+def panel_matrix(name: str, value, what: str = "judgment") -> np.ndarray:
+    """An items × judges matrix with all-blank padding rows and columns dropped and any other blank refused.
+
+    Shared by every method that takes one row per item and one column per
+    judge (Angoff here, Nedelsky in :mod:`standard_setting`).
+    """
+    m = v.numeric_matrix(name, value)
     blank = np.isnan(m)
     m = m[~blank.all(axis=1)][:, ~blank.all(axis=0)]  # drop all-blank padding rows and columns
     if m.size == 0:
-        raise InsufficientDataError(f"{name} holds no judgments (every cell is blank)", argument=name)
+        raise InsufficientDataError(f"{name} holds no {what}s (every cell is blank)", argument=name)
     holes = np.argwhere(np.isnan(m))
     if len(holes):
         # report the position within the range as given, not within the trimmed matrix
@@ -53,8 +60,14 @@ def judgment_matrix(name: str, judgments) -> np.ndarray:
         cols = np.flatnonzero(~blank.all(axis=0))
         r, c = rows[holes[0][0]], cols[holes[0][1]]
         raise InsufficientDataError(
-            f"{name} has a blank judgment at row {r + 1}, column {c + 1}; every judge must rate every item",
+            f"{name} has a blank {what} at row {r + 1}, column {c + 1}; every judge must rate every item",
             argument=name)
+    return m
+
+
+def judgment_matrix(name: str, judgments) -> np.ndarray:
+    """The items × judges matrix of probabilities, with the blank policy of this module applied."""
+    m = panel_matrix(name, judgments)
     bad = (m < 0) | (m > 1)
     if bad.any():
         raise DomainError(

@@ -10,7 +10,10 @@ from the function itself:
   included);
 * each argument's kind: from its annotation (``float`` number, ``int`` whole
   number, ``bool`` logical, ``Literal[...]`` one of some words, ``Range`` a
-  2-D range);
+  2-D range, ``Label`` one category label, a number or a text);
+* an optional argument whose default is ``None`` may be left out altogether:
+  the body receives ``None`` (for a method with an optional step, such as an
+  adjustment that needs two further figures);
 * the one-line description and each argument's description: from the
   numpydoc docstring.
 
@@ -78,7 +81,7 @@ NAME_PREFIXES = ("_XLUDF.", "_XLFN._XLWS.", "_XLFN.", "_XLWS.", "COM.MICROSOFT."
 @dataclasses.dataclass(frozen=True)
 class Argument:
     name: str
-    kind: str  # "number", "integer", "boolean", "text", "range"
+    kind: str  # "number", "integer", "boolean", "text", "label", "range"
     default: Any = REQUIRED
     choices: tuple[str, ...] | None = None
     description: str = ""
@@ -99,6 +102,8 @@ class Argument:
 
     def coerce(self, value):
         """Convert a scalar argument to its kind (ranges pass through to the function)."""
+        if value is None and self.default is None:
+            return None  # an optional argument without a default value, left out
         if self.kind == "range":
             if value is None:
                 raise ArgumentTypeError(f"{self.name} is blank; it must be a range", argument=self.name)
@@ -109,6 +114,8 @@ class Argument:
             return v.integer(self.name, value)
         if self.kind == "boolean":
             return v.boolean(self.name, value)
+        if self.kind == "label":
+            return v.label(self.name, value)
         if self.choices:
             return v.choice(self.name, value, self.choices)
         return v.text(self.name, value)
@@ -276,7 +283,7 @@ REGISTRY: dict[str, SpreadsheetFunction] = {}
 #: Further spreadsheet names → the registered name (see ``aliases`` of :func:`spreadsheet`).
 ALIASES: dict[str, str] = {}
 
-_KIND_OF = {float: "number", int: "integer", bool: "boolean", str: "text", v.Range: "range"}
+_KIND_OF = {float: "number", int: "integer", bool: "boolean", str: "text", v.Range: "range", v.Label: "label"}
 
 
 def _argument_docs(doc: str) -> dict[str, str]:

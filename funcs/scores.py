@@ -9,6 +9,7 @@ spreadsheet name    Python function                              what it gives
 ``TRUE_SCORE``      :func:`estimated_true_score`                 Kelley's regressed estimate
 ``TRUE_SCORE_CI``   :func:`true_score_confidence_limit`          Kelley estimate ± z·sd·√(r(1 − r))
 ``BAND_WIDTH``      :func:`band_width`                           z·SED
+``BAND_FLOOR``      :func:`band_floor`                           top score − z·SED (sliding band)
 ``SCORES_DIFFER``   :func:`scores_differ`                        |a − b| > z·SED
 ``SCORE_BAND``      :func:`score_band`                           fixed SED band number from the top
 ``PERCENTILE_RANK`` :func:`percentile_rank`                      100·(below + ½·equal)/N
@@ -49,6 +50,7 @@ __all__ = [
     "estimated_true_score",
     "true_score_confidence_limit",
     "band_width",
+    "band_floor",
     "scores_differ",
     "score_band",
     "percentile_rank",
@@ -245,6 +247,47 @@ def band_width(sd: float, reliability: float, confidence: float = 0.95) -> float
     8.765225
     """
     return two_sided_z(confidence) * standard_error_of_difference.spreadsheet.body(sd, reliability)
+
+
+@spreadsheet("BAND_FLOOR", returns="number", elementwise=True,
+             reference="Cascio, Outtz, Zedeck & Goldstein (1991). Statistical implications of six methods of "
+                       "test score use in personnel selection. Human Performance 4, 233-264 (sliding bands).")
+def band_floor(top_score: float, sd: float, reliability: float, *, confidence: float = 0.95) -> float:
+    """Lowest score of the band that starts at the top remaining score (a sliding band's floor).
+
+    floor = top_score − z · SED = top_score − z · sd · √(2(1 − reliability))
+
+    Scores from the floor up to the top score do not differ reliably from the
+    top score (the band is closed, as in :func:`scores_differ`). In a sliding
+    band the top is the highest score not yet chosen: as the top scorers are
+    chosen the top, and with it the floor, moves down.
+
+    Parameters
+    ----------
+    top_score : float
+        The highest score still in contention.
+    sd : float
+        Standard deviation of observed scores, at least 0.
+    reliability : float
+        Reliability of the scores, between 0 and 1.
+    confidence : float, optional
+        Two-sided confidence level, strictly between 0 and 1; default 0.95.
+
+    Notes
+    -----
+    Choosing within a band by anything other than score is a policy
+    decision, not a neutral one; in the US, adjusting scores or cut-offs by
+    race, colour, religion, sex or national origin is unlawful (Civil Rights
+    Act of 1991, section 106, 42 U.S.C. 2000e-2(l)).
+
+    Examples
+    --------
+    Top score 92, sd 10, reliability 0.9: 92 − 1.96 · √2 · 10 · √0.1.
+
+    >>> round(band_floor(92, 10, 0.9), 6)
+    83.234775
+    """
+    return top_score - band_width.spreadsheet.body(sd, reliability, confidence)
 
 
 @spreadsheet("SCORES_DIFFER", returns="boolean", elementwise=True,
