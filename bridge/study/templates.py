@@ -32,7 +32,7 @@ from openpyxl.worksheet.datavalidation import DataValidation
 
 from ..formulas.calc_binding import bind_workbook
 from .demo import DemoData
-from .build import CAUTION
+from .words import CAUTION
 from .setup import DEFAULT_CRITERION_RELIABILITY, SETTINGS, SETUP_SHEET
 
 __all__ = ["study_data_workbook", "scoring_template", "impact_template", "SCORING_LAYOUT", "IMPACT_LAYOUT"]
