@@ -89,10 +89,6 @@ class Ref:
     def coordinate(self) -> str:
         return f"{get_column_letter(self.col)}{self.row}"
 
-    @property
-    def computable(self) -> bool:
-        return self.value is not UNCHECKED and not isinstance(self.value, Exception)
-
     def address(self, on_sheet: str) -> str:
         prefix = self.prefix
         if prefix == "auto":

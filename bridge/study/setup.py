@@ -176,7 +176,6 @@ class StudyData:
     problems: list[str] = dataclasses.field(default_factory=list)   # one line per doubtful cell
     raw_header: list = dataclasses.field(default_factory=list)      # row 1 as written, for the copy
     formats: dict = dataclasses.field(default_factory=dict)         # (sheet row, 0-based col) -> number format
-    groups_raw: list = dataclasses.field(default_factory=list)      # the group cells as written
     group_tally: Any = None                                         # funcs.impact.GroupTally of the groups
     reverse_items: list[int] = dataclasses.field(default_factory=list)  # 0-based positions among the items
     item_scale: tuple[float, float] | None = None                   # (min, max) given, or read from the data
@@ -191,9 +190,6 @@ class StudyData:
     @property
     def n(self) -> int:
         return len(self.rows)
-
-    def letter(self, role: str) -> str:
-        return get_column_letter(self.columns[role] + 1)
 
     @property
     def scores(self) -> np.ndarray:
@@ -692,7 +688,7 @@ def _check(setup: StudySetup, path: Path, sheet: str, header, rows) -> StudyData
     data = StudyData(setup=setup, path=path, sheet=sheet, header=list(header), rows=rows, columns=columns,
                      item_columns=item_cols, rating_columns=rating_cols, ids=ids, groups=groups, items=items,
                      total=total, ratings=ratings, criterion=criterion, retest=retest, hired=hired,
-                     hired_codes=hired_codes, groups_raw=raw_groups, group_tally=tally, raw_items=items)
+                     hired_codes=hired_codes, group_tally=tally, raw_items=items)
     if items is not None:
         _item_scale(data)
         _report(data, "values outside the item scale", *_outside_scale(data))

@@ -49,16 +49,16 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLa
     else:
         min_ratio = _table(ctx, g, row, groups, setup, bands, chart_row=row + len(groups) + 10)
         # beside the rates chart, on the same page
-        _distribution(g, row + len(groups) + 10, setup, rel, cut, ctx, anchor_col="E")
+        _distribution(ctx, g, row + len(groups) + 10, setup, rel, cut, anchor_col="E")
         return Impact(min_ratio)
-    _distribution(g, row + 3, setup, rel, cut, ctx)
+    _distribution(ctx, g, row + 3, setup, rel, cut)
     return Impact(min_ratio)
 
 
 def _table(ctx: StudyContext, g, row: int, groups: list[str], setup: SetupSheet, bands: BandsLayout,
            chart_row: int) -> Ref:
     """The table of groups from ``row`` (the reference group above it) and its chart; returns the lowest ratio."""
-    d, s = ctx.data, ctx.setup
+    d = ctx.data
     scores = d.scores
     has_score = ~np.isnan(scores)
     selected = has_score & (scores >= setup.cut)
@@ -67,17 +67,7 @@ def _table(ctx: StudyContext, g, row: int, groups: list[str], setup: SetupSheet,
     scored = np.flatnonzero(has_score)
     tally = tally_groups([d.groups[i] for i in scored], [bool(selected[i]) for i in scored])
     counts = {name: (tally.selected.get(name, 0), tally.applicants.get(name, 0)) for name in groups}
-    rates = {k: (sel / app if app else 0.0) for k, (sel, app) in counts.items()}
-    reference = s.reference_group
-    if reference is not None:
-        reference = d.group_tally.name(reference)
-        if reference is None:
-            raise SetupError(f"reference group: no group {s.reference_group!r} in column {s.group!r} on sheet "
-                             f"'{d.sheet}' (groups: {', '.join(groups)})")
-    if reference is None:
-        reference = max(groups, key=lambda k: (rates[k], counts[k][1]))
-        ctx.notes.append(f"Reference group for impact: {reference}, the group with the highest selection rate at "
-                         f"the cut when the study was built.")
+    reference = _reference_group(ctx, groups, counts)
     g.set(row - 1, 1, "Reference group (edit to compare with another)")
     g.set(row - 1, 3, reference, "input")
     head = ("Group", "Applicants", "Selected", "Selection rate", "Impact ratio (rate ÷ reference rate)",
@@ -135,7 +125,33 @@ def _table(ctx: StudyContext, g, row: int, groups: list[str], setup: SetupSheet,
     else:
         min_ratio = ctx.not_computable_at(g, last + 2, 5, setup.cut_message or "an impact ratio is not computable "
                                                                              "(see the table)", key="min_ratio")
-    at = last + 5
+    _table_notes(g, last + 5, d, bands)
+    g.charts.append((charts.selection_rates(charts.area(SHEET, "A", first, "A", last),
+                                            charts.area(SHEET, "D", row, "D", last),
+                                            charts.area(SHEET, "J", row, "J", last)), f"A{chart_row}"))
+    g.charts[-1][0].width = 11.5
+    return min_ratio
+
+
+def _reference_group(ctx: StudyContext, groups: list[str], counts: dict[str, tuple[int, int]]) -> str:
+    """The group others are compared with: as given (matched as the groups are), else the highest rate."""
+    d, s = ctx.data, ctx.setup
+    reference = s.reference_group
+    if reference is not None:
+        reference = d.group_tally.name(reference)
+        if reference is None:
+            raise SetupError(f"reference group: no group {s.reference_group!r} in column {s.group!r} on sheet "
+                             f"'{d.sheet}' (groups: {', '.join(groups)})")
+        return reference
+    rates = {k: (sel / app if app else 0.0) for k, (sel, app) in counts.items()}
+    reference = max(groups, key=lambda k: (rates[k], counts[k][1]))
+    ctx.notes.append(f"Reference group for impact: {reference}, the group with the highest selection rate at "
+                     f"the cut when the study was built.")
+    return reference
+
+
+def _table_notes(g, at: int, d, bands: BandsLayout) -> None:
+    """How the table counts, which labels were merged, and how many groups are blank, from row ``at``."""
     at += g.para(at, 1, f"Applicants and Selected count the rows of the Bands sheet by group number (Bands column "
                         f"{get_column_letter(bands.group_col)}: group 1 is the first row of this table, and so on); "
                         f"people with a blank group are in no group.", width=150)
@@ -146,14 +162,9 @@ def _table(ctx: StudyContext, g, row: int, groups: list[str], setup: SetupSheet,
                             + "; ".join(merged) + ".", width=150)
     if d.group_tally.blank:
         g.para(at, 1, f"{d.group_tally.blank} row(s) have a blank group (listed on Notes).", width=150)
-    g.charts.append((charts.selection_rates(charts.area(SHEET, "A", first, "A", last),
-                                            charts.area(SHEET, "D", row, "D", last),
-                                            charts.area(SHEET, "J", row, "J", last)), f"A{chart_row}"))
-    g.charts[-1][0].width = 11.5
-    return min_ratio
 
 
-def _distribution(g, chart_row: int, setup: SetupSheet, rel: Reliability, cut: Ref, ctx: StudyContext,
+def _distribution(ctx: StudyContext, g, chart_row: int, setup: SetupSheet, rel: Reliability, cut: Ref,
                   anchor_col: str = "A") -> None:
     """The score distribution table (columns L:Q, not printed) and its chart at ``chart_row``."""
     scores = ctx.data.scores

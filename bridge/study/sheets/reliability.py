@@ -71,48 +71,11 @@ def write(ctx: StudyContext, setup: SetupSheet, bands: BandsLayout) -> Reliabili
     g.set(7, 2, "Estimate", "header")
     g.set(7, 3, f"{conf:.0%} CI lower", "header")
     g.set(7, 4, f"{conf:.0%} CI upper", "header")
-    alpha_lower = alpha_upper = items = None
-    x = d.items
-    if x is not None:
-        items = _items_range(ctx, bands.last)
-        complete = ~np.isnan(x).any(axis=1)
-        xc = x[complete]
-        k = x.shape[1]
-        g.set(8, 1, "Items")
-        g.set(8, 2, k, "count")
-        n_items = Ref(SHEET, 8, 2, value=k, name="k").qualified()
-        g.set(9, 1, "People with every item answered (used by the item statistics)")
-        n_complete = ctx.expression(g, 9, 2, "COUNTIF({answered},{k})", lambda: int(complete.sum()),
-                                    style="count", key="n_complete", answered=bands.answered, k=n_items)
-        g.set(10, 1, "Coefficient alpha (Cronbach)")
-        alpha = ctx.formula(g, 10, 2, "CRONBACH_ALPHA", items, style="coef", key="alpha")
-        alpha_lower, alpha_upper = (
-            ctx.formula(g, 10, col, "ALPHA_CI", alpha, n_complete.qualified(), n_items, part, setup.confidence,
-                        style="coef", key=f"alpha_{part}") for col, part in ((3, "lower"), (4, "upper")))
-        binary = bool(np.isin(xc, (0.0, 1.0)).all()) if xc.size else False
-        g.set(11, 1, "KR-20 (items scored 0/1)")
-        if binary:
-            # the alias: "KR20(" reads as the cell KR20 followed by a bracket in spreadsheet apps
-            ctx.formula(g, 11, 2, "KR_20", items, checked=ctx.full_checks, style="coef", key="kr20")
-        else:
-            ctx.not_computable_at(g, 11, 2, "the items are not all scored 0/1", key="kr20")
-        g.set(12, 1, "Split-half, odd against even items, Spearman–Brown stepped up")
-        ctx.formula(g, 12, 2, "SPLIT_HALF", items, "odd-even", checked=ctx.full_checks, style="coef",
-                    key="split_half")
-        g.set(13, 1, "Omega total (McDonald), one-factor model")
-        ctx.formula(g, 13, 2, "OMEGA", items, checked=ctx.full_checks, style="coef", key="omega")
-    else:
-        reason = "no item columns were given (only a total), so internal consistency needs items"
-        for r, label, key in ((10, "Coefficient alpha (Cronbach)", "alpha"), (11, "KR-20", "kr20"),
-                              (12, "Split-half", "split_half"), (13, "Omega", "omega")):
-            g.set(r, 1, label)
-            missing = ctx.not_computable_at(g, r, 2, reason, key=key)
-            if key == "alpha":
-                alpha = missing
+    items, alpha, alpha_lower, alpha_upper = _internal_consistency(ctx, g, setup, bands)
     retest_r = _retest(ctx, g, setup, scores_range, has_score)
     g.set(19, 1, "Measurement error", "heading")
     g.set(20, 1, "Reliability used for the SEM, intervals and bands (edit to use another)")
-    if x is not None:
+    if d.items is not None:
         reliability = ctx.link(g, 20, 2, alpha, style="input_coef", key="reliability")
     elif retest_r is not None and isinstance(retest_r.value, float):
         reliability = ctx.link(g, 20, 2, retest_r, style="input_coef", key="reliability")
@@ -167,3 +130,47 @@ def _retest(ctx: StudyContext, g, setup: SetupSheet, scores_range: Ref, has_scor
         ctx.formula(g, 17, col, "R_CI", retest_r, n_retest, part, setup.confidence, style="coef",
                     key=f"retest_{part}")
     return retest_r
+
+
+def _internal_consistency(ctx: StudyContext, g, setup: SetupSheet, bands: BandsLayout):
+    """Rows 8 to 13: alpha and its interval, KR-20, split-half, omega; returns the item range and alpha's cells."""
+    d = ctx.data
+    alpha_lower = alpha_upper = items = None
+    x = d.items
+    if x is not None:
+        items = _items_range(ctx, bands.last)
+        complete = ~np.isnan(x).any(axis=1)
+        xc = x[complete]
+        k = x.shape[1]
+        g.set(8, 1, "Items")
+        g.set(8, 2, k, "count")
+        n_items = Ref(SHEET, 8, 2, value=k, name="k").qualified()
+        g.set(9, 1, "People with every item answered (used by the item statistics)")
+        n_complete = ctx.expression(g, 9, 2, "COUNTIF({answered},{k})", lambda: int(complete.sum()),
+                                    style="count", key="n_complete", answered=bands.answered, k=n_items)
+        g.set(10, 1, "Coefficient alpha (Cronbach)")
+        alpha = ctx.formula(g, 10, 2, "CRONBACH_ALPHA", items, style="coef", key="alpha")
+        alpha_lower, alpha_upper = (
+            ctx.formula(g, 10, col, "ALPHA_CI", alpha, n_complete.qualified(), n_items, part, setup.confidence,
+                        style="coef", key=f"alpha_{part}") for col, part in ((3, "lower"), (4, "upper")))
+        binary = bool(np.isin(xc, (0.0, 1.0)).all()) if xc.size else False
+        g.set(11, 1, "KR-20 (items scored 0/1)")
+        if binary:
+            # the alias: "KR20(" reads as the cell KR20 followed by a bracket in spreadsheet apps
+            ctx.formula(g, 11, 2, "KR_20", items, checked=ctx.full_checks, style="coef", key="kr20")
+        else:
+            ctx.not_computable_at(g, 11, 2, "the items are not all scored 0/1", key="kr20")
+        g.set(12, 1, "Split-half, odd against even items, Spearman–Brown stepped up")
+        ctx.formula(g, 12, 2, "SPLIT_HALF", items, "odd-even", checked=ctx.full_checks, style="coef",
+                    key="split_half")
+        g.set(13, 1, "Omega total (McDonald), one-factor model")
+        ctx.formula(g, 13, 2, "OMEGA", items, checked=ctx.full_checks, style="coef", key="omega")
+    else:
+        reason = "no item columns were given (only a total), so internal consistency needs items"
+        for r, label, key in ((10, "Coefficient alpha (Cronbach)", "alpha"), (11, "KR-20", "kr20"),
+                              (12, "Split-half", "split_half"), (13, "Omega", "omega")):
+            g.set(r, 1, label)
+            missing = ctx.not_computable_at(g, r, 2, reason, key=key)
+            if key == "alpha":
+                alpha = missing
+    return items, alpha, alpha_lower, alpha_upper

@@ -78,38 +78,7 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLa
                                     key=f"r_{part}") for col, part in ((3, "lower"), (4, "upper")))
     r_p = ctx.formula(g, 6, 5, "R_PVALUE", r, n_criterion, style="p", key="r_p")
     g.set(6, 1, "  interval (Fisher z) and p (t test of r = 0)")
-    g.set(8, 1, "Inputs to the corrections", "heading")
-    g.set(9, 1, "Criterion reliability (from Setup)")
-    g.set(9, 2, "=" + setup.criterion_reliability.address(SHEET), "coef")
-    ryy = cell(SHEET, 9, 2, value=s.criterion_reliability, name="ryy")
-    g.set(10, 1, "Test reliability among all applicants (from Reliability)")
-    rxx = ctx.link(g, 10, 2, rel.reliability, style="coef", key="rxx")
-    g.set(11, 1, "SD of scores, all applicants")
-    sd_all = ctx.formula(g, 11, 2, "STDEV", rel.scores, check=lambda: ctx.value(rel.sd), style="coef", key="sd_all")
-
-    def sd_restricted_check():
-        if n < 2:
-            raise InsufficientDataError("fewer than 2 people have a criterion value")
-        return float(np.std(scores[both], ddof=1))
-
-    g.set(12, 1, "SD of scores, people with a criterion value (restricted group)")
-    sd_restricted = ctx.formula(g, 12, 2, "STDEV", restricted_range, check=sd_restricted_check, style="coef",
-                                key="sd_restricted")
-    g.set(13, 1, "Ratio of the two SDs, u")
-    u = ctx.expression(g, 13, 2, "{restricted}/{all}", lambda: ctx.value(sd_restricted) / ctx.value(sd_all),
-                       style="coef", key="u", restricted=sd_restricted, all=sd_all)
-    g.set(15, 1, "Corrected validity", "heading")
-    g.set(16, 1, "Corrected for criterion unreliability (Spearman)")
-    ctx.formula(g, 16, 2, "DISATTENUATE", r, 1, ryy, style="coef", key="r_disattenuated")
-    g.set(17, 1, "Corrected for direct range restriction on the test (Thorndike Case II)")
-    ctx.formula(g, 17, 2, "RANGE_CORRECT", r, sd_restricted, sd_all, style="coef", key="r_range")
-    g.set(18, 1, "Operational validity: criterion unreliability, then direct range restriction")
-    operational = ctx.formula(g, 18, 2, "OPERATIONAL_VALIDITY", r, ryy, sd_restricted, sd_all, style="coef",
-                              key="operational")
-    g.set(19, 1, "Operational validity under indirect range restriction (Hunter, Schmidt & Le, 2006)")
-    ctx.formula(g, 19, 2, "RANGE_CORRECT_INDIRECT", r, u, rxx, ryy, style="coef", key="operational_indirect")
-    g.set(20, 1, "Maximum possible observed validity, √(test reliability × criterion reliability)")
-    ctx.formula(g, 20, 2, "MAX_VALIDITY", rxx, ryy, style="coef", key="max_validity")
+    operational = _corrections(ctx, g, setup, rel, r, restricted_range, scores[both])
     g.set(21, 1, "Fitted line: criterion = intercept + slope × score")
     g.set(21, 3, "slope", "header")
     g.set(21, 5, "intercept", "header")
@@ -132,6 +101,45 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLa
         _listed(ctx, g, bands, listed, end, s.criterion)
     return Validity(r=r, r_lower=r_lower, r_upper=r_upper, r_p=r_p, operational=operational, n_criterion=n_criterion,
                     criteria_listed=listed_criteria.qualified() if have_r else None)
+
+
+def _corrections(ctx: StudyContext, g, setup: SetupSheet, rel: Reliability, r: Ref, restricted_range: Ref,
+                 restricted_scores) -> Ref:
+    """Rows 8 to 20: the inputs to the corrections and the corrected validities; returns operational validity."""
+    s = ctx.setup
+    g.set(8, 1, "Inputs to the corrections", "heading")
+    g.set(9, 1, "Criterion reliability (from Setup)")
+    g.set(9, 2, "=" + setup.criterion_reliability.address(SHEET), "coef")
+    ryy = cell(SHEET, 9, 2, value=s.criterion_reliability, name="ryy")
+    g.set(10, 1, "Test reliability among all applicants (from Reliability)")
+    rxx = ctx.link(g, 10, 2, rel.reliability, style="coef", key="rxx")
+    g.set(11, 1, "SD of scores, all applicants")
+    sd_all = ctx.formula(g, 11, 2, "STDEV", rel.scores, check=lambda: ctx.value(rel.sd), style="coef", key="sd_all")
+
+    def sd_restricted_check():
+        if restricted_scores.size < 2:
+            raise InsufficientDataError("fewer than 2 people have a criterion value")
+        return float(np.std(restricted_scores, ddof=1))
+
+    g.set(12, 1, "SD of scores, people with a criterion value (restricted group)")
+    sd_restricted = ctx.formula(g, 12, 2, "STDEV", restricted_range, check=sd_restricted_check, style="coef",
+                                key="sd_restricted")
+    g.set(13, 1, "Ratio of the two SDs, u")
+    u = ctx.expression(g, 13, 2, "{restricted}/{all}", lambda: ctx.value(sd_restricted) / ctx.value(sd_all),
+                       style="coef", key="u", restricted=sd_restricted, all=sd_all)
+    g.set(15, 1, "Corrected validity", "heading")
+    g.set(16, 1, "Corrected for criterion unreliability (Spearman)")
+    ctx.formula(g, 16, 2, "DISATTENUATE", r, 1, ryy, style="coef", key="r_disattenuated")
+    g.set(17, 1, "Corrected for direct range restriction on the test (Thorndike Case II)")
+    ctx.formula(g, 17, 2, "RANGE_CORRECT", r, sd_restricted, sd_all, style="coef", key="r_range")
+    g.set(18, 1, "Operational validity: criterion unreliability, then direct range restriction")
+    operational = ctx.formula(g, 18, 2, "OPERATIONAL_VALIDITY", r, ryy, sd_restricted, sd_all, style="coef",
+                              key="operational")
+    g.set(19, 1, "Operational validity under indirect range restriction (Hunter, Schmidt & Le, 2006)")
+    ctx.formula(g, 19, 2, "RANGE_CORRECT_INDIRECT", r, u, rxx, ryy, style="coef", key="operational_indirect")
+    g.set(20, 1, "Maximum possible observed validity, √(test reliability × criterion reliability)")
+    ctx.formula(g, 20, 2, "MAX_VALIDITY", rxx, ryy, style="coef", key="max_validity")
+    return operational
 
 
 def _expectancy(ctx: StudyContext, g, setup: SetupSheet, rel: Reliability, have_r: bool, listed_scores: Ref,
