@@ -29,7 +29,8 @@ import numpy as np
 
 from . import sheets
 from .context import StudyContext
-from .setup import SETUP_SHEET, SetupError, StudyData, read_study_data
+from .data_workbook import read_study_data
+from .setup import SETUP_SHEET, SetupError, StudyData
 from .sheets.bands import Bands
 from .sheets.scored_items import SCORED_SHEET
 from .sheets.setup import SetupSheet
