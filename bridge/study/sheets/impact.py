@@ -126,9 +126,9 @@ def _table(ctx: StudyContext, g, row: int, groups: list[str], setup: SetupSheet,
         min_ratio = ctx.not_computable_at(g, last + 2, 5, setup.cut_message or "an impact ratio is not computable "
                                                                              "(see the table)", key="min_ratio")
     _table_notes(g, last + 5, d, bands)
-    g.charts.append((charts.selection_rates(charts.area(SHEET, "A", first, "A", last),
-                                            charts.area(SHEET, "D", row, "D", last),
-                                            charts.area(SHEET, "J", row, "J", last)), f"A{chart_row}"))
+    g.charts.append((charts.selection_rates(charts.area(area(SHEET, 1, first, 1, last)),
+                                            charts.area(area(SHEET, 4, row, 4, last)),
+                                            charts.area(area(SHEET, 10, row, 10, last))), f"A{chart_row}"))
     g.charts[-1][0].width = 11.5
     return min_ratio
 
@@ -185,7 +185,6 @@ def _distribution(ctx: StudyContext, g, chart_row: int, setup: SetupSheet, rel: 
         edges = [(lo + j * width, lo + (j + 1) * width + (width * 1e-9 if j == 24 else 0.0),
                   f"{lo + j * width:.4g}–{lo + (j + 1) * width:.4g}") for j in range(25)]
     first = row + 2
-    labels, below, at_or_above = (get_column_letter(c0 + k) for k in (0, 3, 4))
     g.set(row + 1, c0 + 5, "Scoring at least 'from'", "header")
     g.set(row - 1, c0, "Applicants at or above the cut")
     g.set(row - 1, c0 + 3, ctx.text('=COUNTIF({scores},">="&{cut})', SHEET, scores=rel.scores, cut=cut), "count")
@@ -205,9 +204,9 @@ def _distribution(ctx: StudyContext, g, chart_row: int, setup: SetupSheet, rel: 
         g.set(r, c0 + 4, ctx.text("={at_least}-{next}-{below}", SHEET, **places), "count")
         g.set(r, c0 + 5, ctx.text('=COUNTIF({scores},">="&{start})', SHEET, **places), "count")
     last = first + len(edges) - 1
-    g.charts.append((charts.score_distribution(charts.area(SHEET, labels, first, labels, last),
-                                               charts.area(SHEET, below, row + 1, below, last),
-                                               charts.area(SHEET, at_or_above, row + 1, at_or_above, last),
+    g.charts.append((charts.score_distribution(charts.area(area(SHEET, c0, first, c0, last)),
+                                               charts.area(area(SHEET, c0 + 3, row + 1, c0 + 3, last)),
+                                               charts.area(area(SHEET, c0 + 4, row + 1, c0 + 4, last)),
                                                cut_text=f"cut at {setup.cut:g}"), f"{anchor_col}{chart_row}"))
     g.charts[-1][0].width = 14
     g.print_area = f"A1:J{chart_row + 21}"

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from .. import charts
-from ..context import Ref, StudyContext, cell
+from ..context import Ref, StudyContext, area, cell
 from .reliability import Reliability
 from .scored_items import SCORED_SHEET
 from .setup import SetupSheet
@@ -101,8 +101,8 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability) -> None:
             g.set(r, 6, "see the statistics to the left", "na")
     last = first + x.shape[1] - 1
     scale = (0.0, 1.0) if binary else d.item_scale
-    g.charts.append((charts.item_map(charts.area(SHEET, "B", first, "B", last),
-                                     charts.area(SHEET, "D", first, "D", last),
+    g.charts.append((charts.item_map(charts.area(area(SHEET, 2, first, 2, last)),
+                                     charts.area(area(SHEET, 4, first, 4, last)),
                                      binary=binary, scale=scale),
                      "H6"))  # beside the table: below it, a page break would cut it in two
     if binary:

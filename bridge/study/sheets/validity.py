@@ -194,8 +194,8 @@ def _listed(ctx: StudyContext, g, bands: BandsLayout, listed, end: int, criterio
         g.set(LISTED_ROW + k, 15, int(r))
         g.set(LISTED_ROW + k, 16, fill_row(score_text, LISTED_ROW + k))
         g.set(LISTED_ROW + k, 17, fill_row(criterion_text, LISTED_ROW + k))
-    g.charts.append((charts.score_vs_criterion(charts.area(SHEET, "P", LISTED_ROW, "P", end),
-                                               charts.area(SHEET, "Q", LISTED_ROW, "Q", end),
+    g.charts.append((charts.score_vs_criterion(charts.area(area(SHEET, 16, LISTED_ROW, 16, end)),
+                                               charts.area(area(SHEET, 17, LISTED_ROW, 17, end)),
                                                x_title="Test score", y_title=criterion_name or "Criterion"),
                      "A36"))
     g.print_area = "A1:F56"  # the chart's data (columns P:Q) is not printed
