@@ -22,8 +22,8 @@ from .grid import Grid, quote
 from .setup import StudyData
 from .words import NOT_COMPUTABLE
 
-__all__ = ["StudyContext", "Ref", "Expr", "cell", "area", "fill_row", "formula_text", "ROW", "UNCHECKED", "CALL", "A1_ADDRESS",
-           "HandTypedAddress"]
+__all__ = ["StudyContext", "Ref", "Expr", "cell", "area", "fill_row", "formula_text", "ROW", "UNCHECKED", "CALL",
+           "A1_ADDRESS", "HandTypedAddress"]
 
 #: The value of a cell whose formula was not checked (a heavy check skipped with large data).
 UNCHECKED = object()
@@ -108,10 +108,12 @@ class Ref:
 
 
 def cell(sheet: str, row: int | None, col: int, value: Any = UNCHECKED, name: str | None = None) -> Ref:
+    """The cell at ``row``, ``col`` (1-based; ``row=None``: the row being written) of ``sheet``."""
     return Ref(sheet, row, col, name=name, value=value)
 
 
 def area(sheet: str, col: int, row: int | None, last_col: int, last_row: int | None, value: Any = UNCHECKED) -> Ref:
+    """The rectangle from (``row``, ``col``) to (``last_row``, ``last_col``) of ``sheet``, 1-based."""
     return Ref(sheet, row, col, last_row=last_row, last_col=last_col, value=value)
 
 

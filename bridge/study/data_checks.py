@@ -284,7 +284,8 @@ def check_data(setup: StudySetup, path: Path, sheet: str, header, rows) -> Study
     reverse = _reverse_items(setup, item_cols, index, dupes, header, sheet)
     total = _numeric(rows, columns["total"], "total column", sheet, header) if "total" in columns else None
     ratings = matrix(rating_cols, "rating columns") if rating_cols else None
-    criterion = _numeric(rows, columns["criterion"], "criterion column", sheet, header) if "criterion" in columns else None
+    criterion = (_numeric(rows, columns["criterion"], "criterion column", sheet, header) if "criterion" in columns
+                 else None)
     retest = _numeric(rows, columns["retest"], "retest column", sheet, header) if "retest" in columns else None
     hired, hired_codes, hired_problems = (_flags(rows, columns["hired"], sheet, header) if "hired" in columns
                                           else (None, None, []))

@@ -1,4 +1,4 @@
-"""A small sheet composed cell by cell (:class:`Grid`), its cell styles, and sheet-qualified references."""
+"""A small sheet composed cell by cell (:class:`Grid`), its cell styles, and how a sheet name is quoted."""
 
 from __future__ import annotations
 
@@ -10,7 +10,7 @@ from openpyxl.cell import WriteOnlyCell
 from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter
 
-__all__ = ["Grid", "STYLES", "styled", "quote", "cell_ref", "range_ref"]
+__all__ = ["Grid", "STYLES", "styled", "quote"]
 
 STYLES: dict[str, dict[str, Any]] = {
     "title": {"font": Font(bold=True, size=14)},
@@ -36,16 +36,8 @@ STYLES: dict[str, dict[str, Any]] = {
 
 
 def quote(sheet: str) -> str:
+    """A sheet name as a formula writes it before '!': in single quotes, a quote doubled."""
     return "'" + sheet.replace("'", "''") + "'"
-
-
-def cell_ref(sheet: str, col: int, row: int) -> str:
-    """Absolute reference like 'Sheet'!$C$5 (col 1-based)."""
-    return f"{quote(sheet)}!${get_column_letter(col)}${row}"
-
-
-def range_ref(sheet: str, col1: int, row1: int, col2: int, row2: int) -> str:
-    return f"{quote(sheet)}!${get_column_letter(col1)}${row1}:${get_column_letter(col2)}${row2}"
 
 
 class Grid:

@@ -1,4 +1,4 @@
-"""Utility: success rate (Taylor–Russell), criterion gain (Naylor–Shine) and money gain (Brogden–Cronbach–Gleser)."""
+"""Utility: success rate (Taylor–Russell), criterion gain (Naylor–Shine), money gain (Brogden–Cronbach–Gleser)."""
 
 from __future__ import annotations
 
