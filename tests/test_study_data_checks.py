@@ -235,7 +235,8 @@ def test_many_values_outside_the_scale_are_listed_then_counted(tmp_path):
 
 def test_the_hired_codings_named_in_messages_are_the_ones_read():
     # The words shown on Setup, in the study and in messages must be exactly the codings understood.
-    from trueband.bridge.study.setup import HIRED_CODINGS, NO_CODES, YES_CODES, hired_code
+    from trueband.bridge.study.data_checks import hired_code
+    from trueband.bridge.study.setup import HIRED_CODINGS, NO_CODES, YES_CODES
 
     pairs = [p.strip() for p in HIRED_CODINGS.replace(" or ", ", ").split(",")]
     named = set()

@@ -13,7 +13,8 @@ from openpyxl import Workbook
 
 from trueband.bridge import cli
 from trueband.bridge.study.build import StudyError, make_study
-from trueband.bridge.study.setup import SetupError, read_study_data
+from trueband.bridge.study.data_workbook import read_study_data
+from trueband.bridge.study.setup import SetupError
 
 
 def write_book(path: Path, header, rows, setup: dict | None = None, sheet: str = "Candidates",

@@ -15,7 +15,7 @@ from scipy import stats
 
 from trueband.bridge.engine.recalc import recalculate
 from trueband.bridge.study.build import make_study
-from trueband.bridge.study.setup import read_study_data
+from trueband.bridge.study.data_workbook import read_study_data
 from trueband.bridge.study.templates import IMPACT_LAYOUT, SCORING_LAYOUT, impact_template, scoring_template, study_data_workbook
 from trueband.bridge.study.demo import make_demo
 from trueband.funcs import call

@@ -17,11 +17,10 @@ from openpyxl.chart.trendline import Trendline
 __all__ = ["score_vs_criterion", "score_distribution", "selection_rates", "item_map", "area"]
 
 
-def area(sheet: str, col1: str, row1: int, col2: str | None = None, row2: int | None = None) -> Reference:
-    """A chart reference to an absolute range of a sheet, by name (sheets are written in streaming mode)."""
-    quoted = "'" + sheet.replace("'", "''") + "'"
-    end = f":${col2 or col1}${row2 or row1}" if (col2 or row2) else ""
-    return Reference(range_string=f"{quoted}!${col1}${row1}{end}")
+def area(ref) -> Reference:
+    """A chart reference to the cells of a :class:`.context.Ref`, absolute and by sheet name (sheets are written
+    in streaming mode)."""
+    return Reference(range_string=ref.qualified().address(ref.sheet))
 
 
 def _axes(chart, x_title: str, y_title: str):

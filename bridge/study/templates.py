@@ -32,7 +32,7 @@ from openpyxl.worksheet.datavalidation import DataValidation
 
 from ..formulas.calc_binding import bind_workbook
 from .demo import DemoData
-from .build import CAUTION
+from .words import CAUTION
 from .setup import DEFAULT_CRITERION_RELIABILITY, SETTINGS, SETUP_SHEET
 
 __all__ = ["study_data_workbook", "scoring_template", "impact_template", "SCORING_LAYOUT", "IMPACT_LAYOUT"]
@@ -60,6 +60,26 @@ def _caution(ws, cell: str, width_cols: int = 8):
 
 
 # ---------------------------------------------------------------- the study data layout
+
+def _setup_checks(st, n_items: int, n_raters: int, last: int):
+    """Checks beside the settings (columns E:F are not read as settings): what has been entered, and alpha."""
+    first_item, last_item = get_column_letter(3), get_column_letter(2 + n_items)
+    items = f"Applicants!${first_item}$2:${last_item}${last}"
+    crit = get_column_letter(3 + n_items + n_raters)
+    _header(st, 1, ["Check", "Value"], col=5)
+    checks = [
+        ("Applicants entered", f"=COUNTA(Applicants!$A$2:$A${last})"),
+        ("Item responses entered", f"=COUNT({items})"),
+        ("People with a supervisor rating", f"=COUNT(Applicants!${crit}$2:${crit}${last})"),
+        ("Coefficient alpha, preview", f'=IF(COUNTA(Applicants!$A$2:$A${last})<2,"enter data",'
+                                       f"CRONBACH_ALPHA({items}))"),
+    ]
+    for r, (label, formula) in enumerate(checks, start=2):
+        st.cell(r, 5, label)
+        st.cell(r, 6, formula).number_format = "0.000" if "ALPHA" in formula else "0"
+    st.column_dimensions["E"].width = 32
+    st.column_dimensions["F"].width = 14
+
 
 def study_data_workbook(path: str | Path, demo: DemoData | None = None, *, n_items: int = 40, n_raters: int = 3,
                         cut: float | None = None, capacity: int = 5000) -> Path:
@@ -119,23 +139,7 @@ def study_data_workbook(path: str | Path, demo: DemoData | None = None, *, n_ite
     st.column_dimensions["A"].width = 24
     st.column_dimensions["B"].width = 34
     st.column_dimensions["C"].width = 62
-    # checks beside the settings (columns E:F are not read as settings)
-    first_item, last_item = get_column_letter(3), get_column_letter(2 + n_items)
-    items = f"Applicants!${first_item}$2:${last_item}${last}"
-    crit = get_column_letter(3 + n_items + n_raters)
-    _header(st, 1, ["Check", "Value"], col=5)
-    checks = [
-        ("Applicants entered", f"=COUNTA(Applicants!$A$2:$A${last})"),
-        ("Item responses entered", f"=COUNT({items})"),
-        ("People with a supervisor rating", f"=COUNT(Applicants!${crit}$2:${crit}${last})"),
-        ("Coefficient alpha, preview", f'=IF(COUNTA(Applicants!$A$2:$A${last})<2,"enter data",'
-                                       f"CRONBACH_ALPHA({items}))"),
-    ]
-    for r, (label, formula) in enumerate(checks, start=2):
-        st.cell(r, 5, label)
-        st.cell(r, 6, formula).number_format = "0.000" if "ALPHA" in formula else "0"
-    st.column_dimensions["E"].width = 32
-    st.column_dimensions["F"].width = 14
+    _setup_checks(st, n_items, n_raters, last)
     st.cell(len(SETTINGS) + 3, 1, "Fill the Applicants sheet (one row per candidate; leave the supervisor rating blank "
                                   "for people not hired), name your columns above, then run: trueband study "
                                   "THIS_FILE.xlsx -o study.xlsx").alignment = _WRAP
@@ -172,7 +176,7 @@ def scoring_template(path: str | Path, *, n_items: int = 40, capacity: int = 500
     last = first + rows - 1
     a, z = get_column_letter(2), get_column_letter(1 + n_items)
     tc = 2 + n_items  # total column
-    T, LO, HI, BAND = (get_column_letter(tc + k) for k in range(4))
+    T = get_column_letter(tc)
     items = f"${a}${first}:${z}${last}"
     totals = f"${T}${first}:${T}${last}"
     ws["A1"] = title

@@ -1,0 +1,158 @@
+"""Reading a validation-study data workbook: its sheets as grids of stored values, its Setup, its data.
+
+:func:`read_study_data` reads the Setup sheet (:mod:`.setup`), applies the command line's overrides, reads
+the data sheet and checks it (:mod:`.data_checks`); nothing is written before all of that succeeded.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any, Mapping
+
+from .data_checks import check_data, note_uncached
+from .setup import SETUP_SHEET, SetupError, StudyData, cell_text, read_setup_sheet, setup_from_values
+
+__all__ = ["DataWorkbook", "read_study_data"]
+
+_MAX_INPUT_BYTES = 2_000_000_000  # uncompressed; a larger package is refused before it is read
+
+class DataWorkbook:
+    """The sheets of a workbook package as grids of cached values, read with the package layer
+    (:mod:`..workbook.package`, :mod:`..workbook.sheet_xml`): a formula cell gives its stored value, as a
+    spreadsheet app shows it; dates are their serial numbers."""
+
+    def __init__(self, path: Path):
+        from ..workbook.package import UnusableWorkbook, open_workbook_package
+
+        if not path.exists():
+            raise SetupError(f"{path} does not exist")
+        if path.suffix.lower() not in (".xlsx", ".xlsm"):
+            raise SetupError(f"{path.name} is not an .xlsx workbook (save it as .xlsx first)")
+        try:
+            self.pkg = open_workbook_package(path, check_lock=False, max_total=_MAX_INPUT_BYTES)
+        except UnusableWorkbook as exc:
+            raise SetupError(str(exc)) from None
+        self.sheetnames = [s.name for s in self.pkg.worksheets]
+
+    def close(self):
+        self.pkg.close()
+
+    def rows(self, name: str, *, max_col: int | None = None) -> list[list]:
+        """Every row from row 1 to the last one with a cell, each as long as the widest row."""
+        return self.sheet(name, max_col=max_col)[0]
+
+    def sheet(self, name: str, *, max_col: int | None = None):
+        """``(rows, formats, uncached)``: the rows as :meth:`rows` gives them; ``formats`` maps
+        ``(row, col)`` (1-based) to the number format of each cell that has one other than General
+        (dates keep their date format in the study's copy); ``uncached`` lists ``(row, col)`` of the
+        formula cells without a stored value."""
+        from ..workbook.sheet_xml import SheetXmlError, read_columns
+
+        try:
+            sc = read_columns(self.pkg.sheet_xml(name), self.pkg.shared_strings)
+        except SheetXmlError as exc:
+            raise SetupError(f"sheet '{name}' cannot be read: {exc}") from None
+        cols = {c: v for c, v in sc.columns.items() if max_col is None or c <= max_col}
+        styles = self.number_formats()
+        formats = {rc: styles[s] for rc, s in sc.styles.items() if s in styles and rc[1] in cols}
+        uncached = [(r, c) for r, c, _ in sc.formulas if c in cols and sc.value(r, c) is None]
+        return self._grid(cols), formats, uncached
+
+    def number_formats(self) -> dict[int, str]:
+        """Style index -> number format code, for the styles whose format is not General."""
+        if hasattr(self, "_formats"):
+            return self._formats
+        from openpyxl.styles.numbers import BUILTIN_FORMATS
+
+        from ..workbook.package import UnusableWorkbook
+
+        self._formats: dict[int, str] = {}
+        part = next((r["part"] for r in self.pkg.workbook_rels if r.get("Type", "").endswith("/styles")
+                     and "part" in r), None)
+        if part is None or part not in self.pkg:
+            return self._formats
+        try:
+            root = self.pkg.xml(part)
+        except UnusableWorkbook:  # an unreadable styles part only costs the copy its number formats
+            return self._formats
+
+        def local(el):
+            return el.tag.rsplit("}", 1)[-1]
+
+        custom = {}
+        for el in root:
+            if local(el) == "numFmts":
+                for f in el:
+                    try:
+                        custom[int(f.get("numFmtId"))] = f.get("formatCode") or ""
+                    except (TypeError, ValueError):
+                        pass
+            elif local(el) == "cellXfs":
+                for i, xf in enumerate(x for x in el if local(x) == "xf"):
+                    try:
+                        fid = int(xf.get("numFmtId", "0"))
+                    except ValueError:
+                        continue
+                    code = custom.get(fid, BUILTIN_FORMATS.get(fid))
+                    if code is None and 14 <= fid <= 22:
+                        code = "yyyy-mm-dd"
+                    if code and code != "General":
+                        self._formats[i] = code
+        return self._formats
+
+    @staticmethod
+    def _grid(cols) -> list[list]:
+        if not cols:
+            return []
+        n_rows = max(rows[-1] for rows, _ in cols.values() if rows)
+        width = max(cols)
+        grid = [[None] * width for _ in range(n_rows)]
+        for c, (rows, values) in cols.items():
+            j = c - 1
+            for r, v in zip(rows, values):
+                grid[r - 1][j] = v
+        return grid
+
+
+def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None) -> StudyData:
+    """Read and check a data workbook: its Setup sheet, ``overrides`` on top, then every named column.
+
+    Raises :class:`SetupError` with a message naming the setting, column and sheet.
+    """
+    path = Path(path)
+    wb = DataWorkbook(path)
+    try:
+        values, where = read_setup_sheet(wb)
+        setup = setup_from_values(values, where).merged(dict(overrides or {}))
+        sheet = setup.data_sheet
+        if sheet is None:
+            others = [n for n in wb.sheetnames if n.strip().lower() != SETUP_SHEET.lower()]
+            if not others:
+                raise SetupError(f"{path.name} has no data sheet (only a '{SETUP_SHEET}' sheet)")
+            sheet = others[0]
+        match = next((n for n in wb.sheetnames if n.lower() == sheet.lower()), None)
+        if match is None:
+            raise SetupError(f"data sheet: no sheet named {sheet!r} in {path.name} (its sheets: "
+                             f"{', '.join(wb.sheetnames)})")
+        sheet = match
+        grid, formats, uncached = wb.sheet(sheet)
+    finally:
+        wb.close()
+    header = [cell_text(h) for h in grid[0]] if grid else []
+    if not any(header):
+        raise SetupError(f"sheet '{sheet}' is empty: row 1 must hold the column headers")
+    while header and header[-1] is None:
+        header.pop()
+    width = len(header)
+    rows = [tuple(row[:width]) for row in grid[1:]]
+    while rows and all(c is None or (isinstance(c, str) and not c.strip()) for c in rows[-1]):
+        rows.pop()
+    if not rows:
+        raise SetupError(f"sheet '{sheet}' has a header row but no data rows below it")
+    data = check_data(setup, path, sheet, header, rows)
+    data.raw_header = list(grid[0][:width])
+    # the copy's rows stand in the same sheet rows as the source's (from row 2)
+    data.formats = {(r, c - 1): f for (r, c), f in formats.items() if 2 <= r <= len(rows) + 1 and c <= width}
+    note_uncached(data, uncached, width)
+    return data
+

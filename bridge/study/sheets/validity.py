@@ -1,0 +1,201 @@
+"""Validity: criterion-related validity, its corrections, the fitted line and the expectancy table."""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+from openpyxl.utils import get_column_letter
+
+from trueband.funcs.errors import InsufficientDataError
+
+from .. import charts
+from ..context import Ref, StudyContext, area, cell, fill_row
+from ..setup import HIRED_CODINGS
+from .bands import BANDS_SHEET, BandsLayout
+from .reliability import Reliability
+from .setup import SetupSheet
+
+__all__ = ["Validity", "write"]
+
+SHEET = "Validity"
+EXPECTANCY_ROW = 24   # the expectancy table's heading
+LISTED_ROW = 3        # the first row of the people with a criterion value (columns O:Q, the chart's data)
+
+
+@dataclasses.dataclass(frozen=True)
+class Validity:
+    """The cells other sheets read; ``None``: not part of this study (no criterion column)."""
+
+    r: Ref
+    r_lower: Ref | None = None
+    r_upper: Ref | None = None
+    r_p: Ref | None = None
+    operational: Ref | None = None
+    n_criterion: Ref | None = None
+    criteria_listed: Ref | None = None   # the criterion values listed in column Q, when r is computable
+
+
+def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLayout) -> Validity:
+    g = ctx.sheet(SHEET)
+    g.widths.update({1: 62, 2: 14, 3: 14, 4: 14, 5: 14, 6: 16})
+    d, s = ctx.data, ctx.setup
+    g.set(1, 1, "Criterion-related validity", "title")
+    if d.criterion is None:
+        return Validity(r=ctx.not_computable_at(g, 3, 1, "no criterion column was given", key="r"))
+    scores, criterion = d.scores, d.criterion
+    both = ~np.isnan(scores) & ~np.isnan(criterion)
+    n = int(both.sum())
+    criterion_range, restricted_range = bands.criterion, bands.scores_with_criterion
+    g.set(3, 1, "People with a test score and a criterion value")
+    n_criterion = ctx.formula(g, 3, 2, "COUNT", restricted_range, check=lambda: n, style="count",
+                              key="n_criterion")
+    if d.hired is not None:
+        g.set(4, 1, "People hired (hired column)")
+        ctx.formula(g, 4, 2, "SUM", bands.hired, check=lambda: int(d.hired.sum()), style="count")
+        g.set(4, 3, f"({HIRED_CODINGS} in column {s.hired!r}, read into Bands column "
+                    f"{get_column_letter(bands.hired_col)})")
+
+    def r_check():
+        if n < 3:
+            raise InsufficientDataError(
+                f"fewer than 3 people have both a score and a criterion value (column {s.criterion!r} on sheet "
+                f"'{d.sheet}'{' is blank for everyone' if np.isnan(criterion).all() else ''})")
+        a, b = scores[both], criterion[both]
+        if np.std(a) == 0:
+            raise InsufficientDataError("the people with a criterion value all have the same test score")
+        if np.std(b) == 0:
+            raise InsufficientDataError("every criterion value is the same")
+        return float(np.corrcoef(a, b)[0, 1])
+
+    conf = s.confidence
+    g.set(5, 1, "Observed validity: correlation of score and criterion (r)")
+    r = ctx.formula(g, 5, 2, "CORREL", restricted_range, criterion_range, check=r_check, style="coef", key="r")
+    g.set(5, 3, f"{conf:.0%} CI lower", "header")
+    g.set(5, 4, f"{conf:.0%} CI upper", "header")
+    g.set(5, 5, "p (two-sided)", "header")
+    r_lower, r_upper = (ctx.formula(g, 6, col, "R_CI", r, n_criterion, part, setup.confidence, style="coef",
+                                    key=f"r_{part}") for col, part in ((3, "lower"), (4, "upper")))
+    r_p = ctx.formula(g, 6, 5, "R_PVALUE", r, n_criterion, style="p", key="r_p")
+    g.set(6, 1, "  interval (Fisher z) and p (t test of r = 0)")
+    operational = _corrections(ctx, g, setup, rel, r, restricted_range, scores[both])
+    g.set(21, 1, "Fitted line: criterion = intercept + slope × score")
+    g.set(21, 3, "slope", "header")
+    g.set(21, 5, "intercept", "header")
+
+    def line(part):
+        ctx.value(r)
+        slope, intercept = np.polyfit(scores[both], criterion[both], 1)
+        return float(slope if part == "slope" else intercept)
+
+    ctx.formula(g, 22, 3, "SLOPE", criterion_range, restricted_range, check=lambda: line("slope"), style="coef",
+                key="slope")
+    ctx.formula(g, 22, 5, "INTERCEPT", criterion_range, restricted_range, check=lambda: line("intercept"),
+                style="coef", key="intercept")
+    listed = np.flatnonzero(both) + 2   # the Bands rows of the people with a criterion value
+    have_r = isinstance(r.value, float)
+    end = LISTED_ROW - 1 + len(listed)
+    listed_scores, listed_criteria = (area(SHEET, col, LISTED_ROW, col, end) for col in (16, 17))
+    _expectancy(ctx, g, setup, rel, have_r, listed_scores.fixed(), listed_criteria.fixed())
+    if have_r:
+        _listed(ctx, g, bands, listed, end, s.criterion)
+    return Validity(r=r, r_lower=r_lower, r_upper=r_upper, r_p=r_p, operational=operational, n_criterion=n_criterion,
+                    criteria_listed=listed_criteria.qualified() if have_r else None)
+
+
+def _corrections(ctx: StudyContext, g, setup: SetupSheet, rel: Reliability, r: Ref, restricted_range: Ref,
+                 restricted_scores) -> Ref:
+    """Rows 8 to 20: the inputs to the corrections and the corrected validities; returns operational validity."""
+    s = ctx.setup
+    g.set(8, 1, "Inputs to the corrections", "heading")
+    g.set(9, 1, "Criterion reliability (from Setup)")
+    g.set(9, 2, "=" + setup.criterion_reliability.address(SHEET), "coef")
+    ryy = cell(SHEET, 9, 2, value=s.criterion_reliability, name="ryy")
+    g.set(10, 1, "Test reliability among all applicants (from Reliability)")
+    rxx = ctx.link(g, 10, 2, rel.reliability, style="coef", key="rxx")
+    g.set(11, 1, "SD of scores, all applicants")
+    sd_all = ctx.formula(g, 11, 2, "STDEV", rel.scores, check=lambda: ctx.value(rel.sd), style="coef", key="sd_all")
+
+    def sd_restricted_check():
+        if restricted_scores.size < 2:
+            raise InsufficientDataError("fewer than 2 people have a criterion value")
+        return float(np.std(restricted_scores, ddof=1))
+
+    g.set(12, 1, "SD of scores, people with a criterion value (restricted group)")
+    sd_restricted = ctx.formula(g, 12, 2, "STDEV", restricted_range, check=sd_restricted_check, style="coef",
+                                key="sd_restricted")
+    g.set(13, 1, "Ratio of the two SDs, u")
+    u = ctx.expression(g, 13, 2, "{restricted}/{all}", lambda: ctx.value(sd_restricted) / ctx.value(sd_all),
+                       style="coef", key="u", restricted=sd_restricted, all=sd_all)
+    g.set(15, 1, "Corrected validity", "heading")
+    g.set(16, 1, "Corrected for criterion unreliability (Spearman)")
+    ctx.formula(g, 16, 2, "DISATTENUATE", r, 1, ryy, style="coef", key="r_disattenuated")
+    g.set(17, 1, "Corrected for direct range restriction on the test (Thorndike Case II)")
+    ctx.formula(g, 17, 2, "RANGE_CORRECT", r, sd_restricted, sd_all, style="coef", key="r_range")
+    g.set(18, 1, "Operational validity: criterion unreliability, then direct range restriction")
+    operational = ctx.formula(g, 18, 2, "OPERATIONAL_VALIDITY", r, ryy, sd_restricted, sd_all, style="coef",
+                              key="operational")
+    g.set(19, 1, "Operational validity under indirect range restriction (Hunter, Schmidt & Le, 2006)")
+    ctx.formula(g, 19, 2, "RANGE_CORRECT_INDIRECT", r, u, rxx, ryy, style="coef", key="operational_indirect")
+    g.set(20, 1, "Maximum possible observed validity, √(test reliability × criterion reliability)")
+    ctx.formula(g, 20, 2, "MAX_VALIDITY", rxx, ryy, style="coef", key="max_validity")
+    return operational
+
+
+def _expectancy(ctx: StudyContext, g, setup: SetupSheet, rel: Reliability, have_r: bool, listed_scores: Ref,
+                listed_criteria: Ref) -> None:
+    """The expectancy table: criterion by score fifth (quintile) of all applicants. The people with a criterion
+    value are listed in P:Q: ranges of numbers only, so the conditional counts never compare text with numbers."""
+    row = EXPECTANCY_ROW
+    g.set(row, 1, "Expectancy table: criterion by score fifth (quintile) of all applicants", "heading")
+    g.set(row + 1, 1, "Success means a criterion value at or above (Setup: success threshold)")
+    g.set(row + 1, 2, "=" + setup.success_cell.address(SHEET), "coef")
+    threshold = cell(SHEET, row + 1, 2).fixed()
+    head = ("Score fifth", "Scores from", "up to (below)", "People with a criterion value", "Mean criterion",
+            "Share successful")
+    for c, h in enumerate(head, start=1):
+        g.set(row + 2, c, h, "header")
+    for q in range(5):
+        r = row + 3 + q
+        g.set(r, 1, ("lowest", "second", "middle", "fourth", "highest")[q] + " fifth")
+        if not have_r:
+            ctx.not_computable_at(g, r, 2, "validity is not computable (see B5)")
+            continue
+        places = dict(scores=rel.scores, low=cell(SHEET, r, 2), high=cell(SHEET, r, 3), count=cell(SHEET, r, 4),
+                      listed=listed_scores, criteria=listed_criteria, threshold=threshold, fifth=q / 5,
+                      next_fifth=(q + 1) / 5)
+        text = lambda template: ctx.text(template, SHEET, **places)  # noqa: E731
+        g.set(r, 2, text("=MIN({scores})" if q == 0 else "=PERCENTILE({scores},{fifth})"), "score")
+        if q < 4:
+            g.set(r, 3, text("=PERCENTILE({scores},{next_fifth})"), "score")
+            within = '{listed},">="&{low},{listed},"<"&{high}'
+        else:
+            g.set(r, 3, text("=MAX({scores})"), "score")
+            within = '{listed},">="&{low},{listed},"<="&{high}'
+        g.set(r, 4, text("=COUNTIFS(" + within + ")"), "count")
+        g.set(r, 5, text('=IF({count}=0,"none",AVERAGEIFS({criteria},' + within + "))"), "coef")
+        g.set(r, 6, text('=IF({count}=0,"none",COUNTIFS(' + within + ',{criteria},">="&{threshold})/{count})'), "pct")
+    g.para(row + 9, 1, "Fifths are cut at the 20th, 40th, 60th and 80th percentiles of all applicants' scores; a "
+                      "score on a cut point belongs to the higher fifth. Rising shares down the table are what a "
+                      "valid test shows. Validity figures are statistical indicators, not legal findings.")
+
+
+def _listed(ctx: StudyContext, g, bands: BandsLayout, listed, end: int, criterion_name: str | None) -> None:
+    """The people with a criterion value (columns O:Q: their Bands row, score and criterion) and the scatter."""
+    g.set(2, 15, "Row on Bands", "header")
+    g.set(2, 16, "Score", "header")
+    g.set(2, 17, "Criterion", "header")
+    # one formula filled down (the row number beside it differs), not one formula per person
+    places = dict(row=cell(SHEET, None, 15))
+    score_text = ctx.text("=INDEX({column},{row})", SHEET, column=area(BANDS_SHEET, 3, 1, 3, bands.last), **places)
+    criterion_text = ctx.text("=INDEX({column},{row})", SHEET, column=area(BANDS_SHEET, 9, 1, 9, bands.last),
+                              **places)
+    for k, r in enumerate(listed):
+        g.set(LISTED_ROW + k, 15, int(r))
+        g.set(LISTED_ROW + k, 16, fill_row(score_text, LISTED_ROW + k))
+        g.set(LISTED_ROW + k, 17, fill_row(criterion_text, LISTED_ROW + k))
+    g.charts.append((charts.score_vs_criterion(charts.area(area(SHEET, 16, LISTED_ROW, 16, end)),
+                                               charts.area(area(SHEET, 17, LISTED_ROW, 17, end)),
+                                               x_title="Test score", y_title=criterion_name or "Criterion"),
+                     "A36"))
+    g.print_area = "A1:F56"  # the chart's data (columns P:Q) is not printed

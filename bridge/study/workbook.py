@@ -1,0 +1,67 @@
+"""Writing the study's sheets to a package: the composed sheets in their order, then the long sheets' rows.
+
+The Bands, Scored items and data-copy sheets get only their header here; their rows are spliced into the
+saved package (see :mod:`.long_sheets`), which is much faster than writing them cell by cell.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from openpyxl import Workbook
+from openpyxl.utils import get_column_letter
+
+from . import long_sheets
+from .context import StudyContext
+from .grid import styled
+from .setup import SETUP_SHEET
+from .sheets import bands as bands_sheet
+from .sheets import data_copy, scored_items
+from .sheets.bands import BANDS_SHEET, Bands
+from .sheets.scored_items import SCORED_SHEET
+from .sheets.setup import SetupSheet
+
+__all__ = ["ANALYSIS_SHEETS", "save"]
+
+ANALYSIS_SHEETS = ("Summary", "Reliability", "Items", "Raters", "Validity", BANDS_SHEET, "Impact", "Utility",
+                   "Notes")
+
+
+def _bands_header(wb: Workbook, bands: Bands) -> None:
+    ws = wb.create_sheet(BANDS_SHEET)
+    for c, w in enumerate(bands_sheet.WIDTHS, start=1):
+        ws.column_dimensions[get_column_letter(c)].width = w
+    ws.freeze_panes = "A2"
+    ws.print_title_rows = "1:1"
+    ws.page_setup.fitToWidth = 1
+    ws.page_setup.fitToHeight = 0
+    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    ws.append([styled(ws, h, "header") for h in bands.layout.header])
+
+
+def save(ctx: StudyContext, setup: SetupSheet, bands: Bands, path: Path) -> None:
+    """Write the workbook, then splice in the rows of the long sheets."""
+    d = ctx.data
+    wb = Workbook(write_only=True)
+    for title in ANALYSIS_SHEETS:
+        if title == BANDS_SHEET:
+            _bands_header(wb, bands)
+        else:
+            ctx.grids[title].write(wb)
+    ctx.grids[SETUP_SHEET].write(wb)
+    if d.reverse_items:
+        ws = wb.create_sheet(SCORED_SHEET)
+        ws.freeze_panes = "A2"
+        ws.append([styled(ws, h, "header") for h in scored_items.header(d)])
+    copy_styles = data_copy.write_header(wb, d)
+    wb.save(path)
+    last = d.n + 1
+    rows = {BANDS_SHEET: lambda: long_sheets.rows_xml(bands.rows(d), 2, formulas=True),
+            d.sheet: lambda: long_sheets.rows_xml(d.rows, 2, formulas=False, styles=copy_styles)}
+    corners = {BANDS_SHEET: f"{get_column_letter(len(bands.layout.header))}{last}",
+               d.sheet: f"{get_column_letter(max(1, len(d.header)))}{last}"}
+    if d.reverse_items:
+        rows[SCORED_SHEET] = lambda: long_sheets.rows_xml(
+            scored_items.rows(d, setup.item_min, setup.item_max), 2, formulas=True)
+        corners[SCORED_SHEET] = f"{get_column_letter(len(d.item_columns))}{last}"
+    long_sheets.splice_rows(path, rows, corners)
