@@ -4,24 +4,28 @@ Importing this package registers every spreadsheet function; call one by its
 spreadsheet name with :func:`call`, or import its Python function from the
 topic module:
 
-=================  ==================================================
-module             topic
-=================  ==================================================
-``scores``         measurement error and score interpretation
-``reliability``    reliability from item data, item analysis
-``agreement``      rater agreement
-``validity``       validity coefficients and their corrections
-``utility``        selection utility
-``impact``         adverse impact
-``cutscores``      cut-score setting
-=================  ==================================================
+====================  ==========================================================================
+module                topic
+====================  ==========================================================================
+``scores``            measurement error and score interpretation
+``reliability``       reliability from item data, item analysis
+``agreement``         rater agreement
+``validity``          validity coefficients and their corrections, group differences (d)
+``utility``           selection utility
+``impact``            adverse impact: rates, ratio, four-fifths, z, Fisher
+``impact_intervals``  adverse impact: ratio interval, odds ratio, flip count, small numbers, cuts
+``impact_pooled``     adverse impact pooled across strata (the Mantel-Haenszel family)
+``cutscores``         cut-score setting
+====================  ==========================================================================
 
 >>> from trueband.funcs import call
 >>> round(call("SEM", 12, 0.91), 12)
 3.6
 """
 
-from . import agreement, cutscores, impact, reliability, scores, utility, validity  # noqa: F401  (registers)
+from . import (  # noqa: F401  (registers)
+    agreement, cutscores, impact, impact_intervals, impact_pooled, reliability, scores, utility, validity,
+)
 from .errors import (  # noqa: F401
     ArgumentCountError,
     ArgumentTypeError,

@@ -107,7 +107,7 @@ def boolean(name: str, value) -> bool:
         value = value.item()
     if isinstance(value, (bool, np.bool_)):
         return bool(value)
-    if isinstance(value, numbers.Real) and float(value) in (0.0, 1.0):
+    if isinstance(value, numbers.Real) and to_float(value) in (0.0, 1.0):  # to_float: 10**400 is no error here
         return bool(value)
     if isinstance(value, str) and value.strip().upper() in ("TRUE", "FALSE"):
         return value.strip().upper() == "TRUE"
