@@ -100,7 +100,8 @@ def impact_ratio_limits(focal_selected, focal_applicants, ref_selected, ref_appl
 
     The same formula and checks as :func:`impact_ratio_ci`, except that a zero
     ``focal_selected`` gives low 0 and high ``inf`` instead of an error, so a
-    whole column of cuts computes at once.
+    whole column of cuts computes at once. A row where everybody in both groups
+    is selected (the lowest cut) is refused as there: leave it out.
 
     Examples
     --------
@@ -372,7 +373,8 @@ def impact_flip(focal_selected: int, focal_applicants: int, ref_selected: int, r
     verdict (all focal applicants selected, or none left to remove) the result
     is ``#NUM!`` naming ``focal_selected``. Changes are tried one by one up
     to 32, then by doubling and halving, which finds the smallest count when
-    the verdict changes once beyond 32 (the p value moves steadily there;
+    the verdict changes once in the range searched (toward the reference
+    rate the search stops at the first count past parity, where p is near 1;
     the tests check it against a one-by-one search). The applicants may
     total at most 10⁹, as for ``IMPACT_FISHER``.
 
@@ -395,7 +397,19 @@ def impact_flip(focal_selected: int, focal_applicants: int, ref_selected: int, r
     now = significant(fs)
     step = (1 if fs * ra < rs * fa else -1) if now else -1
     limit = fa - fs if step > 0 else fs
-    k = _first_true(lambda k: significant(fs + step * k) != now, limit)
+
+    def flipped(k: int) -> bool:
+        return significant(fs + step * k) != now
+
+    if now:
+        # Toward the reference rate p rises to about 1 at parity and falls again beyond it: search up to the
+        # first count at or past parity (one crossing there), and one by one after it (rarely reached).
+        parity = min(limit, -((-abs(rs * fa - fs * ra)) // ra))
+        k = _first_true(flipped, parity)
+        if k is None:
+            k = next((j for j in range(parity + 1, limit + 1) if flipped(j)), None)
+    else:
+        k = _first_true(flipped, limit)
     if k is None:
         change = "adding" if step > 0 else "removing"
         verdict = "significant" if now else "not significant"
