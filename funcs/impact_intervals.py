@@ -328,6 +328,36 @@ def _first_true(predicate, limit: int) -> int | None:
     return high
 
 
+def _flip_count(fs: int, fa: int, rs: int, ra: int, alpha: float) -> int:
+    """IMPACT_FLIP's search (see its Notes), on validated counts."""
+    def significant(a: int) -> bool:
+        return _fisher_two_sided(a, fa, a + rs, fa + ra) < alpha
+
+    now = significant(fs)
+    step = (1 if fs * ra < rs * fa else -1) if now else -1
+    limit = fa - fs if step > 0 else fs
+
+    def flipped(k: int) -> bool:
+        return significant(fs + step * k) != now
+
+    if now:
+        # Toward the reference rate p rises to about 1 at parity and falls again beyond it: search up to the
+        # first count at or past parity (one crossing there), and one by one after it (rarely reached).
+        parity = min(limit, -((-abs(rs * fa - fs * ra)) // ra))
+        k = _first_true(flipped, parity)
+        if k is None:
+            k = next((j for j in range(parity + 1, limit + 1) if flipped(j)), None)
+    else:
+        k = _first_true(flipped, limit)
+    if k is None:
+        change = "adding" if step > 0 else "removing"
+        verdict = "significant" if now else "not significant"
+        raise DomainError(f"focal_selected: no number of focal selections flips the verdict: {change} up to "
+                          f"{limit} leaves the Fisher test {verdict} at alpha {v.show(alpha)}",
+                          argument="focal_selected")
+    return k
+
+
 @spreadsheet("IMPACT_FLIP", returns="positive integer",
              reference="29 CFR 1607.4(D) (1978) (differences based on small numbers); Waisome v. Port Authority "
                        "of New York & New Jersey, 948 F.2d 1370 (2d Cir. 1991) (a significant difference that two "
@@ -389,34 +419,7 @@ def impact_flip(focal_selected: int, focal_applicants: int, ref_selected: int, r
     fs, fa, rs, ra = _four_counts(focal_selected, focal_applicants, ref_selected, ref_applicants)
     v.between("alpha", alpha, 0.0, 1.0, low_open=True, high_open=True)
     impact_fisher(fs, fa, rs, ra)  # the exact test's own size check, with its message
-    fs, fa, rs, ra = int(fs), int(fa), int(rs), int(ra)
-
-    def significant(a: int) -> bool:
-        return _fisher_two_sided(a, fa, a + rs, fa + ra) < alpha
-
-    now = significant(fs)
-    step = (1 if fs * ra < rs * fa else -1) if now else -1
-    limit = fa - fs if step > 0 else fs
-
-    def flipped(k: int) -> bool:
-        return significant(fs + step * k) != now
-
-    if now:
-        # Toward the reference rate p rises to about 1 at parity and falls again beyond it: search up to the
-        # first count at or past parity (one crossing there), and one by one after it (rarely reached).
-        parity = min(limit, -((-abs(rs * fa - fs * ra)) // ra))
-        k = _first_true(flipped, parity)
-        if k is None:
-            k = next((j for j in range(parity + 1, limit + 1) if flipped(j)), None)
-    else:
-        k = _first_true(flipped, limit)
-    if k is None:
-        change = "adding" if step > 0 else "removing"
-        verdict = "significant" if now else "not significant"
-        raise DomainError(f"focal_selected: no number of focal selections flips the verdict: {change} up to "
-                          f"{limit} leaves the Fisher test {verdict} at alpha {v.show(alpha)}",
-                          argument="focal_selected")
-    return k
+    return _flip_count(int(fs), int(fa), int(rs), int(ra), float(alpha))
 
 
 # ---------------------------------------------------------------- small numbers
