@@ -10,9 +10,11 @@ module                 topic
 ``scores``             measurement error and score interpretation; score bands
 ``reliability``        reliability from item data, item analysis
 ``agreement``          rater agreement
-``validity``           validity coefficients and their corrections
+``validity``           validity coefficients and their corrections, group differences (d)
 ``utility``            selection utility
-``impact``             adverse impact
+``impact``             adverse impact: rates, ratio, four-fifths, z, Fisher
+``impact_intervals``   adverse impact: ratio interval, odds ratio, flip count, small numbers, cuts
+``impact_pooled``      adverse impact pooled across strata (the Mantel-Haenszel family)
 ``cutscores``          cut-score setting: Angoff
 ``standard_setting``   cut-score setting: Nedelsky, Ebel, Hofstee, Beuk, contrasting and borderline groups
 ``decision_accuracy``  conditional SEM, decision consistency and accuracy at a cut
@@ -37,6 +39,8 @@ from . import (  # noqa: F401  (registers)
     dif,
     fairness,
     impact,
+    impact_intervals,
+    impact_pooled,
     options,
     reliability,
     scores,
