@@ -26,7 +26,7 @@ from openpyxl.formula.tokenizer import Token
 
 from trueband.bridge.addin import extension as calc_addin
 from trueband.bridge.formulas.calc_binding import bind_for_calc, bind_sheet_xml
-from trueband.bridge.formulas.library import evaluate_expression
+from trueband.bridge.engine.expression import evaluate_expression
 from trueband.funcs import call
 from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import REGISTRY, normalize_name

@@ -112,7 +112,7 @@ def _functions(args) -> int:
 
 
 def _eval(args) -> int:
-    from ..formulas.library import UnreadableFormula, evaluate_expression
+    from ..engine.expression import UnreadableFormula, evaluate_expression
 
     try:
         value = evaluate_expression(args.expression)

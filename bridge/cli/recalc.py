@@ -73,7 +73,8 @@ def _recalc(args) -> int:
 
 
 def _check(args) -> int:
-    from ..engine.recalc import UnusableWorkbook, check_workbook
+    from ..engine.check import check_workbook
+    from ..engine.recalc import UnusableWorkbook
 
     try:
         findings = check_workbook(args.book)
