@@ -106,18 +106,18 @@ def plan_fill(pkg: WorkbookPackage, sheet: str, column: str, *, rows: tuple[int,
             r += 1
         if last < first:
             raise FillError(f"sheet {info.name!r} has no data rows under its header (row {header_row}); "
-                               f"give --rows FIRST:LAST")
+                            f"give --rows FIRST:LAST")
     else:
         first, last = rows
     header_ref = None
     header_style = 0
     if header is not None:
-        hr = first - 1 if rows is not None else header_row
-        if hr < 1:
+        header_at = first - 1 if rows is not None else header_row  # the row the header cell goes in
+        if header_at < 1:
             raise FillError(f"the header would go above row 1; the data rows start at row {first}")
-        header_ref = f"{column}{hr}"
+        header_ref = f"{column}{header_at}"
         # styled like the neighbouring header: left first, then right, then the nearest styled one
-        row_styles = {c: s for (r, c), s in styles.items() if r == hr and c != col}
+        row_styles = {c: s for (r, c), s in styles.items() if r == header_at and c != col}
         for c in (col - 1, col + 1):
             if c in row_styles:
                 header_style = row_styles[c]
@@ -144,7 +144,7 @@ def checked_formula(formula: str, plan: FillPlan, *, same_formula: bool = False,
         raise FillError("--formula is empty")
     if "{row}" not in text and plan.rows > 1 and not same_formula:
         raise FillError(f"--formula {formula!r} has no {{row}}, so all {plan.rows} rows would get the same formula; "
-                           f"write {{row}} where each row's own number goes (e.g. H{{row}}), or add --same-formula")
+                        f"write {{row}} where each row's own number goes (e.g. H{{row}}), or add --same-formula")
     try:
         text = typed_formula(text)
     except TypedFormulaError as exc:
@@ -165,7 +165,7 @@ def checked_formula(formula: str, plan: FillPlan, *, same_formula: bool = False,
         missing = sorted({r.sheet for r in first.refs if r.sheet and r.sheet.casefold() not in known})
         if missing:
             raise FillError(f"--formula refers to a sheet that does not exist: {missing[0]!r} (the workbook's "
-                               f"sheets: {', '.join(sheets)}); nothing was written")
+                            f"sheets: {', '.join(sheets)}); nothing was written")
     return text
 
 
