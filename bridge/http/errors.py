@@ -39,10 +39,9 @@ PROTOCOL_ERRORS = {
     "internal_error": 500,
 }
 
-#: Host names that always reach a loopback-bound server.
-LOOPBACK_NAMES = ("localhost", "127.0.0.1", "[::1]")
-
+#: Where the text form of the API starts: its errors are plain text, not JSON.
 TEXT_PREFIX = "/v1/text/"
+
 
 class ProtocolError(Exception):
     """A request the bridge refuses before any function runs (or a batch/column over budget)."""
@@ -55,8 +54,6 @@ class ProtocolError(Exception):
         self.headers = headers or {}
 
 
-# ---------------------------------------------------------------- helpers
-
 def error_body(exc) -> dict:
     """The ``{"code", "message", "argument"}`` body of a function error or a protocol error."""
     if isinstance(exc, TruebandError):
@@ -64,7 +61,6 @@ def error_body(exc) -> dict:
         body.setdefault("argument", None)
         return body
     return {"code": exc.code, "message": exc.message, "argument": None}
-
 
 
 def json_response(data: Any, status: int = 200) -> Response:
@@ -131,7 +127,6 @@ def _on_fault(exc: BaseException):
     # The detail goes to the log only; the client learns nothing about the inside.
     log.error("fault while answering %s %s", request.method, request.path, exc_info=exc)
     return _error_response(ProtocolError("internal_error", "internal error; the server log has the detail"), 500)
-
 
 
 def register_error_handlers(app: Flask) -> None:

@@ -53,6 +53,7 @@ def _parse_int(text: str):
 def _refuse_constant(name: str):
     raise ValueError(f"{name} is not valid JSON")
 
+
 def count_cells(value) -> int:
     """Cells (leaves) inside the lists of a JSON value; iterative, so deep nesting cannot recurse."""
     count = 0
@@ -95,7 +96,6 @@ def json_body() -> Any:
         raise ProtocolError("malformed_json", f"the body is not valid UTF-8 JSON ({detail})") from None
 
 
-
 def over_budget(start: float) -> bool:
     return time.perf_counter() - start > current_app.config["TIME_BUDGET_SECONDS"]
 
@@ -105,7 +105,6 @@ def budget_error(done: int, total: int, what: str) -> ProtocolError:
     return ProtocolError("too_much_work",
                          f"this {what} needs more than {budget:g} s of computing (stopped after {done} of "
                          f"{total}); send it in smaller pieces")
-
 
 
 def _host_name(host: str) -> str:
@@ -161,8 +160,8 @@ def guard_request():
     return None
 
 
-
 def add_response_headers(resp: Response) -> Response:
+    """Runs after every request: the CORS headers of an allowed origin, ``nosniff`` and ``no-store``."""
     origin = g.get("cors_origin")
     if origin and "Access-Control-Allow-Origin" not in resp.headers:
         resp.headers.update(_cors_headers(origin, preflight=False))

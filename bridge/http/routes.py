@@ -23,6 +23,7 @@ from .openapi import openapi_document
 
 __all__ = ["api", "format_text_value"]
 
+
 def format_text_value(value) -> str:
     """A result as the text form shows it: TRUE/FALSE, integers as digits, floats in full (repr)."""
     if isinstance(value, bool):
@@ -30,7 +31,6 @@ def format_text_value(value) -> str:
     if isinstance(value, float):
         return repr(value)
     return str(value)
-
 
 
 def _fields(body: Any, allowed: tuple[str, ...], required: tuple[str, ...], what: str) -> dict:
@@ -61,7 +61,6 @@ def _call_one(body: Any):
         fn.bind((), args)  # refuses unknown names before they meet Python's own keyword rules
         return fn(**args)
     raise ArgumentTypeError("args must be a list (in order) or an object (by argument name)", argument="args")
-
 
 
 api = Blueprint("api", __name__, url_prefix="/v1")
