@@ -84,7 +84,7 @@ def main(argv=None) -> int:
     args = parser.parse_args(argv)
     if args.thin:
         from trueband.bridge.http.server import serving_in_background
-        from trueband.bridge.http.app import create_app
+        from trueband.bridge.http import create_app
 
         with serving_in_background(create_app()) as url:
             t = calc_times(args.cells, args.repeat, mode="thin", server_url=url)

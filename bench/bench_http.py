@@ -16,7 +16,7 @@
    plausible values, then times it with ranges scaled up to ``MAX_CELLS`` cells, a batch of
    ``MAX_BATCH_CALLS`` calls, and a column of ``MAX_COLUMN_ROWS`` rows (all rows valid, and
    every other row invalid, the column path's worst case). The slowest are printed, for sizing
-   the limits in ``bridge/http_app.py`` so that no request keeps a worker busy for more than a
+   the limits in ``bridge/http/guards.py`` so that no request keeps a worker busy for more than a
    few seconds.
 
 Loopback only, bounded, stops by itself. No thresholds: the numbers are for reading.
@@ -40,7 +40,7 @@ import time
 import numpy as np
 from flask import Response
 
-from trueband.bridge.http.app import DEFAULT_LIMITS, create_app
+from trueband.bridge.http import DEFAULT_LIMITS, create_app
 from trueband.funcs import REGISTRY, call
 from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import call_column

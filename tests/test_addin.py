@@ -26,7 +26,7 @@ from openpyxl.formula.tokenizer import Token
 
 from trueband.bridge.addin import extension as calc_addin
 from trueband.bridge.formulas.calc_binding import bind_for_calc, bind_sheet_xml
-from trueband.bridge.formulas.library import evaluate_expression
+from trueband.bridge.engine.expression import evaluate_expression
 from trueband.funcs import call
 from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import REGISTRY, normalize_name
@@ -335,7 +335,7 @@ def test_component_puts_the_environment_first_with_its_pth_files(component, tmp_
 
 def test_thin_component_agrees_with_call_through_the_server(component):
     from trueband.bridge.http.server import serving_in_background
-    from trueband.bridge.http.app import create_app
+    from trueband.bridge.http import create_app
 
     with serving_in_background(create_app()) as url:
         ns = component(mode="thin", server_url=url)
@@ -389,7 +389,7 @@ def test_thin_component_does_not_hold_calc_up_when_the_server_does_not_answer(co
 
 def test_thin_component_sends_the_access_token_from_the_environment(component, monkeypatch, capsys):
     from trueband.bridge.http.server import serving_in_background
-    from trueband.bridge.http.app import create_app
+    from trueband.bridge.http import create_app
 
     with serving_in_background(create_app({"TOKEN": "s3cret-for-tests"})) as url:
         monkeypatch.delenv("TRUEBAND_TOKEN", raising=False)

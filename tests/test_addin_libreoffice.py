@@ -215,7 +215,7 @@ def test_blank_missing_extra_and_logical_arguments(calc):
 def test_thin_mode_cells_agree_with_call_through_trueband_serve(soffice, tmp_path):
     """Thin mode: LibreOffice's Python sends each call to a running server (standard library only)."""
     from trueband.bridge.http.server import serving_in_background
-    from trueband.bridge.http.app import create_app
+    from trueband.bridge.http import create_app
 
     with serving_in_background(create_app()) as url:
         run = _runner(soffice, tmp_path, mode="thin", server_url=url)

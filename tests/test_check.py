@@ -11,7 +11,7 @@ import golden_books as gb
 import recalc_books as rb
 from trueband.bridge import cli
 from trueband.bridge.formulas.text import suggestions
-from trueband.bridge.engine.recalc import check_workbook
+from trueband.bridge.engine.check import check_workbook
 
 
 def test_findings_of_the_check_book(tmp_path):

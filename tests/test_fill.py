@@ -18,6 +18,7 @@ from scipy import stats
 
 import golden_books as gb
 from trueband.bridge.cli import fill as cf
+from trueband.bridge.engine import fill as fill_engine
 from trueband.bridge.cli import EXIT_FAILED, EXIT_OK, CommandError, main
 from trueband.bridge.workbook.sheet_xml import iter_cells
 from trueband.bridge.workbook.package import open_workbook_package
@@ -54,7 +55,7 @@ def cells(path, sheet):
 
 def test_plan_finds_the_table_rows_and_the_neighbouring_header_style(features):
     with open_workbook_package(features) as pkg:
-        plan = cf.plan_fill(pkg, "applicants", "F", header="Band")
+        plan = fill_engine.plan_fill(pkg, "applicants", "F", header="Band")
         header_styles = {c.ref: c.style for c in iter_cells(pkg.sheet_xml("Applicants"), pkg.shared_strings)
                          if c.row == 1}
     assert (plan.sheet, plan.first, plan.last, plan.header_ref) == ("Applicants", 2, 7, "F1")
@@ -68,16 +69,16 @@ def test_plan_stops_at_the_first_empty_row(tmp_path):
     rows += [gb.row_xml(8, [gb.cell_xml("A8", "notes", t="str")])]
     path = gb.handmade_package(tmp_path / "table.xlsx", [("Scores", gb.sheet_part(rows))])
     with open_workbook_package(path) as pkg:
-        plan = cf.plan_fill(pkg, "Scores", "C", header="Double")
+        plan = fill_engine.plan_fill(pkg, "Scores", "C", header="Double")
         assert (plan.first, plan.last, plan.header_style) == (2, 5, 1)
-        explicit = cf.plan_fill(pkg, "Scores", "C", rows=(3, 9), header="x")
+        explicit = fill_engine.plan_fill(pkg, "Scores", "C", rows=(3, 9), header="x")
         assert (explicit.first, explicit.last, explicit.header_ref) == (3, 9, "C2")
 
 
 def test_fill_adds_only_the_new_cells(features):
     with open_workbook_package(features) as pkg:
-        plan = cf.plan_fill(pkg, "Applicants", "F", header="Band")
-        changes = cf.fill_changes(pkg, plan, "=SCORE_BAND(C{row},$C$2:$C$7,Settings!$B$1,Reliability)", header="Band")
+        plan = fill_engine.plan_fill(pkg, "Applicants", "F", header="Band")
+        changes = fill_engine.fill_changes(pkg, plan, "=SCORE_BAND(C{row},$C$2:$C$7,Settings!$B$1,Reliability)", header="Band")
         sheet_part = pkg.sheet("Applicants").part
         assert set(changes.replace) == {sheet_part, "xl/workbook.xml"}  # workbook: fullCalcOnLoad removed
         assert not changes.add and not changes.remove
@@ -150,8 +151,8 @@ def test_fill_in_place_with_backup(features):
 def test_fill_drops_the_calculation_chain(tmp_path):
     path = gb.formula_forms_book(tmp_path / "forms.xlsx")
     with open_workbook_package(path) as pkg:
-        plan = cf.plan_fill(pkg, "Scores", "G", header="Twice")
-        changes = cf.fill_changes(pkg, plan, "=B{row}*2", header="Twice")
+        plan = fill_engine.plan_fill(pkg, "Scores", "G", header="Twice")
+        changes = fill_engine.fill_changes(pkg, plan, "=B{row}*2", header="Twice")
         assert "xl/calcChain.xml" in changes.remove
         assert (plan.first, plan.last) == (2, 11)
 
@@ -203,7 +204,7 @@ def test_bands_mistakes_are_one_line(features, argv, words, capsys):
 
 
 def test_bands_formula_quotes_sheet_names():
-    formula, sheet, r1, r2 = cf.bands_formula("'Pool 2026'!H401:H2", "'Pool 2026'!K1", "K2")
+    formula, sheet, r1, r2 = fill_engine.bands_formula("'Pool 2026'!H401:H2", "'Pool 2026'!K1", "K2")
     assert (sheet, r1, r2) == ("Pool 2026", 2, 401)
     assert formula == "=SCORE_BAND(H{row},$H$2:$H$401,'Pool 2026'!$K$1,$K$2)"
     with pytest.raises(CommandError):
@@ -226,5 +227,5 @@ def test_plan_skips_a_title_above_the_table(tmp_path):
     rows += [gb.row_xml(r, [gb.cell_xml(f"A{r}", r), gb.cell_xml(f"B{r}", 20 + r)]) for r in range(4, 9)]
     path = gb.handmade_package(tmp_path / "titled.xlsx", [("Scores", gb.sheet_part(rows))])
     with open_workbook_package(path) as pkg:
-        plan = cf.plan_fill(pkg, "Scores", "C", header="Band")
+        plan = fill_engine.plan_fill(pkg, "Scores", "C", header="Band")
     assert (plan.header_ref, plan.first, plan.last, plan.header_style) == ("C3", 4, 8, 1)

@@ -15,7 +15,7 @@ import math
 import pytest
 from scipy import stats
 
-from trueband.bridge.http.app import PROTOCOL_ERRORS, create_app
+from trueband.bridge.http import PROTOCOL_ERRORS, create_app
 from trueband.funcs import REGISTRY, __version__, call, catalog, lookup
 from trueband.funcs.errors import ERROR_CLASSES
 

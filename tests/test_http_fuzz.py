@@ -12,7 +12,7 @@ from hypothesis import HealthCheck, settings
 from schemathesis.checks import not_a_server_error
 from schemathesis.specs.openapi.checks import response_schema_conformance
 
-from trueband.bridge.http.app import create_app
+from trueband.bridge.http import create_app
 
 app = create_app()
 

@@ -14,7 +14,7 @@ import threading
 import urllib.parse
 
 from trueband.bridge.http.server import serving_in_background
-from trueband.bridge.http.app import create_app
+from trueband.bridge.http import create_app
 from trueband.funcs import call, lookup
 from trueband.funcs.errors import TruebandError
 

@@ -19,7 +19,7 @@ from pathlib import Path
 import pytest
 from scipy import stats
 
-from trueband.bridge.http.app import create_app
+from trueband.bridge.http import create_app
 
 README = Path(__file__).resolve().parents[1] / "README.md"
 

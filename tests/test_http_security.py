@@ -14,7 +14,7 @@ import pytest
 from trueband.bridge import cli
 
 from trueband.bridge.cli import serve as cmd_serve
-from trueband.bridge.http.app import DEFAULT_LIMITS, create_app
+from trueband.bridge.http import DEFAULT_LIMITS, create_app
 from trueband.funcs import call
 
 CALL = {"function": "SEM", "args": [15, 0.91]}
@@ -119,7 +119,7 @@ def test_right_token_is_accepted(guarded):
 
 
 def test_token_is_compared_in_constant_time(guarded, monkeypatch):
-    from trueband.bridge.http import app as http_app
+    from trueband.bridge.http import guards
 
     seen = []
     real = hmac.compare_digest
@@ -128,7 +128,7 @@ def test_token_is_compared_in_constant_time(guarded, monkeypatch):
         seen.append((a, b))
         return real(a, b)
 
-    monkeypatch.setattr(http_app.hmac, "compare_digest", spy)
+    monkeypatch.setattr(guards.hmac, "compare_digest", spy)
     guarded.get("/v1/health", headers={"Authorization": "Bearer guess"})
     assert seen == [(b"guess", TOKEN.encode())]
 

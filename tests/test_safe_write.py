@@ -230,6 +230,13 @@ def test_abrupt_exit_mid_write_leaves_input_intact(tmp_path):
     assert not features.with_name("features.recalc.xlsx").exists()
 
 
+#: The command as `python -m trueband.bridge` runs it, after setting Python's own Ctrl-C handler. A Python
+#: started with SIGINT ignored (a shell's background job, some CI runners) keeps it ignored, and Ctrl-C
+#: would then do nothing; setting the handler here makes the test independent of what it inherits.
+CTRL_C_CHILD = ("import signal, sys; signal.signal(signal.SIGINT, signal.default_int_handler); "
+                "from trueband.bridge.cli import main; sys.exit(main(sys.argv[1:]))")
+
+
 @pytest.mark.skipif(sys.platform == "win32", reason="sends SIGINT, as Ctrl-C does in a POSIX terminal")
 def test_ctrl_c_mid_write_cleans_up_and_exits_130(tmp_path):
     (tmp_path / "book").mkdir()
@@ -245,7 +252,7 @@ def test_ctrl_c_mid_write_cleans_up_and_exits_130(tmp_path):
     original = digest(values_book)
     marker = tmp_path / "paused"
     env = {**os.environ, "TRUEBAND_TEST_WRITE_HOOK": f"pause:2:{marker}"}
-    proc = subprocess.Popen([sys.executable, "-m", "trueband.bridge", "restore", str(values_book), "--in-place"],
+    proc = subprocess.Popen([sys.executable, "-c", CTRL_C_CHILD, "restore", str(values_book), "--in-place"],
                             env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE)
     _wait_for(marker, proc)
     proc.send_signal(signal.SIGINT)

@@ -1,8 +1,9 @@
 """The ``trueband`` command.
 
 Each group of subcommands lives in its own module with a ``register(subparsers)``
-function that adds its parsers and sets ``handler`` on each; this module only
-assembles them and maps outcomes to exit codes that scripts can rely on:
+function that adds its parsers and sets ``handler`` on each (command modules
+share :mod:`.common` and never import each other); this module only assembles
+them and maps outcomes to exit codes that scripts can rely on:
 
 ====  ===========================================================
 code  meaning
@@ -28,14 +29,16 @@ import textwrap
 from .common import EXIT_CELL_ERRORS, EXIT_FAILED, EXIT_INTERRUPTED, EXIT_OK, CommandError, add_output_options  # noqa: F401
 
 
-#: Modules that add subcommands, in the order they appear in ``--help``.
-COMMAND_MODULES = (
-    "trueband.bridge.cli.functions",
-    "trueband.bridge.cli.serve",
-    "trueband.bridge.cli.recalc",
-    "trueband.bridge.cli.fill",
-    "trueband.bridge.cli.study",
-    "trueband.bridge.cli.addin",
+#: (command module, its function that adds subcommands), in the order the commands appear in ``--help``
+#: (``restore`` lives with ``recalc`` and ``check`` and is listed after ``fill`` and ``bands``, as always).
+COMMAND_REGISTRATIONS = (
+    ("trueband.bridge.cli.functions", "register"),   # functions, eval
+    ("trueband.bridge.cli.serve", "register"),       # serve
+    ("trueband.bridge.cli.recalc", "register"),      # recalc, check
+    ("trueband.bridge.cli.fill", "register"),        # fill, bands
+    ("trueband.bridge.cli.recalc", "register_restore"),  # restore
+    ("trueband.bridge.cli.study", "register"),       # study, demo
+    ("trueband.bridge.cli.addin", "register"),       # addin
 )
 
 
@@ -61,8 +64,8 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action=_VersionAction, help="show the version and exit")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     sub.required = True
-    for name in COMMAND_MODULES:
-        importlib.import_module(name).register(sub)
+    for module, function in COMMAND_REGISTRATIONS:
+        getattr(importlib.import_module(module), function)(sub)
     return parser
 
 

@@ -1,8 +1,9 @@
-"""What every command module shares: exit codes, the one-line error, the output options."""
+"""What every command module shares: exit codes, the one-line error, the output options, the recalculation outcome."""
 
 from __future__ import annotations
 
 import argparse
+import sys
 
 EXIT_OK = 0
 EXIT_CELL_ERRORS = 1
@@ -38,3 +39,18 @@ def error_table(errors, limit: int = TABLE_LIMIT) -> str:
     if len(errors) > limit:
         lines.append(f"... and {len(errors) - limit} more error cells")
     return "\n".join(lines)
+
+
+def print_recalc_outcome(report) -> int:
+    """The outcome of a recalculation (a ``RecalcReport``, or None when there was none) and its exit code.
+
+    The error cells as a table on stdout; circular references and the one-line summary on stderr.
+    """
+    if report is None:
+        return EXIT_OK
+    if report.errors:
+        print(error_table(report.errors))
+    for cycle in report.cycles:
+        print(f"circular reference (not iterated): {' → '.join(cycle + cycle[:1])}", file=sys.stderr)
+    print(report.summary(), file=sys.stderr)
+    return EXIT_OK if report.ok else EXIT_CELL_ERRORS

@@ -6,6 +6,7 @@ import json
 import sys
 import textwrap
 
+from trueband.funcs.cautions import CAUTION
 from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import REGISTRY, catalog, lookup
 
@@ -20,12 +21,6 @@ TOPIC_TITLES = {
     "impact": "Adverse impact",
     "cutscores": "Cut scores",
 }
-
-CAUTION = (
-    "These figures are statistical indicators to support professional judgment, not legal findings. "
-    "Hiring decisions must follow the employment law and regulations that apply where you hire and the "
-    "advice of qualified professionals."
-)
 
 
 def format_value(value) -> str:
@@ -117,7 +112,7 @@ def _functions(args) -> int:
 
 
 def _eval(args) -> int:
-    from ..formulas.library import UnreadableFormula, evaluate_expression
+    from ..engine.expression import UnreadableFormula, evaluate_expression
 
     try:
         value = evaluate_expression(args.expression)

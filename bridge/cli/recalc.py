@@ -1,4 +1,5 @@
-"""``trueband recalc`` (evaluate a saved workbook, write the cached values) and ``trueband check``."""
+"""``trueband recalc`` (evaluate a saved workbook, write the cached values), ``trueband check`` (list likely
+mistakes, write nothing) and ``trueband restore`` (put back the formulas ``recalc --values`` replaced)."""
 
 from __future__ import annotations
 
@@ -6,8 +7,7 @@ import sys
 import time
 from pathlib import Path
 
-
-from .common import EXIT_CELL_ERRORS, EXIT_FAILED, EXIT_OK, add_output_options, error_table
+from .common import EXIT_CELL_ERRORS, EXIT_FAILED, EXIT_OK, CommandError, add_output_options, print_recalc_outcome
 
 #: Workbook files at least this large (bytes) show a progress bar (when stderr is a terminal).
 PROGRESS_THRESHOLD = 1_000_000
@@ -64,16 +64,12 @@ def _recalc(args) -> int:
         print(f"trueband recalc: {exc.message}", file=sys.stderr)
         return EXIT_FAILED
     progress.close()
-    if report.errors:
-        print(error_table(report.errors))
-    for cycle in report.cycles:
-        print(f"circular reference (not iterated): {' → '.join(cycle + cycle[:1])}", file=sys.stderr)
-    print(report.summary(), file=sys.stderr)
-    return EXIT_OK if report.ok else EXIT_CELL_ERRORS
+    return print_recalc_outcome(report)
 
 
 def _check(args) -> int:
-    from ..engine.recalc import UnusableWorkbook, check_workbook
+    from ..engine.check import check_workbook
+    from ..engine.recalc import UnusableWorkbook
 
     try:
         findings = check_workbook(args.book)
@@ -83,6 +79,32 @@ def _check(args) -> int:
     for line in findings.lines():
         print(line)
     return EXIT_OK if findings.ok else EXIT_CELL_ERRORS
+
+
+def _restore(args) -> int:
+    from ..engine.values_mode import restore_formulas
+    from ..workbook.package import UnusableWorkbook, open_workbook_package
+    from ..workbook.save import OutputRefused, PackageChanges, save_workbook
+
+    if args.in_place and args.output:
+        raise CommandError("give either -o/--output or --in-place, not both")
+    if args.backup and not args.in_place:
+        raise CommandError("--backup goes with --in-place")
+
+    try:
+        with open_workbook_package(args.book) as pkg:
+            changes = PackageChanges()
+            report = restore_formulas(pkg, changes)
+            out = save_workbook(pkg, changes, output=args.output, in_place=args.in_place, backup=args.backup,
+                                overwrite=args.overwrite, tag="restored")
+    except UnusableWorkbook as exc:
+        raise CommandError(exc.message) from None
+    except OutputRefused as exc:
+        raise CommandError(str(exc)) from None
+    for where, why in report.skipped:
+        print(f"{where}: not restored ({why})")
+    print(f"restored {report.restored} formula(s) → {out}", file=sys.stderr)
+    return EXIT_OK if not report.skipped else EXIT_CELL_ERRORS
 
 
 def register(sub) -> None:
@@ -108,3 +130,13 @@ def register(sub) -> None:
                     "references outside the sheet's used range. Exit status 1 when a problem is found.")
     p.add_argument("book", help="the .xlsx or .xlsm workbook")
     p.set_defaults(handler=_check)
+
+
+def register_restore(sub) -> None:
+    p = sub.add_parser(
+        "restore", help="put back the formulas that `recalc --values` replaced by values",
+        description="Put every formula recorded in the hidden sheet trueband_formulas back into its cell (beside "
+                    "the cell's current value) and remove that sheet. Default output: BOOK.restored.xlsx.")
+    p.add_argument("book", help="the .xlsx or .xlsm workbook")
+    add_output_options(p)
+    p.set_defaults(handler=_restore)

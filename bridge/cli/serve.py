@@ -25,7 +25,7 @@ def _stop(signum, frame):  # terminate and Ctrl-Break end the server the way Ctr
 def _serve(args) -> int:
     from trueband.funcs.registry import REGISTRY
 
-    from ..http.app import create_app
+    from ..http import create_app
 
     token = args.token or os.environ.get(TOKEN_VARIABLE) or None
     if not is_loopback(args.host) and not token:

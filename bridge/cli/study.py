@@ -54,13 +54,13 @@ def register(sub) -> None:
     p.add_argument("--test-name", help="name of the test, for titles")
     p.set_defaults(handler=run_study)
 
-    d = sub.add_parser(
+    p = sub.add_parser(
         "demo", help="write the demo data, templates and study into a new folder",
         description="Write the invented demo (Osterfell Harbour Logistics hiring cargo dispatch coordinators), the "
                     "workbook templates, and the demo's validation study into DIR (default: a new folder "
                     "trueband-demo in the current directory); nothing existing is overwritten.")
-    d.add_argument("dir", nargs="?", help="a new or empty folder")
-    d.set_defaults(handler=run_demo)
+    p.add_argument("dir", nargs="?", help="a new or empty folder")
+    p.set_defaults(handler=run_demo)
 
 
 def _overrides(args) -> dict:

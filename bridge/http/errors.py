@@ -1,0 +1,137 @@
+"""The bridge's one error shape and the handlers that write it.
+
+Every error in the JSON API is ``{"error": {"code", "message", "argument"}}``: a function's
+error (:class:`~trueband.funcs.errors.TruebandError`) carries its spreadsheet code
+(``#NUM!``...) and its class's HTTP status; a protocol error (:class:`ProtocolError`) carries one
+of the words in :data:`PROTOCOL_ERRORS`. Under ``/v1/text/`` the same error is the spreadsheet
+code as plain text, with the message in ``X-Trueband-Error-*`` headers. A fault is a generic 500
+whose detail goes to the log only.
+"""
+
+from __future__ import annotations
+
+import json
+import logging
+import urllib.parse
+from typing import Any
+
+from flask import Flask, Response, current_app, request
+from werkzeug.exceptions import HTTPException, MethodNotAllowed
+
+from trueband.funcs.errors import TruebandError
+
+__all__ = ["PROTOCOL_ERRORS", "ProtocolError", "TEXT_PREFIX", "error_body", "json_response",
+           "register_error_handlers"]
+
+log = logging.getLogger("trueband.http")
+
+#: Protocol errors (not a function's error): code word and HTTP status.
+PROTOCOL_ERRORS = {
+    "bad_request": 400,
+    "malformed_json": 400,
+    "unauthorized": 401,
+    "forbidden": 403,
+    "not_found": 404,
+    "method_not_allowed": 405,
+    "too_large": 413,
+    "unsupported_media_type": 415,
+    "too_much_work": 422,
+    "internal_error": 500,
+}
+
+#: Where the text form of the API starts: its errors are plain text, not JSON.
+TEXT_PREFIX = "/v1/text/"
+
+
+class ProtocolError(Exception):
+    """A request the bridge refuses before any function runs (or a batch/column over budget)."""
+
+    def __init__(self, code: str, message: str, headers: dict | None = None, status: int | None = None):
+        super().__init__(message)
+        self.code = code
+        self.message = message
+        self.http_status = status or PROTOCOL_ERRORS[code]
+        self.headers = headers or {}
+
+
+def error_body(exc) -> dict:
+    """The ``{"code", "message", "argument"}`` body of a function error or a protocol error."""
+    if isinstance(exc, TruebandError):
+        body = exc.to_dict()
+        body.setdefault("argument", None)
+        return body
+    return {"code": exc.code, "message": exc.message, "argument": None}
+
+
+def json_response(data: Any, status: int = 200) -> Response:
+    """``data`` as the bridge writes every JSON answer: ASCII, no NaN or infinity."""
+    return Response(json.dumps(data, ensure_ascii=True, allow_nan=False), status=status,
+                    mimetype="application/json")
+
+
+def _header_text(text: str) -> str:
+    # Header values must be plain ASCII with no line breaks; messages echo user input, so encode.
+    return urllib.parse.quote(text, safe=" !\"#$&'()*+,-./:;<=>?@[\\]^_`{|}~")
+
+
+def _error_response(exc, status: int, headers: dict | None = None) -> Response:
+    body = error_body(exc)
+    if request.path.startswith(TEXT_PREFIX):
+        code = exc.code if isinstance(exc, TruebandError) else "#VALUE!"
+        resp = Response(code, status=status, mimetype="text/plain")
+        resp.headers["X-Trueband-Error-Code"] = _header_text(body["code"])
+        resp.headers["X-Trueband-Error-Message"] = _header_text(body["message"])
+        if body["argument"] is not None:
+            resp.headers["X-Trueband-Error-Argument"] = _header_text(body["argument"])
+    else:
+        resp = json_response({"error": body}, status)
+    for key, value in (headers or {}).items():
+        resp.headers[key] = value
+    return resp
+
+
+def _on_trueband_error(exc: TruebandError):
+    return _error_response(exc, exc.http_status)
+
+
+def _on_protocol_error(exc: ProtocolError):
+    return _error_response(exc, exc.http_status, exc.headers)
+
+
+_HTTP_CODES = {400: "bad_request", 404: "not_found", 405: "method_not_allowed", 413: "too_large",
+               415: "unsupported_media_type"}
+
+
+def _on_http_error(exc: HTTPException):
+    status = exc.code or 500
+    if status >= 500:
+        return _on_fault(exc)
+    code = _HTTP_CODES.get(status, "bad_request")
+    messages = {
+        "not_found": "no such route; GET /v1/openapi.json lists them",
+        "too_large": f"the body may be at most {current_app.config['MAX_BODY_BYTES']} bytes",
+        "bad_request": "the request could not be read",
+        "unsupported_media_type": "send JSON with Content-Type: application/json",
+    }
+    headers = {}
+    if isinstance(exc, MethodNotAllowed) and exc.valid_methods:
+        methods = sorted(m for m in exc.valid_methods if m != "OPTIONS")
+        headers["Allow"] = ", ".join(methods)
+        messages["method_not_allowed"] = f"{request.method} is not allowed here; use {' or '.join(methods)}"
+    else:
+        messages.setdefault("method_not_allowed", f"{request.method} is not allowed here")
+    return _error_response(ProtocolError(code, messages[code]), status, headers)
+
+
+def _on_fault(exc: BaseException):
+    # The detail goes to the log only; the client learns nothing about the inside.
+    log.error("fault while answering %s %s", request.method, request.path, exc_info=exc)
+    return _error_response(ProtocolError("internal_error", "internal error; the server log has the detail"), 500)
+
+
+def register_error_handlers(app: Flask) -> None:
+    """Every error, from a function, the protocol, werkzeug or a fault, answered in the one shape."""
+    app.register_error_handler(TruebandError, _on_trueband_error)
+    app.register_error_handler(ProtocolError, _on_protocol_error)
+    app.register_error_handler(HTTPException, _on_http_error)
+    app.register_error_handler(Exception, _on_fault)
