@@ -12,7 +12,7 @@ import trueband.funcs
 MODULES = sorted(
     name
     for package in (trueband.funcs, trueband.bridge)
-    for _, name, _ in pkgutil.iter_modules(package.__path__, package.__name__ + ".")
+    for _, name, _ in pkgutil.walk_packages(package.__path__, package.__name__ + ".")  # sub-packages too
     if not name.endswith("__main__")
 )
 
