@@ -34,13 +34,13 @@ from trueband.funcs.errors import TruebandError
 
 from .common import EXIT_CELL_ERRORS, EXIT_OK, CommandError, add_output_options, error_table
 from ..workbook.save import OutputRefused, PackageChanges, backup_path_for, default_output_path, save_workbook
-from ..workbook.sheet_xml import NewCell, SheetXmlError, add_cells, column_index, column_letters, iter_cells
+from ..workbook.cells import MAX_COLUMN, MAX_ROW, column_index, column_letters
+from ..workbook.sheet_data import SheetXmlError
+from ..workbook.sheet_edit import NewCell, add_cells
+from ..workbook.sheet_read import iter_cells
 from ..workbook.package import UnusableWorkbook, WorkbookPackage, open_workbook_package
 
-__all__ = ["FillPlan", "plan_fill", "fill_changes", "fill_workbook", "bands_formula", "register", "MAX_ROW"]
-
-MAX_ROW = 1_048_576
-MAX_COLUMN = 16_384
+__all__ = ["FillPlan", "plan_fill", "fill_changes", "fill_workbook", "bands_formula", "register"]
 
 
 @dataclasses.dataclass(frozen=True)

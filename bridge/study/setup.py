@@ -238,7 +238,8 @@ class _Book:
         ``(row, col)`` (1-based) to the number format of each cell that has one other than General
         (dates keep their date format in the study's copy); ``uncached`` lists ``(row, col)`` of the
         formula cells without a stored value."""
-        from ..workbook.sheet_xml import SheetXmlError, read_columns
+        from ..workbook.sheet_columns import read_columns
+        from ..workbook.sheet_data import SheetXmlError
 
         try:
             sc = read_columns(self.pkg.sheet_xml(name), self.pkg.shared_strings)

@@ -33,35 +33,21 @@ with the environment variables ``TRUEBAND_MAX_UNCOMPRESSED`` (bytes) and
 from __future__ import annotations
 
 import dataclasses
-import html
 import os
 import posixpath
 import re
 import zipfile
 import zlib
 from pathlib import Path
-from typing import Iterable
 from xml.etree import ElementTree
 
+from .xml_form import part_may_be_irregular
+from .xml_text import decode_escaped, unescape_xml
+
 __all__ = [
-    "UnusableWorkbook",
-    "WorkbookLocked",
-    "WorkbookPackage",
-    "SheetInfo",
-    "DefinedName",
-    "open_workbook_package",
-    "lock_file_of",
-    "unescape_xml",
-    "DEFAULT_MAX_TOTAL",
-    "DEFAULT_MAX_RATIO",
-    "NS_MAIN",
-    "NS_REL",
-    "NS_PKG_REL",
-    "NS_CT",
-    "REL_OFFICE_DOCUMENT",
-    "REL_WORKSHEET",
-    "REL_SHARED_STRINGS",
-    "REL_CALC_CHAIN",
+    "UnusableWorkbook", "WorkbookLocked", "WorkbookPackage", "SheetInfo", "DefinedName", "open_workbook_package",
+    "lock_file_of", "DEFAULT_MAX_TOTAL", "DEFAULT_MAX_RATIO", "NS_MAIN", "NS_REL", "NS_PKG_REL", "NS_CT",
+    "REL_OFFICE_DOCUMENT", "REL_WORKSHEET", "REL_SHARED_STRINGS", "REL_CALC_CHAIN",
 ]
 
 #: Entries at least this large are inflated in one call, and the last one read is kept for a second read.
@@ -152,23 +138,6 @@ def lock_file_of(path: str | os.PathLike) -> Path | None:
     return None
 
 
-_ENTITY = re.compile(r"&(?:#[0-9]+|#x[0-9a-fA-F]+|[a-z]+);")
-_ESCAPED_CHAR = re.compile(r"_x([0-9A-Fa-f]{4})_")
-
-
-def unescape_xml(raw: bytes) -> str:
-    """Text content of an element, as bytes from the XML, to ``str`` (entities and ``_xHHHH_`` decoded)."""
-    if b"&" in raw and b"&#" not in raw:  # the five named entities only: plain replacements, &amp; last
-        raw = (raw.replace(b"&lt;", b"<").replace(b"&gt;", b">").replace(b"&quot;", b'"')
-               .replace(b"&apos;", b"'").replace(b"&amp;", b"&"))
-    text = raw.decode("utf-8")
-    if "&" in text and b"&#" in raw:
-        text = html.unescape(text)  # numeric character references (valid XML has no other entities)
-    if "_x" in text:
-        text = _ESCAPED_CHAR.sub(lambda m: chr(int(m.group(1), 16)), text)
-    return text
-
-
 # ------------------------------------------------------------------ shared strings
 
 _SI = re.compile(rb"<(?:\w+:)?si\b[^>]*?(?:/>|>(.*?)</(?:\w+:)?si>)", re.S)
@@ -181,13 +150,11 @@ def parse_shared_strings(xml: bytes) -> list[str]:
     """Shared-string table as a list of str; rich-text runs are joined, phonetic guides dropped.
 
     Read with regular expressions over the bytes; a part that the pre-scan
-    (:func:`~trueband.bridge.workbook.sheet_xml.odd_part`) flags as holding a form they
-    do not take (single-quoted attributes, whitespace in tags, CDATA, comments,
-    character references, another encoding) is read with ElementTree instead.
+    (:func:`~.xml_form.part_may_be_irregular`) flags as possibly in an irregular form
+    (single-quoted attributes, whitespace in tags, CDATA, comments, character
+    references, another encoding) is read with ElementTree instead.
     """
-    from .sheet_xml import odd_part  # (sheet_xml imports this module)
-
-    if odd_part(xml):
+    if part_may_be_irregular(xml):
         return _parsed_shared_strings(xml)
     out: list[str] = []
     append = out.append
@@ -220,7 +187,7 @@ def _parsed_shared_strings(xml: bytes) -> list[str]:
                 texts(child, into)
         return into
 
-    return [_ESCAPED_CHAR.sub(lambda m: chr(int(m.group(1), 16)), "".join(texts(si, [])))
+    return [decode_escaped("".join(texts(si, [])))
             for si in root if si.tag.rsplit("}", 1)[-1] == "si"]
 
 
@@ -619,6 +586,3 @@ def open_workbook_package(path: str | os.PathLike, *, check_lock: bool = True, m
         raise UnusableWorkbook(f"{p.name} is damaged ({type(exc).__name__}: {exc}); open and re-save it in a "
                                f"spreadsheet app", path=p) from None
 
-
-def iter_entry_names(pkg: WorkbookPackage, prefix: str) -> Iterable[str]:
-    return (n for n in pkg.entry_names if n.startswith(prefix))

@@ -37,7 +37,6 @@ import time
 import uuid
 import zipfile
 from pathlib import Path
-from typing import Iterable, Mapping
 
 from .package import (
     REL_CALC_CHAIN,
@@ -436,13 +435,3 @@ def save_workbook(pkg: WorkbookPackage, changes: PackageChanges, *, output: str 
         raise
     return dest
 
-
-def changed_parts(pkg: WorkbookPackage, changes: PackageChanges) -> Iterable[str]:
-    """Names of the entries whose bytes differ from the input's (for summaries and tests)."""
-    return [*changes.replace, *changes.add, *changes.remove]
-
-
-def read_back(path: str | os.PathLike) -> Mapping[str, bytes]:
-    """Every entry of a package as name → uncompressed bytes (tests compare packages with it)."""
-    with zipfile.ZipFile(path) as zf:
-        return {n: zf.read(n) for n in zf.namelist()}
