@@ -140,7 +140,7 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
     for info in pkg.worksheets:
         if info.name == FORMULA_SHEET:
             continue
-        try:  # a part in an unusual form is read and edited in the parser's form (xml_form.regular_form)
+        try:  # a part in an irregular form is read and edited in the regular form (xml_form.regular_form)
             xml = xml_form.regular_form(changes.current(pkg, info.part))
         except sheet_data.SheetXmlError as exc:
             raise UnusableWorkbook(f"{pkg.path.name}: sheet {info.name!r}: {exc}", path=pkg.path) from None

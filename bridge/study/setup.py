@@ -210,7 +210,7 @@ class StudyData:
 
 class _Book:
     """The sheets of a workbook package as grids of cached values, read with the package layer
-    (:mod:`.xlsx_package`, :mod:`.sheet_xml`): a formula cell gives its stored value, as a
+    (:mod:`..workbook.package`, :mod:`..workbook.sheet_columns`): a formula cell gives its stored value, as a
     spreadsheet app shows it; dates are their serial numbers."""
 
     def __init__(self, path: Path):

@@ -105,13 +105,8 @@ class SheetInfo:
     part: str
     state: str
     index: int
-    sheet_id: str
     rel_id: str
     kind: str = "worksheet"
-
-    @property
-    def visible(self) -> bool:
-        return self.state == "visible"
 
 
 @dataclasses.dataclass(frozen=True)
@@ -382,7 +377,7 @@ class WorkbookPackage:
             elif not _rel_type_is(rel.get("Type", ""), REL_WORKSHEET):
                 kind = rel.get("Type", "").rsplit("/", 1)[-1]  # dialog and macro sheets: kept, not read
             self.sheets.append(SheetInfo(name=el.get("name", ""), part=rel["part"], state=el.get("state", "visible"),
-                                         index=index, sheet_id=el.get("sheetId", ""), rel_id=rid, kind=kind))
+                                         index=index, rel_id=rid, kind=kind))
         for s in self.sheets:
             if s.kind == "worksheet" and s.part not in self.infos:
                 raise UnusableWorkbook(f"{name}: the part of sheet {s.name!r} ({s.part}) is missing", path=self.path)

@@ -191,7 +191,7 @@ def rewrite_in_regular_form(xml: bytes) -> bytes:
     return RewrittenPart((head + "".join(writer.out)).encode("utf-8"))
 
 
-def _refuse_doctype(*args):
+def _refuse_doctype(*_declaration):
     raise SheetXmlError("the part has a document type declaration, which a workbook part never needs")
 
 
