@@ -330,10 +330,10 @@ class WorkbookPackage:
         for el in self.xml(rels):
             if el.tag.rsplit("}", 1)[-1] != "Relationship":
                 continue
-            d = dict(el.attrib)
-            if d.get("TargetMode") != "External" and "Target" in d:
-                d["part"] = _resolve_target(part or "_rels", d["Target"]) if part else d["Target"].lstrip("/")
-            out.append(d)
+            rel = dict(el.attrib)
+            if rel.get("TargetMode") != "External" and "Target" in rel:
+                rel["part"] = _resolve_target(part or "_rels", rel["Target"]) if part else rel["Target"].lstrip("/")
+            out.append(rel)
         return out
 
     # -- derived views
@@ -359,12 +359,12 @@ class WorkbookPackage:
         if root.tag.rsplit("}", 1)[-1] != "workbook":
             raise UnusableWorkbook(f"{name}: {workbook_part} is not a spreadsheet workbook part", path=self.path)
         ns_main = root.tag[1:].split("}", 1)[0] if root.tag.startswith("{") else ""
-        q = (lambda t: f"{{{ns_main}}}{t}") if ns_main else (lambda t: t)
+        qualified = (lambda tag: f"{{{ns_main}}}{tag}") if ns_main else (lambda tag: tag)
 
         self.workbook_rels = self.relationships(workbook_part)
         by_id = {r["Id"]: r for r in self.workbook_rels if "Id" in r}
         self.sheets: list[SheetInfo] = []
-        sheets_el = root.find(q("sheets"))
+        sheets_el = root.find(qualified("sheets"))
         for index, el in enumerate([] if sheets_el is None else list(sheets_el)):
             rid = next((v for k, v in el.attrib.items() if k.endswith("}id")), "")
             rel = by_id.get(rid)
@@ -378,14 +378,15 @@ class WorkbookPackage:
                 kind = rel.get("Type", "").rsplit("/", 1)[-1]  # dialog and macro sheets: kept, not read
             self.sheets.append(SheetInfo(name=el.get("name", ""), part=rel["part"], state=el.get("state", "visible"),
                                          index=index, rel_id=rid, kind=kind))
-        for s in self.sheets:
-            if s.kind == "worksheet" and s.part not in self.infos:
-                raise UnusableWorkbook(f"{name}: the part of sheet {s.name!r} ({s.part}) is missing", path=self.path)
+        for sheet in self.sheets:
+            if sheet.kind == "worksheet" and sheet.part not in self.infos:
+                raise UnusableWorkbook(f"{name}: the part of sheet {sheet.name!r} ({sheet.part}) is missing",
+                                       path=self.path)
         if not self.sheets:
             raise UnusableWorkbook(f"{name}: the workbook has no sheets", path=self.path)
 
         self.defined_names: list[DefinedName] = []
-        names_el = root.find(q("definedNames"))
+        names_el = root.find(qualified("definedNames"))
         for el in [] if names_el is None else list(names_el):
             local = el.get("localSheetId")
             sheet = None
@@ -394,7 +395,7 @@ class WorkbookPackage:
             self.defined_names.append(DefinedName(name=el.get("name", ""), text=(el.text or "").strip(),
                                                   sheet=sheet, hidden=el.get("hidden") in ("1", "true")))
 
-        calc = root.find(q("calcPr"))
+        calc = root.find(qualified("calcPr"))
         self.calc_properties: dict[str, str] = {} if calc is None else dict(calc.attrib)
 
         self.shared_strings_part = next((r["part"] for r in self.workbook_rels
@@ -421,13 +422,13 @@ class WorkbookPackage:
     @property
     def worksheets(self) -> list[SheetInfo]:
         """Only the sheets that hold cells."""
-        return [s for s in self.sheets if s.kind == "worksheet"]
+        return [sheet for sheet in self.sheets if sheet.kind == "worksheet"]
 
     def sheet(self, name: str) -> SheetInfo:
         """The sheet of that name (case-insensitive, as spreadsheet apps match sheet names)."""
-        for s in self.sheets:
-            if s.name.casefold() == name.casefold():
-                return s
+        for sheet in self.sheets:
+            if sheet.name.casefold() == name.casefold():
+                return sheet
         raise KeyError(f"no sheet named {name!r}; the sheets are {', '.join(repr(s.name) for s in self.sheets)}")
 
     def sheet_xml(self, name: str) -> bytes:
@@ -437,19 +438,20 @@ class WorkbookPackage:
         """Resolve a defined name as a formula on ``sheet`` would: a name local to that sheet wins."""
         key = name.casefold()
         found = None
-        for d in self.defined_names:
-            if d.name.casefold() != key:
+        for defined in self.defined_names:
+            if defined.name.casefold() != key:
                 continue
-            if d.sheet is not None and sheet is not None and d.sheet.casefold() == sheet.casefold():
-                return d
-            if d.sheet is None:
-                found = d
+            if defined.sheet is not None and sheet is not None and defined.sheet.casefold() == sheet.casefold():
+                return defined
+            if defined.sheet is None:
+                found = defined
         return found
 
     @property
     def names(self) -> dict[str, str]:
         """Defined names as ``name → text``; a sheet-local name is keyed ``Sheet!name``."""
-        return {(f"{d.sheet}!{d.name}" if d.sheet else d.name): d.text for d in self.defined_names}
+        return {(f"{defined.sheet}!{defined.name}" if defined.sheet else defined.name): defined.text
+                for defined in self.defined_names}
 
 
 # ------------------------------------------------------------------ opening and refusing
