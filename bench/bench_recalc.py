@@ -52,7 +52,7 @@ def io_floor(src: Path, dst: Path) -> float:
     """(a): read, compute with numpy, patch and write; returns seconds (in this process)."""
     import gc
 
-    from trueband.bridge.workbook import sheet_xml
+    from trueband.bridge.workbook import sheet_columns, sheet_patch
     from trueband.bridge.workbook.save import PackageChanges, save_workbook
     from trueband.bridge.workbook.package import open_workbook_package
 
@@ -61,7 +61,7 @@ def io_floor(src: Path, dst: Path) -> float:
     with open_workbook_package(src) as pkg:
         info = pkg.worksheets[0]
         xml = pkg.read(info.part)
-        cols = sheet_xml.read_column_arrays(xml, pkg.shared_strings).columns
+        cols = sheet_columns.read_column_arrays(xml, pkg.shared_strings).columns
         x = np.column_stack([cols[2 + k].numbers[1:] for k in range(ITEMS)])  # rows 2.. (row 1 is the header)
         n = x.shape[0]
         total = x.sum(axis=1)
@@ -76,7 +76,7 @@ def io_floor(src: Path, dst: Path) -> float:
         for col, column in zip(letters, (total, z, decision, lower)):
             values.update(zip([b"%s%d" % (col.encode(), r) for r in range(2, n + 2)], column.tolist()))
         changes = PackageChanges()
-        changes.set(pkg, info.part, sheet_xml.patch_values(xml, values, consume=True, pieces=True))
+        changes.set(pkg, info.part, sheet_patch.patch_values(xml, values, consume=True, pieces=True))
         save_workbook(pkg, changes, output=dst, overwrite=True)
     assert n == len(total)
     return time.perf_counter() - started

@@ -36,6 +36,8 @@ from pathlib import Path
 
 import numpy as np
 
+from trueband.bridge.workbook.cells import MAX_ROW
+
 CONTENT_TYPES = b"""<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
 <Types xmlns="http://schemas.openxmlformats.org/package/2006/content-types"><Default Extension="rels" ContentType="application/vnd.openxmlformats-package.relationships+xml"/><Default Extension="xml" ContentType="application/xml"/><Override PartName="/xl/workbook.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet.main+xml"/><Override PartName="/xl/worksheets/sheet1.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"/><Override PartName="/xl/styles.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.styles+xml"/></Types>"""
 ROOT_RELS = b"""<?xml version="1.0" encoding="UTF-8" standalone="yes"?>
@@ -127,14 +129,14 @@ def write_book(path: Path, rows: int, *, items: int = 10, registered: bool = Fal
 
 def main(argv=None) -> int:
     p = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
-    p.add_argument("rows", type=int, help="rows in the sheet, header included (at most 1048576)")
+    p.add_argument("rows", type=int, help=f"rows in the sheet, header included (at most {MAX_ROW})")
     p.add_argument("out", type=Path)
     p.add_argument("--registered", action="store_true", help="the confidence limit through SCORE_CI")
     p.add_argument("--shared", action="store_true", help="write each formula column as one shared formula")
     p.add_argument("--items", type=int, default=10)
     a = p.parse_args(argv)
-    if not 3 <= a.rows <= 1_048_576:
-        p.error("rows must be between 3 and 1048576")
+    if not 3 <= a.rows <= MAX_ROW:
+        p.error(f"rows must be between 3 and {MAX_ROW}")
     write_book(a.out, a.rows, items=a.items, registered=a.registered, shared=a.shared)
     print(a.out)
     return 0

@@ -20,7 +20,7 @@ import golden_books as gb
 from trueband.bridge.cli import fill as cf
 from trueband.bridge.engine import fill as fill_engine
 from trueband.bridge.cli import EXIT_FAILED, EXIT_OK, CommandError, main
-from trueband.bridge.workbook.sheet_xml import iter_cells
+from trueband.bridge.workbook.sheet_read import iter_cells
 from trueband.bridge.workbook.package import open_workbook_package
 
 SD, RELIABILITY = 4.2, 0.88  # Settings!B1 and B2 of the features book

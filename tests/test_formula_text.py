@@ -14,7 +14,7 @@ from trueband.bridge.cli import EXIT_CELL_ERRORS, EXIT_FAILED, EXIT_OK, main
 from trueband.bridge.formulas.compile import FormulaSyntaxError, compile_formula
 from trueband.bridge.formulas.text import TypedFormulaError, typed_formula
 from trueband.bridge.engine.recalc import recalculate
-from trueband.bridge.workbook.sheet_xml import iter_cells
+from trueband.bridge.workbook.sheet_read import iter_cells
 from trueband.bridge.workbook.package import open_workbook_package
 from trueband.funcs import call
 

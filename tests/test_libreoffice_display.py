@@ -22,7 +22,7 @@ import subprocess
 import pytest
 
 import recalc_books as rb
-from trueband.bridge.workbook import sheet_xml
+from trueband.bridge.workbook import sheet_data, sheet_read
 from trueband.bridge.engine.recalc import recalculate
 from trueband.bridge.workbook.package import open_workbook_package
 
@@ -64,11 +64,11 @@ def test_libreoffice_shows_the_stored_values(soffice, tmp_path):
     with open_workbook_package(out) as pkg:
         for info in pkg.worksheets:
             grid = displayed[info.name]
-            for cell in sheet_xml.iter_cells(pkg.read(info.part), pkg.shared_strings):
+            for cell in sheet_read.iter_cells(pkg.read(info.part), pkg.shared_strings):
                 if cell.formula is None:
                     continue
                 text = grid[cell.row - 1][cell.col - 1]
-                if isinstance(cell.value, sheet_xml.ErrorValue):
+                if isinstance(cell.value, sheet_data.ErrorValue):
                     assert text.startswith(("#", "Err:")), (cell.ref, text)
                     errors += 1
                     continue

@@ -249,7 +249,7 @@ _SST_FORMS = {
 
 
 @pytest.mark.parametrize("form", list(_SST_FORMS))
-def test_shared_strings_in_unusual_forms_agree_with_openpyxl(form, tmp_path):
+def test_shared_strings_in_irregular_forms_agree_with_openpyxl(form, tmp_path):
     # XML 1.0 (3.1 quotes and end tags, 2.7 CDATA, 2.5 comments, 4.1 character references); openpyxl,
     # a reference library with its own XML parser, reads the same strings
     body = _SST_FORMS[form] + "<si><t>last</t></si>"

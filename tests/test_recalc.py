@@ -27,7 +27,8 @@ from scipy import stats
 import golden_books as gb
 import recalc_books as rb
 from trueband.bridge import cli
-from trueband.bridge.workbook import sheet_xml
+from trueband.bridge.workbook import sheet_columns, sheet_data, sheet_read
+from trueband.bridge.workbook.cells import column_letters
 from trueband.bridge.engine.evaluate import VectorUnsupported, evaluate_cell, evaluate_run
 from trueband.bridge.engine.recalc import load_model, recalculate
 from trueband.bridge.workbook.package import open_workbook_package
@@ -41,7 +42,7 @@ def cells_of(path, sheet=None) -> dict:
         for info in pkg.worksheets:
             if sheet is not None and info.name != sheet:
                 continue
-            for c in sheet_xml.iter_cells(pkg.read(info.part), pkg.shared_strings):
+            for c in sheet_read.iter_cells(pkg.read(info.part), pkg.shared_strings):
                 out[(info.name, c.ref)] = (c.value, c.formula.text if c.formula else None)
     return out
 
@@ -52,7 +53,7 @@ def entries(path) -> dict[str, bytes]:
 
 
 def same_value(ours, theirs) -> bool:
-    if isinstance(ours, sheet_xml.ErrorValue) or isinstance(theirs, sheet_xml.ErrorValue):
+    if isinstance(ours, sheet_data.ErrorValue) or isinstance(theirs, sheet_data.ErrorValue):
         return str(ours) == str(theirs)
     if isinstance(ours, bool) or isinstance(theirs, bool):
         return ours is theirs or ours == theirs and type(ours) is type(theirs)
@@ -347,7 +348,7 @@ def test_reading_and_patching_in_pieces_gives_the_same_bytes(tmp_path, monkeypat
     src = (rb.mixed_inputs_book(tmp_path / "in.xlsx") if book == "mixed"
            else gb.formula_forms_book(tmp_path / "in.xlsx"))
     whole = recalculate(src, tmp_path / "whole.xlsx", all_formulas=True)
-    monkeypatch.setattr(sheet_xml, "CHUNK_BYTES", 700)  # a piece every few rows
+    monkeypatch.setattr(sheet_data, "CHUNK_BYTES", 700)  # a piece every few rows
     pieces = recalculate(src, tmp_path / "pieces.xlsx", all_formulas=True)
     assert entries(whole.output) == entries(pieces.output)
     assert [tuple(e) for e in whole.errors] == [tuple(e) for e in pieces.errors]
@@ -403,7 +404,7 @@ def _runs_one_by_one(formula_cells):
             if f.kind == "shared" and f.shared_index is not None:
                 shared[f.shared_index] = (text, row, col, key)
             if f.kind == "array":
-                array_ref = f.ref or f"{sheet_xml.column_letters(col)}{row}"
+                array_ref = f.ref or f"{column_letters(col)}{row}"
         cur = open_runs.get(col)
         if cur is not None and cur[2] == row - 1 and cur[3] == key and array_ref is None and cur[7] is None:
             cur[2] = row
@@ -419,7 +420,7 @@ def test_run_finder_agrees_with_the_one_by_one_reference(seed):
     import random
 
     from trueband.bridge.engine.recalc import _formula_runs
-    from trueband.bridge.workbook.sheet_xml import Formula
+    from trueband.bridge.workbook.sheet_data import Formula
 
     rnd = random.Random(seed)
     cells = []
@@ -437,11 +438,11 @@ def test_run_finder_agrees_with_the_one_by_one_reference(seed):
                 f = Formula("SUM($A$1:$A$9)", "normal", None, None, False, b"")  # no moving references
             elif k < 0.78:
                 si += 1
-                f = Formula(f"C{row}-1", "shared", si, f"{sheet_xml.column_letters(col)}{row}", True, b"")
+                f = Formula(f"C{row}-1", "shared", si, f"{column_letters(col)}{row}", True, b"")
             elif k < 0.9:
                 f = Formula(None, "shared", rnd.randint(0, si + 1), None, False, b"")  # may precede its master
             elif k < 0.95:
-                f = Formula(f"A{row}:A{row + 1}*2", "array", None, f"{sheet_xml.column_letters(col)}{row}", False,
+                f = Formula(f"A{row}:A{row + 1}*2", "array", None, f"{column_letters(col)}{row}", False,
                             b"")
             else:
                 f = Formula("", "dataTable", None, None, False, b"")
@@ -454,7 +455,7 @@ def test_run_finder_agrees_with_the_one_by_one_reference(seed):
     half = len(plain) // 2
     blocks = [(np.array([r for r, _, _ in part]), np.array([c for _, c, _ in part], dtype=np.int16),
                [f.text for _, _, f in part]) for part in (plain[:half], plain[half:])]
-    sheet = sheet_xml.SheetArrays({}, blocks, [c for c in cells if c[2].kind != "normal"], {})
+    sheet = sheet_columns.SheetArrays({}, blocks, [c for c in cells if c[2].kind != "normal"], {})
     assert sheet.formulas == cells
     runs, _ = _formula_runs(sheet)
     assert runs == expected

@@ -24,7 +24,8 @@ import pytest
 import golden_books as gb
 from trueband.bridge.workbook import save as sw
 from trueband.bridge.workbook.save import OutputRefused, PackageChanges, save_workbook
-from trueband.bridge.workbook.sheet_xml import CellUpdate, patch_sheet, unshare_formulas
+from trueband.bridge.workbook.shared_formulas import unshare_formulas
+from trueband.bridge.workbook.sheet_patch import CellUpdate, patch_sheet
 from trueband.bridge.workbook.package import WorkbookLocked, open_workbook_package
 
 
@@ -169,7 +170,8 @@ CHILD = """
 import sys
 from trueband.bridge.workbook.package import open_workbook_package
 from trueband.bridge.workbook.save import PackageChanges, save_workbook
-from trueband.bridge.workbook.sheet_xml import CellUpdate, patch_sheet, unshare_formulas
+from trueband.bridge.workbook.shared_formulas import unshare_formulas
+from trueband.bridge.workbook.sheet_patch import CellUpdate, patch_sheet
 path, mode = sys.argv[1], sys.argv[2]
 pkg = open_workbook_package(path)
 part = pkg.sheet("Applicants").part

@@ -17,8 +17,8 @@ import golden_books as gb
 from trueband.bridge.engine import values_mode as vm
 from trueband.bridge.cli import EXIT_FAILED, EXIT_OK, main
 from trueband.bridge.workbook.save import PackageChanges, save_workbook
-from trueband.bridge.workbook import sheet_xml as sx
-from trueband.bridge.workbook.sheet_xml import iter_cells
+from trueband.bridge.workbook.cells import split_ref
+from trueband.bridge.workbook.sheet_read import iter_cells
 from trueband.bridge.workbook.package import UnusableWorkbook, open_workbook_package
 
 REGISTERED_CELLS = {f"C{r}" for r in range(2, 10)} | {"D2", "D3"}
@@ -112,7 +112,7 @@ def test_a_second_values_run_adds_to_the_records(forms, tmp_path):
     out, first = values_book(forms)
     # a new registered formula typed in after the first run
     with open_workbook_package(out) as pkg:
-        from trueband.bridge.workbook.sheet_xml import NewCell, add_cells
+        from trueband.bridge.workbook.sheet_edit import NewCell, add_cells
         changes = PackageChanges()
         part = pkg.sheet("Settings").part
         changes.set(pkg, part, add_cells(pkg.read(part), {"C5": NewCell(formula="SED(4.2,0.88)", value=2.0)}))
@@ -128,7 +128,7 @@ def test_a_second_values_run_adds_to_the_records(forms, tmp_path):
 def test_restore_reports_cells_it_cannot_put_back(forms, tmp_path):
     out, _ = values_book(forms)
     with open_workbook_package(out) as pkg:  # the user typed a formula into D2 meanwhile
-        from trueband.bridge.workbook.sheet_xml import CellUpdate, patch_sheet
+        from trueband.bridge.workbook.sheet_patch import CellUpdate, patch_sheet
         changes = PackageChanges()
         part = pkg.sheet("Scores").part
         changes.set(pkg, part, patch_sheet(pkg.read(part), {"D2": CellUpdate(7.0, formula="3+4")}))
@@ -254,7 +254,8 @@ def test_restored_shared_group_does_not_take_a_shared_index_in_use(forms, tmp_pa
     out, _ = values_book(forms)
     # an app saved the file and numbered a shared formula of its own 0, the index the recorded group had
     with open_workbook_package(out) as pkg:
-        from trueband.bridge.workbook.sheet_xml import NewCell, add_cells, patch_sheet, CellUpdate
+        from trueband.bridge.workbook.sheet_edit import NewCell, add_cells
+        from trueband.bridge.workbook.sheet_patch import CellUpdate, patch_sheet
         changes = PackageChanges()
         part = pkg.sheet("Scores").part
         xml = add_cells(pkg.read(part), {"G2": NewCell(value=1.0), "G3": NewCell(value=1.0)})
@@ -387,7 +388,7 @@ def test_the_notice_avoids_cells_formulas_read_and_merged_cells(tmp_path):
     book = gb.handmade_package(tmp_path / "reads.xlsx", [("Scores", xml)])
     out = recalculate(book, values=True).output
     [(sheet, cell, _)] = _notices(out)
-    row, col = sx.split_ref(cell)
+    row, col = split_ref(cell)
     assert row != 2 and not (row == 8 and col <= 4), cell  # not where COUNTA(2:2) reads, not in A8:D8
     assert openpyxl.load_workbook(book)["Scores"][cell].value is None
     assert openpyxl.load_workbook(out, data_only=True)["Scores"]["A7"].value == 0  # COUNTA(2:2) still 0
@@ -407,7 +408,7 @@ def test_an_edited_notice_is_left_and_reported(forms, tmp_path, capsys):
     out = recalculate(forms, tmp_path / "values.xlsx", values=True).output
     sheet, cell, _ = next(n for n in _notices(out) if n[0] == "Settings")
     with open_workbook_package(out) as pkg:
-        from trueband.bridge.workbook.sheet_xml import CellUpdate, patch_sheet
+        from trueband.bridge.workbook.sheet_patch import CellUpdate, patch_sheet
         changes = PackageChanges()
         part = pkg.sheet("Settings").part
         changes.set(pkg, part, patch_sheet(pkg.read(part), {cell: CellUpdate(vm.NOTICE_OPENING + " seen, K.")}))
@@ -460,7 +461,7 @@ def test_the_notice_stays_out_of_named_areas_and_filters(tmp_path):
                                defined_names=[("Pool", "Scores!$A$2:$D$2", None)])
     out = recalculate(book, values=True).output
     [(_, cell, _)] = _notices(out)
-    row, col = sx.split_ref(cell)
+    row, col = split_ref(cell)
     assert row != 2 and not (3 <= row <= 6 and col <= 2), cell  # not in the named area nor the filter's
 
 
@@ -511,7 +512,7 @@ def test_a_sheet_without_a_safe_cell_gets_no_notice_and_the_summary_says_so(tmp_
 def test_a_hand_edited_record_does_not_break_a_second_values_run(forms, tmp_path, capsys):
     out, _ = values_book(forms)
     with open_workbook_package(out) as pkg:  # a record's cell edited by hand, and a new formula typed in
-        from trueband.bridge.workbook.sheet_xml import NewCell, add_cells
+        from trueband.bridge.workbook.sheet_edit import NewCell, add_cells
         changes = PackageChanges()
         part = pkg.sheet(vm.FORMULA_SHEET).part
         xml = pkg.read(part).replace(b"<t>D3</t>", b"<t>somewhere</t>", 1)

@@ -12,12 +12,10 @@ from pathlib import Path
 
 from .common import CommandError, add_output_options, print_recalc_outcome
 from ..workbook.package import UnusableWorkbook
-from ..workbook.sheet_xml import column_index
+from ..workbook.cells import MAX_COLUMN, MAX_ROW, column_index
 
 __all__ = ["parse_column", "parse_rows", "register"]
 
-MAX_ROW = 1_048_576
-MAX_COLUMN = 16_384
 
 
 def parse_column(text: str) -> str:

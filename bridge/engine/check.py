@@ -10,7 +10,8 @@ from __future__ import annotations
 
 import dataclasses
 
-from ..formulas.compile import MAX_ROW, Run, column_letters
+from ..formulas.compile import Run
+from ..workbook.cells import MAX_COLUMN, MAX_ROW, column_letters
 from ..formulas.text import call_findings
 from ..workbook.package import open_workbook_package
 from .evaluate import registered_name
@@ -73,7 +74,7 @@ def check_workbook(src) -> CheckFindings:
                 findings.outside.append((where, f"refers to a sheet that does not exist: {target!r}"))
                 continue
             full = (ref.r1_abs and ref.r2_abs and ref.r1 == 1 and ref.r2 == MAX_ROW) or \
-                (ref.c1_abs and ref.c2_abs and ref.c1 == 1 and ref.c2 == 16384)
+                (ref.c1_abs and ref.c2_abs and ref.c1 == 1 and ref.c2 == MAX_COLUMN)
             if full:
                 continue
             a1 = ref.area(run.first, run.col)

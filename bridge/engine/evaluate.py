@@ -53,7 +53,8 @@ from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import REGISTRY, normalize_name
 
 from ..formulas import library as ff
-from ..formulas.compile import MAX_COL, MAX_ROW, Compiled, Node, Run
+from ..formulas.compile import Compiled, Node, Run
+from ..workbook.cells import MAX_COLUMN, MAX_ROW
 
 __all__ = ["EMPTY", "CellResult", "RunResult", "CellProblem", "evaluate_run", "evaluate_cell", "error_value",
            "is_error", "registered_name", "VectorUnsupported"]
@@ -155,7 +156,7 @@ class CellResult:
 
 def _area_value(store, sheet, area):
     r1, c1, r2, c2 = area
-    if r1 < 1 or c1 < 1 or r2 > MAX_ROW or c2 > MAX_COL:
+    if r1 < 1 or c1 < 1 or r2 > MAX_ROW or c2 > MAX_COLUMN:
         return _REF
     if r1 == r2 and c1 == c2:
         out = np.empty((1, 1), dtype=object)
@@ -188,7 +189,7 @@ def _range_aggregate(name: str, args, store, sheet: str, row: int, col: int, *, 
         if a.kind != "ref" or a.ref.name is not None or (fixed_rows and not a.ref.rows_fixed):
             return None
         r1, c1, r2, c2 = a.ref.area(row, col)
-        if r1 < 1 or c1 < 1 or r2 > MAX_ROW or c2 > MAX_COL:
+        if r1 < 1 or c1 < 1 or r2 > MAX_ROW or c2 > MAX_COLUMN:
             return None
         nums = numbers_of(a.ref.sheet or sheet, r1, c1, r2, c2)
         if nums is None:
@@ -508,7 +509,7 @@ class _RunEval:
         if ref.is_cell and not ref.r1_abs:
             r1, c1, _, _ = ref.area(self.first, self.col)
             r2 = r1 + self.n - 1
-            if r1 < 1 or r2 > MAX_ROW or c1 < 1 or c1 > MAX_COL:
+            if r1 < 1 or r2 > MAX_ROW or c1 < 1 or c1 > MAX_COLUMN:
                 raise VectorUnsupported("a reference that leaves the sheet")
             return Col(self.store.column(sheet, c1, r1, r2))
         if ref.rows_fixed:
@@ -516,7 +517,7 @@ class _RunEval:
         if ref.one_row_moving:
             r1, c1, _, c2 = ref.area(self.first, self.col)
             r2 = r1 + self.n - 1
-            if r1 < 1 or r2 > MAX_ROW or c1 < 1 or c2 > MAX_COL:
+            if r1 < 1 or r2 > MAX_ROW or c1 < 1 or c2 > MAX_COLUMN:
                 raise VectorUnsupported("a reference that leaves the sheet")
             if not hasattr(self.store, "row_block"):
                 raise VectorUnsupported("row blocks")

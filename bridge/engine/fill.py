@@ -32,10 +32,13 @@ from trueband.funcs import _validate as validate
 from trueband.funcs.errors import TruebandError
 
 from ..formulas.calc_binding import bind_for_calc
-from ..formulas.compile import MAX_ROW, FormulaSyntaxError, compile_formula
+from ..formulas.compile import FormulaSyntaxError, compile_formula
 from ..formulas.text import TypedFormulaError, call_findings, typed_formula
 from ..workbook.save import OutputRefused, PackageChanges, backup_path_for, default_output_path, save_workbook
-from ..workbook.sheet_xml import NewCell, SheetXmlError, add_cells, column_index, column_letters, iter_cells
+from ..workbook.cells import MAX_ROW, column_index, column_letters
+from ..workbook.sheet_data import SheetXmlError
+from ..workbook.sheet_edit import NewCell, add_cells
+from ..workbook.sheet_read import iter_cells
 from ..workbook.package import WorkbookPackage, open_workbook_package
 from . import recalc
 

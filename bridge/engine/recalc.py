@@ -1,7 +1,7 @@
 """Recalculate a saved workbook offline and write the values as the cells' cached values.
 
 :func:`recalculate` reads every worksheet of the package (the package layer:
-:mod:`~trueband.bridge.workbook.package`, :mod:`~trueband.bridge.workbook.sheet_xml`),
+:mod:`~trueband.bridge.workbook.package`, :mod:`~trueband.bridge.workbook.sheet_columns`),
 groups the formula cells into filled-down runs and links them
 (:mod:`~trueband.bridge.formulas.compile`), evaluates what needs it in
 dependency order (:mod:`~trueband.bridge.engine.evaluate`) and patches only the
@@ -35,7 +35,7 @@ from typing import Callable
 import numpy as np
 from formulas.functions import XlError
 
-from ..workbook import sheet_xml
+from ..workbook import shared_formulas, sheet_columns, sheet_data, sheet_patch
 from . import values_mode
 from .evaluate import (EMPTY, CellProblem, VectorUnsupported, error_value, evaluate_array_formula, evaluate_cell,
                           evaluate_run, registered_name)
@@ -126,7 +126,7 @@ def _engine_value(v):
     """A reader value (float, str, bool, ErrorValue, None) as the evaluator's value."""
     if v is None:
         return EMPTY
-    if isinstance(v, sheet_xml.ErrorValue):
+    if isinstance(v, sheet_data.ErrorValue):
         return error_value(str(v))
     return v
 
@@ -140,16 +140,16 @@ class CellStore:
         self.max_row: dict[str, int] = {}
         self._areas: dict[tuple, np.ndarray] = {}
 
-    def add_sheet(self, name: str, columns: dict[int, "sheet_xml.ColumnArrays | tuple[list[int], list]"]):
-        """Add a sheet from the package reader's columns (:class:`~.sheet_xml.ColumnArrays`, or
+    def add_sheet(self, name: str, columns: dict[int, "sheet_columns.ColumnArrays | tuple[list[int], list]"]):
+        """Add a sheet from the package reader's columns (:class:`~.sheet_columns.ColumnArrays`, or
         ``(rows, values)`` lists with rows ascending)."""
         cols = {}
         top = 0
         for c, entry in columns.items():
-            if not isinstance(entry, sheet_xml.ColumnArrays):
+            if not isinstance(entry, sheet_columns.ColumnArrays):
                 rows, values = entry
                 others = {r: v for r, v in zip(rows, values) if type(v) is not float and v is not None}
-                entry = sheet_xml.ColumnArrays(np.asarray(rows, dtype=np.int64),
+                entry = sheet_columns.ColumnArrays(np.asarray(rows, dtype=np.int64),
                                                np.array([v if type(v) is float else np.nan for v in values],
                                                         dtype=float), others)
             if not entry.rows.size:
@@ -364,7 +364,7 @@ _COL, _FIRST, _LAST, _KEY, _TEXT, _AT, _ARRAY = 0, 1, 2, 3, 4, 5, 7
 def _read_sheet(xml: bytes, strings) -> tuple[dict, list[list], tuple | None, set[int]]:
     """Cell values by column, formula runs (filled-down cells recognised by :class:`KeyTemplate`), the used
     range, and the shared-formula groups that call registered functions."""
-    sheet = sheet_xml.read_column_arrays(xml, strings)
+    sheet = sheet_columns.read_column_arrays(xml, strings)
     columns = sheet.columns
     runs, registered_groups = _formula_runs(sheet)
     used = None
@@ -376,9 +376,9 @@ def _read_sheet(xml: bytes, strings) -> tuple[dict, list[list], tuple | None, se
 
 def _formula_columns(sheet) -> dict[int, tuple[list[int], list]]:
     """Formula cells by column, rows ascending: (rows, items), an item the text of an ordinary formula
-    (``str``) or the :class:`~.sheet_xml.Formula` of any other; from a :class:`~.sheet_xml.SheetArrays`
+    (``str``) or the :class:`~.sheet_data.Formula` of any other; from a :class:`~.sheet_columns.SheetArrays`
     or a list of (row, col, Formula)."""
-    if isinstance(sheet, sheet_xml.SheetArrays):
+    if isinstance(sheet, sheet_columns.SheetArrays):
         blocks, others = sheet.plain_formulas, sheet.other_formulas
     else:
         blocks, others = [], sheet
@@ -577,7 +577,7 @@ def load_model(package: WorkbookPackage, progress: Callable[[str, float], None] 
         xml = package.read(info.part)
         try:
             columns, sheet_runs, used_range, groups = _read_sheet(xml, strings)
-        except sheet_xml.SheetXmlError as exc:
+        except sheet_data.SheetXmlError as exc:
             raise UnusableWorkbook(f"{package.path.name}: sheet {info.name!r}: {exc}", path=package.path) from None
         del xml
         store.add_sheet(info.name, columns)
@@ -621,13 +621,13 @@ def _uses_registered(compiled: Compiled) -> bool:
 
 def _cell_value_for_xml(v):
     if isinstance(v, XlError):
-        return sheet_xml.ErrorValue(str(v))
+        return sheet_data.ErrorValue(str(v))
     if isinstance(v, np.generic):
         v = v.item()
     if v is EMPTY or v is None:
         return 0.0
     if isinstance(v, float) and not math.isfinite(v):
-        return sheet_xml.ErrorValue("#NUM!")
+        return sheet_data.ErrorValue("#NUM!")
     return v
 
 
@@ -680,7 +680,7 @@ def evaluate_model(model: WorkbookModel, *, all_formulas: bool = False,
         evaluated += 1
         out = _cell_value_for_xml(value)
         updates.setdefault(run.sheet, {})[b"%s%d" % (column_letters(col).encode("ascii"), row)] = out
-        if isinstance(out, sheet_xml.ErrorValue):
+        if isinstance(out, sheet_data.ErrorValue):
             if problem is not None and problem.code == str(out):
                 errors.append(CellError(run.sheet, f"{column_letters(col)}{row}", problem.function, problem.code,
                                         problem.message))
@@ -754,7 +754,7 @@ def evaluate_model(model: WorkbookModel, *, all_formulas: bool = False,
     # cells whose formula cannot be read
     for (sheet, row, col), message in model.unreadable.items():
         updates.setdefault(sheet, {})[b"%s%d" % (column_letters(col).encode("ascii"), row)] = \
-            sheet_xml.ErrorValue("#NAME?")
+            sheet_data.ErrorValue("#NAME?")
         errors.append(CellError(sheet, f"{column_letters(col)}{row}", "", "#NAME?", message))
         evaluated += 1
     return updates, errors, cycles, evaluated, vectorised
@@ -781,13 +781,13 @@ def _changes(model: WorkbookModel, updates: dict[str, dict[bytes, object]]):
         if not sheet_updates:
             continue
         xml = pkg.read(info.part)
-        patched = sheet_xml.patch_values(xml, sheet_updates, consume=True, pieces=True)
+        patched = sheet_patch.patch_values(xml, sheet_updates, consume=True, pieces=True)
         del xml, sheet_updates
         pkg.forget(info.part)  # the package's copy of the old part is not needed any more
         groups = model.shared_groups.get(info.name)
         if groups:
             # LibreOffice recomputes shared formulas on opening; written one per cell, ours show their values
-            patched = sheet_xml.unshare_formulas(b"".join(patched), pkg.shared_strings, groups)
+            patched = shared_formulas.unshare_formulas(b"".join(patched), pkg.shared_strings, groups)
         changes.set(pkg, info.part, patched)
     changes.keep_cached_values(pkg)
     return changes

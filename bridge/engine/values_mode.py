@@ -35,10 +35,13 @@ from xml.etree import ElementTree
 
 from trueband.funcs.registry import REGISTRY, normalize_name
 
-from ..workbook import sheet_xml
+from ..workbook import sheet_data, sheet_edit, sheet_patch, sheet_read, xml_form
+from ..workbook.cells import split_ref
 from ..workbook.save import PackageChanges, add_override, remove_override
 from .values_notice import NOTICE_OPENING, Notice, frozen_inputs, kept_areas, notice_text, place_notice, reader_of
-from ..workbook.sheet_xml import CellUpdate, escape_text, iter_cells
+from ..workbook.sheet_patch import CellUpdate
+from ..workbook.sheet_read import iter_cells
+from ..workbook.xml_text import escape_text
 from ..workbook.package import NS_REL, REL_WORKSHEET, UnusableWorkbook, WorkbookPackage, rels_part_of
 
 __all__ = [
@@ -137,9 +140,9 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
     for info in pkg.worksheets:
         if info.name == FORMULA_SHEET:
             continue
-        try:  # a part in an unusual form is read and edited in the parser's form (sheet_xml.normal_form)
-            xml = sheet_xml.normal_form(changes.current(pkg, info.part))
-        except sheet_xml.SheetXmlError as exc:
+        try:  # a part in an irregular form is read and edited in the regular form (xml_form.regular_form)
+            xml = xml_form.regular_form(changes.current(pkg, info.part))
+        except sheet_data.SheetXmlError as exc:
             raise UnusableWorkbook(f"{pkg.path.name}: sheet {info.name!r}: {exc}", path=pkg.path) from None
         masters: dict[int, str] = {}
         chosen: dict[str, tuple[str | None, object]] = {}
@@ -156,9 +159,9 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
             continue
         elements = formula_elements(xml, chosen)
         if len(elements) < len(chosen):  # cells written without r: the parser's form gives each its reference
-            xml = sheet_xml.parsed_form(xml)
+            xml = xml_form.rewrite_in_regular_form(xml)
             elements = formula_elements(xml, chosen)
-        missing = sorted(set(chosen) - set(elements), key=sheet_xml.split_ref)
+        missing = sorted(set(chosen) - set(elements), key=split_ref)
         if missing:
             raise UnusableWorkbook(f"{pkg.path.name}: sheet {info.name!r}: cell {missing[0]} is written without "
                                    f"its reference (r); --values cannot replace its formula (re-save the file "
@@ -168,8 +171,8 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
             records.append(FormulaRecord(info.name, ref, text, elements[ref]))
             updates[ref] = CellUpdate(value, drop_formula=True)
         try:
-            changes.set(pkg, info.part, sheet_xml.patch_sheet(xml, updates))
-        except sheet_xml.SheetXmlError as exc:
+            changes.set(pkg, info.part, sheet_patch.patch_sheet(xml, updates))
+        except sheet_data.SheetXmlError as exc:
             raise UnusableWorkbook(f"{pkg.path.name}: sheet {info.name!r}: {exc}", path=pkg.path) from None
     if records:
         all_records = _existing(pkg)[0] + records
@@ -187,12 +190,12 @@ def _write_notices(pkg: WorkbookPackage, changes: PackageChanges, text: str, is_
     for info in pkg.worksheets:
         if info.name == FORMULA_SHEET:
             continue
-        xml = sheet_xml.normal_form(changes.current(pkg, info.part))
+        xml = xml_form.regular_form(changes.current(pkg, info.part))
         old = earlier.get(info.name.casefold())
         if old is not None:
             cell = next((c for c in iter_cells(xml, pkg.shared_strings) if c.ref == old.cell), None)
             if cell is not None and isinstance(cell.value, str) and cell.value.startswith(NOTICE_OPENING):
-                changes.set(pkg, info.part, sheet_xml.patch_sheet(xml, {old.cell: CellUpdate(text)}))
+                changes.set(pkg, info.part, sheet_patch.patch_sheet(xml, {old.cell: CellUpdate(text)}))
                 notices.append(Notice(info.name, old.cell, text, old.new_row))
                 continue
         place = place_notice(xml, pkg.shared_strings, info.name, is_read, kept_areas(pkg, info, xml))
@@ -201,15 +204,15 @@ def _write_notices(pkg: WorkbookPackage, changes: PackageChanges, text: str, is_
                 unplaced.append(info.name)
             continue
         ref, new_row = place
-        before = sheet_xml.dimension(xml)
+        before = sheet_read.dimension(xml)
         try:
-            new = sheet_xml.add_cells(xml, {ref: sheet_xml.NewCell(value=text)})
-        except sheet_xml.SheetXmlError:  # rows written without numbers: no cell can be added safely
+            new = sheet_edit.add_cells(xml, {ref: sheet_edit.NewCell(value=text)})
+        except sheet_data.SheetXmlError:  # rows written without numbers: no cell can be added safely
             if unplaced is not None:
                 unplaced.append(info.name)
             continue
         if before is not None:  # the notice stays outside the recorded extent: restore gives the same bytes back
-            new = sheet_xml.set_dimension(new, before)
+            new = sheet_edit.set_dimension(new, before)
         changes.set(pkg, info.part, new)
         notices.append(Notice(info.name, ref, text, new_row))
     return notices
@@ -409,7 +412,7 @@ def restore_formulas(pkg: WorkbookPackage, changes: PackageChanges) -> RestoreRe
                                f"to restore", path=pkg.path) from None
     try:
         records, notices = _read_sheet_records(pkg.read(info.part), pkg.shared_strings)
-    except sheet_xml.SheetXmlError as exc:
+    except sheet_data.SheetXmlError as exc:
         raise UnusableWorkbook(f"{pkg.path.name}: the hidden sheet {FORMULA_SHEET} cannot be read ({exc})",
                                path=pkg.path) from None
     report = RestoreReport()
@@ -428,7 +431,7 @@ def restore_formulas(pkg: WorkbookPackage, changes: PackageChanges) -> RestoreRe
             continue
         try:
             report.restored += _restore_sheet(pkg, changes, target, recs, report, notes_by_sheet.get(name, []))
-        except sheet_xml.SheetXmlError as exc:
+        except sheet_data.SheetXmlError as exc:
             raise UnusableWorkbook(f"{pkg.path.name}: sheet {name!r}: {exc}; nothing was restored",
                                    path=pkg.path) from None
     _remove_sheet(pkg, changes, info)
@@ -456,8 +459,8 @@ def _element_for(element: bytes, prefix: bytes) -> bytes | None:
 def _restore_sheet(pkg: WorkbookPackage, changes: PackageChanges, target, recs: list[FormulaRecord],
                    report: RestoreReport, notices: list[Notice] = ()) -> int:
     """Put one sheet's records back and take its notice out; the number of formulas restored."""
-    xml = sheet_xml.normal_form(changes.current(pkg, target.part))
-    prefix = sheet_xml.sheet_data_span(xml)[2]
+    xml = xml_form.regular_form(changes.current(pkg, target.part))
+    prefix = sheet_data.sheet_data_span(xml)[2]
     current = {}
     taken_si: set[int] = set()
     for c in iter_cells(xml, pkg.shared_strings):
@@ -472,11 +475,11 @@ def _restore_sheet(pkg: WorkbookPackage, changes: PackageChanges, target, recs: 
         renumber[si] = max(used_si) + 1
         used_si.add(renumber[si])
     updates: dict[str, CellUpdate] = {}
-    absent: dict[str, sheet_xml.NewCell] = {}
+    absent: dict[str, sheet_edit.NewCell] = {}
     for rec in recs:
         ref = rec.cell.replace("$", "").upper()
         try:
-            sheet_xml.split_ref(ref)
+            split_ref(ref)
         except ValueError:
             report.skipped.append((f"{rec.sheet}!{rec.cell}", "the record does not name a cell"))
             continue
@@ -490,7 +493,7 @@ def _restore_sheet(pkg: WorkbookPackage, changes: PackageChanges, target, recs: 
                               + m.group(3), element, count=1)
         if cell is None:
             # spreadsheet apps do not save a cell whose value is empty text: it comes back without a value
-            absent[ref] = sheet_xml.NewCell()
+            absent[ref] = sheet_edit.NewCell()
             updates[ref] = CellUpdate(None, formula_xml=element)
             continue
         if cell.formula is not None:
@@ -512,11 +515,11 @@ def _restore_sheet(pkg: WorkbookPackage, changes: PackageChanges, target, recs: 
     if not updates and not gone:
         return 0
     if absent:
-        xml = sheet_xml.add_cells(xml, absent)
+        xml = sheet_edit.add_cells(xml, absent)
     if updates:
-        xml = sheet_xml.patch_sheet(xml, updates)
+        xml = sheet_patch.patch_sheet(xml, updates)
     if gone:
-        xml = sheet_xml.remove_cells(xml, gone, empty_rows=own_rows)
+        xml = sheet_edit.remove_cells(xml, gone, empty_rows=own_rows)
     changes.set(pkg, target.part, xml)
     return len(updates)
 

@@ -31,8 +31,9 @@ import dataclasses
 import datetime
 import re
 
-from ..workbook import sheet_xml
-from ..workbook.sheet_xml import iter_cells
+from ..workbook import sheet_data, sheet_read, xml_text
+from ..workbook.cells import MAX_COLUMN, MAX_ROW, column_letters, range_box, split_ref
+from ..workbook.sheet_read import iter_cells
 from ..workbook.package import WorkbookPackage
 
 __all__ = ["Notice", "NOTICE_OPENING", "NOTICE_ITEMS", "notice_text", "frozen_inputs", "reader_of", "kept_areas",
@@ -60,7 +61,7 @@ def _cell_ranges(refs) -> list[str]:
     by_col: dict[int, list[int]] = {}
     for ref in refs:
         try:
-            r, c = sheet_xml.split_ref(ref)
+            r, c = split_ref(ref)
         except ValueError:  # a record edited by hand: restore reports it
             continue
         by_col.setdefault(c, []).append(r)
@@ -83,7 +84,7 @@ def _cell_ranges(refs) -> list[str]:
             if r is not None:
                 start = prev = r
     runs.sort(key=lambda t: (t[2], t[0]))
-    L = sheet_xml.column_letters
+    L = column_letters
     return [f"{L(c1)}{r1}" if (c1, r1) == (c2, r2) else f"{L(c1)}{r1}:{L(c2)}{r2}" for c1, c2, r1, r2 in runs]
 
 
@@ -103,7 +104,7 @@ def _shown(value) -> str:
     if isinstance(value, float):
         return f"{value:.6g}"
     if isinstance(value, str):
-        return value if isinstance(value, sheet_xml.ErrorValue) else f'"{value[:40]}"'
+        return value if isinstance(value, sheet_data.ErrorValue) else f'"{value[:40]}"'
     return "(blank)"
 
 
@@ -159,7 +160,7 @@ def frozen_inputs(runs, store, uses_registered, as_value) -> list[tuple[str, obj
                 continue
             sheet = store.canonical(ref.sheet or run.sheet) or (ref.sheet or run.sheet)
             r1, c1, r2, c2 = _run_area(ref, run)
-            L = sheet_xml.column_letters
+            L = column_letters
             label = f"{_quoted_sheet(sheet)}!{L(c1)}{r1}" + ("" if (r1, c1) == (r2, c2) else f":{L(c2)}{r2}")
             if label in out or label + " (blank)" in out:
                 continue
@@ -202,8 +203,8 @@ def _areas_in(text: str, sheet: str) -> list[tuple[int, int, int, int]]:
         name = (m.group(1) or "").replace("''", "'") or m.group(2)
         if name.casefold() != sheet.casefold():
             continue
-        (r1, c1) = sheet_xml.split_ref(m.group(3) + m.group(4))
-        (r2, c2) = sheet_xml.split_ref((m.group(5) or m.group(3)) + (m.group(6) or m.group(4)))
+        (r1, c1) = split_ref(m.group(3) + m.group(4))
+        (r2, c2) = split_ref((m.group(5) or m.group(3)) + (m.group(6) or m.group(4)))
         out.append((min(r1, r2), min(c1, c2), max(r1, r2), max(c1, c2)))
     return out
 
@@ -218,11 +219,11 @@ def kept_areas(pkg: WorkbookPackage, info, xml: bytes) -> list[tuple[int, int, i
             m = _REF_ATTR.search(pkg.read(part))
             if m:
                 refs.append(m.group(1))
-    areas = [sheet_xml.range_box(ref.decode("ascii")) for ref in refs]  # the pattern takes only A1 or A1:B9
+    areas = [range_box(ref.decode("ascii")) for ref in refs]  # the pattern takes only A1 or A1:B9
     for name in pkg.entry_names:
         if name.startswith("xl/charts/chart") and name.endswith(".xml"):
             for m in _CHART_FORMULA.finditer(pkg.read(name)):
-                areas += _areas_in(sheet_xml.unescape_xml(m.group(1)), info.name)
+                areas += _areas_in(xml_text.unescape_xml(m.group(1)), info.name)
     for d in pkg.defined_names:
         areas += _areas_in(d.text, info.name)
     return areas
@@ -246,7 +247,7 @@ def place_notice(xml: bytes, strings, sheet: str, is_read, kept=()) -> tuple[str
             continue
         used_rows[cell.row] = used_rows.get(cell.row, 0) + 1
         r0, r1, c0, c1 = min(r0, cell.row), max(r1, cell.row), min(c0, cell.col), max(c1, cell.col)
-    merges = sheet_xml.merged_ranges(xml)
+    merges = sheet_read.merged_ranges(xml)
     blocked = merges + list(kept)
 
     def free(row, col):
@@ -262,11 +263,11 @@ def place_notice(xml: bytes, strings, sheet: str, is_read, kept=()) -> tuple[str
         above = used_rows.get(row - 1, 0)
         if (row < r0 or above <= 2) and free(row, col) and not any(
                 a <= row <= c for a, b, c, d in merges):
-            return f"{sheet_xml.column_letters(col)}{row}", row not in existing_rows
-    for c in range(c1 + 1, min(c1 + 4, 16384) + 1):  # beside the used range, on its first row
+            return f"{column_letters(col)}{row}", row not in existing_rows
+    for c in range(c1 + 1, min(c1 + 4, MAX_COLUMN) + 1):  # beside the used range, on its first row
         if free(r0, c):
-            return f"{sheet_xml.column_letters(c)}{r0}", False
-    for row in range(r1 + 1, min(r1 + 4, 1048576) + 1):  # under it
+            return f"{column_letters(c)}{r0}", False
+    for row in range(r1 + 1, min(r1 + 4, MAX_ROW) + 1):  # under it
         if row not in used_rows and free(row, c0):
-            return f"{sheet_xml.column_letters(c0)}{row}", row not in existing_rows
+            return f"{column_letters(c0)}{row}", row not in existing_rows
     return None

@@ -44,15 +44,12 @@ from formulas.tokens.operand import Empty, Error, Number, Range, String
 from formulas.tokens.operator import Operator
 
 from .text import parser, syntax_reason
-from ..workbook.sheet_xml import column_index, column_letters, split_ref
+from ..workbook.cells import MAX_COLUMN, column_index, column_letters, split_ref
 
 __all__ = [
-    "MAX_ROW", "MAX_COL", "Ref", "Node", "Compiled", "Run", "FormulaGraph", "formula_key", "compile_formula",
+    "Ref", "Node", "Compiled", "Run", "FormulaGraph", "formula_key", "compile_formula",
     "column_index", "column_letters", "split_address", "FormulaSyntaxError", "KeyTemplate",
 ]
-
-MAX_ROW = 1_048_576
-MAX_COL = 16_384
 
 
 class FormulaSyntaxError(ValueError):
@@ -207,7 +204,7 @@ def _ref_from_token(token: Range, raw: str, row: int, col: int) -> Ref:
         r1, r1abs, r2abs = 1, "$", "$"
     if a.group(2) is None and b.group(2) is None:  # a row range 2:5 covers every column
         c1abs = c2abs = "$"
-        n1, n2 = 1, MAX_COL
+        n1, n2 = 1, MAX_COLUMN
     return Ref(sheet=attr.get("sheet"),
                r1=r1 if r1abs else r1 - row, c1=n1 if c1abs else n1 - col,
                r2=r2 if r2abs else r2 - row, c2=n2 if c2abs else n2 - col,

@@ -18,7 +18,7 @@ _MAX_INPUT_BYTES = 2_000_000_000  # uncompressed; a larger package is refused be
 
 class DataWorkbook:
     """The sheets of a workbook package as grids of cached values, read with the package layer
-    (:mod:`..workbook.package`, :mod:`..workbook.sheet_xml`): a formula cell gives its stored value, as a
+    (:mod:`..workbook.package`, :mod:`..workbook.sheet_columns`): a formula cell gives its stored value, as a
     spreadsheet app shows it; dates are their serial numbers."""
 
     def __init__(self, path: Path):
@@ -46,7 +46,8 @@ class DataWorkbook:
         ``(row, col)`` (1-based) to the number format of each cell that has one other than General
         (dates keep their date format in the study's copy); ``uncached`` lists ``(row, col)`` of the
         formula cells without a stored value."""
-        from ..workbook.sheet_xml import SheetXmlError, read_columns
+        from ..workbook.sheet_columns import read_columns
+        from ..workbook.sheet_data import SheetXmlError
 
         try:
             sc = read_columns(self.pkg.sheet_xml(name), self.pkg.shared_strings)

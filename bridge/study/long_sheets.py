@@ -22,7 +22,7 @@ from xml.sax.saxutils import escape
 from openpyxl.utils import get_column_letter
 
 from ..formulas.calc_binding import bind_for_calc, bind_sheet_xml
-from ..workbook.sheet_xml import ErrorValue
+from ..workbook.sheet_data import ErrorValue
 
 __all__ = ["rows_xml", "splice_rows", "sheet_parts"]
 

@@ -33,35 +33,21 @@ with the environment variables ``TRUEBAND_MAX_UNCOMPRESSED`` (bytes) and
 from __future__ import annotations
 
 import dataclasses
-import html
 import os
 import posixpath
 import re
 import zipfile
 import zlib
 from pathlib import Path
-from typing import Iterable
 from xml.etree import ElementTree
 
+from .xml_form import part_may_be_irregular
+from .xml_text import decode_escaped, unescape_xml
+
 __all__ = [
-    "UnusableWorkbook",
-    "WorkbookLocked",
-    "WorkbookPackage",
-    "SheetInfo",
-    "DefinedName",
-    "open_workbook_package",
-    "lock_file_of",
-    "unescape_xml",
-    "DEFAULT_MAX_TOTAL",
-    "DEFAULT_MAX_RATIO",
-    "NS_MAIN",
-    "NS_REL",
-    "NS_PKG_REL",
-    "NS_CT",
-    "REL_OFFICE_DOCUMENT",
-    "REL_WORKSHEET",
-    "REL_SHARED_STRINGS",
-    "REL_CALC_CHAIN",
+    "UnusableWorkbook", "WorkbookLocked", "WorkbookPackage", "SheetInfo", "DefinedName", "open_workbook_package",
+    "lock_file_of", "DEFAULT_MAX_TOTAL", "DEFAULT_MAX_RATIO", "NS_MAIN", "NS_REL", "NS_PKG_REL", "NS_CT",
+    "REL_OFFICE_DOCUMENT", "REL_WORKSHEET", "REL_SHARED_STRINGS", "REL_CALC_CHAIN",
 ]
 
 #: Entries at least this large are inflated in one call, and the last one read is kept for a second read.
@@ -119,13 +105,8 @@ class SheetInfo:
     part: str
     state: str
     index: int
-    sheet_id: str
     rel_id: str
     kind: str = "worksheet"
-
-    @property
-    def visible(self) -> bool:
-        return self.state == "visible"
 
 
 @dataclasses.dataclass(frozen=True)
@@ -152,23 +133,6 @@ def lock_file_of(path: str | os.PathLike) -> Path | None:
     return None
 
 
-_ENTITY = re.compile(r"&(?:#[0-9]+|#x[0-9a-fA-F]+|[a-z]+);")
-_ESCAPED_CHAR = re.compile(r"_x([0-9A-Fa-f]{4})_")
-
-
-def unescape_xml(raw: bytes) -> str:
-    """Text content of an element, as bytes from the XML, to ``str`` (entities and ``_xHHHH_`` decoded)."""
-    if b"&" in raw and b"&#" not in raw:  # the five named entities only: plain replacements, &amp; last
-        raw = (raw.replace(b"&lt;", b"<").replace(b"&gt;", b">").replace(b"&quot;", b'"')
-               .replace(b"&apos;", b"'").replace(b"&amp;", b"&"))
-    text = raw.decode("utf-8")
-    if "&" in text and b"&#" in raw:
-        text = html.unescape(text)  # numeric character references (valid XML has no other entities)
-    if "_x" in text:
-        text = _ESCAPED_CHAR.sub(lambda m: chr(int(m.group(1), 16)), text)
-    return text
-
-
 # ------------------------------------------------------------------ shared strings
 
 _SI = re.compile(rb"<(?:\w+:)?si\b[^>]*?(?:/>|>(.*?)</(?:\w+:)?si>)", re.S)
@@ -181,13 +145,11 @@ def parse_shared_strings(xml: bytes) -> list[str]:
     """Shared-string table as a list of str; rich-text runs are joined, phonetic guides dropped.
 
     Read with regular expressions over the bytes; a part that the pre-scan
-    (:func:`~trueband.bridge.workbook.sheet_xml.odd_part`) flags as holding a form they
-    do not take (single-quoted attributes, whitespace in tags, CDATA, comments,
-    character references, another encoding) is read with ElementTree instead.
+    (:func:`~.xml_form.part_may_be_irregular`) flags as possibly in an irregular form
+    (single-quoted attributes, whitespace in tags, CDATA, comments, character
+    references, another encoding) is read with ElementTree instead.
     """
-    from .sheet_xml import odd_part  # (sheet_xml imports this module)
-
-    if odd_part(xml):
+    if part_may_be_irregular(xml):
         return _parsed_shared_strings(xml)
     out: list[str] = []
     append = out.append
@@ -220,7 +182,7 @@ def _parsed_shared_strings(xml: bytes) -> list[str]:
                 texts(child, into)
         return into
 
-    return [_ESCAPED_CHAR.sub(lambda m: chr(int(m.group(1), 16)), "".join(texts(si, [])))
+    return [decode_escaped("".join(texts(si, [])))
             for si in root if si.tag.rsplit("}", 1)[-1] == "si"]
 
 
@@ -368,10 +330,10 @@ class WorkbookPackage:
         for el in self.xml(rels):
             if el.tag.rsplit("}", 1)[-1] != "Relationship":
                 continue
-            d = dict(el.attrib)
-            if d.get("TargetMode") != "External" and "Target" in d:
-                d["part"] = _resolve_target(part or "_rels", d["Target"]) if part else d["Target"].lstrip("/")
-            out.append(d)
+            rel = dict(el.attrib)
+            if rel.get("TargetMode") != "External" and "Target" in rel:
+                rel["part"] = _resolve_target(part or "_rels", rel["Target"]) if part else rel["Target"].lstrip("/")
+            out.append(rel)
         return out
 
     # -- derived views
@@ -397,12 +359,12 @@ class WorkbookPackage:
         if root.tag.rsplit("}", 1)[-1] != "workbook":
             raise UnusableWorkbook(f"{name}: {workbook_part} is not a spreadsheet workbook part", path=self.path)
         ns_main = root.tag[1:].split("}", 1)[0] if root.tag.startswith("{") else ""
-        q = (lambda t: f"{{{ns_main}}}{t}") if ns_main else (lambda t: t)
+        qualified = (lambda tag: f"{{{ns_main}}}{tag}") if ns_main else (lambda tag: tag)
 
         self.workbook_rels = self.relationships(workbook_part)
         by_id = {r["Id"]: r for r in self.workbook_rels if "Id" in r}
         self.sheets: list[SheetInfo] = []
-        sheets_el = root.find(q("sheets"))
+        sheets_el = root.find(qualified("sheets"))
         for index, el in enumerate([] if sheets_el is None else list(sheets_el)):
             rid = next((v for k, v in el.attrib.items() if k.endswith("}id")), "")
             rel = by_id.get(rid)
@@ -415,15 +377,16 @@ class WorkbookPackage:
             elif not _rel_type_is(rel.get("Type", ""), REL_WORKSHEET):
                 kind = rel.get("Type", "").rsplit("/", 1)[-1]  # dialog and macro sheets: kept, not read
             self.sheets.append(SheetInfo(name=el.get("name", ""), part=rel["part"], state=el.get("state", "visible"),
-                                         index=index, sheet_id=el.get("sheetId", ""), rel_id=rid, kind=kind))
-        for s in self.sheets:
-            if s.kind == "worksheet" and s.part not in self.infos:
-                raise UnusableWorkbook(f"{name}: the part of sheet {s.name!r} ({s.part}) is missing", path=self.path)
+                                         index=index, rel_id=rid, kind=kind))
+        for sheet in self.sheets:
+            if sheet.kind == "worksheet" and sheet.part not in self.infos:
+                raise UnusableWorkbook(f"{name}: the part of sheet {sheet.name!r} ({sheet.part}) is missing",
+                                       path=self.path)
         if not self.sheets:
             raise UnusableWorkbook(f"{name}: the workbook has no sheets", path=self.path)
 
         self.defined_names: list[DefinedName] = []
-        names_el = root.find(q("definedNames"))
+        names_el = root.find(qualified("definedNames"))
         for el in [] if names_el is None else list(names_el):
             local = el.get("localSheetId")
             sheet = None
@@ -432,7 +395,7 @@ class WorkbookPackage:
             self.defined_names.append(DefinedName(name=el.get("name", ""), text=(el.text or "").strip(),
                                                   sheet=sheet, hidden=el.get("hidden") in ("1", "true")))
 
-        calc = root.find(q("calcPr"))
+        calc = root.find(qualified("calcPr"))
         self.calc_properties: dict[str, str] = {} if calc is None else dict(calc.attrib)
 
         self.shared_strings_part = next((r["part"] for r in self.workbook_rels
@@ -459,13 +422,13 @@ class WorkbookPackage:
     @property
     def worksheets(self) -> list[SheetInfo]:
         """Only the sheets that hold cells."""
-        return [s for s in self.sheets if s.kind == "worksheet"]
+        return [sheet for sheet in self.sheets if sheet.kind == "worksheet"]
 
     def sheet(self, name: str) -> SheetInfo:
         """The sheet of that name (case-insensitive, as spreadsheet apps match sheet names)."""
-        for s in self.sheets:
-            if s.name.casefold() == name.casefold():
-                return s
+        for sheet in self.sheets:
+            if sheet.name.casefold() == name.casefold():
+                return sheet
         raise KeyError(f"no sheet named {name!r}; the sheets are {', '.join(repr(s.name) for s in self.sheets)}")
 
     def sheet_xml(self, name: str) -> bytes:
@@ -475,19 +438,20 @@ class WorkbookPackage:
         """Resolve a defined name as a formula on ``sheet`` would: a name local to that sheet wins."""
         key = name.casefold()
         found = None
-        for d in self.defined_names:
-            if d.name.casefold() != key:
+        for defined in self.defined_names:
+            if defined.name.casefold() != key:
                 continue
-            if d.sheet is not None and sheet is not None and d.sheet.casefold() == sheet.casefold():
-                return d
-            if d.sheet is None:
-                found = d
+            if defined.sheet is not None and sheet is not None and defined.sheet.casefold() == sheet.casefold():
+                return defined
+            if defined.sheet is None:
+                found = defined
         return found
 
     @property
     def names(self) -> dict[str, str]:
         """Defined names as ``name → text``; a sheet-local name is keyed ``Sheet!name``."""
-        return {(f"{d.sheet}!{d.name}" if d.sheet else d.name): d.text for d in self.defined_names}
+        return {(f"{defined.sheet}!{defined.name}" if defined.sheet else defined.name): defined.text
+                for defined in self.defined_names}
 
 
 # ------------------------------------------------------------------ opening and refusing
@@ -619,6 +583,3 @@ def open_workbook_package(path: str | os.PathLike, *, check_lock: bool = True, m
         raise UnusableWorkbook(f"{p.name} is damaged ({type(exc).__name__}: {exc}); open and re-save it in a "
                                f"spreadsheet app", path=p) from None
 
-
-def iter_entry_names(pkg: WorkbookPackage, prefix: str) -> Iterable[str]:
-    return (n for n in pkg.entry_names if n.startswith(prefix))

@@ -37,7 +37,6 @@ import time
 import uuid
 import zipfile
 from pathlib import Path
-from typing import Iterable, Mapping
 
 from .package import (
     REL_CALC_CHAIN,
@@ -70,11 +69,11 @@ _REPLACE_RETRIES = 10
 _REPLACE_WAIT = 0.25
 
 
-def _size(data: bytes | list[bytes]) -> int:
+def _byte_count(data: bytes | list[bytes]) -> int:
     return len(data) if isinstance(data, bytes) else sum(map(len, data))
 
 
-def _same(data: bytes | list[bytes], original: bytes) -> bool:
+def _same_bytes(data: bytes | list[bytes], original: bytes) -> bool:
     if isinstance(data, bytes):
         return data == original
     pos = 0
@@ -124,7 +123,7 @@ class PackageChanges:
         self.remove.discard(part)
         if part in pkg:
             # unchanged after all: copy the original (sizes first, so a large part is rarely read again)
-            if pkg.infos[part].file_size == _size(data) and _same(data, pkg.read(part)):
+            if pkg.infos[part].file_size == _byte_count(data) and _same_bytes(data, pkg.read(part)):
                 self.replace.pop(part, None)
             else:
                 self.replace[part] = data
@@ -154,8 +153,8 @@ class PackageChanges:
         rels = self.current(pkg, rels_name)
         if rels is not None:
             self.set(pkg, rels_name, _remove_relationship_of_type(rels, REL_CALC_CHAIN))
-        ct = self.current(pkg, "[Content_Types].xml")
-        self.set(pkg, "[Content_Types].xml", remove_override(ct, "/" + part))
+        content_types = self.current(pkg, "[Content_Types].xml")
+        self.set(pkg, "[Content_Types].xml", remove_override(content_types, "/" + part))
 
     def keep_cached_values(self, pkg: WorkbookPackage) -> None:
         """Make the app show the cached values on open instead of recalculating everything.
@@ -238,7 +237,8 @@ def _remove_stale_temps(folder: Path, target: Path) -> None:
 # ------------------------------------------------------------------ writing
 
 
-def _hook():
+def _test_write_hook():
+    """(action, entries written, marker file) from ``TRUEBAND_TEST_WRITE_HOOK``, or None when it is not set."""
     raw = os.environ.get("TRUEBAND_TEST_WRITE_HOOK", "")
     if not raw:
         return None
@@ -246,10 +246,11 @@ def _hook():
     return parts[0], int(parts[1]), (parts[2] if len(parts) > 2 else "")
 
 
-def _run_hook(hook, written: int) -> None:
-    if hook is None or written != hook[1]:
+def _run_test_write_hook(test_hook, written: int) -> None:
+    """Pause or exit as the test hook asks once ``written`` entries are written."""
+    if test_hook is None or written != test_hook[1]:
         return
-    action, _, marker = hook
+    action, _, marker = test_hook
     if action == "pause":
         if marker:
             Path(marker).write_text(str(os.getpid()))
@@ -295,7 +296,7 @@ def write_package(pkg: WorkbookPackage, changes: PackageChanges, dest: str | os.
     unknown = (set(changes.replace) | changes.remove) - set(pkg.entry_names)
     if unknown:
         raise KeyError(f"changes name parts the package does not have: {sorted(unknown)}")
-    hook = _hook()
+    test_hook = _test_write_hook()
     written = 0
     default_method = zipfile.ZIP_DEFLATED
     with open(dest, "xb") as fh:
@@ -307,7 +308,7 @@ def write_package(pkg: WorkbookPackage, changes: PackageChanges, dest: str | os.
                 new_info = _copy_info(info)
                 if name in changes.replace:
                     data = changes.replace[name]
-                    size = _size(data)
+                    size = _byte_count(data)
                     if new_info.compress_type == zipfile.ZIP_STORED and size > 1024:
                         new_info.compress_type = default_method
                     _set_level(new_info, _level_for(size, compresslevel))
@@ -327,14 +328,14 @@ def write_package(pkg: WorkbookPackage, changes: PackageChanges, dest: str | os.
                     with pkg.open_part(name) as src, out.open(new_info, "w", force_zip64=True) as dst:
                         shutil.copyfileobj(src, dst, _CHUNK)
                 written += 1
-                _run_hook(hook, written)
+                _run_test_write_hook(test_hook, written)
             for name, data in changes.add.items():
                 info = zipfile.ZipInfo(name, date_time=time.localtime(time.time())[:6])
                 info.compress_type = default_method
                 _set_level(info, _level_for(len(data), compresslevel))
                 out.writestr(info, data)
                 written += 1
-                _run_hook(hook, written)
+                _run_test_write_hook(test_hook, written)
         fh.flush()
         os.fsync(fh.fileno())
 
@@ -436,13 +437,3 @@ def save_workbook(pkg: WorkbookPackage, changes: PackageChanges, *, output: str 
         raise
     return dest
 
-
-def changed_parts(pkg: WorkbookPackage, changes: PackageChanges) -> Iterable[str]:
-    """Names of the entries whose bytes differ from the input's (for summaries and tests)."""
-    return [*changes.replace, *changes.add, *changes.remove]
-
-
-def read_back(path: str | os.PathLike) -> Mapping[str, bytes]:
-    """Every entry of a package as name → uncompressed bytes (tests compare packages with it)."""
-    with zipfile.ZipFile(path) as zf:
-        return {n: zf.read(n) for n in zf.namelist()}
