@@ -17,6 +17,7 @@ import pytest
 import formulas
 from formulas.functions import SUBMODULES
 from trueband.bridge.formulas import library as ff
+from trueband.bridge.formulas.names import standard_names
 from trueband.bridge.engine.evaluate import _RANGE_AGGREGATES, _range_aggregate
 from trueband.bridge.formulas.compile import compile_formula
 from trueband.bridge.engine.recalc import CellStore
@@ -37,7 +38,7 @@ def test_lazy_table_gives_the_library_functions_and_ours():
     table = ff.FunctionTable()
     library = formulas.get_functions()
     registered = {key for name, spec in REGISTRY.items() for key in (name, *spec.aliases)}
-    for name in ff.builtin_names():
+    for name in standard_names():
         if name in registered:
             continue
         assert table[name] is library[name], name

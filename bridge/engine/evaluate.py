@@ -50,13 +50,14 @@ from formulas.functions import Error, XlError
 from formulas.functions.operators import OPERATORS
 
 from trueband.funcs.errors import TruebandError
-from trueband.funcs.registry import REGISTRY, normalize_name
+from trueband.funcs.registry import REGISTRY
 
 from ..formulas import library as ff
 from ..formulas.compile import MAX_COL, MAX_ROW, Compiled, Node, Run
+from ..formulas.names import registered_name
 
 __all__ = ["EMPTY", "CellResult", "RunResult", "CellProblem", "evaluate_run", "evaluate_cell", "error_value",
-           "is_error", "registered_name", "VectorUnsupported"]
+           "is_error", "VectorUnsupported"]
 
 EMPTY = sh.EMPTY
 _ERRORS = Error.errors
@@ -75,12 +76,6 @@ def error_value(code: str) -> XlError:
 
 def is_error(x) -> bool:
     return isinstance(x, XlError)
-
-
-def registered_name(name: str) -> str | None:
-    """The registry name behind a function name as written (any case, app prefixes), or None."""
-    key = normalize_name(name)
-    return key if key in REGISTRY else None
 
 
 @dataclasses.dataclass(frozen=True)

@@ -38,10 +38,10 @@ from formulas.functions import XlError
 from ..workbook import sheet_xml
 from . import values_mode
 from .evaluate import (EMPTY, CellProblem, VectorUnsupported, error_value, evaluate_array_formula, evaluate_cell,
-                          evaluate_run, registered_name)
+                          evaluate_run)
 from ..formulas.compile import (MAX_ROW, Compiled, FormulaGraph, FormulaSyntaxError, KeyTemplate, Node, Ref, Run,
                             column_letters, compile_formula, split_address)
-from .values_mode import uses_registered_function
+from ..formulas.names import registered_name, uses_registered_function
 from ..workbook.package import UnusableWorkbook, WorkbookPackage, open_workbook_package
 
 __all__ = ["recalculate", "RecalcReport", "CellError", "WorkbookModel", "load_model", "evaluate_model",

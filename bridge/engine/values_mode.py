@@ -33,8 +33,7 @@ import re
 from typing import Mapping
 from xml.etree import ElementTree
 
-from trueband.funcs.registry import REGISTRY, normalize_name
-
+from ..formulas.names import uses_registered_function
 from ..workbook import sheet_xml
 from ..workbook.save import PackageChanges, add_override, remove_override
 from .values_notice import NOTICE_OPENING, Notice, frozen_inputs, kept_areas, notice_text, place_notice, reader_of
@@ -44,7 +43,6 @@ from ..workbook.package import NS_REL, REL_WORKSHEET, UnusableWorkbook, Workbook
 __all__ = [
     "FORMULA_SHEET",
     "FormulaRecord",
-    "uses_registered_function",
     "replace_with_values",
     "restore_formulas",
     "RestoreReport",
@@ -65,21 +63,6 @@ _NOTE = "Formulas replaced by their values by trueband; `trueband restore FILE` 
 _NOTICE_MARK = "(values notice)"
 _NOTICE_NEW_ROW = "(values notice, own row)"
 CT_WORKSHEET = "application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"
-
-_NAME_CALL = re.compile(r'"[^"]*"|((?:_xludf\.|_xlfn\._xlws\.|_xlfn\.|_xlws\.|com\.microsoft\.|org\.openoffice\.)?'
-                        r"[A-Za-z_][A-Za-z0-9_.]*)\s*\(", re.I)
-
-
-def uses_registered_function(formula: str) -> bool:
-    """True if the formula calls a registered function (any case, any app prefix; text in quotes ignored).
-
-    >>> uses_registered_function('ROUND(_xludf.SEM(B1, B2), 2)')
-    True
-    >>> uses_registered_function('SUM(A1:A9) & "SEM("')
-    False
-    """
-    return any(m.group(1) and normalize_name(m.group(1)) in REGISTRY for m in _NAME_CALL.finditer(formula))
-
 
 @dataclasses.dataclass(frozen=True)
 class FormulaRecord:
