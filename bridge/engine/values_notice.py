@@ -34,6 +34,7 @@ import re
 from ..workbook import sheet_xml
 from ..workbook.sheet_xml import iter_cells
 from ..workbook.package import WorkbookPackage
+from .values import EMPTY
 
 __all__ = ["Notice", "NOTICE_OPENING", "NOTICE_ITEMS", "notice_text", "frozen_inputs", "reader_of", "kept_areas",
            "place_notice"]
@@ -148,8 +149,6 @@ def frozen_inputs(runs, store, uses_registered, as_value) -> list[tuple[str, obj
     ``runs`` are the recalculation's formula runs, ``uses_registered(compiled)``
     tells the ones to describe, ``as_value`` turns a stored value into a cell value.
     """
-    from .evaluate import EMPTY
-
     out: dict[str, object] = {}
     for run in runs:
         if not uses_registered(run.compiled):

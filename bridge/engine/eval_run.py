@@ -1,31 +1,23 @@
-"""Evaluate compiled formulas: a whole filled-down run as arrays, or one cell.
+"""A whole filled-down run of formula cells evaluated at once, with numpy.
 
-Two evaluators share the ``formulas`` package's function library and the
-registry (through :mod:`~trueband.bridge.formulas.library`):
-
-* :func:`evaluate_cell` evaluates one cell the way the ``formulas`` engine
-  does: references are 2-D object arrays (blanks ``EMPTY``), every operator
-  and function is the library's own. It is the reference semantics.
-* :func:`evaluate_run` evaluates every cell of a :class:`~.formula_graph.Run`
-  at once. A reference that moves with the row becomes a column of values
-  (``Col``), a one-row range that moves with the row a block of rows
-  (``RowRange``), an absolute reference a fixed range (``Fixed``). Arithmetic,
-  comparisons, ``IF``, the row-wise aggregates (``SUM``, ``AVERAGE``,
-  ``COUNT``, ``MIN``, ``MAX``) and ``ROUND``/``ABS``/``SQRT`` run as numpy
-  operations on clean numbers; registered elementwise functions run their
-  body on whole float arrays (failing blocks are halved to find the rows
-  that fail, as :func:`trueband.funcs.registry.call_column` does). Every row
-  that is not clean (text, blanks, errors, a non-finite intermediate) and
-  every other function goes through the library function for that row
-  only, so both evaluators give the same values.
-
-Values are ``float``, ``str``, ``bool``, the engine's error values
-(``XlError``) and ``EMPTY`` for a blank cell. A formula's final value is
-never ``EMPTY`` (a formula that points at a blank cell shows 0), never a
-non-finite number (``#NUM!``) and never a complex number (``#NUM!``).
+:func:`evaluate_run` evaluates every cell of a :class:`~.graph.Run` at once.
+A reference that moves with the row becomes a column of values (``Col``), a
+one-row range that moves with the row a block of rows (``RowRange``), an
+absolute reference a fixed range (``Fixed``). Arithmetic, comparisons,
+``IF``, the row-wise aggregates (``SUM``, ``AVERAGE``, ``COUNT``, ``MIN``,
+``MAX``) and ``ABS``/``SQRT`` run as numpy operations on clean numbers
+(``ROUND`` does not: the library rounds halves away from zero, numpy to
+even, so it goes through the library row by row); registered elementwise
+functions run their body on whole float arrays (failing blocks are halved
+to find the rows that fail, as :func:`trueband.funcs.registry.call_column`
+does). Every row that is not clean (text, blanks, errors, a non-finite
+intermediate) and every other function goes through the library function
+for that row only, so the values are those of :func:`.eval_cell.evaluate_cell`
+(the reference semantics) cell by cell.
 
 >>> import numpy as np
->>> from trueband.bridge.formulas.compile import compile_formula, Run
+>>> from trueband.bridge.formulas.compile import compile_formula
+>>> from trueband.bridge.engine.graph import Run
 >>> class Store:
 ...     def column(self, sheet, col, r1, r2):
 ...         return np.arange(r1, r2 + 1, dtype=float)
@@ -34,299 +26,31 @@ non-finite number (``#NUM!``) and never a complex number (``#NUM!``).
 >>> run = Run("S", 2, 2, 5, compile_formula("=A2*10+1", 2, 2))
 >>> evaluate_run(run, Store()).values.tolist()
 [21.0, 31.0, 41.0, 51.0]
->>> evaluate_cell(run.compiled, Store(), "S", 3, 2).value
-31.0
 """
 
 from __future__ import annotations
 
 import dataclasses
 import math
-from typing import Any, Callable, Sequence
+from typing import Callable, Sequence
 
 import numpy as np
-import schedula as sh
-from formulas.functions import Error, XlError
+from formulas.functions import XlError
 from formulas.functions.operators import OPERATORS
 
 from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import REGISTRY
 
-from ..formulas import library as ff
-from ..formulas.compile import MAX_COL, MAX_ROW, Compiled, Node, Run
+from ..formulas.compile import MAX_COL, MAX_ROW, Node
+from ..formulas.library import (ERROR_LOG, NOT_IMPLEMENTED, PassError, function_table, message_for, range_argument,
+                                scalar_argument)
 from ..formulas.names import registered_name
+from .eval_cell import area_value, range_aggregate
+from .graph import Run
+from .values import NAME_ERROR, VALUE_ERROR, CellProblem, VectorUnsupported, final_array, final_value, unknown_function
 
-__all__ = ["EMPTY", "CellResult", "RunResult", "CellProblem", "evaluate_run", "evaluate_cell", "error_value",
-           "is_error", "VectorUnsupported"]
+__all__ = ["RunResult", "evaluate_run"]
 
-EMPTY = sh.EMPTY
-_ERRORS = Error.errors
-_NUM = _ERRORS["#NUM!"]
-_VALUE = _ERRORS["#VALUE!"]
-_REF = _ERRORS["#REF!"]
-_NAME = _ERRORS["#NAME?"]
-_DIV = _ERRORS["#DIV/0!"]
-_functions = ff.function_table
-
-
-def error_value(code: str) -> XlError:
-    """The engine's error value of a code (``#SPILL!`` and other newer codes as they are)."""
-    return _ERRORS.get(code) or XlError(code)
-
-
-def is_error(x) -> bool:
-    return isinstance(x, XlError)
-
-
-@dataclasses.dataclass(frozen=True)
-class CellProblem:
-    """Why a cell holds an error: the function that raised it and its message."""
-
-    function: str
-    code: str
-    message: str
-
-
-def unknown_function(name: str) -> CellProblem:
-    """The problem of a call of a function nobody knows, with the closest names (``SME``: SEM or SUM)."""
-    from ..formulas.text import did_you_mean
-
-    return CellProblem(name, "#NAME?", f"{name} is not a function trueband or the formula engine knows"
-                                       f"{did_you_mean(name)}")
-
-
-class VectorUnsupported(Exception):
-    """The run cannot be evaluated as arrays (the caller evaluates its cells one by one)."""
-
-
-# ---------------------------------------------------------------- final values
-
-def _final(x):
-    """A formula result as a cell value."""
-    if isinstance(x, np.ndarray):
-        if x.size == 0:
-            return _VALUE
-        x = x.ravel()[0] if x.ndim else x.item()
-    if isinstance(x, np.generic):
-        x = x.item()
-    if x is EMPTY or x is None:
-        return 0.0
-    if isinstance(x, XlError):
-        return x
-    if isinstance(x, bool):
-        return x
-    if isinstance(x, (int, float)):
-        x = float(x)
-        return x if math.isfinite(x) else _NUM
-    if isinstance(x, str):
-        return x
-    if isinstance(x, complex):
-        return _NUM
-    return _VALUE
-
-
-def _final_array(a: np.ndarray) -> np.ndarray:
-    if a.dtype.kind == "f":
-        bad = ~np.isfinite(a)
-        if bad.any():
-            out = a.astype(object)
-            out[bad] = _NUM
-            return out
-        return a
-    if a.dtype.kind == "b":
-        return a
-    if a.dtype.kind in "iu":
-        return a.astype(float)
-    return np.array([_final(x) for x in a], dtype=object) if a.size else a
-
-
-# ---------------------------------------------------------------- one cell (the reference semantics)
-
-@dataclasses.dataclass
-class CellResult:
-    value: Any
-    problem: CellProblem | None = None
-
-
-def _area_value(store, sheet, area):
-    r1, c1, r2, c2 = area
-    if r1 < 1 or c1 < 1 or r2 > MAX_ROW or c2 > MAX_COL:
-        return _REF
-    if r1 == r2 and c1 == c2:
-        out = np.empty((1, 1), dtype=object)
-        out[0, 0] = store.value(sheet, r1, c1)
-        return out
-    return store.area(sheet, r1, c1, r2, c2)
-
-
-#: Aggregates over fixed ranges that are computed from the numbers directly when every cell of the
-#: ranges is a number or blank: name → (numpy function, ddof). The library's functions compute the same
-#: thing then (numpy over the numbers in reading order, blanks skipped), but reading a large range as
-#: engine values costs a Python step per cell, and its statistics module imports scipy.stats. Anything
-#: else (text, logicals or errors in a range, scalar arguments, too few numbers) goes to the library.
-_RANGE_AGGREGATES = {
-    "SUM": (np.sum, None), "AVERAGE": (np.mean, None), "COUNT": (len, None), "MIN": (np.min, None),
-    "MAX": (np.max, None), "STDEV": (np.std, 1), "STDEV.S": (np.std, 1), "STDEVP": (np.std, 0),
-    "STDEV.P": (np.std, 0), "VAR": (np.var, 1), "VAR.S": (np.var, 1), "VARP": (np.var, 0), "VAR.P": (np.var, 0),
-}
-
-
-def _range_aggregate(name: str, args, store, sheet: str, row: int, col: int, *, fixed_rows: bool = False):
-    """The value of ``name(range, ...)`` over number-only ranges, or None when the library must decide."""
-    key = name[6:] if name.startswith("_XLFN.") else name
-    how = _RANGE_AGGREGATES.get(key)
-    numbers_of = getattr(store, "numbers", None)
-    if how is None or numbers_of is None or not args:
-        return None
-    parts = []
-    for a in args:
-        if a.kind != "ref" or a.ref.name is not None or (fixed_rows and not a.ref.rows_fixed):
-            return None
-        r1, c1, r2, c2 = a.ref.area(row, col)
-        if r1 < 1 or c1 < 1 or r2 > MAX_ROW or c2 > MAX_COL:
-            return None
-        nums = numbers_of(a.ref.sheet or sheet, r1, c1, r2, c2)
-        if nums is None:
-            return None
-        parts.append(nums)
-    values = parts[0] if len(parts) == 1 else np.concatenate(parts)
-    fn, ddof = how
-    if fn is len:
-        return float(values.size)
-    if values.size <= (ddof or 0) or (fn is not np.sum and values.size == 0):
-        return None  # the library's error or default
-    out = fn(values) if ddof is None else fn(values, ddof=ddof)
-    out = float(out)
-    return out if math.isfinite(out) else None
-
-
-class _CellEval:
-    def __init__(self, store, sheet: str, row: int, col: int):
-        self.store, self.sheet, self.row, self.col = store, sheet, row, col
-        self.problems: list[CellProblem] = []
-
-    def ev(self, node: Node):
-        k = node.kind
-        if k == "lit":
-            return node.value
-        if k == "empty":
-            return 0
-        if k == "ref":
-            ref = node.ref
-            if ref.name is not None:
-                return _NAME
-            return _area_value(self.store, ref.sheet or self.sheet, ref.area(self.row, self.col))
-        if k == "op":
-            return self.op(node)
-        return self.fn(node)
-
-    def op(self, node: Node):
-        name = node.name
-        if name in (":", ",", " "):
-            raise VectorUnsupported(f"the range operator {name!r}")
-        args = [self.ev(a) for a in node.args]
-        return OPERATORS[name](*args)
-
-    def fn(self, node: Node):
-        name = node.name
-        reg = registered_name(name)
-        if reg is not None:
-            spec = REGISTRY[reg]
-            args = []
-            for a in node.args:
-                args.append(None if a.kind == "empty" else self.ev(a))
-            ff.ERROR_LOG.clear()
-            try:
-                out = _functions()[reg](*args)
-            except TypeError:
-                out = _VALUE
-            if isinstance(out, XlError) and ff.ERROR_LOG.entries:
-                fname, exc = ff.ERROR_LOG.entries[-1]
-                self.problems.append(CellProblem(fname, exc.code, ff.message_for(fname, exc)))
-            del spec
-            return out
-        if name in ("ROW", "COLUMN"):
-            return self._row_column(node)
-        fast = _range_aggregate(name, node.args, self.store, self.sheet, self.row, self.col)
-        if fast is not None:
-            return fast
-        table = _functions()
-        if name not in table or table[name] is ff.NOT_IMPLEMENTED:
-            self.problems.append(unknown_function(name))
-            return _NAME
-        fn = table[name]
-        args = [self.ev(a) for a in node.args]
-        if isinstance(fn, dict):
-            extra = fn.get("extra_inputs", {})
-            fn = fn["function"]
-            if extra:
-                if "Dsp" in map(str, extra) or "Cell" in map(str, extra):
-                    self.problems.append(CellProblem(name, "#VALUE!", f"{name} is not supported in a saved workbook"))
-                    return _VALUE
-                args = [False] * len(extra) + args  # the "compiling" flag: evaluate now
-        try:
-            return fn(*args)
-        except Exception as exc:  # the library raises on inputs it does not handle
-            self.problems.append(CellProblem(name, "#VALUE!", f"{name}: {exc}"))
-            return _VALUE
-
-    def _row_column(self, node: Node):
-        want_row = node.name == "ROW"
-        if not node.args:
-            return float(self.row if want_row else self.col)
-        a = node.args[0]
-        if a.kind != "ref" or a.ref.name is not None:
-            return _VALUE
-        r1, c1, r2, c2 = a.ref.area(self.row, self.col)
-        return float(r1 if want_row else c1)
-
-
-def evaluate_cell(compiled: Compiled, store, sheet: str, row: int, col: int) -> CellResult:
-    """Evaluate one formula cell with the library's functions (the reference path)."""
-    ev = _CellEval(store, sheet, row, col)
-    try:
-        value = _final(ev.ev(compiled.tree))
-    except VectorUnsupported as exc:
-        return CellResult(_VALUE, CellProblem("", "#VALUE!", f"not supported: {exc}"))
-    problem = None
-    if isinstance(value, XlError):
-        code = str(value)
-        problem = next((p for p in reversed(ev.problems) if p.code == code), None)
-    return CellResult(value, problem)
-
-
-def evaluate_array_formula(compiled: Compiled, store, sheet: str, row: int, col: int,
-                           shape: tuple[int, int]) -> tuple[np.ndarray, CellProblem | None]:
-    """Evaluate an array formula once; its result spread over ``shape`` (rows, columns), #N/A beyond it."""
-    ev = _CellEval(store, sheet, row, col)
-    try:
-        raw = ev.ev(compiled.tree)
-    except VectorUnsupported as exc:
-        return np.full(shape, _VALUE, dtype=object), CellProblem("", "#VALUE!", f"not supported: {exc}")
-    arr = np.asarray(raw, dtype=object)
-    if arr.ndim == 0:
-        arr = arr.reshape(1, 1)
-    elif arr.ndim == 1:
-        arr = arr.reshape(1, -1)
-    out = np.full(shape, _ERRORS["#N/A"], dtype=object)
-    rr, cc = arr.shape
-    # a single row or column is repeated across the other direction, as spreadsheet apps do
-    if rr == 1 and shape[0] > 1:
-        arr = np.repeat(arr, shape[0], axis=0)
-        rr = shape[0]
-    if cc == 1 and shape[1] > 1:
-        arr = np.repeat(arr, shape[1], axis=1)
-        cc = shape[1]
-    out[:min(rr, shape[0]), :min(cc, shape[1])] = arr[:shape[0], :shape[1]]
-    final = np.empty(shape, dtype=object)
-    for i in range(shape[0]):
-        for j in range(shape[1]):
-            final[i, j] = _final(out[i, j])
-    problem = ev.problems[-1] if ev.problems else None
-    return final, problem
-
-
-# ---------------------------------------------------------------- whole runs
 
 class Col:
     """Per-row values of a run: ``a`` has one entry per row (float, bool or object dtype)."""
@@ -391,6 +115,8 @@ class RowRange:
 
 @dataclasses.dataclass
 class RunResult:
+    """The values of a run's cells, and why the error cells are errors."""
+
     values: np.ndarray  # one value per row of the run (float, bool or object dtype)
     problems: dict[int, CellProblem]  # row offset within the run → why that cell is an error
 
@@ -427,9 +153,29 @@ _ARITH = {"+": np.add, "-": np.subtract, "*": np.multiply, "/": np.divide, "^": 
 _COMPARE = {"=": np.equal, "<>": np.not_equal, "<": np.less, ">": np.greater, "<=": np.less_equal,
             ">=": np.greater_equal}
 _AGGREGATES = ("SUM", "AVERAGE", "COUNT", "MIN", "MAX")
+#: Functions of one number run as numpy operations on clean numbers. ROUND is not among them: the library
+#: rounds halves away from zero, numpy's rounding to even; it goes through the library row by row.
+_ELEMENTWISE = {"ABS": np.abs, "SQRT": np.sqrt}
+
+
+def _library_callable(name: str, entry):
+    """A standard function of the library as a plain callable (the entries that take the engine's
+    "compiling" flags get them bound; those that need the engine's own objects cannot run on arrays)."""
+    if not isinstance(entry, dict):
+        return entry
+    extra = entry.get("extra_inputs", {})
+    fn = entry["function"]
+    if not extra:
+        return fn
+    if "Dsp" in map(str, extra) or "Cell" in map(str, extra):
+        raise VectorUnsupported(name)
+    flags = [False] * len(extra)
+    return lambda *a: fn(*flags, *a)
 
 
 class _RunEval:
+    """Evaluates the tree of a run's formula for all its rows; collects each row's problem."""
+
     def __init__(self, run: Run, store):
         self.run, self.store = run, store
         self.sheet, self.col = run.sheet, run.col
@@ -445,19 +191,19 @@ class _RunEval:
         for i in idx:
             a = [_row_arg(x, i) for x in args]
             if registered:
-                ff.ERROR_LOG.clear()
+                ERROR_LOG.clear()
             try:
                 r = fn(*a)
             except Exception as exc:  # the library raises on inputs it does not handle
                 self.problems.setdefault(i, CellProblem(label, "#VALUE!", f"{label}: {exc}"))
-                r = _VALUE
+                r = VALUE_ERROR
             if isinstance(r, np.ndarray):
-                r = r.ravel()[0] if r.size else _VALUE
+                r = r.ravel()[0] if r.size else VALUE_ERROR
             if isinstance(r, np.generic):
                 r = r.item()
-            if registered and isinstance(r, XlError) and ff.ERROR_LOG.entries:
-                fname, exc = ff.ERROR_LOG.entries[-1]
-                self.problems[i] = CellProblem(fname, exc.code, ff.message_for(fname, exc))
+            if registered and isinstance(r, XlError) and ERROR_LOG.entries:
+                fname, exc = ERROR_LOG.entries[-1]
+                self.problems[i] = CellProblem(fname, exc.code, message_for(fname, exc))
             out[i] = r
         return out
 
@@ -483,7 +229,7 @@ class _RunEval:
 
     # -- the tree
 
-    def ev(self, node: Node):
+    def evaluate(self, node: Node):
         k = node.kind
         if k == "lit":
             return node.value
@@ -492,13 +238,13 @@ class _RunEval:
         if k == "ref":
             return self.ref(node)
         if k == "op":
-            return self.op(node)
-        return self.fn(node)
+            return self.operator(node)
+        return self.call(node)
 
     def ref(self, node: Node):
         ref = node.ref
         if ref.name is not None:
-            return _NAME
+            return NAME_ERROR
         sheet = ref.sheet or self.sheet
         if ref.is_cell and not ref.r1_abs:
             r1, c1, _, _ = ref.area(self.first, self.col)
@@ -507,7 +253,7 @@ class _RunEval:
                 raise VectorUnsupported("a reference that leaves the sheet")
             return Col(self.store.column(sheet, c1, r1, r2))
         if ref.rows_fixed:
-            return Fixed(_area_value(self.store, sheet, ref.area(self.first, self.col)))
+            return Fixed(area_value(self.store, sheet, ref.area(self.first, self.col)))
         if ref.one_row_moving:
             r1, c1, _, c2 = ref.area(self.first, self.col)
             r2 = r1 + self.n - 1
@@ -519,11 +265,11 @@ class _RunEval:
             return RowRange(num, clean, cells)
         raise VectorUnsupported("a range whose size changes from row to row")
 
-    def op(self, node: Node):
+    def operator(self, node: Node):
         name = node.name
         if name in (":", ",", " "):
             raise VectorUnsupported(f"the range operator {name!r}")
-        args = [self.ev(a) for a in node.args]
+        args = [self.evaluate(a) for a in node.args]
         if not any(isinstance(a, (Col, RowRange)) for a in args):
             return _constant(OPERATORS[name](*[a.a if isinstance(a, Fixed) else a for a in args]))
         fn = OPERATORS[name]
@@ -539,90 +285,78 @@ class _RunEval:
                         res = nums[0] / 100.0
                     else:
                         res = _ARITH[name](nums[0], nums[1])
-                res = np.broadcast_to(res, (self.n,)).astype(float)
-                bad = ~np.isfinite(res)
-                if bad.any():  # division by zero, overflow, 0^-1 ...: the library decides those rows
-                    fixed = self.rowwise(fn, args, np.flatnonzero(bad), label=name)
-                    res = res.astype(object)
-                    res[bad] = fixed[bad]
-                    return Col(_tidy(res))
-                return Col(res)
+                # division by zero, overflow, 0^-1 ...: the library decides those rows
+                return self.finite_or_library(res, fn, args, name)
         elif name in _COMPARE:
             nums = [_numbers_of(a) for a in args]
             if all(x is not None for x in nums):
                 return Col(np.broadcast_to(_COMPARE[name](nums[0], nums[1]), (self.n,)).copy())
         return Col(_tidy(self.rowwise(fn, args, label=name)))
 
-    def fn(self, node: Node):
+    def call(self, node: Node):
         name = node.name
         reg = registered_name(name)
         if reg is not None:
             return self.registered(reg, node)
         if name in ("ROW", "COLUMN"):
-            if not node.args:
-                if name == "ROW":
-                    return Col(np.arange(self.first, self.last + 1, dtype=float))
-                return float(self.col)
-            a = node.args[0]
-            if a.kind != "ref" or a.ref.name is not None:
-                return _VALUE
-            if name == "COLUMN":
-                return float(a.ref.area(self.first, self.col)[1])
-            if a.ref.r1_abs:
-                return float(a.ref.area(self.first, self.col)[0])
-            start = a.ref.area(self.first, self.col)[0]
-            return Col(np.arange(start, start + self.n, dtype=float))
-        fast = _range_aggregate(name, node.args, self.store, self.sheet, self.first, self.col, fixed_rows=True)
+            return self.row_column(node)
+        fast = range_aggregate(name, node.args, self.store, self.sheet, self.first, self.col, fixed_rows=True)
         if fast is not None:
             return fast
-        table = _functions()
-        if name not in table or table[name] is ff.NOT_IMPLEMENTED:
+        table = function_table()
+        if name not in table or table[name] is NOT_IMPLEMENTED:
             problem = unknown_function(name)
             for i in range(self.n):
                 self.problems[i] = problem
-            return _NAME
+            return NAME_ERROR
         if name == "IF":
-            return self.xif(node)
-        args = [self.ev(a) for a in node.args]
+            return self.if_function(node)
+        args = [self.evaluate(a) for a in node.args]
         if name in _AGGREGATES:
             fast = self.aggregate(name, args)
             if fast is not None:
                 return fast
-        fn = table[name]
-        if isinstance(fn, dict):
-            extra = fn.get("extra_inputs", {})
-            fn = fn["function"]
-            if extra:
-                if "Dsp" in map(str, extra) or "Cell" in map(str, extra):
-                    raise VectorUnsupported(name)
-                flags = [False] * len(extra)
-                inner = fn
-                fn = lambda *a, _f=inner, _flags=flags: _f(*_flags, *a)  # noqa: E731
+        fn = _library_callable(name, table[name])
         if not any(isinstance(a, (Col, RowRange)) for a in args):
             return _constant(fn(*[a.a if isinstance(a, Fixed) else a for a in args]))
-        if name in ("ROUND", "ABS", "SQRT") and all(_numbers_of(a) is not None for a in args):
-            nums = [_numbers_of(a) for a in args]
+        if name in _ELEMENTWISE and all(_numbers_of(a) is not None for a in args):
             with np.errstate(all="ignore"):
-                if name == "ABS":
-                    res = np.abs(nums[0])
-                elif name == "SQRT":
-                    res = np.sqrt(nums[0])
-                else:
-                    res = None
-            if res is not None:
-                res = np.broadcast_to(res, (self.n,)).astype(float)
-                bad = ~np.isfinite(res)
-                if bad.any():
-                    fixed = self.rowwise(fn, args, np.flatnonzero(bad), label=name)
-                    res = res.astype(object)
-                    res[bad] = fixed[bad]
-                    return Col(_tidy(res))
-                return Col(res)
+                res = _ELEMENTWISE[name](_numbers_of(args[0]))
+            return self.finite_or_library(res, fn, args, name)
         return Col(_tidy(self.rowwise(fn, args, label=name)))
 
-    def xif(self, node: Node):
-        fn = _functions()["IF"]["function"]
-        args = [self.ev(a) for a in node.args]
+    def row_column(self, node: Node):
+        """``ROW()``, ``COLUMN()``, ``ROW(ref)``, ``COLUMN(ref)``: a row number moves with the run's rows."""
+        name = node.name
+        if not node.args:
+            if name == "ROW":
+                return Col(np.arange(self.first, self.last + 1, dtype=float))
+            return float(self.col)
+        a = node.args[0]
+        if a.kind != "ref" or a.ref.name is not None:
+            return VALUE_ERROR
+        if name == "COLUMN":
+            return float(a.ref.area(self.first, self.col)[1])
+        if a.ref.r1_abs:
+            return float(a.ref.area(self.first, self.col)[0])
+        start = a.ref.area(self.first, self.col)[0]
+        return Col(np.arange(start, start + self.n, dtype=float))
+
+    def finite_or_library(self, res, fn, args: Sequence, label: str) -> Col:
+        """Per-row numbers ``res`` (or one number for every row), the rows where it is not finite decided by
+        the library function ``fn``."""
+        res = np.broadcast_to(res, (self.n,)).astype(float)
+        bad = ~np.isfinite(res)
+        if bad.any():
+            fixed = self.rowwise(fn, args, np.flatnonzero(bad), label=label)
+            res = res.astype(object)
+            res[bad] = fixed[bad]
+            return Col(_tidy(res))
+        return Col(res)
+
+    def if_function(self, node: Node):
+        fn = function_table()["IF"]["function"]
+        args = [self.evaluate(a) for a in node.args]
         cond = args[0] if args else 0
         if not isinstance(cond, (Col, RowRange)) and not any(isinstance(a, (Col, RowRange)) for a in args):
             return _constant(fn(*[a.a if isinstance(a, Fixed) else a for a in args]))
@@ -680,7 +414,7 @@ class _RunEval:
                 res = block.max(axis=1)
         todo = ~clean | ~np.isfinite(res)
         if todo.any():
-            fixed = self.rowwise(_functions()[name], args, np.flatnonzero(todo), label=name)
+            fixed = self.rowwise(function_table()[name], args, np.flatnonzero(todo), label=name)
             res = res.astype(object)
             res[todo] = fixed[todo]
             return Col(_tidy(res))
@@ -690,15 +424,15 @@ class _RunEval:
 
     def registered(self, reg: str, node: Node):
         spec = REGISTRY[reg]
-        adapter = _functions()[reg]
-        args = [None if a.kind == "empty" else self.ev(a) for a in node.args]
+        adapter = function_table()[reg]
+        args = [None if a.kind == "empty" else self.evaluate(a) for a in node.args]
         per_row = [i for i, a in enumerate(args) if isinstance(a, (Col, RowRange))]
         if not per_row:
-            ff.ERROR_LOG.clear()
+            ERROR_LOG.clear()
             out = adapter(*[a.a if isinstance(a, Fixed) else a for a in args])
-            if isinstance(out, XlError) and ff.ERROR_LOG.entries:
-                fname, exc = ff.ERROR_LOG.entries[-1]
-                problem = CellProblem(fname, exc.code, ff.message_for(fname, exc))
+            if isinstance(out, XlError) and ERROR_LOG.entries:
+                fname, exc = ERROR_LOG.entries[-1]
+                problem = CellProblem(fname, exc.code, message_for(fname, exc))
                 for i in range(self.n):
                     self.problems[i] = problem
             return _constant(out)
@@ -735,12 +469,12 @@ class _RunEval:
                 if i in per_row:
                     scalars.append(0.0)
                 elif i < len(names) and spec.arguments[i].kind == "range":
-                    scalars.append(ff.range_argument(a.a if isinstance(a, Fixed) else a))
+                    scalars.append(range_argument(a.a if isinstance(a, Fixed) else a))
                 else:
-                    scalars.append(ff.scalar_argument(a.a if isinstance(a, Fixed) else a, names[i]))
+                    scalars.append(scalar_argument(a.a if isinstance(a, Fixed) else a, names[i]))
             bound = spec.bind(scalars)
             fixed = {a.name: a.coerce(bound[a.name]) for a in spec.arguments if a.name not in arrays}
-        except (TruebandError, ff.PassError):
+        except (TruebandError, PassError):
             return self.rowwise(adapter, args, label=spec.name, registered=True)
 
         def one(k: int):
@@ -795,20 +529,20 @@ def _tidy(a: np.ndarray) -> np.ndarray:
 
 def evaluate_run(run: Run, store) -> RunResult:
     """Evaluate every cell of a run as arrays (raises :class:`VectorUnsupported` when it cannot)."""
-    ev = _RunEval(run, store)
-    res = ev.ev(run.compiled.tree)
+    evaluator = _RunEval(run, store)
+    res = evaluator.evaluate(run.compiled.tree)
     if isinstance(res, Col):
-        values = _final_array(res.a)
+        values = final_array(res.a)
     elif isinstance(res, RowRange):
         raise VectorUnsupported("a formula whose value is a range")
     else:
-        v = _final(res.a if isinstance(res, Fixed) else res)
+        v = final_value(res.a if isinstance(res, Fixed) else res)
         values = np.empty(run.size, dtype=object)
         values[:] = [v] * run.size
         values = _tidy(values)
     problems = {}
     if values.dtype == object:
-        for i, p in ev.problems.items():
+        for i, p in evaluator.problems.items():
             x = values[i]
             if isinstance(x, XlError) and str(x) == p.code:
                 problems[i] = p
