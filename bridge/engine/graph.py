@@ -91,9 +91,7 @@ class FormulaGraph:
             if ref.name is not None:
                 yield from self.names.get(ref.name, ())
                 continue
-            a1 = ref.area(run.first, run.col)
-            a2 = ref.area(run.last, run.col)
-            yield ref.sheet or run.sheet, (min(a1[0], a2[0]), min(a1[1], a2[1]), max(a1[2], a2[2]), max(a1[3], a2[3]))
+            yield ref.sheet or run.sheet, ref.swept_area(run.first, run.last, run.col)
 
     def _spans_in(self, sheet: str, area: tuple[int, int, int, int]) -> Iterator[tuple[int, int, Run]]:
         r1, c1, r2, c2 = area

@@ -124,17 +124,7 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
             xml = sheet_xml.normal_form(changes.current(pkg, info.part))
         except sheet_xml.SheetXmlError as exc:
             raise UnusableWorkbook(f"{pkg.path.name}: sheet {info.name!r}: {exc}", path=pkg.path) from None
-        masters: dict[int, str] = {}
-        chosen: dict[str, tuple[str | None, object]] = {}
-        for cell in iter_cells(xml, pkg.shared_strings):
-            f = cell.formula
-            if f is None:
-                continue
-            if f.kind == "shared" and f.is_master and f.text is not None:
-                masters[f.shared_index] = f.text
-            text = f.text if f.text is not None else masters.get(f.shared_index)
-            if text is not None and uses_registered_function(text):
-                chosen[cell.ref] = (f.text, values.get(info.name, {}).get(cell.ref, cell.value))
+        chosen = _registered_cells(xml, pkg.shared_strings, values.get(info.name, {}))
         if not chosen:
             continue
         elements = formula_elements(xml, chosen)
@@ -160,6 +150,23 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
         _write_formula_sheet(pkg, changes, all_records, notices)
         changes.drop_calc_chain(pkg)
     return records
+
+
+def _registered_cells(xml: bytes, strings, values: Mapping[str, object]) -> dict[str, tuple[str | None, object]]:
+    """The cells of a sheet whose formula uses a registered function: reference → (formula text, or None for a
+    shared dependent; the value to keep, from ``values`` else the cached one)."""
+    masters: dict[int, str] = {}
+    chosen: dict[str, tuple[str | None, object]] = {}
+    for cell in iter_cells(xml, strings):
+        f = cell.formula
+        if f is None:
+            continue
+        if f.kind == "shared" and f.is_master and f.text is not None:
+            masters[f.shared_index] = f.text
+        text = f.text if f.text is not None else masters.get(f.shared_index)
+        if text is not None and uses_registered_function(text):
+            chosen[cell.ref] = (f.text, values.get(cell.ref, cell.value))
+    return chosen
 
 
 def _write_notices(pkg: WorkbookPackage, changes: PackageChanges, text: str, is_read,

@@ -155,6 +155,12 @@ class Ref:
         c2 = self.c2 if self.c2_abs else col + self.c2
         return min(r1, r2), min(c1, c2), max(r1, r2), max(c1, c2)
 
+    def swept_area(self, first: int, last: int, col: int) -> tuple[int, int, int, int]:
+        """(r1, c1, r2, c2) covering what the reference reads from each of rows ``first..last`` of column ``col``
+        (a relative reference sweeps the rows)."""
+        a1, a2 = self.area(first, col), self.area(last, col)
+        return min(a1[0], a2[0]), min(a1[1], a2[1]), max(a1[2], a2[2]), max(a1[3], a2[3])
+
     @property
     def is_cell(self) -> bool:
         return self.name is None and self.r1 == self.r2 and self.c1 == self.c2 and \

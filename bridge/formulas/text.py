@@ -3,8 +3,8 @@
 * :func:`parser` gives the ``formulas`` library's parser with one token fixed: the
   library reads the start of a name such as ``TRUE_SCORE`` as the logical
   ``TRUE`` (its lookahead forgets ``_``), so ``TRUE_SCORE(…)`` and
-  ``FALSE_…(…)`` could not be read at all. It also remembers where reading
-  stopped, so :func:`syntax_message` can show the formula with the position.
+  ``FALSE_…(…)`` could not be read at all. It also keeps the text still
+  unread when it fails, so :func:`syntax_reason` can say where reading stopped.
 * :func:`typed_formula` accepts a formula typed by a person (``trueband eval``,
   ``trueband fill``): spreadsheet apps in many settings show ``;`` between
   arguments, files always store ``,``.
@@ -55,21 +55,16 @@ def parser() -> formulas.Parser:
     return _Parser()
 
 
-def syntax_message(formula: str, parser_used: formulas.Parser, exc: Exception) -> str:
-    """A one-line description of why ``formula`` could not be read, with the position where reading stopped.
+def syntax_reason(formula: str, parser_used: formulas.Parser, exc: Exception) -> str:
+    """Why ``formula`` could not be read and where (characters counted from 1, as typed), without the formula.
 
     >>> p = parser()
     >>> try:
     ...     p.ast("=SEM(12,, 0.9))")
     ... except Exception as exc:
-    ...     print(syntax_message("=SEM(12,, 0.9))", p, exc))
-    cannot read the formula '=SEM(12,, 0.9))': the ')' at character 15 closes no '('
+    ...     print(syntax_reason("=SEM(12,, 0.9))", p, exc))
+    the ')' at character 15 closes no '('
     """
-    return f"cannot read the formula {formula!r}: {syntax_reason(formula, parser_used, exc)}"
-
-
-def syntax_reason(formula: str, parser_used: formulas.Parser, exc: Exception) -> str:
-    """Why ``formula`` could not be read and where (characters counted from 1, as typed), without the formula."""
     text = formula.strip().replace("\n", "")
     semis = [i for i, ch, depth in _outside_literals(text) if ch == ";" and depth == 0]
     if semis:
