@@ -17,9 +17,10 @@ import pytest
 import formulas
 from formulas.functions import SUBMODULES
 from trueband.bridge.formulas import library as ff
-from trueband.bridge.engine.evaluate import _RANGE_AGGREGATES, _range_aggregate
+from trueband.bridge.formulas.names import standard_names
+from trueband.bridge.engine.eval_cell import RANGE_AGGREGATES, range_aggregate
 from trueband.bridge.formulas.compile import compile_formula
-from trueband.bridge.engine.recalc import CellStore
+from trueband.bridge.engine.store import CellStore
 from trueband.funcs.registry import REGISTRY
 
 
@@ -37,7 +38,7 @@ def test_lazy_table_gives_the_library_functions_and_ours():
     table = ff.FunctionTable()
     library = formulas.get_functions()
     registered = {key for name, spec in REGISTRY.items() for key in (name, *spec.aliases)}
-    for name in ff.builtin_names():
+    for name in standard_names():
         if name in registered:
             continue
         assert table[name] is library[name], name
@@ -87,7 +88,7 @@ def _library_value(name: str, store: CellStore, areas):
 NUMBERS = {1: [3.5, None, -2.0, 10.25, 7.0, None, 1e-3], 2: [1.0, 2.0, None, None, 4.5, 8.0, 0.0]}
 
 
-@pytest.mark.parametrize("name", sorted(_RANGE_AGGREGATES))
+@pytest.mark.parametrize("name", sorted(RANGE_AGGREGATES))
 @pytest.mark.parametrize("formula,areas", [
     ("A1:A7", [(1, 1, 7, 1)]),                 # one column with blanks
     ("A1:B7", [(1, 1, 7, 2)]),                 # two columns, read row by row
@@ -96,7 +97,7 @@ NUMBERS = {1: [3.5, None, -2.0, 10.25, 7.0, None, 1e-3], 2: [1.0, 2.0, None, Non
 def test_range_aggregates_equal_the_library(name, formula, areas):
     store = _store(NUMBERS)
     node = compile_formula(f"={name}({formula})", 10, 3).tree
-    ours = _range_aggregate(name, node.args, store, "S", 10, 3)
+    ours = range_aggregate(name, node.args, store, "S", 10, 3)
     theirs = _library_value(name, store, [(a[0], a[1], a[2], a[3]) for a in areas])
     assert ours is not None
     assert ours == theirs, (name, ours, theirs)
@@ -109,15 +110,15 @@ def test_range_aggregates_equal_the_library(name, formula, areas):
 def test_range_aggregates_leave_mixed_ranges_to_the_library(values):
     store = _store({1: values})
     node = compile_formula("=AVERAGE(A1:A3)", 10, 3).tree
-    assert _range_aggregate("AVERAGE", node.args, store, "S", 10, 3) is None
+    assert range_aggregate("AVERAGE", node.args, store, "S", 10, 3) is None
 
 
 def test_range_aggregates_leave_edge_cases_to_the_library():
     store = _store({1: [5.0, None, None]})
     for name in ("STDEV", "VAR.S"):  # one number: the library's #DIV/0!
         node = compile_formula(f"={name}(A1:A3)", 10, 3).tree
-        assert _range_aggregate(name, node.args, store, "S", 10, 3) is None
+        assert range_aggregate(name, node.args, store, "S", 10, 3) is None
     node = compile_formula("=AVERAGE(B1:B3)", 10, 3).tree  # no numbers at all
-    assert _range_aggregate("AVERAGE", node.args, store, "S", 10, 3) is None
+    assert range_aggregate("AVERAGE", node.args, store, "S", 10, 3) is None
     node = compile_formula("=SUM(A1:A3,2)", 10, 3).tree  # a scalar argument
-    assert _range_aggregate("SUM", node.args, store, "S", 10, 3) is None
+    assert range_aggregate("SUM", node.args, store, "S", 10, 3) is None

@@ -29,8 +29,11 @@ import recalc_books as rb
 from trueband.bridge import cli
 from trueband.bridge.workbook import sheet_columns, sheet_data, sheet_read
 from trueband.bridge.workbook.cells import column_letters
-from trueband.bridge.engine.evaluate import VectorUnsupported, evaluate_cell, evaluate_run
-from trueband.bridge.engine.recalc import load_model, recalculate
+from trueband.bridge.engine.eval_cell import evaluate_cell
+from trueband.bridge.engine.eval_run import evaluate_run
+from trueband.bridge.engine.values import VectorUnsupported
+from trueband.bridge.engine.model import load_model
+from trueband.bridge.engine.recalc import recalculate
 from trueband.bridge.workbook.package import open_workbook_package
 from trueband.funcs import call
 
@@ -381,7 +384,7 @@ def test_alias_names_work_in_cells_and_an_existing_output_is_kept(tmp_path):
 
 def _runs_one_by_one(formula_cells):
     """The run finder written the plain way, a cell at a time in document order (the reference for
-    recalc._formula_runs, which takes filled-down stretches a block at a time)."""
+    model._formula_runs, which takes filled-down stretches a block at a time)."""
     from trueband.bridge.formulas.compile import KeyTemplate
 
     runs, open_runs, shared, templates = [], {}, {}, {}
@@ -406,10 +409,10 @@ def _runs_one_by_one(formula_cells):
             if f.kind == "array":
                 array_ref = f.ref or f"{column_letters(col)}{row}"
         cur = open_runs.get(col)
-        if cur is not None and cur[2] == row - 1 and cur[3] == key and array_ref is None and cur[7] is None:
+        if cur is not None and cur[2] == row - 1 and cur[3] == key and array_ref is None and cur[6] is None:
             cur[2] = row
         else:
-            cur = [col, row, row, key, text, at, False, array_ref]
+            cur = [col, row, row, key, text, at, array_ref]
             runs.append(cur)
             open_runs[col] = cur
     return runs
@@ -419,7 +422,7 @@ def _runs_one_by_one(formula_cells):
 def test_run_finder_agrees_with_the_one_by_one_reference(seed):
     import random
 
-    from trueband.bridge.engine.recalc import _formula_runs
+    from trueband.bridge.engine.model import _formula_runs
     from trueband.bridge.workbook.sheet_data import Formula
 
     rnd = random.Random(seed)

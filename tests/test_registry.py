@@ -13,7 +13,7 @@ import pytest
 from openpyxl.utils.formulas import FORMULAE
 
 from trueband.bridge.cli.functions import render_markdown
-from trueband.bridge.formulas.library import BUILTIN_NAMES
+from trueband.bridge.formulas.names import standard_names
 from trueband.funcs import REGISTRY, catalog
 from trueband.funcs.registry import RESULT_KINDS, normalize_name
 
@@ -27,7 +27,7 @@ def test_registry_is_not_empty():
 
 @pytest.mark.parametrize("name", NAMES)
 def test_name_does_not_collide_with_a_builtin_spreadsheet_function(name):
-    builtins = {normalize_name(n) for n in BUILTIN_NAMES} | {normalize_name(n) for n in FORMULAE}
+    builtins = {normalize_name(n) for n in standard_names()} | {normalize_name(n) for n in FORMULAE}
     # also the dotted modern forms, e.g. PERCENTRANK.INC -> PERCENTRANK_INC would not collide, but check bases
     bases = {b.split(".")[0] for b in builtins}
     assert name not in builtins and name not in bases, f"{name} is a built-in spreadsheet function name"

@@ -15,6 +15,7 @@ import pytest
 
 import golden_books as gb
 from trueband.bridge.engine import values_mode as vm
+from trueband.bridge.formulas.names import uses_registered_function
 from trueband.bridge.cli import EXIT_FAILED, EXIT_OK, main
 from trueband.bridge.workbook.save import PackageChanges, save_workbook
 from trueband.bridge.workbook.cells import split_ref
@@ -43,7 +44,7 @@ def forms(tmp_path):
     ("Settings!SEM", False),
 ])
 def test_which_formulas_use_registered_functions(formula, expected):
-    assert vm.uses_registered_function(formula) is expected
+    assert uses_registered_function(formula) is expected
 
 
 def test_registered_formulas_become_values_and_are_recorded(forms):

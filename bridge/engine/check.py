@@ -10,12 +10,12 @@ from __future__ import annotations
 
 import dataclasses
 
-from ..formulas.compile import Run
-from ..workbook.cells import MAX_COLUMN, MAX_ROW, column_letters
+from ..formulas.names import registered_name
 from ..formulas.text import call_findings
+from ..workbook.cells import MAX_COLUMN, MAX_ROW, column_letters
 from ..workbook.package import open_workbook_package
-from .evaluate import registered_name
-from .recalc import load_model
+from .graph import Run
+from .model import load_model
 
 __all__ = ["CheckFindings", "check_workbook"]
 

@@ -33,8 +33,8 @@ import re
 from typing import Mapping
 from xml.etree import ElementTree
 
-from trueband.funcs.registry import REGISTRY, normalize_name
 
+from ..formulas.names import uses_registered_function
 from ..workbook import sheet_data, sheet_edit, sheet_patch, sheet_read, xml_form
 from ..workbook.cells import split_ref
 from ..workbook.save import PackageChanges, add_override, remove_override
@@ -47,7 +47,6 @@ from ..workbook.package import NS_REL, REL_WORKSHEET, UnusableWorkbook, Workbook
 __all__ = [
     "FORMULA_SHEET",
     "FormulaRecord",
-    "uses_registered_function",
     "replace_with_values",
     "restore_formulas",
     "RestoreReport",
@@ -68,21 +67,6 @@ _NOTE = "Formulas replaced by their values by trueband; `trueband restore FILE` 
 _NOTICE_MARK = "(values notice)"
 _NOTICE_NEW_ROW = "(values notice, own row)"
 CT_WORKSHEET = "application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"
-
-_NAME_CALL = re.compile(r'"[^"]*"|((?:_xludf\.|_xlfn\._xlws\.|_xlfn\.|_xlws\.|com\.microsoft\.|org\.openoffice\.)?'
-                        r"[A-Za-z_][A-Za-z0-9_.]*)\s*\(", re.I)
-
-
-def uses_registered_function(formula: str) -> bool:
-    """True if the formula calls a registered function (any case, any app prefix; text in quotes ignored).
-
-    >>> uses_registered_function('ROUND(_xludf.SEM(B1, B2), 2)')
-    True
-    >>> uses_registered_function('SUM(A1:A9) & "SEM("')
-    False
-    """
-    return any(m.group(1) and normalize_name(m.group(1)) in REGISTRY for m in _NAME_CALL.finditer(formula))
-
 
 @dataclasses.dataclass(frozen=True)
 class FormulaRecord:
@@ -144,17 +128,7 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
             xml = xml_form.regular_form(changes.current(pkg, info.part))
         except sheet_data.SheetXmlError as exc:
             raise UnusableWorkbook(f"{pkg.path.name}: sheet {info.name!r}: {exc}", path=pkg.path) from None
-        masters: dict[int, str] = {}
-        chosen: dict[str, tuple[str | None, object]] = {}
-        for cell in iter_cells(xml, pkg.shared_strings):
-            f = cell.formula
-            if f is None:
-                continue
-            if f.kind == "shared" and f.is_master and f.text is not None:
-                masters[f.shared_index] = f.text
-            text = f.text if f.text is not None else masters.get(f.shared_index)
-            if text is not None and uses_registered_function(text):
-                chosen[cell.ref] = (f.text, values.get(info.name, {}).get(cell.ref, cell.value))
+        chosen = _registered_cells(xml, pkg.shared_strings, values.get(info.name, {}))
         if not chosen:
             continue
         elements = formula_elements(xml, chosen)
@@ -180,6 +154,23 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
         _write_formula_sheet(pkg, changes, all_records, notices)
         changes.drop_calc_chain(pkg)
     return records
+
+
+def _registered_cells(xml: bytes, strings, values: Mapping[str, object]) -> dict[str, tuple[str | None, object]]:
+    """The cells of a sheet whose formula uses a registered function: reference → (formula text, or None for a
+    shared dependent; the value to keep, from ``values`` else the cached one)."""
+    masters: dict[int, str] = {}
+    chosen: dict[str, tuple[str | None, object]] = {}
+    for cell in iter_cells(xml, strings):
+        f = cell.formula
+        if f is None:
+            continue
+        if f.kind == "shared" and f.is_master and f.text is not None:
+            masters[f.shared_index] = f.text
+        text = f.text if f.text is not None else masters.get(f.shared_index)
+        if text is not None and uses_registered_function(text):
+            chosen[cell.ref] = (f.text, values.get(cell.ref, cell.value))
+    return chosen
 
 
 def _write_notices(pkg: WorkbookPackage, changes: PackageChanges, text: str, is_read,

@@ -35,6 +35,7 @@ from ..workbook import sheet_data, sheet_read, xml_text
 from ..workbook.cells import MAX_COLUMN, MAX_ROW, column_letters, range_box, split_ref
 from ..workbook.sheet_read import iter_cells
 from ..workbook.package import WorkbookPackage
+from .values import EMPTY
 
 __all__ = ["Notice", "NOTICE_OPENING", "NOTICE_ITEMS", "notice_text", "frozen_inputs", "reader_of", "kept_areas",
            "place_notice"]
@@ -149,8 +150,6 @@ def frozen_inputs(runs, store, uses_registered, as_value) -> list[tuple[str, obj
     ``runs`` are the recalculation's formula runs, ``uses_registered(compiled)``
     tells the ones to describe, ``as_value`` turns a stored value into a cell value.
     """
-    from .evaluate import EMPTY
-
     out: dict[str, object] = {}
     for run in runs:
         if not uses_registered(run.compiled):
@@ -159,7 +158,7 @@ def frozen_inputs(runs, store, uses_registered, as_value) -> list[tuple[str, obj
             if ref.name is not None:
                 continue
             sheet = store.canonical(ref.sheet or run.sheet) or (ref.sheet or run.sheet)
-            r1, c1, r2, c2 = _run_area(ref, run)
+            r1, c1, r2, c2 = ref.swept_area(run.first, run.last, run.col)
             L = column_letters
             label = f"{_quoted_sheet(sheet)}!{L(c1)}{r1}" + ("" if (r1, c1) == (r2, c2) else f":{L(c2)}{r2}")
             if label in out or label + " (blank)" in out:
@@ -172,18 +171,14 @@ def frozen_inputs(runs, store, uses_registered, as_value) -> list[tuple[str, obj
     return sorted(out.items(), key=lambda item: item[1] is None)
 
 
-def _run_area(ref, run) -> tuple[int, int, int, int]:
-    a1, a2 = ref.area(run.first, run.col), ref.area(run.last, run.col)
-    return min(a1[0], a2[0]), min(a1[1], a2[1]), max(a1[2], a2[2]), max(a1[3], a2[3])
-
-
 def reader_of(runs):
     """``is_read(sheet, row, col)``: True when one of the formula runs reads that cell (through any reference)."""
     boxes: dict[str, list[tuple[int, int, int, int]]] = {}
     for run in runs:
         for ref in run.compiled.refs:
             if ref.name is None:
-                boxes.setdefault((ref.sheet or run.sheet).casefold(), []).append(_run_area(ref, run))
+                box = ref.swept_area(run.first, run.last, run.col)
+                boxes.setdefault((ref.sheet or run.sheet).casefold(), []).append(box)
 
     def is_read(sheet: str, row: int, col: int) -> bool:
         return any(r1 <= row <= r2 and c1 <= col <= c2 for r1, c1, r2, c2 in boxes.get(sheet.casefold(), ()))

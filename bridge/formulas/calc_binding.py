@@ -2,7 +2,7 @@
 
 Calc reads a function it does not know from an xlsx file as an unknown name, and LibreOffice
 7.4 does not bind a plain ``SEM(...)`` in an xlsx to an add-in. It does bind
-``_xludf.SEM(...)``: ``_xludf`` is the add-in's service name (see :mod:`.calc_addin`), and
+``_xludf.SEM(...)``: ``_xludf`` is the add-in's service name (see :mod:`trueband.bridge.addin.extension`), and
 ``_xludf.`` is also the prefix other spreadsheet apps give to functions they do not know.
 ``trueband recalc`` reads both forms. The workbooks trueband writes (templates, the study)
 therefore carry the prefix:
@@ -19,10 +19,9 @@ function                    what
 
 from __future__ import annotations
 
-import functools
 import re
 
-from trueband.funcs.registry import ALIASES, REGISTRY
+from .names import is_registered
 
 __all__ = ["PREFIX", "bind_for_calc", "bind_sheet_xml", "bind_workbook"]
 
@@ -37,14 +36,9 @@ _F_ELEMENT = re.compile(r"(<f(?:\s[^>]*)?>)([^<]+)(</f>)")
 _CALL = re.compile(r"(?<![\w.$!])([A-Za-z_][A-Za-z0-9_]*)(?=\s*\()")
 
 
-@functools.lru_cache(maxsize=1)
-def _registered() -> frozenset[str]:
-    return frozenset({*REGISTRY, *ALIASES})
-
-
 def _prefix(match: re.Match) -> str:
     name = match.group(1)
-    return PREFIX + name if name.upper() in _registered() else name
+    return PREFIX + name if is_registered(name) else name
 
 
 def bind_for_calc(formula: str) -> str:

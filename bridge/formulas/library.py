@@ -32,11 +32,12 @@ import schedula
 from formulas.functions import Error, XlError, not_implemented
 
 from trueband.funcs.errors import ArgumentTypeError, TruebandError
-from trueband.funcs.registry import NAME_PREFIXES, REGISTRY, SpreadsheetFunction
+from trueband.funcs.registry import REGISTRY, SpreadsheetFunction
 
-__all__ = ["install", "BUILTIN_NAMES", "builtin_names", "function_table", "FunctionTable", "ERROR_LOG",
-           "to_engine_error", "message_for", "range_argument",
-           "scalar_argument", "PassError", "NOT_IMPLEMENTED"]
+from .names import NAME_PREFIXES, library_module_functions, library_modules
+
+__all__ = ["install", "function_table", "FunctionTable", "ERROR_LOG", "to_engine_error", "message_for",
+           "range_argument", "scalar_argument", "PassError", "NOT_IMPLEMENTED"]
 
 # The engine logs every failing function with a traceback; errors are values here.
 logging.getLogger("schedula").setLevel(logging.CRITICAL)
@@ -44,24 +45,6 @@ logging.getLogger("formulas").setLevel(logging.CRITICAL)
 
 #: What the engine's function table gives for a name it does not know.
 NOT_IMPLEMENTED = not_implemented
-
-#: The library's modules of standard functions, cheapest to import first: ``.stat`` (and ``.comp``,
-#: which imports it) load ``scipy.stats``, about a second, so they are imported only when a formula
-#: uses a name no other module has. The library defines each name in one module only (a test checks
-#: it), so the order of loading does not change what a name means.
-_EXPENSIVE_MODULES = (".stat", ".comp")
-
-
-def _library_modules() -> list[str]:
-    from formulas.functions import SUBMODULES
-
-    return [m for m in SUBMODULES if m not in _EXPENSIVE_MODULES] + [m for m in SUBMODULES if m in _EXPENSIVE_MODULES]
-
-
-def _load_library_module(name: str) -> dict:
-    import importlib
-
-    return importlib.import_module(name, "formulas.functions").FUNCTIONS
 
 
 class FunctionTable:
@@ -79,13 +62,13 @@ class FunctionTable:
 
         self._table: dict = dict(base)
         install(self._table)
-        self._pending = _library_modules()
+        self._pending = library_modules()
 
     def _find(self, name: str):
         table = self._table
         fn = table.get(name)
         while fn is None and self._pending:
-            for key, value in _load_library_module(self._pending.pop(0)).items():
+            for key, value in library_module_functions(self._pending.pop(0)).items():
                 table.setdefault(key, value)
             fn = table.get(name)
         return fn
@@ -108,24 +91,6 @@ def function_table() -> FunctionTable:
     if _TABLE is None:
         _TABLE = FunctionTable()
     return _TABLE
-
-
-def builtin_names() -> frozenset:
-    """Every name of the engine's standard library (imports all of it: about a second)."""
-    from formulas.functions import FUNCTIONS as base
-
-    names = set(base)
-    for module in _library_modules():
-        names.update(_load_library_module(module))
-    return frozenset(names)
-
-
-def __getattr__(name: str):
-    # BUILTIN_NAMES stays importable as a constant, computed on first use.
-    if name == "BUILTIN_NAMES":
-        value = globals()["BUILTIN_NAMES"] = builtin_names()
-        return value
-    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 class _ErrorLog(threading.local):

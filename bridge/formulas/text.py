@@ -3,8 +3,8 @@
 * :func:`parser` gives the ``formulas`` library's parser with one token fixed: the
   library reads the start of a name such as ``TRUE_SCORE`` as the logical
   ``TRUE`` (its lookahead forgets ``_``), so ``TRUE_SCORE(…)`` and
-  ``FALSE_…(…)`` could not be read at all. It also remembers where reading
-  stopped, so :func:`syntax_message` can show the formula with the position.
+  ``FALSE_…(…)`` could not be read at all. It also keeps the text still
+  unread when it fails, so :func:`syntax_reason` can say where reading stopped.
 * :func:`typed_formula` accepts a formula typed by a person (``trueband eval``,
   ``trueband fill``): spreadsheet apps in many settings show ``;`` between
   arguments, files always store ``,``.
@@ -23,7 +23,9 @@ import regex
 from formulas.errors import ParenthesesError
 from formulas.tokens.operand import Number
 
-from trueband.funcs.registry import NAME_PREFIXES, REGISTRY, normalize_name
+from trueband.funcs.registry import REGISTRY
+
+from .names import bare_name, registered_name, standard_names
 
 # The library's number-and-logical token, with "_" added to what may not follow TRUE/FALSE.
 _LOOKAHEAD = r"(?!([a-z]|[0-9]|\.|\s*\:))"
@@ -53,21 +55,16 @@ def parser() -> formulas.Parser:
     return _Parser()
 
 
-def syntax_message(formula: str, parser_used: formulas.Parser, exc: Exception) -> str:
-    """A one-line description of why ``formula`` could not be read, with the position where reading stopped.
+def syntax_reason(formula: str, parser_used: formulas.Parser, exc: Exception) -> str:
+    """Why ``formula`` could not be read and where (characters counted from 1, as typed), without the formula.
 
     >>> p = parser()
     >>> try:
     ...     p.ast("=SEM(12,, 0.9))")
     ... except Exception as exc:
-    ...     print(syntax_message("=SEM(12,, 0.9))", p, exc))
-    cannot read the formula '=SEM(12,, 0.9))': the ')' at character 15 closes no '('
+    ...     print(syntax_reason("=SEM(12,, 0.9))", p, exc))
+    the ')' at character 15 closes no '('
     """
-    return f"cannot read the formula {formula!r}: {syntax_reason(formula, parser_used, exc)}"
-
-
-def syntax_reason(formula: str, parser_used: formulas.Parser, exc: Exception) -> str:
-    """Why ``formula`` could not be read and where (characters counted from 1, as typed), without the formula."""
     text = formula.strip().replace("\n", "")
     semis = [i for i, ch, depth in _outside_literals(text) if ch == ";" and depth == 0]
     if semis:
@@ -155,14 +152,6 @@ def typed_formula(text: str) -> str:
     return "".join(chars)
 
 
-def _bare(name: str) -> str:
-    key = name.upper()
-    for prefix in NAME_PREFIXES:
-        if key.startswith(prefix):
-            return key[len(prefix):]
-    return key
-
-
 def suggestions(name: str) -> list[str]:
     """The closest registered name and the closest standard name to ``name``, closest first (trueband's on a tie).
 
@@ -172,11 +161,9 @@ def suggestions(name: str) -> list[str]:
     >>> suggestions("SME")
     ['SEM', 'SUM']
     """
-    from .library import BUILTIN_NAMES
-
-    key = _bare(name)
+    key = bare_name(name)
     scored = []
-    for rank, family in enumerate((list(REGISTRY), [n for n in BUILTIN_NAMES if "." not in n])):
+    for rank, family in enumerate((list(REGISTRY), [n for n in standard_names() if "." not in n])):
         found = difflib.get_close_matches(key, family, n=1, cutoff=0.6)
         if found:
             scored.append((-difflib.SequenceMatcher(None, key, found[0]).ratio(), rank, found[0]))
@@ -191,22 +178,21 @@ def did_you_mean(name: str) -> str:
 
 
 def call_findings(tree) -> tuple[list[str], list[str]]:
-    """What is wrong with the function calls of a compiled formula tree (:class:`formula_graph.Node`).
+    """What is wrong with the function calls of a compiled formula tree (:class:`.compile.Node`).
 
     Returns (unknown names, each with its "did you mean"; registered calls
     with too few or too many arguments, each with the function's signature).
     """
-    from .library import BUILTIN_NAMES
-
     unknown, counts = [], []
     for node in tree.walk():
         if node.kind != "fn" or node.name in ("ARRAY", "ARRAYROW"):
             continue
-        spec = REGISTRY.get(normalize_name(node.name))
-        if spec is None:
-            if node.name not in BUILTIN_NAMES and not any(u.split(" ", 1)[0] == node.name for u in unknown):
+        registered = registered_name(node.name)
+        if registered is None:
+            if node.name not in standard_names() and not any(u.split(" ", 1)[0] == node.name for u in unknown):
                 unknown.append(node.name + did_you_mean(node.name))
             continue
+        spec = REGISTRY[registered]
         n = len(node.args)
         if n < spec.min_args or n > spec.max_args:
             need = f"{spec.min_args}" if spec.min_args == spec.max_args else f"{spec.min_args} to {spec.max_args}"

@@ -1,0 +1,224 @@
+"""One formula cell evaluated the way the ``formulas`` engine does: the reference semantics.
+
+References are 2-D object arrays (blanks ``EMPTY``), every operator and
+function is the library's own (:mod:`~trueband.bridge.formulas.library`,
+registered functions included). :mod:`.eval_run` evaluates a whole
+filled-down run at once and gives the same values; it falls back on this
+module's pieces (:func:`area_value`, :func:`range_aggregate`).
+
+>>> import numpy as np
+>>> from trueband.bridge.formulas.compile import compile_formula
+>>> class Store:
+...     def value(self, sheet, row, col):
+...         return float(row)
+>>> evaluate_cell(compile_formula("=A3*10+1", 3, 2), Store(), "S", 3, 2).value
+31.0
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from typing import Any
+
+import numpy as np
+from formulas.functions import XlError
+from formulas.functions.operators import OPERATORS
+
+from ..formulas.compile import Compiled, Node
+from ..workbook.cells import MAX_COLUMN, MAX_ROW
+from ..formulas.library import ERROR_LOG, NOT_IMPLEMENTED, function_table, message_for
+from ..formulas.names import registered_name
+from .values import (NA_ERROR, NAME_ERROR, REF_ERROR, VALUE_ERROR, CellProblem, VectorUnsupported, final_value,
+                     unknown_function)
+
+__all__ = ["CellResult", "evaluate_cell", "evaluate_array_formula", "area_value", "range_aggregate",
+           "RANGE_AGGREGATES"]
+
+
+@dataclasses.dataclass
+class CellResult:
+    """A cell's value, and why it is an error when it is one."""
+
+    value: Any
+    problem: CellProblem | None = None
+
+
+def area_value(store, sheet, area):
+    """The values of an area (r1, c1, r2, c2) as a 2-D object array, or ``#REF!`` when it leaves the sheet."""
+    r1, c1, r2, c2 = area
+    if r1 < 1 or c1 < 1 or r2 > MAX_ROW or c2 > MAX_COLUMN:
+        return REF_ERROR
+    if r1 == r2 and c1 == c2:
+        out = np.empty((1, 1), dtype=object)
+        out[0, 0] = store.value(sheet, r1, c1)
+        return out
+    return store.area(sheet, r1, c1, r2, c2)
+
+
+#: Aggregates over fixed ranges that are computed from the numbers directly when every cell of the
+#: ranges is a number or blank: name → (numpy function, ddof). The library's functions compute the same
+#: thing then (numpy over the numbers in reading order, blanks skipped), but reading a large range as
+#: engine values costs a Python step per cell, and its statistics module imports scipy.stats. Anything
+#: else (text, logicals or errors in a range, scalar arguments, too few numbers) goes to the library.
+RANGE_AGGREGATES = {
+    "SUM": (np.sum, None), "AVERAGE": (np.mean, None), "COUNT": (len, None), "MIN": (np.min, None),
+    "MAX": (np.max, None), "STDEV": (np.std, 1), "STDEV.S": (np.std, 1), "STDEVP": (np.std, 0),
+    "STDEV.P": (np.std, 0), "VAR": (np.var, 1), "VAR.S": (np.var, 1), "VARP": (np.var, 0), "VAR.P": (np.var, 0),
+}
+
+
+def range_aggregate(name: str, args, store, sheet: str, row: int, col: int, *, fixed_rows: bool = False):
+    """The value of ``name(range, ...)`` over number-only ranges, or None when the library must decide."""
+    key = name[6:] if name.startswith("_XLFN.") else name
+    how = RANGE_AGGREGATES.get(key)
+    numbers_of = getattr(store, "numbers", None)
+    if how is None or numbers_of is None or not args:
+        return None
+    parts = []
+    for a in args:
+        if a.kind != "ref" or a.ref.name is not None or (fixed_rows and not a.ref.rows_fixed):
+            return None
+        r1, c1, r2, c2 = a.ref.area(row, col)
+        if r1 < 1 or c1 < 1 or r2 > MAX_ROW or c2 > MAX_COLUMN:
+            return None
+        nums = numbers_of(a.ref.sheet or sheet, r1, c1, r2, c2)
+        if nums is None:
+            return None
+        parts.append(nums)
+    values = parts[0] if len(parts) == 1 else np.concatenate(parts)
+    fn, ddof = how
+    if fn is len:
+        return float(values.size)
+    if values.size <= (ddof or 0) or (fn is not np.sum and values.size == 0):
+        return None  # the library's error or default
+    out = fn(values) if ddof is None else fn(values, ddof=ddof)
+    out = float(out)
+    return out if math.isfinite(out) else None
+
+
+class _CellEval:
+    """Evaluates the tree of one cell's formula; collects the problems of the functions that fail."""
+
+    def __init__(self, store, sheet: str, row: int, col: int):
+        self.store, self.sheet, self.row, self.col = store, sheet, row, col
+        self.problems: list[CellProblem] = []
+
+    def evaluate(self, node: Node):
+        k = node.kind
+        if k == "lit":
+            return node.value
+        if k == "empty":
+            return 0
+        if k == "ref":
+            ref = node.ref
+            if ref.name is not None:
+                return NAME_ERROR
+            return area_value(self.store, ref.sheet or self.sheet, ref.area(self.row, self.col))
+        if k == "op":
+            return self.operator(node)
+        return self.call(node)
+
+    def operator(self, node: Node):
+        name = node.name
+        if name in (":", ",", " "):
+            raise VectorUnsupported(f"the range operator {name!r}")
+        args = [self.evaluate(a) for a in node.args]
+        return OPERATORS[name](*args)
+
+    def call(self, node: Node):
+        name = node.name
+        reg = registered_name(name)
+        if reg is not None:
+            return self._registered(reg, node)
+        if name in ("ROW", "COLUMN"):
+            return self._row_column(node)
+        fast = range_aggregate(name, node.args, self.store, self.sheet, self.row, self.col)
+        if fast is not None:
+            return fast
+        table = function_table()
+        if name not in table or table[name] is NOT_IMPLEMENTED:
+            self.problems.append(unknown_function(name))
+            return NAME_ERROR
+        fn = table[name]
+        args = [self.evaluate(a) for a in node.args]
+        if isinstance(fn, dict):
+            extra = fn.get("extra_inputs", {})
+            fn = fn["function"]
+            if extra:
+                if "Dsp" in map(str, extra) or "Cell" in map(str, extra):
+                    self.problems.append(CellProblem(name, "#VALUE!", f"{name} is not supported in a saved workbook"))
+                    return VALUE_ERROR
+                args = [False] * len(extra) + args  # the "compiling" flag: evaluate now
+        try:
+            return fn(*args)
+        except Exception as exc:  # the library raises on inputs it does not handle
+            self.problems.append(CellProblem(name, "#VALUE!", f"{name}: {exc}"))
+            return VALUE_ERROR
+
+    def _registered(self, reg: str, node: Node):
+        args = [None if a.kind == "empty" else self.evaluate(a) for a in node.args]
+        ERROR_LOG.clear()
+        try:
+            out = function_table()[reg](*args)
+        except TypeError:
+            out = VALUE_ERROR
+        if isinstance(out, XlError) and ERROR_LOG.entries:
+            fname, exc = ERROR_LOG.entries[-1]
+            self.problems.append(CellProblem(fname, exc.code, message_for(fname, exc)))
+        return out
+
+    def _row_column(self, node: Node):
+        want_row = node.name == "ROW"
+        if not node.args:
+            return float(self.row if want_row else self.col)
+        a = node.args[0]
+        if a.kind != "ref" or a.ref.name is not None:
+            return VALUE_ERROR
+        r1, c1, r2, c2 = a.ref.area(self.row, self.col)
+        return float(r1 if want_row else c1)
+
+
+def evaluate_cell(compiled: Compiled, store, sheet: str, row: int, col: int) -> CellResult:
+    """Evaluate one formula cell with the library's functions (the reference path)."""
+    evaluator = _CellEval(store, sheet, row, col)
+    try:
+        value = final_value(evaluator.evaluate(compiled.tree))
+    except VectorUnsupported as exc:
+        return CellResult(VALUE_ERROR, CellProblem("", "#VALUE!", f"not supported: {exc}"))
+    problem = None
+    if isinstance(value, XlError):
+        code = str(value)
+        problem = next((p for p in reversed(evaluator.problems) if p.code == code), None)
+    return CellResult(value, problem)
+
+
+def evaluate_array_formula(compiled: Compiled, store, sheet: str, row: int, col: int,
+                           shape: tuple[int, int]) -> tuple[np.ndarray, CellProblem | None]:
+    """Evaluate an array formula once; its result spread over ``shape`` (rows, columns), #N/A beyond it."""
+    evaluator = _CellEval(store, sheet, row, col)
+    try:
+        raw = evaluator.evaluate(compiled.tree)
+    except VectorUnsupported as exc:
+        return np.full(shape, VALUE_ERROR, dtype=object), CellProblem("", "#VALUE!", f"not supported: {exc}")
+    arr = np.asarray(raw, dtype=object)
+    if arr.ndim == 0:
+        arr = arr.reshape(1, 1)
+    elif arr.ndim == 1:
+        arr = arr.reshape(1, -1)
+    out = np.full(shape, NA_ERROR, dtype=object)
+    rr, cc = arr.shape
+    # a single row or column is repeated across the other direction, as spreadsheet apps do
+    if rr == 1 and shape[0] > 1:
+        arr = np.repeat(arr, shape[0], axis=0)
+        rr = shape[0]
+    if cc == 1 and shape[1] > 1:
+        arr = np.repeat(arr, shape[1], axis=1)
+        cc = shape[1]
+    out[:min(rr, shape[0]), :min(cc, shape[1])] = arr[:shape[0], :shape[1]]
+    final = np.empty(shape, dtype=object)
+    for i in range(shape[0]):
+        for j in range(shape[1]):
+            final[i, j] = final_value(out[i, j])
+    problem = evaluator.problems[-1] if evaluator.problems else None
+    return final, problem

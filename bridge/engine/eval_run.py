@@ -1,0 +1,550 @@
+"""A whole filled-down run of formula cells evaluated at once, with numpy.
+
+:func:`evaluate_run` evaluates every cell of a :class:`~.graph.Run` at once.
+A reference that moves with the row becomes a column of values (``Col``), a
+one-row range that moves with the row a block of rows (``RowRange``), an
+absolute reference a fixed range (``Fixed``). Arithmetic, comparisons,
+``IF``, the row-wise aggregates (``SUM``, ``AVERAGE``, ``COUNT``, ``MIN``,
+``MAX``) and ``ABS``/``SQRT`` run as numpy operations on clean numbers
+(``ROUND`` does not: the library rounds halves away from zero, numpy to
+even, so it goes through the library row by row); registered elementwise
+functions run their body on whole float arrays (failing blocks are halved
+to find the rows that fail, as :func:`trueband.funcs.registry.call_column`
+does). Every row that is not clean (text, blanks, errors, a non-finite
+intermediate) and every other function goes through the library function
+for that row only, so the values are those of :func:`.eval_cell.evaluate_cell`
+(the reference semantics) cell by cell.
+
+>>> import numpy as np
+>>> from trueband.bridge.formulas.compile import compile_formula
+>>> from trueband.bridge.engine.graph import Run
+>>> class Store:
+...     def column(self, sheet, col, r1, r2):
+...         return np.arange(r1, r2 + 1, dtype=float)
+...     def value(self, sheet, row, col):
+...         return float(row)
+>>> run = Run("S", 2, 2, 5, compile_formula("=A2*10+1", 2, 2))
+>>> evaluate_run(run, Store()).values.tolist()
+[21.0, 31.0, 41.0, 51.0]
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from typing import Callable, Sequence
+
+import numpy as np
+from formulas.functions import XlError
+from formulas.functions.operators import OPERATORS
+
+from trueband.funcs.errors import TruebandError
+from trueband.funcs.registry import REGISTRY
+
+from ..formulas.compile import Node
+from ..formulas.library import (ERROR_LOG, NOT_IMPLEMENTED, PassError, function_table, message_for, range_argument,
+                                scalar_argument)
+from ..formulas.names import registered_name
+from .eval_cell import area_value, range_aggregate
+from .graph import Run
+from .values import NAME_ERROR, VALUE_ERROR, CellProblem, VectorUnsupported, final_array, final_value, unknown_function
+from ..workbook.cells import MAX_COLUMN, MAX_ROW
+
+__all__ = ["RunResult", "evaluate_run"]
+
+
+class Col:
+    """Per-row values of a run: ``a`` has one entry per row (float, bool or object dtype)."""
+
+    __slots__ = ("a",)
+
+    def __init__(self, a: np.ndarray):
+        self.a = a
+
+
+class Fixed:
+    """A value that is the same for every row: a 2-D object array in the engine's form."""
+
+    __slots__ = ("a", "_numbers")
+
+    def __init__(self, a):
+        self.a = a
+        self._numbers = None
+
+    def scalar_number(self):
+        """The float of a one-cell fixed range holding a number, else None."""
+        a = self.a
+        if isinstance(a, np.ndarray) and a.size == 1 and a.ndim <= 2:
+            x = a.ravel()[0]
+            if isinstance(x, (float, int, np.floating, np.integer)) and not isinstance(x, (bool, np.bool_)):
+                return float(x)
+        return None
+
+    def numbers(self):
+        """(values as floats with NaN for non-numbers, holds an error) for aggregates."""
+        if self._numbers is None:
+            a = self.a
+            if not isinstance(a, np.ndarray):
+                self._numbers = (None, True)
+            else:
+                flat = a.ravel()
+                out = np.full(flat.shape, np.nan)
+                err = False
+                for k, x in enumerate(flat):
+                    if isinstance(x, (float, int)) and not isinstance(x, bool):
+                        out[k] = x
+                    elif isinstance(x, XlError):
+                        err = True
+                self._numbers = (out, err)
+        return self._numbers
+
+
+class RowRange:
+    """Per-row one-row ranges (``SUM(B2:K2)`` filled down): ``num`` is (rows, cells), NaN where a cell
+    is not a number; ``cells(i)`` gives row i in the engine's form."""
+
+    __slots__ = ("num", "clean", "_cells")
+
+    def __init__(self, num: np.ndarray, clean: np.ndarray, cells: Callable[[int], np.ndarray]):
+        self.num = num
+        self.clean = clean  # rows whose cells are all numbers (no blanks, text, logicals or errors)
+        self._cells = cells
+
+    def cells(self, i: int) -> np.ndarray:
+        return self._cells(i)
+
+
+@dataclasses.dataclass
+class RunResult:
+    """The values of a run's cells, and why the error cells are errors."""
+
+    values: np.ndarray  # one value per row of the run (float, bool or object dtype)
+    problems: dict[int, CellProblem]  # row offset within the run → why that cell is an error
+
+
+def _cell(x):
+    """A per-row value in the engine's form for the library functions (a one-cell range)."""
+    out = np.empty((1, 1), dtype=object)
+    out[0, 0] = x
+    return out
+
+
+def _row_arg(x, i: int):
+    if isinstance(x, Col):
+        return _cell(x.a[i].item() if isinstance(x.a[i], np.generic) else x.a[i])
+    if isinstance(x, Fixed):
+        return x.a
+    if isinstance(x, RowRange):
+        return x.cells(i)
+    return x
+
+
+def _numbers_of(x):
+    """A float array (per row) or float scalar when ``x`` holds clean numbers only, else None."""
+    if isinstance(x, Col):
+        return x.a if x.a.dtype.kind == "f" else None
+    if isinstance(x, Fixed):
+        return x.scalar_number()
+    if isinstance(x, (float, int, np.floating, np.integer)) and not isinstance(x, (bool, np.bool_)):
+        return float(x)
+    return None
+
+
+_ARITH = {"+": np.add, "-": np.subtract, "*": np.multiply, "/": np.divide, "^": np.power}
+_COMPARE = {"=": np.equal, "<>": np.not_equal, "<": np.less, ">": np.greater, "<=": np.less_equal,
+            ">=": np.greater_equal}
+_AGGREGATES = ("SUM", "AVERAGE", "COUNT", "MIN", "MAX")
+#: Functions of one number run as numpy operations on clean numbers. ROUND is not among them: the library
+#: rounds halves away from zero, numpy's rounding to even; it goes through the library row by row.
+_ELEMENTWISE = {"ABS": np.abs, "SQRT": np.sqrt}
+
+
+def _library_callable(name: str, entry):
+    """A standard function of the library as a plain callable (the entries that take the engine's
+    "compiling" flags get them bound; those that need the engine's own objects cannot run on arrays)."""
+    if not isinstance(entry, dict):
+        return entry
+    extra = entry.get("extra_inputs", {})
+    fn = entry["function"]
+    if not extra:
+        return fn
+    if "Dsp" in map(str, extra) or "Cell" in map(str, extra):
+        raise VectorUnsupported(name)
+    flags = [False] * len(extra)
+    return lambda *a: fn(*flags, *a)
+
+
+class _RunEval:
+    """Evaluates the tree of a run's formula for all its rows; collects each row's problem."""
+
+    def __init__(self, run: Run, store):
+        self.run, self.store = run, store
+        self.sheet, self.col = run.sheet, run.col
+        self.first, self.last, self.n = run.first, run.last, run.size
+        self.problems: dict[int, CellProblem] = {}
+
+    # -- generic per-row fallback through the library (or the registered function's engine adapter)
+
+    def rowwise(self, fn, args: Sequence, rows=None, *, label: str, registered: bool = False) -> np.ndarray:
+        n = self.n
+        idx = range(n) if rows is None else rows
+        out = np.empty(n, dtype=object)
+        for i in idx:
+            a = [_row_arg(x, i) for x in args]
+            if registered:
+                ERROR_LOG.clear()
+            try:
+                r = fn(*a)
+            except Exception as exc:  # the library raises on inputs it does not handle
+                self.problems.setdefault(i, CellProblem(label, "#VALUE!", f"{label}: {exc}"))
+                r = VALUE_ERROR
+            if isinstance(r, np.ndarray):
+                r = r.ravel()[0] if r.size else VALUE_ERROR
+            if isinstance(r, np.generic):
+                r = r.item()
+            if registered and isinstance(r, XlError) and ERROR_LOG.entries:
+                fname, exc = ERROR_LOG.entries[-1]
+                self.problems[i] = CellProblem(fname, exc.code, message_for(fname, exc))
+            out[i] = r
+        return out
+
+    def as_col(self, x) -> Col:
+        if isinstance(x, Col):
+            return x
+        if isinstance(x, Fixed):
+            if isinstance(x.a, np.ndarray) and x.a.shape == (1, 1):
+                v = x.a[0, 0]
+            else:
+                raise VectorUnsupported("a range where one value per row is needed")
+        else:
+            v = x
+        if isinstance(v, float):
+            return Col(np.full(self.n, v))
+        if isinstance(v, bool):
+            return Col(np.full(self.n, v, dtype=bool))
+        if isinstance(v, int):
+            return Col(np.full(self.n, float(v)))
+        a = np.empty(self.n, dtype=object)
+        a[:] = [v] * self.n
+        return Col(a)
+
+    # -- the tree
+
+    def evaluate(self, node: Node):
+        k = node.kind
+        if k == "lit":
+            return node.value
+        if k == "empty":
+            return 0
+        if k == "ref":
+            return self.ref(node)
+        if k == "op":
+            return self.operator(node)
+        return self.call(node)
+
+    def ref(self, node: Node):
+        ref = node.ref
+        if ref.name is not None:
+            return NAME_ERROR
+        sheet = ref.sheet or self.sheet
+        if ref.is_cell and not ref.r1_abs:
+            r1, c1, _, _ = ref.area(self.first, self.col)
+            r2 = r1 + self.n - 1
+            if r1 < 1 or r2 > MAX_ROW or c1 < 1 or c1 > MAX_COLUMN:
+                raise VectorUnsupported("a reference that leaves the sheet")
+            return Col(self.store.column(sheet, c1, r1, r2))
+        if ref.rows_fixed:
+            return Fixed(area_value(self.store, sheet, ref.area(self.first, self.col)))
+        if ref.one_row_moving:
+            r1, c1, _, c2 = ref.area(self.first, self.col)
+            r2 = r1 + self.n - 1
+            if r1 < 1 or r2 > MAX_ROW or c1 < 1 or c2 > MAX_COLUMN:
+                raise VectorUnsupported("a reference that leaves the sheet")
+            if not hasattr(self.store, "row_block"):
+                raise VectorUnsupported("row blocks")
+            num, clean, cells = self.store.row_block(sheet, r1, r2, c1, c2)
+            return RowRange(num, clean, cells)
+        raise VectorUnsupported("a range whose size changes from row to row")
+
+    def operator(self, node: Node):
+        name = node.name
+        if name in (":", ",", " "):
+            raise VectorUnsupported(f"the range operator {name!r}")
+        args = [self.evaluate(a) for a in node.args]
+        if not any(isinstance(a, (Col, RowRange)) for a in args):
+            return _constant(OPERATORS[name](*[a.a if isinstance(a, Fixed) else a for a in args]))
+        fn = OPERATORS[name]
+        if name in _ARITH or name in ("U-", "U+", "%"):
+            nums = [_numbers_of(a) for a in args]
+            if all(x is not None for x in nums):
+                with np.errstate(all="ignore"):
+                    if name == "U-":
+                        res = -nums[0]
+                    elif name == "U+":
+                        res = nums[0] + 0.0
+                    elif name == "%":
+                        res = nums[0] / 100.0
+                    else:
+                        res = _ARITH[name](nums[0], nums[1])
+                # division by zero, overflow, 0^-1 ...: the library decides those rows
+                return self.finite_or_library(res, fn, args, name)
+        elif name in _COMPARE:
+            nums = [_numbers_of(a) for a in args]
+            if all(x is not None for x in nums):
+                return Col(np.broadcast_to(_COMPARE[name](nums[0], nums[1]), (self.n,)).copy())
+        return Col(_tidy(self.rowwise(fn, args, label=name)))
+
+    def call(self, node: Node):
+        name = node.name
+        reg = registered_name(name)
+        if reg is not None:
+            return self.registered(reg, node)
+        if name in ("ROW", "COLUMN"):
+            return self.row_column(node)
+        fast = range_aggregate(name, node.args, self.store, self.sheet, self.first, self.col, fixed_rows=True)
+        if fast is not None:
+            return fast
+        table = function_table()
+        if name not in table or table[name] is NOT_IMPLEMENTED:
+            problem = unknown_function(name)
+            for i in range(self.n):
+                self.problems[i] = problem
+            return NAME_ERROR
+        if name == "IF":
+            return self.if_function(node)
+        args = [self.evaluate(a) for a in node.args]
+        if name in _AGGREGATES:
+            fast = self.aggregate(name, args)
+            if fast is not None:
+                return fast
+        fn = _library_callable(name, table[name])
+        if not any(isinstance(a, (Col, RowRange)) for a in args):
+            return _constant(fn(*[a.a if isinstance(a, Fixed) else a for a in args]))
+        if name in _ELEMENTWISE and all(_numbers_of(a) is not None for a in args):
+            with np.errstate(all="ignore"):
+                res = _ELEMENTWISE[name](_numbers_of(args[0]))
+            return self.finite_or_library(res, fn, args, name)
+        return Col(_tidy(self.rowwise(fn, args, label=name)))
+
+    def row_column(self, node: Node):
+        """``ROW()``, ``COLUMN()``, ``ROW(ref)``, ``COLUMN(ref)``: a row number moves with the run's rows."""
+        name = node.name
+        if not node.args:
+            if name == "ROW":
+                return Col(np.arange(self.first, self.last + 1, dtype=float))
+            return float(self.col)
+        a = node.args[0]
+        if a.kind != "ref" or a.ref.name is not None:
+            return VALUE_ERROR
+        if name == "COLUMN":
+            return float(a.ref.area(self.first, self.col)[1])
+        if a.ref.r1_abs:
+            return float(a.ref.area(self.first, self.col)[0])
+        start = a.ref.area(self.first, self.col)[0]
+        return Col(np.arange(start, start + self.n, dtype=float))
+
+    def finite_or_library(self, res, fn, args: Sequence, label: str) -> Col:
+        """Per-row numbers ``res`` (or one number for every row), the rows where it is not finite decided by
+        the library function ``fn``."""
+        res = np.broadcast_to(res, (self.n,)).astype(float)
+        bad = ~np.isfinite(res)
+        if bad.any():
+            fixed = self.rowwise(fn, args, np.flatnonzero(bad), label=label)
+            res = res.astype(object)
+            res[bad] = fixed[bad]
+            return Col(_tidy(res))
+        return Col(res)
+
+    def if_function(self, node: Node):
+        fn = function_table()["IF"]["function"]
+        args = [self.evaluate(a) for a in node.args]
+        cond = args[0] if args else 0
+        if not isinstance(cond, (Col, RowRange)) and not any(isinstance(a, (Col, RowRange)) for a in args):
+            return _constant(fn(*[a.a if isinstance(a, Fixed) else a for a in args]))
+        c = cond.a if isinstance(cond, Col) else None
+        if c is not None and c.dtype.kind in "fb" and len(args) in (2, 3) and \
+                not any(isinstance(a, RowRange) for a in args[1:]):
+            try:
+                yes = self.as_col(args[1])
+                no = self.as_col(args[2]) if len(args) == 3 else self.as_col(False)
+            except VectorUnsupported:
+                return Col(_tidy(self.rowwise(fn, args, label="IF")))
+            truth = c != 0 if c.dtype.kind == "f" else c
+            if yes.a.dtype == no.a.dtype and yes.a.dtype.kind in "fb":
+                return Col(np.where(truth, yes.a, no.a))
+            out = np.where(truth, yes.a.astype(object), no.a.astype(object))
+            return Col(_tidy(out))
+        return Col(_tidy(self.rowwise(fn, args, label="IF")))
+
+    def aggregate(self, name: str, args: list):
+        """Row-wise SUM / AVERAGE / COUNT / MIN / MAX over clean rows; None when it does not apply."""
+        parts = []
+        clean = np.ones(self.n, dtype=bool)
+        for a in args:
+            if isinstance(a, RowRange):
+                parts.append(a.num)
+                clean &= a.clean
+            elif isinstance(a, Col):
+                if a.a.dtype.kind != "f":
+                    return None
+                parts.append(a.a.reshape(-1, 1))
+            elif isinstance(a, Fixed):
+                nums, err = a.numbers()
+                if nums is None or err or np.isnan(nums).any():
+                    return None
+                parts.append(np.broadcast_to(nums, (self.n, nums.size)))
+            elif isinstance(a, float) or (isinstance(a, int) and not isinstance(a, bool)):
+                parts.append(np.full((self.n, 1), float(a)))
+            else:
+                return None
+        if not parts or not any(isinstance(a, (RowRange, Col)) for a in args):
+            return None
+        block = np.ascontiguousarray(np.hstack(parts)) if len(parts) > 1 else np.ascontiguousarray(parts[0])
+        if block.shape[1] == 0:
+            return None
+        with np.errstate(all="ignore"):
+            if name == "COUNT":
+                res = np.full(self.n, float(block.shape[1]))
+            elif name == "SUM":
+                res = block.sum(axis=1)
+            elif name == "AVERAGE":
+                res = block.mean(axis=1)
+            elif name == "MIN":
+                res = block.min(axis=1)
+            else:
+                res = block.max(axis=1)
+        todo = ~clean | ~np.isfinite(res)
+        if todo.any():
+            fixed = self.rowwise(function_table()[name], args, np.flatnonzero(todo), label=name)
+            res = res.astype(object)
+            res[todo] = fixed[todo]
+            return Col(_tidy(res))
+        return Col(res)
+
+    # -- registered functions
+
+    def registered(self, reg: str, node: Node):
+        spec = REGISTRY[reg]
+        adapter = function_table()[reg]
+        args = [None if a.kind == "empty" else self.evaluate(a) for a in node.args]
+        per_row = [i for i, a in enumerate(args) if isinstance(a, (Col, RowRange))]
+        if not per_row:
+            ERROR_LOG.clear()
+            out = adapter(*[a.a if isinstance(a, Fixed) else a for a in args])
+            if isinstance(out, XlError) and ERROR_LOG.entries:
+                fname, exc = ERROR_LOG.entries[-1]
+                problem = CellProblem(fname, exc.code, message_for(fname, exc))
+                for i in range(self.n):
+                    self.problems[i] = problem
+            return _constant(out)
+        names = [a.name for a in spec.arguments]
+        vector_ok = (len(args) <= len(names)
+                     and all(isinstance(args[i], Col) and names[i] in spec.elementwise for i in per_row))
+        if not vector_ok:
+            return Col(_tidy(self.rowwise(adapter, args, label=reg, registered=True)))
+        return Col(_tidy(self.registered_column(spec, adapter, args, per_row)))
+
+    def registered_column(self, spec, adapter, args, per_row) -> np.ndarray:
+        """The body on whole float arrays; rows that are not clean numbers, or that fail, one by one."""
+        n = self.n
+        out = np.empty(n, dtype=object)
+        names = [a.name for a in spec.arguments]
+        arrays = {}
+        ok = np.ones(n, dtype=bool)
+        for i in per_row:
+            a = args[i].a
+            if a.dtype.kind == "f":
+                arrays[names[i]] = a
+            else:
+                nums = np.zeros(n)
+                for k, x in enumerate(a):
+                    if isinstance(x, (float, int)) and not isinstance(x, bool) and math.isfinite(x):
+                        nums[k] = x
+                    else:
+                        ok[k] = False
+                arrays[names[i]] = nums
+        # Shared arguments are bound and converted once, as the engine adapter would convert them.
+        try:
+            scalars = []
+            for i, a in enumerate(args):
+                if i in per_row:
+                    scalars.append(0.0)
+                elif i < len(names) and spec.arguments[i].kind == "range":
+                    scalars.append(range_argument(a.a if isinstance(a, Fixed) else a))
+                else:
+                    scalars.append(scalar_argument(a.a if isinstance(a, Fixed) else a, names[i]))
+            bound = spec.bind(scalars)
+            fixed = {a.name: a.coerce(bound[a.name]) for a in spec.arguments if a.name not in arrays}
+        except (TruebandError, PassError):
+            return self.rowwise(adapter, args, label=spec.name, registered=True)
+
+        def one(k: int):
+            out[k] = self.rowwise(adapter, args, [k], label=spec.name, registered=True)[k]
+
+        def block(idx: np.ndarray):
+            try:
+                with np.errstate(all="ignore"):
+                    res = np.broadcast_to(spec.body(**fixed, **{k: a[idx] for k, a in arrays.items()}), idx.shape)
+                converted = spec.check_results(res)
+            except TruebandError:
+                if len(idx) == 1:
+                    one(int(idx[0]))
+                    return
+                half = len(idx) // 2
+                block(idx[:half])
+                block(idx[half:])
+                return
+            out[idx] = np.asarray(converted, dtype=object) if not isinstance(converted, np.ndarray) else converted
+
+        for k in np.flatnonzero(~ok):
+            one(int(k))
+        good = np.flatnonzero(ok)
+        if len(good):
+            block(good)
+        return out
+
+
+def _constant(x):
+    """A value that does not vary by row, kept in the engine's form (a computed single value unwrapped)."""
+    if isinstance(x, np.ndarray):
+        if x.ndim == 0:
+            x = x.item()
+            return x.item() if isinstance(x, np.generic) else x
+        return Fixed(x)
+    if isinstance(x, np.generic):
+        return x.item()
+    return x
+
+
+def _tidy(a: np.ndarray) -> np.ndarray:
+    """An object array of per-row results as float when every entry is a plain number."""
+    if a.dtype != object or a.size == 0:
+        return a
+    flat = [x.item() if isinstance(x, np.generic) else x for x in a]
+    if all(type(x) is float for x in flat):
+        return np.array(flat, dtype=float)
+    out = np.empty(len(flat), dtype=object)
+    out[:] = flat
+    return out
+
+
+def evaluate_run(run: Run, store) -> RunResult:
+    """Evaluate every cell of a run as arrays (raises :class:`VectorUnsupported` when it cannot)."""
+    evaluator = _RunEval(run, store)
+    res = evaluator.evaluate(run.compiled.tree)
+    if isinstance(res, Col):
+        values = final_array(res.a)
+    elif isinstance(res, RowRange):
+        raise VectorUnsupported("a formula whose value is a range")
+    else:
+        v = final_value(res.a if isinstance(res, Fixed) else res)
+        values = np.empty(run.size, dtype=object)
+        values[:] = [v] * run.size
+        values = _tidy(values)
+    problems = {}
+    if values.dtype == object:
+        for i, p in evaluator.problems.items():
+            x = values[i]
+            if isinstance(x, XlError) and str(x) == p.code:
+                problems[i] = p
+    return RunResult(values, problems)

@@ -1,0 +1,118 @@
+"""The values of evaluation: the engine's error values, ``EMPTY``, and turning results into cell values.
+
+Values are ``float``, ``str``, ``bool``, the engine's error values
+(``XlError``) and ``EMPTY`` for a blank cell. A formula's final value is
+never ``EMPTY`` (a formula that points at a blank cell shows 0), never a
+non-finite number (``#NUM!``) and never a complex number (``#NUM!``):
+:func:`final_value` and :func:`final_array` make it so. :class:`CellProblem`
+says why a cell holds an error.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+
+import numpy as np
+import schedula as sh
+from formulas.functions import Error, XlError
+
+from ..formulas.text import did_you_mean
+from ..workbook import sheet_data
+
+__all__ = ["EMPTY", "NUM_ERROR", "VALUE_ERROR", "REF_ERROR", "NAME_ERROR", "NA_ERROR", "error_value", "CellProblem",
+           "unknown_function", "VectorUnsupported", "final_value", "final_array", "as_values", "cell_value_for_xml"]
+
+EMPTY = sh.EMPTY
+_ERRORS = Error.errors
+NUM_ERROR = _ERRORS["#NUM!"]
+VALUE_ERROR = _ERRORS["#VALUE!"]
+REF_ERROR = _ERRORS["#REF!"]
+NAME_ERROR = _ERRORS["#NAME?"]
+NA_ERROR = _ERRORS["#N/A"]
+
+
+def error_value(code: str) -> XlError:
+    """The engine's error value of a code (``#SPILL!`` and other newer codes as they are)."""
+    return _ERRORS.get(code) or XlError(code)
+
+
+@dataclasses.dataclass(frozen=True)
+class CellProblem:
+    """Why a cell holds an error: the function that raised it and its message."""
+
+    function: str
+    code: str
+    message: str
+
+
+def unknown_function(name: str) -> CellProblem:
+    """The problem of a call of a function nobody knows, with the closest names (``SME``: SEM or SUM)."""
+    return CellProblem(name, "#NAME?", f"{name} is not a function trueband or the formula engine knows"
+                                       f"{did_you_mean(name)}")
+
+
+class VectorUnsupported(Exception):
+    """The run cannot be evaluated as arrays (the caller evaluates its cells one by one)."""
+
+
+def final_value(x):
+    """A formula result as a cell value."""
+    if isinstance(x, np.ndarray):
+        if x.size == 0:
+            return VALUE_ERROR
+        x = x.ravel()[0] if x.ndim else x.item()
+    if isinstance(x, np.generic):
+        x = x.item()
+    if x is EMPTY or x is None:
+        return 0.0
+    if isinstance(x, XlError):
+        return x
+    if isinstance(x, bool):
+        return x
+    if isinstance(x, (int, float)):
+        x = float(x)
+        return x if math.isfinite(x) else NUM_ERROR
+    if isinstance(x, str):
+        return x
+    if isinstance(x, complex):
+        return NUM_ERROR
+    return VALUE_ERROR
+
+
+def final_array(a: np.ndarray) -> np.ndarray:
+    """A run's results (one per row) as cell values: :func:`final_value` of each, as a float array when it can be."""
+    if a.dtype.kind == "f":
+        bad = ~np.isfinite(a)
+        if bad.any():
+            out = a.astype(object)
+            out[bad] = NUM_ERROR
+            return out
+        return a
+    if a.dtype.kind == "b":
+        return a
+    if a.dtype.kind in "iu":
+        return a.astype(float)
+    return np.array([final_value(x) for x in a], dtype=object) if a.size else a
+
+
+def as_values(values: list) -> np.ndarray:
+    """Cell values as the store takes them: a float array when all are floats, else an object array."""
+    if all(type(v) is float for v in values):
+        return np.array(values, dtype=float)
+    out = np.empty(len(values), dtype=object)
+    out[:] = values
+    return out
+
+
+def cell_value_for_xml(value):
+    """An evaluated value as the sheet writer takes it (errors as :class:`~trueband.bridge.workbook.sheet_data.ErrorValue`)."""
+    if isinstance(value, XlError):
+        return sheet_data.ErrorValue(str(value))
+    if isinstance(value, np.generic):
+        value = value.item()
+    if value is EMPTY or value is None:
+        return 0.0
+    if isinstance(value, float) and not math.isfinite(value):
+        return sheet_data.ErrorValue("#NUM!")
+    return value
