@@ -37,6 +37,7 @@ from typing import Any, Callable, Literal, Mapping, Sequence
 import numpy as np
 
 from . import _validate as v
+from ._columns import evaluate_rows, number_columns
 from .errors import ArgumentCountError, ArgumentTypeError, DomainError, TruebandError, UnknownFunctionError
 
 __all__ = [
@@ -419,26 +420,57 @@ def _column_length(each: Mapping[str, Sequence]) -> int:
     return next(iter(lengths.values()), 0)
 
 
-def call_column(name: str, each: Mapping[str, Sequence], same: Mapping[str, Any] | None = None) -> list:
+def _is_series(value) -> bool:
+    """A pandas Series, recognised by its attributes (pandas is not a dependency of trueband)."""
+    return hasattr(value, "index") and hasattr(value, "to_numpy") and getattr(value, "ndim", 0) == 1
+
+
+def _first_series(each: Mapping[str, Any]):
+    """The first pandas Series among the columns (None if none); every other Series must share its index."""
+    first = None
+    for key, col in each.items():
+        if _is_series(col):
+            if first is None:
+                first = col
+            elif not first.index.equals(col.index):
+                raise ArgumentTypeError(f"the Series for {key} has another index than the first Series",
+                                        argument=key)
+    return first
+
+
+def call_column(name: str, each: Mapping[str, Sequence], same: Mapping[str, Any] | None = None):
     """The same function down a column: ``each`` maps argument names to equal-length
     sequences, ``same`` holds the arguments shared by every row.
 
     Returns one entry per row: the value, or the :class:`TruebandError` for that
-    row. Elementwise functions run as whole-array numpy calls; a failing
-    block is split in halves until the failing rows are isolated, so one bad
-    row costs a few extra array calls, not a Python call per row.
+    row; a list, or a pandas Series with the same index when the columns are
+    Series. Elementwise functions run as whole-array numpy calls
+    (:func:`trueband.funcs._columns.evaluate_rows`); a failing block is split in
+    halves until the failing rows are isolated, so one bad row costs a few extra
+    array calls, not a Python call per row.
+
+    >>> call_column("SEM", {"sd": [10, 20, "x"]}, {"reliability": 0.75})[:2]
+    [5.0, 10.0]
     """
     fn = lookup(name)
     same = dict(same or {})
     if not each:
         raise ArgumentTypeError("each must name at least one argument that varies by row")
+    series = _first_series(each)
+    if series is None:
+        return _column_rows(fn, each, same)
+    # positions, not labels: the values are read in order and the index is put back on the result
+    rows = _column_rows(fn, {k: (c.to_numpy() if _is_series(c) else c) for k, c in each.items()}, same)
+    return type(series)(rows, index=series.index)
+
+
+def _column_rows(fn: SpreadsheetFunction, each: Mapping[str, Sequence], same: dict) -> list:
     n = _column_length(each)
     for key in each:
         if key in same:
             raise ArgumentCountError(f"{key} is given both per row and for all rows", argument=key)
-    rows: list[Any] = [None] * n
     if n == 0:
-        return rows
+        return []
 
     def one(i: int):
         try:
@@ -456,46 +488,9 @@ def call_column(name: str, each: Mapping[str, Sequence], same: Mapping[str, Any]
         fixed = {a.name: a.coerce(probe[a.name]) for a in fn.arguments if a.name not in each}
     except TruebandError:
         return [one(i) for i in range(n)]
-
-    # Cells that are not numbers (or not whole numbers, for integer arguments) fail on their own
-    # through a single call; the rest go through numpy.
-    arrays = {}
-    ok = np.ones(n, dtype=bool)
-    kinds = {a.name: a.kind for a in fn.arguments}
-    for key, col in each.items():
-        arr = np.empty(n, dtype=float)
-        whole = kinds[key] == "integer"
-        for i, cell in enumerate(col):
-            x = v.to_float(cell) if isinstance(cell, (int, float)) and not isinstance(cell, bool) else math.nan
-            if math.isfinite(x) and not (whole and not x.is_integer()):
-                arr[i] = x
-            else:
-                arr[i] = 0.0
-                ok[i] = False
-        arrays[key] = arr
-    for i in np.flatnonzero(~ok):
-        rows[i] = one(int(i))
-
-    def block(idx: np.ndarray):
-        try:
-            with np.errstate(all="ignore"):
-                out = np.broadcast_to(fn.body(**fixed, **{k: a[idx] for k, a in arrays.items()}), idx.shape)
-            converted = fn.check_results(out)
-        except TruebandError:
-            if len(idx) == 1:
-                rows[idx[0]] = one(int(idx[0]))
-                return
-            half = len(idx) // 2
-            block(idx[:half])
-            block(idx[half:])
-            return
-        for i, x in zip(idx.tolist(), converted):
-            rows[i] = x
-
-    good = np.flatnonzero(ok)
-    if len(good):
-        block(good)
-    return rows
+    whole = {a.name for a in fn.arguments if a.kind == "integer"}
+    arrays, ok = number_columns(each, whole, n)
+    return evaluate_rows(fn.body, fn.check_results, fixed, arrays, ok, one).tolist()
 
 
 def catalog() -> list[dict]:
