@@ -9,7 +9,9 @@ module             topic
 =================  ==================================================
 ``scores``         measurement error and score interpretation
 ``reliability``    reliability from item data, item analysis
-``agreement``      rater agreement
+``agreement``      rater agreement: kappas, rwg (and, re-exported, the next two)
+``intraclass``     intraclass correlations (rater agreement)
+``krippendorff``   Krippendorff's alpha (rater agreement)
 ``validity``       validity coefficients and their corrections
 ``utility``        selection utility
 ``impact``         adverse impact
@@ -21,7 +23,8 @@ module             topic
 3.6
 """
 
-from . import agreement, cutscores, impact, reliability, scores, utility, validity  # noqa: F401  (registers)
+from . import (  # noqa: F401  (registers)
+    agreement, cutscores, impact, intraclass, krippendorff, reliability, scores, utility, validity)
 from .errors import (  # noqa: F401
     ArgumentCountError,
     ArgumentTypeError,

@@ -350,7 +350,7 @@ def spreadsheet(name: str, *, returns: str, reference: str, elementwise: bool | 
         spec = SpreadsheetFunction(
             name=name, body=body, arguments=tuple(arguments), returns=returns,
             description=description, reference=reference, elementwise=frozenset(vector),
-            topic=body.__module__.rsplit(".", 1)[-1], python_name=body.__name__, aliases=tuple(aliases))
+            topic=_topic(body), python_name=body.__name__, aliases=tuple(aliases))
         REGISTRY[name] = spec
         ALIASES.update({alias: name for alias in aliases})
 
@@ -362,6 +362,13 @@ def spreadsheet(name: str, *, returns: str, reference: str, elementwise: bool | 
         return wrapper
 
     return decorate
+
+
+def _topic(body: Callable) -> str:
+    """The catalog topic: the module's ``TOPIC`` where a method family has a module of its own
+    (``intraclass`` is filed under ``agreement``), else the module's name."""
+    module = body.__module__
+    return getattr(sys.modules.get(module), "TOPIC", None) or module.rsplit(".", 1)[-1]
 
 
 _EVALUATED: dict[tuple[str, str], object] = {}

@@ -37,6 +37,7 @@ from statsmodels.stats.inter_rater import aggregate_raters, cohens_kappa, fleiss
 
 from helpers import raises_code
 from trueband.funcs import agreement as ag
+from trueband.funcs import krippendorff as kr  # the module of KRIPPENDORFF_ALPHA (its table threshold is patched below)
 from trueband.funcs import call
 
 # pingouin's own use of a pandas keyword that pandas plans to drop; not ours.
@@ -494,9 +495,9 @@ def test_krippendorff_table_and_pairwise_sums_agree(level, continuous, monkeypat
         x = np.round(x)
     x[rng.random(x.shape) < 0.3] = np.nan
     reference = krippendorff.alpha(x.T, level_of_measurement=level)
-    monkeypatch.setattr(ag, "COINCIDENCE_TABLE_MAX_VALUES", 10**9)
+    monkeypatch.setattr(kr, "COINCIDENCE_TABLE_MAX_VALUES", 10**9)
     table = call("KRIPPENDORFF_ALPHA", x, level)
-    monkeypatch.setattr(ag, "COINCIDENCE_TABLE_MAX_VALUES", 0)
+    monkeypatch.setattr(kr, "COINCIDENCE_TABLE_MAX_VALUES", 0)
     direct = call("KRIPPENDORFF_ALPHA", x, level)
     assert table == pytest.approx(reference, rel=1e-10)
     assert direct == pytest.approx(reference, rel=1e-10)
@@ -508,3 +509,42 @@ def test_rwg_extreme_but_valid_inputs():
     assert call("RWG", [1e308, 1e308], 5) == 1.0
     assert call("RWG", [1, 2, 3], 1e300) == 1.0
     assert call("RWG_J", [[1e300, 1e300], [1e300, 1e300]], 5) == 1.0
+
+
+# ---------------------------------------------------------------- one policy for text categories (issue 16, item 4)
+
+# The same decisions written with different letter case and spacing: a data-entry slip, not another category
+# (the project's policy for group labels, funcs.impact.group_key, common practice). Folded, the two raters agree
+# on every person, so each coefficient is 1 (by definition of perfect agreement).
+HIRE_A = ["Hire", "hire", "Reject", "reject", "Hire", " Reject"]
+HIRE_B = ["hire", "Hire ", "reject", "REJECT", "hire", "Reject"]
+
+
+def test_letter_case_does_not_split_categories_in_cohens_kappa():
+    assert call("COHEN_KAPPA", HIRE_A, HIRE_B) == 1.0
+    # against scikit-learn on the folded labels: the same value with the labels written one way
+    folded = cohen_kappa_score([x.strip().lower() for x in HIRE_A], [x.strip().lower() for x in HIRE_B])
+    mixed = [["Hire", "hire"], ["Reject", "reject"], ["hire", "Hire"], ["hire", "reject"], ["REJECT", "reject"]]
+    ours = call("COHEN_KAPPA", [r[0] for r in mixed], [r[1] for r in mixed])
+    ref = cohen_kappa_score([r[0].lower() for r in mixed], [r[1].lower() for r in mixed])
+    assert folded == 1.0 and ours == pytest.approx(ref, abs=1e-12)
+
+
+def test_letter_case_does_not_split_categories_in_fleiss_kappa_and_krippendorff():
+    rows = [[a, b] for a, b in zip(HIRE_A, HIRE_B)]
+    assert call("FLEISS_KAPPA", rows) == 1.0
+    assert call("KRIPPENDORFF_ALPHA", rows) == 1.0
+    # a real disagreement survives folding: the krippendorff package on the folded labels as codes
+    rows[0][1] = "REJECT"
+    codes = {"hire": 0.0, "reject": 1.0}
+    reference = krippendorff.alpha(np.array([[codes[a.strip().lower()] for a, _ in rows],
+                                             [codes[b.strip().lower()] for _, b in rows]]),
+                                   level_of_measurement="nominal")
+    assert call("KRIPPENDORFF_ALPHA", rows) == pytest.approx(reference, abs=1e-12)
+
+
+def test_a_number_and_its_text_are_one_category():
+    # documented policy (group_key): 1, 1.0 and "1" are one category in every kappa and in nominal alpha
+    assert call("COHEN_KAPPA", [1, 2, "1", 2.0], ["1", 2, 1.0, "2"]) == 1.0
+    assert call("FLEISS_KAPPA", [[1, "1"], [2, "2 "], ["1", 1.0]]) == 1.0
+    assert call("KRIPPENDORFF_ALPHA", [[1, "1"], [2, "2"], ["1", 1.0]]) == 1.0
