@@ -43,7 +43,8 @@ def _needs_scale(m) -> bool:
     return bool(((m > TOO_LARGE) | ((m < _TOO_SMALL) & (m > 0))).any())
 
 
-def centred(x: np.ndarray, *, axis: int | None = 0, per_column: bool = False, in_place: bool = False) -> np.ndarray:
+def centred(x: np.ndarray, *, axis: int | None = 0, per_column: bool = False, in_place: bool = False,
+            with_scale: bool = False):
     """Deviations of x from its mean (per column with ``axis=0``, overall with ``axis=None``), rescaled.
 
     Three steps, each with a reason:
@@ -56,23 +57,28 @@ def centred(x: np.ndarray, *, axis: int | None = 0, per_column: bool = False, in
        column with ``per_column``): sums of squares of them neither overflow nor underflow, and
        scale-free statistics are unchanged. Numbers beyond about 1e150 are scaled before step 1 too.
 
-    ``in_place`` reuses ``x`` (a fresh array of the caller's) instead of copying it.
+    ``in_place`` reuses ``x`` (a fresh array of the caller's) instead of copying it. With
+    ``with_scale`` the factor applied is returned too (deviations = result / factor).
 
     >>> centred(np.array([[3e13 + 1, 1.0], [3e13 + 3, 1.0]])).tolist()
     [[-1.0, 0.0], [1.0, 0.0]]
     """
     if not in_place:
         x = np.array(x, dtype=float)
+    scale = 1.0
     big = np.max(np.abs(x)) if x.size else 0.0
     if big > TOO_LARGE:
-        x *= power_of_two(big)
+        scale = power_of_two(big)
+        x *= scale
     first = x[:1] if axis == 0 else x.flat[0]
     x -= first.copy() if axis == 0 else first
     x -= x.mean(axis=axis, keepdims=axis is not None)
     spread = np.max(np.abs(x), axis=0 if per_column else None) if x.size else 0.0
     if per_column or _needs_scale(spread):
-        x *= power_of_two(spread)
-    return x
+        factor = power_of_two(spread)
+        x *= factor
+        scale = scale * factor
+    return (x, scale) if with_scale else x
 
 
 def sum_of_products(a: np.ndarray, b: np.ndarray) -> float:

@@ -48,7 +48,7 @@ import numpy as np
 
 from . import _validate as v
 from ._categories import category_codes
-from ._numeric import sum_of_products
+from ._numeric import centred, sum_of_products
 from ._validate import Range
 from .errors import ArgumentTypeError, DomainError, InsufficientDataError, ZeroVarianceError
 from .intraclass import (  # noqa: F401  (re-exported: one place to import every agreement method)
@@ -171,6 +171,10 @@ def cohen_kappa(rater_a: Range, rater_b: Range, weights: Literal["none", "linear
         raise ZeroVarianceError(
             "rater_a and rater_b gave everyone the same single value; weighted kappa is undefined",
             argument="rater_a")
+    # kappa is unchanged by one shift and one scale of both raters' values: centred and scaled by a
+    # power of two, values of 1e200 or 1e-170 neither overflow nor underflow the squares
+    both = centred(np.concatenate([xa, xb]), axis=None)
+    xa, xb = both[:n], both[n:]
     if weights == "linear":
         observed = float(np.sum(np.abs(xa - xb)))
         expected = _sum_abs_differences(xa, xb) / n

@@ -24,7 +24,7 @@ import numpy as np
 
 from . import _validate as v
 from ._lazy import lazy_module
-from ._numeric import sum_of_products
+from ._numeric import centred, sum_of_products
 from ._validate import Range
 from .errors import DomainError, ZeroVarianceError
 from .registry import spreadsheet
@@ -84,7 +84,10 @@ def mean_squares(matrix: np.ndarray) -> dict[str, float]:
     {'rows': 4.1666666667, 'columns': 1.5, 'error': 0.5, 'within': 0.8333333333}
     """
     n, k = matrix.shape
-    x = matrix - matrix.mean()  # centring first keeps the squares small
+    # shifted by the first rating (a correctly rounded subtraction: a common offset costs no digits),
+    # then centred: the squares stay small
+    x = matrix - matrix.flat[0]
+    x -= x.mean()
     scale = float(np.max(np.abs(x)))
     row_means = x.mean(axis=1)
     col_means = x.mean(axis=0)
@@ -225,10 +228,14 @@ def intraclass_correlations(ratings, confidence: float = 0.95) -> dict[str, Intr
 
 def _icc_mean_squares(ratings) -> tuple[dict[str, float], int, int]:
     x = v.complete_rows("ratings", v.numeric_matrix("ratings", ratings), min_rows=2, min_columns=2)
+    # centred and scaled by a power of two (ratings of 1e200 or 1e-170): every ICC, F and limit is a
+    # ratio of mean squares, so the scale cancels
+    x = centred(x, axis=None, in_place=not np.may_share_memory(x, ratings) if isinstance(ratings, np.ndarray)
+                else True)
     with np.errstate(over="ignore", invalid="ignore"):
         ms = mean_squares(x)
-    if not all(math.isfinite(value) for value in ms.values()):
-        raise DomainError("ratings are too large for their squares to be represented", argument="ratings")
+    if not all(math.isfinite(value) for value in ms.values()):  # not reached after the scaling; kept as a guard
+        raise DomainError("ratings are too large to compute their mean squares", argument="ratings")
     if ms["rows"] == 0.0 and ms["within"] == 0.0:
         raise ZeroVarianceError("ratings are all the same value; the ICC is undefined", argument="ratings")
     return ms, x.shape[0], x.shape[1]

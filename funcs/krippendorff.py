@@ -25,7 +25,7 @@ import numpy as np
 from . import _validate as v
 from ._categories import category_codes
 from ._lazy import lazy_module
-from ._numeric import sum_of_products
+from ._numeric import centred, power_of_two, sum_of_products
 from ._validate import Range
 from .errors import DomainError, InsufficientDataError, ZeroVarianceError
 from .registry import spreadsheet
@@ -189,6 +189,12 @@ def krippendorff_alpha(ratings: Range, level: Literal["nominal", "ordinal", "int
             raise DomainError(
                 f"ratings must be at least 0 at the ratio level, got {v.show(x[ok][x[ok] < 0][0])}",
                 argument="ratings")
+        # Alpha is unchanged by a shift (interval) and by a scale (interval, ratio): centred and scaled
+        # by a power of two, ratings of 1e200 or 1e-170 neither overflow nor underflow the squares
+        if level == "interval":
+            x[ok] = centred(x[ok], axis=None)
+        elif level == "ratio":
+            x[ok] *= power_of_two(np.max(x[ok]))
         domain, codes = np.unique(x[ok], return_inverse=True)
         codes = codes.ravel()
     else:

@@ -45,6 +45,7 @@ import numpy as np
 
 from . import _validate as v
 from ._lazy import lazy_module
+from ._numeric import centred
 from ._validate import Range
 from .errors import DomainError, InsufficientDataError, ZeroVarianceError
 from .registry import spreadsheet
@@ -525,7 +526,10 @@ def cohens_d(group_a: Range, group_b: Range) -> float:
     text in either range is refused. Positive d means group_a scored higher.
     Pooled variance 0 (every score in both groups the same within its group)
     raises ``ZeroVarianceError``. Means and squared deviations are computed
-    in two passes (no raw sums of squares).
+    in two passes (no raw sums of squares), after shifting both groups by one
+    of the scores and scaling them by a power of two, which leaves d
+    unchanged: a common offset (scores near 1e14) costs no digits and scores
+    of 1e155 or 1e-170 neither overflow nor underflow.
 
     Examples
     --------
@@ -534,8 +538,17 @@ def cohens_d(group_a: Range, group_b: Range) -> float:
     """
     a = _group("group_a", group_a)
     b = _group("group_b", group_b)
-    ma, mb = a.mean(), b.mean()
-    pooled = (np.sum((a - ma) ** 2) + np.sum((b - mb) ** 2)) / (a.size + b.size - 2)
+    # d is unchanged by one shift and one scale of both groups: centred together (shifted by one score,
+    # a correctly rounded subtraction, so a common offset costs no digits) and scaled by a power of two
+    # (scores of 1e155 would overflow the squares)
+    both = centred(np.concatenate([a, b]), axis=None)
+    a, b = both[:a.size], both[a.size:]
+    difference = a.mean() - b.mean()
+    # deviations from each group's first score, then its mean: a group of equal scores gives exactly 0
+    da, db = a - a[0], b - b[0]
+    da -= da.mean()
+    db -= db.mean()
+    pooled = (da @ da + db @ db) / (a.size + b.size - 2)
     if not pooled > 0:
         raise ZeroVarianceError("group_a and group_b have zero pooled variance; d is undefined", argument="group_a")
-    return (ma - mb) / np.sqrt(pooled)
+    return difference / np.sqrt(pooled)

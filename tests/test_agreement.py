@@ -232,8 +232,11 @@ def test_icc_errors():
         call("ICC", SHROUT_FLEISS, "oneway", "single", "lower", 1.0)
     with raises_code("#NUM!", "confidence"):
         ag.intraclass_correlation(SHROUT_FLEISS, "oneway", "single", 0.0)
-    with raises_code("#NUM!", "ratings", match="too large"):
-        ag.intraclass_correlation([[1e300, -1e300], [2e300, 1e300], [0, 1]], "oneway", "single")
+    # Ratings of 1e300 are computed, no longer refused (issue 16, item 3): the ICC of the same ratings
+    # divided by 1e300 (the ICC is a ratio of mean squares, free of the scale).
+    big = ag.intraclass_correlation([[1e300, -1e300], [2e300, 1e300], [0, 1]], "oneway", "single")
+    small = ag.intraclass_correlation([[1, -1], [2, 1], [0, 1e-300]], "oneway", "single")
+    assert big.estimate == pytest.approx(small.estimate, rel=1e-12)
 
 
 # ---------------------------------------------------------------- Cohen's kappa
