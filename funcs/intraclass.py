@@ -184,6 +184,20 @@ def intraclass_correlation(ratings, model: str, unit: str, confidence: float = 0
     ``lower`` and ``upper`` are then ``nan`` (the spreadsheet form answers
     ``#NUM!`` for them).
 
+    Degrees of freedom of the p value: the convention of McGraw & Wong (1996),
+    which pingouin follows: (n − 1, n(k − 1)) for the one-way forms and
+    (n − 1, (n − 1)(k − 1)) for both two-way models, the agreement forms
+    included. Other software tests the agreement forms against other degrees
+    of freedom, so its p value can differ from this one on the same data
+    (a little, e.g. 0.0543 against 0.0562); the estimates and the limits agree.
+
+    Range of the estimates: every form is at most 1. The single-rater forms
+    are at least −1/(k − 1) for the one-way and consistency models; the
+    average-measure forms, and ICC(A,k) most of all, have no lower bound: when
+    the people hardly differ and the rater and residual variation nearly
+    cancel in the denominator MSR + (MSC − MSE)/n, ICC(A,k) can be −100 or
+    lower (a sign that the ratings do not tell the people apart, not an error).
+
     References
     ----------
     McGraw, K. O. & Wong, S. P. (1996). Forming inferences about some
@@ -352,6 +366,14 @@ def intraclass_correlation_part(ratings: Range, model: Literal["oneway", "agreem
         p value of the F test of ICC = 0.
     confidence : float, optional
         Two-sided confidence level of the limits, strictly between 0 and 1; default 0.95.
+
+    Notes
+    -----
+    The p value's degrees of freedom follow McGraw & Wong (1996), as pingouin:
+    (n − 1, n(k − 1)) one-way, (n − 1, (n − 1)(k − 1)) for both two-way models;
+    software with another convention for the agreement forms gives a slightly
+    different p. The average-measure estimates, ICC(A,k) most of all, have no
+    lower bound (see :func:`intraclass_correlation`).
 
     Examples
     --------

@@ -274,7 +274,7 @@ _KIND_OF = {float: "number", int: "integer", bool: "boolean", str: "text", v.Ran
 
 
 def _argument_docs(doc: str) -> dict[str, str]:
-    """First sentence of each entry in a numpydoc ``Parameters`` section."""
+    """Each entry of a numpydoc ``Parameters`` section: its first paragraph, without the final full stop."""
     m = re.search(r"^\s*Parameters\s*\n\s*-{3,}\s*\n(.*?)(?:\n\s*\n\s*[A-Z][A-Za-z ]+\n\s*-{3,}|\Z)", doc, re.S | re.M)
     if not m:
         return {}
@@ -292,12 +292,8 @@ def _argument_docs(doc: str) -> dict[str, str]:
             out[current] = []
         elif current:
             out[current].append(line.strip())
-    result = {}
-    for name, words in out.items():
-        text = " ".join(words)
-        first = re.split(r"(?<=[.;])\s", text, maxsplit=1)[0]
-        result[name] = first.rstrip(".;")
-    return result
+    # The whole first paragraph: a split at the first "." or ";" cut "(e.g. 0.3)" and "(one row or column; ...)"
+    return {name: " ".join(words).rstrip(".;") for name, words in out.items()}
 
 
 def _kind(annotation) -> tuple[str, tuple[str, ...] | None]:

@@ -551,3 +551,19 @@ def test_a_number_and_its_text_are_one_category():
     assert call("COHEN_KAPPA", [1, 2, "1", 2.0], ["1", 2, 1.0, "2"]) == 1.0
     assert call("FLEISS_KAPPA", [[1, "1"], [2, "2 "], ["1", 1.0]]) == 1.0
     assert call("KRIPPENDORFF_ALPHA", [[1, "1"], [2, "2"], ["1", 1.0]]) == 1.0
+
+
+# ---------------------------------------------------------------- ICC documentation (issue 16, item 5)
+
+def test_icc_documents_its_p_value_degrees_of_freedom_and_the_unbounded_average_agreement_form():
+    for doc in (ag.intraclass_correlation.__doc__, ag.intraclass_correlation_part.__doc__):
+        assert "McGraw & Wong (1996)" in doc and "(n − 1, (n − 1)(k − 1))" in doc and "pingouin" in doc
+        assert "no" in doc and "lower bound" in doc
+
+
+def test_icc_average_agreement_has_no_lower_bound(pingouin_unrounded):
+    # 4 people, 2 raters who disagree more than the people differ: ICC(A,k) far below -1, as pingouin gives it
+    data = [[5, 2], [1, 5], [4, 1], [1, 2]]
+    ours = call("ICC", data, "agreement", "average")
+    assert ours < -100
+    assert ours == pytest.approx(pingouin_unrounded(data).loc["ICC(A,k)", "ICC"], rel=1e-9)
