@@ -101,7 +101,7 @@ def _sum_abs_differences(a: np.ndarray, b: np.ndarray) -> float:
                        "Psychological Measurement 20, 37-46; Cohen, J. (1968). Weighted kappa. Psychological "
                        "Bulletin 70, 213-220; Fleiss, J. L. & Cohen, J. (1973). Educational and Psychological "
                        "Measurement 33, 613-619.")
-def cohen_kappa(rater_a: Range, rater_b: Range, weights: Literal["none", "linear", "quadratic"] = "none") -> float:
+def cohen_kappa(rater_a: Range, rater_b: Range, *, weights: Literal["none", "linear", "quadratic"] = "none") -> float:
     """Cohen's kappa: chance-corrected agreement of two raters on the same people.
 
     κ = 1 − Σ d(a_i, b_i) / ( (1/N) Σ_i Σ_j d(a_i, b_j) ), the observed over the
@@ -139,7 +139,7 @@ def cohen_kappa(rater_a: Range, rater_b: Range, weights: Literal["none", "linear
     >>> b = ["hire", "hold", "hold", "reject", "hire", "reject"]
     >>> round(cohen_kappa(a, b), 6)
     0.5
-    >>> round(cohen_kappa([1, 2, 3, 4, 5], [1, 3, 3, 5, 4], "quadratic"), 6)
+    >>> round(cohen_kappa([1, 2, 3, 4, 5], [1, 3, 3, 5, 4], weights="quadratic"), 6)
     0.842105
     """
     a = v.label_vector("rater_a", rater_a)

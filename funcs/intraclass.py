@@ -28,6 +28,7 @@ from ._numeric import centred, sum_of_products
 from ._validate import Range
 from .errors import DomainError, ZeroVarianceError
 from .registry import spreadsheet
+from .results import ConfidenceInterval
 
 # scipy.stats is slow to import: load it on first use (see _lazy)
 stats = lazy_module("scipy.stats")
@@ -69,6 +70,33 @@ class IntraclassCorrelation:
     p: float
     n: int  # people rated (complete rows used)
     k: int  # raters
+    model: str = "agreement"
+    unit: str = "single"
+    mean_squares: dict = dataclasses.field(default_factory=dict, repr=False, compare=False)
+
+    @property
+    def statistic(self) -> float:
+        """The estimate (the name scipy.stats results use)."""
+        return self.estimate
+
+    @property
+    def pvalue(self) -> float:
+        """The p value of the F test of ICC = 0 (the name scipy.stats results use)."""
+        return self.p
+
+    def confidence_interval(self, confidence_level: float = 0.95) -> ConfidenceInterval:
+        """The F-based limits at another level (``lower`` and ``upper`` are at the level of the call).
+
+        >>> r = intraclass_correlation([[4, 4, 5], [2, 3, 3], [5, 5, 5], [1, 2, 2]], model="agreement", unit="single")
+        >>> [round(x, 4) for x in r.confidence_interval(0.95)] == [round(r.lower, 4), round(r.upper, 4)]
+        True
+        """
+        level = v.confidence("confidence_level", v.number("confidence_level", confidence_level))
+        again = _icc_from_mean_squares(self.mean_squares, self.n, self.k, self.model, self.unit, level)
+        if math.isnan(again.lower) or math.isnan(again.upper):
+            raise DomainError("the confidence limits of this ICC do not exist for these ratings (degenerate F "
+                              "approximation)", argument="confidence_level")
+        return ConfidenceInterval(again.lower, again.upper)
 
 
 def mean_squares(matrix: np.ndarray) -> dict[str, float]:
@@ -128,7 +156,7 @@ def _limits_or_nan(lower: float, upper: float) -> tuple[float, float]:
     return (min(lower, 1.0) if ok(lower) else math.nan, min(upper, 1.0) if ok(upper) else math.nan)
 
 
-def intraclass_correlation(ratings, model: str, unit: str, confidence: float = 0.95) -> IntraclassCorrelation:
+def intraclass_correlation(ratings, *, model: str, unit: str, confidence: float = 0.95) -> IntraclassCorrelation:
     """Intraclass correlation of ratings (people × raters) with F test and confidence limits.
 
     With the mean squares of the people × raters table, MSR (between people),
@@ -209,7 +237,7 @@ def intraclass_correlation(ratings, model: str, unit: str, confidence: float = 0
     --------
     Three interviewers rate four applicants:
 
-    >>> r = intraclass_correlation([[4, 4, 5], [2, 3, 3], [5, 5, 5], [1, 2, 2]], "agreement", "single")
+    >>> r = intraclass_correlation([[4, 4, 5], [2, 3, 3], [5, 5, 5], [1, 2, 2]], model="agreement", unit="single")
     >>> round(r.estimate, 4), round(r.lower, 4), round(r.upper, 4), r.df1, r.df2
     (0.9011, 0.5118, 0.9928, 3, 6)
     """
@@ -219,7 +247,7 @@ def intraclass_correlation(ratings, model: str, unit: str, confidence: float = 0
     return _icc_from_mean_squares(*_icc_mean_squares(ratings), model, unit, confidence)
 
 
-def intraclass_correlations(ratings, confidence: float = 0.95) -> dict[str, IntraclassCorrelation]:
+def intraclass_correlations(ratings, *, confidence: float = 0.95) -> dict[str, IntraclassCorrelation]:
     """All six intraclass correlations of :func:`intraclass_correlation` from one pass over the ratings.
 
     Keys are the Shrout & Fleiss labels ``"ICC(1,1)"``, ``"ICC(2,1)"``,
@@ -293,7 +321,7 @@ def _icc_from_mean_squares(ms: dict[str, float], n: int, k: int, model: str, uni
             else:
                 lower, upper = 1 - _ratio(1.0, f_low), 1 - _ratio(1.0, f_up)
         lower, upper = _limits_or_nan(lower, upper)
-        return IntraclassCorrelation(estimate, lower, upper, F, df1, df2, p, n, k)
+        return IntraclassCorrelation(estimate, lower, upper, F, df1, df2, p, n, k, model, unit, ms)
 
     # Absolute agreement (two-way random).
     single_denominator = msr + (k - 1) * mse + k * (msc - mse) / n
@@ -332,7 +360,7 @@ def _icc_from_mean_squares(ms: dict[str, float], n: int, k: int, model: str, uni
                 lower = _ratio(n * (msr - f_l * mse), f_l * (msc - mse) + n * msr)
                 upper = _ratio(n * (f_u * msr - mse), msc - mse + n * f_u * msr)
     lower, upper = _limits_or_nan(lower, upper)
-    return IntraclassCorrelation(estimate, lower, upper, F, df1, df2, p, n, k)
+    return IntraclassCorrelation(estimate, lower, upper, F, df1, df2, p, n, k, model, unit, ms)
 
 
 @spreadsheet("ICC", returns="coefficient",
@@ -340,7 +368,7 @@ def _icc_from_mean_squares(ms: dict[str, float], n: int, k: int, model: str, uni
                        "coefficients. Psychological Methods 1, 30-46; Shrout, P. E. & Fleiss, J. L. (1979). "
                        "Intraclass correlations: uses in assessing rater reliability. Psychological Bulletin 86, "
                        "420-428.")
-def intraclass_correlation_part(ratings: Range, model: Literal["oneway", "agreement", "consistency"],
+def intraclass_correlation_part(ratings: Range, *, model: Literal["oneway", "agreement", "consistency"],
                                 unit: Literal["single", "average"],
                                 part: Literal["estimate", "lower", "upper", "p"] = "estimate",
                                 confidence: float = 0.95) -> float:
@@ -378,12 +406,12 @@ def intraclass_correlation_part(ratings: Range, model: Literal["oneway", "agreem
     Examples
     --------
     >>> data = [[4, 4, 5], [2, 3, 3], [5, 5, 5], [1, 2, 2]]
-    >>> round(intraclass_correlation_part(data, "consistency", "average"), 6)
+    >>> round(intraclass_correlation_part(data, model="consistency", unit="average"), 6)
     0.98008
-    >>> round(intraclass_correlation_part(data, "oneway", "single", "lower", 0.9), 4)
+    >>> round(intraclass_correlation_part(data, model="oneway", unit="single", part="lower", confidence=0.9), 4)
     0.6614
     """
-    result = intraclass_correlation(ratings, model, unit, confidence)
+    result = intraclass_correlation(ratings, model=model, unit=unit, confidence=confidence)
     value = getattr(result, part)
     if math.isnan(value):
         raise DomainError(

@@ -122,7 +122,7 @@ def _direct_sums(units, codes, m, x, ok, level: str):
              reference="Krippendorff, K. (2011). Computing Krippendorff's alpha-reliability. Annenberg School "
                        "for Communication, University of Pennsylvania; Krippendorff, K. (2004). Content "
                        "Analysis: An Introduction to Its Methodology (2nd ed.), ch. 11.")
-def krippendorff_alpha(ratings: Range, level: Literal["nominal", "ordinal", "interval", "ratio"] = "nominal") -> float:
+def krippendorff_alpha(ratings: Range, *, level: Literal["nominal", "ordinal", "interval", "ratio"] = "nominal") -> float:
     """Krippendorff's alpha: agreement of any number of raters, with missing ratings.
 
     α = 1 − D_o/D_e = 1 − (n − 1) · Σ_c Σ_k o_ck δ²_ck / Σ_c Σ_k n_c n_k δ²_ck, where
@@ -166,7 +166,7 @@ def krippendorff_alpha(ratings: Range, level: Literal["nominal", "ordinal", "int
 
     >>> data = [[1, 1, None, 1], [2, 2, 3, 2], [3, 3, 3, 3], [3, 3, 3, 3], [2, 2, 2, 2], [1, 2, 3, 4],
     ...         [4, 4, 4, 4], [1, 1, 2, 1], [2, 2, 2, 2], [None, 5, 5, 5], [None, None, 1, 1], [None, 3, None, None]]
-    >>> [round(krippendorff_alpha(data, level), 3) for level in ("nominal", "ordinal", "interval", "ratio")]
+    >>> [round(krippendorff_alpha(data, level=level), 3) for level in ("nominal", "ordinal", "interval", "ratio")]
     [0.743, 0.815, 0.849, 0.797]
     """
     numeric = level != "nominal" or (isinstance(ratings, np.ndarray) and ratings.dtype.kind in "fiu")

@@ -349,11 +349,7 @@ def spreadsheet(name: str, *, returns: str, reference: str, elementwise: bool | 
             topic=_topic(body), python_name=body.__name__, aliases=tuple(aliases))
         REGISTRY[name] = spec
         ALIASES.update({alias: name for alias in aliases})
-
-        @functools.wraps(body)
-        def wrapper(*args, **kwargs):
-            return spec(*args, **kwargs)
-
+        wrapper = python_function(spec)
         wrapper.spreadsheet = spec
         return wrapper
 
@@ -365,6 +361,74 @@ def _topic(body: Callable) -> str:
     (``intraclass`` is filed under ``agreement``), else the module's name."""
     module = body.__module__
     return getattr(sys.modules.get(module), "TOPIC", None) or module.rsplit(".", 1)[-1]
+
+
+def python_function(spec: SpreadsheetFunction) -> Callable:
+    """The Python face of a registered function: options keyword-only, arrays broadcast.
+
+    The same checks and errors as the spreadsheet path (:meth:`SpreadsheetFunction.__call__`), with
+    two differences a Python caller expects: arguments after the ``*`` of the signature (the
+    options: ``part``, ``confidence``, ``level``, ...) must be given by keyword; and where the
+    function is elementwise, a list, numpy array or pandas Series for its number arguments gives an
+    array of results (a Series, with the same index, for a Series), computed as
+    :func:`call_column` computes a column. A plain call still returns a Python number.
+    """
+    body = spec.body
+    params = inspect.signature(body).parameters.values()
+    positional = tuple(p.name for p in params if p.kind is inspect.Parameter.POSITIONAL_OR_KEYWORD)
+    options = tuple(p.name for p in params if p.kind is inspect.Parameter.KEYWORD_ONLY)
+
+    @functools.wraps(body)
+    def wrapper(*args, **kwargs):
+        if len(args) > len(positional):
+            extra = options[: len(args) - len(positional)]
+            given = ", ".join(f"{o}={v.show(a)}" for o, a in zip(extra, args[len(positional):]))
+            hint = f"; give the options by keyword, e.g. {given}" if given else ""
+            raise ArgumentCountError(
+                f"{body.__name__} takes {len(positional)} positional arguments ({', '.join(positional)}), "
+                f"got {len(args)}{hint}", argument=extra[0] if extra else None)
+        if spec.elementwise:
+            named = {**dict(zip(positional, args)), **kwargs}
+            varying = {k: x for k, x in named.items() if k in spec.elementwise and _is_sequence(x)}
+            if varying:
+                return _broadcast_call(spec, named, varying)
+        return spec(*args, **kwargs)
+
+    return wrapper
+
+
+def _is_sequence(value) -> bool:
+    """A list, tuple, numpy array (not 0-d) or pandas Series given for one number argument."""
+    if isinstance(value, (list, tuple)):
+        return True
+    return getattr(value, "ndim", 0) >= 1 and (isinstance(value, np.ndarray) or _is_series(value))
+
+
+def _broadcast_call(spec: SpreadsheetFunction, named: dict, varying: dict):
+    """An elementwise function over broadcast arrays; the first failing element's error is raised."""
+    series = _first_series(varying)
+    arrays = {}
+    for key, x in varying.items():
+        arr = np.asarray(x.to_numpy() if _is_series(x) else x)
+        if arr.dtype == object or arr.dtype.kind not in "fiub":
+            arr = np.asarray(x, dtype=object)
+        arrays[key] = arr
+    try:
+        shaped = np.broadcast_arrays(*arrays.values())
+    except ValueError:
+        shapes = ", ".join(f"{k} {a.shape}" for k, a in arrays.items())
+        raise ArgumentTypeError(f"the arrays given do not broadcast to one shape: {shapes}") from None
+    shape = shaped[0].shape
+    each = {k: a.ravel() for k, a in zip(arrays, shaped)}
+    same = {k: x for k, x in named.items() if k not in each}
+    rows = _column_rows(spec, each, same)
+    for i, row in enumerate(rows):
+        if isinstance(row, TruebandError):
+            where = np.unravel_index(i, shape) if len(shape) > 1 else i
+            raise type(row)(f"{row.message} (element {where})", argument=row.argument)
+    kind = RESULT_KINDS[spec.returns][0]
+    values = np.array(rows, dtype=bool if kind is bool else float if kind is float else None).reshape(shape)
+    return values if series is None else type(series)(values, index=series.index)
 
 
 _EVALUATED: dict[tuple[str, str], object] = {}

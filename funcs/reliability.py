@@ -188,7 +188,7 @@ def cronbach_alpha(items: Range) -> float:
                        "reliability coefficient twenty. Psychometrika 30, 357-370; Feldt, L. S., Woodruff, D. J. & "
                        "Salih, F. A. (1987). Statistical inference for coefficient alpha. Applied Psychological "
                        "Measurement 11, 93-103.")
-def alpha_confidence_limit(alpha: float, n_people: int, n_items: int, part: Literal["lower", "upper"],
+def alpha_confidence_limit(alpha: float, n_people: int, n_items: int, *, part: Literal["lower", "upper"],
                            confidence: float = 0.95) -> float:
     """Lower or upper confidence limit for coefficient alpha, by Feldt's F distribution.
 
@@ -221,7 +221,7 @@ def alpha_confidence_limit(alpha: float, n_people: int, n_items: int, part: Lite
 
     Examples
     --------
-    >>> round(alpha_confidence_limit(0.8, 100, 10, "lower"), 6), round(alpha_confidence_limit(0.8, 100, 10, "upper"), 6)
+    >>> round(alpha_confidence_limit(0.8, 100, 10, part="lower"), 6), round(alpha_confidence_limit(0.8, 100, 10, part="upper"), 6)
     (0.736048, 0.853692)
     """
     _at_most("alpha", alpha, 1.0)
@@ -347,7 +347,7 @@ def kuder_richardson_21(n_items: int, mean: float, variance: float) -> float:
              reference="Spearman, C. (1910). Correlation calculated from faulty data. British Journal of "
                        "Psychology 3, 271-295; Brown, W. (1910). Some experimental results in the correlation of "
                        "mental abilities. British Journal of Psychology 3, 296-322.")
-def split_half(items: Range, method: Literal["odd-even", "first-last"] = "odd-even") -> float:
+def split_half(items: Range, *, method: Literal["odd-even", "first-last"] = "odd-even") -> float:
     """Split-half reliability: the correlation of two half-test scores, stepped up by Spearman–Brown.
 
     r_SB = 2r / (1 + r), with r the Pearson correlation between the sums of

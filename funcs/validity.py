@@ -238,7 +238,7 @@ def range_corrected_correlation(r: float, sd_restricted: float, sd_unrestricted:
              reference="Hunter, J. E., Schmidt, F. L. & Le, H. (2006). Implications of direct and indirect range "
                        "restriction for meta-analysis methods and findings. Journal of Applied Psychology 91, "
                        "594-612; Le, H. & Schmidt, F. L. (2006). Psychological Methods 11, 416-438.")
-def indirect_range_corrected_validity(r: float, u_x: float, rxx_applicants: float, ryy: float = 1.0) -> float:
+def indirect_range_corrected_validity(r: float, u_x: float, rxx_applicants: float, *, ryy: float = 1.0) -> float:
     """Operational validity among applicants under indirect range restriction (Hunter, Schmidt & Le 2006).
 
     The result is corrected for range restriction and for criterion
@@ -285,7 +285,7 @@ def indirect_range_corrected_validity(r: float, u_x: float, rxx_applicants: floa
 
     Examples
     --------
-    >>> round(indirect_range_corrected_validity(0.25, 0.67, 0.81, 0.52), 6)
+    >>> round(indirect_range_corrected_validity(0.25, 0.67, 0.81, ryy=0.52), 6)
     0.604843
     """
     _correlation("r", r)
@@ -369,7 +369,7 @@ def _sample_size(name, n, low):
              reference="Fisher, R. A. (1921). On the 'probable error' of a coefficient of correlation deduced from "
                        "a small sample. Metron 1, 3-32; Cohen, J., Cohen, P., West, S. G. & Aiken, L. S. (2003). "
                        "Applied Multiple Regression/Correlation Analysis (3rd ed.), sec. 2.8.")
-def correlation_confidence_limit(r: float, n: float, part: Literal["lower", "upper"],
+def correlation_confidence_limit(r: float, n: float, *, part: Literal["lower", "upper"],
                                  confidence: float = 0.95) -> float:
     """Lower or upper confidence limit of a correlation by Fisher's z transformation.
 
@@ -393,7 +393,7 @@ def correlation_confidence_limit(r: float, n: float, part: Literal["lower", "upp
 
     Examples
     --------
-    >>> round(correlation_confidence_limit(0.30, 100, "lower"), 6)
+    >>> round(correlation_confidence_limit(0.30, 100, part="lower"), 6)
     0.110068
     """
     _correlation("r", r)
@@ -406,7 +406,7 @@ def correlation_confidence_limit(r: float, n: float, part: Literal["lower", "upp
 @spreadsheet("R_PVALUE", returns="probability", elementwise=["r", "n"],
              reference="Fisher, R. A. (1915). Biometrika 10, 507-521 (distribution of r); Cohen, Cohen, West & "
                        "Aiken (2003). Applied Multiple Regression/Correlation Analysis (3rd ed.), sec. 2.8.")
-def correlation_p_value(r: float, n: float, tails: int = 2) -> float:
+def correlation_p_value(r: float, n: float, *, tails: int = 2) -> float:
     """p value of the test that the population correlation is zero (t test with n − 2 df).
 
     t = r √(n − 2) / √(1 − r²);  p = 2 · P(T > |t|) for two tails, P(T > t) for one tail

@@ -124,7 +124,7 @@ def test_icc_mean_squares_shrout_fleiss_table_3():
 
 def assert_matches_pingouin(matrix, reference, confidence_tol=1e-10):
     for model, unit, form in FORMS:
-        ours = ag.intraclass_correlation(matrix, model, unit)
+        ours = ag.intraclass_correlation(matrix, model=model, unit=unit)
         row = reference.loc[form]
         assert ours.estimate == pytest.approx(row["ICC"], rel=1e-10, abs=1e-12), form
         assert ours.F == pytest.approx(row["F"], rel=1e-10), form
@@ -136,7 +136,7 @@ def assert_matches_pingouin(matrix, reference, confidence_tol=1e-10):
 def test_icc_all_six_forms_in_one_pass(pingouin_unrounded):
     # intraclass_correlations against pingouin (labels: Shrout & Fleiss 2 = agreement "A", 3 = consistency "C").
     reference = pingouin_unrounded(SHROUT_FLEISS)
-    table = ag.intraclass_correlations(SHROUT_FLEISS, 0.95)
+    table = ag.intraclass_correlations(SHROUT_FLEISS, confidence=0.95)
     for ours, theirs in [("ICC(1,1)", "ICC(1,1)"), ("ICC(2,1)", "ICC(A,1)"), ("ICC(3,1)", "ICC(C,1)"),
                          ("ICC(1,k)", "ICC(1,k)"), ("ICC(2,k)", "ICC(A,k)"), ("ICC(3,k)", "ICC(C,k)")]:
         r = table[ours]
@@ -173,7 +173,7 @@ def test_icc_listwise_deletion_matches_pingouin_omit(pingouin_unrounded):
     x[[2, 9], [0, 2]] = np.nan
     cells = [[None if math.isnan(c) else c for c in row] for row in x.tolist()]
     assert_matches_pingouin(cells, pingouin_unrounded(x, nan_policy="omit"))
-    assert ag.intraclass_correlation(cells, "agreement", "single").n == 13
+    assert ag.intraclass_correlation(cells, model="agreement", unit="single").n == 13
 
 
 @pytest.mark.parametrize("confidence", [0.80, 0.90, 0.99])
@@ -184,7 +184,7 @@ def test_icc_limits_invert_the_f_test(model, unit, confidence):
     # measures and by (1 - rho0) for averages (scipy.stats.f as reference).
     x = np.array(SHROUT_FLEISS, dtype=float)
     n, k = x.shape
-    r = ag.intraclass_correlation(x, model, unit, confidence)
+    r = ag.intraclass_correlation(x, model=model, unit=unit, confidence=confidence)
     scale = (lambda rho: (1 - rho) / (1 + (k - 1) * rho)) if unit == "single" else (lambda rho: 1 - rho)
     tail = (1 - confidence) / 2
     assert stats.f.sf(r.F * scale(r.lower), r.df1, r.df2) == pytest.approx(tail, rel=1e-9)
@@ -192,7 +192,7 @@ def test_icc_limits_invert_the_f_test(model, unit, confidence):
 
 
 def test_icc_parts_through_the_registry():
-    full = ag.intraclass_correlation(SHROUT_FLEISS, "agreement", "average", 0.9)
+    full = ag.intraclass_correlation(SHROUT_FLEISS, model="agreement", unit="average", confidence=0.9)
     assert call("ICC", SHROUT_FLEISS, "agreement", "average", "lower", 0.9) == full.lower
     assert call("ICC", SHROUT_FLEISS, "AGREEMENT", " Average ", "upper", 0.9) == full.upper
     assert call("ICC", SHROUT_FLEISS, "agreement", "average", "p") == full.p
@@ -203,11 +203,11 @@ def test_icc_perfect_consistency():
     # Raters differ only by a constant: consistency ICC 1 with limits 1 and p 0 (limit of F -> infinity,
     # by definition); absolute agreement stays below 1.
     x = [[1, 2, 3], [2, 3, 4], [4, 5, 6], [5, 6, 7]]
-    r = ag.intraclass_correlation(x, "consistency", "single")
+    r = ag.intraclass_correlation(x, model="consistency", unit="single")
     assert (r.estimate, r.lower, r.upper, r.p) == (1.0, 1.0, 1.0, 0.0) and math.isinf(r.F)
     assert call("ICC", x, "agreement", "single") < 1.0
     # residuals that are zero in exact arithmetic but not in floating point (means of thirds)
-    r = ag.intraclass_correlation([[0, 0], [0, 0], [1, 1]], "agreement", "single")
+    r = ag.intraclass_correlation([[0, 0], [0, 0], [1, 1]], model="agreement", unit="single")
     assert (r.estimate, r.lower, r.upper, r.p) == (1.0, 1.0, 1.0, 0.0) and math.isinf(r.F)
 
 
@@ -231,11 +231,11 @@ def test_icc_errors():
     with raises_code("#NUM!", "confidence"):
         call("ICC", SHROUT_FLEISS, "oneway", "single", "lower", 1.0)
     with raises_code("#NUM!", "confidence"):
-        ag.intraclass_correlation(SHROUT_FLEISS, "oneway", "single", 0.0)
+        ag.intraclass_correlation(SHROUT_FLEISS, model="oneway", unit="single", confidence=0.0)
     # Ratings of 1e300 are computed, no longer refused (issue 16, item 3): the ICC of the same ratings
     # divided by 1e300 (the ICC is a ratio of mean squares, free of the scale).
-    big = ag.intraclass_correlation([[1e300, -1e300], [2e300, 1e300], [0, 1]], "oneway", "single")
-    small = ag.intraclass_correlation([[1, -1], [2, 1], [0, 1e-300]], "oneway", "single")
+    big = ag.intraclass_correlation([[1e300, -1e300], [2e300, 1e300], [0, 1]], model="oneway", unit="single")
+    small = ag.intraclass_correlation([[1, -1], [2, 1], [0, 1e-300]], model="oneway", unit="single")
     assert big.estimate == pytest.approx(small.estimate, rel=1e-12)
 
 
