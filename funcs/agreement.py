@@ -96,6 +96,28 @@ def _sum_abs_differences(a: np.ndarray, b: np.ndarray) -> float:
     return float(np.sum(below + above))
 
 
+def _weighted_disagreements(xa: np.ndarray, xb: np.ndarray, weights: str) -> float:
+    """Observed over chance-expected disagreement of weighted kappa, |x − y| or (x − y)² apart."""
+    n = xa.size
+    # kappa is unchanged by one shift and one scale of both raters' values: centred and scaled by a
+    # power of two, values of 1e200 or 1e-170 neither overflow nor underflow the squares
+    both = centred(np.concatenate([xa, xb]), axis=None)
+    xa, xb = both[:n], both[n:]
+    if weights == "linear":
+        observed = float(np.sum(np.abs(xa - xb)))
+        expected = _sum_abs_differences(xa, xb) / n
+    else:
+        da, db = xa - xa.mean(), xb - xb.mean()
+        observed = float(np.sum((xa - xb) ** 2))
+        # Σ_i Σ_j (a_i − b_j)² / n = Σ(a − ā)² + Σ(b − b̄)² + n(ā − b̄)², from centred sums
+        expected = sum_of_products(da, da) + sum_of_products(db, db) + n * (xa.mean() - xb.mean()) ** 2
+    if not expected > 0.0:
+        raise ZeroVarianceError(
+            "rater_a and rater_b gave everyone the same single value; weighted kappa is undefined",
+            argument="rater_a")
+    return observed / expected
+
+
 @spreadsheet("COHEN_KAPPA", returns="coefficient",
              reference="Cohen, J. (1960). A coefficient of agreement for nominal scales. Educational and "
                        "Psychological Measurement 20, 37-46; Cohen, J. (1968). Weighted kappa. Psychological "
@@ -171,23 +193,7 @@ def cohen_kappa(rater_a: Range, rater_b: Range, *, weights: Literal["none", "lin
         raise ZeroVarianceError(
             "rater_a and rater_b gave everyone the same single value; weighted kappa is undefined",
             argument="rater_a")
-    # kappa is unchanged by one shift and one scale of both raters' values: centred and scaled by a
-    # power of two, values of 1e200 or 1e-170 neither overflow nor underflow the squares
-    both = centred(np.concatenate([xa, xb]), axis=None)
-    xa, xb = both[:n], both[n:]
-    if weights == "linear":
-        observed = float(np.sum(np.abs(xa - xb)))
-        expected = _sum_abs_differences(xa, xb) / n
-    else:
-        da, db = xa - xa.mean(), xb - xb.mean()
-        observed = float(np.sum((xa - xb) ** 2))
-        # Σ_i Σ_j (a_i − b_j)² / n = Σ(a − ā)² + Σ(b − b̄)² + n(ā − b̄)², from centred sums
-        expected = sum_of_products(da, da) + sum_of_products(db, db) + n * (xa.mean() - xb.mean()) ** 2
-    if not expected > 0.0:
-        raise ZeroVarianceError(
-            "rater_a and rater_b gave everyone the same single value; weighted kappa is undefined",
-            argument="rater_a")
-    return 1.0 - observed / expected
+    return 1.0 - _weighted_disagreements(xa, xb, weights)
 
 
 # ---------------------------------------------------------------- Fleiss' kappa

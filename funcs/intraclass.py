@@ -203,28 +203,19 @@ def intraclass_correlation(ratings, *, model: str, unit: str, confidence: float 
 
     Notes
     -----
-    Missing data: rows with any blank are deleted listwise (common practice
-    for ICC, and what pingouin and R's irr do); ``n`` reports the rows kept.
-    Undefined cases raise: no variation at all, or a denominator that is zero
-    or negative (an average-measure agreement ICC on data where the rater and
-    residual variation swamps the people; or MSR = 0 for the average forms).
-    In rare degenerate agreement cases the Satterthwaite limits do not exist;
-    ``lower`` and ``upper`` are then ``nan`` (the spreadsheet form answers
-    ``#NUM!`` for them).
+    Rows with any blank are deleted listwise (as pingouin and R's irr); ``n``
+    reports the rows kept. Undefined cases raise: no variation at all, or a
+    denominator that is zero or negative (rater and residual variation
+    swamping the people in ICC(A,k); MSR = 0 for the average forms). Where the
+    Satterthwaite limits do not exist (rare degenerate agreement cases)
+    ``lower`` and ``upper`` are ``nan`` (``#NUM!`` in a sheet).
 
-    Degrees of freedom of the p value: the convention of McGraw & Wong (1996),
-    which pingouin follows: (n − 1, n(k − 1)) for the one-way forms and
-    (n − 1, (n − 1)(k − 1)) for both two-way models, the agreement forms
-    included. Other software tests the agreement forms against other degrees
-    of freedom, so its p value can differ from this one on the same data
-    (a little, e.g. 0.0543 against 0.0562); the estimates and the limits agree.
-
-    Range of the estimates: every form is at most 1. The single-rater forms
-    are at least −1/(k − 1) for the one-way and consistency models; the
-    average-measure forms, and ICC(A,k) most of all, have no lower bound: when
-    the people hardly differ and the rater and residual variation nearly
-    cancel in the denominator MSR + (MSC − MSE)/n, ICC(A,k) can be −100 or
-    lower (a sign that the ratings do not tell the people apart, not an error).
+    The p value's degrees of freedom follow McGraw & Wong (1996), as pingouin:
+    (n − 1, n(k − 1)) one-way, (n − 1, (n − 1)(k − 1)) for both two-way models;
+    software with another convention for the agreement forms gives a slightly
+    different p on the same data. Every form is at most 1; the average-measure
+    forms, ICC(A,k) most of all, have no lower bound: −100 or lower when the
+    people hardly differ (the ratings do not tell them apart; not an error).
 
     References
     ----------

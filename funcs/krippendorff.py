@@ -118,6 +118,21 @@ def _direct_sums(units, codes, m, x, ok, level: str):
     return observed, expected
 
 
+def _rescale(x: np.ndarray, ok: np.ndarray, level: str) -> None:
+    """Check ratio-level ratings and rescale the present ones in place, leaving alpha unchanged.
+
+    Alpha is unchanged by a shift (interval) and by a scale (interval, ratio): centred and scaled by a
+    power of two, ratings of 1e200 or 1e-170 neither overflow nor underflow the squares.
+    """
+    if level == "ratio" and (x[ok] < 0).any():
+        raise DomainError(f"ratings must be at least 0 at the ratio level, got {v.show(x[ok][x[ok] < 0][0])}",
+                          argument="ratings")
+    if level == "interval":
+        x[ok] = centred(x[ok], axis=None)
+    elif level == "ratio":
+        x[ok] *= power_of_two(np.max(x[ok]))
+
+
 @spreadsheet("KRIPPENDORFF_ALPHA", returns="coefficient",
              reference="Krippendorff, K. (2011). Computing Krippendorff's alpha-reliability. Annenberg School "
                        "for Communication, University of Pennsylvania; Krippendorff, K. (2004). Content "
@@ -185,16 +200,7 @@ def krippendorff_alpha(ratings: Range, *, level: Literal["nominal", "ordinal", "
     units = np.nonzero(ok)[0]
     if numeric:
         x = x[pairable]
-        if level == "ratio" and (x[ok] < 0).any():
-            raise DomainError(
-                f"ratings must be at least 0 at the ratio level, got {v.show(x[ok][x[ok] < 0][0])}",
-                argument="ratings")
-        # Alpha is unchanged by a shift (interval) and by a scale (interval, ratio): centred and scaled
-        # by a power of two, ratings of 1e200 or 1e-170 neither overflow nor underflow the squares
-        if level == "interval":
-            x[ok] = centred(x[ok], axis=None)
-        elif level == "ratio":
-            x[ok] *= power_of_two(np.max(x[ok]))
+        _rescale(x, ok, level)
         domain, codes = np.unique(x[ok], return_inverse=True)
         codes = codes.ravel()
     else:
