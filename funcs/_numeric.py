@@ -32,7 +32,9 @@ def power_of_two(magnitude) -> np.ndarray | float:
     """
     m = np.asarray(magnitude, dtype=float)
     usable = np.isfinite(m) & (m > 0)
-    exponent = np.frexp(np.where(usable, m, 1.0))[1]
+    # within ±1000: the factor itself must be a finite normal number (a subnormal magnitude such as
+    # 1e-310 is then scaled to about 2**-29, still far from underflow when squared)
+    exponent = np.clip(np.frexp(np.where(usable, m, 1.0))[1], -1000, 1000)
     s = np.ldexp(1.0, -exponent)
     s = np.where(usable, s, 1.0)
     return float(s) if s.ndim == 0 else s

@@ -123,3 +123,10 @@ def test_weighted_kappa_of_huge_and_tiny_values_against_scikit_learn(scale, weig
     want = cohen_kappa_score(ANXIETY_1, ANXIETY_2, weights=weights, labels=[1, 2, 3, 4, 5, 6])
     ours = call("COHEN_KAPPA", [x * scale for x in ANXIETY_1], [x * scale for x in ANXIETY_2], weights)
     assert ours == pytest.approx(want, rel=1e-12)
+
+
+def test_subnormal_scores_are_scaled_without_an_infinite_factor():
+    # Shrout & Fleiss ratings times 2**-1040 (subnormal, still exact: they need few bits): alpha as pingouin's
+    tiny = SHROUT_FLEISS * 2.0 ** -1040
+    assert call("CRONBACH_ALPHA", tiny.tolist()) == pytest.approx(
+        pg.cronbach_alpha(pd.DataFrame(SHROUT_FLEISS))[0], rel=1e-12)
