@@ -371,7 +371,8 @@ def python_function(spec: SpreadsheetFunction) -> Callable:
     options: ``part``, ``confidence``, ``level``, ...) must be given by keyword; and where the
     function is elementwise, a list, numpy array or pandas Series for its number arguments gives an
     array of results (a Series, with the same index, for a Series), computed as
-    :func:`call_column` computes a column. A plain call still returns a Python number.
+    :func:`call_column` computes a column. A plain call still returns a Python number. An element
+    the function refuses (NaN included: no silent NaN) raises that element's error, naming its position.
     """
     body = spec.body
     params = inspect.signature(body).parameters.values()
@@ -424,7 +425,7 @@ def _broadcast_call(spec: SpreadsheetFunction, named: dict, varying: dict):
     rows = _column_rows(spec, each, same)
     for i, row in enumerate(rows):
         if isinstance(row, TruebandError):
-            where = np.unravel_index(i, shape) if len(shape) > 1 else i
+            where = tuple(int(j) for j in np.unravel_index(i, shape)) if len(shape) > 1 else i
             raise type(row)(f"{row.message} (element {where})", argument=row.argument)
     kind = RESULT_KINDS[spec.returns][0]
     values = np.array(rows, dtype=bool if kind is bool else float if kind is float else None).reshape(shape)
