@@ -89,7 +89,7 @@ def main() -> None:
     t_ours, ours = best_time(lambda: trueband_icc_all(x), args.repeat)
     t_ref, ref = best_time(lambda: pingouin_icc_all(x), args.repeat)
     t_one, _ = best_time(lambda: call("ICC", x, "agreement", "single", "lower"), args.repeat)
-    t_six, _ = best_time(lambda: [ag.intraclass_correlation(x, m, u) for m, u, _ in FORMS], args.repeat)
+    t_six, _ = best_time(lambda: [ag.intraclass_correlation(x, model=m, unit=u) for m, u, _ in FORMS], args.repeat)
     print(f"ICC, {people:,} people x {args.raters} raters, all six forms with F, p and 95% limits")
     print(f"  trueband {t_ours * 1e3:9.2f} ms   pingouin {t_ref * 1e3:9.2f} ms   "
           f"pingouin/trueband {t_ref / t_ours:7.1f}x   max |difference| {max_difference(ours, ref):.2e}")

@@ -218,8 +218,28 @@ def nonzero_variance(name: str, variance, what: str = "variance"):
 
 # ---------------------------------------------------------------- ranges
 
-def _as_rows(name: str, value) -> np.ndarray:
-    """Any range-like input as a 2-D array (object dtype unless already numeric)."""
+#: What a range argument takes, as messages say it.
+RANGE_FORMS = "a list of rows, a numpy array or a pandas DataFrame"
+
+
+def _table_values(value):
+    """A pandas DataFrame or Series as its numpy values (duck-typed: pandas is not a dependency)."""
+    if hasattr(value, "to_numpy") and hasattr(value, "shape") and not isinstance(value, np.ndarray):
+        return value.to_numpy()
+    return value
+
+
+def _as_rows(name: str, value, what: str = "a range") -> np.ndarray:
+    """Any range-like input as a 2-D array (object dtype unless already numeric).
+
+    Lists of rows, numpy arrays and pandas DataFrames and Series (NaN and pandas' NA read as
+    blanks); a single number or text is a range of one cell. Anything else (a dict, a set, ...) is
+    refused, saying what was given and what is wanted.
+    """
+    value = _table_values(value)
+    if not isinstance(value, (np.ndarray, list, tuple, str, numbers.Number, np.generic)) and value is not None:
+        raise ArgumentTypeError(f"{name} must be {what} ({RANGE_FORMS}), got a {type(value).__name__}",
+                                argument=name)
     if isinstance(value, np.ndarray):
         arr = np.asarray(value)  # a plain ndarray: subclasses (an engine's array type) do not leak into the math
     elif isinstance(value, (list, tuple)):
@@ -250,9 +270,12 @@ def _as_rows(name: str, value) -> np.ndarray:
     return arr
 
 
+_PANDAS_BLANKS = frozenset({"NAType", "NaTType"})  # pandas' missing-value markers, known by their type names
+
+
 def _is_blank(cell) -> bool:
     return cell is None or (isinstance(cell, str) and cell.strip() == "") or (
-        isinstance(cell, float) and math.isnan(cell))
+        isinstance(cell, float) and math.isnan(cell)) or type(cell).__name__ in _PANDAS_BLANKS
 
 
 def numeric_matrix(name: str, value) -> np.ndarray:
@@ -270,7 +293,7 @@ def numeric_matrix(name: str, value) -> np.ndarray:
                 value = np.array(value, dtype=float)  # None -> nan
             except OverflowError:  # a whole number beyond float range: the cell-by-cell check names it
                 pass
-    arr = _as_rows(name, value)
+    arr = _as_rows(name, _table_values(value), "a range of numbers")
     if arr.dtype.kind in "fiu":
         out = arr.astype(float)
         inf = np.isinf(out)
@@ -314,7 +337,7 @@ def label_matrix(name: str, value) -> np.ndarray:
     Numbers are stored as floats (so 1 and 1.0 are one category); text is
     stripped of surrounding spaces; logical values are refused.
     """
-    arr = _as_rows(name, value)
+    arr = _as_rows(name, value, "a range of category labels")
     out = np.empty(arr.shape, dtype=object)
     for k, cell in enumerate(arr.ravel()):
         r, c = divmod(k, arr.shape[1])

@@ -454,7 +454,7 @@ def _shortfall(fs: int, fa: int, rs: int, ra: int, target: Fraction) -> int:
                                             "Validation (2nd ed.), Gower (practical-significance checks: how "
                                             "many more selections change the result).")
 def impact_shortfall(focal_selected: int, focal_applicants: int, ref_selected: int, ref_applicants: int,
-                     target: float = 0.8) -> int:
+                     *, target: float = 0.8) -> int:
     """Smallest number of additional focal selections that lifts the impact ratio to a target.
 
     shortfall = max(0, ⌈target · ref_rate · focal_applicants⌉ − focal_selected),
@@ -497,7 +497,7 @@ def impact_shortfall(focal_selected: int, focal_applicants: int, ref_selected: i
 
     >>> impact_shortfall(12, 40, 48, 80)
     8
-    >>> impact_shortfall(12, 40, 48, 80, 0.5)
+    >>> impact_shortfall(12, 40, 48, 80, target=0.5)
     0
     """
     fs, fa, rs, ra = _four_counts(focal_selected, focal_applicants, ref_selected, ref_applicants)

@@ -45,6 +45,7 @@ from .errors import DomainError, ZeroVarianceError
 from .impact import (CAUTION, _as_float, _exact, _fisher_two_sided, _four_counts, _reference_rate_not_zero,
                      group_key, impact_fisher, tally_groups)
 from .registry import spreadsheet
+from .results import ConfidenceInterval
 from .scores import two_sided_z
 
 __all__ = [
@@ -52,7 +53,6 @@ __all__ = [
     "impact_ratio_result",
     "impact_ratio_limits",
     "ImpactRatio",
-    "ConfidenceInterval",
     "impact_odds_ratio",
     "impact_flip",
     "impact_small_numbers",
@@ -71,14 +71,6 @@ _MORRIS_LOBSENZ = ("Morris, S. B. & Lobsenz, R. E. (2000). Significance tests an
                    "adverse impact ratio. Personnel Psychology 53, 89-111; Katz, D., Baptista, J., Azen, S. P. & "
                    "Pike, M. C. (1978). Obtaining confidence intervals for the risk ratio in cohort studies. "
                    "Biometrics 34, 469-474.")
-
-
-@dataclasses.dataclass(frozen=True)
-class ConfidenceInterval:
-    """A two-sided confidence interval: ``low`` and ``high`` (``high`` may be ``inf``: no finite limit)."""
-
-    low: float
-    high: float
 
 
 # ---------------------------------------------------------------- the impact ratio's interval
@@ -132,19 +124,21 @@ def _refuse_zero_width(fs, fa, rs, ra):
 
 @dataclasses.dataclass(frozen=True)
 class ImpactRatio:
-    """An impact ratio with what its log-method interval needs.
+    """An impact ratio with its exact test and what its log-method interval needs.
 
-    ``ratio`` is the focal rate over the reference rate; ``log_standard_error``
-    the standard error of its natural log (``inf`` when ``focal_selected`` is 0,
-    where the log is −∞).
+    ``statistic`` is the focal rate over the reference rate; ``pvalue`` Fisher's
+    exact two-sided test of equal selection rates (as ``IMPACT_FISHER``);
+    ``log_standard_error`` the standard error of the ratio's natural log
+    (``inf`` when ``focal_selected`` is 0, where the log is −∞).
     """
 
+    statistic: float
+    pvalue: float
+    log_standard_error: float
     focal_selected: int
     focal_applicants: int
     ref_selected: int
     ref_applicants: int
-    ratio: float
-    log_standard_error: float
 
     def confidence_interval(self, confidence_level: float = 0.95) -> ConfidenceInterval:
         """Two-sided log-method interval: ratio · exp(∓ z · log_standard_error); (0, inf) when the ratio is 0."""
@@ -155,12 +149,19 @@ class ImpactRatio:
 
 def impact_ratio_result(focal_selected: int, focal_applicants: int, ref_selected: int,
                         ref_applicants: int) -> ImpactRatio:
-    """The impact ratio with its log standard error, for :meth:`ImpactRatio.confidence_interval`.
+    """The impact ratio with Fisher's exact test and its log-method confidence interval.
+
+    IR = (focal_selected/focal_applicants)/(ref_selected/ref_applicants), as
+    ``IMPACT_RATIO``; the p value is ``IMPACT_FISHER``'s; the interval
+    (:meth:`ImpactRatio.confidence_interval`) is ``IMPACT_RATIO_CI``'s log
+    method (Morris & Lobsenz, 2000; Katz et al., 1978), with (0, inf) when no
+    focal applicant was selected. Statistical indicators to support
+    professional judgment, not legal findings.
 
     Examples
     --------
     >>> r = impact_ratio_result(12, 40, 48, 80)
-    >>> r.ratio, round(r.log_standard_error, 6)
+    >>> r.statistic, round(r.log_standard_error, 6)
     (0.5, 0.258199)
     >>> ci = r.confidence_interval(0.95)
     >>> round(ci.low, 6), round(ci.high, 6)
@@ -170,7 +171,8 @@ def impact_ratio_result(focal_selected: int, focal_applicants: int, ref_selected
     _reference_rate_not_zero(rs)
     _refuse_zero_width(fs, fa, rs, ra)
     se = math.inf if fs == 0 else float(_log_ratio_se(fs, fa, rs, ra))
-    return ImpactRatio(int(fs), int(fa), int(rs), int(ra), _ratio(fs, fa, rs, ra), se)
+    pvalue = impact_fisher(int(fs), int(fa), int(rs), int(ra))
+    return ImpactRatio(_ratio(fs, fa, rs, ra), pvalue, se, int(fs), int(fa), int(rs), int(ra))
 
 
 @spreadsheet("IMPACT_RATIO_CI", returns="nonnegative number", elementwise=_COUNTS + ["confidence"],

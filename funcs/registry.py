@@ -40,6 +40,7 @@ from typing import Any, Callable, Literal, Mapping, Sequence
 import numpy as np
 
 from . import _validate as v
+from ._columns import evaluate_rows, number_columns
 from .errors import ArgumentCountError, ArgumentTypeError, DomainError, TruebandError, UnknownFunctionError
 
 __all__ = [
@@ -287,7 +288,7 @@ _KIND_OF = {float: "number", int: "integer", bool: "boolean", str: "text", v.Ran
 
 
 def _argument_docs(doc: str) -> dict[str, str]:
-    """First sentence of each entry in a numpydoc ``Parameters`` section."""
+    """Each entry of a numpydoc ``Parameters`` section: its first paragraph, without the final full stop."""
     m = re.search(r"^\s*Parameters\s*\n\s*-{3,}\s*\n(.*?)(?:\n\s*\n\s*[A-Z][A-Za-z ]+\n\s*-{3,}|\Z)", doc, re.S | re.M)
     if not m:
         return {}
@@ -305,12 +306,8 @@ def _argument_docs(doc: str) -> dict[str, str]:
             out[current] = []
         elif current:
             out[current].append(line.strip())
-    result = {}
-    for name, words in out.items():
-        text = " ".join(words)
-        first = re.split(r"(?<=[.;])\s", text, maxsplit=1)[0]
-        result[name] = first.rstrip(".;")
-    return result
+    # The whole first paragraph: a split at the first "." or ";" cut "(e.g. 0.3)" and "(one row or column; ...)"
+    return {name: " ".join(words).rstrip(".;") for name, words in out.items()}
 
 
 def _kind(annotation) -> tuple[str, tuple[str, ...] | None]:
@@ -363,18 +360,90 @@ def spreadsheet(name: str, *, returns: str, reference: str, elementwise: bool | 
         spec = SpreadsheetFunction(
             name=name, body=body, arguments=tuple(arguments), returns=returns,
             description=description, reference=reference, elementwise=frozenset(vector),
-            topic=body.__module__.rsplit(".", 1)[-1], python_name=body.__name__, aliases=tuple(aliases))
+            topic=_topic(body), python_name=body.__name__, aliases=tuple(aliases))
         REGISTRY[name] = spec
         ALIASES.update({alias: name for alias in aliases})
-
-        @functools.wraps(body)
-        def wrapper(*args, **kwargs):
-            return spec(*args, **kwargs)
-
+        wrapper = python_function(spec)
         wrapper.spreadsheet = spec
         return wrapper
 
     return decorate
+
+
+def _topic(body: Callable) -> str:
+    """The catalog topic: the module's ``TOPIC`` where a method family has a module of its own
+    (``intraclass`` is filed under ``agreement``), else the module's name."""
+    module = body.__module__
+    return getattr(sys.modules.get(module), "TOPIC", None) or module.rsplit(".", 1)[-1]
+
+
+def python_function(spec: SpreadsheetFunction) -> Callable:
+    """The Python face of a registered function: options keyword-only, arrays broadcast.
+
+    The same checks and errors as the spreadsheet path (:meth:`SpreadsheetFunction.__call__`), with
+    two differences a Python caller expects: arguments after the ``*`` of the signature (the
+    options: ``part``, ``confidence``, ``level``, ...) must be given by keyword; and where the
+    function is elementwise, a list, numpy array or pandas Series for its number arguments gives an
+    array of results (a Series, with the same index, for a Series), computed as
+    :func:`call_column` computes a column. A plain call still returns a Python number. An element
+    the function refuses (NaN included: no silent NaN) raises that element's error, naming its position.
+    """
+    body = spec.body
+    params = inspect.signature(body).parameters.values()
+    positional = tuple(p.name for p in params if p.kind is inspect.Parameter.POSITIONAL_OR_KEYWORD)
+    options = tuple(p.name for p in params if p.kind is inspect.Parameter.KEYWORD_ONLY)
+
+    @functools.wraps(body)
+    def wrapper(*args, **kwargs):
+        if len(args) > len(positional):
+            extra = options[: len(args) - len(positional)]
+            given = ", ".join(f"{o}={v.show(a)}" for o, a in zip(extra, args[len(positional):]))
+            hint = f"; give the options by keyword, e.g. {given}" if given else ""
+            raise ArgumentCountError(
+                f"{body.__name__} takes {len(positional)} positional arguments ({', '.join(positional)}), "
+                f"got {len(args)}{hint}", argument=extra[0] if extra else None)
+        if spec.elementwise:
+            named = {**dict(zip(positional, args)), **kwargs}
+            varying = {k: x for k, x in named.items() if k in spec.elementwise and _is_sequence(x)}
+            if varying:
+                return _broadcast_call(spec, named, varying)
+        return spec(*args, **kwargs)
+
+    return wrapper
+
+
+def _is_sequence(value) -> bool:
+    """A list, tuple, numpy array (not 0-d) or pandas Series given for one number argument."""
+    if isinstance(value, (list, tuple)):
+        return True
+    return getattr(value, "ndim", 0) >= 1 and (isinstance(value, np.ndarray) or _is_series(value))
+
+
+def _broadcast_call(spec: SpreadsheetFunction, named: dict, varying: dict):
+    """An elementwise function over broadcast arrays; the first failing element's error is raised."""
+    series = _first_series(varying)
+    arrays = {}
+    for key, x in varying.items():
+        arr = np.asarray(x.to_numpy() if _is_series(x) else x)
+        if arr.dtype == object or arr.dtype.kind not in "fiub":
+            arr = np.asarray(x, dtype=object)
+        arrays[key] = arr
+    try:
+        shaped = np.broadcast_arrays(*arrays.values())
+    except ValueError:
+        shapes = ", ".join(f"{k} {a.shape}" for k, a in arrays.items())
+        raise ArgumentTypeError(f"the arrays given do not broadcast to one shape: {shapes}") from None
+    shape = shaped[0].shape
+    each = {k: a.ravel() for k, a in zip(arrays, shaped)}
+    same = {k: x for k, x in named.items() if k not in each}
+    rows = _column_rows(spec, each, same)
+    for i, row in enumerate(rows):
+        if isinstance(row, TruebandError):
+            where = tuple(int(j) for j in np.unravel_index(i, shape)) if len(shape) > 1 else i
+            raise type(row)(f"{row.message} (element {where})", argument=row.argument)
+    kind = RESULT_KINDS[spec.returns][0]
+    values = np.array(rows, dtype=bool if kind is bool else float if kind is float else None).reshape(shape)
+    return values if series is None else type(series)(values, index=series.index)
 
 
 _EVALUATED: dict[tuple[str, str], object] = {}
@@ -433,26 +502,57 @@ def _column_length(each: Mapping[str, Sequence]) -> int:
     return next(iter(lengths.values()), 0)
 
 
-def call_column(name: str, each: Mapping[str, Sequence], same: Mapping[str, Any] | None = None) -> list:
+def _is_series(value) -> bool:
+    """A pandas Series, recognised by its attributes (pandas is not a dependency of trueband)."""
+    return hasattr(value, "index") and hasattr(value, "to_numpy") and getattr(value, "ndim", 0) == 1
+
+
+def _first_series(each: Mapping[str, Any]):
+    """The first pandas Series among the columns (None if none); every other Series must share its index."""
+    first = None
+    for key, col in each.items():
+        if _is_series(col):
+            if first is None:
+                first = col
+            elif not first.index.equals(col.index):
+                raise ArgumentTypeError(f"the Series for {key} has another index than the first Series",
+                                        argument=key)
+    return first
+
+
+def call_column(name: str, each: Mapping[str, Sequence], same: Mapping[str, Any] | None = None):
     """The same function down a column: ``each`` maps argument names to equal-length
     sequences, ``same`` holds the arguments shared by every row.
 
     Returns one entry per row: the value, or the :class:`TruebandError` for that
-    row. Elementwise functions run as whole-array numpy calls; a failing
-    block is split in halves until the failing rows are isolated, so one bad
-    row costs a few extra array calls, not a Python call per row.
+    row; a list, or a pandas Series with the same index when the columns are
+    Series. Elementwise functions run as whole-array numpy calls
+    (:func:`trueband.funcs._columns.evaluate_rows`); a failing block is split in
+    halves until the failing rows are isolated, so one bad row costs a few extra
+    array calls, not a Python call per row.
+
+    >>> call_column("SEM", {"sd": [10, 20, "x"]}, {"reliability": 0.75})[:2]
+    [5.0, 10.0]
     """
     fn = lookup(name)
     same = dict(same or {})
     if not each:
         raise ArgumentTypeError("each must name at least one argument that varies by row")
+    series = _first_series(each)
+    if series is None:
+        return _column_rows(fn, each, same)
+    # positions, not labels: the values are read in order and the index is put back on the result
+    rows = _column_rows(fn, {k: (c.to_numpy() if _is_series(c) else c) for k, c in each.items()}, same)
+    return type(series)(rows, index=series.index)
+
+
+def _column_rows(fn: SpreadsheetFunction, each: Mapping[str, Sequence], same: dict) -> list:
     n = _column_length(each)
     for key in each:
         if key in same:
             raise ArgumentCountError(f"{key} is given both per row and for all rows", argument=key)
-    rows: list[Any] = [None] * n
     if n == 0:
-        return rows
+        return []
 
     def one(i: int):
         try:
@@ -470,46 +570,9 @@ def call_column(name: str, each: Mapping[str, Sequence], same: Mapping[str, Any]
         fixed = {a.name: a.coerce(probe[a.name]) for a in fn.arguments if a.name not in each}
     except TruebandError:
         return [one(i) for i in range(n)]
-
-    # Cells that are not numbers (or not whole numbers, for integer arguments) fail on their own
-    # through a single call; the rest go through numpy.
-    arrays = {}
-    ok = np.ones(n, dtype=bool)
-    kinds = {a.name: a.kind for a in fn.arguments}
-    for key, col in each.items():
-        arr = np.empty(n, dtype=float)
-        whole = kinds[key] == "integer"
-        for i, cell in enumerate(col):
-            x = v.to_float(cell) if isinstance(cell, (int, float)) and not isinstance(cell, bool) else math.nan
-            if math.isfinite(x) and not (whole and not x.is_integer()):
-                arr[i] = x
-            else:
-                arr[i] = 0.0
-                ok[i] = False
-        arrays[key] = arr
-    for i in np.flatnonzero(~ok):
-        rows[i] = one(int(i))
-
-    def block(idx: np.ndarray):
-        try:
-            with np.errstate(all="ignore"):
-                out = np.broadcast_to(fn.body(**fixed, **{k: a[idx] for k, a in arrays.items()}), idx.shape)
-            converted = fn.check_results(out)
-        except TruebandError:
-            if len(idx) == 1:
-                rows[idx[0]] = one(int(idx[0]))
-                return
-            half = len(idx) // 2
-            block(idx[:half])
-            block(idx[half:])
-            return
-        for i, x in zip(idx.tolist(), converted):
-            rows[i] = x
-
-    good = np.flatnonzero(ok)
-    if len(good):
-        block(good)
-    return rows
+    whole = {a.name for a in fn.arguments if a.kind == "integer"}
+    arrays, ok = number_columns(each, whole, n)
+    return evaluate_rows(fn.body, fn.check_results, fixed, arrays, ok, one).tolist()
 
 
 def catalog() -> list[dict]:

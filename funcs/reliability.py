@@ -27,14 +27,19 @@ Conventions
   infinities in an item range are refused, naming the cell.
 * Variances are computed in two passes (centre, then sum squares), never with
   the one-pass "sum of squares minus square of sum" formula, which loses all
-  digits when scores are large and their spread small. Where a variance
-  denominator matters it is stated; in ratios of variances (alpha, KR-20) it
-  cancels.
+  digits when scores are large and their spread small. Each item is first
+  shifted by its first score (a correctly rounded subtraction, so a common
+  offset such as 3e13 costs no digits and an item of equal scores has
+  deviations of exactly 0), and the deviations are scaled by a power of two
+  when they are very large or very small (scores of 1e200 or 1e-170), which
+  leaves every coefficient here unchanged (:func:`trueband.funcs._numeric.centred`).
+  Where a variance denominator matters it is stated; in ratios of variances
+  (alpha, KR-20) it cancels.
 * A total score (or half score, or item) with zero variance gives ``#DIV/0!``.
   "Zero" allows for rounding: a spread (root mean square deviation) smaller
   than 64 machine epsilons times the number of items summed times the
-  largest absolute score is rounding noise, not spread (a column of 0.1s has
-  a computed mean that is not exactly 0.1, so its deviations are not exactly 0).
+  largest absolute deviation is rounding noise, not spread (the total of two
+  items that always add up to the same score, say).
 * Too few complete rows or items gives ``#N/A``.
 """
 
@@ -47,6 +52,7 @@ import numpy as np
 
 from . import _validate as v
 from ._lazy import lazy_module
+from ._numeric import centred
 from ._validate import Range
 from .errors import DomainError, InsufficientDataError, ZeroVarianceError
 from .registry import spreadsheet
@@ -95,19 +101,16 @@ def _items(name: str, items, *, min_people: int = 2, min_items: int = 2) -> np.n
     return v.complete_rows(name, matrix, min_rows=min_people, min_columns=min_items)
 
 
-def _magnitude(x: np.ndarray, axis=None):
-    """The largest absolute score (per item with ``axis=0``), for the rounding-noise allowance."""
-    return np.maximum(x.max(axis=axis), -x.min(axis=axis))
+def _magnitude(c: np.ndarray, axis=None):
+    """The largest absolute deviation (per item with ``axis=0``), for the rounding-noise allowance."""
+    return np.maximum(c.max(axis=axis), -c.min(axis=axis))
 
 
 def _centred(x: np.ndarray, source) -> np.ndarray:
-    """Deviations from the item means: the first pass of the two-pass variances."""
-    means = x.mean(axis=0)
-    if isinstance(source, np.ndarray) and np.may_share_memory(x, source):
-        x = x.copy()  # never change the caller's array
-    # otherwise x is the fresh array numeric_matrix built: centre it in place, saving a copy
-    x -= means
-    return x
+    """Deviations from the item means, offset-free and scaled (the first pass of the two-pass variances)."""
+    # x is the fresh array numeric_matrix built unless it shares the caller's memory: centre it in place then
+    fresh = not (isinstance(source, np.ndarray) and np.may_share_memory(x, source))
+    return centred(x, in_place=fresh)
 
 
 def _alpha(item_ss_sum: float, total_ss: float, n: int, k: int, magnitude: float, name: str,
@@ -118,13 +121,14 @@ def _alpha(item_ss_sum: float, total_ss: float, n: int, k: int, magnitude: float
     return k / (k - 1) * (1.0 - item_ss_sum / total_ss)
 
 
-def _correlation(a: np.ndarray, b: np.ndarray, terms: tuple[int, int], magnitude: float,
+def _correlation(a: np.ndarray, b: np.ndarray, terms: tuple[int, int], magnitudes: tuple[float, float],
                  name: str, what_a: str, what_b: str) -> float:
-    """Pearson correlation of two score vectors (sums of ``terms`` items), refusing a constant one."""
+    """Pearson correlation of two score vectors (sums of ``terms`` centred items whose largest
+    absolute deviations are ``magnitudes``), refusing a constant one."""
     a = a - a.mean()
     b = b - b.mean()
     ss_a, ss_b = a @ a, b @ b
-    for ss, what, m in ((ss_a, what_a, terms[0]), (ss_b, what_b, terms[1])):
+    for ss, what, m, magnitude in ((ss_a, what_a, terms[0], magnitudes[0]), (ss_b, what_b, terms[1], magnitudes[1])):
         if _is_noise(ss, a.size, m, magnitude):
             raise ZeroVarianceError(f"{name}: {what} has zero variance; the correlation is undefined",
                                     argument=name)
@@ -174,10 +178,9 @@ def cronbach_alpha(items: Range) -> float:
     """
     x = _items("items", items)
     n, k = x.shape
-    magnitude = _magnitude(x)
     c = _centred(x, items)
     total = c.sum(axis=1)
-    return _alpha(np.einsum("ij,ij->", c, c), total @ total, n, k, magnitude, "items")
+    return _alpha(np.einsum("ij,ij->", c, c), total @ total, n, k, _magnitude(c), "items")
 
 
 @spreadsheet("ALPHA_CI", returns="coefficient", elementwise=["alpha", "n_people", "n_items", "confidence"],
@@ -185,7 +188,7 @@ def cronbach_alpha(items: Range) -> float:
                        "reliability coefficient twenty. Psychometrika 30, 357-370; Feldt, L. S., Woodruff, D. J. & "
                        "Salih, F. A. (1987). Statistical inference for coefficient alpha. Applied Psychological "
                        "Measurement 11, 93-103.")
-def alpha_confidence_limit(alpha: float, n_people: int, n_items: int, part: Literal["lower", "upper"],
+def alpha_confidence_limit(alpha: float, n_people: int, n_items: int, *, part: Literal["lower", "upper"],
                            confidence: float = 0.95) -> float:
     """Lower or upper confidence limit for coefficient alpha, by Feldt's F distribution.
 
@@ -218,7 +221,7 @@ def alpha_confidence_limit(alpha: float, n_people: int, n_items: int, part: Lite
 
     Examples
     --------
-    >>> round(alpha_confidence_limit(0.8, 100, 10, "lower"), 6), round(alpha_confidence_limit(0.8, 100, 10, "upper"), 6)
+    >>> round(alpha_confidence_limit(0.8, 100, 10, part="lower"), 6), round(alpha_confidence_limit(0.8, 100, 10, part="upper"), 6)
     (0.736048, 0.853692)
     """
     _at_most("alpha", alpha, 1.0)
@@ -344,7 +347,7 @@ def kuder_richardson_21(n_items: int, mean: float, variance: float) -> float:
              reference="Spearman, C. (1910). Correlation calculated from faulty data. British Journal of "
                        "Psychology 3, 271-295; Brown, W. (1910). Some experimental results in the correlation of "
                        "mental abilities. British Journal of Psychology 3, 296-322.")
-def split_half(items: Range, method: Literal["odd-even", "first-last"] = "odd-even") -> float:
+def split_half(items: Range, *, method: Literal["odd-even", "first-last"] = "odd-even") -> float:
     """Split-half reliability: the correlation of two half-test scores, stepped up by Spearman–Brown.
 
     r_SB = 2r / (1 + r), with r the Pearson correlation between the sums of
@@ -375,15 +378,16 @@ def split_half(items: Range, method: Literal["odd-even", "first-last"] = "odd-ev
     >>> round(split_half([[1, 2, 2, 1], [2, 3, 3, 3], [3, 3, 4, 2], [4, 5, 4, 5]]), 6)
     0.899302
     """
-    x = _items("items", items, min_people=3)
-    k = x.shape[1]
+    c = _centred(_items("items", items, min_people=3), items)
+    k = c.shape[1]
     if method == "odd-even":
-        first, second = x[:, 0::2].sum(axis=1), x[:, 1::2].sum(axis=1)
+        first, second = c[:, 0::2].sum(axis=1), c[:, 1::2].sum(axis=1)
     else:
         cut = (k + 1) // 2
-        first, second = x[:, :cut].sum(axis=1), x[:, cut:].sum(axis=1)
+        first, second = c[:, :cut].sum(axis=1), c[:, cut:].sum(axis=1)
     halves = (k + 1) // 2, k // 2
-    r = _correlation(first, second, halves, _magnitude(x), "items",
+    magnitude = _magnitude(c)
+    r = _correlation(first, second, halves, (magnitude, magnitude), "items",
                      "the first half-test score", "the second half-test score")
     if r <= -1.0:
         raise DomainError("items: the half-test scores correlate -1; the stepped-up coefficient is undefined",
@@ -562,10 +566,9 @@ def omega_total(items: Range) -> float:
         raise InsufficientDataError(
             f"items needs at least 3 columns for a one-factor model, got {x.shape[1]}", argument="items")
     x = v.complete_rows("items", x, min_rows=x.shape[1] + 1, min_columns=3)
-    magnitude = _magnitude(x, axis=0)
-    c = _centred(x, items)
+    c = _centred(x, items)  # one scale for every item: omega depends on the items' relative scales
     ss = np.einsum("ij,ij->j", c, c)
-    flat = _is_noise(ss, x.shape[0], 1, magnitude)
+    flat = _is_noise(ss, x.shape[0], 1, _magnitude(c, axis=0))
     if flat.any():
         cols = [str(j + 1) for j in np.flatnonzero(flat)]
         which = f"item {cols[0]} has" if len(cols) == 1 else f"items {', '.join(cols)} have"
@@ -671,7 +674,8 @@ def item_standard_deviation(items: Range, item: int) -> float:
     1.707825
     """
     x, j = _item_and_rows(items, item, min_people=2, min_items=1)
-    return float(np.std(x[:, j], ddof=1))
+    c, scale = centred(x[:, j], axis=None, with_scale=True)  # scaled: scores of 1e200 do not overflow the squares
+    return float(np.sqrt(c @ c / (x.shape[0] - 1)) / scale)
 
 
 @spreadsheet("ITEM_TOTAL", returns="correlation",
@@ -704,8 +708,9 @@ def item_total_correlation(items: Range, item: int) -> float:
     0.992278
     """
     x, j = _item_and_rows(items, item, min_people=3, min_items=2)
-    rest = _rest_total(x, j)
-    return _correlation(x[:, j], rest, (1, x.shape[1] - 1), _magnitude(x), "items",
+    c = _centred(x, items)
+    rest = _rest_total(c, j)
+    return _correlation(c[:, j], rest, (1, x.shape[1] - 1), (_magnitude(c[:, j]), _magnitude(c)), "items",
                         f"item {j + 1}", f"the total of the items other than {j + 1}")
 
 
@@ -735,9 +740,8 @@ def alpha_if_deleted(items: Range, item: int) -> float:
     """
     x, j = _item_and_rows(items, item, min_people=2, min_items=3)
     n, k = x.shape
-    magnitude = _magnitude(x)
     c = _centred(x, items)
     item_ss = np.einsum("ij,ij->j", c, c)
     rest = _rest_total(c, j)
-    return _alpha(np.delete(item_ss, j).sum(), rest @ rest, n, k - 1, magnitude, "items",
+    return _alpha(np.delete(item_ss, j).sum(), rest @ rest, n, k - 1, _magnitude(c), "items",
                   f"total of the items other than {j + 1}")

@@ -135,7 +135,7 @@ def standard_error_of_difference(sd: float, reliability: float) -> float:
 @spreadsheet("SCORE_CI", returns="number", elementwise=True,
              reference="Harvill, L. M. (1991). Standard error of measurement. Educational Measurement: "
                        "Issues and Practice 10(2), 33-41.")
-def score_confidence_limit(score: float, sd: float, reliability: float, part: Literal["lower", "upper"],
+def score_confidence_limit(score: float, sd: float, reliability: float, *, part: Literal["lower", "upper"],
                            confidence: float = 0.95) -> float:
     """Lower or upper confidence limit around an observed score.
 
@@ -156,7 +156,7 @@ def score_confidence_limit(score: float, sd: float, reliability: float, part: Li
 
     Examples
     --------
-    >>> round(score_confidence_limit(100, 15, 0.91, "upper"), 6)
+    >>> round(score_confidence_limit(100, 15, 0.91, part="upper"), 6)
     108.819838
     """
     half = two_sided_z(confidence) * standard_error_of_measurement.spreadsheet.body(sd, reliability)
@@ -193,7 +193,7 @@ def estimated_true_score(score: float, mean: float, reliability: float) -> float
              reference="Lord & Novick (1968), sec. 3.8 (standard error of estimation); "
                        "Dudek, F. J. (1979). Psychological Bulletin 86, 335-337.")
 def true_score_confidence_limit(score: float, mean: float, sd: float, reliability: float,
-                                part: Literal["lower", "upper"], confidence: float = 0.95) -> float:
+                                *, part: Literal["lower", "upper"], confidence: float = 0.95) -> float:
     """Confidence limit for the true score, centred on Kelley's estimate.
 
     limit = T̂ ∓ z · sd · √(reliability · (1 − reliability))
@@ -215,7 +215,7 @@ def true_score_confidence_limit(score: float, mean: float, sd: float, reliabilit
 
     Examples
     --------
-    >>> round(true_score_confidence_limit(130, 100, 15, 0.9, "lower"), 6)
+    >>> round(true_score_confidence_limit(130, 100, 15, 0.9, part="lower"), 6)
     118.180162
     """
     _sd_reliability(sd, reliability)
@@ -227,7 +227,7 @@ def true_score_confidence_limit(score: float, mean: float, sd: float, reliabilit
 @spreadsheet("BAND_WIDTH", returns="nonnegative number", elementwise=True,
              reference="Cascio, Outtz, Zedeck & Goldstein (1991). Statistical implications of six methods of "
                        "test score use in personnel selection. Human Performance 4, 233-264.")
-def band_width(sd: float, reliability: float, confidence: float = 0.95) -> float:
+def band_width(sd: float, reliability: float, *, confidence: float = 0.95) -> float:
     """Width of a score band: the smallest difference that is reliably a difference.
 
     width = z · SED = z · sd · √(2(1 − reliability))
@@ -293,7 +293,7 @@ def band_floor(top_score: float, sd: float, reliability: float, *, confidence: f
 @spreadsheet("SCORES_DIFFER", returns="boolean", elementwise=True,
              reference="Cascio, Outtz, Zedeck & Goldstein (1991), Human Performance 4, 233-264.")
 def scores_differ(score_a: float, score_b: float, sd: float, reliability: float,
-                  confidence: float = 0.95) -> bool:
+                  *, confidence: float = 0.95) -> bool:
     """TRUE when two scores on the same test differ by more than the band width.
 
     differ = |score_a − score_b| > z · SED
@@ -319,7 +319,7 @@ def scores_differ(score_a: float, score_b: float, sd: float, reliability: float,
     >>> scores_differ(100, 92, 10, 0.9), scores_differ(100, 91, 10, 0.9)
     (False, True)
     """
-    return np.abs(score_a - score_b) > band_width.spreadsheet.body(sd, reliability, confidence)
+    return np.abs(score_a - score_b) > band_width.spreadsheet.body(sd, reliability, confidence=confidence)
 
 
 def _scores(name, scores):
@@ -346,7 +346,7 @@ def band_lower_limits(scores: np.ndarray, width: float) -> np.ndarray:
 @spreadsheet("SCORE_BAND", returns="positive integer", elementwise=["score"],
              reference="Cascio, Outtz, Zedeck & Goldstein (1991), Human Performance 4, 233-264 (fixed bands); "
                        "Aguinis, H. (Ed.) (2004). Test-Score Banding in Human Resource Selection.")
-def score_band(score: float, scores: Range, sd: float, reliability: float, confidence: float = 0.95) -> int:
+def score_band(score: float, scores: Range, sd: float, reliability: float, *, confidence: float = 0.95) -> int:
     """Fixed score band of a score among all scores, counted from the top (1 = highest band).
 
     Band 1 holds every score within one band width (z·SED) of the highest
@@ -379,7 +379,7 @@ def score_band(score: float, scores: Range, sd: float, reliability: float, confi
     [1, 1, 2, 3]
     """
     values = _scores("scores", scores)
-    limits = band_lower_limits(values, band_width.spreadsheet.body(sd, reliability, confidence))
+    limits = band_lower_limits(values, band_width.spreadsheet.body(sd, reliability, confidence=confidence))
     # limits decrease; the band is 1 + the number of lower limits above the score
     return 1 + np.searchsorted(-limits, -np.asarray(score), side="right")
 

@@ -34,6 +34,7 @@ import numpy as np
 
 from . import _validate as v
 from ._lazy import lazy_module
+from .errors import DomainError
 from .registry import spreadsheet
 
 special = lazy_module("scipy.special")
@@ -174,7 +175,8 @@ def taylor_russell(validity: float, base_rate: float, selection_ratio: float) ->
     base_rate : float
         Proportion of applicants who would succeed if hired at random, strictly between 0 and 1.
     selection_ratio : float
-        Proportion of applicants selected, at least 1e-12 and less than 1.
+        Proportion of applicants selected, less than 1 and at least one in a million million
+        (smaller ratios are refused: the success ratio would lose its accuracy, see Notes).
 
     Notes
     -----
@@ -196,7 +198,13 @@ def taylor_russell(validity: float, base_rate: float, selection_ratio: float) ->
     """
     _validity(validity)
     _open_proportion("base_rate", base_rate)
-    v.between("selection_ratio", selection_ratio, _SMALLEST_RATIO, 1.0, high_open=True)
+    v.between("selection_ratio", selection_ratio, 0.0, 1.0, low_open=True, high_open=True)
+    too_small = np.asarray(selection_ratio) < _SMALLEST_RATIO
+    if too_small.any():
+        raise DomainError(
+            f"selection_ratio must be at least one in a million million (1e-12), got "
+            f"{v.show(np.asarray(selection_ratio)[too_small].flat[0])}: the success ratio of so few hires "
+            "cannot be computed to full accuracy", argument="selection_ratio")
     joint = upper_orthant_probability(_cut(selection_ratio), _cut(base_rate), validity)
     # The success ratio cannot exceed base_rate/SR or 1 (Fréchet bound); rounding in the joint
     # probability is kept inside those bounds.

@@ -47,6 +47,7 @@ import numpy as np
 
 from . import _validate as v
 from ._lazy import lazy_module
+from ._numeric import centred
 from ._validate import Range
 from .errors import DomainError, InsufficientDataError, ZeroVarianceError
 from .registry import spreadsheet
@@ -242,7 +243,7 @@ def range_corrected_correlation(r: float, sd_restricted: float, sd_unrestricted:
              reference="Hunter, J. E., Schmidt, F. L. & Le, H. (2006). Implications of direct and indirect range "
                        "restriction for meta-analysis methods and findings. Journal of Applied Psychology 91, "
                        "594-612; Le, H. & Schmidt, F. L. (2006). Psychological Methods 11, 416-438.")
-def indirect_range_corrected_validity(r: float, u_x: float, rxx_applicants: float, ryy: float = 1.0) -> float:
+def indirect_range_corrected_validity(r: float, u_x: float, rxx_applicants: float, *, ryy: float = 1.0) -> float:
     """Operational validity among applicants under indirect range restriction (Hunter, Schmidt & Le 2006).
 
     The result is corrected for range restriction and for criterion
@@ -289,7 +290,7 @@ def indirect_range_corrected_validity(r: float, u_x: float, rxx_applicants: floa
 
     Examples
     --------
-    >>> round(indirect_range_corrected_validity(0.25, 0.67, 0.81, 0.52), 6)
+    >>> round(indirect_range_corrected_validity(0.25, 0.67, 0.81, ryy=0.52), 6)
     0.604843
     """
     _correlation("r", r)
@@ -373,7 +374,7 @@ def _sample_size(name, n, low):
              reference="Fisher, R. A. (1921). On the 'probable error' of a coefficient of correlation deduced from "
                        "a small sample. Metron 1, 3-32; Cohen, J., Cohen, P., West, S. G. & Aiken, L. S. (2003). "
                        "Applied Multiple Regression/Correlation Analysis (3rd ed.), sec. 2.8.")
-def correlation_confidence_limit(r: float, n: float, part: Literal["lower", "upper"],
+def correlation_confidence_limit(r: float, n: float, *, part: Literal["lower", "upper"],
                                  confidence: float = 0.95) -> float:
     """Lower or upper confidence limit of a correlation by Fisher's z transformation.
 
@@ -397,7 +398,7 @@ def correlation_confidence_limit(r: float, n: float, part: Literal["lower", "upp
 
     Examples
     --------
-    >>> round(correlation_confidence_limit(0.30, 100, "lower"), 6)
+    >>> round(correlation_confidence_limit(0.30, 100, part="lower"), 6)
     0.110068
     """
     _correlation("r", r)
@@ -410,7 +411,7 @@ def correlation_confidence_limit(r: float, n: float, part: Literal["lower", "upp
 @spreadsheet("R_PVALUE", returns="probability", elementwise=["r", "n"],
              reference="Fisher, R. A. (1915). Biometrika 10, 507-521 (distribution of r); Cohen, Cohen, West & "
                        "Aiken (2003). Applied Multiple Regression/Correlation Analysis (3rd ed.), sec. 2.8.")
-def correlation_p_value(r: float, n: float, tails: int = 2) -> float:
+def correlation_p_value(r: float, n: float, *, tails: int = 2) -> float:
     """p value of the test that the population correlation is zero (t test with n − 2 df).
 
     t = r √(n − 2) / √(1 − r²);  p = 2 · P(T > |t|) for two tails, P(T > t) for one tail
@@ -530,7 +531,10 @@ def cohens_d(group_a: Range, group_b: Range) -> float:
     text in either range is refused. Positive d means group_a scored higher.
     Pooled variance 0 (every score in both groups the same within its group)
     raises ``ZeroVarianceError``. Means and squared deviations are computed
-    in two passes (no raw sums of squares).
+    in two passes (no raw sums of squares), after shifting both groups by one
+    of the scores and scaling them by a power of two, which leaves d
+    unchanged: a common offset (scores near 1e14) costs no digits and scores
+    of 1e155 or 1e-170 neither overflow nor underflow.
 
     Examples
     --------
@@ -541,11 +545,20 @@ def cohens_d(group_a: Range, group_b: Range) -> float:
 
 
 def _pooled_d(a: np.ndarray, b: np.ndarray, name_a: str, name_b: str) -> float:
-    ma, mb = a.mean(), b.mean()
-    pooled = (np.sum((a - ma) ** 2) + np.sum((b - mb) ** 2)) / (a.size + b.size - 2)
+    # d is unchanged by one shift and one scale of both groups: centred together (shifted by one score,
+    # a correctly rounded subtraction, so a common offset costs no digits) and scaled by a power of two
+    # (scores of 1e155 would overflow the squares)
+    both = centred(np.concatenate([a, b]), axis=None)
+    a, b = both[:a.size], both[a.size:]
+    difference = a.mean() - b.mean()
+    # deviations from each group's first score, then its mean: a group of equal scores gives exactly 0
+    da, db = a - a[0], b - b[0]
+    da -= da.mean()
+    db -= db.mean()
+    pooled = (da @ da + db @ db) / (a.size + b.size - 2)
     if not pooled > 0:
         raise ZeroVarianceError(f"{name_a} and {name_b} have zero pooled variance; d is undefined", argument=name_a)
-    return float((ma - mb) / np.sqrt(pooled))
+    return float(difference / np.sqrt(pooled))
 
 
 def _noncentrality_limit(t: float, df: float, cdf_target: float) -> float:

@@ -37,6 +37,7 @@ from statsmodels.stats.inter_rater import aggregate_raters, cohens_kappa, fleiss
 
 from helpers import raises_code
 from trueband.funcs import agreement as ag
+from trueband.funcs import krippendorff as kr  # the module of KRIPPENDORFF_ALPHA (its table threshold is patched below)
 from trueband.funcs import call
 
 # pingouin's own use of a pandas keyword that pandas plans to drop; not ours.
@@ -123,7 +124,7 @@ def test_icc_mean_squares_shrout_fleiss_table_3():
 
 def assert_matches_pingouin(matrix, reference, confidence_tol=1e-10):
     for model, unit, form in FORMS:
-        ours = ag.intraclass_correlation(matrix, model, unit)
+        ours = ag.intraclass_correlation(matrix, model=model, unit=unit)
         row = reference.loc[form]
         assert ours.estimate == pytest.approx(row["ICC"], rel=1e-10, abs=1e-12), form
         assert ours.F == pytest.approx(row["F"], rel=1e-10), form
@@ -135,7 +136,7 @@ def assert_matches_pingouin(matrix, reference, confidence_tol=1e-10):
 def test_icc_all_six_forms_in_one_pass(pingouin_unrounded):
     # intraclass_correlations against pingouin (labels: Shrout & Fleiss 2 = agreement "A", 3 = consistency "C").
     reference = pingouin_unrounded(SHROUT_FLEISS)
-    table = ag.intraclass_correlations(SHROUT_FLEISS, 0.95)
+    table = ag.intraclass_correlations(SHROUT_FLEISS, confidence=0.95)
     for ours, theirs in [("ICC(1,1)", "ICC(1,1)"), ("ICC(2,1)", "ICC(A,1)"), ("ICC(3,1)", "ICC(C,1)"),
                          ("ICC(1,k)", "ICC(1,k)"), ("ICC(2,k)", "ICC(A,k)"), ("ICC(3,k)", "ICC(C,k)")]:
         r = table[ours]
@@ -172,7 +173,7 @@ def test_icc_listwise_deletion_matches_pingouin_omit(pingouin_unrounded):
     x[[2, 9], [0, 2]] = np.nan
     cells = [[None if math.isnan(c) else c for c in row] for row in x.tolist()]
     assert_matches_pingouin(cells, pingouin_unrounded(x, nan_policy="omit"))
-    assert ag.intraclass_correlation(cells, "agreement", "single").n == 13
+    assert ag.intraclass_correlation(cells, model="agreement", unit="single").n == 13
 
 
 @pytest.mark.parametrize("confidence", [0.80, 0.90, 0.99])
@@ -183,7 +184,7 @@ def test_icc_limits_invert_the_f_test(model, unit, confidence):
     # measures and by (1 - rho0) for averages (scipy.stats.f as reference).
     x = np.array(SHROUT_FLEISS, dtype=float)
     n, k = x.shape
-    r = ag.intraclass_correlation(x, model, unit, confidence)
+    r = ag.intraclass_correlation(x, model=model, unit=unit, confidence=confidence)
     scale = (lambda rho: (1 - rho) / (1 + (k - 1) * rho)) if unit == "single" else (lambda rho: 1 - rho)
     tail = (1 - confidence) / 2
     assert stats.f.sf(r.F * scale(r.lower), r.df1, r.df2) == pytest.approx(tail, rel=1e-9)
@@ -191,7 +192,7 @@ def test_icc_limits_invert_the_f_test(model, unit, confidence):
 
 
 def test_icc_parts_through_the_registry():
-    full = ag.intraclass_correlation(SHROUT_FLEISS, "agreement", "average", 0.9)
+    full = ag.intraclass_correlation(SHROUT_FLEISS, model="agreement", unit="average", confidence=0.9)
     assert call("ICC", SHROUT_FLEISS, "agreement", "average", "lower", 0.9) == full.lower
     assert call("ICC", SHROUT_FLEISS, "AGREEMENT", " Average ", "upper", 0.9) == full.upper
     assert call("ICC", SHROUT_FLEISS, "agreement", "average", "p") == full.p
@@ -202,11 +203,11 @@ def test_icc_perfect_consistency():
     # Raters differ only by a constant: consistency ICC 1 with limits 1 and p 0 (limit of F -> infinity,
     # by definition); absolute agreement stays below 1.
     x = [[1, 2, 3], [2, 3, 4], [4, 5, 6], [5, 6, 7]]
-    r = ag.intraclass_correlation(x, "consistency", "single")
+    r = ag.intraclass_correlation(x, model="consistency", unit="single")
     assert (r.estimate, r.lower, r.upper, r.p) == (1.0, 1.0, 1.0, 0.0) and math.isinf(r.F)
     assert call("ICC", x, "agreement", "single") < 1.0
     # residuals that are zero in exact arithmetic but not in floating point (means of thirds)
-    r = ag.intraclass_correlation([[0, 0], [0, 0], [1, 1]], "agreement", "single")
+    r = ag.intraclass_correlation([[0, 0], [0, 0], [1, 1]], model="agreement", unit="single")
     assert (r.estimate, r.lower, r.upper, r.p) == (1.0, 1.0, 1.0, 0.0) and math.isinf(r.F)
 
 
@@ -230,9 +231,12 @@ def test_icc_errors():
     with raises_code("#NUM!", "confidence"):
         call("ICC", SHROUT_FLEISS, "oneway", "single", "lower", 1.0)
     with raises_code("#NUM!", "confidence"):
-        ag.intraclass_correlation(SHROUT_FLEISS, "oneway", "single", 0.0)
-    with raises_code("#NUM!", "ratings", match="too large"):
-        ag.intraclass_correlation([[1e300, -1e300], [2e300, 1e300], [0, 1]], "oneway", "single")
+        ag.intraclass_correlation(SHROUT_FLEISS, model="oneway", unit="single", confidence=0.0)
+    # Ratings of 1e300 are computed, no longer refused (issue 16, item 3): the ICC of the same ratings
+    # divided by 1e300 (the ICC is a ratio of mean squares, free of the scale).
+    big = ag.intraclass_correlation([[1e300, -1e300], [2e300, 1e300], [0, 1]], model="oneway", unit="single")
+    small = ag.intraclass_correlation([[1, -1], [2, 1], [0, 1e-300]], model="oneway", unit="single")
+    assert big.estimate == pytest.approx(small.estimate, rel=1e-12)
 
 
 # ---------------------------------------------------------------- Cohen's kappa
@@ -494,9 +498,9 @@ def test_krippendorff_table_and_pairwise_sums_agree(level, continuous, monkeypat
         x = np.round(x)
     x[rng.random(x.shape) < 0.3] = np.nan
     reference = krippendorff.alpha(x.T, level_of_measurement=level)
-    monkeypatch.setattr(ag, "COINCIDENCE_TABLE_MAX_VALUES", 10**9)
+    monkeypatch.setattr(kr, "COINCIDENCE_TABLE_MAX_VALUES", 10**9)
     table = call("KRIPPENDORFF_ALPHA", x, level)
-    monkeypatch.setattr(ag, "COINCIDENCE_TABLE_MAX_VALUES", 0)
+    monkeypatch.setattr(kr, "COINCIDENCE_TABLE_MAX_VALUES", 0)
     direct = call("KRIPPENDORFF_ALPHA", x, level)
     assert table == pytest.approx(reference, rel=1e-10)
     assert direct == pytest.approx(reference, rel=1e-10)
@@ -508,3 +512,58 @@ def test_rwg_extreme_but_valid_inputs():
     assert call("RWG", [1e308, 1e308], 5) == 1.0
     assert call("RWG", [1, 2, 3], 1e300) == 1.0
     assert call("RWG_J", [[1e300, 1e300], [1e300, 1e300]], 5) == 1.0
+
+
+# ---------------------------------------------------------------- one policy for text categories (issue 16, item 4)
+
+# The same decisions written with different letter case and spacing: a data-entry slip, not another category
+# (the project's policy for group labels, funcs.impact.group_key, common practice). Folded, the two raters agree
+# on every person, so each coefficient is 1 (by definition of perfect agreement).
+HIRE_A = ["Hire", "hire", "Reject", "reject", "Hire", " Reject"]
+HIRE_B = ["hire", "Hire ", "reject", "REJECT", "hire", "Reject"]
+
+
+def test_letter_case_does_not_split_categories_in_cohens_kappa():
+    assert call("COHEN_KAPPA", HIRE_A, HIRE_B) == 1.0
+    # against scikit-learn on the folded labels: the same value with the labels written one way
+    folded = cohen_kappa_score([x.strip().lower() for x in HIRE_A], [x.strip().lower() for x in HIRE_B])
+    mixed = [["Hire", "hire"], ["Reject", "reject"], ["hire", "Hire"], ["hire", "reject"], ["REJECT", "reject"]]
+    ours = call("COHEN_KAPPA", [r[0] for r in mixed], [r[1] for r in mixed])
+    ref = cohen_kappa_score([r[0].lower() for r in mixed], [r[1].lower() for r in mixed])
+    assert folded == 1.0 and ours == pytest.approx(ref, abs=1e-12)
+
+
+def test_letter_case_does_not_split_categories_in_fleiss_kappa_and_krippendorff():
+    rows = [[a, b] for a, b in zip(HIRE_A, HIRE_B)]
+    assert call("FLEISS_KAPPA", rows) == 1.0
+    assert call("KRIPPENDORFF_ALPHA", rows) == 1.0
+    # a real disagreement survives folding: the krippendorff package on the folded labels as codes
+    rows[0][1] = "REJECT"
+    codes = {"hire": 0.0, "reject": 1.0}
+    reference = krippendorff.alpha(np.array([[codes[a.strip().lower()] for a, _ in rows],
+                                             [codes[b.strip().lower()] for _, b in rows]]),
+                                   level_of_measurement="nominal")
+    assert call("KRIPPENDORFF_ALPHA", rows) == pytest.approx(reference, abs=1e-12)
+
+
+def test_a_number_and_its_text_are_one_category():
+    # documented policy (group_key): 1, 1.0 and "1" are one category in every kappa and in nominal alpha
+    assert call("COHEN_KAPPA", [1, 2, "1", 2.0], ["1", 2, 1.0, "2"]) == 1.0
+    assert call("FLEISS_KAPPA", [[1, "1"], [2, "2 "], ["1", 1.0]]) == 1.0
+    assert call("KRIPPENDORFF_ALPHA", [[1, "1"], [2, "2"], ["1", 1.0]]) == 1.0
+
+
+# ---------------------------------------------------------------- ICC documentation (issue 16, item 5)
+
+def test_icc_documents_its_p_value_degrees_of_freedom_and_the_unbounded_average_agreement_form():
+    for doc in (ag.intraclass_correlation.__doc__, ag.intraclass_correlation_part.__doc__):
+        assert "McGraw & Wong (1996)" in doc and "(n − 1, (n − 1)(k − 1))" in doc and "pingouin" in doc
+        assert "no" in doc and "lower bound" in doc
+
+
+def test_icc_average_agreement_has_no_lower_bound(pingouin_unrounded):
+    # 4 people, 2 raters who disagree more than the people differ: ICC(A,k) far below -1, as pingouin gives it
+    data = [[5, 2], [1, 5], [4, 1], [1, 2]]
+    ours = call("ICC", data, "agreement", "average")
+    assert ours < -100
+    assert ours == pytest.approx(pingouin_unrounded(data).loc["ICC(A,k)", "ICC"], rel=1e-9)

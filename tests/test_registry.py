@@ -96,3 +96,24 @@ def test_every_function_has_a_name_a_cell_can_hold(name):
     for alias in spec.aliases:
         assert normalize_name(alias.lower()) == name
         assert normalize_name("_xludf." + alias) == name
+
+
+# ---------------------------------------------------------------- argument descriptions (issue 16, item 1)
+
+def test_argument_descriptions_keep_their_whole_first_paragraph():
+    # A split at the first "." or ";" cut "(e.g. those hired)" and "(one row or column; blanks ignored)".
+    args = {name: {a.name: a.description for a in spec.arguments} for name, spec in REGISTRY.items()}
+    assert args["SCORE_BAND"]["scores"] == "All the scores that are banded (one row or column; blanks ignored)"
+    assert args["RANGE_CORRECT"]["r"] == "Correlation observed in the restricted group (e.g. those hired), between −1 and 1"
+    assert args["COHEN_KAPPA"]["weights"].endswith('"linear" and "quadratic" need numeric, ordered categories. '
+                                                   'Default "none"')
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_argument_descriptions_are_whole(name):
+    for arg in REGISTRY[name].arguments:
+        text = arg.description
+        assert text.count("(") == text.count(")"), f"{name} {arg.name}: {text!r} is cut inside brackets"
+        assert not text.endswith(("e.g", "i.e")), f"{name} {arg.name}: {text!r} is cut after an abbreviation"
+        # an internal constant is no wording for a user (TAYLOR_RUSSELL said "at least 1e-12")
+        assert "1e-12" not in text, f"{name} {arg.name}: {text!r}"
