@@ -287,7 +287,7 @@ def band_floor(top_score: float, sd: float, reliability: float, *, confidence: f
     >>> round(band_floor(92, 10, 0.9), 6)
     83.234775
     """
-    return top_score - band_width.spreadsheet.body(sd, reliability, confidence)
+    return top_score - band_width.spreadsheet.body(sd, reliability, confidence=confidence)
 
 
 @spreadsheet("SCORES_DIFFER", returns="boolean", elementwise=True,
