@@ -66,6 +66,7 @@ def argument(arg):
     return st.one_of(st.floats(-2, 12), st.integers(0, 12).map(float), st.booleans(), cell, grid.map(tuple))
 
 
+@pytest.mark.slow  # seconds: the whole suite runs it, the quick loop leaves it out
 @pytest.mark.parametrize("name", sorted(REGISTRY))
 def test_cell_call_gives_what_call_gives(name):
     """The add-in's path (``cell_call``) and ``call`` agree on every outcome: value, or error class, message, argument."""
@@ -170,6 +171,7 @@ def test_a_function_added_to_the_registry_is_in_the_next_addin(component):
         REGISTRY.pop("ADDIN_PROBE")  # the bindings ask formulas.names each time: no cache to clear
 
 
+@pytest.mark.slow  # seconds: the whole suite runs it, the quick loop leaves it out
 def test_command_writes_and_refuses(tmp_path):
     run = [sys.executable, "-m", "trueband.bridge", "addin", "--out", str(tmp_path)]
     first = subprocess.run(run, capture_output=True, text=True)

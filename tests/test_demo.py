@@ -16,6 +16,8 @@ from trueband.bridge import cli
 from trueband.bridge.cli.study import DEMO_FILES
 from trueband.bridge.study.demo import ORGANISATION, make_demo
 
+pytestmark = pytest.mark.slow  # every test here takes seconds: the quick loop leaves the file out
+
 pingouin = pytest.importorskip("pingouin")
 
 

@@ -11,8 +11,11 @@ import schemathesis
 from hypothesis import HealthCheck, settings
 from schemathesis.checks import not_a_server_error
 from schemathesis.specs.openapi.checks import response_schema_conformance
+import pytest
 
 from trueband.bridge.http import create_app
+
+pytestmark = pytest.mark.slow  # every test here takes seconds: the quick loop leaves the file out
 
 app = create_app()
 

@@ -12,11 +12,14 @@ import json
 import random
 import threading
 import urllib.parse
+import pytest
 
 from trueband.bridge.http.server import serving_in_background
 from trueband.bridge.http import create_app
 from trueband.funcs import call, lookup
 from trueband.funcs.errors import TruebandError
+
+pytestmark = pytest.mark.slow  # every test here takes seconds: the quick loop leaves the file out
 
 THREADS = 6
 REQUESTS_PER_THREAD = 40

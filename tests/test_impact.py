@@ -99,6 +99,7 @@ def test_ratio_of_exactly_four_fifths_is_not_flagged(args):
     assert call("FOUR_FIFTHS", fs - 1, fa, rs, ra) is True
 
 
+@pytest.mark.slow  # seconds: the whole suite runs it, the quick loop leaves it out
 def test_four_fifths_matches_the_rule_in_exact_fractions_on_every_small_table():
     # 29 CFR 1607.4(D), evaluated with Python's fractions for every table with up to 12 applicants a group.
     for fa, ra in itertools.product(range(1, 13), repeat=2):
@@ -175,6 +176,7 @@ def scipy_fisher(fs, fa, rs, ra):
     (40_000, 100_000, 41_000, 100_000), (300, 1_000_000, 350, 1_000_000),
     (3, 500_000_000, 10, 499_999_999),  # near-tie: P(10) exceeds P(3) by a relative 1.4e-8, so 10 is excluded
     (300_000_000, 500_000_000, 299_990_000, 500_000_000)])
+@pytest.mark.slow  # seconds: the whole suite runs it, the quick loop leaves it out
 def test_impact_fisher_against_scipy(table):
     # Reference library: scipy.stats.fisher_exact, alternative="two-sided" (probability-ordering definition).
     ours = call("IMPACT_FISHER", *table)

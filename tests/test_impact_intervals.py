@@ -164,6 +164,7 @@ def _flip_one_by_one(fs, fa, rs, ra, alpha):
     return None
 
 
+@pytest.mark.slow  # seconds: the whole suite runs it, the quick loop leaves it out
 @pytest.mark.parametrize("alpha", [0.05, 0.01])
 def test_flip_matches_a_one_by_one_search_with_scipy(alpha):
     checked = 0

@@ -176,6 +176,7 @@ def test_default_limits_admit_a_full_height_sheet():
     assert xp.DEFAULT_MAX_RATIO >= 100
 
 
+@pytest.mark.slow  # seconds: the whole suite runs it, the quick loop leaves it out
 def test_realistic_large_sheet_is_not_taken_for_a_bomb(tmp_path):
     import random
 

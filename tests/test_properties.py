@@ -18,6 +18,8 @@ from trueband.funcs import REGISTRY
 from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import RESULT_KINDS, call_column
 
+pytestmark = pytest.mark.slow  # every test here takes seconds: the quick loop leaves the file out
+
 plausible = st.one_of(
     st.floats(0, 1),
     st.floats(-3, 3),

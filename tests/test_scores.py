@@ -110,6 +110,7 @@ def test_percentile_rank_against_scipy(data):
             stats.percentileofscore(data, x, kind="mean"), rel=1e-13)
 
 
+@pytest.mark.slow  # seconds: the whole suite runs it, the quick loop leaves it out
 def test_stanine_distribution_is_4_7_12_17_20_17_12_7_4():
     # Angoff (1971): stanines 1..9 hold 4, 7, 12, 17, 20, 17, 12, 7, 4 percent of a distribution.
     data = list(range(1, 1001))

@@ -101,6 +101,7 @@ def quad_success_ratio(r, br, sr):
     return sum(integrate.quad(f, a, b, epsabs=1e-16, epsrel=1e-12, limit=500)[0] for a, b in zip(edges, edges[1:]))
 
 
+@pytest.mark.slow  # seconds: the whole suite runs it, the quick loop leaves it out
 @pytest.mark.parametrize("sr", [1e-12, 1e-9, 1e-5, 0.3, 1 - 1e-9])
 def test_taylor_russell_accuracy_claim_against_adaptive_quadrature(sr):
     # The docstring's accuracy statement, checked over its whole stated range (scipy.integrate.quad).

@@ -242,6 +242,7 @@ def test_restore_after_libreoffice_saved_the_values_file(demo_scoring, tmp_path,
         assert gb.csv_cell(shown, ref) == gb.csv_cell(frozen, ref) != "", ref
 
 
+@pytest.mark.slow  # seconds: the whole suite runs it, the quick loop leaves it out
 def test_restore_after_openpyxl_saved_the_values_file(demo_scoring, tmp_path):
     values = _values_file(demo_scoring)
     wb = openpyxl.load_workbook(values)  # another writer: its own shared strings, styles and parts
