@@ -31,13 +31,13 @@ for that row only, so the values are those of :func:`.eval_cell.evaluate_cell`
 from __future__ import annotations
 
 import dataclasses
-import math
 from typing import Callable, Sequence
 
 import numpy as np
 from formulas.functions import XlError
 from formulas.functions.operators import OPERATORS
 
+from trueband.funcs._columns import evaluate_rows, number_columns
 from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import REGISTRY
 
@@ -445,24 +445,11 @@ class _RunEval:
         return Col(_tidy(self.registered_column(spec, adapter, args, per_row)))
 
     def registered_column(self, spec, adapter, args, per_row) -> np.ndarray:
-        """The body on whole float arrays; rows that are not clean numbers, or that fail, one by one."""
-        n = self.n
-        out = np.empty(n, dtype=object)
+        """The body on whole float arrays (:func:`trueband.funcs._columns.evaluate_rows`, the evaluator
+        ``call_column`` uses too); rows that are not clean numbers, or that fail, one by one."""
         names = [a.name for a in spec.arguments]
-        arrays = {}
-        ok = np.ones(n, dtype=bool)
-        for i in per_row:
-            a = args[i].a
-            if a.dtype.kind == "f":
-                arrays[names[i]] = a
-            else:
-                nums = np.zeros(n)
-                for k, x in enumerate(a):
-                    if isinstance(x, (float, int)) and not isinstance(x, bool) and math.isfinite(x):
-                        nums[k] = x
-                    else:
-                        ok[k] = False
-                arrays[names[i]] = nums
+        whole = {a.name for a in spec.arguments if a.kind == "integer"}
+        arrays, ok = number_columns({names[i]: args[i].a for i in per_row}, whole, self.n)
         # Shared arguments are bound and converted once, as the engine adapter would convert them.
         try:
             scalars = []
@@ -479,29 +466,9 @@ class _RunEval:
             return self.rowwise(adapter, args, label=spec.name, registered=True)
 
         def one(k: int):
-            out[k] = self.rowwise(adapter, args, [k], label=spec.name, registered=True)[k]
+            return self.rowwise(adapter, args, [k], label=spec.name, registered=True)[k]
 
-        def block(idx: np.ndarray):
-            try:
-                with np.errstate(all="ignore"):
-                    res = np.broadcast_to(spec.body(**fixed, **{k: a[idx] for k, a in arrays.items()}), idx.shape)
-                converted = spec.check_results(res)
-            except TruebandError:
-                if len(idx) == 1:
-                    one(int(idx[0]))
-                    return
-                half = len(idx) // 2
-                block(idx[:half])
-                block(idx[half:])
-                return
-            out[idx] = np.asarray(converted, dtype=object) if not isinstance(converted, np.ndarray) else converted
-
-        for k in np.flatnonzero(~ok):
-            one(int(k))
-        good = np.flatnonzero(ok)
-        if len(good):
-            block(good)
-        return out
+        return evaluate_rows(spec.body, spec.check_results, fixed, arrays, ok, one)
 
 
 def _constant(x):
