@@ -575,6 +575,36 @@ def _column_rows(fn: SpreadsheetFunction, each: Mapping[str, Sequence], same: di
     return evaluate_rows(fn.body, fn.check_results, fixed, arrays, ok, one).tolist()
 
 
+#: The topics in the order a validation study runs (scores and their reliability first, the cut last), each
+#: with the title the catalog shows; a topic missing here comes after these, by name.
+TOPICS = {
+    "scores": "Measurement error and score interpretation",
+    "reliability": "Reliability from item data and item analysis",
+    "options": "Item analysis from raw answers and a key",
+    "agreement": "Rater agreement",
+    "content": "Content validity",
+    "validity": "Validity and its corrections",
+    "composite": "Several predictors combined",
+    "utility": "Selection utility",
+    "impact": "Adverse impact",
+    "impact_intervals": "Adverse impact: intervals, odds ratio, flip count, small numbers",
+    "impact_pooled": "Adverse impact pooled across strata (sites, years, job groups)",
+    "fairness": "Differential prediction",
+    "dif": "Item bias (differential item functioning)",
+    "cutscores": "Cut scores: Angoff",
+    "standard_setting": "Cut scores: other standard-setting methods",
+    "decision_accuracy": "Measurement error and decisions at the cut",
+}
+
+
+def topic_title(topic: str) -> str:
+    """The catalog's title of a topic (its module name where it has none)."""
+    return TOPICS.get(topic, topic)
+
+
 def catalog() -> list[dict]:
-    """Every registered function as a dict, sorted by topic then name (for the CLI, HTTP and docs)."""
-    return [REGISTRY[k].to_dict() for k in sorted(REGISTRY, key=lambda k: (REGISTRY[k].topic, k))]
+    """Every registered function as a dict, by topic in :data:`TOPICS` order, then by name (for the CLI, HTTP
+    and docs)."""
+    order = {topic: i for i, topic in enumerate(TOPICS)}
+    return [REGISTRY[k].to_dict()
+            for k in sorted(REGISTRY, key=lambda k: (order.get(REGISTRY[k].topic, len(order)), REGISTRY[k].topic, k))]

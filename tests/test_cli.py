@@ -58,3 +58,17 @@ class _Fixed:
     def parse_args(self, argv):
         self.args.handler = self.handler
         return self.args
+
+
+def test_the_catalog_lists_the_families_as_a_study_runs_them(capsys):
+    # Common practice: a validation study starts from the scores and their reliability and ends at the cut.
+    from trueband.funcs.registry import REGISTRY, TOPICS, catalog
+
+    assert {spec.topic for spec in REGISTRY.values()} <= set(TOPICS)  # every family has its title
+    topics = list(dict.fromkeys(entry["topic"] for entry in catalog()))
+    assert topics[:2] == ["scores", "reliability"]
+    assert topics == [t for t in TOPICS if t in topics]
+    assert cli.main(["functions"]) == 0
+    out = capsys.readouterr().out
+    assert out.startswith(TOPICS["scores"] + "\n")  # no blank first line
+    assert out.index(TOPICS["reliability"]) < out.index(TOPICS["agreement"]) < out.index(TOPICS["impact"])

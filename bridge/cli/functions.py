@@ -8,19 +8,9 @@ import textwrap
 
 from trueband.funcs.cautions import CAUTION
 from trueband.funcs.errors import TruebandError
-from trueband.funcs.registry import REGISTRY, catalog, lookup
+from trueband.funcs.registry import REGISTRY, catalog, lookup, topic_title
 
 from .common import EXIT_CELL_ERRORS, EXIT_FAILED, EXIT_OK
-
-TOPIC_TITLES = {
-    "scores": "Measurement error and score interpretation",
-    "reliability": "Reliability from item data and item analysis",
-    "agreement": "Rater agreement",
-    "validity": "Validity and its corrections",
-    "utility": "Selection utility",
-    "impact": "Adverse impact",
-    "cutscores": "Cut scores",
-}
 
 
 def format_value(value) -> str:
@@ -49,7 +39,7 @@ def render_markdown() -> str:
         spec = REGISTRY[entry["name"]]
         if entry["topic"] != topic:
             topic = entry["topic"]
-            out += [f"## {TOPIC_TITLES.get(topic, topic)}", ""]
+            out += [f"## {topic_title(topic)}", ""]
             if spec.caution:
                 out += [f"> {spec.caution}", ""]
         out += [f"### `{spec.signature}`", "", entry["description"], ""]
@@ -100,8 +90,8 @@ def _functions(args) -> int:
     for entry in entries:
         spec = REGISTRY[entry["name"]]
         if entry["topic"] != topic:
+            print(("\n" if topic is not None else "") + topic_title(entry["topic"]))  # no blank first line
             topic = entry["topic"]
-            print(f"\n{TOPIC_TITLES.get(topic, topic)}")
             if spec.caution:
                 print(textwrap.fill(spec.caution, 78, initial_indent="  Caution: ", subsequent_indent="  "))
         print(f"  {spec.signature}" + (f"   also {', '.join(spec.aliases)}" if spec.aliases else ""))
