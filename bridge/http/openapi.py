@@ -36,6 +36,8 @@ def _argument_schema(arg) -> dict:
         schema = {"type": "integer"}
     elif arg.kind == "boolean":
         schema = {"type": "boolean"}
+    elif arg.kind == "label":  # a category as a cell holds it: text or a number
+        schema = {"type": ["string", "number"]}
     elif arg.choices:
         schema = {"type": "string", "enum": list(arg.choices)}
     else:
@@ -108,7 +110,7 @@ _BODY = (400, 413, 415, 422)
 def _json_paths(limits: dict, names: list[str]) -> dict[str, Any]:
     """The JSON routes: health, catalog, call, batch, column, this document."""
     call_ref = {"oneOf": [{"$ref": f"#/components/schemas/Call_{n}"} for n in names]}
-    value = {"type": ["number", "integer", "boolean"]}
+    value = {"type": ["number", "integer", "boolean", "string"]}  # string: a category result ("A")
     result = {"oneOf": [
         {"type": "object", "required": ["value"], "properties": {"value": value}, "additionalProperties": False},
         {"type": "object", "required": ["error"], "properties": {"error": _ERROR}, "additionalProperties": False},
