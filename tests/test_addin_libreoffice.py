@@ -26,6 +26,7 @@ import pytest
 from openpyxl import load_workbook
 
 from trueband.bridge.addin import extension as calc_addin
+from trueband.bridge.workbook.cells import column_index, column_letters
 from trueband.bridge.engine.recalc import recalculate
 from trueband.bridge.study.build import ANALYSIS_SHEETS
 from trueband.funcs import call
@@ -96,7 +97,25 @@ RATINGS = [[4, 5, 4], [2, 2, 3], [5, 5, 5], [3, 2, 3], [1, 2, 1], [4, 4, 3]]
 SCORES_A = [31, 24, 37, 28, 33, 22, 35, 30]
 SCORES_B = [26, 20, 30, 25, 28, 18, 31, 27]
 JUDGMENTS = [0.6, 0.7, 0.55, 0.8, 0.65, 0.7, 0.75, 0.6]
-COLUMNS = {"J": SCORES_A, "K": SCORES_B, "L": JUDGMENTS}
+CRITERION = [3.2, 2.5, 4.1, 2.9, 3.6, 2.2, 3.9, 3.0]
+GROUPS = [1, 1, 2, 1, 2, 2, 1, 2]
+QUALIFIED = [1, 0, 1, 0, 1, 0, 1, 1]
+BORDERLINE = [0, 1, 0, 1, 0, 1, 0, 0]
+COLUMNS = {"J": SCORES_A, "K": SCORES_B, "L": JUDGMENTS, "M": GROUPS, "N": CRITERION, "O": QUALIFIED,
+           "P": BORDERLINE}
+# Small blocks at row 1 and below (invented): a second judge beside L, composite inputs, strata, the
+# options each judge left per item, judged cuts and pass rates, raw answers under their key row.
+BLOCKS = {
+    "AK": [[a, b] for a, b in zip(JUDGMENTS, [0.65, 0.6, 0.6, 0.75, 0.7, 0.6, 0.8, 0.55])],  # two judges
+    "R": [[5.0, 4.0], [0.85, 0.75], [0.3, 0.25], [1.0, 1.0]],             # sds, reliabilities, validities, weights
+    "T": [[1.0, 0.4], [0.4, 1.0]],                                        # correlations
+    "V": [[0.5], [0.3], [0.8]],                                           # subgroup ds
+    "W": [[20, 50, 40, 60], [12, 40, 30, 50], [15, 45, 25, 55]],          # strata
+    "AA": [[2, 3, 2], [3, 3, 4], [2, 2, 2], [4, 3, 3]],                   # options left, items x judges
+    "AD": [[28, 0.6], [30, 0.5], [27, 0.65], [29, 0.55]],                 # judged cuts and pass rates
+    "AF": [[1, 2, 3, 1], [1, 2, 3, 4], [1, 3, 3, 1], [2, 2, 1, 1], [1, 2, 3, 1], [3, 4, 3, 2], [1, 2, 4, 1],
+           [4, 1, 3, 1], [2, 2, 3, 3]],                                   # answers; row 1 is the key
+}
 
 # Range arguments by name: (block, its cells).
 RANGES = {
@@ -107,7 +126,31 @@ RANGES = {
     "group_a": ("$Data.$J$1:$J$8", [[v] for v in SCORES_A]),
     "group_b": ("$Data.$K$1:$K$8", [[v] for v in SCORES_B]),
     "judgments": ("$Data.$L$1:$L$8", [[v] for v in JUDGMENTS]),
+    "scores_a": ("$Data.$J$1:$J$8", [[v] for v in SCORES_A]),
+    "scores_b": ("$Data.$K$1:$K$8", [[v] for v in SCORES_B]),
+    "groups": ("$Data.$M$1:$M$8", [[v] for v in GROUPS]),
+    "focal": ("$Data.$M$3", [[2]]),
+    "reference": ("$Data.$M$1", [[1]]),
+    "criterion": ("$Data.$N$1:$N$8", [[v] for v in CRITERION]),
+    "predictors": ("$Data.$J$1:$K$8", [list(pair) for pair in zip(SCORES_A, SCORES_B)]),
+    "base_predictors": ("$Data.$J$1:$J$8", [[v] for v in SCORES_A]),
+    "added_predictors": ("$Data.$K$1:$K$8", [[v] for v in SCORES_B]),
+    "qualified": ("$Data.$O$1:$O$8", [[v] for v in QUALIFIED]),
+    "borderline": ("$Data.$P$1:$P$8", [[v] for v in BORDERLINE]),
+    "sds": ("$Data.$R$1:$S$1", [BLOCKS["R"][0]]),
+    "reliabilities": ("$Data.$R$2:$S$2", [BLOCKS["R"][1]]),
+    "validities": ("$Data.$R$3:$S$3", [BLOCKS["R"][2]]),
+    "weights": ("$Data.$R$4:$S$4", [BLOCKS["R"][3]]),
+    "correlations": ("$Data.$T$1:$U$2", BLOCKS["T"]),
+    "ds": ("$Data.$V$1:$V$3", BLOCKS["V"]),
+    "strata": ("$Data.$W$1:$Z$3", BLOCKS["W"]),
+    "options_left": ("$Data.$AA$1:$AC$4", BLOCKS["AA"]),
+    "judged_cuts": ("$Data.$AD$1:$AD$4", [row[:1] for row in BLOCKS["AD"]]),
+    "judged_pass_rates": ("$Data.$AE$1:$AE$4", [row[1:] for row in BLOCKS["AD"]]),
+    "responses": ("$Data.$AF$1:$AI$9", BLOCKS["AF"]),
 }
+# Judges' probabilities for functions that need two or more judges.
+TWO_JUDGES = ("$Data.$AK$1:$AL$8", BLOCKS["AK"])
 # Number arguments by name, for two profiles (plausible values of the trade, invented).
 NUMBERS = {
     "reliability": (0.85, 0.7), "rxx": (0.85, 0.7), "ryy": (0.6, 0.8), "rxx_applicants": (0.85, 0.75),
@@ -117,8 +160,13 @@ NUMBERS = {
     "sd": (5.2, 6.0), "sd_y": (10000.0, 12000.0), "sd_restricted": (4.0, 5.0), "sd_unrestricted": (6.0, 7.0),
     "variance": (27.0, 36.0), "n": (120.0, 60.0), "n_selected": (10.0, 20.0), "tenure": (2.0, 3.0),
     "cost_per_applicant": (50.0, 80.0), "length_factor": (2.0, 1.5), "d": (0.5, 0.8),
+    "r2": (0.3, 0.45), "kr21": (0.8, 0.75), "fraction": (0.27, 0.5), "mean_r": (0.3, 0.4),
+    "k_min": (24.0, 25.0), "k_max": (32.0, 31.0), "f_min": (0.1, 0.2), "f_max": (0.6, 0.7), "option": (3.0, 1.0),
 }
-INTEGERS = {"n_items": (40, 20), "n_people": (200, 80), "scale_points": (5, 5), "tails": (2, 1), "item": (1, 2),
+# Arguments whose plausible values depend on the function.
+BY_FUNCTION = {("CVR_CRITICAL", "alpha"): (0.05, 0.01), ("IMPACT_FLIP", "alpha"): (0.05, 0.01)}
+INTEGERS = {"n_items": (40, 35), "n_people": (200, 80), "n": (120, 60), "k": (2, 3), "cut": (25, 30),
+            "panel": (10, 15), "essential": (7, 12), "scale_points": (5, 5), "tails": (2, 1), "item": (1, 2),
             "focal_selected": (20, 12), "focal_applicants": (50, 40), "ref_selected": (40, 30),
             "ref_applicants": (60, 50), "selected": (20, 12), "applicants": (50, 40)}
 
@@ -131,6 +179,10 @@ def _inputs():
         cells += [["Data", f"{'FGH'[c]}{r}", v] for c, v in enumerate(row)]
     for column, values in COLUMNS.items():
         cells += [["Data", f"{column}{r}", v] for r, v in enumerate(values, start=1)]
+    for first, rows in BLOCKS.items():
+        start = column_index(first)
+        cells += [["Data", f"{column_letters(start + c)}{r}", v]
+                  for r, row in enumerate(rows, start=1) for c, v in enumerate(row)]
     return cells
 
 
@@ -142,7 +194,10 @@ def _arguments(fn, profile: int):
     """Cell texts and the Python values Calc passes for them, for one argument profile (0 or 1)."""
     texts, values = [], []
     for arg in fn.arguments:
-        if arg.kind == "range":
+        if arg.kind == "range" and arg.name == "judgments" and fn.name == "ANGOFF_SE":  # needs two judges
+            texts.append(TWO_JUDGES[0])
+            values.append(_as_range(TWO_JUDGES[1]))
+        elif arg.kind == "range":
             block, rows = RANGES.get(arg.name, ("$Data.$A$1:$D$8", ITEMS))
             texts.append(block)
             values.append(_as_range(rows))
@@ -154,7 +209,8 @@ def _arguments(fn, profile: int):
             texts.append("1")
             values.append(1.0)
         else:
-            x = float((INTEGERS if arg.kind == "integer" else NUMBERS).get(arg.name, (3, 2))[profile])
+            table = INTEGERS if arg.kind == "integer" else NUMBERS
+            x = float(BY_FUNCTION.get((fn.name, arg.name), table.get(arg.name, (3, 2)))[profile])
             texts.append(repr(x))
             values.append(x)
     return texts, values
