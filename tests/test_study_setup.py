@@ -135,7 +135,17 @@ def test_all_blank_items_are_refused(tmp_path):
     header, rows = small_table()
     for r in rows:
         r[2:8] = [None] * 6
-    refuse(tmp_path, write_book(tmp_path / "d.xlsx", header, rows, SETUP), r"hold no scores")
+    refuse(tmp_path, write_book(tmp_path / "d.xlsx", header, rows, SETUP), r"the item columns hold no scores")
+
+
+def test_an_all_blank_total_column_is_refused_in_one_line(tmp_path):
+    header, rows = small_table()
+    header.append("Knowledge total")
+    for r in rows:
+        r.append(None)
+    setup = {**SETUP, "total column": "Knowledge total"}
+    refuse(tmp_path, write_book(tmp_path / "t.xlsx", header, rows, setup),
+           r"column 'Knowledge total' holds no scores \(every cell is blank\)")
 
 
 def test_data_sheet_named_like_an_analysis_sheet(tmp_path):

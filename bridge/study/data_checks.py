@@ -318,8 +318,8 @@ def check_data(setup: StudySetup, path: Path, sheet: str, header, rows) -> Study
     _report(data, "hired values", hired_problems)
     scores = data.scores
     if np.isnan(scores).all():
-        what = f"column {setup.total!r}" if total is not None else "the item columns"
-        raise SetupError(f"sheet '{sheet}': {what} hold no scores (every cell is blank); if they hold formulas, "
+        what = f"column {setup.total!r} holds" if total is not None else "the item columns hold"
+        raise SetupError(f"sheet '{sheet}': {what} no scores (every cell is blank); if they hold formulas, "
                          f"recalculate the data workbook first (trueband recalc)")
     if tally is not None and tally.merged:
         for name, spellings in tally.merged.items():
