@@ -13,9 +13,11 @@ import re
 import struct
 import subprocess
 import sys
+import sysconfig
 import types
 import xml.etree.ElementTree as ET
 import zipfile
+from pathlib import Path
 
 import pytest
 from hypothesis import HealthCheck, given, settings
@@ -437,3 +439,18 @@ def test_sheet_xml_and_templates_carry_the_prefix(tmp_path):
                                 pytest.fail(f"{book.name}!{c.coordinate}: {c.value}")
                             seen += name.lower().startswith("_xludf.")
         assert seen > 0
+
+
+def test_site_folders_record_where_each_dependency_is_imported_from(tmp_path, monkeypatch):
+    # A virtual environment made with --system-site-packages (or a user install) imports numpy from a folder
+    # outside its own site-packages; LibreOffice's Python must be told that folder too (else #NAME? in every cell).
+    elsewhere = tmp_path / "system-site"
+    (elsewhere / "depwhere").mkdir(parents=True)
+    (elsewhere / "depwhere" / "__init__.py").write_text("")
+    monkeypatch.syspath_prepend(str(elsewhere))
+    folders = calc_addin.site_folders(("depwhere", "numpy"))
+    assert str(elsewhere.resolve()) in folders
+    import numpy
+    assert str(Path(numpy.__file__).resolve().parent.parent) in [str(Path(f).resolve()) for f in folders]
+    assert folders[0] == sysconfig.get_paths()["purelib"]  # the environment's own folder first
+    assert len({Path(f).resolve() for f in folders}) == len(folders)

@@ -38,7 +38,7 @@ import urllib.parse
 import zipfile
 from importlib import resources
 from pathlib import Path
-from typing import Iterable
+from typing import Iterable, Sequence
 from xml.sax.saxutils import escape, quoteattr
 
 from trueband.funcs.registry import REGISTRY, SpreadsheetFunction
@@ -133,20 +133,36 @@ def type_library(functions: dict[str, dict] | None = None) -> str:
     return "\n".join(lines)
 
 
-def site_folders() -> list[str]:
+#: The packages trueband's functions import at run time, besides trueband itself.
+RUNTIME_DEPENDENCIES = ("numpy", "scipy")
+
+
+def site_folders(dependencies: Sequence[str] = RUNTIME_DEPENDENCIES) -> list[str]:
     """Where this Python finds trueband and its dependencies: the folders LibreOffice's Python adds.
 
-    The environment's site-packages (with its ``.pth`` files, so an editable install works too)
-    and, where trueband was loaded from somewhere else, the folder above its ``trueband`` package.
+    The environment's site-packages first (with its ``.pth`` files, so an editable install works too);
+    where trueband was loaded from somewhere else, the folder above its ``trueband`` package; then
+    every other folder this Python imports one of ``dependencies`` from (a virtual environment made
+    with ``--system-site-packages`` finds numpy in the system's folder, a user install in the user's
+    site folder).
     """
+    import importlib.util
+
     import trueband.funcs
 
     paths = sysconfig.get_paths()
     folders = list(dict.fromkeys([paths["purelib"], paths["platlib"]]))
     here = Path(trueband.funcs.__file__).resolve().parent.parent  # .../trueband, or a source tree's root
-    if here.name == "trueband" and not any(Path(f) == here.parent for f in folders):
+    if here.name == "trueband":
         folders.append(str(here.parent))
-    return folders
+    for name in dependencies:
+        spec = importlib.util.find_spec(name)
+        if spec is not None and spec.origin:
+            folders.append(str(Path(spec.origin).resolve().parent.parent))  # the folder that holds the package
+    unique: dict[Path, str] = {}
+    for folder in folders:
+        unique.setdefault(Path(folder).resolve(), folder)
+    return list(unique.values())
 
 
 #: Host names of this computer that thin mode may send cells to (and any 127.x.x.x address).
