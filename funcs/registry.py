@@ -29,6 +29,7 @@ never leaves a function silently.
 from __future__ import annotations
 
 import dataclasses
+import difflib
 import functools
 import inspect
 import math
@@ -480,10 +481,13 @@ def lookup(name: str) -> SpreadsheetFunction:
     """The registered function of that spreadsheet name (any case, any app prefix)."""
     if not isinstance(name, str):
         raise UnknownFunctionError(f"function name must be text, got {v.show(name)}")
+    key = normalize_name(name)
     try:
-        return REGISTRY[normalize_name(name)]
+        return REGISTRY[key]
     except KeyError:
-        raise UnknownFunctionError(f"no function named {name.strip()!r}; see `trueband functions`") from None
+        close = difflib.get_close_matches(key, [*REGISTRY, *ALIASES], n=3, cutoff=0.6)
+        hint = f"did you mean {' or '.join(close)}? " if close else ""
+        raise UnknownFunctionError(f"no function named {name.strip()!r}; {hint}see `trueband functions`") from None
 
 
 def call(name: str, *args, **kwargs):

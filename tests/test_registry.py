@@ -117,3 +117,13 @@ def test_argument_descriptions_are_whole(name):
         assert not text.endswith(("e.g", "i.e")), f"{name} {arg.name}: {text!r} is cut after an abbreviation"
         # an internal constant is no wording for a user (TAYLOR_RUSSELL said "at least 1e-12")
         assert "1e-12" not in text, f"{name} {arg.name}: {text!r}"
+
+
+def test_an_unknown_name_gets_the_closest_registered_names():
+    # Every way in (HTTP, the catalog, Python) looks names up here, so each gets the suggestion.
+    from trueband.funcs import UnknownFunctionError, lookup
+
+    with pytest.raises(UnknownFunctionError, match=r"no function named 'SME'; did you mean SEM\b"):
+        lookup("SME")
+    with pytest.raises(UnknownFunctionError, match=r"no function named 'QQQQQQ'; see `trueband functions`"):
+        lookup("QQQQQQ")
