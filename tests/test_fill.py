@@ -137,6 +137,14 @@ def test_bands_command_builds_the_formula(features, capsys):
     assert [c[f"F{r}"].value for r in range(2, 8)] == [float(b) for b in fixed_bands(scores, SD, RELIABILITY, 0.9)]
 
 
+def test_quoted_words_that_are_allowed_pass_in_any_case(features, capsys):
+    code = main(["fill", str(features), "--sheet", "Applicants", "--column", "F", "--rows", "2:3",
+                 "--formula", '=SCORE_CI(C{row}, 4, 0.9, "Lower")'])
+    assert code == EXIT_OK, capsys.readouterr().err
+    c = cells(features.with_name("features.filled.xlsx"), "Applicants")
+    assert c["F2"].value == pytest.approx(c["C2"].value - stats.norm.ppf(0.975) * 4 * 0.1 ** 0.5)
+
+
 def test_fill_in_place_with_backup(features):
     original = features.read_bytes()
     code = main(["bands", str(features), "--scores", "Applicants!C2:C7", "--sd", "4.2", "--reliability", "0.88",
@@ -159,7 +167,8 @@ def test_fill_drops_the_calculation_chain(tmp_path):
 
 @pytest.mark.parametrize("argv, words", [
     (["--sheet", "Pool", "--column", "F", "--formula", "=C{row}"], ["Pool", "Applicants", "Settings"]),
-    (["--sheet", "Applicants", "--column", "C", "--formula", "=C{row}"], ["Applicants", "C2", "not empty"]),
+    (["--sheet", "Applicants", "--column", "C", "--formula", "=C{row}"],
+     ["Applicants", "C2", "not empty", "--replace"]),
     (["--sheet", "Applicants", "--column", "F9", "--formula", "=C{row}"], ["--column", "F9"]),
     (["--sheet", "Applicants", "--column", "F", "--formula", "=C{row}", "--rows", "9:2"], ["--rows", "9:2"]),
     (["--sheet", "Applicants", "--column", "F", "--formula", "  "], ["--formula"]),
@@ -176,6 +185,11 @@ def test_fill_drops_the_calculation_chain(tmp_path):
      ["refers to a sheet that does not exist: 'Sheet9'", "Applicants", "nothing was written"]),
     (["--sheet", "Applicants", "--column", "F", "--formula", "=SEM(C{row};0,9)"], ["';'", "decimals"]),
     (["--sheet", "Applicants", "--column", "F", "--formula", "=C{row}+*2"], ["--formula", "stops at character"]),
+    # Quoted words are checked against the argument's words before any cell is written (not a column of #NUM!).
+    (["--sheet", "Applicants", "--column", "F", "--formula", '=SCORE_CI(C{row}, 5, 0.9, "top")'],
+     ['SCORE_CI: part must be one of "lower", "upper", got "top"', "nothing was written"]),
+    (["--sheet", "Applicants", "--column", "F", "--formula", '=IF(C{row}>0; SCORE_CI(C{row}; 5; 0.9; "lowr"); 0)'],
+     ["SCORE_CI", "part", '"lower", "upper"', '"lowr"']),
 ])
 def test_fill_mistakes_are_one_line_and_write_nothing(features, argv, words, capsys):
     before = sorted(p.name for p in features.parent.iterdir())

@@ -33,7 +33,7 @@ from trueband.funcs.errors import TruebandError
 
 from ..formulas.calc_binding import bind_for_calc
 from ..formulas.compile import FormulaSyntaxError, compile_formula
-from ..formulas.text import TypedFormulaError, call_findings, typed_formula
+from ..formulas.text import TypedFormulaError, call_findings, choice_findings, typed_formula
 from ..workbook.save import OutputRefused, PackageChanges, backup_path_for, default_output_path, save_workbook
 from ..workbook.cells import MAX_ROW, column_index, column_letters
 from ..workbook.sheet_data import SheetXmlError
@@ -135,8 +135,9 @@ def checked_formula(formula: str, plan: FillPlan, *, same_formula: bool = False,
                     sheets: Iterable[str] | None = None) -> str:
     """The formula text to write (without ``=``, ``;`` separators read as ``,``), once it has passed the checks
     ``trueband check`` makes: it reads as a formula, names only known functions, gives registered functions an
-    allowed number of arguments, refers only to sheets of the workbook (``sheets``, when given), and holds
-    ``{row}`` (unless ``same_formula``, or the fill is one row).
+    allowed number of arguments and, as quoted text, only their allowed words (``"lower"`` for a ``part``),
+    refers only to sheets of the workbook (``sheets``, when given), and holds ``{row}`` (unless
+    ``same_formula``, or the fill is one row).
 
     Raises :class:`FillError` with one line naming the first problem, before anything is written.
     """
@@ -163,6 +164,9 @@ def checked_formula(formula: str, plan: FillPlan, *, same_formula: bool = False,
         raise FillError(f"--formula: unknown function {', '.join(unknown)}; nothing was written")
     if counts:
         raise FillError(f"--formula: {counts[0]}; nothing was written")
+    words = choice_findings(first.tree)
+    if words:
+        raise FillError(f"--formula: {words[0]}; nothing was written")
     if sheets is not None:
         known = {name.casefold() for name in sheets}
         missing = sorted({r.sheet for r in first.refs if r.sheet and r.sheet.casefold() not in known})
@@ -190,7 +194,7 @@ def fill_changes(pkg: WorkbookPackage, plan: FillPlan, formula: str, *, header: 
     try:
         xml = add_cells(pkg.read(info.part), cells, replace=replace)
     except SheetXmlError as exc:
-        raise FillError(f"sheet {plan.sheet!r}: {exc} (choose another column, or allow replacing)") from None
+        raise FillError(f"sheet {plan.sheet!r}: {exc} (choose another column, or add --replace to overwrite it)") from None
     changes = PackageChanges()
     changes.set(pkg, info.part, xml)
     changes.drop_calc_chain(pkg)

@@ -23,6 +23,7 @@ import regex
 from formulas.errors import ParenthesesError
 from formulas.tokens.operand import Number
 
+from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import REGISTRY
 
 from .names import bare_name, registered_name, standard_names
@@ -198,3 +199,28 @@ def call_findings(tree) -> tuple[list[str], list[str]]:
             need = f"{spec.min_args}" if spec.min_args == spec.max_args else f"{spec.min_args} to {spec.max_args}"
             counts.append(f"{spec.name} takes {need} arguments, got {n}: {spec.signature}")
     return unknown, counts
+
+
+def choice_findings(tree) -> list[str]:
+    """Constant text given to a registered argument of fixed words that is not one of them.
+
+    ``SCORE_CI(A2, 5, 0.9, "top")`` gives ``['SCORE_CI: part must be one of "lower", "upper", got "top"']``:
+    every cell of a fill would otherwise show ``#NUM!``. Only quoted text written in the formula is
+    checked (a cell's value is known when the formula is computed); words match without regard to case.
+    """
+    found = []
+    for node in tree.walk():
+        if node.kind != "fn":
+            continue
+        registered = registered_name(node.name)
+        if registered is None:
+            continue
+        spec = REGISTRY[registered]
+        for arg, given in zip(spec.arguments, node.args):
+            if not arg.choices or given.kind != "lit" or not isinstance(given.value, str):
+                continue
+            try:
+                arg.coerce(given.value)
+            except TruebandError as exc:
+                found.append(f"{spec.name}: {exc}")
+    return found
