@@ -130,7 +130,8 @@ def test_bands_command_builds_the_formula(features, capsys):
     code = main(["bands", str(features), "--scores", "Applicants!C2:C7", "--sd", "Settings!B1",
                  "--reliability", "0.88", "--confidence", "0.9"])
     assert code == EXIT_OK, capsys.readouterr().err
-    c = cells(features.with_name("features.filled.xlsx"), "Applicants")
+    assert not features.with_name("features.filled.xlsx").exists()  # bands has its own default output
+    c = cells(features.with_name("features.bands.xlsx"), "Applicants")
     assert c["F1"].value == "Score band"  # the first empty column; the default header
     assert c["F2"].formula.text == "_xludf.SCORE_BAND(C2,$C$2:$C$7,Settings!$B$1,0.88,0.9)"
     scores = [a[2] for a in gb.APPLICANTS]
@@ -143,6 +144,23 @@ def test_quoted_words_that_are_allowed_pass_in_any_case(features, capsys):
     assert code == EXIT_OK, capsys.readouterr().err
     c = cells(features.with_name("features.filled.xlsx"), "Applicants")
     assert c["F2"].value == pytest.approx(c["C2"].value - stats.norm.ppf(0.975) * 4 * 0.1 ** 0.5)
+
+
+def test_bands_after_fill_writes_its_own_file_and_names_do_not_stack(features, capsys):
+    fill = ["--sheet", "Applicants", "--column", "F", "--formula", "=SEM(C{row}, 0.9)"]
+    assert main(["fill", str(features), *fill]) == EXIT_OK, capsys.readouterr().err
+    assert main(["bands", str(features), "--scores", "Applicants!C2:C7", "--sd", "4.2",
+                 "--reliability", "0.88"]) == EXIT_OK, capsys.readouterr().err
+    filled = features.with_name("features.filled.xlsx")
+    assert cells(features.with_name("features.bands.xlsx"), "Applicants")["F1"].value == "Score band"
+    # filling the filled book counts up instead of writing features.filled.filled.xlsx
+    assert main(["fill", str(filled), *fill[:3], "G", *fill[4:]]) == EXIT_OK, capsys.readouterr().err
+    again = features.with_name("features.filled-2.xlsx")
+    assert cells(again, "Applicants")["G2"].formula.text == "_xludf.SEM(C2, 0.9)"
+    assert main(["fill", str(again), *fill[:3], "H", *fill[4:]]) == EXIT_OK, capsys.readouterr().err
+    assert sorted(p.name for p in features.parent.iterdir()) == [
+        "features.bands.xlsx", "features.filled-2.xlsx", "features.filled-3.xlsx", "features.filled.xlsx",
+        "features.xlsx"]
 
 
 def test_fill_in_place_with_backup(features):

@@ -131,6 +131,39 @@ def test_in_place_with_backup(features):
     assert features.with_name(f"features.backup-2{features.suffix}").exists()
 
 
+@pytest.mark.parametrize("name, tag, expected", [
+    ("t.xlsx", "filled", "t.filled.xlsx"),  # a plain input: unchanged names
+    ("t.xlsm", "recalc", "t.recalc.xlsm"),
+    ("t.filled.xlsx", "filled", "t.filled-2.xlsx"),  # the same word is not written twice: it counts up
+    ("t.filled-2.xlsx", "filled", "t.filled-3.xlsx"),
+    ("t.Recalc.xlsm", "recalc", "t.recalc-2.xlsm"),
+    ("t.filled.xlsx", "bands", "t.filled.bands.xlsx"),  # another command's word is added as usual
+    ("scores.2026.xlsx", "filled", "scores.2026.filled.xlsx"),
+])
+def test_default_output_names_do_not_stack(tmp_path, name, tag, expected):
+    assert sw.default_output_path(tmp_path / name, tag) == tmp_path / expected
+
+
+def test_a_backup_of_a_backup_is_numbered_not_stacked(tmp_path):
+    assert sw.backup_path_for(tmp_path / "ip.xlsx") == tmp_path / "ip.backup.xlsx"
+    (tmp_path / "ip.backup.xlsx").write_bytes(b"first")
+    assert sw.backup_path_for(tmp_path / "ip.xlsx") == tmp_path / "ip.backup-2.xlsx"
+    # in place on the backup itself: numbered from ip, never ip.backup.backup.xlsx
+    assert sw.backup_path_for(tmp_path / "ip.backup.xlsx") == tmp_path / "ip.backup-2.xlsx"
+    (tmp_path / "ip.backup-2.xlsx").write_bytes(b"second")
+    assert sw.backup_path_for(tmp_path / "ip.backup-2.xlsx") == tmp_path / "ip.backup-3.xlsx"
+
+
+def test_in_place_on_a_backup_keeps_the_next_numbered_backup(features):
+    backup = features.with_name(f"features.backup{features.suffix}")
+    backup.write_bytes(features.read_bytes())
+    original = backup.read_bytes()
+    with open_workbook_package(backup) as pkg:
+        save_workbook(pkg, band_changes(pkg), in_place=True, backup=True)
+    assert features.with_name(f"features.backup-2{features.suffix}").read_bytes() == original
+    assert not features.with_name(f"features.backup.backup{features.suffix}").exists()
+
+
 def test_locked_destination_is_retried_then_reported(features, monkeypatch):
     original = digest(features)
     calls = []

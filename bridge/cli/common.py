@@ -24,7 +24,8 @@ def add_output_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--overwrite", action="store_true", help="allow replacing an existing output file")
     parser.add_argument("--in-place", action="store_true",
                         help="replace the input, only once the new file is complete and re-opens cleanly")
-    parser.add_argument("--backup", action="store_true", help="with --in-place, keep the original as BOOK.backup.xlsx")
+    parser.add_argument("--backup", action="store_true", help="with --in-place, keep the original as BOOK.backup.xlsx "
+                             "(BOOK.backup-2.xlsx, -3, ... when that exists: a backup is never overwritten)")
 
 
 def error_table(errors, limit: int = TABLE_LIMIT) -> str:

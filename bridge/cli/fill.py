@@ -75,7 +75,7 @@ def _bands(args) -> int:
         column = _run(lambda: first_free_column(args.book, sheet))
     plan, dest, report = _run(lambda: fill_workbook(
         args.book, sheet, column, formula, rows=(r1, r2), header=args.header, output=args.output,
-        in_place=args.in_place, backup=args.backup, overwrite=args.overwrite, replace=args.replace))
+        in_place=args.in_place, backup=args.backup, overwrite=args.overwrite, replace=args.replace, tag="bands"))
     return _print_outcome(plan, dest, report)
 
 
@@ -86,7 +86,8 @@ def register(sub) -> None:
                     "optional header styled like its neighbour, then recalculate so the file shows the values. The "
                     "formula is checked first as `trueband check` does (unknown names, argument counts); ';' between "
                     "arguments is read as ','. "
-                    "Nothing else in the workbook changes. Default output: BOOK.filled.xlsx beside the input.")
+                    "Nothing else in the workbook changes. Default output: BOOK.filled.xlsx beside the input "
+                    "(BOOK.filled-2.xlsx when the input is BOOK.filled.xlsx, and so on).")
     p.add_argument("book", help="the .xlsx or .xlsm workbook")
     p.add_argument("--sheet", required=True, help="the sheet holding the table")
     p.add_argument("--column", required=True, help="the column to fill, e.g. L")
@@ -103,7 +104,9 @@ def register(sub) -> None:
         "bands", help="fill a column with fixed score bands (SCORE_BAND) for a column of scores",
         description="Build =SCORE_BAND(score, all scores, sd, reliability[, confidence]) for each score and fill "
                     "it down a column beside them (default: the first empty column), then recalculate. Band 1 "
-                    "holds the highest scores. --sd, --reliability and --confidence take a number or a cell.")
+                    "holds the highest scores. --sd, --reliability and --confidence take a number or a cell. "
+                    "Default output: BOOK.bands.xlsx beside the input (BOOK.bands-2.xlsx when the input is "
+                    "BOOK.bands.xlsx, and so on).")
     p.add_argument("book", help="the .xlsx or .xlsm workbook")
     p.add_argument("--scores", required=True, help="the scores, e.g. Applicants!H2:H401")
     p.add_argument("--sd", required=True, help="standard deviation of the scores: a number or a cell such as K1")

@@ -201,18 +201,35 @@ def add_override(content_types: bytes, part_name: str, content_type: str) -> byt
 
 
 def default_output_path(input_path: str | os.PathLike, tag: str = "recalc") -> Path:
-    """``BOOK.xlsx`` → ``BOOK.recalc.xlsx`` (same folder, same extension)."""
+    """``BOOK.xlsx`` → ``BOOK.recalc.xlsx`` (same folder, same extension); the word is never written twice.
+
+    An input whose name already ends with the same word counts up instead:
+    ``BOOK.recalc.xlsx`` → ``BOOK.recalc-2.xlsx`` → ``BOOK.recalc-3.xlsx``. The name
+    depends on the input's name only (not on which files exist), so an existing
+    output is refused, or replaced with ``overwrite``, as for a plain input.
+    """
     p = Path(input_path)
+    m = re.fullmatch(rf"(.+)\.{re.escape(tag)}(?:-([0-9]{{1,6}}))?", p.stem, re.IGNORECASE)
+    if m:
+        return p.with_name(f"{m.group(1)}.{tag}-{int(m.group(2) or 1) + 1}{p.suffix}")
     return p.with_name(f"{p.stem}.{tag}{p.suffix}")
 
 
 def backup_path_for(input_path: str | os.PathLike) -> Path:
-    """``BOOK.backup.xlsx``, or ``BOOK.backup-2.xlsx`` and so on when that exists already."""
+    """``BOOK.backup.xlsx``, or ``BOOK.backup-2.xlsx`` and so on when that exists already (a backup is never
+    overwritten).
+
+    The input of a backup that is itself a backup (``BOOK.backup.xlsx``,
+    ``BOOK.backup-2.xlsx``) is numbered from ``BOOK``: its backup is the first free
+    ``BOOK.backup-N.xlsx``, never ``BOOK.backup.backup.xlsx``.
+    """
     p = Path(input_path)
-    candidate = p.with_name(f"{p.stem}.backup{p.suffix}")
+    m = re.fullmatch(r"(.+)\.backup(?:-[0-9]{1,6})?", p.stem, re.IGNORECASE)
+    base = m.group(1) if m else p.stem
+    candidate = p.with_name(f"{base}.backup{p.suffix}")
     n = 2
     while candidate.exists():
-        candidate = p.with_name(f"{p.stem}.backup-{n}{p.suffix}")
+        candidate = p.with_name(f"{base}.backup-{n}{p.suffix}")
         n += 1
     return candidate
 
