@@ -136,7 +136,8 @@ def test_call_without_args_is_a_count_error(client):
     ('{"function": "SEM", "args": [1e400, 0.9]}', 422, "#NUM!", "sd"),        # 1e400 reads as inf
     ({"function": "SEM", "args": [int("9" * 400), 0.9]}, 422, "#NUM!", "sd"),  # beyond any float
     ({"function": "SEM", "args": [{"x": 1}, 0.9]}, 400, "#VALUE!", "sd"),
-    ({"function": "SCORE_CI", "args": [100, 15, 0.91, "middle"]}, 422, "#NUM!", "part"),
+    # (common practice: spreadsheet apps answer bad text with #VALUE!)
+    ({"function": "SCORE_CI", "args": [100, 15, 0.91, "middle"]}, 400, "#VALUE!", "part"),
     ({"function": "SCORE_BAND", "args": [90, [None, None], 10, 0.9]}, 422, "#N/A", "scores"),
     ({"function": "NO_SUCH", "args": []}, 404, "#NAME?", None),
     ({"function": 7, "args": []}, 404, "#NAME?", None),
