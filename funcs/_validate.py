@@ -118,7 +118,10 @@ def boolean(name: str, value) -> bool:
 
 
 def choice(name: str, value, options: Iterable[str]) -> str:
-    """One of a fixed set of words, matched without regard to case or surrounding spaces."""
+    """One of a fixed set of words, matched without regard to case or surrounding spaces.
+
+    Anything else (another word, a number, a blank) is an ArgumentTypeError (#VALUE!).
+    """
     options = tuple(options)
     if isinstance(value, np.ndarray) and value.ndim == 0:
         value = value.item()
@@ -129,7 +132,8 @@ def choice(name: str, value, options: Iterable[str]) -> str:
     for option in options:
         if option.lower() == key:
             return option
-    raise DomainError(
+    # A word outside the list is bad text, which spreadsheet apps answer with #VALUE!, not #NUM!.
+    raise ArgumentTypeError(
         f"{name} must be one of {', '.join(show(o) for o in options)}, got {show(value)}", argument=name)
 
 

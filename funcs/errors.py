@@ -62,7 +62,10 @@ class TruebandError(ValueError):
 
 
 class ArgumentTypeError(TruebandError):
-    """An argument of the wrong type (text for a number, a blank, a range for a value)."""
+    """An argument of the wrong type.
+
+    Text for a number, a blank, a range for a value, or a word not among an option's choices.
+    """
 
     code = "#VALUE!"
     http_status = 400

@@ -224,9 +224,10 @@ def test_icc_errors():
         call("ICC", [[1], [2], [3]], "oneway", "single")
     with raises_code("#VALUE!", "ratings", match="row 2, column 1"):
         call("ICC", [[1, 2], ["x", 3], [2, 2]], "oneway", "single")
-    with raises_code("#NUM!", "model", match='"oneway"'):
+    # (common practice: spreadsheet apps answer bad text with #VALUE!)
+    with raises_code("#VALUE!", "model", match='"oneway"'):
         call("ICC", SHROUT_FLEISS, "twoway", "single")
-    with raises_code("#NUM!", "part"):
+    with raises_code("#VALUE!", "part"):
         call("ICC", SHROUT_FLEISS, "oneway", "single", "middle")
     with raises_code("#NUM!", "confidence"):
         call("ICC", SHROUT_FLEISS, "oneway", "single", "lower", 1.0)
@@ -319,7 +320,7 @@ def test_cohen_kappa_errors():
         call("COHEN_KAPPA", [2, 2, 2], [2, 2, 2], "quadratic")
     with raises_code("#DIV/0!", "rater_a"):
         call("COHEN_KAPPA", [0.1] * 3, [0.1] * 3, "quadratic")
-    with raises_code("#NUM!", "weights"):
+    with raises_code("#VALUE!", "weights"):
         call("COHEN_KAPPA", [1, 2], [1, 2], "cubic")
 
 
@@ -423,7 +424,7 @@ def test_krippendorff_errors():
         call("KRIPPENDORFF_ALPHA", [[1, -2], [3, 3]], "ratio")
     with raises_code("#VALUE!", "ratings", match="text"):
         call("KRIPPENDORFF_ALPHA", [[1, "b"], [3, 3]], "interval")
-    with raises_code("#NUM!", "level"):
+    with raises_code("#VALUE!", "level"):
         call("KRIPPENDORFF_ALPHA", [[1, 2], [3, 3]], "cardinal")
 
 

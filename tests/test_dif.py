@@ -242,7 +242,8 @@ def test_argument_refusals():
         call("DIF_MH_DELTA", rows, labels, 1, [["Focal", "Reference"]], "Reference")
     with raises_code("#VALUE!", "focal"):
         call("DIF_MH_DELTA", rows, labels, 1, "", "Reference")
-    with raises_code("#NUM!", "convention"):
+    # (common practice: spreadsheet apps answer bad text with #VALUE!)
+    with raises_code("#VALUE!", "convention"):
         call("DIF_LR_CLASS", rows, labels, 1, "Focal", "Reference", "Cohen")
     with raises_code("#NUM!", "alpha"):
         mantel_haenszel_dif(rows, labels, "Focal", "Reference", alpha=1.5)

@@ -74,8 +74,9 @@ def test_openapi_document_lists_every_function(client):
     schemas = doc["components"]["schemas"]
     for name, fn in REGISTRY.items():
         params = doc["paths"][f"/v1/text/{name}"]["get"]["parameters"]
-        assert [p["name"] for p in params] == [a.name for a in fn.arguments]
-        assert [p["required"] for p in params] == [a.required for a in fn.arguments]
+        assert [p["name"] for p in params] == [a.name for a in fn.arguments] + ["errors"]  # the text form's own
+        assert [p["required"] for p in params] == [a.required for a in fn.arguments] + [False]
+        assert params[-1]["schema"]["enum"] == ["status", "text"]
         named = schemas[f"Call_{name}"]["properties"]["args"]["oneOf"][1]
         assert list(named["properties"]) == [a.name for a in fn.arguments]
         for arg in fn.arguments:
@@ -136,7 +137,8 @@ def test_call_without_args_is_a_count_error(client):
     ('{"function": "SEM", "args": [1e400, 0.9]}', 422, "#NUM!", "sd"),        # 1e400 reads as inf
     ({"function": "SEM", "args": [int("9" * 400), 0.9]}, 422, "#NUM!", "sd"),  # beyond any float
     ({"function": "SEM", "args": [{"x": 1}, 0.9]}, 400, "#VALUE!", "sd"),
-    ({"function": "SCORE_CI", "args": [100, 15, 0.91, "middle"]}, 422, "#NUM!", "part"),
+    # (common practice: spreadsheet apps answer bad text with #VALUE!)
+    ({"function": "SCORE_CI", "args": [100, 15, 0.91, "middle"]}, 400, "#VALUE!", "part"),
     ({"function": "SCORE_BAND", "args": [90, [None, None], 10, 0.9]}, 422, "#N/A", "scores"),
     ({"function": "NO_SUCH", "args": []}, 404, "#NAME?", None),
     ({"function": 7, "args": []}, 404, "#NAME?", None),
@@ -333,6 +335,66 @@ def test_text_errors(client, query, status, code, argument):
     assert resp.headers["X-Trueband-Error-Code"] == code
     assert resp.headers["X-Trueband-Error-Message"]
     assert resp.headers.get("X-Trueband-Error-Argument") == argument
+
+
+@pytest.mark.parametrize("query, status, code, argument", [
+    ("SEM?sd=15&reliability=1.3", 422, "#NUM!", "reliability"),
+    ("SEM?sd=15&reliability=abc", 400, "#VALUE!", "reliability"),
+    ("SEM?sd=15", 400, "#VALUE!", "reliability"),
+    ("SEM?sd=15&reliability=0.9&extra=1", 400, "#VALUE!", "extra"),
+    ("SCORE_CI?score=31&sd=5.2&reliability=0.86&part=middle", 400, "#VALUE!", "part"),
+    ("SCORE_BAND?score=1&scores=;;&sd=10&reliability=0.9", 422, "#N/A", "scores"),
+    ("NO_SUCH?x=1", 404, "#NAME?", None),
+])
+def test_text_errors_as_text_answer_200_with_the_code(client, query, status, code, argument):
+    # A cell's web-fetch function (WEBSERVICE) drops a 4xx body; errors=text lets the code through.
+    plain = client.get(f"/v1/text/{query}")
+    assert plain.status_code == status and plain.get_data(as_text=True) == code
+    for choice in ("text", "TEXT", " Text "):
+        resp = client.get(f"/v1/text/{query}&errors={choice.replace(' ', '%20')}")
+        assert resp.status_code == 200 and resp.mimetype == "text/plain"
+        assert resp.get_data(as_text=True) == code
+        assert resp.headers["X-Trueband-Error-Code"] == code
+        assert resp.headers["X-Trueband-Error-Message"] == plain.headers["X-Trueband-Error-Message"]
+        assert resp.headers.get("X-Trueband-Error-Argument") == argument
+
+
+def test_text_errors_option_leaves_values_and_the_default_alone(client):
+    url = "/v1/text/SCORE_CI?score=31&sd=5.2&reliability=0.86&part=upper"
+    value = client.get(url)
+    assert value.status_code == 200 and "X-Trueband-Error-Code" not in value.headers
+    for option in ("&errors=text", "&errors=status", "&errors=text&"):
+        same = client.get(url + option)
+        assert (same.status_code, same.data) == (200, value.data) and "X-Trueband-Error-Code" not in same.headers
+    assert client.get("/v1/text/SEM?sd=15&reliability=1.3&errors=status").status_code == 422
+    head = client.head("/v1/text/SEM?sd=15&reliability=1.3&errors=text")
+    assert head.status_code == 200 and head.headers["X-Trueband-Error-Code"] == "#NUM!"
+
+
+@pytest.mark.parametrize("query, status, code", [
+    ("SEM?sd=15&reliability=0.9&errors=json", 400, "#VALUE!"),       # an unknown choice is refused as such
+    ("SEM?sd=15&reliability=0.9&errors=", 400, "#VALUE!"),
+    ("SEM?sd=15&reliability=0.9&errors=text&errors=text", 400, "#VALUE!"),
+    ("NO_SUCH?errors=json", 400, "#VALUE!"),                          # checked before the function is looked up
+])
+def test_text_errors_option_refuses_other_values(client, query, status, code):
+    resp = client.get(f"/v1/text/{query}")
+    assert (resp.status_code, resp.get_data(as_text=True)) == (status, code)
+    assert resp.headers["X-Trueband-Error-Argument"] == "errors"
+
+
+def test_text_errors_option_keeps_the_bridges_own_refusals(client):
+    # Only a function's error becomes 200: a refusal of the request itself keeps its status.
+    small = create_app({"MAX_CELLS": 3}).test_client()
+    resp = small.get("/v1/text/PERCENTILE_RANK?score=1&scores=1;2;3;4&errors=text")
+    assert resp.status_code == 413 and resp.get_data(as_text=True) == "#VALUE!"
+    wrong_host = client.get("/v1/text/SEM?sd=15&reliability=1.3&errors=text", headers={"Host": "evil.example"})
+    assert wrong_host.status_code == 403
+    assert client.post("/v1/text/SEM?sd=15&reliability=1.3&errors=text").status_code == 405
+
+
+def test_no_function_has_an_argument_named_like_the_text_forms_option():
+    assert all(a.name != "errors" for fn in REGISTRY.values() for a in fn.arguments)
 
 
 def test_text_error_message_header_is_safe_ascii(client):

@@ -115,3 +115,24 @@ def test_spreadsheet_formula_example():
     score, sd, rel = float(query["score"]), float(query["sd"]), float(query["reliability"])
     z = stats.norm.ppf(0.975)  # reference library; 95% two-sided
     assert value == pytest.approx(score + z * sd * math.sqrt(1 - rel), rel=1e-14)
+
+
+def test_text_examples_answer_with_the_status_the_section_says():
+    # errors=text: a function's error with 200 (a cell's WEBSERVICE drops a 4xx body); without it, a 4xx.
+    assert "&errors=text" in section() and "drops the body of a 4xx answer" in section()
+    text_examples = [(c, s) for c, s in EXAMPLES if "/v1/text/" in request_of(c)["url"]]
+    kinds = set()
+    for command, shown in text_examples:
+        url = request_of(command)["url"]
+        resp = send(create_app().test_client(), url)
+        as_text = "errors=text" in urllib.parse.urlsplit(url).query
+        if not shown.startswith("#"):
+            kinds.add("value")
+            assert resp.status_code == 200
+        elif as_text:
+            kinds.add("error as text")
+            assert resp.status_code == 200 and resp.headers["X-Trueband-Error-Code"] == shown
+        else:
+            kinds.add("error with its status")
+            assert 400 <= resp.status_code < 500
+    assert kinds == {"value", "error as text", "error with its status"}

@@ -96,7 +96,8 @@ def test_other_zero_cells():
     ((-1, 4, 3, 10, "lower"), "#NUM!", "focal_selected"),
     ((1.5, 4, 3, 10, "lower"), "#NUM!", "focal_selected"),
     ((0, 0, 3, 10, "lower"), "#DIV/0!", "focal_applicants"),
-    ((1, 4, 3, 10, "middle"), "#NUM!", "part"),
+    # (common practice: spreadsheet apps answer bad text with #VALUE!)
+    ((1, 4, 3, 10, "middle"), "#VALUE!", "part"),
     ((1, 4, 3, 10, "lower", 1.0), "#NUM!", "confidence"),
     ((1, 4, 3, 10, "lower", "x"), "#VALUE!", "confidence"),
 ])

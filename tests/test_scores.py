@@ -136,7 +136,8 @@ def test_errors_name_the_argument():
         call("SEM", "fifteen", 0.5)
     with raises_code("#VALUE!", "part"):
         call("SCORE_CI", 100, 15, 0.9, 3)
-    with raises_code("#NUM!", "part", match='"lower", "upper"'):
+    # (common practice: spreadsheet apps answer bad text with #VALUE!)
+    with raises_code("#VALUE!", "part", match='"lower", "upper"'):
         call("SCORE_CI", 100, 15, 0.9, "middle")
     with raises_code("#NUM!", "confidence"):
         call("BAND_WIDTH", 10, 0.9, 1.0)

@@ -278,7 +278,8 @@ def test_errors_name_the_argument():
         call("R_CI", 0.3, 3, "lower")
     with raises_code("#NUM!", "n", match="whole number"):
         call("R_CI", 0.3, 10.5, "upper")
-    with raises_code("#NUM!", "part"):
+    # (common practice: spreadsheet apps answer bad text with #VALUE!)
+    with raises_code("#VALUE!", "part"):
         call("R_CI", 0.3, 10, "middle")
     with raises_code("#NUM!", "tails"):
         call("R_PVALUE", 0.3, 10, 3)

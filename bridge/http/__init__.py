@@ -16,7 +16,9 @@ route                              method  answers
 ``/v1/call``                       POST    one call: ``{"value": ...}``
 ``/v1/batch``                      POST    many calls: ``{"results": [...]}``
 ``/v1/column``                     POST    one function down a column: ``{"values": [...]}``
-``/v1/text/NAME?arg=...``          GET     the value as plain text (for cell formulas)
+``/v1/text/NAME?arg=...``          GET     the value as plain text (for cell formulas); an
+                                         error is its code with a 4xx status, or with
+                                         200 given ``&errors=text``
 ``/v1/openapi.json``               GET     the OpenAPI 3.1 document
 =================================  ======  ==============================================
 

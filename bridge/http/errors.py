@@ -4,7 +4,8 @@ Every error in the JSON API is ``{"error": {"code", "message", "argument"}}``: a
 error (:class:`~trueband.funcs.errors.TruebandError`) carries its spreadsheet code
 (``#NUM!``...) and its class's HTTP status; a protocol error (:class:`ProtocolError`) carries one
 of the words in :data:`PROTOCOL_ERRORS`. Under ``/v1/text/`` the same error is the spreadsheet
-code as plain text, with the message in ``X-Trueband-Error-*`` headers. A fault is a generic 500
+code as plain text, with the message in ``X-Trueband-Error-*`` headers (with ``errors=text``, a
+function's error comes with status 200, so that a spreadsheet cell's web-fetch function shows it). A fault is a generic 500
 whose detail goes to the log only.
 """
 
@@ -20,8 +21,8 @@ from werkzeug.exceptions import HTTPException, MethodNotAllowed
 
 from trueband.funcs.errors import TruebandError
 
-__all__ = ["PROTOCOL_ERRORS", "ProtocolError", "TEXT_PREFIX", "error_body", "json_response",
-           "register_error_handlers"]
+__all__ = ["PROTOCOL_ERRORS", "ProtocolError", "TEXT_ERRORS", "TEXT_PREFIX", "error_body", "error_response",
+           "json_response", "register_error_handlers"]
 
 log = logging.getLogger("trueband.http")
 
@@ -41,6 +42,11 @@ PROTOCOL_ERRORS = {
 
 #: Where the text form of the API starts: its errors are plain text, not JSON.
 TEXT_PREFIX = "/v1/text/"
+
+#: The text form's query parameter that chooses how a function's error is answered: ``status`` (the
+#: default) with its 4xx status, ``text`` with 200, for a cell's web-fetch function, which drops the
+#: body of a 4xx answer. No registered function may have an argument of this name.
+TEXT_ERRORS = "errors"
 
 
 class ProtocolError(Exception):
@@ -74,7 +80,8 @@ def _header_text(text: str) -> str:
     return urllib.parse.quote(text, safe=" !\"#$&'()*+,-./:;<=>?@[\\]^_`{|}~")
 
 
-def _error_response(exc, status: int, headers: dict | None = None) -> Response:
+def error_response(exc, status: int, headers: dict | None = None) -> Response:
+    """The answer to an error: JSON, or under ``/v1/text/`` the code as text and the detail in headers."""
     body = error_body(exc)
     if request.path.startswith(TEXT_PREFIX):
         code = exc.code if isinstance(exc, TruebandError) else "#VALUE!"
@@ -91,11 +98,11 @@ def _error_response(exc, status: int, headers: dict | None = None) -> Response:
 
 
 def _on_trueband_error(exc: TruebandError):
-    return _error_response(exc, exc.http_status)
+    return error_response(exc, exc.http_status)
 
 
 def _on_protocol_error(exc: ProtocolError):
-    return _error_response(exc, exc.http_status, exc.headers)
+    return error_response(exc, exc.http_status, exc.headers)
 
 
 _HTTP_CODES = {400: "bad_request", 404: "not_found", 405: "method_not_allowed", 413: "too_large",
@@ -120,13 +127,13 @@ def _on_http_error(exc: HTTPException):
         messages["method_not_allowed"] = f"{request.method} is not allowed here; use {' or '.join(methods)}"
     else:
         messages.setdefault("method_not_allowed", f"{request.method} is not allowed here")
-    return _error_response(ProtocolError(code, messages[code]), status, headers)
+    return error_response(ProtocolError(code, messages[code]), status, headers)
 
 
 def _on_fault(exc: BaseException):
     # The detail goes to the log only; the client learns nothing about the inside.
     log.error("fault while answering %s %s", request.method, request.path, exc_info=exc)
-    return _error_response(ProtocolError("internal_error", "internal error; the server log has the detail"), 500)
+    return error_response(ProtocolError("internal_error", "internal error; the server log has the detail"), 500)
 
 
 def register_error_handlers(app: Flask) -> None:

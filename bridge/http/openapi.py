@@ -12,7 +12,7 @@ from typing import Any
 from trueband.funcs import __version__
 from trueband.funcs.registry import REGISTRY, SpreadsheetFunction
 
-from .errors import TEXT_PREFIX
+from .errors import TEXT_ERRORS, TEXT_PREFIX
 from .guards import DEFAULT_LIMITS
 
 __all__ = ["openapi_document"]
@@ -154,19 +154,31 @@ def _json_paths(limits: dict, names: list[str]) -> dict[str, Any]:
     }
 
 
+#: The text form's own query parameter, after the function's arguments.
+_TEXT_ERRORS_PARAMETER = {
+    "name": TEXT_ERRORS, "in": "query", "required": False,
+    "schema": {"type": "string", "enum": ["status", "text"], "default": "status"},
+    "description": "how a function's error (#VALUE!, #NUM!, #DIV/0!, #N/A, #NAME?) is answered: 'status' with "
+                   "its 4xx status; 'text' with 200, for a spreadsheet cell's web-fetch function (WEBSERVICE), "
+                   "which drops the body of a 4xx answer. Either way the body is the code and the "
+                   "X-Trueband-Error-* headers carry the detail; the bridge's own refusals keep their status."}
+
+
 def _text_paths(names: list[str]) -> dict[str, Any]:
     """One ``/v1/text/NAME`` path per registered function, its arguments as query parameters."""
     text_error = {"description": "the spreadsheet error code as the body; the message in X-Trueband-Error-Message",
                   "content": {"text/plain": {"schema": {"type": "string"}}}}
+    text_ok = {"description": "the value as text; with errors=text, also a function's error: its spreadsheet "
+                              "code as the body, the message in X-Trueband-Error-Message",
+               "content": {"text/plain": {"schema": {"type": "string"}}}}
     paths = {}
     for name in names:
         fn = REGISTRY[name]
         paths[f"{TEXT_PREFIX}{name}"] = {"get": {
             "summary": f"{fn.signature} as plain text",
             "description": fn.description,
-            "parameters": [_text_parameter(a) for a in fn.arguments],
-            "responses": {"200": {"description": "the value as text",
-                                  "content": {"text/plain": {"schema": {"type": "string"}}}},
+            "parameters": [*(_text_parameter(a) for a in fn.arguments), _TEXT_ERRORS_PARAMETER],
+            "responses": {"200": text_ok,
                           **{str(s): text_error for s in (400, 401, 403, 404, 405, 413, 422)}}}}
     return paths
 

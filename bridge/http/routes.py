@@ -15,9 +15,10 @@ from flask import Blueprint, Response, current_app, request
 
 from trueband.funcs import __version__
 from trueband.funcs.errors import ArgumentCountError, ArgumentTypeError, TruebandError
+from trueband.funcs._validate import choice
 from trueband.funcs.registry import REGISTRY, SpreadsheetFunction, call_column, catalog, lookup
 
-from .errors import ProtocolError, error_body, json_response
+from .errors import TEXT_ERRORS, ProtocolError, error_body, error_response, json_response
 from .guards import budget_error, check_cells, count_cells, json_body, over_budget, range_cells
 from .openapi import openapi_document
 
@@ -175,13 +176,35 @@ def _text_range(text: str) -> list[list]:
     return [[_text_cell(c) for c in row.split(",")] for row in text.split(";")]
 
 
+def _errors_as_text() -> bool:
+    """The text form's ``errors`` choice: ``status`` (default, a 4xx answer) or ``text`` (200)."""
+    values = request.args.getlist(TEXT_ERRORS)
+    if len(values) > 1:
+        raise ArgumentCountError(f"{TEXT_ERRORS} was given {len(values)} times", argument=TEXT_ERRORS)
+    return bool(values) and choice(TEXT_ERRORS, values[0], ("status", "text")) == "text"
+
+
 @_route("/text/<path:name>", ["GET"])
 def text_route(name: str):
+    as_text = _errors_as_text()
+    try:
+        return Response(format_text_value(_text_call(name)), mimetype="text/plain")
+    except TruebandError as exc:
+        if not as_text:
+            raise
+        # A cell's web-fetch function (WEBSERVICE) drops a 4xx body; with 200 the cell gets the code.
+        return error_response(exc, 200)
+
+
+def _text_call(name: str):
+    """The value of the function NAME called with the query's arguments (``errors`` aside)."""
     fn = _function(name)
     kinds = {a.name: a.kind for a in fn.arguments}
     named: dict[str, Any] = {}
     cells = 0
     for key in request.args:
+        if key == TEXT_ERRORS:
+            continue
         values = request.args.getlist(key)
         if len(values) > 1:
             raise ArgumentCountError(f"{fn.name} got {key} {len(values)} times", argument=key)
@@ -196,7 +219,7 @@ def text_route(name: str):
         else:
             named[key] = _text_cell(values[0])
     check_cells(cells)
-    return Response(format_text_value(fn(**named)), mimetype="text/plain")
+    return fn(**named)
 
 
 @_route("/openapi.json", ["GET"])
