@@ -247,7 +247,7 @@ def test_bands_formula_quotes_sheet_names():
 def test_libreoffice_shows_the_filled_bands(features, tmp_path, soffice):
     assert main(["bands", str(features), "--scores", "Applicants!C2:C7", "--sd", "Settings!B1",
                  "--reliability", "Settings!B2"]) == EXIT_OK
-    shown = gb.libreoffice_csv(soffice, features.with_name("features.filled.xlsx"), tmp_path / "csv")["Applicants"]
+    shown = gb.libreoffice_csv(soffice, features.with_name("features.bands.xlsx"), tmp_path / "csv")["Applicants"]
     scores = [a[2] for a in gb.APPLICANTS]
     assert [gb.csv_cell(shown, f"F{r}") for r in range(2, 8)] == [str(b) for b in fixed_bands(scores, SD, RELIABILITY)]
     assert gb.csv_cell(shown, "F1") == "Score band"
