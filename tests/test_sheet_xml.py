@@ -759,3 +759,112 @@ def test_readers_and_patcher_agree_with_a_parser_on_random_irregular_sheets(seed
         value, _, style, formula = after.pop(ref)
         assert (value, style, formula) == (0.5, expected[ref][2], expected[ref][3])
     assert after == {ref: cell for ref, cell in expected.items() if ref not in chosen}
+
+
+# ------------------------------------------------------------------ line ends and whitespace as desktop apps write them
+#
+# Desktop spreadsheet apps write "?>\r\n" after the XML declaration of every part, and some writers put line
+# ends between tags or inside text (a header or footer, a formula). XML 1.0 (5th edition), 2.11: a parser
+# reads "\r\n" and a lone "\r" as "\n"; 2.10: whitespace between the elements of a cell or row is not a value.
+# These are the regular form: read and patched by the fast paths, every byte outside the patched cells kept.
+
+def _crlf_head(s: bytes) -> bytes:
+    return s.replace(b"?>\n", b"?>\r\n", 1)
+
+
+CRLF_FORMS = {
+    "CRLF after the declaration": _crlf_head,
+    "CRLF and tabs between rows and cells": lambda s: _crlf_head(s).replace(b"</row>", b"</row>\r\n")
+    .replace(b"</c><c", b"</c>\r\n\t<c").replace(b'<sheetData>', b"\r\n  <sheetData>\r\n"),
+    "line ends inside text": lambda s: _crlf_head(s).replace(b"<t>in ", b"<t>in\r\n", 7).replace(b"a&amp;b", b"a\rb", 5)
+    .replace(b'T("a&amp;b")', b'T("a\r\n&amp;b")', 5),
+    "whitespace-only text": lambda s: s.replace(b"<t>in ", b'<t xml:space="preserve"> \r\n\t</t><t>', 5)
+    .replace(b"<v>x</v>", b"<v>\r\n </v>", 5),
+    "header, footer and validation message with line ends": lambda s: _crlf_head(s).replace(
+        b"</sheetData>", b'</sheetData><dataValidations count="1"><dataValidation type="whole" error="Too low.  '
+                         b'Re-enter." sqref="A1"><formula1>1</formula1></dataValidation></dataValidations>', 1)
+    .replace(b"</worksheet>", b'<headerFooter><oddHeader>&amp;CPage\r\n&amp;P</oddHeader></headerFooter></worksheet>'
+                              b"\r\n", 1),
+}
+
+
+def _crlf_sheet(name: str, seed: int) -> bytes:
+    sheet = _regular_sheet(random.Random(seed), rows=120)
+    xml = CRLF_FORMS[name](sheet)
+    assert xml != sheet, name
+    return xml
+
+
+@pytest.mark.parametrize("name", list(CRLF_FORMS))
+def test_line_ends_and_whitespace_stay_on_the_fast_path(name, monkeypatch):
+    # issue 14 item 1: a part with "\r" went through the parser, which wrote the whole part again
+    calls = []
+    for info in pkgutil.iter_modules(trueband.bridge.workbook.__path__):
+        module = importlib.import_module(f"trueband.bridge.workbook.{info.name}")
+        if hasattr(module, "rewrite_in_regular_form"):
+            monkeypatch.setattr(module, "rewrite_in_regular_form", lambda xml: calls.append(1) or xml)
+    xml = _crlf_sheet(name, 7)
+    strings = ("a", "b", "c")
+    list(iter_cells(xml, strings))
+    sheet_columns.read_columns(xml, strings)
+    sheet_read.dimension(xml)
+    formula_cell = next(c.ref for c in iter_cells(xml, strings) if c.formula is not None)
+    sheet_patch.patch_values(xml, {formula_cell: 2.0})
+    patch_sheet(xml, {formula_cell: CellUpdate(3.0, formula="1+2")})
+    sheet_edit.remove_cells(sheet_edit.add_cells(xml, {"XFD1": NewCell(value=1.0)}), ["XFD1"])
+    assert calls == []
+
+
+@pytest.mark.parametrize("seed", range(3))
+@pytest.mark.parametrize("name", list(CRLF_FORMS))
+def test_line_ends_and_whitespace_read_as_a_parser_reads_them(name, seed, monkeypatch):
+    xml = _crlf_sheet(name, 20 + seed)
+    strings = ["alpha", "b&c", "gamma"]
+    expected = parser_cells(xml, strings)  # ElementTree, the standard library's XML parser
+    if seed % 2:
+        monkeypatch.setattr(sheet_data, "CHUNK_BYTES", random.Random(seed).randint(200, 5000))
+    assert reader_cells(xml, strings) == expected
+    assert column_cells(xml, strings) == expected_columns(expected)
+
+
+@pytest.mark.parametrize("seed", range(3))
+@pytest.mark.parametrize("name", list(CRLF_FORMS))
+def test_line_ends_and_whitespace_are_kept_byte_for_byte_by_the_patchers(name, seed):
+    rnd = random.Random(40 + seed)
+    xml = _crlf_sheet(name, 40 + seed)
+    strings = ["alpha", "b&c", "gamma"]
+    formula_cells = [c.ref for c in iter_cells(xml, strings) if c.formula is not None]
+    chosen = rnd.sample(formula_cells, len(formula_cells) // 2)
+    values = {ref: rnd.choice([1.0, 2.5e-7, "text & <more>", "", True, ErrorValue("#N/A")]) for ref in chosen}
+    expected = sheet_patch._patch_cells(xml, {ref: CellUpdate(v) for ref, v in values.items()})
+    patched = sheet_patch.patch_values(xml, values)
+    assert patched == expected  # the fast and the general patcher write the same bytes
+    assert _outside(patched, chosen) == _outside(xml, chosen)  # every byte outside the patched cells kept
+    before, after = parser_cells(xml, strings), parser_cells(patched, strings)
+    for ref in chosen:
+        assert after.pop(ref)[0] == values[ref] or (values[ref] == "" and after.get(ref) is None)
+    assert after == {k: v for k, v in before.items() if k not in chosen}
+    # cells added and taken out again: the part comes back byte for byte (the dimension set back as it was)
+    added = sheet_edit.add_cells(xml, {"XFD2": NewCell(value="new"), "A999": NewCell(formula="1+1")})
+    assert sheet_edit.remove_cells(added, ["XFD2", "A999"], empty_rows=[999]) == xml or \
+        sheet_read.dimension(xml) is None
+
+
+def test_a_carriage_return_in_text_is_written_escaped_and_read_back():
+    # issue 14 item 5: ECMA-376 Part 1, 22.9.2.19 ST_Xstring escapes a carriage return as _x000D_; written raw,
+    # a parser reads it as a line feed (XML 1.0, 2.11)
+    from trueband.bridge.workbook import xml_text
+
+    for text in ["a\r\nb", "\r", "x\ry", "_x000D_ literal", "tab\tand\nline"]:
+        raw = xml_text.escape_text(text)
+        assert b"\r" not in raw
+        assert xml_text.unescape_xml(raw) == text
+        assert ET.fromstring(b"<t>" + raw + b"</t>").text == raw.decode()  # a parser keeps the escape as text
+    assert xml_text.escape_text("a\r\nb") == b"a_x000D_\nb"
+    xml = _sheet(['<row r="1"><c r="A1" t="str"><f>CHAR(13)</f><v>0</v></c></row>']).encode()
+    patched = sheet_patch.patch_values(xml, {"A1": "line\r\nnext"})
+    assert b"line_x000D_\nnext" in patched
+    assert reader_cells(patched)["A1"][0] == "line\r\nnext"
+    assert parser_cells(patched)["A1"][0] == "line\r\nnext"  # ElementTree, the format's escape decoded
+    path_text = sheet_edit.add_cells(xml, {"B1": NewCell(value="p\rq")})
+    assert reader_cells(path_text)["B1"][0] == "p\rq" and b"<t>p_x000D_q</t>" in path_text

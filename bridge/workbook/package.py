@@ -161,7 +161,8 @@ def parse_shared_strings(xml: bytes) -> list[str]:
         simple = _SIMPLE_SI.match(body)
         if simple:
             raw = simple.group(1)
-            append(raw.decode("utf-8") if b"&" not in raw and b"_x" not in raw else unescape_xml(raw))
+            append(raw.decode("utf-8") if b"&" not in raw and b"_x" not in raw and b"\r" not in raw
+                   else unescape_xml(raw))
             continue
         if b"<rPh" in body or b":rPh" in body:
             body = _PHONETIC.sub(b"", body)

@@ -194,7 +194,7 @@ class _Collector:
         cols = list(map(_lookup(letters, column_index), letters))
         rows = list(map(int, digits))
         joined = b"\x00".join(f_l)  # formula text holds neither "<" nor NUL, so the elements split back apart
-        if b"<f " in joined or b"_x" in joined:
+        if b"<f " in joined or b"_x" in joined or b"\r" in joined:
             plain_rows, plain_cols, texts = [], [], []
             for row, col, f in zip(rows, cols, f_l):
                 if f[:3] == b"<f>":

@@ -204,8 +204,9 @@ def cell_content(body: bytes, typ: str, ref: str, strings, content_re, text_run,
         tail = body[i + 4:]
         if i > 3 and (not tail or (tail[:3] == b"<v>" and tail[-4:] == b"</v>" and b"<" not in tail[3:-4])):
             ftext = body[3:i]
-            formula = _new_tuple(Formula, (ftext.decode("utf-8") if b"&" not in ftext and b"_x" not in ftext
-                                           else unescape_xml(ftext), "normal", None, None, False, b""))
+            plain = b"&" not in ftext and b"_x" not in ftext and b"\r" not in ftext
+            formula = _new_tuple(Formula, (ftext.decode("utf-8") if plain else unescape_xml(ftext),
+                                           "normal", None, None, False, b""))
             raw = tail[3:-4]
             return (plain_value(raw, typ, ref, strings) if raw else None), formula
     cm = content_re.match(body)

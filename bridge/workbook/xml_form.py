@@ -33,9 +33,12 @@ __all__ = ["why_irregular", "regular_form", "rewrite_in_regular_form", "part_may
 
 #: Root tags binding the main namespace twice (a prefix and the default, or two prefixes).
 _MAIN_URIS = (b"http://schemas.openxmlformats.org/spreadsheetml/2006/main", b"http://purl.oclc.org/ooxml/spreadsheetml/main")
-#: Confirms a hit of the quick search: whitespace other than single spaces inside a tag, whitespace
-#: around "=", a single-quoted value, a comment, CDATA section or processing instruction, a character reference.
-_IRREGULAR_TAG = re.compile(rb"<[^<>]*?(?:[\t\n\r]|\s>|\s\s|\s=|=\s|=')|<[!?]|&#")
+#: Confirms a hit of the quick search: whitespace other than single spaces between the attributes of a tag (or a
+#: tab or line end inside a value, which a parser reads as a space), whitespace around "=", a single-quoted value,
+#: a comment, CDATA section or processing instruction, a character reference. Double-quoted values are stepped
+#: over whole, so two spaces or " >" inside a value (a data validation's message) do not count.
+_IRREGULAR_TAG = re.compile(rb'<[^<>"\']*?(?:"[^"<\t\n\r]*"[^<>"\']*?)*?'
+                            rb"""(?:[\t\n\r]|\s>|\s\s|\s=|=\s|='|"[^"<]*?[\t\n\r])|<[!?]|&#""")
 _XML_DECL = re.compile(rb"\A(?:\xef\xbb\xbf)?<\?xml[^>]*?\?>")
 _DECL_ENCODING = re.compile(rb"""encoding\s*=\s*["']([A-Za-z0-9._-]+)["']""")
 _SPACE_BEFORE = re.compile(rb" [ =>]")  # one pattern with a literal first byte: searched at memchr-like speed
@@ -70,8 +73,8 @@ def why_irregular_around_cells(xml: bytes, start: int, end: int) -> str | None:
         return "its tags are written in an irregular form"
     if xml.find(b"xmlns", start, end) >= 0:
         return "it declares namespaces inside the cell data"
-    if b"\r" in xml or (b"&#" in xml if b"#" in xml else False):
-        return "it holds character references or carriage returns"
+    if b"#" in xml and b"&#" in xml:
+        return "it holds character references"
     return None
 
 

@@ -2,8 +2,10 @@
 
 Element text in a workbook part is XML-escaped (``&amp;``, ``&lt;``, character
 references) and, on top of that, the format writes characters XML cannot hold
-(control characters, and an underscore that would start such an escape) as
-``_xHHHH_`` (ECMA-376 Part 1, 22.9.2.19 ST_Xstring).
+or would not keep (control characters, a carriage return, and an underscore
+that would start such an escape) as ``_xHHHH_`` (ECMA-376 Part 1, 22.9.2.19
+ST_Xstring). An XML parser reads a line end written raw (``\r\n`` or a lone
+``\r``) as ``\n`` (XML 1.0, 2.11): so do the readers here.
 
 =========================  ==================================================
 :func:`escape_text`        ``str`` → element content bytes
@@ -29,7 +31,8 @@ ATTRIBUTE_ESCAPES = {**TEXT_ESCAPES, ord('"'): "&quot;"}
 REWRITE_TEXT_ESCAPES = {**TEXT_ESCAPES, ord("\r"): "_x000D_"}
 REWRITE_ATTRIBUTE_ESCAPES = {**ATTRIBUTE_ESCAPES, ord("\t"): "&#9;", ord("\n"): "&#10;", ord("\r"): "&#13;"}
 
-_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]|_(?=x[0-9A-Fa-f]{4}_)")
+# a carriage return too: written raw, a parser would read it as a line feed (XML 1.0, 2.11)
+_CONTROL = re.compile(r"[\x00-\x08\x0b-\x1f\ufffe\uffff]|_(?=x[0-9A-Fa-f]{4}_)")
 _ESCAPED_CHAR = re.compile(r"_x([0-9A-Fa-f]{4})_")
 
 
@@ -47,7 +50,10 @@ def decode_escaped(text: str) -> str:
 
 
 def unescape_xml(raw: bytes) -> str:
-    """Text content of an element, as bytes from the XML, to ``str`` (entities and ``_xHHHH_`` decoded)."""
+    """Text content of an element, as bytes from the XML, to ``str`` (line ends, entities and ``_xHHHH_`` decoded
+    as a parser and the format read them)."""
+    if b"\r" in raw:  # line ends first, as a parser does before it reads references (XML 1.0, 2.11)
+        raw = raw.replace(b"\r\n", b"\n").replace(b"\r", b"\n")
     if b"&" in raw and b"&#" not in raw:  # the five named entities only: plain replacements, &amp; last
         raw = (raw.replace(b"&lt;", b"<").replace(b"&gt;", b">").replace(b"&quot;", b'"')
                .replace(b"&apos;", b"'").replace(b"&amp;", b"&"))
@@ -60,5 +66,6 @@ def unescape_xml(raw: bytes) -> str:
 
 
 def decode_text(raw: bytes) -> str:
-    """:func:`unescape_xml`, with plain text (no ``&``, no ``_x``) only decoded."""
-    return raw.decode("utf-8") if b"&" not in raw and b"_x" not in raw else unescape_xml(raw)
+    """:func:`unescape_xml`, with plain text (no ``&``, no ``_x``, no carriage return) only decoded."""
+    return (raw.decode("utf-8") if b"&" not in raw and b"_x" not in raw and b"\r" not in raw
+            else unescape_xml(raw))
