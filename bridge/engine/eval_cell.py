@@ -193,6 +193,13 @@ def evaluate_cell(compiled: Compiled, store, sheet: str, row: int, col: int) -> 
     return CellResult(value, problem)
 
 
+def _filled(shape: tuple[int, int], error) -> np.ndarray:
+    """An object array of one error value (``np.full`` would turn the error, a ``str`` subclass, into text)."""
+    out = np.empty(shape, dtype=object)
+    out.fill(error)
+    return out
+
+
 def evaluate_array_formula(compiled: Compiled, store, sheet: str, row: int, col: int,
                            shape: tuple[int, int]) -> tuple[np.ndarray, CellProblem | None]:
     """Evaluate an array formula once; its result spread over ``shape`` (rows, columns), #N/A beyond it."""
@@ -200,13 +207,13 @@ def evaluate_array_formula(compiled: Compiled, store, sheet: str, row: int, col:
     try:
         raw = evaluator.evaluate(compiled.tree)
     except VectorUnsupported as exc:
-        return np.full(shape, VALUE_ERROR, dtype=object), CellProblem("", "#VALUE!", f"not supported: {exc}")
+        return _filled(shape, VALUE_ERROR), CellProblem("", "#VALUE!", f"not supported: {exc}")
     arr = np.asarray(raw, dtype=object)
     if arr.ndim == 0:
         arr = arr.reshape(1, 1)
     elif arr.ndim == 1:
         arr = arr.reshape(1, -1)
-    out = np.full(shape, NA_ERROR, dtype=object)
+    out = _filled(shape, NA_ERROR)
     rr, cc = arr.shape
     # a single row or column is repeated across the other direction, as spreadsheet apps do
     if rr == 1 and shape[0] > 1:

@@ -37,7 +37,7 @@ from formulas.functions import XlError
 
 from ..formulas.compile import Compiled
 from ..formulas.names import registered_name
-from ..workbook import shared_formulas, sheet_data, sheet_patch
+from ..workbook import shared_formulas, sheet_data, sheet_edit, sheet_patch
 from ..workbook.package import UnusableWorkbook, open_workbook_package
 from ..workbook.cells import column_letters, split_ref
 from . import values_mode
@@ -279,7 +279,8 @@ def _changes(model: WorkbookModel, updates: dict[str, dict[bytes, object]]):
         if not sheet_updates:
             continue
         xml = pkg.read(info.part)
-        patched = sheet_patch.patch_values(xml, sheet_updates, consume=True, pieces=True)
+        # the other cells of an array formula's range may be absent from the part (openpyxl): written in
+        patched = sheet_edit.patch_or_add_values(xml, sheet_updates, consume=True, pieces=True)
         del xml, sheet_updates
         pkg.forget(info.part)  # the package's copy of the old part is not needed any more
         groups = model.shared_groups.get(info.name)

@@ -23,7 +23,7 @@ from typing import Sequence
 
 import numpy as np
 
-from .cells import column_index
+from .cells import column_index, column_letters
 from .sheet_data import CELL_ATTRIBUTES, CELL_WITHOUT_R, FORMULA_ELEMENT, Formula, SheetXmlError, chunks
 from .sheet_read import cell_content, cell_patterns, iter_cells, plain_value, style_and_type
 from .xml_form import (RewrittenPart, locate_cell_data, may_be_irregular, rewrite_in_regular_form,
@@ -287,10 +287,11 @@ class _Collector:
         columns: dict[int, ColumnArrays] = {}
         for a, b in zip(np.concatenate([[0], starts]).tolist(), np.concatenate([starts, [cols.size]]).tolist()):
             r, x = rows[a:b], nums[a:b]
+            c = int(cols[a])
             if r.size > 1 and not (r[1:] > r[:-1]).all():  # cells of several passes: put them in row order
                 k = np.argsort(r, kind="stable")
                 r, x = r[k], x[k]
-            c = int(cols[a])
+                _refuse_a_cell_listed_twice(r, c)
             columns[c] = ColumnArrays(r, x, by_col.get(c, {}))
         return SheetArrays(columns, self.plain_formulas, self.formulas, self.styles)
 
@@ -341,6 +342,14 @@ def read_column_arrays(xml: bytes, shared_strings: Sequence[str] = ()) -> SheetA
     finally:
         if gc_was:
             gc.enable()
+
+
+def _refuse_a_cell_listed_twice(rows: np.ndarray, col: int) -> None:
+    """A sheet that lists a cell twice (``rows`` sorted) is damaged: which value would count is not defined."""
+    same = np.flatnonzero(rows[1:] == rows[:-1])
+    if same.size:
+        raise SheetXmlError(f"cell {column_letters(col)}{int(rows[same[0]])} is listed twice in the sheet, so its "
+                            f"value is not defined; open and save the file in a spreadsheet app, which repairs it")
 
 
 def _arrays_from_cells(cells) -> SheetArrays:

@@ -5,6 +5,7 @@
 :func:`add_cells`          new cells into existing or new rows, in order; widens ``<dimension>``
 :func:`remove_cells`       the inverse of :func:`add_cells`
 :func:`set_dimension`      sets (or adds) ``<dimension ref>``
+:func:`patch_or_add_values` :func:`~.sheet_patch.patch_values`, with cells the sheet lacks written in
 =========================  ===================================================================
 
 New values for cells that exist are written with :mod:`.sheet_patch`.
@@ -19,12 +20,12 @@ from typing import Mapping
 
 from .cells import column_letters, split_ref
 from .sheet_data import R_ATTRIBUTE, ROOT_TAG, SheetXmlError, attributes, cell_pattern, main_prefix, sheet_data_span
-from .sheet_patch import value_xml
+from .sheet_patch import patch_values, value_xml
 from .sheet_read import DIMENSION, dimension
 from .xml_form import RewrittenPart, regular_form, rewrite_in_regular_form
 from .xml_text import escape_text
 
-__all__ = ["NewCell", "add_cells", "remove_cells", "set_dimension"]
+__all__ = ["NewCell", "add_cells", "remove_cells", "set_dimension", "patch_or_add_values"]
 
 
 @dataclasses.dataclass(frozen=True)
@@ -135,6 +136,22 @@ def add_cells(xml: bytes, cells: Mapping[str, NewCell], *, replace: bool = False
         ti += 1
     out = xml[:start] + b"".join(pieces) + xml[end:]
     return _widen_dimension(out, cells.keys())
+
+
+def patch_or_add_values(xml: bytes, values, *, consume: bool = False, pieces: bool = False):
+    """:func:`~.sheet_patch.patch_values`, with the listed cells that the sheet does not have added
+    (:func:`add_cells`: in row and column order, every other byte kept).
+
+    What a recalculation writes: the other cells of an array formula's range
+    hold values, and some writers (openpyxl's ``ArrayFormula``) leave them out
+    of the part; spreadsheet apps write them as plain value cells.
+    """
+    absent: dict = {}
+    out = patch_values(xml, values, consume=consume, pieces=pieces, absent=absent)
+    if not absent:
+        return out
+    new = add_cells(b"".join(out) if pieces else out, {ref: NewCell(value=v) for ref, v in absent.items()})
+    return [new] if pieces else new
 
 
 def remove_cells(xml: bytes, refs, *, empty_rows=()) -> bytes:

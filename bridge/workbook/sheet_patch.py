@@ -131,7 +131,9 @@ def _cell_xml(ref: str, attrs: bytes, body: bytes | None, update: CellUpdate, pr
         f_xml = b"<" + prefix + b"f>" + escape_text(update.formula) + b"</" + prefix + b"f>"
     if update.drop_formula:
         f_xml = None
-    t, v_xml = value_xml(update.value, f_xml is not None, prefix, ref)
+    # text in the other cells of an array formula's range is written t="str" (no formula), as apps do: kept so
+    text_result = f_xml is not None or (not update.drop_formula and b't="str"' in attrs)
+    t, v_xml = value_xml(update.value, text_result, prefix, ref)
     if t is not None or b't="' in attrs:
         attrs = _set_attr(attrs, b"t", t)
     if update.style is not None:
@@ -214,7 +216,8 @@ def _patch_values_chunk(chunk: bytes, values: dict) -> bytes:
     return b"".join(out)
 
 
-def patch_values(xml: bytes, values: Mapping, *, consume: bool = False, pieces: bool = False):
+def patch_values(xml: bytes, values: Mapping, *, consume: bool = False, pieces: bool = False,
+                 absent: dict | None = None):
     """Write new cached values beside the kept formulas of the listed formula cells (what a recalculation does).
 
     Parameters
@@ -229,6 +232,9 @@ def patch_values(xml: bytes, values: Mapping, *, consume: bool = False, pieces: 
     pieces : bool, optional
         Return the new part as a list of byte strings to be joined (or written one after the
         other) instead of one joined copy.
+    absent : dict, optional
+        Receives the listed cells that the sheet does not have (reference → value) instead of
+        their being refused (:func:`~.sheet_edit.patch_or_add_values` writes them in).
 
     Returns
     -------
@@ -261,7 +267,8 @@ def patch_values(xml: bytes, values: Mapping, *, consume: bool = False, pieces: 
             out.append(_patch_values_chunk(xml[cs:ce], keyed))
         out.append(xml[end:])
     if keyed:
-        out = [_patch_cells(b"".join(out), {ref.decode("ascii"): CellUpdate(v) for ref, v in keyed.items()})]
+        out = [_patch_cells(b"".join(out), {ref.decode("ascii"): CellUpdate(v) for ref, v in keyed.items()},
+                            absent)]
         keyed.clear()
     return out if pieces else b"".join(out)
 
@@ -319,8 +326,9 @@ def patch_sheet(xml: bytes, updates: Mapping[str, CellUpdate]) -> bytes:
     return _patch_cells(xml, updates)
 
 
-def _patch_cells(xml: bytes, updates: Mapping[str, CellUpdate]) -> bytes:
-    """The general path of :func:`patch_sheet`: any update, any form of cell."""
+def _patch_cells(xml: bytes, updates: Mapping[str, CellUpdate], absent: dict | None = None) -> bytes:
+    """The general path of :func:`patch_sheet`: any update, any form of cell (``absent`` as for
+    :func:`patch_values`)."""
     xml = regular_form(xml)
     start, end, prefix = sheet_data_span(xml)
     f_re = _f_pattern(prefix)
@@ -371,7 +379,10 @@ def _patch_cells(xml: bytes, updates: Mapping[str, CellUpdate]) -> bytes:
             if not by_bytes:
                 break
     if by_bytes and type(xml) is not RewrittenPart and CELL_WITHOUT_R.search(xml, start, end):
-        return _patch_cells(rewrite_in_regular_form(xml), updates)  # cells without r: the parser's form names them
+        return _patch_cells(rewrite_in_regular_form(xml), updates, absent)  # cells without r: the parser names them
+    if by_bytes and absent is not None:
+        absent.update((ref, updates[ref].value) for ref in by_bytes.values())
+        by_bytes.clear()
     if by_bytes:
         pending = sorted(by_bytes.values(), key=split_ref)
         raise SheetXmlError(f"cells not found in the sheet: {', '.join(pending[:5])}"
@@ -381,6 +392,8 @@ def _patch_cells(xml: bytes, updates: Mapping[str, CellUpdate]) -> bytes:
             if user != master and not updates.get(user, CellUpdate()).drop_formula:
                 raise SheetXmlError(f"cell {master} holds the shared formula that {user} also uses; "
                                     f"replace the whole group of cells or none")
+    if not spans:
+        return xml
     spans.sort()
     pieces: list[bytes] = [xml[:spans[0][0]]]
     pos = spans[0][0]
