@@ -308,7 +308,7 @@ def _write_formula_sheet(pkg: WorkbookPackage, changes: PackageChanges, records:
     if existing is not None:
         changes.set(pkg, existing.part, data)
         return
-    folder = posixpath.dirname(pkg.sheets[0].part) if pkg.sheets else "xl/worksheets"
+    folder = posixpath.dirname(pkg.worksheets[0].part) if pkg.worksheets else "xl/worksheets"
     taken = set(pkg.entry_names) | set(changes.add)
     part = _free_name(taken, folder + "/sheet{}.xml")
     changes.set(pkg, part, data)

@@ -97,7 +97,9 @@ class SheetInfo:
 
     ``part`` is the zip entry name (``xl/worksheets/sheet1.xml``), ``state`` is
     ``"visible"``, ``"hidden"`` or ``"veryHidden"``, ``kind`` ``"worksheet"``
-    or ``"chartsheet"`` (chart sheets hold no cells), ``index`` the 0-based
+    or ``"chartsheet"`` (chart sheets hold no cells), another relationship type's last word for dialog and
+    macro sheets, or ``"without a part"`` for a sheet entry whose ``r:id`` is empty (some writers keep a
+    macro sheet's entry so, without its content; ``part`` is then ``""``), ``index`` the 0-based
     position (what ``localSheetId`` of a defined name counts).
     """
 
@@ -135,7 +137,8 @@ def lock_file_of(path: str | os.PathLike) -> Path | None:
 
 # ------------------------------------------------------------------ shared strings
 
-_SI = re.compile(rb"<(?:\w+:)?si\b[^>]*?(?:/>|>(.*?)</(?:\w+:)?si>)", re.S)
+# an item is <si>; files of the 2006 beta of the format (namespace .../office/excel/2006/2) call it <sstItem>
+_SI = re.compile(rb"<(?:\w+:)?(si|sstItem)\b[^>]*?(?:/>|>(.*?)</(?:\w+:)?\1>)", re.S)
 _T = re.compile(rb"<(?:\w+:)?t\b[^>]*?(?:/>|>(.*?)</(?:\w+:)?t>)", re.S)
 _PHONETIC = re.compile(rb"<(?:\w+:)?rPh\b.*?</(?:\w+:)?rPh>", re.S)
 _SIMPLE_SI = re.compile(rb"<t(?: [^>]*)?>([^<]*)</t>\Z")
@@ -154,7 +157,7 @@ def parse_shared_strings(xml: bytes) -> list[str]:
     out: list[str] = []
     append = out.append
     for m in _SI.finditer(xml):
-        body = m.group(1)
+        body = m.group(2)
         if not body:
             append("")
             continue
@@ -184,7 +187,7 @@ def _parsed_shared_strings(xml: bytes) -> list[str]:
         return into
 
     return [decode_escaped("".join(texts(si, [])))
-            for si in root if si.tag.rsplit("}", 1)[-1] == "si"]
+            for si in root if si.tag.rsplit("}", 1)[-1] in ("si", "sstItem")]
 
 
 # ------------------------------------------------------------------ package
@@ -369,6 +372,10 @@ class WorkbookPackage:
         for index, el in enumerate([] if sheets_el is None else list(sheets_el)):
             rid = next((v for k, v in el.attrib.items() if k.endswith("}id")), "")
             rel = by_id.get(rid)
+            if rid == "" and rel is None:  # no relationship at all: a macro or dialog sheet kept without content
+                self.sheets.append(SheetInfo(name=el.get("name", ""), part="", state=el.get("state", "visible"),
+                                             index=index, rel_id=rid, kind="without a part"))
+                continue
             if rel is None or "part" not in rel:
                 raise UnusableWorkbook(f"{name}: sheet {el.get('name')!r} points at a missing relationship "
                                        f"{rid!r}", path=self.path)
