@@ -526,3 +526,26 @@ def test_a_hand_edited_record_does_not_break_a_second_values_run(forms, tmp_path
     assert main(["recalc", "--values", str(edited)]) == EXIT_OK
     assert main(["restore", str(tmp_path / "edited.recalc.xlsx")]) == 1
     assert "Scores!somewhere: not restored (the record does not name a cell)" in capsys.readouterr().out
+
+
+def test_the_notice_never_takes_an_empty_styled_cell_and_restore_gives_back_every_byte(tmp_path, capsys):
+    # issue 14 item 8: --values put its notice into <c r="C1" s="2"></c> and restore then removed that cell and its
+    # style. A part as a desktop app saves it (CRLF after the declaration), every row holding data so the notice
+    # goes beside the used range, where C1 is an empty styled cell.
+    from trueband.funcs import call
+
+    sem = call("SEM", 12.0, 0.91)  # the value recalc writes, so that the restored cells hold the same bytes
+    rows = [gb.row_xml(1, [gb.cell_xml("A1", 12), gb.cell_xml("B1", 0.91), '<c r="C1" s="1"></c>'])]
+    rows += [gb.row_xml(r, [gb.cell_xml(f"A{r}", r), gb.cell_xml(f"B{r}", sem, formula="SEM(A1,B1)")])
+             for r in range(2, 10)]
+    xml = gb.sheet_part(rows, dimension="A1:C9").replace(b"?>\n", b"?>\r\n", 1)
+    book = gb.handmade_package(tmp_path / "styled.xlsx", [("Scores", xml)])
+    assert main(["recalc", "--values", str(book), "-o", str(tmp_path / "values.xlsx")]) == EXIT_OK
+    [(sheet, cell, _)] = _notices(tmp_path / "values.xlsx")
+    assert cell != "C1"
+    with zipfile.ZipFile(tmp_path / "values.xlsx") as z:
+        values_xml = z.read("xl/worksheets/sheet1.xml")
+    assert b'<c r="C1" s="1"></c>' in values_xml and values_xml.startswith(xml[:60])  # untouched, CRLF kept
+    assert main(["restore", str(tmp_path / "values.xlsx"), "-o", str(tmp_path / "back.xlsx")]) == EXIT_OK
+    with zipfile.ZipFile(book) as a, zipfile.ZipFile(tmp_path / "back.xlsx") as b:
+        assert b.read("xl/worksheets/sheet1.xml") == a.read("xl/worksheets/sheet1.xml")  # every byte, style and all

@@ -227,17 +227,21 @@ def kept_areas(pkg: WorkbookPackage, info, xml: bytes) -> list[tuple[int, int, i
 def place_notice(xml: bytes, strings, sheet: str, is_read, kept=()) -> tuple[str, bool] | None:
     """Where a sheet's notice goes, (cell, whether its row is new), or None when no place is safe.
 
-    A place is safe when its cell holds nothing, lies in no merged range, no
+    A place is safe when the sheet has no cell element there (not even an
+    empty styled one: its style would go with the notice, and ``restore``
+    could not give it back as it was), it lies in no merged range, no
     ``kept`` area (tables, filters, chart series, defined names) and no
     formula reads it; its row must also be free for a row choice (so the
     text shows across the empty cells to its right).
     """
     used_rows: dict[int, int] = {}  # row → cells holding something
     existing_rows: set[int] = set()
+    existing: set[tuple[int, int]] = set()
     r0 = c0 = 10 ** 9
     r1 = c1 = 0
     for cell in iter_cells(xml, strings):
         existing_rows.add(cell.row)
+        existing.add((cell.row, cell.col))
         if cell.value is None and cell.formula is None:
             continue
         used_rows[cell.row] = used_rows.get(cell.row, 0) + 1
@@ -246,7 +250,7 @@ def place_notice(xml: bytes, strings, sheet: str, is_read, kept=()) -> tuple[str
     blocked = merges + list(kept)
 
     def free(row, col):
-        return (not any(a <= row <= c and b <= col <= d for a, b, c, d in blocked)
+        return ((row, col) not in existing and not any(a <= row <= c and b <= col <= d for a, b, c, d in blocked)
                 and not (is_read is not None and is_read(sheet, row, col)))
 
     if not used_rows:
