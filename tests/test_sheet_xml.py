@@ -717,10 +717,13 @@ def test_cells_and_rows_without_references_can_be_patched_and_added_to():
     # patching such a cell used to fail with "cells not found", adding to such rows was refused
     xml = _sheet(['<row><c t="inlineStr"><is><t>OHL-1</t></is></c><c><f>SEM(12,0.9)</f><v>1</v></c></row>',
                   '<row><c><v>5</v></c></row>']).encode()
-    patched = ET.fromstring(patch_sheet(xml, {"B1": CellUpdate(3.79)}))
+    patched_xml = patch_sheet(xml, {"B1": CellUpdate(3.79)})
+    patched = ET.fromstring(patched_xml)
     q = f"{{{MAIN}}}"
     rows = patched.find(q + "sheetData").findall(q + "row")
-    assert [c.get("r") for c in rows[0]] == ["A1", "B1"] and rows[0][1].find(q + "v").text == "3.79"
+    # the patched cell is spliced in with its reference; every other byte is as written (issue 14 item 1)
+    assert [c.get("r") for c in rows[0]] == [None, "B1"] and rows[0][1].find(q + "v").text == "3.79"
+    assert patched_xml == xml.replace(b"<c><f>SEM(12,0.9)</f><v>1</v></c>", b'<c r="B1"><f>SEM(12,0.9)</f><v>3.79</v></c>')
     assert rows[0][1].find(q + "f").text == "SEM(12,0.9)" and rows[1][0].find(q + "v").text == "5"
     added = parser_cells(sheet_edit.add_cells(xml, {"B2": NewCell(value=7.0)}))
     assert added["B2"] == (7.0, "n", 0, None) and added["A2"] == (5.0, "n", 0, None)
@@ -868,3 +871,24 @@ def test_a_carriage_return_in_text_is_written_escaped_and_read_back():
     assert parser_cells(patched)["A1"][0] == "line\r\nnext"  # ElementTree, the format's escape decoded
     path_text = sheet_edit.add_cells(xml, {"B1": NewCell(value="p\rq")})
     assert reader_cells(path_text)["B1"][0] == "p\rq" and b"<t>p_x000D_q</t>" in path_text
+
+
+def _cut_cell(xml: bytes, ref: str) -> bytes:
+    """The part without the cell element ``ref`` written in any of the forms of :data:`IRREGULAR_FORMS`."""
+    return re.sub(rb"<(?:\w+:)?c\s+r\s*=\s*[\"']" + ref.encode() + rb"[\"'][^>]*?(?:/>|>.*?</(?:\w+:)?c\s*>)", b"",
+                  xml, count=1, flags=re.S)
+
+
+@pytest.mark.parametrize("name", [n for n in CORPUS if n not in ("ISO-8859-1 encoding", "UTF-16")])
+def test_the_parser_path_keeps_every_byte_outside_the_patched_cells(name):
+    # issue 14 item 1: a part that needs the parser was written again whole (<x/> became <x></x>, comments
+    # dropped, quotes changed); now the cells patched are spliced back into the bytes as they were
+    xml = CORPUS[name]
+    outside = _cut_cell(_cut_cell(xml, "C1"), "D2")
+    assert outside != xml
+    for patched in (sheet_patch.patch_values(xml, {"C1": 9.0, "D2": ErrorValue("#N/A")}),
+                    patch_sheet(xml, {"C1": CellUpdate(9.0), "D2": CellUpdate(ErrorValue("#N/A"))})):
+        assert _cut_cell(_cut_cell(patched, "C1"), "D2") == outside
+        after = parser_cells(patched, STRINGS)  # and it reads as it should (ElementTree)
+        assert after["C1"][0] == 9.0 and after["D2"][:2] == ("#N/A", "e")
+    assert sheet_edit.remove_cells(xml, ["C1"]) == _cut_cell(xml, "C1")

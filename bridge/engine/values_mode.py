@@ -124,8 +124,9 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
     for info in pkg.worksheets:
         if info.name == FORMULA_SHEET:
             continue
-        try:  # a part in an irregular form is read and edited in the regular form (xml_form.regular_form)
-            xml = xml_form.regular_form(changes.current(pkg, info.part))
+        original = changes.current(pkg, info.part)
+        try:  # a part in an irregular form is read in the regular form, and patched keeping its other bytes
+            xml = xml_form.regular_form(original)
         except sheet_data.SheetXmlError as exc:
             raise UnusableWorkbook(f"{pkg.path.name}: sheet {info.name!r}: {exc}", path=pkg.path) from None
         chosen = _registered_cells(xml, pkg.shared_strings, values.get(info.name, {}))
@@ -145,7 +146,7 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
             records.append(FormulaRecord(info.name, ref, text, elements[ref]))
             updates[ref] = CellUpdate(value, drop_formula=True)
         try:
-            changes.set(pkg, info.part, sheet_patch.patch_sheet(xml, updates))
+            changes.set(pkg, info.part, sheet_patch.patch_sheet(original, updates))
         except sheet_data.SheetXmlError as exc:
             raise UnusableWorkbook(f"{pkg.path.name}: sheet {info.name!r}: {exc}", path=pkg.path) from None
     if records:

@@ -22,7 +22,7 @@ from .cells import column_letters, split_ref
 from .sheet_data import R_ATTRIBUTE, ROOT_TAG, SheetXmlError, attributes, cell_pattern, main_prefix, sheet_data_span
 from .sheet_patch import patch_values, value_xml
 from .sheet_read import DIMENSION, dimension
-from .xml_form import RewrittenPart, regular_form, rewrite_in_regular_form
+from .xml_form import RewrittenPart, edit_keeping_bytes, regular_form, rewrite_in_regular_form
 from .xml_text import escape_text
 
 __all__ = ["NewCell", "add_cells", "remove_cells", "set_dimension", "patch_or_add_values"]
@@ -158,9 +158,15 @@ def remove_cells(xml: bytes, refs, *, empty_rows=()) -> bytes:
     """Take the listed cells out of the part (the inverse of :func:`add_cells`); cells not there are ignored.
 
     ``empty_rows`` lists row numbers whose ``<row>`` element is taken out too
-    when no cell is left in it (rows that :func:`add_cells` made).
+    when no cell is left in it (rows that :func:`add_cells` made). A part in an irregular form keeps
+    every other byte (:func:`~.xml_form.edit_keeping_bytes`) unless a row goes too.
     """
-    xml = regular_form(xml)
+    if not empty_rows:
+        return edit_keeping_bytes(xml, lambda regular: _remove_cells(regular, refs))
+    return _remove_cells(regular_form(xml), refs, empty_rows=empty_rows)
+
+
+def _remove_cells(xml: bytes, refs, *, empty_rows=()) -> bytes:
     start, end, prefix = sheet_data_span(xml)
     want = {ref.encode("ascii") for ref in refs}
     spans = []

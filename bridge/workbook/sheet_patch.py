@@ -22,7 +22,7 @@ from typing import Mapping
 from .cells import split_ref
 from .sheet_data import (CELL_ATTRIBUTES, CELL_WITHOUT_R, FORMULA_ELEMENT, R_ATTRIBUTE, ErrorValue, SheetXmlError,
                          cell_pattern, chunks, sheet_data_span)
-from .xml_form import (RewrittenPart, locate_cell_data, regular_form, rewrite_in_regular_form,
+from .xml_form import (RewrittenPart, edit_keeping_bytes, locate_cell_data, why_irregular,
                        why_irregular_around_cells)
 from .xml_text import escape_text
 
@@ -252,10 +252,12 @@ def patch_values(xml: bytes, values: Mapping, *, consume: bool = False, pieces: 
     """
     if not values:
         return [xml] if pieces else xml
-    xml, (start, end, prefix) = locate_cell_data(xml)
-    if type(xml) is not RewrittenPart and _irregular_for_value_patch(xml, start, end):
-        xml = rewrite_in_regular_form(xml)
-        start, end, prefix = sheet_data_span(xml)
+    found, (start, end, prefix) = locate_cell_data(xml)
+    if type(found) is RewrittenPart and found is not xml or (
+            type(xml) is not RewrittenPart and _irregular_for_value_patch(xml, start, end)):
+        # through the parser: the cells patched are spliced back into the part, every other byte kept
+        new = edit_keeping_bytes(xml, lambda regular: patch_values(regular, values, absent=absent), force=True)
+        return [new] if pieces else new
     if type(next(iter(values))) is bytes:
         keyed = values if consume and isinstance(values, dict) else dict(values)
     else:
@@ -328,8 +330,10 @@ def patch_sheet(xml: bytes, updates: Mapping[str, CellUpdate]) -> bytes:
 
 def _patch_cells(xml: bytes, updates: Mapping[str, CellUpdate], absent: dict | None = None) -> bytes:
     """The general path of :func:`patch_sheet`: any update, any form of cell (``absent`` as for
-    :func:`patch_values`)."""
-    xml = regular_form(xml)
+    :func:`patch_values`). A part in an irregular form is patched through the parser, the patched cells
+    spliced back into it (:func:`~.xml_form.edit_keeping_bytes`)."""
+    if type(xml) is not RewrittenPart and why_irregular(xml) is not None:
+        return edit_keeping_bytes(xml, lambda regular: _patch_cells(regular, updates, absent), force=True)
     start, end, prefix = sheet_data_span(xml)
     f_re = _f_pattern(prefix)
     close = b"</" + prefix + b"c>"
@@ -379,7 +383,8 @@ def _patch_cells(xml: bytes, updates: Mapping[str, CellUpdate], absent: dict | N
             if not by_bytes:
                 break
     if by_bytes and type(xml) is not RewrittenPart and CELL_WITHOUT_R.search(xml, start, end):
-        return _patch_cells(rewrite_in_regular_form(xml), updates, absent)  # cells without r: the parser names them
+        # cells without r: the parser's form names them
+        return edit_keeping_bytes(xml, lambda regular: _patch_cells(regular, updates, absent), force=True)
     if by_bytes and absent is not None:
         absent.update((ref, updates[ref].value) for ref in by_bytes.values())
         by_bytes.clear()

@@ -17,6 +17,7 @@ what a parser reads. Nothing is guessed: a part the parser refuses is refused in
 :func:`regular_form`                          the part itself when regular, else rewritten
 :func:`rewrite_in_regular_form`               the part through the parser, always
 :func:`part_may_be_irregular`                 the pre-scan for another part read by patterns (shared strings)
+:func:`edit_keeping_bytes`                    an edit of the regular form, spliced back cell by cell into the part
 ============================================  ================================================================
 """
 
@@ -26,10 +27,11 @@ import re
 from xml.parsers import expat
 
 from .cells import column_letters, split_ref
-from .sheet_data import ROOT_TAG, SheetXmlError, sheet_data_span
+from .sheet_data import R_ATTRIBUTE, ROOT_TAG, SheetXmlError, cell_pattern, sheet_data_span
 from .xml_text import REWRITE_ATTRIBUTE_ESCAPES, REWRITE_TEXT_ESCAPES
 
-__all__ = ["why_irregular", "regular_form", "rewrite_in_regular_form", "part_may_be_irregular", "RewrittenPart"]
+__all__ = ["why_irregular", "regular_form", "rewrite_in_regular_form", "part_may_be_irregular", "RewrittenPart",
+           "edit_keeping_bytes"]
 
 #: Root tags binding the main namespace twice (a prefix and the default, or two prefixes).
 _MAIN_URIS = (b"http://schemas.openxmlformats.org/spreadsheetml/2006/main", b"http://purl.oclc.org/ooxml/spreadsheetml/main")
@@ -41,7 +43,9 @@ _IRREGULAR_TAG = re.compile(rb'<[^<>"\']*?(?:"[^"<\t\n\r]*"[^<>"\']*?)*?'
                             rb"""(?:[\t\n\r]|\s>|\s\s|\s=|=\s|='|"[^"<]*?[\t\n\r])|<[!?]|&#""")
 _XML_DECL = re.compile(rb"\A(?:\xef\xbb\xbf)?<\?xml[^>]*?\?>")
 _DECL_ENCODING = re.compile(rb"""encoding\s*=\s*["']([A-Za-z0-9._-]+)["']""")
-_SPACE_BEFORE = re.compile(rb" [ =>]")  # one pattern with a literal first byte: searched at memchr-like speed
+_SPACE_BEFORE = re.compile(rb" [ =>]")
+#: A start tag in any valid form; group 1 is "/" for an empty-element tag.
+_START_TAG = re.compile(rb"""<[^\s/>]+(?:\s+[^\s=/>]+\s*=\s*(?:"[^"]*"|'[^']*'))*\s*(/?)>""")  # one pattern with a literal first byte: searched at memchr-like speed
 
 
 class RewrittenPart(bytes):
@@ -175,12 +179,18 @@ def rewrite_in_regular_form(xml: bytes) -> bytes:
         (never needed by a workbook part, and a way to expand entities), or
         rebinds the root's prefix to another namespace.
     """
+    return _rewrite(xml)[0]
+
+
+def _rewrite(xml: bytes, spans: bool = False) -> tuple[bytes, dict[str, tuple[int, int]] | None]:
+    """:func:`rewrite_in_regular_form`, and with ``spans`` where each cell element lies in ``xml``
+    (reference → (start, end) byte offsets; None when a reference is there twice)."""
     if type(xml) is RewrittenPart:
-        return xml
+        return xml, None
     parser = expat.ParserCreate()  # no namespace processing: names come with their prefixes, as written
     parser.ordered_attributes = True
     parser.buffer_text = True
-    writer = _RegularWriter()
+    writer = _RegularWriter(parser, xml if spans else None)
     parser.StartElementHandler = writer.start
     parser.EndElementHandler = writer.end
     parser.CharacterDataHandler = writer.text
@@ -191,7 +201,7 @@ def rewrite_in_regular_form(xml: bytes) -> bytes:
     except expat.ExpatError as exc:
         raise SheetXmlError(f"the part is not well-formed XML ({exc})") from None
     head = '<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
-    return RewrittenPart((head + "".join(writer.out)).encode("utf-8"))
+    return RewrittenPart((head + "".join(writer.out)).encode("utf-8")), writer.spans
 
 
 def _refuse_doctype(*_declaration):
@@ -208,7 +218,10 @@ def _column_of_ref(ref: str) -> int:
 class _RegularWriter:
     """The expat handlers of :func:`rewrite_in_regular_form` and what they keep between calls."""
 
-    def __init__(self):
+    def __init__(self, parser=None, source: bytes | None = None):
+        self.parser, self.source = parser, source  # with a source: where each cell element lies in it
+        self.spans: dict[str, tuple[int, int]] | None = {} if source is not None else None
+        self.open_cells: list[tuple[str, int, int] | None] = []  # per open element: (ref, start, end if empty)
         self.out: list[str] = []
         self.scopes: list[dict[str, str]] = [{"xml": "http://www.w3.org/XML/1998/namespace"}]
         self.names: list[str] = []  # the names of the open elements, as written
@@ -244,6 +257,29 @@ class _RegularWriter:
         self.out.append("<" + name + self._position(kind, parent, r))
         self.out.extend(written)
         self.pending = True
+        if self.source is not None:
+            self._note_start(kind == "c" and parent == "row", r)
+
+    def _note_start(self, is_cell: bool, r: str | None) -> None:
+        if not is_cell:
+            self.open_cells.append(None)
+            return
+        start = self.parser.CurrentByteIndex
+        tag = _START_TAG.match(self.source, start)
+        ref = r if r is not None else f"{column_letters(self.column)}{self.row}"
+        self.open_cells.append((ref, start, tag.end() if tag is not None and tag.group(1) else -1))
+
+    def _note_end(self) -> None:
+        cell = self.open_cells.pop()
+        if cell is None or self.spans is None:
+            return
+        ref, start, end = cell
+        if end < 0:  # at the end tag, "</c ...>"
+            end = self.source.index(b">", self.parser.CurrentByteIndex) + 1
+        if ref in self.spans:
+            self.spans = None  # a cell listed twice: its place is not defined
+        else:
+            self.spans[ref] = (start, end)
 
     def _name_under_root_prefix(self, name: str, prefix: str, local: str, uri: str | None, scope: dict) -> str:
         """The element's name with the root's prefix when it is in the spreadsheet namespace."""
@@ -284,9 +320,76 @@ class _RegularWriter:
         self.out.append(f"</{self.names.pop()}>")
         self.scopes.pop()
         self.kinds.pop()
+        if self.source is not None:
+            self._note_end()
 
     def text(self, data):
         if self.pending:
             self.out.append(">")
             self.pending = False
         self.out.append(data.translate(REWRITE_TEXT_ESCAPES))
+
+
+# ------------------------------------------------------------------ edits of an irregular part, spliced back
+
+def edit_keeping_bytes(xml: bytes, edit, *, force: bool = False) -> bytes:
+    """``edit`` (bytes → bytes, working on the regular form) applied to a worksheet part, every byte outside
+    the cells it changed kept.
+
+    A part in the regular form is edited as it is. Any other (or with
+    ``force``, any part not already rewritten) is rewritten by the parser
+    (:func:`rewrite_in_regular_form`), edited, and each cell element the
+    edit changed or took out is spliced into the original bytes where the
+    parser found that cell: line ends, comments, quotes and empty elements
+    elsewhere stay as they were. Where that cannot be done (the edit added
+    cells or changed bytes outside the cells, or the part is not UTF-8) the
+    edited regular form is returned, as before.
+    """
+    if type(xml) is RewrittenPart or (not force and why_irregular(xml) is None):
+        return edit(xml)
+    regular, spans = _rewrite(xml, spans=_why_not_utf8(xml[:256])[0] is None)
+    after = edit(regular)
+    kept = _splice_cells(xml, spans, regular, after) if spans is not None else None
+    return after if kept is None else kept
+
+
+def _cells_by_ref(xml: bytes) -> tuple[dict[bytes, tuple[int, int]], bytes]:
+    """The cell elements of a part in the regular form (reference → span) and the bytes outside them."""
+    start, end, prefix = sheet_data_span(xml)
+    cells: dict[bytes, tuple[int, int]] = {}
+    outside, pos = [], 0
+    for m in cell_pattern(prefix).finditer(xml, start, end):
+        rm = R_ATTRIBUTE.search(m.group(1))
+        if rm is None or rm.group(1) in cells:
+            return {}, b""  # not addressable cell by cell
+        cells[rm.group(1)] = m.span()
+        outside.append(xml[pos:m.start()])
+        pos = m.end()
+    outside.append(xml[pos:])
+    return cells, b"".join(outside)  # a cell taken out leaves the bytes around it as they were
+
+
+def _splice_cells(original: bytes, spans: dict[str, tuple[int, int]], before: bytes, after: bytes) -> bytes | None:
+    """``original`` with the cells that differ between ``before`` and ``after`` (both regular) replaced, or None."""
+    (cells_b, outside_b), (cells_a, outside_a) = _cells_by_ref(before), _cells_by_ref(after)
+    if not cells_b or outside_b != outside_a or not set(cells_a) <= set(cells_b):
+        return None
+    edits = []
+    for ref, (s, e) in cells_b.items():
+        new = b""
+        if ref in cells_a:
+            a0, a1 = cells_a[ref]
+            new = after[a0:a1]
+            if new == before[s:e]:
+                continue
+        place = spans.get(ref.decode("ascii"))
+        if place is None:
+            return None
+        edits.append((place[0], place[1], new))
+    edits.sort()
+    pieces, pos = [], 0
+    for s, e, new in edits:
+        pieces += [original[pos:s], new]
+        pos = e
+    pieces.append(original[pos:])
+    return b"".join(pieces)
