@@ -397,11 +397,14 @@ def _patch_cells(xml: bytes, updates: Mapping[str, CellUpdate], absent: dict | N
             if user != master and not updates.get(user, CellUpdate()).drop_formula:
                 raise SheetXmlError(f"cell {master} holds the shared formula that {user} also uses; "
                                     f"replace the whole group of cells or none")
-    if not spans:
-        return xml
+    return _spliced(xml, spans)
+
+
+def _spliced(xml: bytes, spans: list[tuple[int, int, bytes]]) -> bytes:
+    """``xml`` with each (start, end) span replaced by its new bytes."""
     spans.sort()
-    pieces: list[bytes] = [xml[:spans[0][0]]]
-    pos = spans[0][0]
+    pieces: list[bytes] = []
+    pos = 0
     for a, b, new in spans:
         pieces.append(xml[pos:a])
         pieces.append(new)
