@@ -60,6 +60,8 @@ from typing import Any, Mapping
 
 import numpy as np
 
+from .setup_impact import SETTINGS as IMPACT_SETTINGS
+
 __all__ = ["SetupError", "StudySetup", "StudyData", "SETTINGS", "normalise_key", "cell_text", "read_setup_sheet",
            "SETUP_SHEET", "DEFAULT_CRITERION_RELIABILITY", "HIRED_CODINGS", "YES_CODES", "NO_CODES"]
 
@@ -101,6 +103,7 @@ SETTINGS: dict[str, tuple[str, str, str]] = {
     "job title": ("job_title", "text", "the job, for titles"),
     "organisation": ("organisation", "text", "the employer, for titles"),
 }
+SETTINGS.update(IMPACT_SETTINGS)  # group columns, reference groups, stratum column, stage columns
 
 
 
@@ -136,6 +139,10 @@ class StudySetup:
     test_name: str = "the test"
     job_title: str = ""
     organisation: str = ""
+    group_columns: tuple[str, ...] = ()   # several demographic columns (see .setup_impact)
+    reference_groups: str | None = None
+    stratum: str | None = None
+    stages: tuple[str, ...] = ()
     source: Mapping[str, str] = dataclasses.field(default_factory=dict)  # field -> where it was given
 
     def merged(self, overrides: Mapping[str, Any]) -> "StudySetup":
@@ -179,6 +186,7 @@ class StudyData:
     item_scale: tuple[float, float] | None = None                   # (min, max) given, or read from the data
     item_scale_given: bool = False
     raw_items: np.ndarray | None = None                             # the responses before reverse keying
+    impact: Any = None                                              # setup_impact.ImpactData
 
     @property
     def binary_items(self) -> bool:

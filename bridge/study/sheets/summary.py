@@ -51,6 +51,9 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, raters: Raters
         ("Cut score", "cut", setup.cut_cell, "score", None),
         ("Lowest impact ratio (below 0.80 fails the four-fifths rule of thumb)", "min_ratio", impact.min_ratio,
          "coef", None),
+        *([("Its group (and demographic column)", "min_ratio_where", impact.where, None, None),
+           ("Comparisons below four-fifths (Impact lists each)", "n_below", impact.n_below, "count", None)]
+          if impact.where is not None else []),
         ("What is the test worth?", None, None, "", None),
         ("Success rate among those selected (Taylor–Russell)", "taylor_russell", utility.taylor_russell, "pct",
          utility.base_rate),
