@@ -24,7 +24,7 @@ from .sheets.setup import SetupSheet
 __all__ = ["ANALYSIS_SHEETS", "save"]
 
 ANALYSIS_SHEETS = ("Summary", "Reliability", "Items", "Raters", "Validity", BANDS_SHEET, "Impact", "Strata",
-                   "Utility", "Notes")
+                   "Cuts", "Stages", "Groups", "Utility", "Notes")
 
 
 def _bands_header(wb: Workbook, bands: Bands) -> None:

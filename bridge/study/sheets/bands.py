@@ -171,7 +171,7 @@ def _rows(bands: Bands, data: StudyData) -> Iterator[list[Any]]:
                                 criterion=criterion_here))
     na_band = NOT_COMPUTABLE + "no SEM (see Reliability)"
     group_numbers = bands.layout.group_numbers
-    extra_rows = setup_impact.bands_rows(data)
+    extra_row = setup_impact.bands_rows(data, bands.layout)
     for i in range(data.n):
         r = i + 2
         row: list[Any] = [fill_row(id_text, r) if id_text is not None else data.ids[i],
@@ -189,6 +189,6 @@ def _rows(bands: Bands, data: StudyData) -> Iterator[list[Any]]:
             row.append(group_numbers.get(data.groups[i]))
         if data.hired_codes is not None:
             row.append(None if data.hired_codes[i] is None else int(data.hired_codes[i]))
-        if extra_rows is not None:
-            row += extra_rows[i]
+        if extra_row is not None:
+            row += extra_row(i)
         yield row
