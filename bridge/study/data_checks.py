@@ -320,7 +320,7 @@ def check_data(setup: StudySetup, path: Path, sheet: str, header, rows) -> Study
     _report(data, "hired values", hired_problems)
     data.impact = setup_impact.read_impact_data(
         data, lambda name, setting: _resolve(name, setting, index, dupes, header, sheet), used,
-        lambda kind, lines: _report(data, kind, lines))
+        lambda kind, lines: _report(data, kind, lines), hired_code)
     scores = data.scores
     if np.isnan(scores).all():
         what = f"column {setup.total!r} holds" if total is not None else "the item columns hold"

@@ -60,8 +60,6 @@ from typing import Any, Mapping
 
 import numpy as np
 
-from .setup_impact import SETTINGS as IMPACT_SETTINGS
-
 __all__ = ["SetupError", "StudySetup", "StudyData", "SETTINGS", "normalise_key", "cell_text", "read_setup_sheet",
            "SETUP_SHEET", "DEFAULT_CRITERION_RELIABILITY", "HIRED_CODINGS", "YES_CODES", "NO_CODES"]
 
@@ -103,7 +101,18 @@ SETTINGS: dict[str, tuple[str, str, str]] = {
     "job title": ("job_title", "text", "the job, for titles"),
     "organisation": ("organisation", "text", "the employer, for titles"),
 }
-SETTINGS.update(IMPACT_SETTINGS)  # group columns, reference groups, stratum column, stage columns
+# adverse impact by several columns, strata and stages (read by .setup_impact)
+SETTINGS.update({
+    "group columns": ("group_columns", "columns", "several demographic columns for adverse impact, e.g. Sex, "
+                                                  "Ethnicity, Age 40+ (one impact table each; optional)"),
+    "reference groups": ("reference_groups", "text", "the reference group of each demographic column, e.g. "
+                                                     "Sex: Men; Ethnicity: White (default: the group with the "
+                                                     "highest selection rate)"),
+    "stratum column": ("stratum", "column", "sites, years or job groups to pool the impact analysis over "
+                                            "(optional; the Strata sheet)"),
+    "stage columns": ("stages", "columns", "the stages of the selection process in order, each coded "
+                                           "yes/no as the hired column (optional; the Stages sheet)"),
+})
 
 
 

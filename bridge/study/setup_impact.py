@@ -30,22 +30,10 @@ from openpyxl.utils import get_column_letter
 
 from trueband.funcs.impact import GroupTally, tally_groups
 
-__all__ = ["SETTINGS", "ImpactData", "Demographic", "Stage", "normalise", "read_impact_data",
+from .setup import HIRED_CODINGS, SetupError, cell_text
+
+__all__ = ["ImpactData", "Demographic", "Stage", "normalise", "read_impact_data",
            "parse_reference_groups", "bands_columns", "bands_rows"]
-
-#: setting -> (field name, kind, what it means), merged into :data:`.setup.SETTINGS`
-SETTINGS: dict[str, tuple[str, str, str]] = {
-    "group columns": ("group_columns", "columns", "several demographic columns for adverse impact, e.g. Sex, "
-                                                  "Ethnicity, Age 40+ (one impact table each; optional)"),
-    "reference groups": ("reference_groups", "text", "the reference group of each demographic column, e.g. "
-                                                     "Sex: Men; Ethnicity: White (default: the group with the "
-                                                     "highest selection rate)"),
-    "stratum column": ("stratum", "column", "sites, years or job groups to pool the impact analysis over "
-                                            "(optional; the Strata sheet)"),
-    "stage columns": ("stages", "columns", "the stages of the selection process in order, each coded "
-                                           "yes/no as the hired column (optional; the Stages sheet)"),
-}
-
 
 @dataclasses.dataclass(frozen=True)
 class Demographic:
@@ -100,8 +88,6 @@ def parse_reference_groups(text: str | None, where: str = "reference groups") ->
     >>> parse_reference_groups("Sex: Men; Ethnicity : White")
     {'sex': 'Men', 'ethnicity': 'White'}
     """
-    from .setup import SetupError
-
     out: dict[str, str] = {}
     if not text:
         return out
@@ -120,8 +106,6 @@ def parse_reference_groups(text: str | None, where: str = "reference groups") ->
 
 
 def _labels(rows, col: int) -> list:
-    from .setup import cell_text
-
     # a label as the cell shows it: 2.0 is "2", a logical value is TRUE/FALSE, text keeps its spaces
     return [("TRUE" if g else "FALSE") if isinstance(g, bool) else g if isinstance(g, str) else cell_text(g)
             for g in (row[col] if col < len(row) else None for row in rows)]
@@ -139,12 +123,11 @@ def _blank_lines(d: Demographic, sheet: str, role: str) -> list[str]:
             f"the counts by {d.header!r}" for i, x in enumerate(d.groups) if x is None]
 
 
-def read_impact_data(data, resolve, used: list[int], report) -> ImpactData:
+def read_impact_data(data, resolve, used: list[int], report, hired_code) -> ImpactData:
     """Read the demographic, stratum and stage columns of ``data`` (a :class:`.setup.StudyData` whose group
     column is read already). ``resolve(name, setting)`` gives a column's 0-based index (or refuses);
-    ``used`` the columns other roles take; ``report(kind, lines)`` lists doubtful cells."""
-    from .data_checks import hired_code
-    from .setup import HIRED_CODINGS, SetupError
+    ``used`` the columns other roles take; ``report(kind, lines)`` lists doubtful cells; ``hired_code`` reads a
+    yes/no coding (that of the hired column)."""
 
     s, sheet, header, rows = data.setup, data.sheet, data.header, data.rows
     given = parse_reference_groups(s.reference_groups, s.source.get("reference_groups", "reference groups"))
@@ -201,8 +184,6 @@ def read_impact_data(data, resolve, used: list[int], report) -> ImpactData:
 
 def _stage_columns(names, resolve, header, sheet: str) -> list[int]:
     """The stage columns in order: each a header, or FIRST:LAST for the columns from one to the other."""
-    from .setup import SetupError
-
     out: list[int] = []
     for name in names:
         if ":" in name:
