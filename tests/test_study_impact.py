@@ -306,3 +306,93 @@ def test_the_extra_selections_figure_is_cited_to_the_regulation_and_peer_reviewe
     reference = lookup("IMPACT_SHORTFALL").reference
     assert "1607.4(D)" in reference and "Journal of Applied Psychology" in reference
     assert "Biddle" not in reference and "Gower" not in reference
+
+
+# ---------------------------------------------------------------- LibreOffice Calc
+
+NEW_SHEETS = ("Impact", "Strata", "Cuts", "Stages", "Groups")
+
+
+def test_libreoffice_shows_the_stored_value_of_every_formula_of_the_new_sheets(tmp_path, soffice):
+    # what a reviewer opens: every formula cell of the new sheets as LibreOffice Calc shows it (its CSV export)
+    # equals the value trueband's recalculation stored
+    from test_study_libreoffice import CSV_FILTER, convert, mismatched_cells
+
+    header, rows = table(n=200, seed=5)
+    result = make_study(write_book(tmp_path / "d.xlsx", header, rows, SETUP), tmp_path / "study.xlsx")
+    convert(soffice, result.path, CSV_FILTER, tmp_path / "csv", tmp_path / "profile")
+    checked, mismatches = mismatched_cells(result, tmp_path, NEW_SHEETS)
+    assert checked > 500
+    assert not mismatches, mismatches[:10]
+
+
+def test_libreoffice_recomputes_the_new_sheets_standard_formulas_to_the_same_values(tmp_path, soffice):
+    # LibreOffice's own COUNTIFS (with several conditions), INDEX/MATCH, MIN, SUM, COUNTIF, AVERAGE, STDEV
+    # and IF, recomputed on opening: the same values trueband stored (cells that call trueband's functions
+    # show #NAME? there and are skipped, as are cells that depend on them)
+    from openpyxl.formula import Tokenizer
+
+    from test_study_libreoffice import CSV_FILTER, RECALC_ALWAYS, convert, read_csv, same
+    from test_study_libreoffice import shown as shown_csv
+    from trueband.funcs import REGISTRY
+    from trueband.funcs.registry import normalize_name
+
+    header, rows = table(n=200, seed=5)
+    result = make_study(write_book(tmp_path / "d.xlsx", header, rows, SETUP), tmp_path / "study.xlsx")
+    profile = tmp_path / "profile"
+    (profile / "user").mkdir(parents=True)
+    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
+    convert(soffice, result.path, CSV_FILTER, tmp_path / "csv", profile)
+    formulas = load_workbook(result.path, data_only=False)
+    values = load_workbook(result.path, data_only=True)
+    csv_rows = {}
+
+    def csv(sheet):
+        if sheet not in csv_rows:
+            csv_rows[sheet] = read_csv(tmp_path, sheet)
+        return csv_rows[sheet]
+
+    tainted_memo: dict = {}
+
+    def tainted(sheet, coordinate) -> bool:
+        """The cell calls a trueband function, or reads a cell that does (LibreOffice cannot compute it)."""
+        key = (sheet, coordinate)
+        if key in tainted_memo:
+            return tainted_memo[key]
+        tainted_memo[key] = False
+        text = formulas[sheet][coordinate].value
+        result_ = False
+        if isinstance(text, str) and text.startswith("="):
+            items = Tokenizer(text).items
+            names = {normalize_name(t.value.rstrip("(")) for t in items if t.type == "FUNC" and t.subtype == "OPEN"}
+            result_ = bool(names & set(REGISTRY))
+            for t in items:
+                if result_ or t.type != "OPERAND" or t.subtype != "RANGE":
+                    continue
+                where, _, rng = t.value.rpartition("!")
+                other = where.strip("'").replace("''", "'") if where else sheet
+                if other not in formulas.sheetnames:
+                    continue
+                cells = formulas[other][rng.replace("$", "")]
+                cells = [cells] if not isinstance(cells, tuple) else [c for r in cells for c in (
+                    r if isinstance(r, tuple) else (r,))]
+                result_ = any(tainted(other, c.coordinate) for c in cells)
+        tainted_memo[key] = result_
+        return result_
+
+    checked, mismatches = {}, []
+    for sheet in (*NEW_SHEETS, "Bands"):
+        for row in formulas[sheet].iter_rows():
+            for c in row:
+                text = c.value
+                if not (isinstance(text, str) and text.startswith("=")) or tainted(sheet, c.coordinate):
+                    continue
+                theirs = shown_csv(csv(sheet), c.row, c.column)
+                checked[sheet] = checked.get(sheet, 0) + 1
+                if not same(values[sheet][c.coordinate].value, theirs):
+                    mismatches.append((sheet, c.coordinate, text[:70], values[sheet][c.coordinate].value, theirs))
+    assert not mismatches, mismatches[:10]
+    # the per-group score columns of Bands, the counts of every sheet
+    assert checked.get("Bands", 0) >= 200 * 5
+    for sheet in NEW_SHEETS:
+        assert checked.get(sheet, 0) >= 10, (sheet, checked)
