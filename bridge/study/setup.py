@@ -34,6 +34,10 @@ setting                  value
                          the median criterion value)
 ``reference group``      the group others are compared with (default: the
                          group with the highest selection rate)
+``group columns``,       several demographic columns, a reference group per
+``reference groups``,    column, a stratum column and the stages of the
+``stratum column``,      process (read by :mod:`.setup_impact`)
+``stage columns``
 ``test name``, ``job title``, ``organisation``  words for the titles
 =======================  ====================================================
 

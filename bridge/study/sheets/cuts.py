@@ -40,11 +40,16 @@ def write(ctx: StudyContext, setup: SetupSheet, impact: Impact, bands: BandsLayo
     g.set(1, 1, "Adverse impact at every possible cut", "title")
     row = 2 + g.para(2, 1, CAUTION, "caution")
     scores = d.scores
-    distinct = np.unique(scores[~np.isnan(scores)])
+    # the lowest score as a cut passes everybody: there is nothing to compare, so it is left out
+    distinct = np.unique(scores[~np.isnan(scores)])[1:]
+    if not distinct.size:
+        ctx.not_computable_at(g, row, 1, "every applicant has the same score; no cut separates anyone")
+        return Cuts()
     cuts = distinct
     if distinct.size > MAX_CUTS:
         cuts = distinct[np.unique(np.linspace(0, distinct.size - 1, MAX_CUTS).round().astype(int))]
-    row += g.para(row, 1, f"One row per cut: passing = score at or above it. {distinct.size} distinct scores"
+    row += g.para(row, 1, f"One row per cut: passing = score at or above it. {distinct.size} distinct scores "
+                          f"above the lowest (a cut at the lowest score passes everybody)"
                           + (f"; {cuts.size} of them, evenly spread, are shown." if cuts.size < distinct.size
                              else ".") + " Each group is compared with the reference group of its Impact table; "
                           "the lowest impact ratio of the row is shown with its group, interval, z, Fisher p and "
