@@ -296,6 +296,8 @@ def test_command_line_takes_several_group_columns_strata_and_stages(tmp_path, ca
     ws = wb["Impact"]
     text = " ".join(str(c) for r in ws.iter_rows(values_only=True) for c in r if c is not None)
     assert "Demographic column: Ethnicity" in text and "(as given in the setup)" in text
+    line = next(x for x in capsys.readouterr().out.splitlines() if "lowest impact ratio" in x)
+    assert "(Sex)" in line or "(Ethnicity)" in line  # the group and column of the lowest ratio
 
 
 def test_the_extra_selections_figure_is_cited_to_the_regulation_and_peer_reviewed_work():

@@ -142,7 +142,9 @@ def headline_lines(h: dict) -> list[str]:
     if "min_ratio" in h:
         below = h.get("n_below")
         flag = (f"; {below} group(s) below four-fifths" if isinstance(below, (int, float)) else "")
-        lines.append(f"  lowest impact ratio at cut {_fmt(h.get('cut'), 1)}: {_fmt(h['min_ratio'])}{flag}")
+        where = f" ({h['min_ratio_where']})" if isinstance(h.get("min_ratio_where"), str) and not h[
+            "min_ratio_where"].startswith(NOT_COMPUTABLE) else ""
+        lines.append(f"  lowest impact ratio at cut {_fmt(h.get('cut'), 1)}: {_fmt(h['min_ratio'])}{where}{flag}")
     if "taylor_russell" in h:
         tr, base = _fmt(h["taylor_russell"]), _fmt(h.get("base_rate"))
         if isinstance(h["taylor_russell"], (int, float)):

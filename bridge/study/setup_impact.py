@@ -24,7 +24,6 @@ without these settings reads exactly as before: ``group column`` alone is the on
 from __future__ import annotations
 
 import dataclasses
-from typing import Any
 
 from openpyxl.utils import get_column_letter
 

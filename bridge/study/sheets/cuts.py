@@ -139,7 +139,6 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
                                       passing[t.reference], apps[t.reference], style="coef"))
         _lowest(ctx, g, r, c_low, focal, ratios, passing, apps, t, names_row, c_pass, c_ratio, setup)
         if with_criterion:
-            share = float(counts.passing[i].sum() / max(1, sum(applicants.values())))
             share = float((d.scores[~np.isnan(d.scores)] >= cut).mean())
             sr = ctx.expression(g, r, c_low + len(tail) - 2, 'COUNTIF({scores},">="&{cut})/COUNT({scores})',
                                 lambda v=share: v, style="coef", scores=bands.scores, cut=cut_ref)

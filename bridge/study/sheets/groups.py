@@ -11,7 +11,7 @@ import dataclasses
 
 import numpy as np
 
-from ..context import Ref, StudyContext, area
+from ..context import Ref, StudyContext
 from ..words import CAUTION
 from .bands import BandsLayout
 from .impact import Impact

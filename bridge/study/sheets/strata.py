@@ -13,7 +13,7 @@ import dataclasses
 
 import numpy as np
 
-from ..context import Ref, StudyContext, area, cell
+from ..context import Ref, StudyContext, area
 from ..words import CAUTION, POOLING_REFUSED
 from .bands import BandsLayout
 from .impact import Impact, ImpactTable
