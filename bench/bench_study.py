@@ -88,11 +88,11 @@ def one(n: int, impact: bool) -> dict:
         tmp = Path(tmp)
         data = tmp / "data.xlsx"
         write_data(data, n, impact)
-        t0 = time.perf_counter()
+        t0, c0 = time.perf_counter(), time.process_time()
         result = make_study(data, tmp / "study.xlsx")
-        total = time.perf_counter() - t0
+        total, cpu = time.perf_counter() - t0, time.process_time() - c0
         floor = copy_floor(data, tmp / "copy.xlsx")
-        return {"n": n, "setup": "impact" if impact else "plain", "total": total, **result.timings, "floor": floor, "peak_mb": _peak_mb(),
+        return {"n": n, "setup": "impact" if impact else "plain", "total": total, "cpu": cpu, **result.timings, "floor": floor, "peak_mb": _peak_mb(),
                 "formulas": result.recalc_report.formulas, "errors": len(result.recalc_report.errors),
                 "size_mb": (tmp / "study.xlsx").stat().st_size / 2 ** 20}
 
@@ -105,7 +105,7 @@ def main(argv: list[str]) -> int:
         print(__doc__)
         return 0 if argv and argv[0] in ("-h", "--help") else 2
     sizes = [int(a) for a in argv] or [5000, 50000]
-    print(f"{'candidates':>10} {'setup':>6} {'total s':>8} {'read':>6} {'build':>6} {'recalc':>7} {'recalc %':>8} "
+    print(f"{'candidates':>10} {'setup':>6} {'cpu s':>6} {'total s':>8} {'read':>6} {'build':>6} {'recalc':>7} {'recalc %':>8} "
           f"{'build %':>7} {'floor s':>7} {'study/floor':>11} {'peak MB':>8} {'formulas':>9} {'errors':>6}")
     for n, which in ((n, w) for n in sizes for w in ("plain", "impact")):
         out = subprocess.run([sys.executable, __file__, "--one", str(n), which], capture_output=True, text=True)
@@ -114,10 +114,11 @@ def main(argv: list[str]) -> int:
             continue
         r = json.loads(out.stdout.strip().splitlines()[-1])
         peak = f"{r['peak_mb']:.0f}" if r["peak_mb"] is not None else "n/a"
-        print(f"{n:>10} {which:>6} {r['total']:8.1f} {r['read']:6.1f} {r['build']:6.1f} {r['recalculate']:7.1f} "
+        print(f"{n:>10} {which:>6} {r['cpu']:6.1f} {r['total']:8.1f} {r['read']:6.1f} {r['build']:6.1f} {r['recalculate']:7.1f} "
               f"{100 * r['recalculate'] / r['total']:7.0f}% {100 * r['build'] / r['total']:6.0f}% "
               f"{r['floor']:7.1f} {r['total'] / r['floor']:10.1f}x {peak:>8} {r['formulas']:>9} {r['errors']:>6}")
-    print("target: 50,000 candidates under 60 s and under 2,048 MB peak")
+    print("target: 50,000 candidates under 60 s and under 2,048 MB peak (cpu s: this process's processor time, "
+          "which a machine shared with other work does not inflate as it does the wall-clock total)")
     return 0
 
 
