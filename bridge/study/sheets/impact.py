@@ -335,4 +335,4 @@ def _distribution(ctx: StudyContext, g, chart_row: int, setup: SetupSheet, rel: 
                                                charts.area(area(SHEET, c0 + 4, row + 1, c0 + 4, last)),
                                                cut_text=f"cut at {setup.cut:g}"), f"{anchor_col}{chart_row}"))
     g.charts[-1][0].width = 14
-    g.print_area = f"A1:J{chart_row + 21}"
+    g.print_area = f"A1:O{chart_row + 21}"
