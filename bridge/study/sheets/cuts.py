@@ -54,7 +54,8 @@ def write(ctx: StudyContext, setup: SetupSheet, impact: Impact, bands: BandsLayo
                              else ".") + " Each group is compared with the reference group its Impact table "
                           "had when the study was built; the lowest impact ratio of the row is shown with its "
                           "group, interval, z, Fisher p and the extra selections to reach four-fifths. A cut is a "
-                          "decision for professional judgment: these figures show the trade-off, they do not choose.", width=150)
+                          "decision for professional judgment: these figures show the trade-off, they do not "
+                          "choose.", width=150)
     row += g.para(row, 1, EXTRA_SELECTIONS_WORDS, width=150) + 1
     validity = getattr(utility, "validity_used", None)
     chart = ScatterChart()
