@@ -450,9 +450,10 @@ def _shortfall(fs: int, fa: int, rs: int, ra: int, target: Fraction) -> int:
 
 
 @spreadsheet("IMPACT_SHORTFALL", returns="integer", elementwise=_COUNTS + ["target"],
-             reference=_CAUTION_REFERENCE + " (four-fifths rule); Biddle, D. A. (2006). Adverse Impact and Test "
-                                            "Validation (2nd ed.), Gower (practical-significance checks: how "
-                                            "many more selections change the result).")
+             reference=_CAUTION_REFERENCE + " (four-fifths rule); Roth, P. L., Bobko, P. & Switzer, F. S. (2006). "
+                                            "Modeling the behavior of the 4/5ths rule for determining adverse "
+                                            "impact: reasons for caution. Journal of Applied Psychology 91, "
+                                            "507-522 (how few selections move the rule's verdict).")
 def impact_shortfall(focal_selected: int, focal_applicants: int, ref_selected: int, ref_applicants: int,
                      *, target: float = 0.8) -> int:
     """Smallest number of additional focal selections that lifts the impact ratio to a target.

@@ -446,9 +446,21 @@ _TIE = 1e-7
 _NEGLIGIBLE = 1e-300
 
 
-def _stratum_pmfs(t: _Tables):
+#: The first pass's threshold: probabilities below this fraction of the largest are dropped while convolving.
+#: Each dropped probability changes a final (rescaled) probability by at most itself, so the p value's relative
+#: error is at most (the sum of the probabilities dropped) x (support of the total) / P(observed), checked after
+#: each pass; when the bound is above _FAST_ERROR the distribution is built again with the threshold that
+#: bound asks for (or _NEGLIGIBLE when the observed total was dropped).
+_FAST_NEGLIGIBLE = 1e-20
+
+#: Largest bound on the first pass's relative error of the p value that is accepted (else the second pass).
+_FAST_ERROR = 1e-12
+
+
+def _stratum_pmfs(t: _Tables, negligible: float = _NEGLIGIBLE):
     """Each stratum's hypergeometric pmf of its focal-selected count (margins fixed), scaled to a maximum of 1,
-    trimmed of negligible ends: a list of (lowest count, pmf)."""
+    trimmed of ends below ``negligible``: a list of (lowest count, pmf), and the sum of the probabilities
+    dropped."""
     n1, n0, m1 = t.focal, t.c + t.d, t.selected
     low = np.maximum(0.0, m1 - n0)
     high = np.minimum(n1, m1)
@@ -463,34 +475,52 @@ def _stratum_pmfs(t: _Tables):
     # log C(n1, x) + log C(n0, m1 − x), the constant log C(n, m1) left out: each pmf is rescaled below.
     logp = (-gl(x + 1) - gl(n1[owner] - x + 1) - gl(m1[owner] - x + 1) - gl(n0[owner] - m1[owner] + x + 1))
     peak = np.maximum.reduceat(logp, starts)
-    p = np.exp(logp - peak[owner])
-    p /= np.add.reduceat(p, starts)[owner]
-    kept = np.flatnonzero(p >= _NEGLIGIBLE * np.maximum.reduceat(p, starts)[owner])
+    p = np.exp(logp - peak[owner])  # each stratum's largest is exactly 1
+    kept = np.flatnonzero(p >= negligible)
     first = np.minimum.reduceat(kept, np.searchsorted(owner[kept], np.arange(sizes.size)))
     last = np.maximum.reduceat(kept, np.searchsorted(owner[kept], np.arange(sizes.size)))
-    return [(int(low[k]) + int(first[k] - starts[k]), p[first[k]:last[k] + 1]) for k in range(sizes.size)]
+    pmfs = [(int(low[k]) + int(first[k] - starts[k]), p[first[k]:last[k] + 1]) for k in range(sizes.size)]
+    # a stratum's pmf is unimodal: what lies outside [first, last] is what is below the threshold
+    return pmfs, float(np.sum(p[p < negligible]))
 
 
-def _convolve_all(pmfs):
-    """The distribution of the sum, as (lowest total, pmf scaled to a maximum of 1): pairwise convolutions
-    (a balanced tree costs far less than adding one stratum at a time to a growing array), each trimmed of
-    probabilities below _NEGLIGIBLE of its largest."""
+def _convolve_all(pmfs, negligible: float = _NEGLIGIBLE):
+    """The distribution of the sum, as (lowest total, pmf scaled to a maximum of 1, probabilities dropped):
+    pairwise convolutions (a balanced tree costs far less than adding one stratum at a time to a growing
+    array), each trimmed of probabilities below ``negligible`` of its largest; and the sum of those dropped."""
     items = [(low, pmf) for low, pmf in pmfs if pmf.size > 1]
     offset = sum(low for low, pmf in pmfs if pmf.size == 1)
+    dropped = 0.0
     if not items:
-        return offset, np.ones(1)
+        return offset, np.ones(1), dropped
     while len(items) > 1:
         merged = []
         for (low_a, a), (low_b, b) in zip(items[0::2], items[1::2]):
             dist = np.convolve(a, b)
-            dist /= dist.max()
-            keep = np.flatnonzero(dist >= _NEGLIGIBLE)
+            dist *= 1.0 / dist.max()
+            keep = np.flatnonzero(dist >= negligible)
+            dropped += float(np.sum(dist[:keep[0]]) + np.sum(dist[keep[-1] + 1:]))
             merged.append((low_a + low_b + int(keep[0]), dist[keep[0]:keep[-1] + 1]))
         if len(items) % 2:
             merged.append(items[-1])
         items = merged
     low, dist = items[0]
-    return offset + low, dist / dist.max()
+    return offset + low, dist / dist.max(), dropped
+
+
+def _exact_p(t: _Tables, negligible: float) -> tuple[float, float]:
+    """(p, a bound on its relative error from the dropped probabilities) with the threshold ``negligible``."""
+    pmfs, dropped = _stratum_pmfs(t, negligible)
+    offset, dist, more = _convolve_all(pmfs, negligible)
+    observed = int(np.sum(t.a)) - offset
+    if observed < 0 or observed >= dist.size:
+        # the observed total lies where the probabilities were dropped as negligible
+        return 0.0, (math.inf if negligible > _NEGLIGIBLE else 0.0)
+    at = dist[observed]
+    tail = np.sum(dist[dist <= at * (1.0 + _TIE)])
+    # each dropped probability (rescaled, as the arrays are) changes any final one by at most itself
+    error = (dropped + more + negligible) * dist.size / at if negligible > _NEGLIGIBLE else 0.0
+    return float(min(1.0, tail / np.sum(dist))), error
 
 
 @spreadsheet("POOLED_EXACT_P", returns="probability",
@@ -521,9 +551,13 @@ def pooled_exact_p(strata: Range) -> float:
     Probabilities within a relative 1e-7 of the observed one count as ties
     (R's ``mantelhaen.test(exact = TRUE)`` convention). The distribution is
     built by direct convolution in floating point, dropping probabilities
-    below 1e-300 of the largest, so a p value below about 1e-290 is returned
-    as 0. The work grows with the number of strata times the spread of the
-    total (about 0.3 s for 1,000 strata of 40-240 applicants; ``bench/bench_impact.py``),
+    below a threshold of the largest: first 1e-20, then, when a bound on the
+    error this can cause in p (the sum of the probabilities dropped times the
+    support, over the observed probability) is above 1e-12 of p,
+    again with the smaller threshold the bound asks for, down to 1e-300; so
+    a p value below about 1e-290 is returned as 0. The work grows with the number of strata times the spread of the
+    total (``bench/bench_impact.py`` times 1,000 strata of 40-240 applicants; a p value far in a tail needs the
+    finer passes and takes longest),
     far more than ``POOLED_IMPACT_P``. The strata may hold at most 2,000,000 possible tables in all
     (``#NUM!`` beyond; use ``POOLED_IMPACT_P``). Strata without information
     are left out (they have one possible table).
@@ -534,9 +568,13 @@ def pooled_exact_p(strata: Range) -> float:
     0.001593
     """
     t = _tables(strata)
-    offset, dist = _convolve_all(_stratum_pmfs(t))
-    observed = int(np.sum(t.a)) - offset
-    if observed < 0 or observed >= dist.size:
-        return 0.0  # the observed total lies where the probabilities were dropped as negligible
-    tail = np.sum(dist[dist <= dist[observed] * (1.0 + _TIE)])
-    return float(min(1.0, tail / np.sum(dist)))
+    # a fast pass with a coarse threshold; when its error bound is not negligible (the observed total far in a
+    # tail), the distribution is built again keeping everything down to 1e-300 of the largest
+    negligible = _FAST_NEGLIGIBLE
+    p, error = _exact_p(t, negligible)
+    while error > _FAST_ERROR:
+        # the threshold that would have met the bound, with room for the longer arrays it keeps
+        negligible = max(_NEGLIGIBLE, min(negligible * 1e-20, negligible * _FAST_ERROR / error / 1e4)) \
+            if math.isfinite(error) else _NEGLIGIBLE
+        p, error = _exact_p(t, negligible)
+    return p

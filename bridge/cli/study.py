@@ -20,7 +20,8 @@ _OPTIONS = {"sheet": "data_sheet", "id": "id", "group": "group", "items": "items
             "item_min": "item_min", "item_max": "item_max", "total": "total",
             "ratings": "ratings", "criterion": "criterion", "retest": "retest", "hired": "hired", "cut": "cut",
             "confidence": "confidence", "criterion_reliability": "criterion_reliability", "success": "success",
-            "reference_group": "reference_group", "test_name": "test_name"}
+            "reference_group": "reference_group", "test_name": "test_name",
+            "reference_groups": "reference_groups", "stratum": "stratum", "stages": "stages"}
 
 
 def register(sub) -> None:
@@ -35,7 +36,8 @@ def register(sub) -> None:
     p.add_argument("--overwrite", action="store_true", help="replace the output if it exists")
     p.add_argument("--sheet", help="the data sheet")
     p.add_argument("--id", help="header of the id column")
-    p.add_argument("--group", help="header of the applicant-group column")
+    p.add_argument("--group", help="header of the applicant-group column, or several demographic columns separated by "
+                                   "commas (e.g. Sex,Ethnicity), one impact table each")
     p.add_argument("--items", help="item columns: FIRST:LAST or a comma-separated list of headers")
     p.add_argument("--reverse", help="reverse-keyed items (scored minimum + maximum - response): FIRST:LAST or a "
                                      "comma-separated list of headers; needs --item-min and --item-max")
@@ -51,6 +53,11 @@ def register(sub) -> None:
     p.add_argument("--criterion-reliability", type=float, help="criterion reliability (default 0.52)")
     p.add_argument("--success", type=float, help="criterion value that counts as success (default: median)")
     p.add_argument("--reference-group", help="the group others are compared with")
+    p.add_argument("--reference-groups", help="a reference group per demographic column, e.g. "
+                                              "'Sex: Men; Ethnicity: White' (default: the highest selection rate)")
+    p.add_argument("--stratum", help="header of the stratum column (sites, years, job groups) to pool impact over")
+    p.add_argument("--stages", help="stage columns of the selection process in order, each yes/no: a "
+                                    "comma-separated list of headers or FIRST:LAST")
     p.add_argument("--test-name", help="name of the test, for titles")
     p.set_defaults(handler=run_study)
 
@@ -69,8 +76,10 @@ def _overrides(args) -> dict:
         value = getattr(args, opt, None)
         if value is None:
             continue
-        if field in ("items", "ratings", "reverse"):
+        if field in ("items", "ratings", "reverse", "stages"):
             value = tuple(p.strip() for p in value.split(",") if p.strip())
+        elif field == "group" and "," in value:  # several demographic columns
+            field, value = "group_columns", tuple(p.strip() for p in value.split(",") if p.strip())
         out[field] = value
     return out
 
@@ -90,7 +99,7 @@ def headline_values(path: Path, result: StudyResult) -> dict:
     from openpyxl import load_workbook
 
     keys = ("n_scored", "n_criterion", "alpha", "alpha_lower", "alpha_upper", "sem", "band_width",
-            "icc_agreement_average", "r", "r_lower", "r_upper", "r_p", "operational", "min_ratio", "n_below",
+            "icc_agreement_average", "r", "r_lower", "r_upper", "r_p", "operational", "min_ratio", "n_below", "min_ratio_where",
             "taylor_russell", "base_rate", "bcg")
     wanted = {k: result.cells[k] for k in keys if k in result.cells}
     wb = load_workbook(path, read_only=True, data_only=True)
@@ -133,7 +142,9 @@ def headline_lines(h: dict) -> list[str]:
     if "min_ratio" in h:
         below = h.get("n_below")
         flag = (f"; {below} group(s) below four-fifths" if isinstance(below, (int, float)) else "")
-        lines.append(f"  lowest impact ratio at cut {_fmt(h.get('cut'), 1)}: {_fmt(h['min_ratio'])}{flag}")
+        where = f" ({h['min_ratio_where']})" if isinstance(h.get("min_ratio_where"), str) and not h[
+            "min_ratio_where"].startswith(NOT_COMPUTABLE) else ""
+        lines.append(f"  lowest impact ratio at cut {_fmt(h.get('cut'), 1)}: {_fmt(h['min_ratio'])}{where}{flag}")
     if "taylor_russell" in h:
         tr, base = _fmt(h["taylor_russell"]), _fmt(h.get("base_rate"))
         if isinstance(h["taylor_russell"], (int, float)):

@@ -75,8 +75,12 @@ def plan(ctx: StudyContext) -> tuple[SetupSheet, Bands]:
     raters = sheets.raters.write(ctx, setup)
     validity = sheets.validity.write(ctx, setup, rel, layout)
     impact = sheets.impact.write(ctx, setup, rel, layout)
+    strata = sheets.strata.write(ctx, setup, impact, layout)
     utility = sheets.utility.write(ctx, setup, layout, validity)
-    sheets.summary.write(ctx, setup, rel, raters, validity, impact, utility)
+    sheets.groups.write(ctx, setup, impact, layout)
+    sheets.stages.write(ctx, setup, impact, layout)
+    sheets.cuts.write(ctx, setup, impact, layout, utility)
+    sheets.summary.write(ctx, setup, rel, raters, validity, impact, utility, strata)
     sheets.notes.write(ctx)
     return setup, bands
 

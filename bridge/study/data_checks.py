@@ -19,6 +19,7 @@ from openpyxl.utils import get_column_letter
 
 from trueband.funcs.impact import group_key, tally_groups
 
+from . import setup_impact
 from .setup import (HIRED_CODINGS, NO_CODES, SETUP_SHEET, YES_CODES, SetupError, StudyData, StudySetup,
                     cell_text)
 
@@ -254,6 +255,7 @@ def note_uncached(data: StudyData, uncached, width: int) -> None:
 def check_data(setup: StudySetup, path: Path, sheet: str, header, rows) -> StudyData:
     """The data of ``rows`` (below ``header``) as the setup reads them, checked; problems listed."""
     index, dupes = _header_index(header, sheet)
+    setup = setup_impact.normalise(setup)  # the first of several group columns is the group column
     if not setup.items and setup.total is None:
         raise SetupError(f"no test score: give 'item columns' (or 'total column') on the {SETUP_SHEET} sheet "
                          f"or with --items / --total")
@@ -316,6 +318,9 @@ def check_data(setup: StudySetup, path: Path, sheet: str, header, rows) -> Study
             f"sheet '{sheet}', cell {g}{i + 2} (column {header[columns['group']]!r}, group column): blank; the person "
             f"is left out of the adverse-impact counts" for i, x in enumerate(groups) if x is None])
     _report(data, "hired values", hired_problems)
+    data.impact = setup_impact.read_impact_data(
+        data, lambda name, setting: _resolve(name, setting, index, dupes, header, sheet), used,
+        lambda kind, lines: _report(data, kind, lines), hired_code)
     scores = data.scores
     if np.isnan(scores).all():
         what = f"column {setup.total!r} holds" if total is not None else "the item columns hold"

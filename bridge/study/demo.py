@@ -5,7 +5,9 @@ coordinators**. Each applicant took a 40-item *Dispatch Knowledge Test*
 (items scored 0/1) and a structured interview rated 1 to 5 by three raters;
 the people hired earlier under the old process have a supervisor performance
 rating; a few applicants sat the test twice; applicants belong to two groups
-named neutrally ("Group A", "Group B") for the adverse-impact analysis.
+named neutrally ("Group A", "Group B") for the adverse-impact analysis, and
+to an age band; they applied at one of three invented sites and passed (or
+not) a paper screen and an interview before hiring (:mod:`.demo_impact`).
 
 Everything is generated from a fixed seed with :func:`numpy.random.default_rng`,
 so the demo is the same on every machine. The structure is chosen to look like
@@ -32,6 +34,8 @@ import dataclasses
 
 import numpy as np
 
+from .demo_impact import HEADER as EXTRA_HEADER, ImpactExtras, make_impact_extras
+
 __all__ = ["DemoData", "make_demo", "DEMO_SEED", "ORGANISATION", "ROLE", "TEST_NAME"]
 
 DEMO_SEED = 20261201
@@ -51,6 +55,7 @@ class DemoData:
     performance: list[float | None]   # blank (None) for people not hired or not yet rated
     retest: list[float | None]  # blank for people who sat the test once
     hired: list[str]            # "yes" / "no"
+    extras: ImpactExtras | None = None   # age band, site and stages (see .demo_impact)
 
     @property
     def n(self) -> int:
@@ -61,13 +66,14 @@ class DemoData:
 
     def header(self) -> list[str]:
         return ["Applicant", "Group", *self.item_names, *self.rater_names,
-                "Supervisor rating", "Retest score", "Hired"]
+                "Supervisor rating", "Retest score", "Hired", *(EXTRA_HEADER if self.extras is not None else ())]
 
     def rows(self):
         """The data rows as lists of plain Python values (blank = None)."""
         for i in range(self.n):
             yield [self.ids[i], self.groups[i], *self.items[i].tolist(), *self.ratings[i].tolist(),
-                   self.performance[i], self.retest[i], self.hired[i]]
+                   self.performance[i], self.retest[i], self.hired[i],
+                   *(self.extras.row(i) if self.extras is not None else ())]
 
 
 def make_demo(n: int = 400, seed: int = DEMO_SEED) -> DemoData:
@@ -112,5 +118,6 @@ def make_demo(n: int = 400, seed: int = DEMO_SEED) -> DemoData:
 
     ids = [f"OHL-{1001 + i}" for i in range(n)]
     groups = ["Group B" if b else "Group A" for b in group_b]
+    extras = make_impact_extras(rng, group_b, composite, hired)  # drawn last: the values above are unchanged
     return DemoData(ids=ids, groups=groups, items=items, ratings=ratings, performance=performance,
-                    retest=retest, hired=["yes" if h else "no" for h in hired])
+                    retest=retest, hired=["yes" if h else "no" for h in hired], extras=extras)

@@ -34,6 +34,10 @@ setting                  value
                          the median criterion value)
 ``reference group``      the group others are compared with (default: the
                          group with the highest selection rate)
+``group columns``,       several demographic columns, a reference group per
+``reference groups``,    column, a stratum column and the stages of the
+``stratum column``,      process (read by :mod:`.setup_impact`)
+``stage columns``
 ``test name``, ``job title``, ``organisation``  words for the titles
 =======================  ====================================================
 
@@ -101,6 +105,18 @@ SETTINGS: dict[str, tuple[str, str, str]] = {
     "job title": ("job_title", "text", "the job, for titles"),
     "organisation": ("organisation", "text", "the employer, for titles"),
 }
+# adverse impact by several columns, strata and stages (read by .setup_impact)
+SETTINGS.update({
+    "group columns": ("group_columns", "columns", "several demographic columns for adverse impact, e.g. Sex, "
+                                                  "Ethnicity, Age 40+ (one impact table each; optional)"),
+    "reference groups": ("reference_groups", "text", "the reference group of each demographic column, e.g. "
+                                                     "Sex: Men; Ethnicity: White (default: the group with the "
+                                                     "highest selection rate)"),
+    "stratum column": ("stratum", "column", "sites, years or job groups to pool the impact analysis over "
+                                            "(optional; the Strata sheet)"),
+    "stage columns": ("stages", "columns", "the stages of the selection process in order, each coded "
+                                           "yes/no as the hired column (optional; the Stages sheet)"),
+})
 
 
 
@@ -136,6 +152,10 @@ class StudySetup:
     test_name: str = "the test"
     job_title: str = ""
     organisation: str = ""
+    group_columns: tuple[str, ...] = ()   # several demographic columns (see .setup_impact)
+    reference_groups: str | None = None
+    stratum: str | None = None
+    stages: tuple[str, ...] = ()
     source: Mapping[str, str] = dataclasses.field(default_factory=dict)  # field -> where it was given
 
     def merged(self, overrides: Mapping[str, Any]) -> "StudySetup":
@@ -179,6 +199,7 @@ class StudyData:
     item_scale: tuple[float, float] | None = None                   # (min, max) given, or read from the data
     item_scale_given: bool = False
     raw_items: np.ndarray | None = None                             # the responses before reverse keying
+    impact: Any = None                                              # setup_impact.ImpactData
 
     @property
     def binary_items(self) -> bool:

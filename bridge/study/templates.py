@@ -33,6 +33,7 @@ from openpyxl.worksheet.datavalidation import DataValidation
 from ..formulas.calc_binding import bind_workbook
 from .demo import DemoData
 from .words import CAUTION
+from . import templates_impact
 from .setup import DEFAULT_CRITERION_RELIABILITY, SETTINGS, SETUP_SHEET
 
 __all__ = ["study_data_workbook", "scoring_template", "impact_template", "SCORING_LAYOUT", "IMPACT_LAYOUT"]
@@ -113,10 +114,11 @@ def study_data_workbook(path: str | Path, demo: DemoData | None = None, *, n_ite
         last = demo.n + 1
     else:
         last = capacity + 1
-    hired_col = get_column_letter(len(header))
+    hired_col = get_column_letter(header.index("Hired") + 1)
     dv = DataValidation(type="list", formula1='"yes,no"', allow_blank=True)
     dv.add(f"{hired_col}2:{hired_col}{max(last, capacity + 1)}")
     ws.add_data_validation(dv)
+    templates_impact.stage_lists(ws, header, max(last, capacity + 1))
 
     st = wb.create_sheet(SETUP_SHEET)
     _header(st, 1, ["Setting", "Value", "What it means"])
@@ -130,6 +132,7 @@ def study_data_workbook(path: str | Path, demo: DemoData | None = None, *, n_ite
         "test name": "Dispatch Knowledge Test" if demo is not None else "the test",
         "job title": "cargo dispatch coordinator" if demo is not None else None,
         "organisation": "Osterfell Harbour Logistics" if demo is not None else None,
+        **templates_impact.setup_values(demo),
     }
     for r, (key, (_, kind, meaning)) in enumerate(SETTINGS.items(), start=2):
         st.cell(r, 1, key)

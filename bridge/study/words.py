@@ -4,7 +4,63 @@ from __future__ import annotations
 
 from trueband.funcs.cautions import CAUTION  # the one general caution, shared by every way in
 
-__all__ = ["CAUTION", "NOT_COMPUTABLE"]
+__all__ = ["CAUTION", "NOT_COMPUTABLE", "IMPACT_Z_WORDS", "EXTRA_SELECTIONS_WORDS", "FLIP_WORDS",
+           "SMALL_NUMBERS_WORDS", "RATIO_INTERVAL_WORDS", "REFERENCE_BY_RATE", "POOLING_REFUSED", "STAGES_CAUTION"]
 
 #: What a study cell shows, before the reason, when its figure cannot be computed from the data.
 NOT_COMPUTABLE = "not computable: "
+
+# ---------------------------------------------------------------- adverse impact that stands up (issue 17)
+
+#: How the Impact sheet words z (two-sided; the case-law convention is common practice, not a rule).
+IMPACT_Z_WORDS = (
+    "z is the gap between the two selection rates in standard deviations (standard errors of the gap if the "
+    "rates were equal), two-sided; US courts have often treated a gap of more than two or three standard "
+    "deviations as more than chance (common practice in US case law; the phrase is from Castaneda v. Partida, "
+    "430 U.S. 482, 496 n.17 (1977), and Hazelwood School District v. United States, 433 U.S. 299, 308 n.14 "
+    "(1977); from memory). It is a convention, not a legal test.")
+
+#: The extra selections to reach four-fifths, in the study's own words.
+EXTRA_SELECTIONS_WORDS = (
+    "Extra selections to reach four-fifths: the fewest more people of the group who would have had to be "
+    "selected, everyone else's counts unchanged, for the group's selection rate to reach four-fifths of the "
+    "reference group's (the rule of thumb of the Uniform Guidelines, 29 CFR 1607.4(D)). A small number says "
+    "the four-fifths verdict rests on a few people; the rule's verdicts are unstable with small groups "
+    "(Roth, P. L., Bobko, P. & Switzer, F. S. (2006). Modeling the behavior of the 4/5ths rule for determining "
+    "adverse impact: reasons for caution. Journal of Applied Psychology 91, 507-522).")
+
+#: The flip count, in the study's own words.
+FLIP_WORDS = (
+    "Selections that flip the exact test: how many of the group's selections would have to change for "
+    "Fisher's exact test to give the other verdict at the 0.05 level (added when the gap is significant now, "
+    "removed when it is not). Morris, S. B. & Lobsenz, R. E. (2000). Significance tests and confidence "
+    "intervals for the adverse impact ratio. Personnel Psychology 53, 89-111.")
+
+#: The small-numbers caution with its thresholds and sources.
+SMALL_NUMBERS_WORDS = (
+    "Small numbers: 'yes' when either group has fewer than 30 applicants (common practice; the Uniform "
+    "Guidelines, 29 CFR 1607.4(D), warn of differences 'based on small numbers' without a figure) or when "
+    "fewer than 5 selections or rejections would be expected in a group if both had the pooled rate "
+    "(Cochran, W. G. (1954). Biometrics 10, 417-451). Then rely on Fisher's exact p, not on z, and read "
+    "the four-fifths verdict with caution.")
+
+#: The impact ratio's interval.
+RATIO_INTERVAL_WORDS = (
+    "The impact ratio's interval is the log method for a ratio of two independent proportions (Morris & "
+    "Lobsenz, 2000; Katz et al., 1978): an interval that lies wholly below 0.80 says more than the ratio alone; "
+    "one that spans 0.80 says the data cannot tell. The odds ratio of selection is the group's odds of being "
+    "selected over the reference group's.")
+
+#: The reference group of a demographic column when none is given.
+REFERENCE_BY_RATE = "(the group with the highest selection rate at the cut when the study was built)"
+
+#: Pooling over strata when the odds ratios differ.
+POOLING_REFUSED = (
+    "The odds ratios differ between strata (Breslow–Day p below 0.05): one pooled figure is not supported. The "
+    "aggregate can even point the other way from every stratum (Simpson's paradox), so read the strata below, "
+    "not a pooled headline.")
+
+#: The stages caution.
+STAGES_CAUTION = (
+    "An acceptable bottom line does not excuse a stage with adverse impact: each component of a selection "
+    "process is examined on its own (Connecticut v. Teal, 457 U.S. 440 (1982); 29 CFR 1607.4(C)).")

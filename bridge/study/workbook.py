@@ -23,8 +23,8 @@ from .sheets.setup import SetupSheet
 
 __all__ = ["ANALYSIS_SHEETS", "save"]
 
-ANALYSIS_SHEETS = ("Summary", "Reliability", "Items", "Raters", "Validity", BANDS_SHEET, "Impact", "Utility",
-                   "Notes")
+ANALYSIS_SHEETS = ("Summary", "Reliability", "Items", "Raters", "Validity", BANDS_SHEET, "Impact", "Strata",
+                   "Cuts", "Stages", "Groups", "Utility", "Notes")
 
 
 def _bands_header(wb: Workbook, bands: Bands) -> None:
@@ -46,6 +46,8 @@ def save(ctx: StudyContext, setup: SetupSheet, bands: Bands, path: Path) -> None
     for title in ANALYSIS_SHEETS:
         if title == BANDS_SHEET:
             _bands_header(wb, bands)
+        elif title not in ctx.grids:
+            continue  # a sheet this study has no data for (Strata without a stratum column, ...)
         else:
             ctx.grids[title].write(wb)
     ctx.grids[SETUP_SHEET].write(wb)

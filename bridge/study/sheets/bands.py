@@ -17,6 +17,7 @@ from trueband.funcs import call
 from trueband.funcs.errors import TruebandError, UnknownFunctionError
 
 from ..context import Ref, StudyContext, area, cell, fill_row, formula_text
+from .. import setup_impact
 from ..setup import StudyData
 from ..words import NOT_COMPUTABLE
 from .scored_items import SCORED_SHEET
@@ -37,6 +38,7 @@ class BandsLayout:
     group_numbers: Mapping[str, int]
     group_col: int | None           # the group number column (1-based), when there is a group column
     hired_col: int | None           # the hired column (1-based), when there is a hired column
+    extra: Mapping[str, int] = dataclasses.field(default_factory=dict)  # setup_impact.bands_columns key -> column
 
     def column(self, col: int) -> Ref:
         return area(BANDS_SHEET, col, 2, col, self.last)
@@ -85,7 +87,11 @@ def layout(data: StudyData) -> BandsLayout:
     if data.hired is not None:
         header.append("Hired (1 = yes, as read from the hired column)")
         hired_col = len(header)
-    return BandsLayout(tuple(header), data.n + 1, numbers, group_col, hired_col)
+    extra = {}
+    for key, heading in setup_impact.bands_columns(data):
+        header.append(heading)
+        extra[key] = len(header)
+    return BandsLayout(tuple(header), data.n + 1, numbers, group_col, hired_col, extra)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -165,6 +171,7 @@ def _rows(bands: Bands, data: StudyData) -> Iterator[list[Any]]:
                                 criterion=criterion_here))
     na_band = NOT_COMPUTABLE + "no SEM (see Reliability)"
     group_numbers = bands.layout.group_numbers
+    extra_row = setup_impact.bands_rows(data, bands.layout)
     for i in range(data.n):
         r = i + 2
         row: list[Any] = [fill_row(id_text, r) if id_text is not None else data.ids[i],
@@ -182,4 +189,6 @@ def _rows(bands: Bands, data: StudyData) -> Iterator[list[Any]]:
             row.append(group_numbers.get(data.groups[i]))
         if data.hired_codes is not None:
             row.append(None if data.hired_codes[i] is None else int(data.hired_codes[i]))
+        if extra_row is not None:
+            row += extra_row(i)
         yield row

@@ -1,8 +1,11 @@
-"""Impact: adverse impact at the cut score (selection rates, impact ratios, tests) and the score distribution."""
+"""Impact: adverse impact at the cut score, one table per demographic column (selection rates, impact ratios
+with their intervals, odds ratios, z, Fisher's exact p, extra selections to reach four-fifths, the flip count,
+the small-numbers caution), an overview of the lowest ratios, and the score distribution."""
 
 from __future__ import annotations
 
 import dataclasses
+from typing import Mapping
 
 import numpy as np
 from openpyxl.utils import get_column_letter
@@ -12,156 +15,279 @@ from trueband.funcs.impact import tally_groups
 from .. import charts
 from ..context import Expr, Ref, StudyContext, area, cell
 from ..setup import SetupError
-from ..words import CAUTION
+from ..setup_impact import Demographic
+from ..words import (CAUTION, EXTRA_SELECTIONS_WORDS, FLIP_WORDS, IMPACT_Z_WORDS, RATIO_INTERVAL_WORDS,
+                     REFERENCE_BY_RATE, SMALL_NUMBERS_WORDS)
 from .bands import BandsLayout
 from .reliability import Reliability
 from .setup import SetupSheet
 
-__all__ = ["Impact", "write"]
+__all__ = ["Impact", "ImpactTable", "write", "reference_group", "HEAD"]
 
 SHEET = "Impact"
-DISTRIBUTION_ROW, DISTRIBUTION_COL = 5, 12   # the score distribution's heading (columns L:Q, not printed)
+DISTRIBUTION_ROW, DISTRIBUTION_COL = 5, 20   # the score distribution's heading (columns T:Y, not printed)
+
+#: The table's columns, from A.
+HEAD = ("Group", "Applicants", "Selected", "Selection rate", "Impact ratio (rate ÷ reference rate)",
+        "Below four-fifths?", "z: gap in standard deviations", "Fisher exact p",
+        "Extra selections to reach four-fifths", "Four-fifths of the highest rate", "Impact ratio, lower limit",
+        "Impact ratio, upper limit", "Odds ratio of selection", "Selections that flip the exact test",
+        "Small numbers?")
+
+
+@dataclasses.dataclass(frozen=True)
+class ImpactTable:
+    """One demographic column's table: its groups, reference group and where its figures are."""
+
+    demographic: Demographic
+    numbers: Ref                    # the Bands column of its group numbers
+    reference: str
+    names: tuple[str, ...]
+    counts: Mapping[str, tuple[int, int]]   # group -> (selected, applicants) at the cut
+    ratios: Mapping[str, Ref]       # focal group -> its impact ratio
+    min_ratio: Ref
+    n_below: Ref | None
+    header_row: int
+    first: int
+    last: int
+    key_prefix: str                 # "" for the first column, else "<column>:"
 
 
 @dataclasses.dataclass(frozen=True)
 class Impact:
-    min_ratio: Ref   # the lowest impact ratio
+    min_ratio: Ref                     # the lowest impact ratio (over every demographic column)
+    n_below: Ref | None = None         # comparisons below four-fifths
+    where: Ref | None = None           # the group and column of the lowest ratio (text)
+    tables: tuple[ImpactTable, ...] = ()
 
 
 def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLayout) -> Impact:
     g = ctx.sheet(SHEET)
-    g.widths.update({1: 22, 2: 13, 3: 13, 4: 13, 5: 15, 6: 15, 7: 11, 8: 11, 9: 13, 10: 16})
-    d, s = ctx.data, ctx.setup
+    g.widths.update({1: 22, 2: 13, 3: 13, 4: 13, 5: 15, 6: 15, 7: 13, 8: 11, 9: 15, 10: 16, 11: 12, 12: 12,
+                     13: 12, 14: 14, 15: 12})
+    d = ctx.data
     g.set(1, 1, "Adverse impact at the cut score", "title")
     cut_row = 2 + g.para(2, 1, CAUTION, "caution")
     cut = cell(SHEET, cut_row, 2).fixed()
     g.set(cut_row, 1, "Cut score (from Setup)")
     g.set(cut_row, 2, "=" + setup.cut_cell.address(SHEET), "score")
     g.set(cut_row + 1, 1, "Selected = score at or above the cut")
-    row = cut_row + 3
-    groups = list(d.group_tally.names) if d.group_tally is not None else []
-    if "group" not in d.columns:
-        min_ratio = ctx.not_computable_at(g, row, 1, "no group column was given", key="min_ratio")
-    elif len(groups) < 2:
-        only = f"only one group ({groups[0]!r})" if groups else "no group labels"
-        min_ratio = ctx.not_computable_at(g, row, 1, f"column {s.group!r} on sheet '{d.sheet}' holds {only}; impact "
-                                                     f"compares groups", key="min_ratio")
-    else:
-        min_ratio = _table(ctx, g, row, groups, setup, bands, chart_row=row + len(groups) + 10)
-        # beside the rates chart, on the same page
-        _distribution(ctx, g, row + len(groups) + 10, setup, rel, cut, anchor_col="E")
+    demographics = list(d.impact.demographics) if d.impact is not None else []
+    several = len(demographics) > 1
+    row = cut_row + (5 if several else 3)
+    tables: list[ImpactTable] = []
+    reason = "no group column was given"
+    for k, demo in enumerate(demographics):
+        numbers = bands.group_numbers_range if k == 0 else bands.column(bands.extra[f"group:{k}"])
+        prefix = "" if k == 0 else f"{demo.header}:"
+        if several:
+            g.set(row - 2, 1, f"Demographic column: {demo.header}", "heading")
+        groups = list(demo.tally.names)
+        if len(groups) < 2:
+            only = f"only one group ({groups[0]!r})" if groups else "no group labels"
+            reason = f"column {demo.header!r} on sheet '{d.sheet}' holds {only}; impact compares groups"
+            if several:
+                ctx.not_computable_at(g, row, 1, reason, key=f"{prefix}min_ratio")
+                row += 5
+            continue
+        table = _table(ctx, g, row, demo, numbers, bands.selected, prefix, setup)
+        tables.append(table)
+        row = _table_notes(g, table.last + 5, demo, numbers) + 4
+    if not tables:
+        min_ratio = ctx.not_computable_at(g, row, 1, reason if not several else "no demographic column holds "
+                                          "two groups", key="min_ratio")
+        _distribution(ctx, g, row + 3, setup, rel, cut)
         return Impact(min_ratio)
-    _distribution(ctx, g, row + 3, setup, rel, cut)
-    return Impact(min_ratio)
+    at = row - 2
+    g.set(at, 1, "What the figures mean", "heading")
+    for text in (IMPACT_Z_WORDS, RATIO_INTERVAL_WORDS, EXTRA_SELECTIONS_WORDS, FLIP_WORDS, SMALL_NUMBERS_WORDS):
+        at += g.para(at + 1, 1, text, width=150)
+    min_ratio, n_below, where, at = _overview(ctx, g, at + 3, tables)
+    first = tables[0]
+    chart_row = at + 2
+    g.charts.append((charts.selection_rates(charts.area(area(SHEET, 1, first.first, 1, first.last)),
+                                            charts.area(area(SHEET, 4, first.header_row, 4, first.last)),
+                                            charts.area(area(SHEET, 10, first.header_row, 10, first.last))),
+                     f"A{chart_row}"))
+    g.charts[-1][0].width = 11.5
+    # beside the rates chart, on the same page
+    _distribution(ctx, g, chart_row, setup, rel, cut, anchor_col="E")
+    return Impact(min_ratio, n_below, where, tuple(tables))
 
 
-def _table(ctx: StudyContext, g, row: int, groups: list[str], setup: SetupSheet, bands: BandsLayout,
-           chart_row: int) -> Ref:
-    """The table of groups from ``row`` (the reference group above it) and its chart; returns the lowest ratio."""
-    d = ctx.data
-    scores = d.scores
+def _counts_at_cut(ctx: StudyContext, demo: Demographic, cut: float) -> dict[str, tuple[int, int]]:
+    """Group -> (selected, applicants) among people with a score, counted as the Python functions count."""
+    scores = ctx.data.scores
     has_score = ~np.isnan(scores)
-    selected = has_score & (scores >= setup.cut)
-    # people with a score, counted by group as the Python functions count them (labels merged as
-    # funcs.impact.group_key does); the sheet's COUNTIFS count the same rows by group number
+    selected = has_score & (scores >= cut)
     scored = np.flatnonzero(has_score)
-    tally = tally_groups([d.groups[i] for i in scored], [bool(selected[i]) for i in scored])
-    counts = {name: (tally.selected.get(name, 0), tally.applicants.get(name, 0)) for name in groups}
-    reference = _reference_group(ctx, groups, counts)
+    tally = tally_groups([demo.groups[i] for i in scored], [bool(selected[i]) for i in scored])
+    return {name: (tally.selected.get(name, 0), tally.applicants.get(name, 0)) for name in demo.tally.names}
+
+
+def _table(ctx: StudyContext, g, row: int, demo: Demographic, numbers: Ref, selected_flags: Ref, prefix: str,
+           setup: SetupSheet) -> ImpactTable:
+    """The table of groups of one column from ``row`` (the reference group above it)."""
+    groups = list(demo.tally.names)
+    counts = _counts_at_cut(ctx, demo, setup.cut)
+    reference, how = reference_group(ctx, demo, counts)
     g.set(row - 1, 1, "Reference group (edit to compare with another)")
     g.set(row - 1, 3, reference, "input")
-    head = ("Group", "Applicants", "Selected", "Selection rate", "Impact ratio (rate ÷ reference rate)",
-            "Below four-fifths?", "z", "Fisher exact p", "Shortfall (selections to reach 4/5)",
-            "Four-fifths of the highest rate")
-    for c, h in enumerate(head, start=1):
+    g.set(row - 1, 4, how)
+    for c, h in enumerate(HEAD, start=1):
         g.set(row, c, h, "header")
     first, last = row + 1, row + len(groups)
-    reference_selected, reference_applicants = counts[reference]
     places = dict(name=cell(SHEET, row - 1, 3).fixed(), names=area(SHEET, 1, first, 1, last).fixed())
-    lookup = 'INDEX({column},MATCH({name},{names},0))'
-    reference_selected = Expr(ctx.text(lookup, SHEET, column=area(SHEET, 3, first, 3, last).fixed(), **places),
-                              reference_selected)
-    reference_applicants = Expr(ctx.text(lookup, SHEET, column=area(SHEET, 2, first, 2, last).fixed(), **places),
-                                reference_applicants)
-    group_numbers, selected_flags = bands.group_numbers_range, bands.selected
-    ratios_by_group: dict[str, Ref] = {}
+    lookup = "INDEX({column},MATCH({name},{names},0))"
+    ref_sel, ref_app = counts[reference]
+    ref_sel = Expr(ctx.text(lookup, SHEET, column=area(SHEET, 3, first, 3, last).fixed(), **places), ref_sel)
+    ref_app = Expr(ctx.text(lookup, SHEET, column=area(SHEET, 2, first, 2, last).fixed(), **places), ref_app)
+    ratios: dict[str, Ref] = {}
+    flags: dict[str, Ref] = {}
     for i, name in enumerate(groups):
         r = first + i
         focal_selected, focal_applicants = counts[name]
         g.set(r, 1, name)
-        number = bands.group_numbers[name]
+        number = demo.numbers[name]
         applicants = ctx.expression(g, r, 2, 'COUNTIFS({groups},{number},{selected},">=0")',
-                                    lambda n=focal_applicants: n, style="count", groups=group_numbers,
-                                    number=number, selected=selected_flags)
+                                    lambda n=focal_applicants: n, style="count", groups=numbers, number=number,
+                                    selected=selected_flags)
         chosen = ctx.expression(g, r, 3, "COUNTIFS({groups},{number},{selected},1)", lambda n=focal_selected: n,
-                                style="count", groups=group_numbers, number=number, selected=selected_flags)
-        ctx.formula(g, r, 4, "SELECTION_RATE", chosen, applicants, style="coef", key=f"rate_{name}")
+                                style="count", groups=numbers, number=number, selected=selected_flags)
+        ctx.formula(g, r, 4, "SELECTION_RATE", chosen, applicants, style="coef", key=f"{prefix}rate_{name}")
         g.set(r, 10, ctx.text("=0.8*MAX({rates})", SHEET, rates=area(SHEET, 4, first, 4, last).fixed()), "coef")
         if name == reference:
-            for c in range(5, 10):
-                g.set(r, c, "reference group" if c == 5 else "")
+            g.set(r, 5, "reference group")
             continue
-        for c, function, style in ((5, "IMPACT_RATIO", "coef"), (6, "FOUR_FIFTHS", None), (7, "IMPACT_Z", "coef"),
-                                   (8, "IMPACT_FISHER", "p"), (9, "IMPACT_SHORTFALL", "count")):
-            written = ctx.formula(g, r, c, function, chosen, applicants, reference_selected, reference_applicants,
-                        # Fisher's p is defined (1) when nobody passes; the rest are not
-                        before=None if function == "IMPACT_FISHER" else setup.passes,
-                        # shown as yes/no: spreadsheet apps show a stored TRUE/FALSE of a function they do not
-                        # know as an error, while stored text shows as it is
-                        wrap='IF({},"yes","no")' if function == "FOUR_FIFTHS" else "{}",
-                        style=style, key=f"{function.lower()}_{name}")
+        four = (chosen, applicants, ref_sel, ref_app)
+        for c, function, extra, style in _FIGURES:
+            written = ctx.formula(
+                g, r, c, function, *four, *extra(setup),
+                # Fisher's p and the small-numbers flag are defined when nobody passes; the rest are not
+                before=None if function in ("IMPACT_FISHER", "IMPACT_SMALL_NUMBERS") else setup.passes,
+                # shown as yes/no: spreadsheet apps show a stored TRUE/FALSE of a function they do not
+                # know as an error, while stored text shows as it is
+                wrap='IF({},"yes","no")' if function in ("FOUR_FIFTHS", "IMPACT_SMALL_NUMBERS") else "{}",
+                style=style, key=_key(prefix, function, extra(setup), name))
             if function == "IMPACT_RATIO":
-                ratios_by_group[name] = written
+                ratios[name] = written
+            elif function == "FOUR_FIFTHS":
+                flags[name] = written
+    min_ratio, n_below = _lowest(ctx, g, last, first, groups, reference, ratios, demo.header, setup)
+    if n_below is not None:
+        n_below = n_below.with_value(sum(1 for f in flags.values() if f.value is True))
+    return ImpactTable(demo, numbers, reference, tuple(groups), counts, ratios, min_ratio, n_below, row, first,
+                       last, prefix)
+
+
+def _key(prefix: str, function: str, extra: tuple, name: str) -> str:
+    part = f"_{extra[0]}" if extra and isinstance(extra[0], str) else ""
+    return f"{prefix}{function.lower()}{part}_{name}"
+
+
+#: (column, function, the arguments after the four counts, style) of each comparison's figures
+_FIGURES = ((5, "IMPACT_RATIO", lambda s: (), "coef"), (6, "FOUR_FIFTHS", lambda s: (), None),
+            (7, "IMPACT_Z", lambda s: (), "coef"), (8, "IMPACT_FISHER", lambda s: (), "p"),
+            (9, "IMPACT_SHORTFALL", lambda s: (), "count"),
+            (11, "IMPACT_RATIO_CI", lambda s: ("lower", s.confidence), "coef"),
+            (12, "IMPACT_RATIO_CI", lambda s: ("upper", s.confidence), "coef"),
+            (13, "IMPACT_ODDS_RATIO", lambda s: (), "coef"), (14, "IMPACT_FLIP", lambda s: (), "count"),
+            (15, "IMPACT_SMALL_NUMBERS", lambda s: (), None))
+
+
+def _lowest(ctx, g, last, first, groups, reference, ratios, column, setup) -> tuple[Ref, Ref | None]:
+    """The lowest ratio of one table and how many of its groups fall below four-fifths, below the table."""
     g.set(last + 2, 1, "Lowest impact ratio")
-    ratios = [ratios_by_group[k].value for k in groups if k != reference]
-    if all(isinstance(x, float) for x in ratios):
-        min_ratio = ctx.expression(g, last + 2, 5, "MIN({ratios})", lambda: min(ratios), style="coef",
-                                   key="min_ratio", ratios=area(SHEET, 5, first, 5, last))
-        g.set(last + 3, 1, "Groups below four-fifths")
-        below = cell(SHEET, last + 3, 5)
-        g.set(below.row, below.col, ctx.text('=COUNTIF({flags},"yes")', SHEET, flags=area(SHEET, 6, first, 6, last)),
-              "count")
-        ctx.name("n_below", below)
-    else:
-        min_ratio = ctx.not_computable_at(g, last + 2, 5, setup.cut_message or "an impact ratio is not computable "
-                                                                             "(see the table)", key="min_ratio")
-    _table_notes(g, last + 5, d, bands)
-    g.charts.append((charts.selection_rates(charts.area(area(SHEET, 1, first, 1, last)),
-                                            charts.area(area(SHEET, 4, row, 4, last)),
-                                            charts.area(area(SHEET, 10, row, 10, last))), f"A{chart_row}"))
-    g.charts[-1][0].width = 11.5
-    return min_ratio
+    values = [ratios[k].value for k in groups if k != reference]
+    if not all(isinstance(x, float) for x in values):
+        return ctx.not_computable_at(g, last + 2, 5, setup.cut_message or "an impact ratio is not computable "
+                                                                           "(see the table)",
+                                     key=f"{column}:min_ratio"), None
+    min_ratio = ctx.expression(g, last + 2, 5, "MIN({ratios})", lambda: min(values), style="coef",
+                               key=f"{column}:min_ratio", ratios=area(SHEET, 5, first, 5, last))
+    g.set(last + 3, 1, "Groups below four-fifths")
+    below = ctx.expression(g, last + 3, 5, 'COUNTIF({flags},"yes")', None, style="count",
+                           key=f"{column}:n_below", flags=area(SHEET, 6, first, 6, last))
+    return min_ratio, below
 
 
-def _reference_group(ctx: StudyContext, groups: list[str], counts: dict[str, tuple[int, int]]) -> str:
-    """The group others are compared with: as given (matched as the groups are), else the highest rate."""
-    d, s = ctx.data, ctx.setup
-    reference = s.reference_group
-    if reference is not None:
-        reference = d.group_tally.name(reference)
+def reference_group(ctx: StudyContext, demo: Demographic, counts: dict[str, tuple[int, int]]) -> tuple[str, str]:
+    """The group others are compared with (as given, matched as the groups are; else the highest rate), and how
+    it was chosen, in words for the sheet."""
+    d = ctx.data
+    groups = list(demo.tally.names)
+    if demo.reference is not None:
+        reference = demo.tally.name(demo.reference)
         if reference is None:
-            raise SetupError(f"reference group: no group {s.reference_group!r} in column {s.group!r} on sheet "
-                             f"'{d.sheet}' (groups: {', '.join(groups)})")
-        return reference
+            raise SetupError(f"{demo.where or 'reference group'}: no group {demo.reference!r} in column "
+                             f"{demo.header!r} on sheet '{d.sheet}' (groups: {', '.join(groups)})")
+        return reference, "(as given in the setup)"
     rates = {k: (sel / app if app else 0.0) for k, (sel, app) in counts.items()}
     reference = max(groups, key=lambda k: (rates[k], counts[k][1]))
-    ctx.notes.append(f"Reference group for impact: {reference}, the group with the highest selection rate at "
-                     f"the cut when the study was built.")
-    return reference
+    ctx.notes.append(f"Reference group for impact by {demo.header!r}: {reference}, the group with the highest "
+                     f"selection rate at the cut when the study was built.")
+    return reference, REFERENCE_BY_RATE
 
 
-def _table_notes(g, at: int, d, bands: BandsLayout) -> None:
-    """How the table counts, which labels were merged, and how many groups are blank, from row ``at``."""
+def _overview(ctx: StudyContext, g, at: int, tables: list[ImpactTable]):
+    """The lowest ratio of every column, the lowest overall with its group and column, and how many comparisons
+    fall below four-fifths; returns (lowest, below, where, the next free row)."""
+    g.set(at, 1, "The lowest impact ratios", "heading")
+    for c, h in enumerate(("Demographic column", "Lowest impact ratio", "Its group", "Comparisons below "
+                           "four-fifths", "Comparisons"), start=1):
+        g.set(at + 1, c, h, "header")
+    first = at + 2
+    computable = []
+    for i, t in enumerate(tables):
+        r = first + i
+        g.set(r, 1, t.demographic.header)
+        if isinstance(t.min_ratio.value, float):
+            ratio = ctx.link(g, r, 2, t.min_ratio, style="coef")
+            ratios = area(SHEET, 5, t.first, 5, t.last)
+            lowest = min((k for k in t.names if k != t.reference), key=lambda k: t.ratios[k].value)
+            ctx.expression(g, r, 3, "INDEX({names},MATCH({ratio},{ratios},0))", lambda k=lowest: k,
+                           names=area(SHEET, 1, t.first, 1, t.last), ratio=ratio, ratios=ratios)
+            ctx.link(g, r, 4, t.n_below, style="count")
+            computable.append((t, ratio))
+        else:
+            ctx.not_computable_at(g, r, 2, t.min_ratio.value.message)
+        g.set(r, 5, len(t.names) - 1, "count")
+    last = first + len(tables) - 1
+    total = last + 1
+    g.set(total, 1, "All columns", "heading")
+    if not computable:
+        reason = tables[0].min_ratio.value.message
+        return ctx.not_computable_at(g, total, 2, reason, key="min_ratio"), None, None, total + 2
+    values = [ref.value for _, ref in computable]
+    low = ctx.expression(g, total, 2, "MIN({ratios})", lambda: min(values), style="coef", key="min_ratio",
+                         ratios=area(SHEET, 2, first, 2, last))
+    best = min(computable, key=lambda x: x[1].value)[0]
+    lowest_group = min((k for k in best.names if k != best.reference), key=lambda k: best.ratios[k].value)
+    where_text = f"{lowest_group} ({best.demographic.header})"
+    where = ctx.expression(g, total, 3, 'INDEX({groups},MATCH({low},{ratios},0))&" ("&INDEX({columns},MATCH({low},'
+                                        '{ratios},0))&")"', lambda: where_text, key="min_ratio_where",
+                           groups=area(SHEET, 3, first, 3, last), low=low, ratios=area(SHEET, 2, first, 2, last),
+                           columns=area(SHEET, 1, first, 1, last))
+    below_count = sum(t.n_below.value for t, _ in computable)
+    below = ctx.expression(g, total, 4, "SUM({below})", lambda: below_count, style="count", key="n_below",
+                           below=area(SHEET, 4, first, 4, last))
+    g.set(total, 5, ctx.text("=SUM({n})", SHEET, n=area(SHEET, 5, first, 5, last)), "count")
+    return low, below, where, total + 2
+
+
+def _table_notes(g, at: int, demo: Demographic, numbers: Ref) -> int:
+    """How the table counts, which labels were merged, and how many are blank, from row ``at``; the next row."""
     at += g.para(at, 1, f"Applicants and Selected count the rows of the Bands sheet by group number (Bands column "
-                        f"{get_column_letter(bands.group_col)}: group 1 is the first row of this table, and so on); "
-                        f"people with a blank group are in no group.", width=150)
+                        f"{get_column_letter(numbers.col)}: group 1 is the first row of this table, and so on); "
+                        f"people with a blank {demo.header!r} are in no group.", width=150)
     merged = [f"{', '.join(repr(x) for x in raw)} counted as {name!r}"
-              for name, raw in d.group_tally.merged.items()]
+              for name, raw in demo.tally.merged.items()]
     if merged:
         at += g.para(at, 1, "Labels that differ only in letter case or spacing are one group: "
                             + "; ".join(merged) + ".", width=150)
-    if d.group_tally.blank:
-        g.para(at, 1, f"{d.group_tally.blank} row(s) have a blank group (listed on Notes).", width=150)
+    if demo.tally.blank:
+        at += g.para(at, 1, f"{demo.tally.blank} row(s) have a blank {demo.header!r} (listed on Notes).", width=150)
+    return at
 
 
 def _distribution(ctx: StudyContext, g, chart_row: int, setup: SetupSheet, rel: Reliability, cut: Ref,
@@ -209,4 +335,4 @@ def _distribution(ctx: StudyContext, g, chart_row: int, setup: SetupSheet, rel: 
                                                charts.area(area(SHEET, c0 + 4, row + 1, c0 + 4, last)),
                                                cut_text=f"cut at {setup.cut:g}"), f"{anchor_col}{chart_row}"))
     g.charts[-1][0].width = 14
-    g.print_area = f"A1:J{chart_row + 21}"
+    g.print_area = f"A1:O{chart_row + 21}"

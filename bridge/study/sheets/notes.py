@@ -21,6 +21,9 @@ FUNCTIONS_USED = ("CRONBACH_ALPHA", "ALPHA_CI", "KR20", "SPLIT_HALF", "OMEGA", "
                   "OPERATIONAL_VALIDITY", "RANGE_CORRECT_INDIRECT", "MAX_VALIDITY", "SELECTION_RATE", "IMPACT_RATIO",
                   "FOUR_FIFTHS", "IMPACT_Z", "IMPACT_FISHER", "IMPACT_SHORTFALL", "TAYLOR_RUSSELL", "NAYLOR_SHINE",
                   "BCG_UTILITY")
+#: The adverse-impact functions of the Impact, Strata, Cuts, Stages and Groups sheets (issue 17).
+FUNCTIONS_USED += ("IMPACT_RATIO_CI", "IMPACT_ODDS_RATIO", "IMPACT_FLIP", "IMPACT_SMALL_NUMBERS",
+                   "POOLED_ODDS_RATIO", "POOLED_IMPACT_P", "POOLED_EXACT_P", "POOLED_HOMOGENEITY_P", "COHENS_D_CI")
 
 CONVENTIONS = (
     "A person's score is the sum of their item scores (a blank item counts 0); a person with no item "
@@ -39,6 +42,14 @@ CONVENTIONS = (
     "Adverse impact compares each group's selection rate at the cut with the reference group's rate. The "
     "four-fifths rule of thumb is that of the Uniform Guidelines, 29 CFR 1607.4(D); z is the pooled "
     "two-proportion z test (positive when the group's rate is lower); Fisher p is two-sided.",
+    "Impact with several demographic columns: one table per column, each with its own reference group (given "
+    "in the setup, else the group with the highest selection rate at the cut). The impact ratio's interval is "
+    "the log method (no 0.5 added to zero cells); the flip count uses Fisher's exact test at 0.05; the "
+    "small-numbers flag uses groups under 30 applicants (common practice) and expected counts under 5 "
+    "(Cochran, 1954). Strata: Mantel–Haenszel odds ratio with the Robins–Breslow–Greenland interval, the "
+    "Cochran–Mantel–Haenszel test with the ½ continuity correction, the exact conditional test and the "
+    "Breslow–Day test (Tarone's correction); a pooled figure is not reported as a headline when the Breslow–Day "
+    "p is below 0.05.",
 )
 
 

@@ -10,6 +10,7 @@ from .impact import Impact
 from .raters import Raters
 from .reliability import Reliability
 from .setup import SetupSheet
+from .strata import Strata
 from .utility import Utility
 from .validity import Validity
 
@@ -19,7 +20,7 @@ SHEET = "Summary"
 
 
 def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, raters: Raters, validity: Validity,
-          impact: Impact, utility: Utility) -> None:
+          impact: Impact, utility: Utility, strata: Strata | None = None) -> None:
     g = ctx.sheet(SHEET)
     g.landscape = True
     g.widths.update({1: 62, 2: 16, 3: 16, 4: 16})
@@ -51,6 +52,12 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, raters: Raters
         ("Cut score", "cut", setup.cut_cell, "score", None),
         ("Lowest impact ratio (below 0.80 fails the four-fifths rule of thumb)", "min_ratio", impact.min_ratio,
          "coef", None),
+        *([("Its group (and demographic column)", "min_ratio_where", impact.where, None, None),
+           ("Comparisons below four-fifths (Impact lists each)", "n_below", impact.n_below, "count", None)]
+          if impact.where is not None else []),
+        *([("Pooled over strata: Mantel–Haenszel odds ratio of selection (first comparison on Strata)",
+            "pooled_headline", strata.headline, "coef", None)] if strata is not None and strata.headline is not None
+          else []),
         ("What is the test worth?", None, None, "", None),
         ("Success rate among those selected (Taylor–Russell)", "taylor_russell", utility.taylor_russell, "pct",
          utility.base_rate),

@@ -27,6 +27,7 @@ class Utility:
     taylor_russell: Ref
     base_rate: Ref
     bcg: Ref
+    validity_used: Ref | None = None   # the validity the figures use (the Cuts sheet reads it)
 
 
 def write(ctx: StudyContext, setup: SetupSheet, bands: BandsLayout, validity: Validity) -> Utility:
@@ -80,4 +81,4 @@ def write(ctx: StudyContext, setup: SetupSheet, bands: BandsLayout, validity: Va
                       before=setup.passes, style="money", key="bcg")
     g.para(18, 1, "Utility figures rest on assumptions (validity, performance value, tenure) that the inputs "
                   "state; treat them as orders of magnitude, not forecasts.")
-    return Utility(taylor_russell, base_rate, bcg)
+    return Utility(taylor_russell, base_rate, bcg, validity_used)

@@ -1,0 +1,179 @@
+"""Cuts: adverse impact at every possible cut (each distinct score), one table per demographic column, with the
+lowest impact ratio and its interval, z, Fisher's p and the extra selections to reach four-fifths, and (with a
+criterion) the expected success rate among those passing, so the trade-off between validity and impact shows;
+a chart of the lowest impact ratio against the cut with the 0.80 line.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+from openpyxl.chart import ScatterChart, Series
+
+from trueband.funcs.impact_intervals import passing_counts
+
+from .. import charts
+from ..context import Expr, Ref, StudyContext, area, cell
+from ..words import CAUTION, EXTRA_SELECTIONS_WORDS
+from .bands import BandsLayout
+from .impact import SHEET as IMPACT_SHEET, Impact, ImpactTable
+from .setup import SetupSheet
+
+__all__ = ["Cuts", "write", "SHEET", "MAX_CUTS"]
+
+SHEET = "Cuts"
+#: Cut rows at most; with more distinct scores, evenly spaced distinct scores are shown (said on the sheet).
+MAX_CUTS = 150
+
+
+@dataclasses.dataclass(frozen=True)
+class Cuts:
+    rows: int = 0
+
+
+def write(ctx: StudyContext, setup: SetupSheet, impact: Impact, bands: BandsLayout, utility) -> Cuts:
+    d = ctx.data
+    if not impact.tables or d.impact is None or not (d.impact.several or d.impact.stratum or d.impact.stages):
+        return Cuts()
+    g = ctx.sheet(SHEET)
+    g.set(1, 1, "Adverse impact at every possible cut", "title")
+    row = 2 + g.para(2, 1, CAUTION, "caution")
+    scores = d.scores
+    # the lowest score as a cut passes everybody: there is nothing to compare, so it is left out
+    distinct = np.unique(scores[~np.isnan(scores)])[1:]
+    if not distinct.size:
+        ctx.not_computable_at(g, row, 1, "every applicant has the same score; no cut separates anyone")
+        return Cuts()
+    cuts = distinct
+    if distinct.size > MAX_CUTS:
+        cuts = distinct[np.unique(np.linspace(0, distinct.size - 1, MAX_CUTS).round().astype(int))]
+    row += g.para(row, 1, f"One row per cut: passing = score at or above it. {distinct.size} distinct scores "
+                          f"above the lowest (a cut at the lowest score passes everybody)"
+                          + (f"; {cuts.size} of them, evenly spread, are shown." if cuts.size < distinct.size
+                             else ".") + " Each group is compared with the reference group its Impact table "
+                          "had when the study was built; the lowest impact ratio of the row is shown with its "
+                          "group, interval, z, Fisher p and the extra selections to reach four-fifths. A cut is a "
+                          "decision for professional judgment: these figures show the trade-off, they do not "
+                          "choose.", width=150)
+    row += g.para(row, 1, EXTRA_SELECTIONS_WORDS, width=150) + 1
+    validity = getattr(utility, "validity_used", None)
+    chart = ScatterChart()
+    chart.title = "Lowest impact ratio at each cut"
+    chart.style = 13
+    chart.x_axis.title, chart.y_axis.title = "Cut score", "Lowest impact ratio"
+    for t in impact.tables:
+        row, series = _table(ctx, g, row, t, cuts, bands, setup, utility, validity)
+        chart.series.append(series)
+    _line(g, chart, row, cuts)
+    chart.width, chart.height = 18, 9
+    g.charts.append((chart, f"A{row + 4}"))
+    return Cuts(int(cuts.size))
+
+
+def _line(g, chart, row: int, cuts: np.ndarray) -> None:
+    """The four-fifths line: two points (lowest and highest cut, 0.80) written below the tables."""
+    g.set(row + 1, 1, "Four-fifths line (the chart's)", "heading")
+    for j, x in enumerate((float(cuts[0]), float(cuts[-1]))):
+        g.set(row + 2 + j, 1, x, "score")
+        g.set(row + 2 + j, 2, 0.8, "coef")
+    line = Series(charts.area(area(SHEET, 2, row + 2, 2, row + 3)), charts.area(area(SHEET, 1, row + 2, 1, row + 3)),
+                  title="four-fifths (0.80)")
+    line.marker.symbol = "none"
+    line.graphicalProperties.line.solidFill = "C00000"
+    chart.series.append(line)
+
+
+def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, bands: BandsLayout, setup: SetupSheet,
+           utility, validity: Ref | None):
+    """One demographic column's table of cuts from ``row``; returns (the next free row, its chart series)."""
+    d = ctx.data
+    focal = [k for k in t.names if k != t.reference]
+    order = focal + [t.reference]        # the passing columns: focal groups first, as the ratio columns
+    m = len(order)
+    counts = passing_counts(d.scores, list(t.demographic.groups), cuts=cuts)
+    index = {name: counts.groups.index(name) for name in order}
+    applicants = {name: t.counts[name][1] for name in order}
+    g.set(row, 1, f"{t.demographic.header} (reference group: {t.reference})", "heading")
+    names_row, app_row, head = row + 1, row + 2, row + 3
+    c_pass, c_rate, c_ratio = 2, 2 + m, 2 + 2 * m
+    c_low = c_ratio + len(focal)
+    g.set(names_row, 1, "Group")
+    g.set(app_row, 1, "Applicants (Impact)")
+    apps = {}
+    for j, name in enumerate(order):
+        g.set(names_row, c_pass + j, name)
+        impact_row = t.first + t.names.index(name)
+        apps[name] = ctx.link(g, app_row, c_pass + j, cell(IMPACT_SHEET, impact_row, 2, value=applicants[name]),
+                              style="count")
+        g.set(head, c_pass + j, f"Passing: {name}", "header")
+        g.set(head, c_rate + j, f"Pass rate: {name}", "header")
+    for j, name in enumerate(focal):
+        g.set(names_row, c_ratio + j, name)
+        g.set(head, c_ratio + j, f"Impact ratio: {name}", "header")
+    g.set(head, 1, "Cut", "header")
+    tail = ("Lowest impact ratio", "Its group", "Lower limit", "Upper limit", "z: gap in standard deviations",
+            "Fisher exact p", "Extra selections to reach four-fifths")
+    with_criterion = validity is not None and isinstance(validity.value, float) and utility is not None \
+        and isinstance(utility.base_rate.value, float)
+    if with_criterion:
+        tail += ("Selection ratio", "Expected success rate among those passing (Taylor–Russell)")
+    for j, h in enumerate(tail):
+        g.set(head, c_low + j, h, "header")
+    for c in range(1, c_low + len(tail)):
+        g.widths.setdefault(c, 12)
+    first = head + 1
+    ref_j = index[t.reference]
+    for i, cut in enumerate(cuts):
+        r = first + i
+        cut_ref = ctx.put(g, r, 1, float(cut), lambda v=float(cut): v, style="score")
+        passing = {}
+        for j, name in enumerate(order):
+            passing[name] = ctx.expression(
+                g, r, c_pass + j, 'COUNTIFS({groups},{number},{scores},">="&{cut})',
+                lambda v=int(counts.passing[i, index[name]]): v, style="count", groups=t.numbers,
+                number=t.demographic.numbers[name], scores=bands.scores, cut=cut_ref)
+            ctx.formula(g, r, c_rate + j, "SELECTION_RATE", passing[name], apps[name], style="coef")
+        ratios = []
+        for j, name in enumerate(focal):
+            ratios.append(ctx.formula(g, r, c_ratio + j, "IMPACT_RATIO", passing[name], apps[name],
+                                      passing[t.reference], apps[t.reference], style="coef"))
+        _lowest(ctx, g, r, c_low, focal, ratios, passing, apps, t, names_row, c_pass, c_ratio, setup)
+        if with_criterion:
+            share = float((d.scores[~np.isnan(d.scores)] >= cut).mean())
+            sr = ctx.expression(g, r, c_low + len(tail) - 2, 'COUNTIF({scores},">="&{cut})/COUNT({scores})',
+                                lambda v=share: v, style="coef", scores=bands.scores, cut=cut_ref)
+            ctx.formula(g, r, c_low + len(tail) - 1, "TAYLOR_RUSSELL", validity, utility.base_rate, sr, style="pct")
+    last = first + len(cuts) - 1
+    series = Series(charts.area(area(SHEET, c_low, first, c_low, last)), charts.area(area(SHEET, 1, first, 1, last)),
+                    title=f"{t.demographic.header}")
+    series.marker.symbol = "circle"
+    series.marker.size = 4
+    return last + 2, series
+
+
+def _lowest(ctx, g, r, c, focal, ratios, passing, apps, t, names_row, c_pass, c_ratio, setup) -> None:
+    """The row's lowest ratio, its group, and that comparison's interval, z, Fisher p and extra selections."""
+    values = [x.value for x in ratios]
+    usable = [(v, k) for v, k in zip(values, focal) if isinstance(v, float)]
+    if not usable:
+        ctx.not_computable_at(g, r, c, "no impact ratio is computable at this cut (the reference group has "
+                                       "nobody passing)")
+        return
+    low_value, low_group = min(usable, key=lambda x: x[0])
+    ratio_row = area(SHEET, c_ratio, r, c_ratio + len(focal) - 1, r)
+    low = ctx.expression(g, r, c, "MIN({ratios})", lambda: low_value, style="coef", ratios=ratio_row)
+    names = area(SHEET, c_ratio, names_row, c_ratio + len(focal) - 1, names_row).fixed()
+    where = ctx.text("MATCH({low},{ratios},0)", SHEET, low=low, ratios=ratio_row)
+    ctx.put(g, r, c + 1, "=" + ctx.text("INDEX({names},", SHEET, names=names) + where + ")", lambda: low_group)
+    focal_pass = Expr(ctx.text("INDEX({row},", SHEET, row=area(SHEET, c_pass, r, c_pass + len(focal) - 1, r))
+                      + where + ")", passing[low_group].value)
+    focal_app = Expr(ctx.text("INDEX({row},", SHEET, row=area(SHEET, c_pass, names_row + 1, c_pass + len(focal) - 1,
+                                                                 names_row + 1).fixed()) + where + ")",
+                     apps[low_group].value)
+    four = (focal_pass, focal_app, passing[t.reference], apps[t.reference])
+    for j, (function, extra, style) in enumerate((("IMPACT_RATIO_CI", ("lower", setup.confidence), "coef"),
+                                                  ("IMPACT_RATIO_CI", ("upper", setup.confidence), "coef"),
+                                                  ("IMPACT_Z", (), "coef"), ("IMPACT_FISHER", (), "p"),
+                                                  ("IMPACT_SHORTFALL", (), "count"))):
+        ctx.formula(g, r, c + 2 + j, function, *four, *extra, style=style)

@@ -1,0 +1,105 @@
+"""Groups: per demographic column and group, n, mean and SD of the test score and the criterion, and the
+standardized difference d from the reference group with its noncentral-t interval (COHENS_D_CI).
+
+The Uniform Guidelines' documentation of a validity study asks for the means and standard deviations of each
+group (29 CFR 1607.15(B)(8)); d puts the score gap in standard-deviation units.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+
+from ..context import Ref, StudyContext
+from ..words import CAUTION
+from .bands import BandsLayout
+from .impact import Impact
+from .setup import SetupSheet
+
+__all__ = ["Groups", "write", "SHEET"]
+
+SHEET = "Groups"
+
+_HEAD = ("Group", "People with a score", "Mean score", "SD of the score", "d from the reference group (score)",
+         "d, lower limit", "d, upper limit", "People with a criterion value", "Mean criterion",
+         "SD of the criterion", "d from the reference group (criterion)", "d, lower limit", "d, upper limit")
+
+
+@dataclasses.dataclass(frozen=True)
+class Groups:
+    """The d of the first comparison of the first column, or None when the sheet is not part of the study."""
+
+    first_d: Ref | None = None
+
+
+def write(ctx: StudyContext, setup: SetupSheet, impact: Impact, bands: BandsLayout) -> Groups:
+    d = ctx.data
+    if not impact.tables or not any(k.startswith("score:") for k in bands.extra):
+        return Groups()
+    g = ctx.sheet(SHEET)
+    g.widths.update({1: 22, **{c: 13 for c in range(2, 14)}})
+    g.set(1, 1, "Test scores and the criterion by group", "title")
+    row = 2 + g.para(2, 1, CAUTION, "caution")
+    row += g.para(row, 1, "Means and standard deviations by group, as the Uniform Guidelines ask a validity study to "
+                          "report (29 CFR 1607.15(B)(8)). d is the group's mean minus the reference group's, over "
+                          "the pooled standard deviation (negative: the group scores lower); its interval comes "
+                          "from the noncentral t distribution (Steiger & Fouladi, 1997). A difference in means is "
+                          "not by itself evidence that the test is unfair; read it with the Validity sheet.",
+                  width=150) + 1
+    first_d = None
+    for k, t in enumerate(impact.tables):
+        k_index = next(i for i, demo in enumerate(d.impact.demographics) if demo is t.demographic)
+        g.set(row, 1, f"{t.demographic.header} (reference group: {t.reference})", "heading")
+        for c, h in enumerate(_HEAD if d.criterion is not None else _HEAD[:7], start=1):
+            g.set(row + 1, c, h, "header")
+        first = row + 2
+        for i, name in enumerate(t.names):
+            d_ref = _group_row(ctx, g, first + i, t, k_index, name, bands, setup)
+            first_d = first_d or d_ref
+        row = first + len(t.names) + 2
+    return Groups(first_d)
+
+
+def _values(ctx: StudyContext, t, name: str, x: np.ndarray) -> list[float]:
+    member = np.array([grp == name for grp in t.demographic.groups], dtype=bool)
+    picked = x[member]
+    return picked[~np.isnan(picked)].tolist()
+
+
+def _group_row(ctx, g, r: int, t, k: int, name: str, bands: BandsLayout, setup: SetupSheet) -> Ref | None:
+    d = ctx.data
+    g.set(r, 1, name)
+    result = None
+    blocks = [("score", 2, d.scores)]
+    if d.criterion is not None:
+        blocks.append(("criterion", 8, d.criterion))
+    for what, c0, x in blocks:
+        mine = _values(ctx, t, name, x)
+        here = bands.column(bands.extra[f"{what}:{k}:{name}"]).with_value(mine, f"the {what}s of {name}")
+        ctx.expression(g, r, c0, "COUNT({x})", lambda v=len(mine): v, style="count", x=here)
+        ctx.expression(g, r, c0 + 1, "AVERAGE({x})", _stat(mine, np.mean, 1), style="coef", x=here)
+        ctx.expression(g, r, c0 + 2, "STDEV({x})", _stat(mine, lambda v: np.std(v, ddof=1), 2), style="coef",
+                       x=here)
+        if name == t.reference:
+            g.set(r, c0 + 3, "reference group")
+            continue
+        theirs = _values(ctx, t, t.reference, x)
+        ref = bands.column(bands.extra[f"{what}:{k}:{t.reference}"]).with_value(theirs, f"the {what}s of "
+                                                                                          f"{t.reference}")
+        for j, part in enumerate(("estimate", "lower", "upper")):
+            written = ctx.formula(g, r, c0 + 3 + j, "COHENS_D_CI", here, ref, part, setup.confidence, style="coef",
+                                  key=f"{t.demographic.header}:d_{what}_{part}_{name}")
+            if what == "score" and part == "estimate":
+                result = written
+    return result
+
+
+def _stat(values: list[float], f, at_least: int):
+    def check():
+        from trueband.funcs.errors import InsufficientDataError
+
+        if len(values) < at_least:
+            raise InsufficientDataError(f"needs at least {at_least} value(s), got {len(values)}")
+        return float(f(np.asarray(values)))
+    return check
