@@ -18,13 +18,17 @@ from pathlib import Path
 import pytest
 from docx import Document
 from openpyxl import load_workbook
-
 from trueband.bridge.cli import main
 from trueband.bridge.study.build import make_study
 from trueband.bridge.study.demo import make_demo
-from trueband.bridge.study.report import PLACEHOLDER_MARK, SECTIONS, ReportError, write_report
-from trueband.bridge.study.report.read import StudyContent, Figure, format_value
+from trueband.bridge.study.report import (
+    PLACEHOLDER_MARK,
+    SECTIONS,
+    ReportError,
+    write_report,
+)
 from trueband.bridge.study.report.document import validity_not_established
+from trueband.bridge.study.report.read import Figure, StudyContent, format_value
 from trueband.bridge.study.templates import study_data_workbook
 
 #: the most pages the demo's report may take (stated in the README)

@@ -15,7 +15,7 @@ from ..workbook import ANALYSIS_SHEETS
 from .plan import PLACEHOLDER_MARK, SECTIONS
 from .read import NotRecalculated, read_study
 
-__all__ = ["NotRecalculated", "PLACEHOLDER_MARK", "ReportError", "SECTIONS", "write_report"]
+__all__ = ["PLACEHOLDER_MARK", "SECTIONS", "NotRecalculated", "ReportError", "write_report"]
 
 
 class ReportError(Exception):
@@ -24,7 +24,7 @@ class ReportError(Exception):
 
 def write_report(study: str | os.PathLike, out: str | os.PathLike, *, version: str) -> Path:
     """Write the report of the study workbook ``study`` to ``out`` (replaced atomically); return ``out``."""
-    from .document import compose   # python-docx is loaded only when a report is written
+    from .document import compose  # python-docx is loaded only when a report is written
 
     study, out = Path(study), Path(out)
     try:

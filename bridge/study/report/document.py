@@ -14,7 +14,7 @@ from docx.shared import Cm, Pt, RGBColor
 
 from ..words import CAUTION
 from .plan import PLACEHOLDER_MARK, SECTIONS, Section, section_of
-from .read import chart_sheets, Figure, Heading, Paragraph, StudyContent, Table
+from .read import Figure, Heading, Paragraph, StudyContent, Table, chart_sheets
 
 __all__ = ["compose", "validity_not_established"]
 

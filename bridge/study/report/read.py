@@ -25,8 +25,19 @@ from typing import Any
 from openpyxl import load_workbook
 from openpyxl.utils import get_column_letter
 
-__all__ = ["Figure", "Heading", "Paragraph", "SheetContent", "StudyContent", "Table", "NotRecalculated",
-           "read_study", "format_value", "first_unstored", "chart_sheets"]
+__all__ = [
+    "Figure",
+    "Heading",
+    "NotRecalculated",
+    "Paragraph",
+    "SheetContent",
+    "StudyContent",
+    "Table",
+    "chart_sheets",
+    "first_unstored",
+    "format_value",
+    "read_study",
+]
 
 #: sheets that hold one row per candidate or the data: the report describes them, never prints them
 PER_CANDIDATE = ("Bands", "Scored items", "Setup")
