@@ -102,7 +102,7 @@ def _table(ctx: StudyContext, g, row: int, groups: list[str], setup: SetupSheet,
                 g.set(r, c, "reference group" if c == 5 else "")
             continue
         for c, function, style in ((5, "IMPACT_RATIO", "coef"), (6, "FOUR_FIFTHS", None), (7, "IMPACT_Z", "coef"),
-                                   (8, "IMPACT_FISHER", "p"), (9, "IMPACT_SHORTFALL", "count")):
+                                   (8, "IMPACT_FISHER", "p"), (9, "IMPACT_EXTRA_SELECTIONS", "count")):
             written = ctx.formula(g, r, c, function, chosen, applicants, reference_selected, reference_applicants,
                         # Fisher's p is defined (1) when nobody passes; the rest are not
                         before=None if function == "IMPACT_FISHER" else setup.passes,
