@@ -29,6 +29,7 @@ from trueband.bridge.study.report import (
 )
 from trueband.bridge.study.report.document import validity_not_established
 from trueband.bridge.study.report.read import Figure, StudyContent, format_value
+from trueband.bridge.study.grid import P_FORMAT
 from trueband.bridge.study.templates import study_data_workbook
 
 #: the most pages the demo's report may take (stated in the README)
@@ -139,7 +140,8 @@ def test_validity_interval_that_includes_zero_is_said_before_utility():
 
 
 @pytest.mark.parametrize("value, fmt, shown", [
-    (0.00004, "0.0000", "< 0.0001"), (0.0001, "0.0000", "0.0001"), (0.5, "0.0%", "50.0%"),
+    (0.00004, "0.0000", "< 0.0001"), (0.0001, "0.0000", "0.0001"),
+    (0.00004, P_FORMAT, "< 0.0001"), (0.0123, P_FORMAT, "0.0123"), (0.5, "0.0%", "50.0%"),
     (613478.4, "#,##0", "613,478"), (0.85123, "0.000", "0.851"), (400, "0", "400"), ("none", "General", "none")])
 def test_format_value(value, fmt, shown):
     assert format_value(value, fmt) == shown
@@ -195,3 +197,23 @@ def test_report_module_loads_python_docx_only_when_writing():
             "print('docx' in sys.modules)")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "False"
+
+
+def test_p_values_below_0_0001_show_as_such_in_libreoffice(soffice, tmp_path):
+    # The study's p format must display "< 0.0001" in a real spreadsheet app, not 0.0000: LibreOffice
+    # Calc renders it here (CSV export writes cells as shown).
+    from openpyxl import Workbook
+
+    wb = Workbook()
+    ws = wb.active
+    for r, value in enumerate((0.00001, 0.0, 0.04567, 0.5), start=1):
+        ws.cell(r, 1, value).number_format = P_FORMAT
+    book = tmp_path / "p.xlsx"
+    wb.save(book)
+    profile = (tmp_path / "profile").as_uri()
+    subprocess.run([soffice, f"-env:UserInstallation={profile}", "--headless", "--norestore",
+                    "--convert-to", "csv:Text - txt - csv (StarCalc):44,34,76,1,,0,false,true,true",
+                    "--outdir", str(tmp_path), str(book)],
+                   check=True, capture_output=True, timeout=180)
+    shown = (tmp_path / "p.csv").read_text(encoding="utf-8").splitlines()
+    assert shown == ["< 0.0001", "< 0.0001", "0.0457", "0.5000"]

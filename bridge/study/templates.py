@@ -32,6 +32,7 @@ from openpyxl.worksheet.datavalidation import DataValidation
 
 from ..formulas.calc_binding import bind_workbook
 from .demo import DemoData
+from .grid import P_FORMAT
 from .words import CAUTION
 from .setup import DEFAULT_CRITERION_RELIABILITY, SETTINGS, SETUP_SHEET
 
@@ -266,7 +267,7 @@ def impact_template(path: str | Path, *, capacity: int = 8,
         ws.cell(r, 4, f'=IF(OR(A{r}="",B{r}=""),"",SELECTION_RATE(C{r},B{r}))').number_format = "0.000"
         skip = f'IF(OR(A{r}="",B{r}="",$B$4="",A{r}=$B$4),"",'
         for c, fn, fmt in ((5, "IMPACT_RATIO", "0.000"), (6, "FOUR_FIFTHS", "General"), (7, "IMPACT_Z", "0.000"),
-                           (8, "IMPACT_FISHER", "0.0000"), (9, "IMPACT_EXTRA_SELECTIONS", "0")):
+                           (8, "IMPACT_FISHER", P_FORMAT), (9, "IMPACT_EXTRA_SELECTIONS", "0")):
             call = f"{fn}(C{r},B{r},{ref_sel},{ref_app})"
             if fn == "FOUR_FIFTHS":  # yes/no text: apps show a stored TRUE/FALSE of an unknown function as an error
                 call = f'IF({call},"yes","no")'

@@ -97,6 +97,7 @@ class StudyContent:
 
 
 _DECIMALS = re.compile(r"0\.(0+)")
+_BELOW = re.compile(r'^\[<([0-9.]+)\]"([^"]*)";(.*)$')
 
 
 def format_value(value: Any, number_format: str | None) -> str:
@@ -111,6 +112,11 @@ def format_value(value: Any, number_format: str | None) -> str:
     if not isinstance(value, (int, float)):
         return str(value)
     fmt = number_format or "General"
+    conditional = _BELOW.match(fmt)
+    if conditional:   # [<limit]"text";format, as the study's p values use
+        if value < float(conditional.group(1)):
+            return conditional.group(2)
+        fmt = conditional.group(3)
     m = _DECIMALS.search(fmt)
     decimals = len(m.group(1)) if m else 0
     if "%" in fmt:
