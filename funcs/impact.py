@@ -8,7 +8,7 @@ spreadsheet name      Python function                              what it gives
 ``FOUR_FIFTHS``       :func:`four_fifths`                          TRUE when the impact ratio is below 4/5
 ``IMPACT_Z``          :func:`impact_z`                             pooled two-proportion z (> 0: focal lower)
 ``IMPACT_FISHER``     :func:`impact_fisher`                        two-sided Fisher exact p
-``IMPACT_SHORTFALL``  :func:`impact_shortfall`                     extra focal selections to reach a ratio
+``IMPACT_EXTRA_SELECTIONS``  :func:`impact_extra_selections`                     extra focal selections to reach a ratio
 (Python only)         :func:`group_key`, :func:`tally_groups`      which group a label names; counts by group
 ====================  ==========================================  ===========================================
 
@@ -28,7 +28,7 @@ Conventions
   (``#NUM!`` otherwise). A count of applicants that is divided by must be
   greater than 0 (``#DIV/0!``), and so must a reference selection rate that
   is divided by.
-* The four-fifths comparison and the shortfall are computed in exact integer
+* The four-fifths comparison and the extra selections to a target are computed in exact integer
   arithmetic, so a ratio of exactly 0.8 is never pushed across the line by
   floating-point error.
 * Group labels: wherever trueband counts people by group from a column of
@@ -62,7 +62,7 @@ __all__ = [
     "four_fifths",
     "impact_z",
     "impact_fisher",
-    "impact_shortfall",
+    "impact_extra_selections",
     "EXACT_TEST_MAX_APPLICANTS",
     "CAUTION",
     "group_key",
@@ -430,14 +430,14 @@ def impact_fisher(focal_selected: int, focal_applicants: int, ref_selected: int,
     return _fisher_two_sided(int(fs), int(fa), int(fs + rs), int(fa + ra))
 
 
-# ---------------------------------------------------------------- shortfall
+# ---------------------------------------------------------------- extra selections to a target ratio
 
 def _exact_target(target) -> Fraction:
     # The decimal the user typed: 0.8 means 4/5 exactly, not the binary double just above it.
     return Fraction(repr(float(target)))
 
 
-def _shortfall(fs: int, fa: int, rs: int, ra: int, target: Fraction) -> int:
+def _extra_selections(fs: int, fa: int, rs: int, ra: int, target: Fraction) -> int:
     # Smallest total focal selections n with (n / fa) / (rs / ra) >= target, i.e. n >= target·rs·fa / ra.
     num, den = target.numerator * rs * fa, target.denominator * ra
     needed = -((-num) // den)  # ceiling division on integers
@@ -449,16 +449,17 @@ def _shortfall(fs: int, fa: int, rs: int, ra: int, target: Fraction) -> int:
     return max(0, needed - fs)
 
 
-@spreadsheet("IMPACT_SHORTFALL", returns="integer", elementwise=_COUNTS + ["target"],
-             reference=_CAUTION_REFERENCE + " (four-fifths rule); Roth, P. L., Bobko, P. & Switzer, F. S. (2006). "
+@spreadsheet("IMPACT_EXTRA_SELECTIONS", returns="integer", elementwise=_COUNTS + ["target"],
+             reference=_CAUTION_REFERENCE + " (four-fifths rule; 1607.4D also weighs whether a difference rests on "
+                                            "a few selections); Roth, P. L., Bobko, P. & Switzer, F. S. (2006). "
                                             "Modeling the behavior of the 4/5ths rule for determining adverse "
                                             "impact: reasons for caution. Journal of Applied Psychology 91, "
-                                            "507-522 (how few selections move the rule's verdict).")
-def impact_shortfall(focal_selected: int, focal_applicants: int, ref_selected: int, ref_applicants: int,
+                                            "507-522 (how few selections move the ratio across 0.80).")
+def impact_extra_selections(focal_selected: int, focal_applicants: int, ref_selected: int, ref_applicants: int,
                      *, target: float = 0.8) -> int:
     """Smallest number of additional focal selections that lifts the impact ratio to a target.
 
-    shortfall = max(0, ⌈target · ref_rate · focal_applicants⌉ − focal_selected),
+    extra = max(0, ⌈target · ref_rate · focal_applicants⌉ − focal_selected),
     ref_rate = ref_selected / ref_applicants, computed in exact rational arithmetic
 
     The focal applicants and the reference group's rate are held fixed: the
@@ -496,9 +497,9 @@ def impact_shortfall(focal_selected: int, focal_applicants: int, ref_selected: i
     12 of 40 against 48 of 80: 80% of the reference rate is 48% of 40
     applicants, 19.2, so 20 selections, 8 more:
 
-    >>> impact_shortfall(12, 40, 48, 80)
+    >>> impact_extra_selections(12, 40, 48, 80)
     8
-    >>> impact_shortfall(12, 40, 48, 80, target=0.5)
+    >>> impact_extra_selections(12, 40, 48, 80, target=0.5)
     0
     """
     fs, fa, rs, ra = _four_counts(focal_selected, focal_applicants, ref_selected, ref_applicants)
@@ -506,13 +507,13 @@ def impact_shortfall(focal_selected: int, focal_applicants: int, ref_selected: i
     v.positive("target", target)
     fs, fa, rs, ra = (_exact(x) for x in (fs, fa, rs, ra))
     if not isinstance(target, np.ndarray) and not any(isinstance(x, np.ndarray) for x in (fs, fa, rs, ra)):
-        return _shortfall(fs, fa, rs, ra, _exact_target(target))
+        return _extra_selections(fs, fa, rs, ra, _exact_target(target))
     # column path: the same exact computation, one row at a time
     cols = np.broadcast_arrays(*(np.asarray(x, dtype=object) for x in (fs, fa, rs, ra, target)))
     out = np.empty(cols[0].shape, dtype=object)
     for i in np.ndindex(out.shape):
         a, b, c, d, t = (col[i] for col in cols)
-        out[i] = _shortfall(int(a), int(b), int(c), int(d), _exact_target(t))
+        out[i] = _extra_selections(int(a), int(b), int(c), int(d), _exact_target(t))
     return out
 
 

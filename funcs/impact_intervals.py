@@ -400,7 +400,7 @@ def impact_flip(focal_selected: int, focal_applicants: int, ref_selected: int, r
     The flip rule: when the test is significant the selections move the focal
     rate toward the reference rate (added when the focal rate is lower, the
     adverse-impact case; removed when it is higher); when it is not, focal
-    selections are removed (toward a significant shortfall of the focal
+    selections are removed (toward a significant deficit of the focal
     group). When no number of changes within the focal group flips the
     verdict (all focal applicants selected, or none left to remove) the result
     is ``#NUM!`` naming ``focal_selected``. Changes are tried one by one up

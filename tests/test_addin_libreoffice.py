@@ -361,7 +361,7 @@ def test_impact_template_computes_live_and_calc_saved_file_recalculates(calc, tm
                        tmp_path / "impact.recalc.xlsx").output
     first = IMPACT_LAYOUT["first_row"]
     saved = tmp_path / "saved.xlsx"
-    # Group B's selections 22 -> 30: its rate, ratio, flag, z, p and shortfall move
+    # Group B's selections 22 -> 30: its rate, ratio, flag, z, p and extra selections move
     got = calc([{"open": str(book)}, {"set": [[0, f"C{first + 1}", 30]]}, {"recalc": True},
                 {"read": [[0, f"E{first + 1}"], [0, f"F{first + 1}"]]}, {"store": str(saved)}])
     ratio, flag = got[3]

@@ -35,7 +35,7 @@ from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import call_column
 
 IMPACT_FUNCTIONS = ["SELECTION_RATE", "IMPACT_RATIO", "FOUR_FIFTHS", "IMPACT_Z", "IMPACT_FISHER",
-                    "IMPACT_SHORTFALL"]
+                    "IMPACT_EXTRA_SELECTIONS"]
 
 
 def random_tables(seed, n, max_applicants=60):
@@ -198,9 +198,9 @@ def test_impact_fisher_is_symmetric_in_the_groups():
         assert call("IMPACT_FISHER", rs, ra, fs, fa) == pytest.approx(call("IMPACT_FISHER", *table), rel=1e-9)
 
 
-# ---------------------------------------------------------------- shortfall
+# ---------------------------------------------------------------- extra selections to a target ratio
 
-def shortfall_by_search(fs, fa, rs, ra, target):
+def extra_by_search(fs, fa, rs, ra, target):
     """Definition: add focal selections one at a time until the exact ratio reaches the target."""
     t = Fraction(str(target))
     for extra in range(fa - fs + 1):
@@ -210,38 +210,38 @@ def shortfall_by_search(fs, fa, rs, ra, target):
 
 
 @pytest.mark.parametrize("target", [0.8, 0.5, 0.9, 1.0, 1.25])
-def test_shortfall_against_search(target):
+def test_extra_selections_against_search(target):
     for fs, fa, rs, ra in random_tables(6, 300, 50):
         if rs == 0:
             continue
-        want = shortfall_by_search(fs, fa, rs, ra, target)
+        want = extra_by_search(fs, fa, rs, ra, target)
         if want is None:
             with raises_code("#NUM!", "target", match="cannot be reached"):
-                call("IMPACT_SHORTFALL", fs, fa, rs, ra, target)
+                call("IMPACT_EXTRA_SELECTIONS", fs, fa, rs, ra, target)
         else:
-            assert call("IMPACT_SHORTFALL", fs, fa, rs, ra, target) == want, (fs, fa, rs, ra)
+            assert call("IMPACT_EXTRA_SELECTIONS", fs, fa, rs, ra, target) == want, (fs, fa, rs, ra)
 
 
-def test_shortfall_is_where_the_four_fifths_flag_turns_off():
-    # With the default target 0.8, adding the shortfall clears the 29 CFR 1607.4(D) flag; one fewer does not.
+def test_extra_selections_are_where_the_four_fifths_flag_turns_off():
+    # With the default target 0.8, adding the extra selections clears the 29 CFR 1607.4(D) flag; one fewer does not.
     for fs, fa, rs, ra in random_tables(7, 300, 50):
-        if rs == 0 or shortfall_by_search(fs, fa, rs, ra, 0.8) is None:
+        if rs == 0 or extra_by_search(fs, fa, rs, ra, 0.8) is None:
             continue
-        k = call("IMPACT_SHORTFALL", fs, fa, rs, ra)
+        k = call("IMPACT_EXTRA_SELECTIONS", fs, fa, rs, ra)
         assert call("FOUR_FIFTHS", fs + k, fa, rs, ra) is False
         if k > 0:
             assert call("FOUR_FIFTHS", fs + k - 1, fa, rs, ra) is True
 
 
-def test_shortfall_boundaries():
+def test_extra_selections_boundaries():
     # Worked by hand: 80% of 60% is 48%; 48% of 40 focal applicants is 19.2, so 20 selections (8 more).
-    assert call("IMPACT_SHORTFALL", 12, 40, 48, 80) == 8
-    assert call("IMPACT_SHORTFALL", 36, 100, 45, 100) == 0   # exactly four-fifths already reaches 0.8
-    assert call("IMPACT_SHORTFALL", 35, 100, 45, 100) == 1
-    assert call("IMPACT_SHORTFALL", 30, 40, 10, 40) == 0     # focal rate above the reference rate
-    assert call("IMPACT_SHORTFALL", 0, 10, 10, 10, 1.0) == 10
+    assert call("IMPACT_EXTRA_SELECTIONS", 12, 40, 48, 80) == 8
+    assert call("IMPACT_EXTRA_SELECTIONS", 36, 100, 45, 100) == 0   # exactly four-fifths already reaches 0.8
+    assert call("IMPACT_EXTRA_SELECTIONS", 35, 100, 45, 100) == 1
+    assert call("IMPACT_EXTRA_SELECTIONS", 30, 40, 10, 40) == 0     # focal rate above the reference rate
+    assert call("IMPACT_EXTRA_SELECTIONS", 0, 10, 10, 10, 1.0) == 10
     with raises_code("#NUM!", "target", match="cannot be reached"):
-        call("IMPACT_SHORTFALL", 0, 10, 5, 10, 2.5)           # would need 125% of 10 focal applicants
+        call("IMPACT_EXTRA_SELECTIONS", 0, 10, 5, 10, 2.5)           # would need 125% of 10 focal applicants
 
 
 # ---------------------------------------------------------------- errors
@@ -269,7 +269,7 @@ def test_errors_name_the_argument():
         call("IMPACT_FISHER", 1, 10, 0, 0)
 
 
-@pytest.mark.parametrize("name", ["IMPACT_RATIO", "FOUR_FIFTHS", "IMPACT_SHORTFALL"])
+@pytest.mark.parametrize("name", ["IMPACT_RATIO", "FOUR_FIFTHS", "IMPACT_EXTRA_SELECTIONS"])
 def test_zero_reference_rate_is_div0(name):
     with raises_code("#DIV/0!", "ref_selected", match="selection rate is 0"):
         call(name, 3, 10, 0, 10)
@@ -286,7 +286,7 @@ def test_zero_pooled_variance_is_div0():
 
 def test_other_domain_errors():
     with raises_code("#NUM!", "target", match="greater than 0"):
-        call("IMPACT_SHORTFALL", 1, 10, 5, 10, 0)
+        call("IMPACT_EXTRA_SELECTIONS", 1, 10, 5, 10, 0)
     with raises_code("#NUM!", "focal_applicants", match="too large for the exact test"):
         call("IMPACT_FISHER", 1, 2 * 10**9, 5, 10)
     with raises_code("#VALUE!"):
@@ -295,7 +295,7 @@ def test_other_domain_errors():
 
 # ---------------------------------------------------------------- column path
 
-@pytest.mark.parametrize("name", ["SELECTION_RATE", "IMPACT_RATIO", "FOUR_FIFTHS", "IMPACT_Z", "IMPACT_SHORTFALL"])
+@pytest.mark.parametrize("name", ["SELECTION_RATE", "IMPACT_RATIO", "FOUR_FIFTHS", "IMPACT_Z", "IMPACT_EXTRA_SELECTIONS"])
 def test_bodies_compute_whole_columns_of_counts(name, monkeypatch):
     # The registry vectorises float arguments only; these bodies are written for arrays of counts too.
     # Declare the counts elementwise on a copy of the entry and compare whole columns with single calls,

@@ -132,5 +132,5 @@ def test_column_path_equals_single_calls(name):
 def test_column_path_keeps_whole_numbers_beyond_64_bits():
     # Regression: results of integer kind went through int64 and wrapped around above 2**63.
     same = {"focal_selected": 1, "focal_applicants": 1e19, "ref_selected": 1, "target": 1}
-    column = call_column("IMPACT_SHORTFALL", {"ref_applicants": [2, 5]}, same)
-    assert column == [REGISTRY["IMPACT_SHORTFALL"](**same, ref_applicants=n) for n in (2, 5)]
+    column = call_column("IMPACT_EXTRA_SELECTIONS", {"ref_applicants": [2, 5]}, same)
+    assert column == [REGISTRY["IMPACT_EXTRA_SELECTIONS"](**same, ref_applicants=n) for n in (2, 5)]

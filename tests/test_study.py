@@ -249,7 +249,7 @@ def test_adverse_impact_against_scipy_and_statsmodels(study, demo, arrays):
     assert value(study, "impact_z_Group B") == pytest.approx(z, rel=1e-10)
     _, p = stats.fisher_exact([[fs, fa - fs], [rs, ra - rs]])
     assert value(study, "impact_fisher_Group B") == pytest.approx(p, rel=1e-9)
-    short = value(study, "impact_shortfall_Group B")
+    short = value(study, "impact_extra_selections_Group B")
     assert (fs + short) / fa >= 0.8 * rs / ra  # the fewest extra selections that reach four-fifths (definition)
     assert short == 0 or (fs + short - 1) / fa < 0.8 * rs / ra
     assert value(study, "min_ratio") == pytest.approx((fs / fa) / (rs / ra), rel=1e-12)

@@ -305,7 +305,7 @@ def test_the_extra_selections_figure_is_cited_to_the_regulation_and_peer_reviewe
     # tied to a commercial product (the reference named one before)
     from trueband.funcs import lookup
 
-    reference = lookup("IMPACT_SHORTFALL").reference
+    reference = lookup("IMPACT_EXTRA_SELECTIONS").reference
     assert "1607.4(D)" in reference and "Journal of Applied Psychology" in reference
     assert "Biddle" not in reference and "Gower" not in reference
 

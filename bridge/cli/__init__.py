@@ -38,6 +38,7 @@ COMMAND_REGISTRATIONS = (
     ("trueband.bridge.cli.fill", "register"),        # fill, bands
     ("trueband.bridge.cli.recalc", "register_restore"),  # restore
     ("trueband.bridge.cli.study", "register"),       # study, demo
+    ("trueband.bridge.cli.report", "register"),      # report
     ("trueband.bridge.cli.addin", "register"),       # addin
 )
 

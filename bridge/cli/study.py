@@ -218,6 +218,7 @@ def run_demo(args) -> int:
           f"coordinators; invented data):")
     print(f"  {paths['data'].name:34} the applicants' data and its Setup sheet")
     print(f"  {paths['study'].name:34} the validation study built from it")
+    print(f"  {paths['report'].name:34} the report drafted from the study (parts for you to write are marked)")
     print(f"  {paths['scoring'].name:34} scoring sheet: totals, intervals and score bands")
     print(f"  {paths['impact'].name:34} adverse-impact sheet at the demo cut")
     print(f"  {'templates/':34} the three workbooks, empty, to copy and fill")

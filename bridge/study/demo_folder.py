@@ -1,4 +1,4 @@
-"""Writing the demo folder: the invented data workbook, its validation study, the filled scoring and
+"""Writing the demo folder: the invented data workbook, its validation study and its report, the filled scoring and
 adverse-impact sheets and the empty templates, all recalculated, through a temporary folder."""
 
 from __future__ import annotations
@@ -22,6 +22,7 @@ if TYPE_CHECKING:
 DEMO_FILES = {
     "data": "osterfell-applicants.xlsx",
     "study": "osterfell-study.xlsx",
+    "report": "osterfell-report.docx",
     "scoring": "osterfell-scoring-sheet.xlsx",
     "impact": "osterfell-adverse-impact.xlsx",
     "blank_data": "templates/study-data-template.xlsx",
@@ -37,7 +38,10 @@ class DemoFolderError(Exception):
 def write_demo(target: Path, *, n: int = 400) -> tuple[StudyResult, dict[str, Path]]:
     """Write the demo into ``target`` (a new or empty folder) through a temporary folder beside it."""
     from ..engine.recalc import recalculate
+    from trueband.funcs import __version__
+
     from .build import make_study
+    from .report import write_report
     from .templates import impact_template, scoring_template, study_data_workbook
 
     if target.exists() and (not target.is_dir() or any(target.iterdir())):
@@ -67,6 +71,7 @@ def write_demo(target: Path, *, n: int = 400) -> tuple[StudyResult, dict[str, Pa
         for key in ("data", "scoring", "impact", "blank_data", "blank_scoring", "blank_impact"):
             recalculate(paths[key], in_place=True)
         result = make_study(paths["data"], paths["study"])
+        write_report(paths["study"], paths["report"], version=__version__)
         if target.exists():
             target.rmdir()  # empty, checked above; a rename cannot replace a folder on every platform
         os.replace(work, target)

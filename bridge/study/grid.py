@@ -10,7 +10,11 @@ from openpyxl.cell import WriteOnlyCell
 from openpyxl.styles import Alignment, Font, PatternFill
 from openpyxl.utils import get_column_letter
 
-__all__ = ["Grid", "STYLES", "styled", "quote"]
+__all__ = ["Grid", "P_FORMAT", "STYLES", "styled", "quote"]
+
+#: p values to four decimals, and "< 0.0001" below that rather than a misleading 0.0000 (a conditional
+#: number format that LibreOffice and other spreadsheet apps read alike)
+P_FORMAT = '[<0.0001]"< 0.0001";0.0000'
 
 STYLES: dict[str, dict[str, Any]] = {
     "title": {"font": Font(bold=True, size=14)},
@@ -24,7 +28,7 @@ STYLES: dict[str, dict[str, Any]] = {
     "caution": {"font": Font(bold=True, color="7A2E00")},
     "na": {"font": Font(italic=True, color="9C0006")},
     "coef": {"number_format": "0.000"},
-    "p": {"number_format": "0.0000"},
+    "p": {"number_format": P_FORMAT},
     "count": {"number_format": "0"},
     "score": {"number_format": "0.0"},
     "pct": {"number_format": "0.0%"},

@@ -10,7 +10,7 @@ function                        workbook
                                 interval and score band out
 :func:`impact_template`         applicants and selections per group in; selection
                                 rates, impact ratios, four-fifths flags, z, Fisher p
-                                and shortfalls out
+                                and the extra selections to reach four-fifths out
 ==============================  =========================================================
 
 Each can be written empty (a template) or filled (the demo). The formulas use
@@ -32,6 +32,7 @@ from openpyxl.worksheet.datavalidation import DataValidation
 
 from ..formulas.calc_binding import bind_workbook
 from .demo import DemoData
+from .grid import P_FORMAT
 from .words import CAUTION
 from . import templates_impact
 from .setup import DEFAULT_CRITERION_RELIABILITY, SETTINGS, SETUP_SHEET
@@ -254,7 +255,7 @@ def impact_template(path: str | Path, *, capacity: int = 8,
     ws["D4"] = "(the group with the highest selection rate unless you type a name)"
     _header(ws, IMPACT_LAYOUT["header_row"],
             ["Group", "Applicants", "Selected", "Selection rate", "Impact ratio", "Below four-fifths", "z",
-             "Fisher exact p", "Shortfall to four-fifths"])
+             "Fisher exact p", "Extra selections to reach four-fifths"])
     ref_sel = f"INDEX($C${first}:$C${last},MATCH($B$4,$A${first}:$A${last},0))"
     ref_app = f"INDEX($B${first}:$B${last},MATCH($B$4,$A${first}:$A${last},0))"
     for i in range(rows):
@@ -269,7 +270,7 @@ def impact_template(path: str | Path, *, capacity: int = 8,
         ws.cell(r, 4, f'=IF(OR(A{r}="",B{r}=""),"",SELECTION_RATE(C{r},B{r}))').number_format = "0.000"
         skip = f'IF(OR(A{r}="",B{r}="",$B$4="",A{r}=$B$4),"",'
         for c, fn, fmt in ((5, "IMPACT_RATIO", "0.000"), (6, "FOUR_FIFTHS", "General"), (7, "IMPACT_Z", "0.000"),
-                           (8, "IMPACT_FISHER", "0.0000"), (9, "IMPACT_SHORTFALL", "0")):
+                           (8, "IMPACT_FISHER", P_FORMAT), (9, "IMPACT_EXTRA_SELECTIONS", "0")):
             call = f"{fn}(C{r},B{r},{ref_sel},{ref_app})"
             if fn == "FOUR_FIFTHS":  # yes/no text: apps show a stored TRUE/FALSE of an unknown function as an error
                 call = f'IF({call},"yes","no")'
@@ -279,8 +280,8 @@ def impact_template(path: str | Path, *, capacity: int = 8,
         ws.column_dimensions[get_column_letter(c)].width = 14
     ws.cell(last + 2, 1, "Impact ratio: the group's selection rate over the reference group's. Below four-fifths: "
                          "yes when the ratio is under 0.8, the rule of thumb of 29 CFR 1607.4(D). z: pooled two-"
-                         "proportion test, positive when the group's rate is lower. Shortfall: the fewest extra "
-                         "selections from the group that bring the ratio to 0.8.").alignment = _WRAP
+                         "proportion test, positive when the group's rate is lower. Extra selections: the fewest "
+                         "more selections from the group that bring the ratio to 0.8.").alignment = _WRAP
     ws.merge_cells(start_row=last + 2, start_column=1, end_row=last + 2, end_column=9)
     ws.row_dimensions[last + 2].height = 60
     bind_workbook(wb)  # registered calls as _xludf.NAME(, the form LibreOffice binds to the add-in

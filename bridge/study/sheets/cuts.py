@@ -175,5 +175,5 @@ def _lowest(ctx, g, r, c, focal, ratios, passing, apps, t, names_row, c_pass, c_
     for j, (function, extra, style) in enumerate((("IMPACT_RATIO_CI", ("lower", setup.confidence), "coef"),
                                                   ("IMPACT_RATIO_CI", ("upper", setup.confidence), "coef"),
                                                   ("IMPACT_Z", (), "coef"), ("IMPACT_FISHER", (), "p"),
-                                                  ("IMPACT_SHORTFALL", (), "count"))):
+                                                  ("IMPACT_EXTRA_SELECTIONS", (), "count"))):
         ctx.formula(g, r, c + 2 + j, function, *four, *extra, style=style)

@@ -188,7 +188,7 @@ def _key(prefix: str, function: str, extra: tuple, name: str) -> str:
 #: (column, function, the arguments after the four counts, style) of each comparison's figures
 _FIGURES = ((5, "IMPACT_RATIO", lambda s: (), "coef"), (6, "FOUR_FIFTHS", lambda s: (), None),
             (7, "IMPACT_Z", lambda s: (), "coef"), (8, "IMPACT_FISHER", lambda s: (), "p"),
-            (9, "IMPACT_SHORTFALL", lambda s: (), "count"),
+            (9, "IMPACT_EXTRA_SELECTIONS", lambda s: (), "count"),
             (11, "IMPACT_RATIO_CI", lambda s: ("lower", s.confidence), "coef"),
             (12, "IMPACT_RATIO_CI", lambda s: ("upper", s.confidence), "coef"),
             (13, "IMPACT_ODDS_RATIO", lambda s: (), "coef"), (14, "IMPACT_FLIP", lambda s: (), "count"),

@@ -1,0 +1,219 @@
+"""``trueband report``: the validation report written from a saved study.
+
+What the report must do is read, never recompute: each number it prints must be the value the study
+workbook stores in the cell it names. So the checks compare the report with the study as openpyxl reads
+it (an independent reader of the workbook), and the study's own numbers are checked against reference
+libraries in ``test_study.py``. The section headings follow 29 CFR 1607.15B (the Uniform Guidelines'
+documentation of a criterion-related validity study); the test checks each heading of the plan is present.
+"""
+
+from __future__ import annotations
+
+import re
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from docx import Document
+from openpyxl import load_workbook
+from trueband.bridge.cli import main
+from trueband.bridge.study.build import make_study
+from trueband.bridge.study.demo import make_demo
+from trueband.bridge.study.report import (
+    PLACEHOLDER_MARK,
+    SECTIONS,
+    ReportError,
+    write_report,
+)
+from trueband.bridge.study.report.document import validity_not_established
+from trueband.bridge.study.report.read import Figure, StudyContent, format_value
+from trueband.bridge.study.grid import P_FORMAT
+from trueband.bridge.study.templates import study_data_workbook
+
+#: the most pages the demo's report may take (stated in the README)
+DEMO_REPORT_PAGES = 16
+
+
+@pytest.fixture(scope="module")
+def study(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("report")
+    data = study_data_workbook(folder / "data.xlsx", make_demo(), cut=24.0)
+    return make_study(data, folder / "study.xlsx").path
+
+
+@pytest.fixture(scope="module")
+def report(study):
+    out = study.with_name("report.docx")
+    write_report(study, out, version="test")
+    return out
+
+
+def _texts(path: Path) -> list[str]:
+    doc = Document(str(path))
+    out = [p.text for p in doc.paragraphs]
+    for table in doc.tables:
+        for row in table.rows:
+            out.append(" | ".join(c.text for c in row.cells))
+    return out
+
+
+def test_every_section_heading_is_there(report):
+    doc = Document(str(report))
+    headings = [p.text for p in doc.paragraphs if p.style.name.startswith("Heading 1")]
+    expected = [s.heading for s in SECTIONS if s.heading != "Further analyses"]
+    assert [h for h in headings if h in expected] == expected
+    assert "Key figures" in headings
+
+
+def test_every_key_figure_is_the_value_stored_in_the_cell_it_names(report, study):
+    wb = load_workbook(study, data_only=True)
+    doc = Document(str(report))
+    key_table = doc.tables[0]
+    assert key_table.rows[0].cells[2].text == "Study cell"
+    checked = 0
+    for row in key_table.rows[1:]:
+        label, shown, where = (c.text for c in row.cells)
+        first = where.split(",")[0].strip()
+        sheet, address = first.split("!")
+        cell = wb[sheet][address]
+        expected = format_value(cell.value, cell.number_format)
+        assert shown.startswith(expected), (label, shown, expected, first)
+        checked += 1
+    assert checked >= 10
+
+
+def test_sheet_tables_carry_row_numbers_and_values_of_the_study(report, study):
+    wb = load_workbook(study, data_only=True)
+    doc = Document(str(report))
+    compared = 0
+    for table in doc.tables[1:]:
+        letters = [c.text for c in table.rows[0].cells]
+        if letters[0] != "row":
+            continue
+        for row in table.rows[1:]:
+            r = int(row.cells[0].text)
+            for letter, cell in zip(letters[1:], row.cells[1:]):
+                stored = wb[_sheet_of(doc, table)][f"{letter}{r}"]
+                if isinstance(stored.value, (int, float)):
+                    assert cell.text == format_value(stored.value, stored.number_format)
+                    compared += 1
+    assert compared > 100
+
+
+def _sheet_of(doc, table) -> str:
+    """The study sheet a table came from, read from its caption (the paragraph just before it)."""
+    previous = table._tbl.getprevious()
+    text = "".join(t.text or "" for t in previous.iter() if t.tag.endswith("}t"))
+    return re.match(r"Study sheet (.+?), rows", text).group(1)
+
+
+def test_every_part_for_the_author_is_marked_and_shaded(report):
+    doc = Document(str(report))
+    marked = [p for p in doc.paragraphs if PLACEHOLDER_MARK in p.text]
+    assert len(marked) == sum(len(s.placeholders) for s in SECTIONS)
+    for p in marked:
+        assert p.text.startswith(PLACEHOLDER_MARK)
+        assert p._p.pPr.find("{http://schemas.openxmlformats.org/wordprocessingml/2006/main}shd") is not None
+
+
+def test_the_caution_and_no_candidate_rows(report):
+    texts = "\n".join(_texts(report))
+    assert "statistical indicators to support professional judgment, not legal findings" in texts
+    assert "they are not printed here" in texts
+    # no candidate's row: none of the demo's applicant ids appears
+    assert not any(candidate in texts for candidate in make_demo().ids)
+
+
+def test_validity_interval_that_includes_zero_is_said_before_utility():
+    def row(value, text, address):
+        return Figure("Validity", address, value, text)
+
+    content = StudyContent(Path("x.xlsx"))
+    content.summary = [("Observed validity (correlation with the criterion)",
+                        [row(0.108, "0.108", "B5"), row(-0.049, "-0.049", "C6"), row(0.260, "0.260", "D6")])]
+    warning = validity_not_established(content)
+    assert warning and "do not establish" in warning and "Validity!B5" in warning
+    content.summary[0][1][1] = row(0.02, "0.020", "C6")
+    assert validity_not_established(content) is None
+
+
+@pytest.mark.parametrize("value, fmt, shown", [
+    (0.00004, "0.0000", "< 0.0001"), (0.0001, "0.0000", "0.0001"),
+    (0.00004, P_FORMAT, "< 0.0001"), (0.0123, P_FORMAT, "0.0123"), (0.5, "0.0%", "50.0%"),
+    (613478.4, "#,##0", "613,478"), (0.85123, "0.000", "0.851"), (400, "0", "400"), ("none", "General", "none")])
+def test_format_value(value, fmt, shown):
+    assert format_value(value, fmt) == shown
+
+
+def test_a_study_saved_without_values_is_refused_in_one_line(study, tmp_path, capsys):
+    copy = tmp_path / "edited.xlsx"
+    load_workbook(study).save(copy)   # openpyxl keeps the formulas and drops their values
+    with pytest.raises(ReportError, match="never recalculated"):
+        write_report(copy, tmp_path / "r.docx", version="test")
+    assert main(["report", str(copy), "-o", str(tmp_path / "r.docx")]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "trueband recalc" in err[0]
+    assert not (tmp_path / "r.docx").exists()
+    assert not list(tmp_path.glob(".trueband-report-*"))
+
+
+def test_command_refuses_to_overwrite_and_writes_beside_the_study(study, tmp_path, capsys):
+    local = tmp_path / "s.xlsx"
+    shutil.copy(study, local)
+    assert main(["report", str(local)]) == 0
+    assert (tmp_path / "s-report.docx").is_file()
+    assert main(["report", str(local)]) == 2
+    assert "--overwrite" in capsys.readouterr().err
+    assert main(["report", str(local), "--overwrite"]) == 0
+
+
+def test_report_turns_into_pdf_in_writer_with_headings_numbers_and_marks(report, study, soffice, tmp_path):
+    if shutil.which("pdftotext") is None:
+        pytest.fail("pdftotext (poppler-utils) is required; .ci/run installs it")
+    profile = (tmp_path / "profile").as_uri()
+    subprocess.run([soffice, f"-env:UserInstallation={profile}", "--headless", "--norestore",
+                    "--convert-to", "pdf", "--outdir", str(tmp_path), str(report)],
+                   check=True, capture_output=True, timeout=180)
+    pdf = tmp_path / "report.pdf"
+    text = subprocess.run(["pdftotext", str(pdf), "-"], check=True, capture_output=True, text=True).stdout
+    flat = " ".join(text.split())
+    for section in SECTIONS:
+        if section.heading != "Further analyses":
+            assert section.heading in flat
+    assert flat.count(PLACEHOLDER_MARK) == sum(len(s.placeholders) for s in SECTIONS)
+    wb = load_workbook(study, data_only=True)
+    alpha = wb["Reliability"]["B10"]
+    assert format_value(alpha.value, alpha.number_format) in flat
+    pages = int(re.search(r"Pages:\s+(\d+)", subprocess.run(["pdfinfo", str(pdf)], capture_output=True,
+                                                               text=True, check=True).stdout).group(1))
+    assert pages <= DEMO_REPORT_PAGES
+    assert f"of {pages}" in flat   # the footer's page count
+
+
+def test_report_module_loads_python_docx_only_when_writing():
+    code = ("import sys, trueband.bridge.study.report as r; "
+            "print('docx' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.strip() == "False"
+
+
+def test_p_values_below_0_0001_show_as_such_in_libreoffice(soffice, tmp_path):
+    # The study's p format must display "< 0.0001" in a real spreadsheet app, not 0.0000: LibreOffice
+    # Calc renders it here (CSV export writes cells as shown).
+    from openpyxl import Workbook
+
+    wb = Workbook()
+    ws = wb.active
+    for r, value in enumerate((0.00001, 0.0, 0.04567, 0.5), start=1):
+        ws.cell(r, 1, value).number_format = P_FORMAT
+    book = tmp_path / "p.xlsx"
+    wb.save(book)
+    profile = (tmp_path / "profile").as_uri()
+    subprocess.run([soffice, f"-env:UserInstallation={profile}", "--headless", "--norestore",
+                    "--convert-to", "csv:Text - txt - csv (StarCalc):44,34,76,1,,0,false,true,true",
+                    "--outdir", str(tmp_path), str(book)],
+                   check=True, capture_output=True, timeout=180)
+    shown = (tmp_path / "p.csv").read_text(encoding="utf-8").splitlines()
+    assert shown == ["< 0.0001", "< 0.0001", "0.0457", "0.5000"]
