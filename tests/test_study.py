@@ -194,10 +194,13 @@ def test_validity_against_scipy_and_direct_calls(study, arrays):
 
 
 def test_expectancy_table_counts(study, arrays):
-    scores, perf = arrays
-    ok = ~np.isnan(perf)
     _, wb, _ = study
-    ws = wb["Validity"]
+    _assert_expectancy_table(wb["Validity"], *arrays)
+
+
+def _assert_expectancy_table(ws, scores, perf):
+    """The Validity sheet's expectancy table against numpy over the scores and criterion values."""
+    ok = ~np.isnan(perf)
     edges = [np.percentile(scores, 20 * q) for q in range(6)]  # numpy's default = the spreadsheet PERCENTILE
     threshold = np.median(perf[ok])
     for q in range(5):
@@ -211,6 +214,36 @@ def test_expectancy_table_counts(study, arrays):
             continue
         assert ws.cell(r, 5).value == pytest.approx(perf[inside].mean(), rel=1e-12)
         assert ws.cell(r, 6).value == pytest.approx((perf[inside] >= threshold).mean(), rel=1e-12)
+
+
+@pytest.mark.slow
+def test_expectancy_table_takes_a_criterion_filled_in_later(study, demo, arrays, tmp_path):
+    # the table is live: a criterion value typed into the study's copy of the data, then trueband's engine
+    # recalculating every formula, changes it as numpy says (issue 16, item 8)
+    from trueband.bridge.engine.recalc import recalculate
+    from trueband.bridge.study.data_workbook import read_study_data
+    from trueband.bridge.workbook.package import open_workbook_package
+    from trueband.bridge.workbook.save import PackageChanges, save_workbook
+    from trueband.bridge.workbook.sheet_edit import NewCell, add_cells
+    from openpyxl.utils import get_column_letter
+
+    result, before, _ = study
+    scores, perf = arrays
+    data = read_study_data(result.path.with_name("data.xlsx"))
+    col = get_column_letter(data.columns["criterion"] + 1)
+    top = np.flatnonzero(np.isnan(perf) & (scores >= np.percentile(scores, 80)))[0]  # no criterion, top fifth
+    edited = tmp_path / "edited.xlsx"
+    with open_workbook_package(result.path) as pkg:
+        part = pkg.sheet(data.sheet).part
+        changes = PackageChanges()
+        changes.set(pkg, part, add_cells(pkg.read(part), {f"{col}{top + 2}": NewCell(value=1.0)}, replace=True))
+        save_workbook(pkg, changes, output=edited)
+    recalculate(edited, tmp_path / "recalculated.xlsx", all_formulas=True)
+    after = load_workbook(tmp_path / "recalculated.xlsx", data_only=True)["Validity"]
+    perf = perf.copy()
+    perf[top] = 1.0
+    _assert_expectancy_table(after, scores, perf)
+    assert after.cell(31, 4).value == before["Validity"].cell(31, 4).value + 1  # the highest fifth gained one
 
 
 def test_bands_sheet_equals_direct_calls(study, demo, arrays):
