@@ -190,7 +190,7 @@ def _rows(bands: Bands, data: StudyData) -> Iterator[list[Any]]:
                       here('SCORE_CI({score},{sd},{rel},"upper",{conf})', **places),
                       here("SCORE_BAND({score},{scores},{sd},{rel},{conf})", **places)]
         if bands.item_scale is not None:
-            band_texts += [_clipped_interval(here, bands, data, band_texts[0], band_texts[1], score)]
+            band_texts += [_clipped_interval(here, bands, data, score)]
             band_texts[:2] = _clipped_limits(here, bands, data, band_texts[0], band_texts[1], score)
         if guard:
             band_texts = [here('IF(COUNT({score})=0,"",', score=score) + x + ")" for x in band_texts]
@@ -245,9 +245,14 @@ def _clipped_limits(here, bands: Bands, data: StudyData, lower: str, upper: str,
     return [f"MAX({low},{lower})", f"MIN({high},{upper})"]
 
 
-def _clipped_interval(here, bands: Bands, data: StudyData, lower: str, upper: str, score: Ref) -> str:
-    """The interval note: which end of the interval was cut at a possible score, or empty text."""
+def _clipped_interval(here, bands: Bands, data: StudyData, score: Ref) -> str:
+    """The interval note: which end of the interval was cut at a possible score, or empty text.
+
+    It compares the row's CI lower and CI upper cells with the possible scores, standard functions only: a
+    spreadsheet app that does not know trueband's functions recomputes a formula cell holding empty text on
+    opening, and would show ``#NAME?`` there."""
     low, high = _possible(here, bands, data, score)
-    below, above = f"{lower}<{low}", f"{upper}>{high}"
+    lower, upper = (here("{limit}", limit=cell(BANDS_SHEET, None, c)) for c in (5, 6))
+    below, above = f"{lower}<={low}", f"{upper}>={high}"
     return (f'IF({below},IF({above},"cut at both possible ends","cut at the lowest possible score"),'
             f'IF({above},"cut at the highest possible score",""))')
