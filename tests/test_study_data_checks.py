@@ -318,3 +318,39 @@ def test_a_sum_total_over_blank_items_is_no_score_as_on_the_item_route(tmp_path)
     wb = load_workbook(result.path, data_only=True)
     assert wb["Bands"]["C6"].value in (None, "") and wb["Candidates"]["J6"].value is None
     assert wb["Reliability"]["B3"].value == 27
+
+
+def test_a_shared_sum_total_over_blank_items_is_no_score(tmp_path):
+    # Spreadsheet apps save a filled-down total as one shared formula (ECMA-376 Part 1, 18.3.1.40): the cells
+    # below the master hold only its index, and the study reads their formula through the master's.
+    import golden_books as gb
+
+    header, rows = small_table(n=12)
+    rows[5][2:8] = [None] * 6
+    strings = [*header, "sum", *{r[0] for r in rows}, "A", "B", "Setting", "Value", "id column", "group column",
+               "total column", "cut score"]
+    strings = list(dict.fromkeys(strings))
+
+    def text(ref, value):
+        return gb.cell_xml(ref, strings.index(value), t="s")
+
+    sheet_rows = [gb.row_xml(1, [text(f"{c}1", h) for c, h in zip("ABCDEFGHIJ", [*header, "sum"])])]
+    for i, r in enumerate(rows):
+        n = i + 2
+        cells = [text(f"A{n}", r[0]), text(f"B{n}", r[1])]
+        cells += [gb.cell_xml(f"{c}{n}", v) for c, v in zip("CDEFGH", r[2:8]) if v is not None]
+        shared = ' t="shared" ref="J2:J13" si="0"' if n == 2 else ' t="shared" si="0"'
+        cells.append(gb.cell_xml(f"J{n}", sum(v or 0 for v in r[2:8]), formula="SUM(C2:H2)" if n == 2 else None,
+                                 f_attrs=shared))
+        sheet_rows.append(gb.row_xml(n, cells))
+    setup = [("id column", "id"), ("group column", "group"), ("total column", "sum"), ("cut score", 3)]
+    setup_rows = [gb.row_xml(1, [text("A1", "Setting"), text("B1", "Value")])]
+    for k, (name, value) in enumerate(setup, start=2):
+        second = gb.cell_xml(f"B{k}", value) if isinstance(value, int) else text(f"B{k}", value)
+        setup_rows.append(gb.row_xml(k, [text(f"A{k}", name), second]))
+    book = gb.handmade_package(tmp_path / "shared.xlsx", [("Candidates", gb.sheet_part(sheet_rows)),
+                                                          ("Setup", gb.sheet_part(setup_rows))],
+                               shared_strings=strings)
+    data = read_study_data(book)
+    assert np.isnan(data.scores).nonzero()[0].tolist() == [5]
+    assert data.scores[0] == sum(rows[0][2:8])
