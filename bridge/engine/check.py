@@ -56,7 +56,7 @@ class CheckFindings:
         out = [f"trueband function cells: {len(self.registered)} group(s)"]
         out += [f"  {where}  {what}" for where, what in self.registered]
         for title, items in (("unknown functions", self.unknown),
-                             ("not evaluated by trueband", self.not_evaluated),
+                             ("not evaluated by trueband (not counted as problems)", self.not_evaluated),
                              ("argument-count mistakes", self.argument_counts),
                              ("words that are not one of an option's choices", self.choices),
                              ("references outside the used range", self.outside),
