@@ -248,7 +248,8 @@ def _uncached_by_column(uncached, width: int) -> dict[int, list[int]]:
 def _recalc_hint(path: Path) -> str:
     from ..workbook.save import default_output_path
 
-    return (f"compute them with `trueband recalc {path.name} --all` and run the study on the "
+    shown = f'"{path}"' if " " in str(path) else str(path)  # the path as the study was given it
+    return (f"compute them with `trueband recalc {shown} --all` and run the study on the "
             f"{default_output_path(path).name} it writes (or open the workbook in a spreadsheet app and save it)")
 
 
