@@ -111,13 +111,33 @@ def test_wizard_texts_come_from_the_registry():
     functions = calc_addin.addin_functions()
     for name, entry in functions.items():
         fn = REGISTRY[entry["registered"]]
-        assert entry["description"].startswith(fn.description)
+        assert entry["description"].startswith(calc_addin.plain_text(fn.description))
         assert [a for a, _ in entry["arguments"][:-1]] == [a.name for a in fn.arguments]
         for (_, text), arg in zip(entry["arguments"], fn.arguments):
-            assert text.startswith(arg.description or arg.name)
-            assert ("optional" in text) == (not arg.required), (name, arg.name, text)
+            assert text.startswith(calc_addin.plain_text(arg.description or arg.name))
+            assert ("optional" in text.lower()) == (not arg.required), (name, arg.name, text)
     assert "CAUTION" not in functions["IMPACT_RATIO"]["description"] and \
         REGISTRY["IMPACT_RATIO"].caution in functions["IMPACT_RATIO"]["description"]
+
+
+def test_wizard_texts_in_the_generated_extension_are_plain_and_say_a_default_once(tmp_path):
+    import ast
+    import re
+
+    out = calc_addin.write_extension(tmp_path / "trueband.oxt", folders=["/nowhere"])
+    with zipfile.ZipFile(out) as z:
+        source = z.read("trueband_calc.py").decode("utf-8")
+    line = next(ln for ln in source.splitlines() if ln.startswith("FUNCTIONS = "))
+    functions = ast.literal_eval(line[len("FUNCTIONS = "):])
+    texts = [text for entry in functions.values() for _, text in entry["arguments"]]
+    texts += [entry["description"] for entry in functions.values()]
+    assert not [t for t in texts if "`" in t]  # numpydoc code marks shown as typed before
+    twice = [t for t in texts if re.search(r"\bdefault\b", t, re.I) and "if left out" in t]
+    assert not twice  # e.g. "default 0.95; optional, 0.95 if left out" before
+    flip = dict(functions["IMPACT_FLIP"]["arguments"])
+    assert flip["focal_selected"] == "Focal group applicants selected; a whole number from 0 to focal_applicants; required."
+    assert flip["alpha"] == "Significance level, strictly between 0 and 1; default 0.05. Significant means p < alpha. Optional."
+    assert dict(functions["SEM"]["arguments"])["reliability"] == "Reliability of the scores, between 0 and 1; required."
 
 
 def test_the_extension_package(tmp_path):

@@ -198,10 +198,13 @@ def test_validity_against_scipy_and_direct_calls(study, arrays):
 
 
 def test_expectancy_table_counts(study, arrays):
-    scores, perf = arrays
-    ok = ~np.isnan(perf)
     _, wb, _ = study
-    ws = wb["Validity"]
+    _assert_expectancy_table(wb["Validity"], *arrays)
+
+
+def _assert_expectancy_table(ws, scores, perf):
+    """The Validity sheet's expectancy table against numpy over the scores and criterion values."""
+    ok = ~np.isnan(perf)
     edges = [np.percentile(scores, 20 * q) for q in range(6)]  # numpy's default = the spreadsheet PERCENTILE
     threshold = np.median(perf[ok])
     for q in range(5):
@@ -217,18 +220,71 @@ def test_expectancy_table_counts(study, arrays):
         assert ws.cell(r, 6).value == pytest.approx((perf[inside] >= threshold).mean(), rel=1e-12)
 
 
+def test_intervals_past_the_possible_scores_are_cut_and_marked(study, demo, arrays):
+    # An interval for a true score cannot reach past the scores the test allows (0 to k for k items scored
+    # 0/1, common practice): each limit is cut there and the note column says which end was cut.
+    scores, _ = arrays
+    result, wb, formulas = study
+    ws = wb["Bands"]
+    note_col = next(c for c in range(1, 20) if str(ws.cell(1, c).value).startswith("Interval note"))
+    sd, rel, k = np.std(scores, ddof=1), call("CRONBACH_ALPHA", demo.items), demo.items.shape[1]
+    lower = np.array([call("SCORE_CI", s, sd, rel, "lower") for s in scores])
+    upper = np.array([call("SCORE_CI", s, sd, rel, "upper") for s in scores])
+    notes = [ws.cell(i + 2, note_col).value for i in range(demo.n)]
+    expected = ["cut at both possible ends" if lo < 0 and up > k else "cut at the lowest possible score" if lo < 0
+                else "cut at the highest possible score" if up > k else None for lo, up in zip(lower, upper)]
+    assert notes == expected and any(expected)
+    for i in np.flatnonzero((lower < 0) | (upper > k)):
+        assert ws.cell(i + 2, 5).value == pytest.approx(max(0.0, lower[i]), rel=1e-12, abs=1e-12)
+        assert ws.cell(i + 2, 6).value == pytest.approx(min(float(k), upper[i]), rel=1e-12)
+    cut = int(((lower < 0) | (upper > k)).sum())
+    assert any(n.startswith(f"{cut} score interval(s) on the Bands sheet reach below") for n in result.notes)
+
+
+@pytest.mark.slow
+def test_expectancy_table_takes_a_criterion_filled_in_later(study, demo, arrays, tmp_path):
+    # the table is live: a criterion value typed into the study's copy of the data, then trueband's engine
+    # recalculating every formula, changes it as numpy says (issue 16, item 8)
+    from trueband.bridge.engine.recalc import recalculate
+    from trueband.bridge.study.data_workbook import read_study_data
+    from trueband.bridge.workbook.package import open_workbook_package
+    from trueband.bridge.workbook.save import PackageChanges, save_workbook
+    from trueband.bridge.workbook.sheet_edit import NewCell, add_cells
+    from openpyxl.utils import get_column_letter
+
+    result, before, _ = study
+    scores, perf = arrays
+    data = read_study_data(result.path.with_name("data.xlsx"))
+    col = get_column_letter(data.columns["criterion"] + 1)
+    top = np.flatnonzero(np.isnan(perf) & (scores >= np.percentile(scores, 80)))[0]  # no criterion, top fifth
+    edited = tmp_path / "edited.xlsx"
+    with open_workbook_package(result.path) as pkg:
+        part = pkg.sheet(data.sheet).part
+        changes = PackageChanges()
+        changes.set(pkg, part, add_cells(pkg.read(part), {f"{col}{top + 2}": NewCell(value=1.0)}, replace=True))
+        save_workbook(pkg, changes, output=edited)
+    recalculate(edited, tmp_path / "recalculated.xlsx", all_formulas=True)
+    after = load_workbook(tmp_path / "recalculated.xlsx", data_only=True)["Validity"]
+    perf = perf.copy()
+    perf[top] = 1.0
+    _assert_expectancy_table(after, scores, perf)
+    assert after.cell(31, 4).value == before["Validity"].cell(31, 4).value + 1  # the highest fifth gained one
+
+
 def test_bands_sheet_equals_direct_calls(study, demo, arrays):
     scores, _ = arrays
     _, wb, _ = study
     ws = wb["Bands"]
     sd = np.std(scores, ddof=1)
     rel = call("CRONBACH_ALPHA", demo.items)
+    k = demo.items.shape[1]  # 0/1 items: the possible scores run from 0 to k
     for i in (0, 1, 57, 200, demo.n - 1):
         r = i + 2
         assert ws.cell(r, 1).value == demo.ids[i]
         assert ws.cell(r, 3).value == scores[i]
-        assert ws.cell(r, 5).value == pytest.approx(call("SCORE_CI", scores[i], sd, rel, "lower"), rel=1e-12)
-        assert ws.cell(r, 6).value == pytest.approx(call("SCORE_CI", scores[i], sd, rel, "upper"), rel=1e-12)
+        lower, upper = (call("SCORE_CI", scores[i], sd, rel, part) for part in ("lower", "upper"))
+        assert ws.cell(r, 5).value == pytest.approx(max(0.0, lower), rel=1e-12)
+        assert ws.cell(r, 6).value == pytest.approx(min(float(k), upper), rel=1e-12)
         assert ws.cell(r, 7).value == call("SCORE_BAND", scores[i], scores, sd, rel)
         assert ws.cell(r, 8).value == (1 if scores[i] >= CUT else 0)
 

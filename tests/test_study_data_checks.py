@@ -19,6 +19,7 @@ from openpyxl import Workbook, load_workbook
 from test_study_setup import SETUP, small_table, write_book
 from trueband.bridge import cli
 from trueband.bridge.study.build import make_study
+from trueband.bridge.study.data_workbook import read_study_data
 
 
 def build(tmp_path, header, rows, setup, name="study.xlsx"):
@@ -255,3 +256,101 @@ def test_a_numeric_duplicate_id_is_named_as_its_cell_shows_it(tmp_path, capsys):
     assert cli.main(["study", str(book), "-o", str(tmp_path / "s.xlsx")]) == cli.EXIT_OK
     (line,) = [x for x in capsys.readouterr().err.splitlines() if "id column" in x]
     assert "cells A6, A7, A8" in line and "the id '7' appears 3 times" in line
+
+
+# ---------------------------------------------------------------- formulas in the data (issue 16, item 8)
+
+def _formula_items_book(tmp_path, name="d.xlsx"):
+    """small_table with every item cell a formula (openpyxl stores no value for it) reading a sheet of answers."""
+    header, rows = small_table(n=30)
+    answers = [r[2:8] for r in rows]
+    for i, r in enumerate(rows):
+        r[2:8] = [f"=Answers!{col}{i + 1}" for col in "ABCDEF"]
+    return write_book(tmp_path / name, header, rows, SETUP, extra_sheets={"Answers": answers}), rows, answers
+
+
+def test_a_book_saved_without_stored_values_is_refused_once_naming_its_columns(tmp_path):
+    from test_study_setup import refuse
+
+    book, _, _ = _formula_items_book(tmp_path)
+    before = set(tmp_path.iterdir())
+    with pytest.raises(Exception) as caught:
+        make_study(book, tmp_path / "study.xlsx")
+    message = str(caught.value)
+    assert "\n" not in message and message.count("no stored value") == 1
+    assert "180 formula cell(s) in the column(s) 'i1', 'i2', 'i3', 'i4', 'i5', 'i6'" in message
+    assert f"`trueband recalc {book} --all`" in message and "the d.recalc.xlsx it writes" in message
+    assert set(tmp_path.iterdir()) == before
+    refuse(tmp_path, book, "no stored value")
+
+
+def test_the_suggested_command_makes_the_book_usable(tmp_path, capsys):
+    book, rows, answers = _formula_items_book(tmp_path)
+    assert cli.main(["recalc", str(book), "--all"]) == cli.EXIT_OK  # the command the refusal names
+    result = make_study(tmp_path / "d.recalc.xlsx", tmp_path / "study.xlsx")
+    wb = load_workbook(result.path, data_only=True)
+    assert wb["Reliability"]["B3"].value == 30  # every applicant has a score
+    assert not any("no stored value" in p for p in result.problems)
+
+
+def test_a_sum_total_over_blank_items_is_no_score_as_on_the_item_route(tmp_path):
+    header, rows = small_table(n=30)
+    blank_people = (4, 11, 23)
+    for i in blank_people:
+        rows[i][2:8] = [None] * 6
+    header = header + ["sum"]
+    for i, r in enumerate(rows):
+        r.append(f"=SUM(C{i + 2}:H{i + 2})")
+    by_total_setup = {k: v for k, v in SETUP.items() if k != "item columns"} | {"total column": "sum"}
+    for name, setup in (("items", SETUP), ("total", by_total_setup)):
+        book = write_book(tmp_path / f"{name}.xlsx", header, rows, setup)
+        assert cli.main(["recalc", str(book), "--all"]) == cli.EXIT_OK  # stores 0 for the blank people's SUM
+    computed = tmp_path / "total.recalc.xlsx"
+    assert load_workbook(computed, data_only=True)["Candidates"]["J6"].value == 0
+    by_items = read_study_data(tmp_path / "items.recalc.xlsx")
+    by_total = read_study_data(computed)
+    # the item route (StudyData.scores: no item answered, no score) is the reference
+    assert np.isnan(by_items.scores).nonzero()[0].tolist() == list(blank_people)
+    assert np.isnan(by_total.scores).nonzero()[0].tolist() == list(blank_people)
+    assert np.array_equal(by_total.scores[~np.isnan(by_total.scores)], by_items.scores[~np.isnan(by_items.scores)])
+    assert any("3 people's total (column 'sum', first in cell J6)" in n for n in by_total.notes)
+    result = make_study(computed, tmp_path / "study.xlsx")
+    wb = load_workbook(result.path, data_only=True)
+    assert wb["Bands"]["C6"].value in (None, "") and wb["Candidates"]["J6"].value is None
+    assert wb["Reliability"]["B3"].value == 27
+
+
+def test_a_shared_sum_total_over_blank_items_is_no_score(tmp_path):
+    # Spreadsheet apps save a filled-down total as one shared formula (ECMA-376 Part 1, 18.3.1.40): the cells
+    # below the master hold only its index, and the study reads their formula through the master's.
+    import golden_books as gb
+
+    header, rows = small_table(n=12)
+    rows[5][2:8] = [None] * 6
+    strings = [*header, "sum", *{r[0] for r in rows}, "A", "B", "Setting", "Value", "id column", "group column",
+               "total column", "cut score"]
+    strings = list(dict.fromkeys(strings))
+
+    def text(ref, value):
+        return gb.cell_xml(ref, strings.index(value), t="s")
+
+    sheet_rows = [gb.row_xml(1, [text(f"{c}1", h) for c, h in zip("ABCDEFGHIJ", [*header, "sum"])])]
+    for i, r in enumerate(rows):
+        n = i + 2
+        cells = [text(f"A{n}", r[0]), text(f"B{n}", r[1])]
+        cells += [gb.cell_xml(f"{c}{n}", v) for c, v in zip("CDEFGH", r[2:8]) if v is not None]
+        shared = ' t="shared" ref="J2:J13" si="0"' if n == 2 else ' t="shared" si="0"'
+        cells.append(gb.cell_xml(f"J{n}", sum(v or 0 for v in r[2:8]), formula="SUM(C2:H2)" if n == 2 else None,
+                                 f_attrs=shared))
+        sheet_rows.append(gb.row_xml(n, cells))
+    setup = [("id column", "id"), ("group column", "group"), ("total column", "sum"), ("cut score", 3)]
+    setup_rows = [gb.row_xml(1, [text("A1", "Setting"), text("B1", "Value")])]
+    for k, (name, value) in enumerate(setup, start=2):
+        second = gb.cell_xml(f"B{k}", value) if isinstance(value, int) else text(f"B{k}", value)
+        setup_rows.append(gb.row_xml(k, [text(f"A{k}", name), second]))
+    book = gb.handmade_package(tmp_path / "shared.xlsx", [("Candidates", gb.sheet_part(sheet_rows)),
+                                                          ("Setup", gb.sheet_part(setup_rows))],
+                               shared_strings=strings)
+    data = read_study_data(book)
+    assert np.isnan(data.scores).nonzero()[0].tolist() == [5]
+    assert data.scores[0] == sum(rows[0][2:8])

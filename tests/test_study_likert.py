@@ -147,3 +147,25 @@ def test_bad_reverse_settings_are_refused(tmp_path, changes, match):
     header, rows, _ = likert_table(n=40)
     setup = {k: v for k, v in {**SETUP, **changes}.items() if v is not None}
     refuse(tmp_path, write_book(tmp_path / "d.xlsx", header, rows, setup), match)
+
+
+def test_intervals_are_cut_at_the_scale_given_on_setup(built):
+    # Possible scores run from 8 × 1 to 8 × 5 (the item scale given on Setup; common practice): the limits are
+    # cut there by formulas that read the Setup cells, and the note column says which end was cut.
+    result, wb, scored = built
+    ws, formulas = wb["Bands"], load_workbook(result.path)["Bands"]
+    note_col = next(c for c in range(1, 20) if str(ws.cell(1, c).value).startswith("Interval note"))
+    assert "'Setup'!" in formulas.cell(2, 5).value and formulas.cell(2, 5).value.startswith("=MAX(MIN(8*")
+    scores = scored.sum(axis=1).to_numpy()
+    sd = np.std(scores, ddof=1)
+    rel = pingouin.cronbach_alpha(scored)[0]
+    z = stats.norm.ppf(0.975)
+    half = z * sd * np.sqrt(1 - rel)
+    assert ((scores - half < 8) | (scores + half > 40)).sum() > 0  # some intervals reach past 8 or 40 here
+    for i, s in enumerate(scores):
+        lower, upper = max(8.0, s - half), min(40.0, s + half)
+        assert ws.cell(i + 2, 5).value == pytest.approx(lower, rel=1e-9)
+        assert ws.cell(i + 2, 6).value == pytest.approx(upper, rel=1e-9)
+        want = ("cut at the lowest possible score" if s - half < 8 else
+                "cut at the highest possible score" if s + half > 40 else None)
+        assert ws.cell(i + 2, note_col).value == want

@@ -43,7 +43,7 @@ from xml.sax.saxutils import escape, quoteattr
 
 from trueband.funcs.registry import REGISTRY, SpreadsheetFunction
 
-__all__ = ["SERVICE_NAME", "INTERFACE", "EXTENSION_ID", "cell_names", "addin_functions", "type_library",
+__all__ = ["SERVICE_NAME", "INTERFACE", "EXTENSION_ID", "cell_names", "addin_functions", "plain_text", "type_library",
            "component_source", "write_extension", "install_line", "python_version_note", "site_folders",
            "libreoffice_python"]
 
@@ -74,8 +74,24 @@ def cell_names(fn: SpreadsheetFunction) -> list[str]:
     return [name for name in (fn.name, *fn.aliases) if not _CELL_ADDRESS.fullmatch(name)]
 
 
+# reST/numpydoc marks in docstrings (``code``, :role:`name`, `name`) that the wizard would show as typed.
+_MARKUP = re.compile(r"``(.+?)``|(?::[a-z]+:)?`([^`]+)`")
+_DEFAULT_SAID = re.compile(r"\bdefault\b", re.I)
+
+
+def plain_text(text: str) -> str:
+    """Docstring text as the wizard should show it: code marks dropped (``x`` and `x` shown as x).
+
+    >>> plain_text("a whole number from 0 to ``focal_applicants``; see :func:`impact_ratio`")
+    'a whole number from 0 to focal_applicants; see impact_ratio'
+    """
+    return _MARKUP.sub(lambda m: m.group(1) or m.group(2), text)
+
+
 def _argument_text(arg) -> str:
-    text = arg.description or arg.name
+    """An argument's wizard text: its description, its words or range, then required or optional (with the
+    default, unless the description already says it); a description of several sentences gets its own last one."""
+    text = plain_text(arg.description or arg.name)
     if arg.choices:
         text += " (one of: " + ", ".join(arg.choices) + ")"
     if arg.kind == "range":
@@ -84,10 +100,12 @@ def _argument_text(arg) -> str:
         default = arg.default
         shown = "TRUE" if default is True else "FALSE" if default is False else f'"{default}"' if isinstance(
             default, str) else format(default, "g") if isinstance(default, float) else str(default)
-        text += f"; optional, {shown} if left out"
+        status = "optional" if _DEFAULT_SAID.search(text) else f"optional, {shown} if left out"
     else:
-        text += "; required"  # the wizard marks every argument optional (Calc's rule for arguments of type any)
-    return text + "."
+        status = "required"  # the wizard marks every argument optional (Calc's rule for arguments of type any)
+    if ". " in text:
+        return f"{text.rstrip('.')}. {status[0].upper()}{status[1:]}."
+    return f"{text}; {status}."
 
 
 def addin_functions() -> dict[str, dict]:
@@ -102,7 +120,7 @@ def addin_functions() -> dict[str, dict]:
     out = {}
     for key in sorted(REGISTRY):
         fn = REGISTRY[key]
-        description = fn.description
+        description = plain_text(fn.description)
         if fn.caution:
             description += " " + fn.caution
         arguments = [(a.name, _argument_text(a)) for a in fn.arguments]

@@ -125,9 +125,12 @@ def register(sub) -> None:
 
     p = sub.add_parser(
         "check", help="list trueband cells, unknown functions, argument-count mistakes and stray references",
-        description="Read a workbook without writing anything and list the cells that use trueband functions, "
-                    "unknown function names (with a suggestion), calls with too few or too many arguments, and "
-                    "references outside the sheet's used range. Exit status 1 when a problem is found.")
+        description="Read a workbook without writing anything and list the cells that use trueband functions "
+                    "(cells whose formulas differ only in their constants as one block), unknown function names "
+                    "(with a suggestion when one is close), calls with too few or too many arguments, quoted words "
+                    "that are not one of an option's words, and references outside the sheet's used range; and, "
+                    "apart, standard functions and table references trueband does not evaluate. Exit status 1 "
+                    "when a problem is found (the functions trueband does not evaluate are not problems).")
     p.add_argument("book", help="the .xlsx or .xlsm workbook")
     p.set_defaults(handler=_check)
 

@@ -237,23 +237,105 @@ def _report(data: StudyData, kind: str, lines: list[str], count: int | None = No
                              f"above (not listed)")
 
 
-def note_uncached(data: StudyData, uncached, width: int) -> None:
+def _uncached_by_column(uncached, width: int) -> dict[int, list[int]]:
+    """0-based column → sheet rows of its formula cells without a stored value (below the header)."""
     by_col: dict[int, list[int]] = {}
     for r, c in uncached:
         if r >= 2 and c <= width:
-            by_col.setdefault(c, []).append(r)
-    lines = []
-    for c, rs in sorted(by_col.items()):
-        name = data.header[c - 1]
-        cells = ", ".join(f"{get_column_letter(c)}{r}" for r in rs[:5]) + (", ..." if len(rs) > 5 else "")
-        lines.append(f"sheet '{data.sheet}', column {name!r}: {len(rs)} formula cell(s) without a stored value "
-                     f"({cells}) are blank in the study; recalculate the data workbook first (trueband recalc or "
-                     f"save it from a spreadsheet app)")
-    data.problems.extend(lines)
+            by_col.setdefault(c - 1, []).append(r)
+    return by_col
 
 
-def check_data(setup: StudySetup, path: Path, sheet: str, header, rows) -> StudyData:
-    """The data of ``rows`` (below ``header``) as the setup reads them, checked; problems listed."""
+def _recalc_hint(path: Path) -> str:
+    from ..workbook.save import default_output_path
+
+    shown = f'"{path}"' if " " in str(path) else str(path)  # the path as the study was given it
+    return (f"compute them with `trueband recalc {shown} --all` and run the study on the "
+            f"{default_output_path(path).name} it writes (or open the workbook in a spreadsheet app and save it)")
+
+
+def _refuse_uncached(uncached, used: list[int], header, sheet: str, path: Path) -> None:
+    """One refusal naming every column the study reads whose formula cells have no stored value."""
+    by_col = _uncached_by_column(uncached, len(header))
+    bad = [c for c in sorted(by_col) if c in used]
+    if not bad:
+        return
+    n = sum(len(by_col[c]) for c in bad)
+    names = whole_names([repr(header[c]) for c in bad])
+    raise SetupError(f"sheet '{sheet}': {n} formula cell(s) in the column(s) {names} have no stored value (the "
+                     f"workbook was saved without computing its formulas), so the study cannot read them; "
+                     f"{_recalc_hint(path)}")
+
+
+def note_uncached(data: StudyData, uncached, width: int) -> None:
+    """One line for the formula cells without a stored value in columns the study does not read (the study's
+    copy shows them blank); those in the columns it reads were refused by :func:`check_data`."""
+    by_col = _uncached_by_column(uncached, width)
+    if not by_col:
+        return
+    cols = sorted(by_col)
+    rows = [(c, r) for c in cols for r in by_col[c]]
+    cells = ", ".join(f"{get_column_letter(c + 1)}{r}" for c, r in rows[:5]) + (", ..." if len(rows) > 5 else "")
+    which = (f"column {data.header[cols[0]]!r}" if len(cols) == 1 else
+             f"columns {whole_names([repr(data.header[c]) for c in cols])}")
+    data.problems.append(f"sheet '{data.sheet}', {which}: {len(rows)} formula cell(s) without a stored value "
+                         f"({cells}) are blank in the study's copy of the data; recalculate the data workbook "
+                         f"first ({_recalc_hint(data.path)})")
+
+
+#: A formula reading more cells than this is not searched for blanks (a whole-column SUM, say).
+_MOST_CELLS_SEARCHED = 100_000
+
+
+def _reads_only_blanks(text: str, row: int, col: int, sheet: str, blank, compiled: dict) -> bool:
+    """Whether the formula ``text`` in sheet cell (row, col), 1-based, reads cells of its own sheet only, all blank."""
+    from ..formulas.compile import FormulaSyntaxError, compile_formula, formula_key
+
+    key = formula_key(text, row, col)[0]
+    if key not in compiled:
+        try:
+            compiled[key] = compile_formula(text, row, col)
+        except FormulaSyntaxError:
+            compiled[key] = None
+    found = compiled[key]
+    if found is None or not found.refs:
+        return False
+    areas = []
+    for ref in found.refs:
+        if ref.name is not None or (ref.sheet is not None and ref.sheet.strip("'").lower() != sheet.lower()):
+            return False
+        r1, c1, r2, c2 = ref.area(row, col)
+        if (r2 - r1 + 1) * (c2 - c1 + 1) > _MOST_CELLS_SEARCHED:
+            return False
+        areas.append((r1, c1, r2, c2))
+    return all(blank(r, c) for r1, c1, r2, c2 in areas for r in range(r1, r2 + 1) for c in range(c1, c2 + 1))
+
+
+def _totals_over_blanks(rows: list, col: int, sheet: str, formulas, blank) -> tuple[list, list[int]]:
+    """``rows`` with the total (0-based column ``col``) made blank where it is a formula that shows 0 and reads
+    only blank cells (``=SUM(C2:H2)`` of a person who answered nothing), and the indexes of those rows.
+
+    Such a person has no score, as on the item route; the stored 0 would count them as scoring 0."""
+    out, emptied, compiled = list(rows), [], {}
+    for i, row in enumerate(rows):
+        text = formulas.get((i + 2, col + 1))
+        value = row[col] if col < len(row) else None
+        if text is None or isinstance(value, bool) or not isinstance(value, numbers.Real) or value != 0:
+            continue
+        if _reads_only_blanks(text, i + 2, col + 1, sheet, blank, compiled):
+            out[i] = tuple(None if j == col else v for j, v in enumerate(row))
+            emptied.append(i)
+    return out, emptied
+
+
+def check_data(setup: StudySetup, path: Path, sheet: str, header, rows, *, uncached=(), formulas=None,
+               blank=None) -> StudyData:
+    """The data of ``rows`` (below ``header``) as the setup reads them, checked; problems listed.
+
+    ``uncached`` lists (row, col) of formula cells without a stored value (a column the study reads that has
+    any is refused, in one line); ``formulas`` maps (row, col) to the formula text of the sheet's formula
+    cells and ``blank(row, col)`` says whether a sheet cell is blank (both 1-based), so that a total that is a
+    formula over blank cells only counts as no score."""
     index, dupes = _header_index(header, sheet)
     setup = setup_impact.normalise(setup)  # the first of several group columns is the group column
     if not setup.items and setup.total is None:
@@ -269,6 +351,7 @@ def check_data(setup: StudySetup, path: Path, sheet: str, header, rows) -> Study
     used = list(columns.values()) + item_cols + rating_cols
     if len(set(used)) != len(used):
         raise SetupError(f"a column of sheet '{sheet}' is given two roles; each column has one role")
+    _refuse_uncached(uncached, used, header, sheet, path)
     if setup.items and len(item_cols) < 2:
         raise SetupError(f"item columns: at least 2 item columns are needed on sheet '{sheet}', got {len(item_cols)}")
     if setup.ratings and len(rating_cols) < 2:
@@ -282,6 +365,9 @@ def check_data(setup: StudySetup, path: Path, sheet: str, header, rows) -> Study
     def matrix(cols, setting):
         return np.column_stack([_numeric(rows, c, setting, sheet, header) for c in cols])
 
+    emptied: list[int] = []
+    if "total" in columns and formulas and blank is not None:
+        rows, emptied = _totals_over_blanks(rows, columns["total"], sheet, formulas, blank)
     items = matrix(item_cols, "item columns") if item_cols else None
     reverse = _reverse_items(setup, item_cols, index, dupes, header, sheet)
     total = _numeric(rows, columns["total"], "total column", sheet, header) if "total" in columns else None
@@ -330,6 +416,11 @@ def check_data(setup: StudySetup, path: Path, sheet: str, header, rows) -> Study
         for name, spellings in tally.merged.items():
             data.notes.append(f"Group labels {', '.join(repr(x) for x in spellings)} (column {setup.group!r}) differ "
                               f"only in letter case or spacing and are counted as one group, {name!r}.")
+    if emptied:
+        where = f"{get_column_letter(columns['total'] + 1)}{emptied[0] + 2}"
+        data.notes.append(f"{len(emptied)} people's total (column {header[columns['total']]!r}, first in cell "
+                          f"{where}) is a formula that reads only blank cells and shows 0: they have no score, as "
+                          f"when every item is left blank, and their total is blank in the study's copy of the data.")
     if items is not None and np.isnan(items).any():
         data.notes.append(f"{int(np.isnan(items).any(axis=1).sum())} people left at least one item blank: a blank "
                           f"item counts 0 in the total and the person is left out of the item statistics")

@@ -45,7 +45,8 @@ class DataWorkbook:
         """``(rows, formats, uncached)``: the rows as :meth:`rows` gives them; ``formats`` maps
         ``(row, col)`` (1-based) to the number format of each cell that has one other than General
         (dates keep their date format in the study's copy); ``uncached`` lists ``(row, col)`` of the
-        formula cells without a stored value."""
+        formula cells without a stored value. The formula texts, ``(row, col)`` → text, are kept in
+        :attr:`formulas`."""
         from ..workbook.sheet_columns import read_columns
         from ..workbook.sheet_data import SheetXmlError
 
@@ -57,6 +58,7 @@ class DataWorkbook:
         styles = self.number_formats()
         formats = {rc: styles[s] for rc, s in sc.styles.items() if s in styles and rc[1] in cols}
         uncached = [(r, c) for r, c, _ in sc.formulas if c in cols and sc.value(r, c) is None]
+        self.formulas = _formula_texts(sc.formulas, cols)
         return self._grid(cols), formats, uncached
 
     def number_formats(self) -> dict[int, str]:
@@ -137,6 +139,7 @@ def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None
                              f"{', '.join(wb.sheetnames)})")
         sheet = match
         grid, formats, uncached = wb.sheet(sheet)
+        formulas = wb.formulas
     finally:
         wb.close()
     header = [cell_text(h) for h in grid[0]] if grid else []
@@ -150,10 +153,37 @@ def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None
         rows.pop()
     if not rows:
         raise SetupError(f"sheet '{sheet}' has a header row but no data rows below it")
-    data = check_data(setup, path, sheet, header, rows)
+    data = check_data(setup, path, sheet, header, rows, uncached=uncached, formulas=formulas,
+                      blank=lambda r, c: _blank_cell(grid, r, c))
     data.raw_header = list(grid[0][:width])
     # the copy's rows stand in the same sheet rows as the source's (from row 2)
     data.formats = {(r, c - 1): f for (r, c), f in formats.items() if 2 <= r <= len(rows) + 1 and c <= width}
     note_uncached(data, uncached, width)
     return data
+
+
+def _formula_texts(found, cols) -> dict[tuple[int, int], str]:
+    """(row, col) → formula text of each formula cell in ``cols``; a cell sharing a master's formula gets the
+    master's text moved to it, as the spreadsheet app reads it."""
+    from ..workbook.shared_formulas import translate_formula
+
+    masters = {f.shared_index: (r, c, f.text) for r, c, f in found if f.kind == "shared" and f.is_master and f.text}
+    out = {}
+    for r, c, f in found:
+        if c not in cols:
+            continue
+        if f.text:
+            out[(r, c)] = f.text
+        elif f.kind == "shared" and f.shared_index in masters:
+            mr, mc, text = masters[f.shared_index]
+            out[(r, c)] = translate_formula(text, r - mr, c - mc)
+    return out
+
+
+def _blank_cell(grid: list[list], row: int, col: int) -> bool:
+    """Whether sheet cell (row, col), 1-based, is blank (empty, empty text, or beyond the cells written)."""
+    if row < 1 or col < 1 or row > len(grid) or col > len(grid[row - 1]):
+        return True
+    value = grid[row - 1][col - 1]
+    return value is None or (isinstance(value, str) and not value.strip())
 

@@ -39,6 +39,7 @@ class BandsLayout:
     group_col: int | None           # the group number column (1-based), when there is a group column
     hired_col: int | None           # the hired column (1-based), when there is a hired column
     extra: Mapping[str, int] = dataclasses.field(default_factory=dict)  # setup_impact.bands_columns key -> column
+    note_col: int | None = None     # the interval note column (1-based), when the possible scores are known
 
     def column(self, col: int) -> Ref:
         return area(BANDS_SHEET, col, 2, col, self.last)
@@ -87,11 +88,25 @@ def layout(data: StudyData) -> BandsLayout:
     if data.hired is not None:
         header.append("Hired (1 = yes, as read from the hired column)")
         hired_col = len(header)
+    note_col = None
+    if _scale_known(data):
+        header.append(INTERVAL_NOTE)
+        note_col = len(header)
     extra = {}
     for key, heading in setup_impact.bands_columns(data):
         header.append(heading)
         extra[key] = len(header)
-    return BandsLayout(tuple(header), data.n + 1, numbers, group_col, hired_col, extra)
+    return BandsLayout(tuple(header), data.n + 1, numbers, group_col, hired_col, extra, note_col)
+
+
+#: The header of the interval note column: what the clipping of CI lower / CI upper means.
+INTERVAL_NOTE = ("Interval note (an interval reaching below the lowest or above the highest possible score, "
+                 "items × the item scale's ends, is cut there)")
+
+
+def _scale_known(data: StudyData) -> bool:
+    """Whether the lowest and highest possible scores are known: item scores on a known item scale."""
+    return data.total is None and data.items is not None and data.item_scale is not None
 
 
 @dataclasses.dataclass(frozen=True)
@@ -104,6 +119,7 @@ class Bands:
     reliability: Ref
     confidence: Ref
     cut: Ref
+    item_scale: tuple[Any, Any] | None = None  # the item scale's ends (Setup cells, or the numbers found)
 
     def rows(self, data: StudyData) -> Iterator[list[Any]]:
         """The rows below the header: formulas as text starting with '='."""
@@ -128,7 +144,29 @@ def plan(ctx: StudyContext, layout: BandsLayout, setup, rel) -> Bands:
         except TruebandError as exc:
             can_band = False
             ctx.notes.append(f"Bands are not computable: {exc.message}")
-    return Bands(layout, can_band, rel.sd, rel.reliability, setup.confidence, setup.cut_cell)
+    item_scale = None
+    if layout.note_col is not None:
+        d = ctx.data
+        item_scale = (setup.item_min, setup.item_max) if d.item_scale_given else d.item_scale
+        if can_band:
+            _note_clipped(ctx, d, rel)
+    return Bands(layout, can_band, rel.sd, rel.reliability, setup.confidence, setup.cut_cell, item_scale)
+
+
+def _note_clipped(ctx: StudyContext, d: StudyData, rel) -> None:
+    """A Notes line saying how many intervals reach past the possible scores (as built; the sheet is live)."""
+    k, (lo, hi) = len(d.item_columns), d.item_scale
+    try:
+        half = call("SCORE_CI", 0.0, ctx.value(rel.sd), ctx.value(rel.reliability), "upper", ctx.setup.confidence)
+    except (TruebandError, TypeError):
+        return
+    scores = d.scores[~np.isnan(d.scores)]
+    low, high = np.minimum(k * lo, scores), np.maximum(k * hi, scores)
+    cut = int(((scores - half < low) | (scores + half > high)).sum())
+    if cut:
+        ctx.notes.append(f"{cut} score interval(s) on the Bands sheet reach below the lowest possible score, "
+                         f"{k * lo:g}, or above the highest, {k * hi:g} ({k} items × the item scale's ends): they are "
+                         f"cut at those scores and marked in the interval note column.")
 
 
 def _rows(bands: Bands, data: StudyData) -> Iterator[list[Any]]:
@@ -157,6 +195,9 @@ def _rows(bands: Bands, data: StudyData) -> Iterator[list[Any]]:
         band_texts = [here('SCORE_CI({score},{sd},{rel},"lower",{conf})', **places),
                       here('SCORE_CI({score},{sd},{rel},"upper",{conf})', **places),
                       here("SCORE_BAND({score},{scores},{sd},{rel},{conf})", **places)]
+        if bands.item_scale is not None:
+            band_texts += [_clipped_interval(here, bands, data, score)]
+            band_texts[:2] = _clipped_limits(here, bands, data, band_texts[0], band_texts[1], score)
         if guard:
             band_texts = [here('IF(COUNT({score})=0,"",', score=score) + x + ")" for x in band_texts]
         band_texts = ["=" + x for x in band_texts]
@@ -179,7 +220,7 @@ def _rows(bands: Bands, data: StudyData) -> Iterator[list[Any]]:
                           data.groups[i] if "group" in data.columns else None,
                           fill_row(score_text, r), fill_row(count_text, r)]
         if bands.can_band:
-            row += [fill_row(x, r) for x in band_texts]
+            row += [fill_row(x, r) for x in band_texts[:3]]
         else:
             row += [na_band, None, None]
         row.append(fill_row(selected_text, r))
@@ -189,6 +230,38 @@ def _rows(bands: Bands, data: StudyData) -> Iterator[list[Any]]:
             row.append(group_numbers.get(data.groups[i]))
         if data.hired_codes is not None:
             row.append(None if data.hired_codes[i] is None else int(data.hired_codes[i]))
+        if bands.layout.note_col is not None:
+            row.append(fill_row(band_texts[3], r) if bands.can_band else None)
         if extra_row is not None:
             row += extra_row(i)
         yield row
+
+
+def _possible(here, bands: Bands, data: StudyData, score: Ref) -> tuple[str, str]:
+    """Formula text of the lowest and highest possible score for the person (items × the scale's ends; never past
+    the person's own score, which blank items, counted 0, or a value outside the scale may put outside)."""
+    k = len(data.item_columns)
+    lo, hi = bands.item_scale
+    if isinstance(lo, Ref):  # the Setup cells: editing the scale there moves the cut
+        return (here("MIN({k}*{lo},{score})", k=k, lo=lo, score=score),
+                here("MAX({k}*{hi},{score})", k=k, hi=hi, score=score))
+    return here("MIN({low},{score})", low=k * lo, score=score), here("MAX({high},{score})", high=k * hi, score=score)
+
+
+def _clipped_limits(here, bands: Bands, data: StudyData, lower: str, upper: str, score: Ref) -> list[str]:
+    """CI lower and CI upper cut at the lowest and highest possible score."""
+    low, high = _possible(here, bands, data, score)
+    return [f"MAX({low},{lower})", f"MIN({high},{upper})"]
+
+
+def _clipped_interval(here, bands: Bands, data: StudyData, score: Ref) -> str:
+    """The interval note: which end of the interval was cut at a possible score, or empty text.
+
+    It compares the row's CI lower and CI upper cells with the possible scores, standard functions only: a
+    spreadsheet app that does not know trueband's functions recomputes a formula cell holding empty text on
+    opening, and would show ``#NAME?`` there."""
+    low, high = _possible(here, bands, data, score)
+    lower, upper = (here("{limit}", limit=cell(BANDS_SHEET, None, c)) for c in (5, 6))
+    below, above = f"{lower}<={low}", f"{upper}>={high}"
+    return (f'IF({below},IF({above},"cut at both possible ends","cut at the lowest possible score"),'
+            f'IF({above},"cut at the highest possible score",""))')

@@ -96,7 +96,7 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLa
     have_r = isinstance(r.value, float)
     end = LISTED_ROW - 1 + len(listed)
     listed_scores, listed_criteria = (area(SHEET, col, LISTED_ROW, col, end) for col in (16, 17))
-    _expectancy(ctx, g, setup, rel, have_r, listed_scores.fixed(), listed_criteria.fixed())
+    _expectancy(ctx, g, setup, rel, have_r, bands.scores_with_criterion, bands.criterion)
     if have_r:
         _listed(ctx, g, bands, listed, end, s.criterion)
     return Validity(r=r, r_lower=r_lower, r_upper=r_upper, r_p=r_p, operational=operational, n_criterion=n_criterion,
@@ -144,8 +144,11 @@ def _corrections(ctx: StudyContext, g, setup: SetupSheet, rel: Reliability, r: R
 
 def _expectancy(ctx: StudyContext, g, setup: SetupSheet, rel: Reliability, have_r: bool, listed_scores: Ref,
                 listed_criteria: Ref) -> None:
-    """The expectancy table: criterion by score fifth (quintile) of all applicants. The people with a criterion
-    value are listed in P:Q: ranges of numbers only, so the conditional counts never compare text with numbers."""
+    """The expectancy table: criterion by score fifth (quintile) of all applicants.
+
+    ``listed_scores`` and ``listed_criteria`` are Bands' whole columns of the score of each person with a
+    criterion value and of the criterion (empty text for everyone else, which the conditional counts skip), so
+    every number of the table is a live formula over the data: a criterion filled in later enters it."""
     row = EXPECTANCY_ROW
     g.set(row, 1, "Expectancy table: criterion by score fifth (quintile) of all applicants", "heading")
     g.set(row + 1, 1, "Success means a criterion value at or above (Setup: success threshold)")
