@@ -22,6 +22,7 @@ from typing import Any, Callable, Mapping, Sequence
 
 import numpy as np
 
+from ._budget import check_time
 from .errors import TruebandError
 
 __all__ = ["evaluate_rows", "number_columns"]
@@ -108,6 +109,7 @@ def evaluate_rows(body: Callable, check_results: Callable[[np.ndarray], list], f
         out[i] = one(int(i))
 
     def block(idx: np.ndarray) -> None:
+        check_time()
         try:
             with np.errstate(all="ignore"):  # non-finite results are refused by check_results
                 res = np.broadcast_to(body(**fixed, **{k: a[idx] for k, a in arrays.items()}), idx.shape)
