@@ -53,8 +53,9 @@ class BudgetExceeded(Exception):
 
 
 @contextlib.contextmanager
-def time_budget(seconds: float | None):
-    """Calls inside may compute for at most ``seconds`` (``None``: no budget).
+def time_budget(seconds: float | None, *, since: float | None = None):
+    """Calls inside may compute for at most ``seconds`` (``None``: no budget), counted from ``since``
+    (a ``time.perf_counter()`` reading, such as when a request arrived; default now).
 
     >>> with time_budget(60):
     ...     check_time()   # well inside the budget: nothing happens
@@ -63,7 +64,8 @@ def time_budget(seconds: float | None):
     if seconds is None:
         yield
         return
-    token = _DEADLINE.set((time.perf_counter() + float(seconds), float(seconds)))
+    start = time.perf_counter() if since is None else since
+    token = _DEADLINE.set((start + float(seconds), float(seconds)))
     try:
         yield
     finally:

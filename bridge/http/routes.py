@@ -159,8 +159,10 @@ def column_route():
                 computed = call_column(fn.name, part, same)
             except BudgetExceeded as exc:
                 raise budget_error(exc, lo, rows, "column") from None
-            for x in computed:
-                values.append({"error": error_body(x)} if isinstance(x, TruebandError) else x)
+            if any(issubclass(t, TruebandError) for t in set(map(type, computed))):
+                values.extend({"error": error_body(x)} if isinstance(x, TruebandError) else x for x in computed)
+            else:
+                values.extend(computed)
     return json_response({"values": values})
 
 
