@@ -259,3 +259,22 @@ def test_bands_words_a_malformed_sheet_as_a_problem_with_the_file(book, capsys, 
     err = capsys.readouterr().err.strip()
     assert len(err.splitlines()) == 1
     assert "the workbook cannot be read" in err and "fault in trueband" not in err
+
+
+# ---------------------------------------------------------------- the study and the demo
+
+@pytest.mark.slow
+@posix_only
+def test_a_study_takes_the_data_workbooks_bits_and_leaves_no_temporary(tmp_path):
+    from trueband.bridge.study.build import make_study
+    from trueband.bridge.study.demo import make_demo
+    from trueband.bridge.study.templates import study_data_workbook
+
+    data = study_data_workbook(tmp_path / "data.xlsx", make_demo(60))
+    os.chmod(data, 0o600)
+    dead = _gone_pid()
+    left = tmp_path / f"{TEMP_PREFIX}{dead}-0123456789ab-study-raw.tmp"  # what a killed study left
+    left.write_bytes(b"a copy of applicant data")
+    result = make_study(data, tmp_path / "study.xlsx")
+    assert mode_of(result.path) == 0o600
+    assert temporaries(tmp_path) == []

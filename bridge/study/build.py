@@ -136,8 +136,8 @@ def make_study(data_path: str | Path, out_path: str | Path, overrides: Mapping[s
     timings["read"] = time.perf_counter() - t0
     # Both intermediate files are private temporaries beside the output (removed by the next run of
     # any command in the folder should this one be killed); the study takes the data workbook's permissions.
-    with replacing(out, like=src) as done:
-        raw = private_temporary(out.parent, "study-raw")
+    with replacing(out, like=src, suffix=".xlsx") as done:
+        raw = private_temporary(out.parent, "study-raw", ".xlsx")
         try:
             t0 = time.perf_counter()
             result = build_study(data, raw)

@@ -28,7 +28,8 @@ The rules, and why:
 * A target that is a symbolic link is followed: the file it points to is replaced and the link stays.
 * A target (or input) that exists but is not a regular file is refused in one line, before anything
   is opened (a named pipe would otherwise block the reader for ever).
-* Temporary names are ``.~trueband-<pid>-<random>-<what>.tmp``. Each run removes, in the folder it
+* Temporary names are ``.~trueband-<pid>-<random>-<what>.tmp`` (a step that needs a workbook's name
+  adds ``.xlsx``). Each run removes, in the folder it
   writes to, the ones whose writing process is gone (on POSIX, asked with signal 0) or, where that
   cannot be asked (Windows), that are older than the running process; nothing else is touched.
 """
@@ -51,7 +52,8 @@ __all__ = ["TEMP_PREFIX", "NotARegularFile", "regular_file", "real_target", "rep
 
 #: Every temporary file or folder trueband makes starts with this.
 TEMP_PREFIX = ".~trueband-"
-_TEMP_NAME = re.compile(re.escape(TEMP_PREFIX) + r"(?P<pid>[0-9]+)-[0-9a-f]{12}-.*\.tmp\Z", re.DOTALL)
+_TEMP_NAME = re.compile(re.escape(TEMP_PREFIX) + r"(?P<pid>[0-9]+)-[0-9a-f]{12}-.*\.tmp(?:\.[A-Za-z0-9]{1,8})?\Z",
+                        re.DOTALL)
 #: A leftover whose name carries no process number (an older trueband's) goes after this many seconds.
 STALE_SECONDS = 3600
 #: When this process started (close enough: when it first imported this module).
@@ -93,10 +95,11 @@ def real_target(path: str | os.PathLike) -> Path:
     return Path(os.path.realpath(path)) if path.is_symlink() else path
 
 
-def temporary_name(folder: Path, what: str) -> Path:
-    """A fresh temporary name in ``folder`` that :func:`remove_stale_temporaries` recognises."""
+def temporary_name(folder: Path, what: str, suffix: str = "") -> Path:
+    """A fresh temporary name in ``folder`` that :func:`remove_stale_temporaries` recognises (``suffix``, such
+    as ``.xlsx``, for a step that wants a workbook's name)."""
     safe = re.sub(r"[^A-Za-z0-9._-]", "_", what)[:60]
-    return folder / f"{TEMP_PREFIX}{os.getpid()}-{uuid.uuid4().hex[:12]}-{safe}.tmp"
+    return folder / f"{TEMP_PREFIX}{os.getpid()}-{uuid.uuid4().hex[:12]}-{safe}.tmp{suffix}"
 
 
 def _default_mode() -> int:
@@ -174,9 +177,9 @@ def _create_private(path: Path) -> None:
     os.close(os.open(path, flags, _PRIVATE_FILE))
 
 
-def private_temporary(folder: str | os.PathLike, what: str) -> Path:
+def private_temporary(folder: str | os.PathLike, what: str, suffix: str = "") -> Path:
     """A new empty temporary file in ``folder``, readable by its owner only; the caller removes it."""
-    path = temporary_name(Path(folder), what)
+    path = temporary_name(Path(folder), what, suffix)
     _create_private(path)
     return path
 
@@ -188,7 +191,7 @@ def _fsync(path: Path) -> None:
 
 @contextlib.contextmanager
 def replacing(target: str | os.PathLike, *, like: str | os.PathLike | None = None, sync: bool = True,
-              replace=os.replace):
+              replace=os.replace, suffix: str = ""):
     """Write a new ``target`` through a private temporary file beside it; yields the temporary path.
 
     The temporary file exists (empty, mode ``0600``) when the block starts; write it by name (open it
@@ -200,7 +203,7 @@ def replacing(target: str | os.PathLike, *, like: str | os.PathLike | None = Non
     regular_file(dest, "the output")
     folder = dest.parent
     remove_stale_temporaries(folder)
-    temp = temporary_name(folder, dest.name)
+    temp = temporary_name(folder, dest.name, suffix)
     _create_private(temp)
     try:
         yield temp
