@@ -133,6 +133,9 @@ def _ratio_pair_sums(x: np.ndarray, starts: np.ndarray, weights: np.ndarray) -> 
         mean = np.divide(np.add.reduceat(omega * y, starts, axis=1), w, out=np.zeros_like(w), where=w > 0)
         y -= mean[:, group]
         total += np.sum(2.0 * w * np.add.reduceat(omega * y * y, starts, axis=1), axis=0)
+    # a group of equal values has no pairs that differ: exactly 0, not the rounding of y − μ
+    constant = np.minimum.reduceat(x, starts) == np.maximum.reduceat(x, starts)
+    total[constant] = 0.0
     return total * _QUADRATURE_STEP
 
 
