@@ -63,6 +63,17 @@ def test_in_place_keeps_the_permission_bits(book, bits):
 
 
 @posix_only
+@pytest.mark.skipif(not hasattr(os, "geteuid") or os.geteuid() != 0, reason="only root may give a file away")
+def test_in_place_keeps_the_owner_where_the_process_may_set_it(book):
+    # issue 15: a 0600 input owned by another user came back 0644 and owned by root
+    os.chown(book, 12345, 12346)
+    os.chmod(book, 0o600)
+    assert main(["recalc", str(book), "--in-place"]) in (0, 1)
+    st = os.stat(book)
+    assert (st.st_uid, st.st_gid, stat.S_IMODE(st.st_mode)) == (12345, 12346, 0o600)
+
+
+@posix_only
 def test_a_new_output_beside_a_private_input_is_private(book):
     os.chmod(book, 0o600)
     assert main(["recalc", str(book)]) in (0, 1)

@@ -7,7 +7,10 @@ calculation chain, clearing "recalculate everything on open");
 
 * every untouched zip entry keeps its exact uncompressed bytes, its name
   order, compression method, timestamp and attributes;
-* the new package is written to a temporary file in the destination folder,
+* the new package is written to a temporary file in the destination folder
+  (:func:`~.files.replacing`: readable by the owner only while it is written,
+  then given the input's permission bits and owner; a symbolic link is
+  followed and its target replaced; what killed runs left is removed),
   flushed to disk and re-opened as a workbook; only then is it renamed onto
   the destination with :func:`os.replace` (atomic on Windows, macOS and
   Linux), so a crash, a kill or Ctrl-C at any moment leaves the input intact
@@ -16,7 +19,8 @@ calculation chain, clearing "recalculate everything on open");
   ``BOOK.recalc.xlsx``), never the input itself, and an existing output is not
   overwritten unless asked; ``in_place=True`` replaces the input (after the
   new file is complete), ``backup=True`` keeps the original as
-  ``BOOK.backup.xlsx``;
+  ``BOOK.backup.xlsx`` (a complete copy or nothing: a backup that cannot be
+  written, on a full disk, leaves no file and nothing changed);
 * a replace refused because another program holds the file open
   (``PermissionError``, as on Windows) is retried briefly, then reported as
   :class:`~trueband.bridge.workbook.package.WorkbookLocked` in one line.
