@@ -103,9 +103,13 @@ def temporary_name(folder: Path, what: str, suffix: str = "") -> Path:
 
 
 def _default_mode() -> int:
-    # The umask can only be read by setting it; it is set back at once.
-    mask = os.umask(0o022)
-    os.umask(mask)
+    """A new file's mode here: 0666 less the umask."""
+    try:  # Linux shows the umask without changing it (another thread could create a file meanwhile)
+        with open("/proc/self/status", encoding="ascii") as fh:
+            mask = next(int(line.split()[1], 8) for line in fh if line.startswith("Umask:"))
+    except (OSError, StopIteration, ValueError, IndexError):
+        mask = os.umask(0o077)  # elsewhere it can only be read by setting it (to the strictest), then back
+        os.umask(mask)
     return 0o666 & ~mask
 
 
@@ -120,7 +124,10 @@ def apply_permissions(path: Path, like: Path | None) -> None:
     mode = stat.S_IMODE(st.st_mode) if st is not None else _default_mode()
     if path.is_dir():
         mode |= (mode & 0o444) >> 2  # a folder needs x where it has r
-    os.chmod(path, mode)
+    try:
+        os.chmod(path, mode)
+    except OSError:
+        return  # a file system without permission bits: the file stays as created (owner only, where it has them)
     if st is not None and hasattr(os, "chown"):
         try:
             if (st.st_uid, st.st_gid) != (os.stat(path).st_uid, os.stat(path).st_gid):
