@@ -37,8 +37,8 @@ DEFAULT_LIMITS = {
     "MAX_BATCH_CALLS": 1_000,            # calls in one /v1/batch
     "MAX_COLUMN_ROWS": 200_000,          # rows in one /v1/column
     "TIME_BUDGET_SECONDS": 3.0,          # computing time of any one request, checked inside the computation
-    # A column is computed in pieces, the time budget checked between them: at most this many rows
-    # on the array path, this many where each row is its own call, and at most this many
+    # A column is computed in pieces (the time budget is checked between them and inside them): at most
+    # this many rows on the array path, this many where each row is its own call, and at most this many
     # cell-evaluations of a shared range (rows x its cells).
     "COLUMN_PIECE_ROWS": 10_000,
     "COLUMN_PIECE_ROWS_ONE_BY_ONE": 500,
