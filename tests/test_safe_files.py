@@ -289,3 +289,40 @@ def test_a_study_takes_the_data_workbooks_bits_and_leaves_no_temporary(tmp_path)
     result = make_study(data, tmp_path / "study.xlsx")
     assert mode_of(result.path) == 0o600
     assert temporaries(tmp_path) == []
+
+
+@posix_only
+def test_replacing_keeps_the_bits_of_the_file_it_replaces_and_a_new_file_gets_the_umasks(tmp_path):
+    # the add-in file, the study's long sheets: no input to copy from, so the replaced file's bits
+    target = tmp_path / "trueband.oxt"
+    target.write_bytes(b"old")
+    os.chmod(target, 0o640)
+    with replacing(target) as temp:
+        assert mode_of(temp) == 0o600
+        temp.write_bytes(b"new")
+    assert target.read_bytes() == b"new" and mode_of(target) == 0o640
+    fresh = tmp_path / "fresh.oxt"
+    old_mask = os.umask(0o027)
+    try:
+        with replacing(fresh) as temp:
+            temp.write_bytes(b"x")
+    finally:
+        os.umask(old_mask)
+    assert mode_of(fresh) == 0o640  # 0666 less the umask 027, as any new file
+
+
+@posix_only
+def test_a_temporary_folder_is_private_until_it_is_put_in_place(tmp_path):
+    final = tmp_path / "demo"
+    with files.temporary_folder(tmp_path, "demo") as work:
+        assert mode_of(work) == 0o700 and work.name.startswith(TEMP_PREFIX)
+        (work / "a.xlsx").write_bytes(b"x")
+        files.apply_permissions(work, None)
+        os.replace(work, final)
+    assert (final / "a.xlsx").exists() and mode_of(final) & 0o700 == 0o700
+    assert temporaries(tmp_path) == []
+    with pytest.raises(RuntimeError):
+        with files.temporary_folder(tmp_path, "demo") as work:
+            (work / "b.xlsx").write_bytes(b"applicant data")
+            raise RuntimeError("the demo failed part-way")
+    assert temporaries(tmp_path) == []
