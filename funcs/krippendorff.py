@@ -250,13 +250,9 @@ def krippendorff_alpha(ratings: Range, *, level: Literal["nominal", "ordinal", "
     units × values counts) when there are at most
     ``COINCIDENCE_TABLE_MAX_VALUES`` distinct values; with more (continuous
     data), the same two sums are accumulated without the table: unit by unit
-    for the observed part and from the value totals for the expected part.
-    At the interval and ordinal levels both are variances (linear time); at
-    the ratio level, with many raters or many distinct values, both come
-    from an exact quadrature of ((c − k)/(c + k))² = ∫ t (c − k)² e^(−t(c+k)) dt
-    (time linear in the ratings, about 100 to 300 nodes for ratings within
-    a factor of 10^6), so no square over distinct values or raters is ever
-    formed. The units × raters layout here is the transpose of the
+    for the observed part and from the value totals for the expected part
+    (variances at the interval and ordinal levels; at the ratio level an
+    exact quadrature, linear in the ratings: see ``_ratio_pair_sums``). The units × raters layout here is the transpose of the
     krippendorff package's raters × units. Alpha is undefined (``#DIV/0!``)
     when all pairable values are equal.
 
