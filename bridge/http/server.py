@@ -15,13 +15,15 @@ from __future__ import annotations
 
 import contextlib
 import ipaddress
+import select
 import threading
 
 DEFAULT_HOST = "127.0.0.1"
 DEFAULT_PORT = 8765
 THREADS = 4
-#: Connections open at once; beyond, waitress stops accepting until one closes.
-CONNECTION_LIMIT = 1000
+#: Connections open at once; beyond, waitress stops accepting until one closes. Where the system has
+#: no poll() (Windows), select() watches at most 512 sockets, so the limit stays below that there.
+CONNECTION_LIMIT = 1000 if hasattr(select, "poll") else 400
 #: Seconds a connection may stay silent (idle, or mid-request) before it is closed.
 CHANNEL_TIMEOUT = 10
 #: How often (seconds) silent connections are looked for.
@@ -43,8 +45,6 @@ def is_loopback(host: str) -> bool:
 
 def make_server(app, host: str = DEFAULT_HOST, port: int = DEFAULT_PORT, *, threads: int = THREADS):
     """A waitress server for ``app`` (port 0 picks a free port: see ``server.effective_port``)."""
-    import select
-
     from waitress.server import create_server
 
     server = create_server(
