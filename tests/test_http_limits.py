@@ -212,10 +212,16 @@ def test_a_double_slash_is_a_json_404_not_an_html_redirect():
 
 
 @pytest.mark.parametrize("token", ["abc ", " abc", "ab c", "abc\t", " "])
-def test_a_token_no_request_could_present_is_refused_at_start_up(token, capsys):
+def test_a_token_no_request_could_present_is_refused_at_start_up(token, capsys, monkeypatch):
     with pytest.raises(ValueError, match="access token"):
         create_app({"TOKEN": token})
     from trueband.bridge.cli import main
+    from trueband.bridge.cli import serve
+
+    def started(*args, **kwargs):  # a server that started would run until stopped: fail instead
+        raise AssertionError("the server started with a token no request could present")
+
+    monkeypatch.setattr(serve, "make_server", started)
 
     assert main(["serve", "--token", token, "--port", "0"]) == 2
     err = capsys.readouterr().err.strip()
