@@ -13,11 +13,14 @@
    answer, decode: target under 1 s) against 100,000 single ``/v1/call`` requests (by default a
    sample of them, scaled up, and said so) and against 100,000 direct Python calls.
 3. ``--limits``: for every registered function, finds a working set of arguments by trying
-   plausible values, then times it with ranges scaled up to ``MAX_CELLS`` cells, a batch of
-   ``MAX_BATCH_CALLS`` calls, and a column of ``MAX_COLUMN_ROWS`` rows (all rows valid, and
-   every other row invalid, the column path's worst case). The slowest are printed, for sizing
-   the limits in ``bridge/http/guards.py`` so that no request keeps a worker busy for more than a
-   few seconds.
+   plausible values, then sends it through the app with ranges scaled up to ``MAX_CELLS`` cells, a
+   batch of ``MAX_BATCH_CALLS`` calls, and a column of ``MAX_COLUMN_ROWS`` rows (all rows valid, and
+   every other row invalid, the column path's worst case), then the hostile cases of issue 15
+   (Krippendorff's alpha with many distinct values and with many raters, a column sharing a large
+   range). Each request's time, status and the process's peak resident memory while it ran are
+   recorded; the slowest request and the largest peak are printed last, for sizing the limits in
+   ``bridge/http/guards.py``: every request should end within a few seconds (a request over the
+   computing budget answers ``422 too_much_work``) and under 500 MB.
 
 Loopback only, bounded, stops by itself. No thresholds: the numbers are for reading.
 """
@@ -26,6 +29,7 @@ from __future__ import annotations
 
 import argparse
 import contextlib
+import gc
 import http.client
 import json
 import logging
@@ -208,6 +212,54 @@ def find_arguments(fn, rng: random.Random, tries: int = 600):
     return None, None
 
 
+def _family_arguments(name: str, people: int, rng: np.random.Generator):
+    """Arguments for the functions whose ranges must fit together (plausible values alone never do), with
+    ``people`` rows (people, strata or predictors), or None for any other function."""
+    groups = rng.choice(["F", "R"], people).tolist()
+    if name.startswith("DIF_"):
+        ability = rng.normal(0, 1, (people, 1))
+        items = (rng.random((people, 10)) < 1 / (1 + np.exp(-(ability + rng.normal(0, 1, 10))))).astype(float)
+        return [items.tolist(), groups, 3, "F", "R"]
+    if name.startswith("POOLED_"):
+        applicants = rng.integers(5, 40, (people, 2))
+        selected = rng.binomial(applicants, 0.4)
+        return [np.column_stack([selected[:, 0], applicants[:, 0], selected[:, 1], applicants[:, 1]]).tolist()]
+    if name.startswith("PREDICTION_"):
+        scores = rng.normal(50, 10, people)
+        criterion = 0.05 * scores + rng.normal(0, 1, people)
+        args = [scores.round(2).tolist(), criterion.round(3).tolist(), groups, "F", "R"]
+        return args + [50.0] if name == "PREDICTION_GAP" else args
+    if name.startswith("COMPOSITE_"):
+        k = people
+        correlations = np.full((k, k), 0.3) + 0.7 * np.eye(k)
+        second = rng.uniform(0.6, 0.9, k) if name == "COMPOSITE_RELIABILITY" else rng.uniform(0.1, 0.4, k)
+        return [rng.uniform(1, 10, k).tolist(), second.tolist(), correlations.tolist()]
+    return None
+
+
+#: Rows per cell of each family, to scale its ranges to the cell limit.
+_FAMILY_CELLS_PER_ROW = {"DIF_": 12, "POOLED_": 4, "PREDICTION_": 3}
+
+
+def measure_families(client, names: list[str], cells: int, calls: int) -> list[str]:
+    """The functions ``find_arguments`` cannot serve, at the limits; returns those still not measured."""
+    rng = np.random.default_rng(5)
+    left = []
+    for name in names:
+        small = _family_arguments(name, 40 if not name.startswith("COMPOSITE_") else 4, rng)
+        if small is None:
+            left.append(name)
+            continue
+        prefix = next((p for p in _FAMILY_CELLS_PER_ROW if name.startswith(p)), None)
+        people = cells // _FAMILY_CELLS_PER_ROW[prefix] if prefix else int((cells + 1) ** 0.5) - 2
+        big = _family_arguments(name, people, rng)
+        t_big, s_big = timed_post(client, "/v1/call", {"function": name, "args": big})
+        t_batch, s_batch = timed_post(client, "/v1/batch", {"calls": [{"function": name, "args": small}] * calls},
+                                      name)
+        print(f"  {name:<24} range {t_big:6.3f} s ({s_big})  batch {t_batch:6.3f} s ({s_batch})", flush=True)
+    return left
+
+
 def best_of(fn, repeat=3) -> float:
     best = float("inf")
     for _ in range(repeat):
@@ -217,12 +269,64 @@ def best_of(fn, repeat=3) -> float:
     return best
 
 
-def timed_post(client, route, body) -> tuple[float, int]:
+class PeakMemory:
+    """The process's peak resident memory (MB) while a block runs, sampled every few milliseconds.
+
+    Read from ``/proc/self/statm`` (Linux); elsewhere it is not measured (None).
+    """
+
+    def __init__(self):
+        self.peak = None
+
+    @staticmethod
+    def resident_mb() -> float | None:
+        try:
+            with open("/proc/self/statm") as fh:
+                return int(fh.read().split()[1]) * PAGE_BYTES / 2 ** 20
+        except OSError:
+            return None
+
+    def __enter__(self):
+        self.peak = self.resident_mb()
+        self._stop = threading.Event()
+        self._thread = threading.Thread(target=self._sample, daemon=True)
+        if self.peak is not None:
+            self._thread.start()
+        return self
+
+    def _sample(self):
+        while not self._stop.wait(0.003):
+            self.peak = max(self.peak, self.resident_mb() or 0.0)
+
+    def __exit__(self, *exc):
+        self._stop.set()
+        if self._thread.is_alive():
+            self._thread.join()
+        if self.peak is not None:
+            self.peak = max(self.peak, self.resident_mb() or 0.0)
+        return False
+
+
+try:
+    import os as _os
+    PAGE_BYTES = _os.sysconf("SC_PAGE_SIZE")
+except (AttributeError, ValueError, OSError):
+    PAGE_BYTES = 4096
+
+#: Every request of ``--limits``: (function, route, seconds, status, peak MB).
+REQUESTS: list[tuple[str, str, float, int, float | None]] = []
+
+
+def timed_post(client, route, body, label: str = "") -> tuple[float, int]:
     data = json.dumps(body).encode()
-    t0 = time.perf_counter()
-    resp = client.post(route, data=data, content_type="application/json")
-    resp.get_data()
-    return time.perf_counter() - t0, resp.status_code
+    gc.collect()
+    with PeakMemory() as memory:
+        t0 = time.perf_counter()
+        resp = client.post(route, data=data, content_type="application/json")
+        resp.get_data()
+        elapsed = time.perf_counter() - t0
+    REQUESTS.append((label or body.get("function", "?"), route, elapsed, resp.status_code, memory.peak))
+    return elapsed, resp.status_code
 
 
 def measure_limits(limits: dict, worst_of: int = 6) -> None:
@@ -250,9 +354,9 @@ def measure_limits(limits: dict, worst_of: int = 6) -> None:
                         share = cells // len(shapes)
                         r, c = (max(1, share // c), c) if axis == "rows" else (r, max(1, share // r))
                         big[i] = make_range(kind, r, c, nrng)
-                worst = max(worst, best_of(lambda: _swallow(fn, big), 1))
+                worst = max(worst, timed_post(client, "/v1/call", {"function": name, "args": big})[0])
             row["range"] = worst
-        row["batch"] = timed_post(client, "/v1/batch", {"calls": [{"function": name, "args": args}] * calls})
+        row["batch"] = timed_post(client, "/v1/batch", {"calls": [{"function": name, "args": args}] * calls}, name)
         named = {a.name: v for a, v in zip(fn.arguments, args)}
         varying = [a.name for a in fn.arguments if a.name in fn.elementwise][:2] or \
             [next((a.name for a in fn.arguments if a.kind != "range"), fn.arguments[0].name)]
@@ -286,19 +390,51 @@ def measure_limits(limits: dict, worst_of: int = 6) -> None:
             shown = f"{t * 1e3:8.3f} ms" if key == "call" else f"{t:8.3f} s"
             print(f"    {r['name']:<24} {shown}" + (f" (status {status})" if status else ""))
 
+    print(f"functions whose ranges must fit together, at {cells} cells and a batch of {calls}:")
+    missing = measure_families(client, missing, cells, calls)
     print(f"slowest of {len(table)} functions" + (f"; no working arguments found for: {', '.join(missing)}"
                                                  if missing else ""))
     top("call", "one small call")
     top("range", f"one call with its ranges scaled to {cells} cells")
     top("batch", f"a batch of {calls} small calls, through the app")
     top("column", f"a column of {rows} valid rows, through the app")
+    hostile_cases(client, limits)
+    slowest = max(REQUESTS, key=lambda r: r[2])
+    print(f"slowest request of {len(REQUESTS)}: {slowest[2]:.2f} s ({slowest[0]} {slowest[1]}, status {slowest[3]})")
+    measured = [r for r in REQUESTS if r[4] is not None]
+    if measured:
+        largest = max(measured, key=lambda r: r[4])
+        print(f"largest peak resident memory: {largest[4]:.0f} MB ({largest[0]} {largest[1]}, status {largest[3]})"
+              f"; the process held {PeakMemory.resident_mb():.0f} MB at the end")
+    else:
+        print("peak memory: not measured on this system (no /proc)")
 
 
-def _swallow(fn, args):
-    try:
-        fn(*args)
-    except TruebandError:
-        pass
+def hostile_cases(client, limits: dict) -> None:
+    """The worst cases of issue 15, each inside every documented limit."""
+    rng = np.random.default_rng(15)
+    cells = limits["MAX_CELLS"]
+    many_values = rng.gamma(3.0, 1.0, (cells // 2, 2)).round(6).tolist()
+    many_raters = rng.gamma(3.0, 1.0, (2, cells // 2)).round(6).tolist()
+    wide_spread = (np.exp(rng.uniform(-300, 0, (cells // 4, 4)))).tolist()
+    shared = rng.gamma(3.0, 1.0, (5_000, 2)).round(6).tolist()
+    cases = [
+        ("KRIPPENDORFF_ALPHA ratio, many distinct values", "/v1/call",
+         {"function": "KRIPPENDORFF_ALPHA", "args": [many_values, "ratio"]}),
+        ("KRIPPENDORFF_ALPHA ratio, many raters", "/v1/call",
+         {"function": "KRIPPENDORFF_ALPHA", "args": [many_raters, "ratio"]}),
+        ("KRIPPENDORFF_ALPHA ratio, values over 1e-300..1", "/v1/call",
+         {"function": "KRIPPENDORFF_ALPHA", "args": [wide_spread, "ratio"]}),
+        ("KRIPPENDORFF_ALPHA interval, many raters", "/v1/call",
+         {"function": "KRIPPENDORFF_ALPHA", "args": [many_raters, "interval"]}),
+        ("KRIPPENDORFF_ALPHA in a column of 99 rows sharing 10,000 cells", "/v1/column",
+         {"function": "KRIPPENDORFF_ALPHA", "each": {"level": ["ratio"] * 99}, "same": {"ratings": shared}}),
+    ]
+    print("hostile cases (issue 15):")
+    for label, route, body in cases:
+        t, status = timed_post(client, route, body, label)
+        peak = REQUESTS[-1][4]
+        print(f"  {label:<66} {t:6.2f} s (status {status})" + (f", peak {peak:.0f} MB" if peak else ""), flush=True)
 
 
 def serve_forever() -> int:

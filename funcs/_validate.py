@@ -24,6 +24,7 @@ from typing import Iterable, NewType
 
 import numpy as np
 
+from ._budget import check_time
 from .errors import (
     ArgumentTypeError,
     DomainError,
@@ -297,6 +298,11 @@ def numeric_matrix(name: str, value) -> np.ndarray:
                 value = np.array(value, dtype=float)  # None -> nan
             except OverflowError:  # a whole number beyond float range: the cell-by-cell check names it
                 pass
+    elif isinstance(value, (list, tuple)) and value and set(map(type, value)) <= _PLAIN_NUMBERS:
+        try:  # the same for a flat list (one column of cells)
+            value = np.array(value, dtype=float).reshape(-1, 1)
+        except OverflowError:
+            pass
     arr = _as_rows(name, _table_values(value), "a range of numbers")
     if arr.dtype.kind in "fiu":
         out = arr.astype(float)
@@ -310,6 +316,8 @@ def numeric_matrix(name: str, value) -> np.ndarray:
     flat = arr.ravel()
     out = np.empty(flat.shape, dtype=float)
     for k, cell in enumerate(flat):
+        if not k & 4095:
+            check_time()  # a budget set by the caller (the HTTP bridge) stops a long cell-by-cell check
         if _is_blank(cell):
             out[k] = np.nan
         elif isinstance(cell, numbers.Real) and not isinstance(cell, (bool, np.bool_)):
@@ -344,6 +352,8 @@ def label_matrix(name: str, value) -> np.ndarray:
     arr = _as_rows(name, value, "a range of category labels")
     out = np.empty(arr.shape, dtype=object)
     for k, cell in enumerate(arr.ravel()):
+        if not k & 4095:
+            check_time()
         r, c = divmod(k, arr.shape[1])
         if _is_blank(cell):
             out[r, c] = None

@@ -55,6 +55,7 @@ from typing import Literal
 
 import numpy as np
 
+from ._budget import check_cost, check_time
 from . import _validate as v
 from ._lazy import lazy_module
 from ._validate import Range
@@ -496,6 +497,8 @@ def _convolve_all(pmfs, negligible: float = _NEGLIGIBLE):
     while len(items) > 1:
         merged = []
         for (low_a, a), (low_b, b) in zip(items[0::2], items[1::2]):
+            check_time()  # a caller's budget (the HTTP bridge): checked between convolutions...
+            check_cost(float(a.size) * b.size, "the exact test's convolution")  # ...and before a long one
             dist = np.convolve(a, b)
             dist *= 1.0 / dist.max()
             keep = np.flatnonzero(dist >= negligible)

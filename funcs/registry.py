@@ -40,6 +40,7 @@ from typing import Any, Callable, Literal, Mapping, Sequence
 
 import numpy as np
 
+from ._budget import check_time
 from . import _validate as v
 from ._columns import evaluate_rows, number_columns
 from .errors import ArgumentCountError, ArgumentTypeError, DomainError, TruebandError, UnknownFunctionError
@@ -559,6 +560,7 @@ def _column_rows(fn: SpreadsheetFunction, each: Mapping[str, Sequence], same: di
         return []
 
     def one(i: int):
+        check_time()  # a budget set by the caller (the HTTP bridge) stops a long column between rows
         try:
             return fn(**same, **{k: col[i] for k, col in each.items()})
         except TruebandError as exc:

@@ -409,6 +409,82 @@ def test_thin_component_does_not_hold_calc_up_when_the_server_does_not_answer(co
             conn.close()
 
 
+def _raw_server(handle):
+    """A loopback listener whose every connection is served by ``handle(conn)`` in a thread (a hostile server)."""
+    import socket
+    import threading
+
+    listener = socket.create_server(("127.0.0.1", 0))
+    stop = threading.Event()
+
+    def accept():
+        while not stop.is_set():
+            try:
+                conn, _ = listener.accept()
+            except OSError:
+                return
+            threading.Thread(target=handle, args=(conn, stop), daemon=True).start()
+
+    threading.Thread(target=accept, daemon=True).start()
+    return listener, stop
+
+
+def test_thin_component_timeout_is_for_the_whole_answer_not_each_read(component, capsys):
+    # A server that answers one byte at a time, never finishing its headers: each read succeeds well
+    # within the timeout, so a per-read timeout would hold Calc for as long as the server likes (issue 15).
+    import time
+
+    def trickle(conn, stop):
+        conn.recv(65536)
+        for byte in b"HTTP/1.1 200 OK\r\nX-Slow: " + b"a" * 100_000:
+            if stop.wait(0.02):
+                break
+            try:
+                conn.sendall(bytes([byte]))
+            except OSError:
+                break
+        conn.close()
+
+    listener, stop = _raw_server(trickle)
+    try:
+        ns = component(mode="thin", server_url=f"http://127.0.0.1:{listener.getsockname()[1]}")
+        ns["_Thin"].TIMEOUT = 0.5
+        started = time.monotonic()
+        value = ns["TruebandFunctions"](None).SEM(10.0, 0.9, ())
+        waited = time.monotonic() - started
+        assert calc_error_of(value) == "#VALUE!"
+        # a correctness bound, not a speed target: the trickle would last 2,000 s
+        assert waited < 0.5 + 10
+        assert "no complete answer within" in capsys.readouterr().err
+    finally:
+        stop.set()
+        listener.close()
+
+
+@pytest.mark.parametrize("declared", [True, False])
+def test_thin_component_refuses_a_reply_over_its_size_cap(component, capsys, declared):
+    size = (1 << 20) + 10
+
+    def huge(conn, stop):
+        conn.recv(65536)
+        head = b"HTTP/1.1 200 OK\r\nContent-Type: application/json\r\n"
+        head += (b"Content-Length: %d\r\n" % size) if declared else b"Connection: close\r\n"
+        try:
+            conn.sendall(head + b"\r\n" + b'{"value": 1' + b" " * (size - 12) + b"}")
+        except OSError:
+            pass
+        conn.close()
+
+    listener, stop = _raw_server(huge)
+    try:
+        ns = component(mode="thin", server_url=f"http://127.0.0.1:{listener.getsockname()[1]}")
+        assert calc_error_of(ns["TruebandFunctions"](None).SEM(10.0, 0.9, ())) == "#VALUE!"
+        assert "larger than 1048576 bytes" in capsys.readouterr().err
+    finally:
+        stop.set()
+        listener.close()
+
+
 def test_thin_component_sends_the_access_token_from_the_environment(component, monkeypatch, capsys):
     from trueband.bridge.http.server import serving_in_background
     from trueband.bridge.http import create_app

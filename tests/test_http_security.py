@@ -256,11 +256,14 @@ def test_time_budget_stops_a_long_batch_or_column():
     client = create_app({"TIME_BUDGET_SECONDS": 0.0, "COLUMN_PIECE_CELLS": 4}).test_client()
     resp = client.post("/v1/batch", json={"calls": [CALL] * 3})
     assert resp.status_code == 422 and error_code(resp) == "too_much_work"
-    assert "stopped after 1 of 3" in resp.get_json()["error"]["message"]
-    # a shared range makes each piece of the column smaller: 4 cell-evaluations / (1 + 3 cells) = 1 row
+    # the budget is checked inside the computation, so a spent one stops even the first call
+    assert "stopped after 0 of 3" in resp.get_json()["error"]["message"]
     resp = client.post("/v1/column", json={"function": "PERCENTILE_RANK", "each": {"score": [1, 2, 3]},
                                            "same": {"scores": [1, 2, 3]}})
-    assert resp.status_code == 422 and "stopped after 1 of 3" in resp.get_json()["error"]["message"]
+    assert resp.status_code == 422 and "stopped after 0 of 3" in resp.get_json()["error"]["message"]
+    # a single call has the same budget (checked in the function's own loops)
+    resp = client.post("/v1/call", json={"function": "KRIPPENDORFF_ALPHA", "args": [[[1, 2], [2, 3]], "ratio"]})
+    assert resp.status_code == 422 and error_code(resp) == "too_much_work"
     # within the budget the same column is computed in pieces with the same values
     roomy = create_app({"COLUMN_PIECE_CELLS": 4}).test_client()
     values = roomy.post("/v1/column", json={"function": "PERCENTILE_RANK", "each": {"score": [1, 2, 3]},

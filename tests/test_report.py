@@ -156,7 +156,7 @@ def test_a_study_saved_without_values_is_refused_in_one_line(study, tmp_path, ca
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "trueband recalc" in err[0]
     assert not (tmp_path / "r.docx").exists()
-    assert not list(tmp_path.glob(".trueband-report-*"))
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["edited.xlsx"]   # no temporary copy left
 
 
 def test_command_refuses_to_overwrite_and_writes_beside_the_study(study, tmp_path, capsys):

@@ -295,8 +295,6 @@ def write_extension(out: str | Path, *, mode: str = "full", server_url: str = "h
 
     The file is written beside its final name and renamed into place when complete.
     """
-    import os
-
     out = Path(out)
     functions = addin_functions()
     parts = {
@@ -306,15 +304,11 @@ def write_extension(out: str | Path, *, mode: str = "full", server_url: str = "h
         TYPES_FILE: type_library(functions) + "\n",
         COMPONENT_FILE: component_source(functions, mode=mode, server_url=server_url, folders=folders),
     }
-    tmp = out.with_name(out.name + ".part")
-    try:
-        with zipfile.ZipFile(tmp, "w", zipfile.ZIP_DEFLATED) as z:
-            for name, text in parts.items():
-                z.writestr(name, text.encode("utf-8"))
-        os.replace(tmp, out)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
+    from ..workbook.files import replacing  # the one safe writer (stdlib only; allowed by tests/test_layers.py)
+
+    with replacing(out) as tmp, zipfile.ZipFile(tmp, "w", zipfile.ZIP_DEFLATED) as z:
+        for name, text in parts.items():
+            z.writestr(name, text.encode("utf-8"))
     return out
 
 

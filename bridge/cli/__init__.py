@@ -91,6 +91,18 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_FAILED
 
 
+def _raised_reading_a_workbook(exc: BaseException) -> bool:
+    """True when the innermost frame of ``exc`` is in the package layer (``bridge/workbook``), which reads files."""
+    import traceback
+    from pathlib import Path
+
+    frames = traceback.extract_tb(exc.__traceback__)
+    if not frames:
+        return False
+    workbook_layer = Path(__file__).resolve().parent.parent / "workbook"
+    return Path(frames[-1].filename).resolve().parent == workbook_layer
+
+
 def _one_line(exc: Exception) -> str:
     """What an unexpected exception says, in one line: the project's message, a file problem, or a bug."""
     from trueband.funcs.errors import TruebandError
@@ -103,6 +115,10 @@ def _one_line(exc: Exception) -> str:
     if isinstance(exc, MemoryError):
         return "not enough memory for this work"
     text = textwrap.shorten(str(exc), 300, placeholder=" …") or "no message"
+    if isinstance(exc, ValueError) and _raised_reading_a_workbook(exc):
+        # what the package layer cannot read in a part (a malformed sheet) is a problem with the file
+        return (f"the workbook cannot be read ({text}); the file is damaged or in a form trueband does not "
+                f"read: open and save it in a spreadsheet app, then try again")
     return (f"stopped by an unexpected problem ({type(exc).__name__}: {text}). "
             f"This is a fault in trueband: please report it (TRUEBAND_TRACEBACK=1 shows the details)")
 

@@ -26,8 +26,13 @@ def _serve(args) -> int:
     from trueband.funcs.registry import REGISTRY
 
     from ..http import create_app
+    from ..http.guards import check_token
 
     token = args.token or os.environ.get(TOKEN_VARIABLE) or None
+    try:
+        check_token(token)
+    except ValueError as exc:  # e.g. a trailing space copied with it: no request could ever match
+        raise CommandError(f"{exc}; set {TOKEN_VARIABLE} (or --token) to a token without spaces") from None
     if not is_loopback(args.host) and not token:
         raise CommandError(
             f"refusing to listen on {args.host}, which is not a loopback address, without an access token; "

@@ -31,7 +31,8 @@ Safety rules (all on by default; see ``README.md``, "HTTP bridge"): a Host
 header allow-list against DNS rebinding, a refused foreign ``Origin`` and no
 CORS headers unless an origin is allowed, an optional bearer token compared
 in constant time, a body limit, limits on cells, batch calls and column rows,
-a computing-time budget for batches and columns, JSON content type required,
+a computing-time budget for every request that computes (enforced inside the
+computation), JSON content type required,
 and only the documented methods.
 """
 
@@ -42,7 +43,7 @@ from pathlib import Path
 from flask import Flask
 
 from .errors import PROTOCOL_ERRORS, register_error_handlers
-from .guards import DEFAULT_LIMITS, add_response_headers, allowed_hosts, guard_request
+from .guards import DEFAULT_LIMITS, add_response_headers, allowed_hosts, check_token, guard_request
 from .routes import api
 
 __all__ = ["create_app", "DEFAULT_LIMITS", "PROTOCOL_ERRORS"]
@@ -64,11 +65,15 @@ def create_app(config: dict | None = None) -> Flask:
     app.config.update(DEFAULT_LIMITS)
     app.config.update({"HOST": "127.0.0.1", "TOKEN": None, "ALLOWED_ORIGINS": (), "ALLOWED_HOSTS_EXTRA": ()})
     app.config.update(config or {})
+    check_token(app.config["TOKEN"])  # ValueError: a token no request could present is refused at start-up
     app.config["ALLOWED_ORIGINS"] = frozenset(app.config["ALLOWED_ORIGINS"] or ())
     app.config["ALLOWED_HOSTS"] = allowed_hosts(app.config["HOST"], app.config["ALLOWED_HOSTS_EXTRA"])
     app.config["MAX_CONTENT_LENGTH"] = app.config["MAX_BODY_BYTES"]
     app.config["PROPAGATE_EXCEPTIONS"] = False  # a fault is a generic 500, even under a test client
     app.json.sort_keys = False
+    # ``GET /v1//health`` would otherwise be redirected (with an HTML body) by the router itself,
+    # outside the error handlers; without merging it is a plain 404 in the JSON shape.
+    app.url_map.merge_slashes = False
     app.before_request(guard_request)
     app.after_request(add_response_headers)
     app.register_blueprint(api)

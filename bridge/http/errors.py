@@ -19,10 +19,11 @@ from typing import Any
 from flask import Flask, Response, current_app, request
 from werkzeug.exceptions import HTTPException, MethodNotAllowed
 
+from trueband.funcs._budget import BudgetExceeded
 from trueband.funcs.errors import TruebandError
 
-__all__ = ["PROTOCOL_ERRORS", "ProtocolError", "TEXT_ERRORS", "TEXT_PREFIX", "error_body", "error_response",
-           "json_response", "register_error_handlers"]
+__all__ = ["PROTOCOL_ERRORS", "ProtocolError", "TEXT_ERRORS", "TEXT_PREFIX", "budget_message", "error_body",
+           "error_response", "json_response", "register_error_handlers", "server_error_body"]
 
 log = logging.getLogger("trueband.http")
 
@@ -35,6 +36,7 @@ PROTOCOL_ERRORS = {
     "not_found": 404,
     "method_not_allowed": 405,
     "too_large": 413,
+    "headers_too_large": 431,
     "unsupported_media_type": 415,
     "too_much_work": 422,
     "internal_error": 500,
@@ -97,6 +99,17 @@ def error_response(exc, status: int, headers: dict | None = None) -> Response:
     return resp
 
 
+def budget_message(exc: BudgetExceeded, done: int | None = None, total: int | None = None, what: str = "request") -> str:
+    """The one wording of a spent computing budget (with the progress of a batch or a column)."""
+    progress = f" (stopped after {done} of {total})" if done is not None else ""
+    return (f"this {what} needs more than {exc.seconds:g} s of computing{progress}; "
+            f"send less data, or smaller pieces")
+
+
+def _on_budget_exceeded(exc: BudgetExceeded):
+    return error_response(ProtocolError("too_much_work", budget_message(exc)), PROTOCOL_ERRORS["too_much_work"])
+
+
 def _on_trueband_error(exc: TruebandError):
     return error_response(exc, exc.http_status)
 
@@ -140,5 +153,15 @@ def register_error_handlers(app: Flask) -> None:
     """Every error, from a function, the protocol, werkzeug or a fault, answered in the one shape."""
     app.register_error_handler(TruebandError, _on_trueband_error)
     app.register_error_handler(ProtocolError, _on_protocol_error)
+    app.register_error_handler(BudgetExceeded, _on_budget_exceeded)
     app.register_error_handler(HTTPException, _on_http_error)
     app.register_error_handler(Exception, _on_fault)
+
+
+def server_error_body(status: int, detail: str, limit: int | None = None) -> bytes:
+    """The JSON error body for what the web server refuses before the app runs (waitress: 400, 413, 431...)."""
+    code = {413: "too_large", 431: "headers_too_large"}.get(status, "bad_request" if status < 500 else "internal_error")
+    message = {413: f"the body may be at most {limit} bytes",
+               431: f"the request line and headers may be at most {limit} bytes"}.get(status, detail)
+    return json.dumps({"error": {"code": code, "message": message, "argument": None}},
+                      ensure_ascii=True).encode("ascii")

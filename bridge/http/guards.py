@@ -5,23 +5,28 @@ Before any route runs (:func:`guard_request`): a Host header allow-list against 
 and no CORS headers unless an origin is allowed (its preflight answered here), and an optional
 bearer token compared in constant time. Inside the routes: JSON content type required
 (:func:`json_body`), the body limit, limits on cells, batch calls and column rows, and a
-computing-time budget for batches and columns (see :data:`DEFAULT_LIMITS`). After every request
+computing-time budget for every request that computes, enforced inside the computation
+(:func:`computing_budget`; see :data:`DEFAULT_LIMITS`). After every request
 (:func:`add_response_headers`): ``nosniff``, ``no-store`` and the CORS headers of an allowed origin.
 """
 
 from __future__ import annotations
 
+import contextlib
 import hmac
 import json
+import re
 import time
 from typing import Any
 
 from flask import Response, current_app, g, request
 
-from .errors import ProtocolError
+from trueband.funcs._budget import BudgetExceeded, time_budget
+
+from .errors import ProtocolError, budget_message
 
 __all__ = ["DEFAULT_LIMITS", "LOOPBACK_NAMES", "allowed_hosts", "guard_request", "add_response_headers",
-           "json_body", "count_cells", "range_cells", "check_cells", "over_budget", "budget_error"]
+           "json_body", "count_cells", "range_cells", "check_cells", "computing_budget", "budget_error", "check_token"]
 
 #: Limits of one request. Sized with ``python bench/bench_http.py --limits``, which times the
 #: slowest registered functions at these limits (see README.md, "HTTP bridge", for the figures):
@@ -31,9 +36,9 @@ DEFAULT_LIMITS = {
     "MAX_CELLS": 200_000,                # cells in all ranges of one request together
     "MAX_BATCH_CALLS": 1_000,            # calls in one /v1/batch
     "MAX_COLUMN_ROWS": 200_000,          # rows in one /v1/column
-    "TIME_BUDGET_SECONDS": 3.0,          # computing time of one batch or column, checked between pieces
-    # A column is computed in pieces, the time budget checked between them: at most this many rows
-    # on the array path, this many where each row is its own call, and at most this many
+    "TIME_BUDGET_SECONDS": 3.0,          # computing time of any one request, checked inside the computation
+    # A column is computed in pieces (the time budget is checked between them and inside them): at most
+    # this many rows on the array path, this many where each row is its own call, and at most this many
     # cell-evaluations of a shared range (rows x its cells).
     "COLUMN_PIECE_ROWS": 10_000,
     "COLUMN_PIECE_ROWS_ONE_BY_ONE": 500,
@@ -50,6 +55,9 @@ def _parse_int(text: str):
     return int(text) if len(text) <= 300 else float(text)
 
 
+_LONG_DIGITS = re.compile(rb"[0-9]{300}")
+
+
 def _refuse_constant(name: str):
     raise ValueError(f"{name} is not valid JSON")
 
@@ -60,7 +68,9 @@ def count_cells(value) -> int:
     stack = [value]
     while stack:
         item = stack.pop()
-        if isinstance(item, list):
+        if isinstance(item, list) and not {list, dict} & set(map(type, item)):
+            count += len(item)  # a flat list (the usual range or column): counted without a step per cell
+        elif isinstance(item, list):
             for x in item:
                 if isinstance(x, (list, dict)):
                     stack.append(x)
@@ -74,6 +84,8 @@ def count_cells(value) -> int:
 def range_cells(args) -> int:
     """Cells in the ranges among a call's arguments (a list in order or an object by name)."""
     values = args if isinstance(args, list) else list(args.values()) if isinstance(args, dict) else []
+    if not {list, dict} & set(map(type, values)):
+        return 0  # no ranges (a column of single values): no step per cell
     return count_cells([x for x in values if isinstance(x, (list, dict))])
 
 
@@ -90,30 +102,46 @@ def json_body() -> Any:
                             f"send JSON with Content-Type: application/json, got {request.mimetype or 'none'!r}")
     raw = request.get_data(cache=False)  # werkzeug raises 413 above MAX_CONTENT_LENGTH
     try:
-        return json.loads(raw.decode("utf-8"), parse_int=_parse_int, parse_constant=_refuse_constant)
+        # The per-integer hook costs a Python call per number: only a body with a very long digit run needs it.
+        hook = {"parse_int": _parse_int} if _LONG_DIGITS.search(raw) else {}
+        return json.loads(raw.decode("utf-8"), parse_constant=_refuse_constant, **hook)
     except (UnicodeDecodeError, ValueError, RecursionError) as exc:
         detail = str(exc).split(":")[0] if isinstance(exc, ValueError) else type(exc).__name__
         raise ProtocolError("malformed_json", f"the body is not valid UTF-8 JSON ({detail})") from None
 
 
-def over_budget(start: float) -> bool:
-    return time.perf_counter() - start > current_app.config["TIME_BUDGET_SECONDS"]
+def computing_budget():
+    """The request's computing budget (``TIME_BUDGET_SECONDS``, counted from the request's arrival, so that
+    reading its body counts too): the functions check it inside their long loops and refuse work whose
+    known cost cannot fit (:mod:`trueband.funcs._budget`)."""
+    return time_budget(current_app.config["TIME_BUDGET_SECONDS"], since=g.get("arrived"))
 
 
-def budget_error(done: int, total: int, what: str) -> ProtocolError:
-    budget = current_app.config["TIME_BUDGET_SECONDS"]
-    return ProtocolError("too_much_work",
-                         f"this {what} needs more than {budget:g} s of computing (stopped after {done} of "
-                         f"{total}); send it in smaller pieces")
+def budget_error(exc: BudgetExceeded, done: int, total: int, what: str) -> ProtocolError:
+    return ProtocolError("too_much_work", budget_message(exc, done, total, what))
 
 
-def _host_name(host: str) -> str:
-    """The name part of a Host header (port removed), lower case."""
-    host = host.strip().lower()
-    if host.startswith("["):
-        end = host.find("]")
-        return host[:end + 1] if end > 0 else host
-    return host.rsplit(":", 1)[0] if host.count(":") == 1 else host
+#: A Host header as RFC 9110 allows it here: a name or an IPv4 address, or an IPv6 address in
+#: brackets, then an optional port. Anything else (``127.0.0.1:80@evil.example``, two Host headers
+#: joined by a comma, user information, a path) is refused rather than guessed at.
+_HOST = re.compile(r"(?P<name>\[[0-9a-f:.]+\]|[a-z0-9](?:[a-z0-9.-]*[a-z0-9])?\.?)(?::[0-9]{1,5})?\Z")
+
+
+def _host_name(host: str) -> str | None:
+    """The name part of a Host header (port removed, lower case), or None when it is not a plain host."""
+    m = _HOST.match(host.strip().lower())
+    return m.group("name") if m else None
+
+
+def check_token(token: str | None) -> None:
+    """Refuse, at start-up, a token no request could present (blank, spaces at its ends, control characters)."""
+    if token is None:
+        return
+    if not token.strip():
+        raise ValueError("the access token is empty")
+    if token != token.strip() or any(c.isspace() or ord(c) < 32 or ord(c) == 127 for c in token):
+        raise ValueError("the access token may not contain spaces or control characters (a request could "
+                         "never present it)")
 
 
 def allowed_hosts(bound_host: str | None, extra=()) -> frozenset[str]:
@@ -137,9 +165,11 @@ def _cors_headers(origin: str, preflight: bool) -> dict:
 
 def guard_request():
     """Runs before every request: host, origin (and CORS preflight), token."""
+    g.arrived = time.perf_counter()
     cfg = current_app.config
-    host = request.headers.get("Host")
-    if host is None or _host_name(host).rstrip(".") not in cfg["ALLOWED_HOSTS"]:
+    hosts = request.headers.getlist("Host")
+    name = _host_name(hosts[0]) if len(hosts) == 1 else None
+    if name is None or name.rstrip(".") not in cfg["ALLOWED_HOSTS"]:
         raise ProtocolError("forbidden", "this Host is not allowed (the bridge answers loopback names and its "
                                          "bound address only; see --allow-host)")
     origin = request.headers.get("Origin")

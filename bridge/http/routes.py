@@ -8,18 +8,18 @@ Nothing here knows any single function: the routes look functions up in
 
 from __future__ import annotations
 
-import time
 from typing import Any
 
 from flask import Blueprint, Response, current_app, request
 
 from trueband.funcs import __version__
+from trueband.funcs._budget import BudgetExceeded, check_time
 from trueband.funcs.errors import ArgumentCountError, ArgumentTypeError, TruebandError
 from trueband.funcs._validate import choice
 from trueband.funcs.registry import REGISTRY, SpreadsheetFunction, call_column, catalog, lookup
 
 from .errors import TEXT_ERRORS, ProtocolError, error_body, error_response, json_response
-from .guards import budget_error, check_cells, count_cells, json_body, over_budget, range_cells
+from .guards import budget_error, check_cells, computing_budget, count_cells, json_body, range_cells
 from .openapi import openapi_document
 
 __all__ = ["api", "format_text_value"]
@@ -91,7 +91,9 @@ def function(name: str):
 def call_route():
     body = json_body()
     check_cells(range_cells(body.get("args")) if isinstance(body, dict) else 0)
-    return json_response({"value": _call_one(body)})
+    with computing_budget():
+        value = _call_one(body)
+    return json_response({"value": value})
 
 
 @_route("/batch", ["POST"])
@@ -104,15 +106,16 @@ def batch_route():
     if len(calls) > limit:
         raise ProtocolError("too_large", f"a batch may hold at most {limit} calls, got {len(calls)}")
     check_cells(sum(range_cells(c.get("args")) for c in calls if isinstance(c, dict)))
-    start = time.perf_counter()
     results = []
-    for i, one in enumerate(calls):
-        if i and over_budget(start):
-            raise budget_error(i, len(calls), "batch")
-        try:
-            results.append({"value": _call_one(one)})
-        except TruebandError as exc:  # each call on its own: its error in its place
-            results.append({"error": error_body(exc)})
+    with computing_budget():
+        for i, one in enumerate(calls):
+            try:
+                check_time()
+                results.append({"value": _call_one(one)})
+            except TruebandError as exc:  # each call on its own: its error in its place
+                results.append({"error": error_body(exc)})
+            except BudgetExceeded as exc:  # the budget is the whole batch's: it stops here
+                raise budget_error(exc, i, len(calls), "batch") from None
     return json_response({"results": results})
 
 
@@ -141,20 +144,25 @@ def column_route():
     if any(len(col) != rows for col in each.values()):
         call_column(fn.name, each, same)  # raises the registry's own "columns differ in length" error
 
-    # A column is computed in pieces, so one request cannot hold a worker past the time budget even
-    # where every row must be called on its own with a large shared range.
+    # A column is computed in pieces (each piece a bounded amount of memory); the time budget is checked
+    # inside each piece as well, row by row and block by block, and inside the functions' own loops.
     cfg = current_app.config
     one_by_one = not set(each) <= fn.elementwise  # call_column then makes one Python call per row
     piece = min(cfg["COLUMN_PIECE_ROWS_ONE_BY_ONE" if one_by_one else "COLUMN_PIECE_ROWS"],
                 max(1, cfg["COLUMN_PIECE_CELLS"] // (1 + same_cells)))
-    start = time.perf_counter()
     values: list = []
-    for lo in range(0, rows, piece):
-        if lo and over_budget(start):
-            raise budget_error(lo, rows, "column")
-        part = {k: col[lo:lo + piece] for k, col in each.items()}
-        for x in call_column(fn.name, part, same):
-            values.append({"error": error_body(x)} if isinstance(x, TruebandError) else x)
+    with computing_budget():
+        for lo in range(0, rows, piece):
+            part = {k: col[lo:lo + piece] for k, col in each.items()}
+            try:
+                check_time()
+                computed = call_column(fn.name, part, same)
+            except BudgetExceeded as exc:
+                raise budget_error(exc, lo, rows, "column") from None
+            if any(issubclass(t, TruebandError) for t in set(map(type, computed))):
+                values.extend({"error": error_body(x)} if isinstance(x, TruebandError) else x for x in computed)
+            else:
+                values.extend(computed)
     return json_response({"values": values})
 
 
@@ -188,7 +196,9 @@ def _errors_as_text() -> bool:
 def text_route(name: str):
     as_text = _errors_as_text()
     try:
-        return Response(format_text_value(_text_call(name)), mimetype="text/plain")
+        with computing_budget():
+            value = _text_call(name)
+        return Response(format_text_value(value), mimetype="text/plain")
     except TruebandError as exc:
         if not as_text:
             raise

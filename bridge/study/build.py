@@ -19,14 +19,13 @@ writes them in the order their arguments need.
 from __future__ import annotations
 
 import dataclasses
-import os
-import tempfile
 import time
 from pathlib import Path
 from typing import Any, Mapping
 
 import numpy as np
 
+from ..workbook.files import private_temporary, replacing
 from . import sheets
 from .context import StudyContext
 from .data_workbook import read_study_data
@@ -139,30 +138,23 @@ def make_study(data_path: str | Path, out_path: str | Path, overrides: Mapping[s
     t0 = time.perf_counter()
     data = read_study_data(src, overrides)
     timings["read"] = time.perf_counter() - t0
-    fd, raw_name = tempfile.mkstemp(prefix=".trueband-study-", suffix=".xlsx", dir=out.parent)
-    os.close(fd)
-    raw = Path(raw_name)
-    fd, done_name = tempfile.mkstemp(prefix=".trueband-study-", suffix=".xlsx", dir=out.parent)
-    os.close(fd)
-    done = Path(done_name)
-    try:
-        t0 = time.perf_counter()
-        result = build_study(data, raw)
-        timings["build"] = time.perf_counter() - t0
-        t0 = time.perf_counter()
-        done.unlink()
+    # Both intermediate files are private temporaries beside the output (removed by the next run of
+    # any command in the folder should this one be killed); the study takes the data workbook's permissions.
+    with replacing(out, like=src, suffix=".xlsx") as done:
+        raw = private_temporary(out.parent, "study-raw", ".xlsx")
         try:
-            report = recalculate(raw, done, progress=progress)
-        except Exception as exc:  # the engine's own failures end the command cleanly; nothing is kept
-            raise StudyError(f"the recalculation of the new study failed ({type(exc).__name__}: {exc})") from exc
-        timings["recalculate"] = time.perf_counter() - t0
-        os.replace(done, out)
-    finally:
-        for p in (raw, done):
+            t0 = time.perf_counter()
+            result = build_study(data, raw)
+            timings["build"] = time.perf_counter() - t0
+            t0 = time.perf_counter()
+            done.unlink()
             try:
-                p.unlink()
-            except FileNotFoundError:
-                pass
+                report = recalculate(raw, done, progress=progress)
+            except Exception as exc:  # the engine's own failures end the command cleanly; nothing is kept
+                raise StudyError(f"the recalculation of the new study failed ({type(exc).__name__}: {exc})") from exc
+            timings["recalculate"] = time.perf_counter() - t0
+        finally:
+            raw.unlink(missing_ok=True)
     result.path = out
     result.recalc_report = report
     result.timings = timings

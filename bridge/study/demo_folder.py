@@ -4,8 +4,6 @@ adverse-impact sheets and the empty templates, all recalculated, through a tempo
 from __future__ import annotations
 
 import os
-import shutil
-import tempfile
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -13,6 +11,7 @@ import numpy as np
 
 from trueband.funcs.impact import tally_groups
 
+from ..workbook.files import apply_permissions, temporary_folder
 from .demo import make_demo
 
 if TYPE_CHECKING:
@@ -48,11 +47,7 @@ def write_demo(target: Path, *, n: int = 400) -> tuple[StudyResult, dict[str, Pa
         raise DemoFolderError(f"{target} exists and is not an empty folder; give a new folder (nothing was written)")
     parent = target.parent if target.parent != Path("") else Path.cwd()
     parent.mkdir(parents=True, exist_ok=True)
-    work = Path(tempfile.mkdtemp(prefix=".trueband-demo-", dir=parent))
-    umask = os.umask(0)
-    os.umask(umask)
-    os.chmod(work, 0o777 & ~umask)  # a private temporary folder becomes an ordinary one
-    try:
+    with temporary_folder(parent, "demo") as work:  # private (0700) while it fills; removed if anything fails
         (work / "templates").mkdir()
         demo = make_demo(n)
         scores = demo.items.sum(axis=1)
@@ -72,12 +67,10 @@ def write_demo(target: Path, *, n: int = 400) -> tuple[StudyResult, dict[str, Pa
             recalculate(paths[key], in_place=True)
         result = make_study(paths["data"], paths["study"])
         write_report(paths["study"], paths["report"], version=__version__)
+        apply_permissions(work, None)  # the private temporary folder becomes an ordinary one
         if target.exists():
             target.rmdir()  # empty, checked above; a rename cannot replace a folder on every platform
         os.replace(work, target)
-    except BaseException:
-        shutil.rmtree(work, ignore_errors=True)
-        raise
     final = {k: target / v for k, v in DEMO_FILES.items()}
     result.path = final["study"]
     return result, final

@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import datetime
 import math
-import os
 import re
 import zipfile
 from pathlib import Path
@@ -22,6 +21,7 @@ from xml.sax.saxutils import escape
 from openpyxl.utils import get_column_letter
 
 from ..formulas.calc_binding import bind_for_calc, bind_sheet_xml
+from ..workbook.files import replacing
 from ..workbook.sheet_data import ErrorValue
 
 __all__ = ["rows_xml", "splice_rows", "sheet_parts"]
@@ -96,42 +96,37 @@ def splice_rows(path: Path, rows: Mapping[str, Callable[[], Iterator[str]]], las
     temporary file beside it and renamed over it when complete.
     """
     path = Path(path)
-    tmp = path.with_name(path.name + ".splice")
-    try:
-        with zipfile.ZipFile(path) as src, zipfile.ZipFile(tmp, "w", zipfile.ZIP_DEFLATED, compresslevel=1) as dst:
-            parts = sheet_parts(src)
-            wanted = {parts[name]: name for name in rows}
-            for info in src.infolist():
-                data = src.read(info.filename)
-                sheet = info.filename.startswith("xl/worksheets/") and info.filename.endswith(".xml")
-                if info.filename not in wanted:
-                    if sheet:  # registered calls as _xludf.NAME(, the form LibreOffice binds to the add-in
-                        data = bind_sheet_xml(data.decode("utf-8")).encode("utf-8")
-                    dst.writestr(info, data, compress_type=zipfile.ZIP_DEFLATED, compresslevel=6)
-                    continue
-                name = wanted[info.filename]
-                xml = bind_sheet_xml(data.decode("utf-8"))
-                xml = re.sub(r'<dimension ref="[^"]*"\s*/>', f'<dimension ref="A1:{last_cell[name]}"/>', xml, count=1)
-                if "</sheetData>" in xml:
-                    head, tail = xml.split("</sheetData>", 1)
-                    tail = "</sheetData>" + tail
-                else:  # an empty <sheetData/>
-                    head, tail = xml.split("<sheetData/>", 1)
-                    head += "<sheetData>"
-                    tail = "</sheetData>" + tail
-                part = zipfile.ZipInfo(info.filename, date_time=info.date_time)
-                part.compress_type = zipfile.ZIP_DEFLATED
-                with dst.open(part, "w", force_zip64=True) as out:
-                    out.write(head.encode("utf-8"))
-                    batch: list[str] = []
-                    for row in rows[name]():
-                        batch.append(row)
-                        if len(batch) >= 2000:
-                            out.write("".join(batch).encode("utf-8"))
-                            batch = []
-                    out.write("".join(batch).encode("utf-8"))
-                    out.write(tail.encode("utf-8"))
-        os.replace(tmp, path)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
+    with replacing(path) as tmp, zipfile.ZipFile(path) as src, \
+            zipfile.ZipFile(tmp, "w", zipfile.ZIP_DEFLATED, compresslevel=1) as dst:
+        parts = sheet_parts(src)
+        wanted = {parts[name]: name for name in rows}
+        for info in src.infolist():
+            data = src.read(info.filename)
+            sheet = info.filename.startswith("xl/worksheets/") and info.filename.endswith(".xml")
+            if info.filename not in wanted:
+                if sheet:  # registered calls as _xludf.NAME(, the form LibreOffice binds to the add-in
+                    data = bind_sheet_xml(data.decode("utf-8")).encode("utf-8")
+                dst.writestr(info, data, compress_type=zipfile.ZIP_DEFLATED, compresslevel=6)
+                continue
+            name = wanted[info.filename]
+            xml = bind_sheet_xml(data.decode("utf-8"))
+            xml = re.sub(r'<dimension ref="[^"]*"\s*/>', f'<dimension ref="A1:{last_cell[name]}"/>', xml, count=1)
+            if "</sheetData>" in xml:
+                head, tail = xml.split("</sheetData>", 1)
+                tail = "</sheetData>" + tail
+            else:  # an empty <sheetData/>
+                head, tail = xml.split("<sheetData/>", 1)
+                head += "<sheetData>"
+                tail = "</sheetData>" + tail
+            part = zipfile.ZipInfo(info.filename, date_time=info.date_time)
+            part.compress_type = zipfile.ZIP_DEFLATED
+            with dst.open(part, "w", force_zip64=True) as out:
+                out.write(head.encode("utf-8"))
+                batch: list[str] = []
+                for row in rows[name]():
+                    batch.append(row)
+                    if len(batch) >= 2000:
+                        out.write("".join(batch).encode("utf-8"))
+                        batch = []
+                out.write("".join(batch).encode("utf-8"))
+                out.write(tail.encode("utf-8"))

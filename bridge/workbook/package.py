@@ -41,6 +41,7 @@ import zlib
 from pathlib import Path
 from xml.etree import ElementTree
 
+from .files import NotARegularFile, regular_file
 from .xml_form import part_may_be_irregular
 from .xml_text import decode_escaped, unescape_xml
 
@@ -545,6 +546,10 @@ def open_workbook_package(path: str | os.PathLike, *, check_lock: bool = True, m
         raise UnusableWorkbook(f"{p} does not exist", path=p)
     if p.is_dir():
         raise UnusableWorkbook(f"{p} is a folder, not a workbook", path=p)
+    try:
+        regular_file(p, "the workbook")  # a named pipe would block the read below for ever
+    except NotARegularFile as exc:
+        raise UnusableWorkbook(exc.message, path=p) from None
     max_total = _limit("TRUEBAND_MAX_UNCOMPRESSED", max_total, DEFAULT_MAX_TOTAL)
     max_ratio = float(_limit("TRUEBAND_MAX_RATIO", None if max_ratio is None else int(max_ratio), DEFAULT_MAX_RATIO))
     try:

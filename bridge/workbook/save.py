@@ -7,7 +7,10 @@ calculation chain, clearing "recalculate everything on open");
 
 * every untouched zip entry keeps its exact uncompressed bytes, its name
   order, compression method, timestamp and attributes;
-* the new package is written to a temporary file in the destination folder,
+* the new package is written to a temporary file in the destination folder
+  (:func:`~.files.replacing`: readable by the owner only while it is written,
+  then given the input's permission bits and owner; a symbolic link is
+  followed and its target replaced; what killed runs left is removed),
   flushed to disk and re-opened as a workbook; only then is it renamed onto
   the destination with :func:`os.replace` (atomic on Windows, macOS and
   Linux), so a crash, a kill or Ctrl-C at any moment leaves the input intact
@@ -16,7 +19,8 @@ calculation chain, clearing "recalculate everything on open");
   ``BOOK.recalc.xlsx``), never the input itself, and an existing output is not
   overwritten unless asked; ``in_place=True`` replaces the input (after the
   new file is complete), ``backup=True`` keeps the original as
-  ``BOOK.backup.xlsx``;
+  ``BOOK.backup.xlsx`` (a complete copy or nothing: a backup that cannot be
+  written, on a full disk, leaves no file and nothing changed);
 * a replace refused because another program holds the file open
   (``PermissionError``, as on Windows) is retried briefly, then reported as
   :class:`~trueband.bridge.workbook.package.WorkbookLocked` in one line.
@@ -34,10 +38,10 @@ import os
 import re
 import shutil
 import time
-import uuid
 import zipfile
 from pathlib import Path
 
+from .files import TEMP_PREFIX, NotARegularFile, copy_beside, real_target, replacing
 from .package import (
     REL_CALC_CHAIN,
     UnusableWorkbook,
@@ -58,10 +62,6 @@ __all__ = [
     "TEMP_PREFIX",
 ]
 
-#: Temporary files are named ``.~trueband-<target name>-<random>.tmp`` in the destination folder.
-TEMP_PREFIX = ".~trueband-"
-#: A leftover temporary file older than this (seconds) is from a killed run and is removed.
-STALE_SECONDS = 3600
 #: Parts at least this large are recompressed at zlib level 1 (speed) unless a level is given.
 LARGE_PART = 64 * 1024 ** 2
 _CHUNK = 1 << 20
@@ -241,16 +241,6 @@ def _same_file(a: Path, b: Path) -> bool:
         return a.resolve() == b.resolve()
 
 
-def _remove_stale_temps(folder: Path, target: Path) -> None:
-    now = time.time()
-    for leftover in folder.glob(f"{TEMP_PREFIX}{target.name}-*.tmp"):
-        try:
-            if now - leftover.stat().st_mtime > STALE_SECONDS:
-                leftover.unlink()
-        except OSError:
-            pass  # another run may own it, or it is already gone
-
-
 # ------------------------------------------------------------------ writing
 
 
@@ -303,8 +293,10 @@ def _set_level(info: zipfile.ZipInfo, level: int | None) -> None:
 
 
 def write_package(pkg: WorkbookPackage, changes: PackageChanges, dest: str | os.PathLike, *,
-                  compresslevel: int | None = None) -> None:
+                  compresslevel: int | None = None, exclusive: bool = True) -> None:
     """Write the changed package to ``dest`` directly (no temporary file; see :func:`save_workbook`).
+
+    ``dest`` must not exist unless ``exclusive`` is False (then it is truncated, keeping its mode).
 
     Untouched entries are decompressed and written again with their original
     ZipInfo (name, timestamp, method, attributes), in their original order;
@@ -316,7 +308,7 @@ def write_package(pkg: WorkbookPackage, changes: PackageChanges, dest: str | os.
     test_hook = _test_write_hook()
     written = 0
     default_method = zipfile.ZIP_DEFLATED
-    with open(dest, "xb") as fh:
+    with open(dest, "xb" if exclusive else "wb") as fh:
         with zipfile.ZipFile(fh, "w", allowZip64=True) as out:
             for name in pkg.entry_names:
                 if name in changes.remove:
@@ -384,6 +376,21 @@ def _replace(src: Path, dst: Path) -> None:
             time.sleep(_REPLACE_WAIT)
 
 
+def _backup(src: Path) -> Path:
+    """A complete copy of the input as ``BOOK.backup.xlsx``, or nothing and a one-line error naming it."""
+    for _ in range(_REPLACE_RETRIES):
+        target = backup_path_for(src)
+        try:
+            return copy_beside(src, target)
+        except FileExistsError:
+            continue  # taken meanwhile by another run: the next free name
+        except OSError as exc:
+            reason = exc.strerror or type(exc).__name__
+            raise UnusableWorkbook(f"the backup {target.name} could not be written ({reason}); nothing was "
+                                   f"changed and no backup was left") from None
+    raise UnusableWorkbook(f"no free backup name beside {src.name}; nothing was changed")
+
+
 def save_workbook(pkg: WorkbookPackage, changes: PackageChanges, *, output: str | os.PathLike | None = None,
                   in_place: bool = False, backup: bool = False, overwrite: bool = False, tag: str = "recalc",
                   compresslevel: int | None = None) -> Path:
@@ -434,23 +441,18 @@ def save_workbook(pkg: WorkbookPackage, changes: PackageChanges, *, output: str 
         if lock is not None:
             raise WorkbookLocked(f"{dest.name} is open in another program (lock file {lock.name} beside it); "
                                  f"close it there first, or choose another output", path=dest)
-    folder = dest.parent
-    _remove_stale_temps(folder, dest)
-    temp = folder / f"{TEMP_PREFIX}{dest.name}-{uuid.uuid4().hex[:12]}.tmp"
+    dest = real_target(dest)  # through a symbolic link: the file it points to is replaced, the link stays
     try:
-        write_package(pkg, changes, temp, compresslevel=compresslevel)
-        _verify(temp, pkg, changes)
-        if in_place and backup:
-            shutil.copy2(src, backup_path_for(src))
-        if in_place:
-            # On Windows the input is still open for reading through pkg; close it before replacing.
-            pkg.close()
-        _replace(temp, dest)
-    except BaseException:
-        try:
-            temp.unlink()
-        except OSError:
-            pass
-        raise
+        with replacing(dest, like=src, sync=False,
+                       replace=_replace) as temp:
+            write_package(pkg, changes, temp, compresslevel=compresslevel, exclusive=False)
+            _verify(temp, pkg, changes)
+            if in_place and backup:
+                _backup(src)
+            if in_place:
+                # On Windows the input is still open for reading through pkg; close it before replacing.
+                pkg.close()
+    except NotARegularFile as exc:
+        raise OutputRefused(exc.message) from None
     return dest
 

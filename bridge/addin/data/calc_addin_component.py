@@ -14,8 +14,10 @@ import http.client
 import json
 import math
 import os
+import socket
 import struct
 import sys
+import threading
 import time
 import urllib.parse
 
@@ -100,14 +102,16 @@ class _Thin:
     """Sends each call to a running `trueband serve` (standard library only), over one kept-open connection.
 
     The server must be on this computer (a loopback address; checked when the add-in is generated and
-    again here), so no applicant data leave it. A server that does not answer within TIMEOUT seconds
-    (suspended, busy, or another program on the port) fails that cell, and the cells after it fail at
-    once for PAUSE seconds, so Calc is never held up cell after cell. An access token, where the server
+    again here), so no applicant data leave it. A server that has not answered completely within TIMEOUT
+    seconds in total (suspended, busy, answering a byte at a time, or another program on the port) fails
+    that cell, and the cells after it fail at once for PAUSE seconds, so Calc is never held up cell after
+    cell; a reply larger than MAX_REPLY bytes is refused the same way. An access token, where the server
     needs one, comes from the TRUEBAND_TOKEN environment variable of LibreOffice's process.
     """
 
-    TIMEOUT = 15.0  # the server stops any one call after a few seconds of work (its too_much_work)
+    TIMEOUT = 15.0  # in total, not per read; the server stops any one call after a few seconds of work
     PAUSE = 30.0
+    MAX_REPLY = 1 << 20  # one call's answer is a number or a short error: far below this
 
     def __init__(self):
         parts = urllib.parse.urlsplit(SERVER_URL)
@@ -131,16 +135,47 @@ class _Thin:
         for attempt in (1, 2):
             if self.connection is None:
                 self.connection = self._connect()
+            connection = self.connection
+            expired = threading.Event()
+            # The socket's timeout applies to each read; this watchdog bounds the whole exchange by
+            # shutting the socket down, which ends a read blocked in another thread at once.
+            watchdog = threading.Timer(self.TIMEOUT, self._abort, (connection, expired))
+            watchdog.daemon = True
+            watchdog.start()
             try:
-                self.connection.request("POST", self.path, body=body, headers=self.headers)
-                answer = self.connection.getresponse()
-                return answer.status, json.loads(answer.read().decode("utf-8"))
-            except (OSError, http.client.HTTPException) as exc:
-                self.connection.close()
+                connection.request("POST", self.path, body=body, headers=self.headers)
+                answer = connection.getresponse()
+                return answer.status, json.loads(self._read_capped(answer).decode("utf-8"))
+            except (OSError, http.client.HTTPException, ValueError) as exc:
+                connection.close()
                 self.connection = None
+                timed_out = expired.is_set() or isinstance(exc, (TimeoutError, ValueError))
                 # a kept-open connection the server has since closed: open a new one, once (never after a timeout)
-                if attempt == 2 or fresh or isinstance(exc, TimeoutError):
+                if attempt == 2 or fresh or timed_out:
+                    if expired.is_set():
+                        raise TimeoutError(f"no complete answer within {self.TIMEOUT:.0f} s") from None
                     raise
+            finally:
+                watchdog.cancel()
+
+    @staticmethod
+    def _abort(connection, expired):
+        expired.set()
+        sock = connection.sock
+        if sock is not None:
+            try:
+                sock.shutdown(socket.SHUT_RDWR)
+            except OSError:
+                pass
+
+    def _read_capped(self, answer):
+        length = answer.getheader("Content-Length")
+        if length is not None and length.strip().isdigit() and int(length) > self.MAX_REPLY:
+            raise ValueError(f"the reply is larger than {self.MAX_REPLY} bytes")
+        data = answer.read(self.MAX_REPLY + 1)
+        if len(data) > self.MAX_REPLY:
+            raise ValueError(f"the reply is larger than {self.MAX_REPLY} bytes")
+        return data
 
     def _report_once(self, text):
         if not self.reported:  # once, not once a cell

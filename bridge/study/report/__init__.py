@@ -8,9 +8,9 @@ part only a person can write.
 from __future__ import annotations
 
 import os
-import tempfile
 from pathlib import Path
 
+from ...workbook.files import replacing
 from ..workbook import ANALYSIS_SHEETS
 from .plan import PLACEHOLDER_MARK, SECTIONS
 from .read import NotRecalculated, read_study
@@ -35,12 +35,6 @@ def write_report(study: str | os.PathLike, out: str | os.PathLike, *, version: s
                           "again") from None
     except ValueError as e:
         raise ReportError(f"{study.name}: {e}") from None
-    fd, tmp = tempfile.mkstemp(prefix=".trueband-report-", suffix=".docx", dir=out.parent)
-    os.close(fd)
-    try:
-        compose(content, Path(tmp), version=version)
-        os.replace(tmp, out)
-    finally:
-        if os.path.exists(tmp):
-            os.remove(tmp)
+    with replacing(out, suffix=".docx") as tmp:   # private until renamed; a killed run's copy is cleaned later
+        compose(content, tmp, version=version)
     return out
