@@ -41,6 +41,8 @@ class WorkbookModel:
     used: dict[str, tuple[int, int, int, int] | None]
     shared_groups: dict[str, set[int]]  # per sheet, the shared formulas that call registered functions
     formula_count: int = 0
+    #: The formula text of each unreadable cell (the key of :attr:`unreadable`).
+    unreadable_texts: dict[tuple[str, int, int], str] = dataclasses.field(default_factory=dict)
 
 
 # A run while reading: [column, first row, last row, key, formula text, (row, col) of the text,
@@ -265,6 +267,7 @@ def load_model(package: WorkbookPackage, progress: Callable[[str, float], None] 
     runs: list[Run] = []
     missing: set[int] = set()
     unreadable: dict[tuple[str, int, int], str] = {}
+    unreadable_texts: dict[tuple[str, int, int], str] = {}
     names = _name_compiler(package)
     compiled_cache: dict[tuple[str, str], Compiled | str] = {}
     used: dict[str, tuple | None] = {}
@@ -301,6 +304,7 @@ def load_model(package: WorkbookPackage, progress: Callable[[str, float], None] 
             if isinstance(comp, str):
                 for row in range(r[_FIRST], r[_LAST] + 1):
                     unreadable[(info.name, row, r[_COL])] = comp
+                    unreadable_texts[(info.name, row, r[_COL])] = r[_TEXT]
                 continue
             if store.has_blank(info.name, r[_COL], r[_FIRST], r[_LAST]):  # a formula without a cached value
                 missing.add(len(runs))
@@ -308,4 +312,5 @@ def load_model(package: WorkbookPackage, progress: Callable[[str, float], None] 
         if progress:
             progress("reading", (k + 1) / len(sheets))
     graph = FormulaGraph(runs)
-    return WorkbookModel(package, store, runs, graph, missing, unreadable, used, shared_groups, total)
+    return WorkbookModel(package, store, runs, graph, missing, unreadable, used, shared_groups, total,
+                         unreadable_texts)
