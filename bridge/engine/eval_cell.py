@@ -27,7 +27,7 @@ from formulas.functions.operators import OPERATORS
 
 from ..formulas.compile import Compiled, Node
 from ..workbook.cells import MAX_COLUMN, MAX_ROW
-from ..formulas.library import ERROR_LOG, NOT_IMPLEMENTED, function_table, message_for
+from ..formulas.library import ERROR_LOG, NOT_IMPLEMENTED, NotEvaluated, function_table, message_for
 from ..formulas.names import registered_name
 from .values import (NA_ERROR, NAME_ERROR, REF_ERROR, VALUE_ERROR, CannotEvaluate, CellProblem, VectorUnsupported,
                      error_value, filled, final_value, unknown_function)
@@ -206,6 +206,8 @@ class _CellEval:
             return fn(*args)
         except CannotEvaluate:
             raise
+        except NotEvaluated as exc:
+            raise CannotEvaluate(CellProblem(name, "#VALUE!", str(exc))) from None
         except Exception as exc:  # the library raises on inputs it does not handle: not evaluated
             raise CannotEvaluate(CellProblem(name, "#VALUE!", f"{name} cannot be evaluated here "
                                                               f"({type(exc).__name__}: {exc})")) from None

@@ -1,0 +1,197 @@
+"""Corrections to standard spreadsheet functions where the ``formulas`` library gives another value than the apps.
+
+:data:`STANDARD_CORRECTIONS` maps each name (with its ``_xlfn.`` form) to a
+function of the engine's kind (``wrap_ufunc``: element by element over arrays,
+error inputs passed through); :mod:`.library` puts them into the function
+table over the library's own. Each states the behaviour it follows, with its
+source; ``tests/test_standard_corrections.py`` checks them.
+
+* FLOOR.MATH, CEILING.MATH, FLOOR.PRECISE, CEILING.PRECISE, ISO.CEILING: the
+  library drops the sign of a negative number (``FLOOR.MATH(-23.5)`` gave 23).
+* ROUND, ROUNDUP, ROUNDDOWN, MROUND, TRUNC: spreadsheet apps round the number
+  as they show it, its decimal form to 15 significant digits
+  (``ROUND(0.049999999999999975, 1)`` is 0.1, ``ROUND(1.005, 2)`` 1.01); the
+  library rounds the binary value after multiplying (0 and 1.0).
+* N: ``N(TRUE)`` is 1 (the library gave TRUE).
+* TEXT: format codes the library does not know (text sections ``@``, digit
+  placeholders ``?``, fills ``*``, spacing ``_``, anything in square brackets:
+  elapsed time, colours, locales, conditions; a fourth section; or any code
+  the library answers with ``#VALUE!``) raise :class:`NotEvaluated`, so the
+  engine keeps the value the file holds instead of writing a wrong text.
+"""
+
+from __future__ import annotations
+
+import decimal
+import functools
+import math
+
+import regex
+import numpy as np
+from formulas.functions import Error, XlError, wrap_func, wrap_ufunc
+from formulas.functions.text import FUNCTIONS as _TEXT
+
+__all__ = ["STANDARD_CORRECTIONS", "NotEvaluated", "round_shown", "floor_math", "ceiling_math", "text_supported"]
+
+
+class NotEvaluated(Exception):
+    """The library cannot evaluate this call faithfully (the engine keeps the cell's stored value)."""
+
+
+# ---------------------------------------------------------------- rounding to a multiple, signs kept
+
+def floor_math(number: float, significance: float = 1.0, mode: float = 0.0) -> float:
+    """FLOOR.MATH: down to a multiple of ``|significance|`` (towards minus infinity; with a non-zero ``mode``
+    a negative number goes towards zero). Significance 0 gives 0.
+
+    Microsoft's function reference, FLOOR.MATH: ``FLOOR.MATH(-8.1, 2)`` = -10, ``FLOOR.MATH(-5.5, 2, -1)`` = -4.
+    """
+    if significance == 0:
+        return 0.0
+    step = abs(significance)
+    q = _shown(number / step)
+    if mode and number < 0:
+        return _shown(-math.floor(-q) * step)
+    return _shown(math.floor(q) * step)
+
+
+def ceiling_math(number: float, significance: float = 1.0, mode: float = 0.0) -> float:
+    """CEILING.MATH: up to a multiple of ``|significance|`` (towards plus infinity; with a non-zero ``mode`` a
+    negative number goes away from zero). Significance 0 gives 0.
+
+    Microsoft's function reference, CEILING.MATH: ``CEILING.MATH(-8.1, 2)`` = -8, ``CEILING.MATH(-5.5, 2, -1)`` = -6.
+    """
+    if significance == 0:
+        return 0.0
+    step = abs(significance)
+    q = _shown(number / step)
+    if mode and number < 0:
+        return _shown(-math.ceil(-q) * step)
+    return _shown(math.ceil(q) * step)
+
+
+def _precise(number: float, significance: float = 1.0, *, up: bool) -> float:
+    """FLOOR.PRECISE / CEILING.PRECISE / ISO.CEILING: the sign of ``significance`` is ignored, the direction is
+    always towards minus (FLOOR) or plus (CEILING) infinity (OpenDocument OpenFormula, ISO/IEC 26300-2,
+    CEILING with mode 0 and FLOOR; Microsoft's reference: ``CEILING.PRECISE(-4.3)`` = -4, ``FLOOR.PRECISE(-3.2, -1)``
+    = -4)."""
+    if significance == 0:
+        return 0.0
+    step = abs(significance)
+    q = _shown(number / step)
+    return _shown((math.ceil(q) if up else math.floor(q)) * step)
+
+
+# ---------------------------------------------------------------- rounding to digits, as the number is shown
+
+_CONTEXT = decimal.Context(prec=400)
+
+
+def _decimal_shown(x: float) -> decimal.Decimal:
+    """The decimal a spreadsheet app shows for ``x``: 15 significant digits (common practice: the apps keep
+    15 significant decimal digits, Microsoft's "Floating-point arithmetic may give inaccurate results")."""
+    return decimal.Decimal(f"{x:.15g}")
+
+
+def _shown(x: float) -> float:
+    return float(_decimal_shown(x)) if math.isfinite(x) else x
+
+
+def round_shown(x: float, digits: float, rounding: str = decimal.ROUND_HALF_UP) -> float:
+    """``x`` rounded to ``digits`` decimals (negative: to tens, hundreds…), from its 15-digit decimal form;
+    halves away from zero (ROUND), or always away from zero (ROUNDUP, ``ROUND_UP``) or towards it
+    (ROUNDDOWN, TRUNC, ``ROUND_DOWN``). OpenFormula (ISO/IEC 26300-2) ROUND, ROUNDUP, ROUNDDOWN."""
+    if not math.isfinite(x):
+        return x
+    d = int(digits)  # the apps truncate a fractional digit count
+    if d > 330:
+        return x  # finer than any double holds
+    quantum = decimal.Decimal(1).scaleb(-d)
+    return float(_decimal_shown(x).quantize(quantum, rounding=rounding, context=_CONTEXT))
+
+
+def _mround(number, multiple):
+    """MROUND: the multiple of ``multiple`` nearest to ``number``, halves away from zero, from the 15-digit
+    decimal forms; a number and multiple of opposite signs is #NUM! (OpenFormula, ISO/IEC 26300-2, MROUND)."""
+    if isinstance(number, bool) or isinstance(multiple, bool):
+        return Error.errors["#VALUE!"]
+    number, multiple = float(number), float(multiple)
+    if multiple == 0:
+        return 0.0
+    if (number < 0 < multiple) or (multiple < 0 < number):
+        return Error.errors["#NUM!"]
+    n, m = _decimal_shown(number), _decimal_shown(multiple)
+    q = (n / m).quantize(decimal.Decimal(1), rounding=decimal.ROUND_HALF_UP, context=_CONTEXT)
+    return float(q * m)
+
+
+def _trunc(x, digits=0):
+    return round_shown(x, digits, decimal.ROUND_DOWN)
+
+
+# ---------------------------------------------------------------- N and TEXT
+
+def _n(value):
+    """N: a number is itself, a logical 1 or 0, anything else 0; an error passes (OpenFormula, ISO/IEC 26300-2, N)."""
+    v = np.asarray(value, object).ravel()[0]
+    if isinstance(v, XlError):
+        return v
+    if isinstance(v, (bool, np.bool_)):
+        return float(v)
+    if isinstance(v, (int, float, np.integer, np.floating)):
+        return float(v)
+    return 0.0
+
+
+#: Format-code features the library's TEXT does not implement (outside quoted text and escapes).
+_UNSUPPORTED_FORMAT = regex.compile(r'"[^"]*"|\\.|(?P<bad>[@?*_\[])')
+
+
+def text_supported(format_code: str) -> bool:
+    """Whether the library's TEXT formats ``format_code`` as spreadsheet apps do (see the module docstring);
+    a fourth section (for text values) is not read by the library either."""
+    found = [m for m in _UNSUPPORTED_FORMAT.finditer(format_code)]
+    if any(m.group("bad") for m in found):
+        return False
+    unquoted = _UNSUPPORTED_FORMAT.sub("", format_code)
+    return unquoted.count(";") < 3
+
+
+def _text_checked(library_text):
+    def text(value, format_code, *rest):
+        codes = np.asarray(format_code, object).ravel()
+        for code in codes:
+            if isinstance(code, str) and not isinstance(code, XlError) and not text_supported(code):
+                raise NotEvaluated(f"TEXT format code {code!r} is not one trueband formats")
+        out = library_text(value, format_code, *rest)
+        inputs = [*np.asarray(value, object).ravel(), *codes]
+        if any(str(x) == "#VALUE!" and isinstance(x, XlError) for x in np.asarray(out, object).ravel()) and \
+                not any(isinstance(x, XlError) for x in inputs):
+            raise NotEvaluated(f"TEXT format code {codes[0]!r} is not one trueband formats")
+        return out
+    return text
+
+
+def _corrections() -> dict:
+    ufunc = wrap_ufunc
+    table = {
+        "FLOOR.MATH": ufunc(floor_math),
+        "CEILING.MATH": ufunc(ceiling_math),
+        "FLOOR.PRECISE": ufunc(functools.partial(_precise, up=False)),
+        "CEILING.PRECISE": ufunc(functools.partial(_precise, up=True)),
+        "ISO.CEILING": ufunc(functools.partial(_precise, up=True)),
+        "ROUND": ufunc(round_shown),
+        "ROUNDUP": ufunc(functools.partial(round_shown, rounding=decimal.ROUND_UP)),
+        "ROUNDDOWN": ufunc(functools.partial(round_shown, rounding=decimal.ROUND_DOWN)),
+        "TRUNC": ufunc(_trunc),
+        "MROUND": ufunc(_mround, input_parser=lambda *a: a),
+        "N": wrap_func(_n),
+        "TEXT": _text_checked(_TEXT["TEXT"]),
+    }
+    for name in ("FLOOR.MATH", "CEILING.MATH", "FLOOR.PRECISE", "CEILING.PRECISE", "ISO.CEILING"):
+        table["_XLFN." + name] = table[name]
+    return table
+
+
+#: Name → corrected function (the engine's function kind), over the library's own.
+STANDARD_CORRECTIONS = _corrections()
