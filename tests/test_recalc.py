@@ -96,7 +96,11 @@ def test_standard_functions_match_excel_model(mixed):
         theirs = ranges.value[0, 0]
         if isinstance(theirs, np.generic):
             theirs = theirs.item()
-        if isinstance(theirs, complex):
+        if ref == "T10":
+            # ROUND(1e308, 1): the library multiplies first and overflows (#VALUE!); spreadsheet apps give the
+            # number itself, as trueband's corrected ROUND does (tests/test_standard_corrections.py)
+            assert value == 1e308, (ref, value)
+        elif isinstance(theirs, complex):
             # The library gives a complex number for a negative number to a fractional power, where
             # spreadsheet apps show #NUM! (common practice: Excel and LibreOffice both do); so do we.
             assert str(value) == "#NUM!", (ref, value)

@@ -143,3 +143,20 @@ def test_positions_beyond_an_array_result_are_the_error_na_not_text(tmp_path):
     assert [got[("Data", c)] for c in ("C1", "C2")] == [2, 4]
     assert repr(got[("Data", "C3")]) == "ErrorValue('#N/A')"
     assert b'<c r="C3" t="e"><v>#N/A</v></c>' in sheet_bytes(report.output)
+
+
+def test_a_sheet_local_name_read_from_another_sheet(tmp_path):
+    # =Defines!Rate reads the name local to Defines (the parser drops the sheet; the engine keeps it)
+    defines = ("Defines", sheet_part([row_xml(1, [cell_xml("A1", 0.25)])]))
+    src = handmade_package(tmp_path / "names.xlsx",
+                           [("Data", sheet_part([row_xml(1, [cell_xml("A1", 0, formula="Defines!Rate*4")])])), defines],
+                           defined_names=[("Rate", "Defines!$A$1", 1)])
+    report = recalculate(src, tmp_path / "out.xlsx", all_formulas=True)
+    assert values_of(report.output)[("Data", "A1")] == 1.0 and not report.kept and not report.errors
+
+
+def test_an_undefined_name_keeps_the_stored_value(tmp_path):
+    src = book(tmp_path, [row_xml(1, [cell_xml("A1", "#NAME?", formula="SLOPE(A2:A3,Nowhere)", t="e")])])
+    report = recalculate(src, tmp_path / "out.xlsx", all_formulas=True)
+    assert str(values_of(report.output)[("Data", "A1")]) == "#NAME?"
+    assert [k.reason for k in report.kept] == ["the name NOWHERE is not defined in the workbook"]

@@ -108,6 +108,11 @@ ARRAY_ARGUMENT_FUNCTIONS = frozenset({
     "_XLFN.SORTBY", "_XLFN.UNIQUE", "_XLFN.XLOOKUP", "_XLFN.XMATCH"})
 
 
+#: Functions whose array result spreadsheet apps spill over the neighbouring cells (dynamic arrays).
+SPILLING_FUNCTIONS = frozenset({"_XLFN.UNIQUE", "_XLFN._XLWS.FILTER", "_XLFN._XLWS.SORT", "_XLFN.SORTBY",
+                                "_XLFN.SEQUENCE", "_XLFN.RANDARRAY"})
+
+
 def intersect(store, sheet: str, area, row: int, col: int):
     """Implicit intersection, as spreadsheet apps read a range where one value is wanted in an ordinary formula:
     a one-column range gives its cell in the formula's row, a one-row range its cell in the formula's column;
@@ -165,6 +170,8 @@ class _CellEval:
             return area_value(self.store, ref.sheet or self.sheet, ref.area(self.row, self.col))
         if k == "op":
             return self.operator(node)
+        if k == "undefined":
+            raise CannotEvaluate(CellProblem("", "#NAME?", node.name))
         return self.call(node)
 
     def operator(self, node: Node):
@@ -304,6 +311,9 @@ def evaluate_array_formula(compiled: Compiled, store, sheet: str, row: int, col:
         arr = arr.reshape(1, 1)
     elif arr.ndim == 1:
         arr = arr.reshape(1, -1)
+    if shape == (1, 1) and arr.size > 1 and compiled.functions & SPILLING_FUNCTIONS:
+        # the app spills this result over the cells below and beside (or shows #SPILL! where they are taken)
+        raise CannotEvaluate(CellProblem("", "#VALUE!", "a dynamic array that spills beyond its cell"))
     out = filled(shape, NA_ERROR)
     rr, cc = arr.shape
     # a single row or column is repeated across the other direction, as spreadsheet apps do

@@ -243,6 +243,8 @@ class _RunEval:
             return self.ref(node)
         if k == "op":
             return self.operator(node)
+        if k == "undefined":
+            raise CannotEvaluate(CellProblem("", "#NAME?", node.name))
         return self.call(node)
 
     def ref(self, node: Node):

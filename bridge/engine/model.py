@@ -23,7 +23,6 @@ from ..workbook.package import UnusableWorkbook, WorkbookPackage
 from ..workbook.cells import column_letters, split_ref
 from .graph import FormulaGraph, Run
 from .store import CellStore
-from .values import error_value
 
 __all__ = ["WorkbookModel", "load_model"]
 
@@ -247,7 +246,9 @@ def _substitute_names(c: Compiled, sheet: str, names: dict, depth: int = 0) -> C
             found = names.get((node.ref.name, (node.ref.sheet or sheet).casefold())) or \
                 names.get((node.ref.name, None))
             if found is None or isinstance(found, str):
-                return Node("lit", value=error_value("#NAME?"))
+                # evaluated as the spreadsheet's #NAME? only where the file holds no value (see eval_cell)
+                why = "is not defined in the workbook" if found is None else "cannot be read"
+                return Node("undefined", name=f"the name {node.ref.name} {why}")
             inner = _substitute_names(found, sheet, names, depth + 1)
             refs.extend(inner.refs)
             return inner.tree

@@ -46,6 +46,7 @@ from formulas.functions import XlError
 
 from ..formulas.compile import Compiled
 from ..formulas.names import registered_name, uses_registered_function
+from ..formulas.standard import date_system
 from ..workbook import shared_formulas, sheet_data, sheet_patch
 from ..workbook.package import UnusableWorkbook, open_workbook_package
 from ..workbook.cells import column_letters, split_ref
@@ -314,14 +315,15 @@ def evaluate_model(model: WorkbookModel, *, all_formulas: bool = False,
     evaluator = _Evaluator(model, fed)
     total = sum(model.runs[i].size for i in needed) or 1
     done = 0
-    for comp in graph.components(needed):
-        if graph.is_vector_group(comp):
-            evaluator.whole_run(model.runs[comp[0]])
-        else:
-            evaluator.cell_group(comp)
-        done += sum(model.runs[i].size for i in comp)
-        if progress:
-            progress("evaluating", done / total)
+    with date_system(getattr(model.package, "date1904", False)):  # dates count from 1904 in such a book
+        for comp in graph.components(needed):
+            if graph.is_vector_group(comp):
+                evaluator.whole_run(model.runs[comp[0]])
+            else:
+                evaluator.cell_group(comp)
+            done += sum(model.runs[i].size for i in comp)
+            if progress:
+                progress("evaluating", done / total)
     evaluator.unreadable()
     return evaluator.result
 

@@ -13,6 +13,12 @@ source; ``tests/test_standard_corrections.py`` checks them.
   (``ROUND(0.049999999999999975, 1)`` is 0.1, ``ROUND(1.005, 2)`` 1.01); the
   library rounds the binary value after multiplying (0 and 1.0).
 * N: ``N(TRUE)`` is 1 (the library gave TRUE).
+* The 1904 date system: the library counts dates from 1900 only. Inside
+  ``with date_system(True)`` (a workbook with ``workbookPr date1904``) every
+  date function takes and gives serial numbers of the 1904 system (day 0 is
+  1904-01-01, 1,462 days after day 0 of the 1900 system: Microsoft, "Date
+  systems in Excel"; ECMA-376 Part 1, 18.17.4.1), and TEXT with a date or time
+  format reads its number so.
 * TEXT: format codes the library does not know (text sections ``@``, digit
   placeholders ``?``, fills ``*``, spacing ``_``, anything in square brackets:
   elapsed time, colours, locales, conditions; a fourth section; or any code
@@ -22,16 +28,19 @@ source; ``tests/test_standard_corrections.py`` checks them.
 
 from __future__ import annotations
 
+import contextlib
 import decimal
 import functools
 import math
+import threading
 
 import regex
 import numpy as np
 from formulas.functions import Error, XlError, wrap_func, wrap_ufunc
 from formulas.functions.text import FUNCTIONS as _TEXT
 
-__all__ = ["STANDARD_CORRECTIONS", "NotEvaluated", "round_shown", "floor_math", "ceiling_math", "text_supported"]
+__all__ = ["STANDARD_CORRECTIONS", "NotEvaluated", "round_shown", "floor_math", "ceiling_math", "text_supported",
+           "date_system", "DAYS_1900_TO_1904"]
 
 
 class NotEvaluated(Exception):
@@ -172,6 +181,100 @@ def _text_checked(library_text):
     return text
 
 
+# ---------------------------------------------------------------- the 1904 date system
+
+#: Serial number of 1904-01-01 in the 1900 date system (ECMA-376 Part 1, 18.17.4.1; Microsoft, "Date systems in Excel").
+DAYS_1900_TO_1904 = 1462
+
+
+class _DateSystem(threading.local):
+    date1904 = False
+
+
+_DATES = _DateSystem()
+
+
+@contextlib.contextmanager
+def date_system(date1904: bool):
+    """Evaluate date functions in the 1904 date system (``True``) or the 1900 one, for this thread."""
+    before = _DATES.date1904
+    _DATES.date1904 = bool(date1904)
+    try:
+        yield
+    finally:
+        _DATES.date1904 = before
+
+
+def _is_number(x) -> bool:
+    return isinstance(x, (int, float, np.integer, np.floating)) and not isinstance(x, (bool, np.bool_))
+
+
+def _shift(x, days: int):
+    """Numbers (also inside a range) moved by ``days``; text, logicals, blanks and errors as they are."""
+    if isinstance(x, np.ndarray):
+        out = np.empty(x.shape, dtype=object)
+        out.ravel()[:] = [v + days if _is_number(v) else v for v in x.ravel().tolist()]
+        return out.view(type(x)) if type(x) is not np.ndarray else out
+    return x + days if _is_number(x) else x
+
+
+#: Date functions: the positions of their date arguments, and whether they give a date.
+_DATE_FUNCTIONS = {
+    "DATE": ((), True), "DATEVALUE": ((), True), "TODAY": ((), True), "NOW": ((), True),
+    "YEAR": ((0,), False), "MONTH": ((0,), False), "DAY": ((0,), False), "WEEKDAY": ((0,), False),
+    "WEEKNUM": ((0,), False), "ISOWEEKNUM": ((0,), False), "EDATE": ((0,), True), "EOMONTH": ((0,), True),
+    "WORKDAY": ((0, 2), True), "WORKDAY.INTL": ((0, 3), True), "NETWORKDAYS": ((0, 1, 2), False),
+    "NETWORKDAYS.INTL": ((0, 1, 3), False), "DATEDIF": ((0, 1), False), "DAYS": ((0, 1), False),
+    "DAYS360": ((0, 1), False), "YEARFRAC": ((0, 1), False),
+}
+_DATE_CODE = regex.compile(r'"[^"]*"|\\.|\[[^\]]*\]|(?P<date>[yYdDhHsSmM])')
+
+
+def _date_format(code) -> bool:
+    return isinstance(code, str) and any(m.group("date") for m in _DATE_CODE.finditer(code))
+
+
+def _in_date_system(fn, dates: tuple[int, ...], gives_date: bool, *, skip: int = 0):
+    """``fn`` reading the arguments at ``dates`` and giving its result in the workbook's date system
+    (``skip`` leading arguments are the engine's own flags)."""
+    def call(*args):
+        if not _DATES.date1904:
+            return fn(*args)
+        args = list(args)
+        for i in dates:
+            if skip + i < len(args):
+                args[skip + i] = _shift(args[skip + i], DAYS_1900_TO_1904)
+        out = fn(*args)
+        return _shift(out, -DAYS_1900_TO_1904) if gives_date else out
+    return call
+
+
+def _text_in_date_system(fn):
+    def call(value, format_code, *rest):
+        if _DATES.date1904 and any(_date_format(c) for c in np.asarray(format_code, object).ravel()):
+            value = _shift(value, DAYS_1900_TO_1904)
+        return fn(value, format_code, *rest)
+    return call
+
+
+def _date_corrections(table: dict) -> dict:
+    from formulas.functions.date import FUNCTIONS as dates
+
+    out = {}
+    for name, (positions, gives) in _DATE_FUNCTIONS.items():
+        entry = dates[name]
+        if isinstance(entry, dict):
+            skip = len(entry.get("extra_inputs", {}))
+            out[name] = {**entry, "function": _in_date_system(entry["function"], positions, gives, skip=skip)}
+        else:
+            out[name] = _in_date_system(entry, positions, gives)
+        for key in ("_XLFN." + name,):
+            if key in dates:
+                out[key] = out[name]
+    out["TEXT"] = _text_in_date_system(table["TEXT"])
+    return out
+
+
 def _corrections() -> dict:
     ufunc = wrap_ufunc
     table = {
@@ -190,6 +293,7 @@ def _corrections() -> dict:
     }
     for name in ("FLOOR.MATH", "CEILING.MATH", "FLOOR.PRECISE", "CEILING.PRECISE", "ISO.CEILING"):
         table["_XLFN." + name] = table[name]
+    table.update(_date_corrections(table))
     return table
 
 
