@@ -160,3 +160,25 @@ def test_an_undefined_name_keeps_the_stored_value(tmp_path):
     report = recalculate(src, tmp_path / "out.xlsx", all_formulas=True)
     assert str(values_of(report.output)[("Data", "A1")]) == "#NAME?"
     assert [k.reason for k in report.kept] == ["the name NOWHERE is not defined in the workbook"]
+
+
+def test_implicit_intersection_in_ordinary_formulas(tmp_path):
+    # Implicit intersection (common practice; Microsoft's "Implicit intersection operator: @" page describes
+    # it): a range where one value is wanted reads the cell in the formula's row (or column); SUM's argument
+    # A1:A5*B1:B5 is such a place outside an array formula, so in row 7 it is #VALUE!, while SUMPRODUCT and an
+    # array formula take whole arrays (1*2 + 2*3 + 3*4 + 4*5 + 5*6 = 70).
+    rows = [row_xml(r, [cell_xml(f"A{r}", r), cell_xml(f"B{r}", r + 1)]) for r in range(1, 6)]
+    rows.append(row_xml(7, [cell_xml("C7", 0, formula="SUM(A1:A5*B1:B5)"),
+                            cell_xml("D7", 0, formula="SUMPRODUCT(A1:A5*B1:B5)"),
+                            cell_xml("E7", 0, formula="SUM(A1:A5*B1:B5)", f_attrs=' t="array" ref="E7"')]))
+    rows[2] = rows[2].replace("</row>", cell_xml("C3", "x", formula='A:A&"/"&B:B', t="str")
+                              + cell_xml("D3", 0, formula="ROUND(A:A*1.4,0)") + cell_xml("E3", 0, formula="B1:B5")
+                              + cell_xml("F3", 0, formula="SUM(A1:A5*B1:B5)") + "</row>")
+    report = recalculate(book(tmp_path, rows), tmp_path / "out.xlsx", all_formulas=True)
+    got = values_of(report.output)
+    assert str(got[("Data", "C7")]) == "#VALUE!"
+    assert got[("Data", "D7")] == got[("Data", "E7")] == 70
+    assert got[("Data", "C3")] == "3/4"
+    assert got[("Data", "D3")] == 4  # ROUND(3 * 1.4, 0)
+    assert got[("Data", "E3")] == 4  # B3
+    assert got[("Data", "F3")] == 12  # A3 * B3

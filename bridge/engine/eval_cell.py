@@ -33,7 +33,8 @@ from .values import (NA_ERROR, NAME_ERROR, REF_ERROR, VALUE_ERROR, CannotEvaluat
                      error_value, filled, final_value, unknown_function)
 
 __all__ = ["CellResult", "evaluate_cell", "evaluate_array_formula", "area_value", "range_aggregate",
-           "RANGE_AGGREGATES", "broadcast_as_apps", "intersect", "ARRAY_ARGUMENT_FUNCTIONS"]
+           "RANGE_AGGREGATES", "broadcast_as_apps", "intersect", "ARRAY_ARGUMENT_FUNCTIONS", "SINGLE_VALUE_FUNCTIONS",
+           "single_value_arguments"]
 
 
 @dataclasses.dataclass
@@ -113,6 +114,29 @@ SPILLING_FUNCTIONS = frozenset({"_XLFN.UNIQUE", "_XLFN._XLWS.FILTER", "_XLFN._XL
                                 "_XLFN.SEQUENCE", "_XLFN.RANDARRAY"})
 
 
+#: Standard functions each of whose arguments is one value (a range there is read by implicit intersection in an
+#: ordinary formula: ``=ROUND(A:A,0)`` in row 12 rounds A12); and those where only the first one is.
+SINGLE_VALUE_FUNCTIONS = frozenset({
+    "ABS", "INT", "TRUNC", "ROUND", "ROUNDUP", "ROUNDDOWN", "MROUND", "SIGN", "SQRT", "EXP", "LN", "LOG", "LOG10",
+    "MOD", "POWER", "EVEN", "ODD", "FACT", "FLOOR", "CEILING", "FLOOR.MATH", "CEILING.MATH", "FLOOR.PRECISE",
+    "CEILING.PRECISE", "ISO.CEILING", "TEXT", "LEFT", "RIGHT", "MID", "LEN", "UPPER", "LOWER", "PROPER", "TRIM",
+    "CLEAN", "VALUE", "FIXED", "REPT", "SUBSTITUTE", "REPLACE", "FIND", "SEARCH", "EXACT", "CHAR", "CODE", "DATE",
+    "YEAR", "MONTH", "DAY", "HOUR", "MINUTE", "SECOND", "WEEKDAY", "DATEVALUE", "TIMEVALUE", "EDATE", "EOMONTH",
+    "N", "T", "ISNUMBER", "ISTEXT", "ISNONTEXT", "ISBLANK", "ISERROR", "ISERR", "ISNA", "ISLOGICAL", "ISEVEN",
+    "ISODD", "NOT"})
+FIRST_SINGLE_VALUE_FUNCTIONS = frozenset({"IF", "IFERROR", "_XLFN.IFNA"})
+
+
+def single_value_arguments(name: str, count: int) -> range:
+    """The positions of the arguments of ``name`` that take one value (see :data:`SINGLE_VALUE_FUNCTIONS`)."""
+    bare = name[6:] if name.startswith("_XLFN.") else name
+    if bare in SINGLE_VALUE_FUNCTIONS:
+        return range(count)
+    if name in FIRST_SINGLE_VALUE_FUNCTIONS:
+        return range(min(count, 1))
+    return range(0)
+
+
 def intersect(store, sheet: str, area, row: int, col: int):
     """Implicit intersection, as spreadsheet apps read a range where one value is wanted in an ordinary formula:
     a one-column range gives its cell in the formula's row, a one-row range its cell in the formula's column;
@@ -131,8 +155,9 @@ class _CellEval:
     """Evaluates the tree of one cell's formula; collects the problems of the functions that fail.
 
     In an ordinary formula (``array`` False) a reference used where one value is wanted (an operand of an
-    operator outside the functions of :data:`ARRAY_ARGUMENT_FUNCTIONS`, or the whole formula) is read by
-    implicit intersection (:func:`intersect`); in an array formula it stays a range.
+    operator or an argument of :data:`SINGLE_VALUE_FUNCTIONS` outside the functions of
+    :data:`ARRAY_ARGUMENT_FUNCTIONS`, or the whole formula) is read by implicit intersection
+    (:func:`intersect`); in an array formula it stays a range.
     """
 
     def __init__(self, store, sheet: str, row: int, col: int, *, array: bool = False):
@@ -148,7 +173,9 @@ class _CellEval:
         r1, c1, r2, c2 = area
         if r1 < 1 or c1 < 1 or r2 > MAX_ROW or c2 > MAX_COLUMN:
             return REF_ERROR
-        return intersect(self.store, node.ref.sheet or self.sheet, area, self.row, self.col)
+        out = np.empty((1, 1), dtype=object)  # a one-cell range, as the library reads a cell
+        out[0, 0] = intersect(self.store, node.ref.sheet or self.sheet, area, self.row, self.col)
+        return out
 
     def arguments_as_arrays(self, nodes) -> list:
         self.array_depth += 1
@@ -201,7 +228,8 @@ class _CellEval:
         if name in ARRAY_ARGUMENT_FUNCTIONS:
             args = self.arguments_as_arrays(node.args)
         else:
-            args = [self.evaluate(a) for a in node.args]
+            single = single_value_arguments(name, len(node.args))
+            args = [self.single(a) if i in single else self.evaluate(a) for i, a in enumerate(node.args)]
         if isinstance(fn, dict):
             extra = fn.get("extra_inputs", {})
             fn = fn["function"]

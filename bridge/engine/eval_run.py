@@ -45,7 +45,7 @@ from ..formulas.compile import Node
 from ..formulas.library import (ERROR_LOG, NOT_IMPLEMENTED, PassError, function_table, message_for, range_argument,
                                 scalar_argument)
 from ..formulas.names import registered_name
-from .eval_cell import area_value, range_aggregate
+from .eval_cell import area_value, range_aggregate, single_value_arguments
 from .graph import Run
 from .values import (NAME_ERROR, VALUE_ERROR, CannotEvaluate, CellProblem, VectorUnsupported, final_array, final_value,
                      unknown_function)
@@ -314,9 +314,13 @@ class _RunEval:
         table = function_table()
         if name not in table or table[name] is NOT_IMPLEMENTED:
             raise CannotEvaluate(unknown_function(name))
-        if name == "IF":
-            return self.if_function(node)
+        single = single_value_arguments(name, len(node.args))
         args = [self.evaluate(a) for a in node.args]
+        if any(isinstance(args[i], RowRange) or (isinstance(args[i], Fixed) and np.size(args[i].a) != 1)
+               for i in single):
+            raise VectorUnsupported(f"a range as a one-value argument of {name} (read by implicit intersection)")
+        if name == "IF":
+            return self.if_function(node, args)
         if name in _AGGREGATES:
             fast = self.aggregate(name, args)
             if fast is not None:
@@ -359,9 +363,8 @@ class _RunEval:
             return Col(_tidy(res))
         return Col(res)
 
-    def if_function(self, node: Node):
+    def if_function(self, node: Node, args: list):
         fn = function_table()["IF"]["function"]
-        args = [self.evaluate(a) for a in node.args]
         cond = args[0] if args else 0
         if not isinstance(cond, (Col, RowRange)) and not any(isinstance(a, (Col, RowRange)) for a in args):
             return _constant(fn(*[a.a if isinstance(a, Fixed) else a for a in args]))
