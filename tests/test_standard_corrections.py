@@ -47,6 +47,10 @@ CASES = [
     ("TRUNC(8.9)", 8.0), ("TRUNC(-8.9)", -8.0), ("TRUNC(0.45)", 0.0),
     # N: OpenFormula N: a logical is 1 or 0; text 0 (Microsoft's N: "TRUE → 1")
     ("N(TRUE)", 1.0), ("N(FALSE)", 0.0), ('N("7")', 0.0), ("N(7)", 7.0),
+    # MATCH, match type 1, in a sorted range with equal values: the apps' binary search ends on the last of
+    # them (common practice); exact match (0) gives the first (Microsoft's MATCH page)
+    ("MATCH(2,{1,2,2,2,3},1)", 4.0), ("MATCH(2,{1,2,2,2,3})", 4.0), ("MATCH(2,{1,2,2,2,3},0)", 2.0),
+    ("MATCH(2.5,{1,2,2,3})", 3.0), ("MATCH(4,{1,3,5,7},1)", 2.0), ("MATCH(4,{7,5,3,1},-1)", 2.0),
     # a line break inside a string literal is part of the text (common practice)
     ('LEN("a\nb")', 3.0), ('"a\nb"', "a\nb"),
 ]

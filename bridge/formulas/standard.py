@@ -13,6 +13,9 @@ source; ``tests/test_standard_corrections.py`` checks them.
   (``ROUND(0.049999999999999975, 1)`` is 0.1, ``ROUND(1.005, 2)`` 1.01); the
   library rounds the binary value after multiplying (0 and 1.0).
 * N: ``N(TRUE)`` is 1 (the library gave TRUE).
+* MATCH with match type 1 among equal values gives the last of them, as the
+  apps' binary search does (the library gave the first). VLOOKUP, HLOOKUP and
+  LOOKUP in that case are not corrected.
 * The 1904 date system: the library counts dates from 1900 only. Inside
   ``with date_system(True)`` (a workbook with ``workbookPr date1904``) every
   date function takes and gives serial numbers of the 1904 system (day 0 is
@@ -37,6 +40,7 @@ import threading
 import regex
 import numpy as np
 from formulas.functions import Error, XlError, wrap_func, wrap_ufunc
+from formulas.functions.look import FUNCTIONS as _LOOK
 from formulas.functions.text import FUNCTIONS as _TEXT
 
 __all__ = ["STANDARD_CORRECTIONS", "NotEvaluated", "round_shown", "floor_math", "ceiling_math", "text_supported",
@@ -181,6 +185,39 @@ def _text_checked(library_text):
     return text
 
 
+# ---------------------------------------------------------------- MATCH among equal values
+
+def _same_key(a, b) -> bool:
+    if _is_number(a) and _is_number(b):
+        return float(a) == float(b)
+    if isinstance(a, (bool, np.bool_)) and isinstance(b, (bool, np.bool_)):
+        return bool(a) == bool(b)
+    if isinstance(a, str) and isinstance(b, str) and not isinstance(a, XlError) and not isinstance(b, XlError):
+        return a.casefold() == b.casefold()
+    return False
+
+
+def _match_last_of_equals(library_match):
+    """MATCH with match type 1 (the default) in a sorted range: among equal values the apps' binary search
+    stops at the last one (``MATCH(2, {1,2,2,2,3}, 1)`` is 4; common practice), the library at the first."""
+    def match(lookup_value, lookup_array, match_type=1, *rest):
+        out = library_match(lookup_value, lookup_array, match_type, *rest)
+        kind = np.asarray(match_type, object).ravel()
+        if np.size(lookup_value) != 1 or kind.size != 1 or not _is_number(kind[0]) or kind[0] <= 0:
+            return out
+        found = np.asarray(out, object)
+        if found.size != 1 or not _is_number(found.ravel()[0]):
+            return out
+        values = np.asarray(lookup_array, object).ravel()
+        p = int(found.ravel()[0])
+        while p < values.size and _same_key(values[p], values[p - 1]):
+            p += 1
+        found = found.copy()
+        found.ravel()[0] = p
+        return found.view(type(out)) if isinstance(out, np.ndarray) else p
+    return match
+
+
 # ---------------------------------------------------------------- the 1904 date system
 
 #: Serial number of 1904-01-01 in the 1900 date system (ECMA-376 Part 1, 18.17.4.1; Microsoft, "Date systems in Excel").
@@ -290,6 +327,7 @@ def _corrections() -> dict:
         "MROUND": ufunc(_mround, input_parser=lambda *a: a),
         "N": wrap_func(_n),
         "TEXT": _text_checked(_TEXT["TEXT"]),
+        "MATCH": _match_last_of_equals(_LOOK["MATCH"]),
     }
     for name in ("FLOOR.MATH", "CEILING.MATH", "FLOOR.PRECISE", "CEILING.PRECISE", "ISO.CEILING"):
         table["_XLFN." + name] = table[name]
