@@ -96,7 +96,11 @@ def test_standard_functions_match_excel_model(mixed):
         theirs = ranges.value[0, 0]
         if isinstance(theirs, np.generic):
             theirs = theirs.item()
-        if isinstance(theirs, complex):
+        if ref == "T10":
+            # ROUND(1e308, 1): the library multiplies first and overflows (#VALUE!); spreadsheet apps give the
+            # number itself, as trueband's corrected ROUND does (tests/test_standard_corrections.py)
+            assert value == 1e308, (ref, value)
+        elif isinstance(theirs, complex):
             # The library gives a complex number for a negative number to a fractional power, where
             # spreadsheet apps show #NUM! (common practice: Excel and LibreOffice both do); so do we.
             assert str(value) == "#NUM!", (ref, value)
@@ -234,11 +238,13 @@ def test_formula_forms_all(forms_book, tmp_path):
     assert ours[("Scores", "D4")][0] == 31 + 27 + 35 + 24 + 29 + 33  # SUM(B:B), text and blank skipped
     assert str(ours[("Scores", "D5")][0]) == "#DIV/0!"
     assert report.cycles == [["Scores!D6", "Scores!D7"]]
-    assert str(ours[("Scores", "D6")][0]) == str(ours[("Scores", "D7")][0]) == "#VALUE!"
+    # a circular reference that no trueband result feeds keeps the values the file holds, listed (issue 14)
+    assert ours[("Scores", "D6")][0] == ours[("Scores", "D7")][0] == 0
+    assert {(k.sheet, k.cell) for k in report.kept} >= {("Scores", "D6"), ("Scores", "D7")}
     assert (ours[("Scores", "D8")][0], ours[("Scores", "D9")][0]) == (62.0, 54.0)  # {=B2:B3*2}
     assert ours[("Scores", "D10")][0] == "Group A" and ours[("Scores", "D11")][0] is True
     assert ours[("Scores", "F2")][0] == pytest.approx(8.4)  # Cut local to Scores (Settings!B1), not the global
-    assert {e.cell for e in report.errors} >= {"D5", "D6", "D7"}
+    assert {e.cell for e in report.errors} >= {"D5"}
 
 
 def test_untouched_entries_and_cells_stay_byte_identical(forms_book, tmp_path):

@@ -27,13 +27,14 @@ from formulas.functions.operators import OPERATORS
 
 from ..formulas.compile import Compiled, Node
 from ..workbook.cells import MAX_COLUMN, MAX_ROW
-from ..formulas.library import ERROR_LOG, NOT_IMPLEMENTED, function_table, message_for
+from ..formulas.library import ERROR_LOG, NOT_IMPLEMENTED, NotEvaluated, function_table, message_for
 from ..formulas.names import registered_name
-from .values import (NA_ERROR, NAME_ERROR, REF_ERROR, VALUE_ERROR, CellProblem, VectorUnsupported, final_value,
-                     unknown_function)
+from .values import (NA_ERROR, NAME_ERROR, REF_ERROR, VALUE_ERROR, CannotEvaluate, CellProblem, VectorUnsupported,
+                     error_value, filled, final_value, unknown_function)
 
 __all__ = ["CellResult", "evaluate_cell", "evaluate_array_formula", "area_value", "range_aggregate",
-           "RANGE_AGGREGATES"]
+           "RANGE_AGGREGATES", "broadcast_as_apps", "intersect", "ARRAY_ARGUMENT_FUNCTIONS", "SINGLE_VALUE_FUNCTIONS",
+           "single_value_arguments"]
 
 
 @dataclasses.dataclass
@@ -42,6 +43,9 @@ class CellResult:
 
     value: Any
     problem: CellProblem | None = None
+    #: The formula cannot be evaluated here: the cell keeps the value the file holds (``problem`` says why,
+    #: and is the error to give where there is none, or where the cell depends on a trueband result).
+    kept: bool = False
 
 
 def area_value(store, sheet, area):
@@ -97,12 +101,88 @@ def range_aggregate(name: str, args, store, sheet: str, row: int, col: int, *, f
     return out if math.isfinite(out) else None
 
 
-class _CellEval:
-    """Evaluates the tree of one cell's formula; collects the problems of the functions that fail."""
+#: Functions whose arguments spreadsheet apps evaluate as arrays even in an ordinary (not array) formula, so a
+#: range inside them is not reduced to one cell (``SUMPRODUCT((A1:A5>2)*B1:B5)``).
+ARRAY_ARGUMENT_FUNCTIONS = frozenset({
+    "SUMPRODUCT", "LOOKUP", "INDEX", "MMULT", "MDETERM", "MINVERSE", "TRANSPOSE", "FREQUENCY", "LINEST", "LOGEST",
+    "TREND", "GROWTH", "SUMX2MY2", "SUMX2PY2", "SUMXMY2", "_XLFN.AGGREGATE", "_XLFN._XLWS.FILTER", "_XLFN._XLWS.SORT",
+    "_XLFN.SORTBY", "_XLFN.UNIQUE", "_XLFN.XLOOKUP", "_XLFN.XMATCH"})
 
-    def __init__(self, store, sheet: str, row: int, col: int):
+
+#: Functions whose array result spreadsheet apps spill over the neighbouring cells (dynamic arrays).
+SPILLING_FUNCTIONS = frozenset({"_XLFN.UNIQUE", "_XLFN._XLWS.FILTER", "_XLFN._XLWS.SORT", "_XLFN.SORTBY",
+                                "_XLFN.SEQUENCE", "_XLFN.RANDARRAY"})
+
+
+#: Standard functions each of whose arguments is one value (a range there is read by implicit intersection in an
+#: ordinary formula: ``=ROUND(A:A,0)`` in row 12 rounds A12); and those where only the first one is.
+SINGLE_VALUE_FUNCTIONS = frozenset({
+    "ABS", "INT", "TRUNC", "ROUND", "ROUNDUP", "ROUNDDOWN", "MROUND", "SIGN", "SQRT", "EXP", "LN", "LOG", "LOG10",
+    "MOD", "POWER", "EVEN", "ODD", "FACT", "FLOOR", "CEILING", "FLOOR.MATH", "CEILING.MATH", "FLOOR.PRECISE",
+    "CEILING.PRECISE", "ISO.CEILING", "TEXT", "LEFT", "RIGHT", "MID", "LEN", "UPPER", "LOWER", "PROPER", "TRIM",
+    "CLEAN", "VALUE", "FIXED", "REPT", "SUBSTITUTE", "REPLACE", "FIND", "SEARCH", "EXACT", "CHAR", "CODE", "DATE",
+    "YEAR", "MONTH", "DAY", "HOUR", "MINUTE", "SECOND", "WEEKDAY", "DATEVALUE", "TIMEVALUE", "EDATE", "EOMONTH",
+    "N", "T", "ISNUMBER", "ISTEXT", "ISNONTEXT", "ISBLANK", "ISERROR", "ISERR", "ISNA", "ISLOGICAL", "ISEVEN",
+    "ISODD", "NOT"})
+FIRST_SINGLE_VALUE_FUNCTIONS = frozenset({"IF", "IFERROR", "_XLFN.IFNA"})
+
+
+def single_value_arguments(name: str, count: int) -> range:
+    """The positions of the arguments of ``name`` that take one value (see :data:`SINGLE_VALUE_FUNCTIONS`)."""
+    bare = name[6:] if name.startswith("_XLFN.") else name
+    if bare in SINGLE_VALUE_FUNCTIONS:
+        return range(count)
+    if name in FIRST_SINGLE_VALUE_FUNCTIONS:
+        return range(min(count, 1))
+    return range(0)
+
+
+def intersect(store, sheet: str, area, row: int, col: int):
+    """Implicit intersection, as spreadsheet apps read a range where one value is wanted in an ordinary formula:
+    a one-column range gives its cell in the formula's row, a one-row range its cell in the formula's column;
+    anything else (or no such cell) is ``#VALUE!``."""
+    r1, c1, r2, c2 = area
+    if r1 == r2 and c1 == c2:
+        return store.value(sheet, r1, c1)
+    if c1 == c2 and r1 <= row <= r2:
+        return store.value(sheet, row, c1)
+    if r1 == r2 and c1 <= col <= c2:
+        return store.value(sheet, r1, col)
+    return VALUE_ERROR
+
+
+class _CellEval:
+    """Evaluates the tree of one cell's formula; collects the problems of the functions that fail.
+
+    In an ordinary formula (``array`` False) a reference used where one value is wanted (an operand of an
+    operator or an argument of :data:`SINGLE_VALUE_FUNCTIONS` outside the functions of
+    :data:`ARRAY_ARGUMENT_FUNCTIONS`, or the whole formula) is read by implicit intersection
+    (:func:`intersect`); in an array formula it stays a range.
+    """
+
+    def __init__(self, store, sheet: str, row: int, col: int, *, array: bool = False):
         self.store, self.sheet, self.row, self.col = store, sheet, row, col
         self.problems: list[CellProblem] = []
+        self.array_depth = 1 if array else 0  # > 0: ranges stay ranges
+
+    def single(self, node: Node):
+        """The value of ``node`` where one value is wanted (implicit intersection of a range in an ordinary formula)."""
+        if self.array_depth or node.kind != "ref" or node.ref.name is not None:
+            return self.evaluate(node)
+        area = node.ref.area(self.row, self.col)
+        r1, c1, r2, c2 = area
+        if r1 < 1 or c1 < 1 or r2 > MAX_ROW or c2 > MAX_COLUMN:
+            return REF_ERROR
+        out = np.empty((1, 1), dtype=object)  # a one-cell range, as the library reads a cell
+        out[0, 0] = intersect(self.store, node.ref.sheet or self.sheet, area, self.row, self.col)
+        return out
+
+    def arguments_as_arrays(self, nodes) -> list:
+        self.array_depth += 1
+        try:
+            return [self.evaluate(a) for a in nodes]
+        finally:
+            self.array_depth -= 1
 
     def evaluate(self, node: Node):
         k = node.kind
@@ -117,13 +197,18 @@ class _CellEval:
             return area_value(self.store, ref.sheet or self.sheet, ref.area(self.row, self.col))
         if k == "op":
             return self.operator(node)
+        if k == "undefined":
+            raise CannotEvaluate(CellProblem("", "#NAME?", node.name))
         return self.call(node)
 
     def operator(self, node: Node):
         name = node.name
         if name in (":", ",", " "):
-            raise VectorUnsupported(f"the range operator {name!r}")
-        args = [self.evaluate(a) for a in node.args]
+            raise CannotEvaluate(CellProblem("", "#VALUE!", f"the range operator {name!r} (a 3-D reference, "
+                                                            "a union or an intersection) is not evaluated"))
+        args = [self.single(a) for a in node.args]
+        if len(args) == 2 and all(isinstance(a, np.ndarray) for a in args) and args[0].shape != args[1].shape:
+            args = broadcast_as_apps(*args)  # the library refuses to broadcast these (BroadcastError)
         return OPERATORS[name](*args)
 
     def call(self, node: Node):
@@ -138,26 +223,36 @@ class _CellEval:
             return fast
         table = function_table()
         if name not in table or table[name] is NOT_IMPLEMENTED:
-            self.problems.append(unknown_function(name))
-            return NAME_ERROR
+            raise CannotEvaluate(unknown_function(name))
         fn = table[name]
-        args = [self.evaluate(a) for a in node.args]
+        if name in ARRAY_ARGUMENT_FUNCTIONS:
+            args = self.arguments_as_arrays(node.args)
+        else:
+            single = single_value_arguments(name, len(node.args))
+            args = [self.single(a) if i in single else self.evaluate(a) for i, a in enumerate(node.args)]
         if isinstance(fn, dict):
             extra = fn.get("extra_inputs", {})
             fn = fn["function"]
             if extra:
                 if "Dsp" in map(str, extra) or "Cell" in map(str, extra):
-                    self.problems.append(CellProblem(name, "#VALUE!", f"{name} is not supported in a saved workbook"))
-                    return VALUE_ERROR
+                    raise CannotEvaluate(CellProblem(name, "#VALUE!", f"{name} is not evaluated in a saved workbook"))
                 args = [False] * len(extra) + args  # the "compiling" flag: evaluate now
         try:
             return fn(*args)
-        except Exception as exc:  # the library raises on inputs it does not handle
-            self.problems.append(CellProblem(name, "#VALUE!", f"{name}: {exc}"))
-            return VALUE_ERROR
+        except CannotEvaluate:
+            raise
+        except NotEvaluated as exc:
+            raise CannotEvaluate(CellProblem(name, "#VALUE!", str(exc))) from None
+        except Exception as exc:  # the library raises on inputs it does not handle: not evaluated
+            raise CannotEvaluate(CellProblem(name, "#VALUE!", f"{name} cannot be evaluated here "
+                                                              f"({type(exc).__name__}: {exc})")) from None
 
     def _registered(self, reg: str, node: Node):
-        args = [None if a.kind == "empty" else self.evaluate(a) for a in node.args]
+        self.array_depth += 1  # a registered function's range arguments take arrays
+        try:
+            args = [None if a.kind == "empty" else self.evaluate(a) for a in node.args]
+        finally:
+            self.array_depth -= 1
         ERROR_LOG.clear()
         try:
             out = function_table()[reg](*args)
@@ -179,13 +274,44 @@ class _CellEval:
         return float(r1 if want_row else c1)
 
 
+def broadcast_as_apps(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Two arrays of different shapes brought to a common one as spreadsheet apps do for an operator:
+    a single row or column is repeated, and positions outside the smaller array are ``#N/A``."""
+    a, b = np.atleast_2d(a), np.atleast_2d(b)
+    rows, cols = max(a.shape[0], b.shape[0]), max(a.shape[1], b.shape[1])
+
+    def spread(x: np.ndarray) -> np.ndarray:
+        if x.shape[0] == 1:
+            x = np.repeat(x, rows, axis=0)
+        if x.shape[1] == 1:
+            x = np.repeat(x, cols, axis=1)
+        out = filled((rows, cols), NA_ERROR)
+        out[:x.shape[0], :x.shape[1]] = x
+        return out
+
+    return spread(a), spread(b)
+
+
+def _unexpected(exc: Exception) -> CellProblem:
+    return CellProblem("", "#VALUE!", f"the formula cannot be evaluated ({type(exc).__name__}: {exc})")
+
+
 def evaluate_cell(compiled: Compiled, store, sheet: str, row: int, col: int) -> CellResult:
-    """Evaluate one formula cell with the library's functions (the reference path)."""
+    """Evaluate one formula cell with the library's functions (the reference path).
+
+    Total: whatever a formula holds, the answer is a value, an error value with its problem, or a
+    ``kept`` result (the formula cannot be evaluated here; :class:`CannotEvaluate`).
+    """
     evaluator = _CellEval(store, sheet, row, col)
     try:
-        value = final_value(evaluator.evaluate(compiled.tree))
+        value = final_value(evaluator.single(compiled.tree))
+    except CannotEvaluate as exc:
+        return CellResult(error_value(exc.problem.code), exc.problem, kept=True)
     except VectorUnsupported as exc:
-        return CellResult(VALUE_ERROR, CellProblem("", "#VALUE!", f"not supported: {exc}"))
+        problem = CellProblem("", "#VALUE!", f"not evaluated: {exc}")
+        return CellResult(VALUE_ERROR, problem, kept=True)
+    except Exception as exc:  # one cell never stops a workbook: a library fault is this cell's error
+        return CellResult(VALUE_ERROR, _unexpected(exc))
     problem = None
     if isinstance(value, XlError):
         code = str(value)
@@ -193,27 +319,30 @@ def evaluate_cell(compiled: Compiled, store, sheet: str, row: int, col: int) -> 
     return CellResult(value, problem)
 
 
-def _filled(shape: tuple[int, int], error) -> np.ndarray:
-    """An object array of one error value (``np.full`` would turn the error, a ``str`` subclass, into text)."""
-    out = np.empty(shape, dtype=object)
-    out.fill(error)
-    return out
-
-
 def evaluate_array_formula(compiled: Compiled, store, sheet: str, row: int, col: int,
                            shape: tuple[int, int]) -> tuple[np.ndarray, CellProblem | None]:
-    """Evaluate an array formula once; its result spread over ``shape`` (rows, columns), #N/A beyond it."""
-    evaluator = _CellEval(store, sheet, row, col)
+    """Evaluate an array formula once; its result spread over ``shape`` (rows, columns), #N/A beyond it.
+
+    Raises :class:`CannotEvaluate` for a formula the engine cannot evaluate (the caller keeps the stored
+    values); any other failure is the cells' ``#VALUE!``."""
+    evaluator = _CellEval(store, sheet, row, col, array=True)
     try:
         raw = evaluator.evaluate(compiled.tree)
+    except CannotEvaluate:
+        raise  # the caller keeps the array's stored values
     except VectorUnsupported as exc:
-        return _filled(shape, VALUE_ERROR), CellProblem("", "#VALUE!", f"not supported: {exc}")
+        raise CannotEvaluate(CellProblem("", "#VALUE!", f"not evaluated: {exc}")) from None
+    except Exception as exc:  # one cell never stops a workbook
+        return filled(shape, VALUE_ERROR), _unexpected(exc)
     arr = np.asarray(raw, dtype=object)
     if arr.ndim == 0:
         arr = arr.reshape(1, 1)
     elif arr.ndim == 1:
         arr = arr.reshape(1, -1)
-    out = _filled(shape, NA_ERROR)
+    if shape == (1, 1) and arr.size > 1 and compiled.functions & SPILLING_FUNCTIONS:
+        # the app spills this result over the cells below and beside (or shows #SPILL! where they are taken)
+        raise CannotEvaluate(CellProblem("", "#VALUE!", "a dynamic array that spills beyond its cell"))
+    out = filled(shape, NA_ERROR)
     rr, cc = arr.shape
     # a single row or column is repeated across the other direction, as spreadsheet apps do
     if rr == 1 and shape[0] > 1:

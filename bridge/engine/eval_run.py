@@ -45,9 +45,10 @@ from ..formulas.compile import Node
 from ..formulas.library import (ERROR_LOG, NOT_IMPLEMENTED, PassError, function_table, message_for, range_argument,
                                 scalar_argument)
 from ..formulas.names import registered_name
-from .eval_cell import area_value, range_aggregate
+from .eval_cell import area_value, range_aggregate, single_value_arguments
 from .graph import Run
-from .values import NAME_ERROR, VALUE_ERROR, CellProblem, VectorUnsupported, final_array, final_value, unknown_function
+from .values import (NAME_ERROR, VALUE_ERROR, CannotEvaluate, CellProblem, VectorUnsupported, final_array, final_value,
+                     unknown_function)
 from ..workbook.cells import MAX_COLUMN, MAX_ROW
 
 __all__ = ["RunResult", "evaluate_run"]
@@ -196,6 +197,8 @@ class _RunEval:
             try:
                 r = fn(*a)
             except Exception as exc:  # the library raises on inputs it does not handle
+                if not registered:  # the reference path decides such a cell (its value kept, or an error)
+                    raise VectorUnsupported(f"{label} raised {type(exc).__name__}") from None
                 self.problems.setdefault(i, CellProblem(label, "#VALUE!", f"{label}: {exc}"))
                 r = VALUE_ERROR
             if isinstance(r, np.ndarray):
@@ -240,6 +243,8 @@ class _RunEval:
             return self.ref(node)
         if k == "op":
             return self.operator(node)
+        if k == "undefined":
+            raise CannotEvaluate(CellProblem("", "#NAME?", node.name))
         return self.call(node)
 
     def ref(self, node: Node):
@@ -271,6 +276,8 @@ class _RunEval:
         if name in (":", ",", " "):
             raise VectorUnsupported(f"the range operator {name!r}")
         args = [self.evaluate(a) for a in node.args]
+        if any(isinstance(a, RowRange) or (isinstance(a, Fixed) and np.size(a.a) != 1) for a in args):
+            raise VectorUnsupported("a range as an operand (read by implicit intersection, or as an array)")
         if not any(isinstance(a, (Col, RowRange)) for a in args):
             return _constant(OPERATORS[name](*[a.a if isinstance(a, Fixed) else a for a in args]))
         fn = OPERATORS[name]
@@ -306,13 +313,14 @@ class _RunEval:
             return fast
         table = function_table()
         if name not in table or table[name] is NOT_IMPLEMENTED:
-            problem = unknown_function(name)
-            for i in range(self.n):
-                self.problems[i] = problem
-            return NAME_ERROR
-        if name == "IF":
-            return self.if_function(node)
+            raise CannotEvaluate(unknown_function(name))
+        single = single_value_arguments(name, len(node.args))
         args = [self.evaluate(a) for a in node.args]
+        if any(isinstance(args[i], RowRange) or (isinstance(args[i], Fixed) and np.size(args[i].a) != 1)
+               for i in single):
+            raise VectorUnsupported(f"a range as a one-value argument of {name} (read by implicit intersection)")
+        if name == "IF":
+            return self.if_function(node, args)
         if name in _AGGREGATES:
             fast = self.aggregate(name, args)
             if fast is not None:
@@ -355,9 +363,8 @@ class _RunEval:
             return Col(_tidy(res))
         return Col(res)
 
-    def if_function(self, node: Node):
+    def if_function(self, node: Node, args: list):
         fn = function_table()["IF"]["function"]
-        args = [self.evaluate(a) for a in node.args]
         cond = args[0] if args else 0
         if not isinstance(cond, (Col, RowRange)) and not any(isinstance(a, (Col, RowRange)) for a in args):
             return _constant(fn(*[a.a if isinstance(a, Fixed) else a for a in args]))
@@ -498,6 +505,8 @@ def _tidy(a: np.ndarray) -> np.ndarray:
 def evaluate_run(run: Run, store) -> RunResult:
     """Evaluate every cell of a run as arrays (raises :class:`VectorUnsupported` when it cannot)."""
     evaluator = _RunEval(run, store)
+    if run.compiled.tree.kind == "ref" and not run.compiled.tree.ref.is_cell:
+        raise VectorUnsupported("a formula that is a range (read by implicit intersection)")
     res = evaluator.evaluate(run.compiled.tree)
     if isinstance(res, Col):
         values = final_array(res.a)

@@ -23,7 +23,6 @@ from ..workbook.package import UnusableWorkbook, WorkbookPackage
 from ..workbook.cells import column_letters, split_ref
 from .graph import FormulaGraph, Run
 from .store import CellStore
-from .values import error_value
 
 __all__ = ["WorkbookModel", "load_model"]
 
@@ -41,6 +40,8 @@ class WorkbookModel:
     used: dict[str, tuple[int, int, int, int] | None]
     shared_groups: dict[str, set[int]]  # per sheet, the shared formulas that call registered functions
     formula_count: int = 0
+    #: The formula text of each unreadable cell (the key of :attr:`unreadable`).
+    unreadable_texts: dict[tuple[str, int, int], str] = dataclasses.field(default_factory=dict)
 
 
 # A run while reading: [column, first row, last row, key, formula text, (row, col) of the text,
@@ -245,7 +246,9 @@ def _substitute_names(c: Compiled, sheet: str, names: dict, depth: int = 0) -> C
             found = names.get((node.ref.name, (node.ref.sheet or sheet).casefold())) or \
                 names.get((node.ref.name, None))
             if found is None or isinstance(found, str):
-                return Node("lit", value=error_value("#NAME?"))
+                # evaluated as the spreadsheet's #NAME? only where the file holds no value (see eval_cell)
+                why = "is not defined in the workbook" if found is None else "cannot be read"
+                return Node("undefined", name=f"the name {node.ref.name} {why}")
             inner = _substitute_names(found, sheet, names, depth + 1)
             refs.extend(inner.refs)
             return inner.tree
@@ -265,6 +268,7 @@ def load_model(package: WorkbookPackage, progress: Callable[[str, float], None] 
     runs: list[Run] = []
     missing: set[int] = set()
     unreadable: dict[tuple[str, int, int], str] = {}
+    unreadable_texts: dict[tuple[str, int, int], str] = {}
     names = _name_compiler(package)
     compiled_cache: dict[tuple[str, str], Compiled | str] = {}
     used: dict[str, tuple | None] = {}
@@ -301,6 +305,7 @@ def load_model(package: WorkbookPackage, progress: Callable[[str, float], None] 
             if isinstance(comp, str):
                 for row in range(r[_FIRST], r[_LAST] + 1):
                     unreadable[(info.name, row, r[_COL])] = comp
+                    unreadable_texts[(info.name, row, r[_COL])] = r[_TEXT]
                 continue
             if store.has_blank(info.name, r[_COL], r[_FIRST], r[_LAST]):  # a formula without a cached value
                 missing.add(len(runs))
@@ -308,4 +313,5 @@ def load_model(package: WorkbookPackage, progress: Callable[[str, float], None] 
         if progress:
             progress("reading", (k + 1) / len(sheets))
     graph = FormulaGraph(runs)
-    return WorkbookModel(package, store, runs, graph, missing, unreadable, used, shared_groups, total)
+    return WorkbookModel(package, store, runs, graph, missing, unreadable, used, shared_groups, total,
+                         unreadable_texts)

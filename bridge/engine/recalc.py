@@ -23,6 +23,14 @@ What is evaluated
 Other formulas keep their cached values, which the evaluated ones read.
 Cells on a circular reference are not iterated: they get ``#VALUE!`` and
 are listed in :attr:`RecalcReport.cycles`.
+
+A formula the engine cannot evaluate (a function it lacks, a structured or
+3-D reference, a format code its TEXT does not know, a formula it cannot
+read; :class:`~.values.CannotEvaluate`) keeps the value the file holds and is
+listed in :attr:`RecalcReport.kept`, as is a circular reference that no
+trueband result feeds; only where there is no stored value, or the cell
+depends on a trueband result, does it get an error value and a line.
+Nothing that one cell holds stops the workbook.
 """
 
 from __future__ import annotations
@@ -33,10 +41,12 @@ import time
 from pathlib import Path
 from typing import Callable
 
+import numpy as np
 from formulas.functions import XlError
 
 from ..formulas.compile import Compiled
-from ..formulas.names import registered_name
+from ..formulas.names import registered_name, uses_registered_function
+from ..formulas.standard import date_system
 from ..workbook import shared_formulas, sheet_data, sheet_edit, sheet_patch
 from ..workbook.package import UnusableWorkbook, open_workbook_package
 from ..workbook.cells import column_letters, split_ref
@@ -45,9 +55,10 @@ from .eval_cell import evaluate_array_formula, evaluate_cell
 from .eval_run import evaluate_run
 from .graph import Run
 from .model import WorkbookModel, load_model
-from .values import CellProblem, VectorUnsupported, as_values, cell_value_for_xml, error_value
+from .values import (EMPTY, CannotEvaluate, CellProblem, VectorUnsupported, as_values, cell_value_for_xml, error_value,
+                     filled)
 
-__all__ = ["recalculate", "RecalcReport", "CellError", "Evaluation", "evaluate_model", "UnusableWorkbook"]
+__all__ = ["recalculate", "RecalcReport", "CellError", "KeptCell", "Evaluation", "evaluate_model", "UnusableWorkbook"]
 
 
 @dataclasses.dataclass(frozen=True)
@@ -62,6 +73,24 @@ class CellError:
 
     def __iter__(self):  # unpacks as (sheet, cell, function, code, message)
         return iter((self.sheet, self.cell, self.function, self.code, self.message))
+
+
+@dataclasses.dataclass(frozen=True)
+class KeptCell:
+    """A formula cell that kept the value the file holds: the engine cannot evaluate it (``reason``)."""
+
+    sheet: str
+    cell: str
+    reason: str
+
+
+def kept_line(kept: list[KeptCell], most: int = 20) -> str:
+    """One line naming the cells that kept their stored values (the first ``most`` of them)."""
+    cells = ", ".join(f"{k.sheet}!{k.cell}" for k in kept[:most])
+    more = f" and {len(kept) - most} more" if len(kept) > most else ""
+    reasons = sorted({k.reason for k in kept})
+    why = f" ({reasons[0]})" if len(reasons) == 1 else f" ({reasons[0]}; …)"
+    return f"kept {len(kept)} stored values it cannot evaluate: cells {cells}{more}{why}"
 
 
 @dataclasses.dataclass
@@ -81,6 +110,8 @@ class RecalcReport:
     vectorised: int = 0
     errors: list[CellError] = dataclasses.field(default_factory=list)
     cycles: list[list[str]] = dataclasses.field(default_factory=list)
+    #: Formula cells that kept the value the file holds (the engine cannot evaluate them).
+    kept: list[KeptCell] = dataclasses.field(default_factory=list)
     seconds: float = 0.0
     values_mode: bool = False
     #: With ``values_mode``: sheets where no safe cell for the values notice was found.
@@ -96,7 +127,8 @@ class RecalcReport:
                    if self.notices_missing else "")
         return (f"{self.evaluated} of {self.formulas} formula cells evaluated, {len(self.errors)} errors"
                 + (f", {len(self.cycles)} circular references" if self.cycles else "")
-                + f", {self.seconds:.2f} s{where}{missing}")
+                + f", {self.seconds:.2f} s{where}{missing}"
+                + (f"\n{kept_line(self.kept)}" if self.kept else ""))
 
 
 # ---------------------------------------------------------------- evaluating
@@ -146,6 +178,7 @@ class Evaluation:
     updates: dict[str, dict[bytes, object]] = dataclasses.field(default_factory=dict)
     errors: list[CellError] = dataclasses.field(default_factory=list)
     cycles: list[list[str]] = dataclasses.field(default_factory=list)
+    kept: list[KeptCell] = dataclasses.field(default_factory=list)
     evaluated: int = 0
     vectorised: int = 0
 
@@ -154,9 +187,18 @@ class _Evaluator:
     """Evaluates runs and cells of a model into an :class:`Evaluation`, writing each value into the store
     for the formulas that read it."""
 
-    def __init__(self, model: WorkbookModel):
+    def __init__(self, model: WorkbookModel, fed_by_trueband: set[int] = frozenset()):
         self.model, self.store = model, model.store
         self.result = Evaluation()
+        self.fed_by_trueband = fed_by_trueband  # runs that use a registered function or read one that does
+
+    def keep(self, run: Run, row: int, col: int, problem: CellProblem) -> bool:
+        """Keep the stored value of a cell the engine cannot evaluate (listed); False where it must be an error
+        instead (no stored value, or a trueband result feeds it)."""
+        if run.index in self.fed_by_trueband or self.store.value(run.sheet, row, col) is EMPTY:
+            return False
+        self.result.kept.append(KeptCell(run.sheet, f"{column_letters(col)}{row}", problem.message))
+        return True
 
     def record(self, run: Run, row: int, col: int, value, problem: CellProblem | None):
         result = self.result
@@ -172,14 +214,25 @@ class _Evaluator:
 
     def one_cell(self, run: Run, row: int):
         res = evaluate_cell(run.compiled, self.store, run.sheet, row, run.col)
+        if res.kept and self.keep(run, row, run.col, res.problem):
+            return
         self.store.write(run.sheet, run.col, row, as_values([res.value]))
         self.record(run, row, run.col, res.value, res.problem)
 
     def array_formula(self, run: Run):
         r1, c1 = split_ref(run.array_ref.split(":")[0])
         r2, c2 = split_ref(run.array_ref.split(":")[-1])
-        values, problem = evaluate_array_formula(run.compiled, self.store, run.sheet, run.first, run.col,
-                                                 (r2 - r1 + 1, c2 - c1 + 1))
+        try:
+            values, problem = evaluate_array_formula(run.compiled, self.store, run.sheet, run.first, run.col,
+                                                     (r2 - r1 + 1, c2 - c1 + 1))
+        except CannotEvaluate as exc:
+            cells = [(r, c) for c in range(c1, c2 + 1) for r in range(r1, r2 + 1)]
+            if all(self.keep(run, r, c, exc.problem) for r, c in cells[:1]):
+                for r, c in cells[1:]:
+                    self.keep(run, r, c, exc.problem)
+                return
+            values = filled((r2 - r1 + 1, c2 - c1 + 1), error_value(exc.problem.code))
+            problem = exc.problem
         for j in range(values.shape[1]):
             self.store.write(run.sheet, c1 + j, r1, as_values(list(values[:, j])))
             for i in range(values.shape[0]):
@@ -192,7 +245,7 @@ class _Evaluator:
             return
         try:
             found = evaluate_run(run, self.store) if run.size > 1 else None
-        except VectorUnsupported:
+        except Exception:  # VectorUnsupported, CannotEvaluate, a library fault: the reference path, cell by cell
             found = None
         if found is None:
             for row in range(run.first, run.last + 1):
@@ -223,6 +276,8 @@ class _Evaluator:
             self.result.cycles.append(addresses)
             problem = CellProblem("", "#VALUE!", "circular reference: " + " → ".join(addresses + addresses[:1]))
             for r, row in cycle:
+                if self.keep(r, row, r.col, problem):
+                    continue  # no trueband result feeds it: the value the app stored stays
                 self.store.write(r.sheet, r.col, row, as_values([error_value("#VALUE!")]))
                 self.record(r, row, r.col, error_value("#VALUE!"), problem)
         for run, row in order:
@@ -235,7 +290,12 @@ class _Evaluator:
     def unreadable(self):
         """The cells whose formula cannot be read: ``#NAME?``, with the parser's message."""
         result = self.result
+        texts = self.model.unreadable_texts
         for (sheet, row, col), message in self.model.unreadable.items():
+            if not uses_registered_function(texts.get((sheet, row, col), "")) and \
+                    self.store.value(sheet, row, col) is not EMPTY:
+                result.kept.append(KeptCell(sheet, f"{column_letters(col)}{row}", message))
+                continue
             result.updates.setdefault(sheet, {})[b"%s%d" % (column_letters(col).encode("ascii"), row)] = \
                 sheet_data.ErrorValue("#NAME?")
             result.errors.append(CellError(sheet, f"{column_letters(col)}{row}", "", "#NAME?", message))
@@ -251,17 +311,19 @@ def evaluate_model(model: WorkbookModel, *, all_formulas: bool = False,
         if all_formulas or _uses_registered(run.compiled):
             seeds.add(run.index)
     needed = graph.dependents(seeds)
-    evaluator = _Evaluator(model)
+    fed = graph.dependents(i for i, run in enumerate(model.runs) if _uses_registered(run.compiled))
+    evaluator = _Evaluator(model, fed)
     total = sum(model.runs[i].size for i in needed) or 1
     done = 0
-    for comp in graph.components(needed):
-        if graph.is_vector_group(comp):
-            evaluator.whole_run(model.runs[comp[0]])
-        else:
-            evaluator.cell_group(comp)
-        done += sum(model.runs[i].size for i in comp)
-        if progress:
-            progress("evaluating", done / total)
+    with date_system(getattr(model.package, "date1904", False)):  # dates count from 1904 in such a book
+        for comp in graph.components(needed):
+            if graph.is_vector_group(comp):
+                evaluator.whole_run(model.runs[comp[0]])
+            else:
+                evaluator.cell_group(comp)
+            done += sum(model.runs[i].size for i in comp)
+            if progress:
+                progress("evaluating", done / total)
     evaluator.unreadable()
     return evaluator.result
 
@@ -356,7 +418,7 @@ def recalculate(src, dst=None, *, in_place: bool = False, backup: bool = False, 
             gc.enable()
     return RecalcReport(source=src, output=out, formulas=model.formula_count, evaluated=evaluation.evaluated,
                         vectorised=evaluation.vectorised, errors=evaluation.errors, cycles=evaluation.cycles,
-                        seconds=time.perf_counter() - started, values_mode=values, notices_missing=missing)
+                        kept=evaluation.kept, seconds=time.perf_counter() - started, values_mode=values, notices_missing=missing)
 
 
 def _patch(model: WorkbookModel, evaluation: Evaluation, *, values: bool):

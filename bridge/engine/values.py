@@ -20,8 +20,9 @@ from formulas.functions import Error, XlError
 from ..formulas.text import did_you_mean
 from ..workbook import sheet_data
 
-__all__ = ["EMPTY", "NUM_ERROR", "VALUE_ERROR", "REF_ERROR", "NAME_ERROR", "NA_ERROR", "error_value", "CellProblem",
-           "unknown_function", "VectorUnsupported", "final_value", "final_array", "as_values", "cell_value_for_xml"]
+__all__ = ["EMPTY", "NUM_ERROR", "VALUE_ERROR", "REF_ERROR", "NAME_ERROR", "NA_ERROR", "error_value", "filled",
+           "CellProblem", "unknown_function", "VectorUnsupported", "CannotEvaluate", "final_value", "final_array",
+           "as_values", "cell_value_for_xml"]
 
 EMPTY = sh.EMPTY
 _ERRORS = Error.errors
@@ -30,6 +31,13 @@ VALUE_ERROR = _ERRORS["#VALUE!"]
 REF_ERROR = _ERRORS["#REF!"]
 NAME_ERROR = _ERRORS["#NAME?"]
 NA_ERROR = _ERRORS["#N/A"]
+
+
+def filled(shape, value) -> np.ndarray:
+    """An object array of ``value`` everywhere (``np.full`` would turn an error value, a ``str``, into plain text)."""
+    out = np.empty(shape, dtype=object)
+    out.fill(value)
+    return out
 
 
 def error_value(code: str) -> XlError:
@@ -54,6 +62,16 @@ def unknown_function(name: str) -> CellProblem:
 
 class VectorUnsupported(Exception):
     """The run cannot be evaluated as arrays (the caller evaluates its cells one by one)."""
+
+
+class CannotEvaluate(Exception):
+    """A formula the engine cannot evaluate: a function it lacks, a form of reference it does not read, a
+    format code its TEXT does not know. The cell keeps the value the file holds (and is listed); where it has
+    none, or depends on a trueband result, it gets ``problem``'s error value and message instead."""
+
+    def __init__(self, problem: CellProblem):
+        super().__init__(problem.message)
+        self.problem = problem
 
 
 def final_value(x):

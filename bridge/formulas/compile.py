@@ -175,8 +175,11 @@ class Ref:
 def _ref_from_token(token: Range, raw: str, row: int, col: int) -> Ref:
     attr = token.attr
     if attr.get("is_reference") and "r1" not in attr:
-        return Ref(name=attr["name"].upper() if "!" not in attr["name"] else attr["name"].split("!")[-1].upper(),
-                   sheet=attr.get("sheet"))
+        name = attr["name"].rpartition("!")[2]
+        # a sheet-local name read from another sheet (``Defines!NR_To_A1``) keeps its sheet (the parser drops it)
+        sheet = raw.strip().rpartition("!")[0]
+        sheet = attr.get("sheet") or (sheet.strip("'").replace("''", "'") if sheet else None)
+        return Ref(name=name.upper(), sheet=sheet)
     body = raw.split("!")[-1].strip()
     parts = body.split(":")
     a = _PART.fullmatch(parts[0].strip())
@@ -205,6 +208,8 @@ class Node:
     ``kind`` is ``"lit"`` (``value``), ``"ref"`` (``ref``), ``"empty"`` (a
     missing argument), ``"op"`` (an operator ``name``) or ``"fn"`` (a function
     ``name``, upper case as written, prefixes kept); ``args`` the operands.
+    The engine puts ``"undefined"`` (``name`` says why) where a defined name
+    has no definition it can read.
     """
 
     kind: str

@@ -35,9 +35,10 @@ from trueband.funcs.errors import ArgumentTypeError, TruebandError
 from trueband.funcs.registry import REGISTRY, SpreadsheetFunction
 
 from .names import NAME_PREFIXES, library_module_functions, library_modules
+from .standard import STANDARD_CORRECTIONS, NotEvaluated
 
 __all__ = ["install", "function_table", "FunctionTable", "ERROR_LOG", "to_engine_error", "message_for",
-           "range_argument", "scalar_argument", "PassError", "NOT_IMPLEMENTED"]
+           "range_argument", "scalar_argument", "PassError", "NOT_IMPLEMENTED", "NotEvaluated", "STANDARD_CORRECTIONS"]
 
 # The engine logs every failing function with a traceback; errors are values here.
 logging.getLogger("schedula").setLevel(logging.CRITICAL)
@@ -62,6 +63,7 @@ class FunctionTable:
 
         self._table: dict = dict(base)
         install(self._table)
+        self._table.update(STANDARD_CORRECTIONS)
         self._pending = library_modules()
 
     def _find(self, name: str):
@@ -234,7 +236,9 @@ def message_for(name: str, exc: TruebandError) -> str:
 def install(table: dict | None = None) -> dict:
     """Add every registered function (and its prefixed aliases) to ``table``: by default the engine's own
     table (which imports the whole standard library), as formulas compiled by the engine itself need."""
-    table = formulas.get_functions() if table is None else table
+    if table is None:
+        table = formulas.get_functions()
+        table.update(STANDARD_CORRECTIONS)
     for name, spec in REGISTRY.items():
         fn = adapter(spec)
         for key in (name, *spec.aliases):

@@ -5,6 +5,9 @@
   ``TRUE`` (its lookahead forgets ``_``), so ``TRUE_SCORE(…)`` and
   ``FALSE_…(…)`` could not be read at all. It also keeps the text still
   unread when it fails, so :func:`syntax_reason` can say where reading stopped.
+  A line break inside a string literal is kept (``LEN("a⏎b")`` is 3, as in
+  spreadsheet apps); the library drops every line break of a formula, which
+  is right only outside literals.
 * :func:`typed_formula` accepts a formula typed by a person (``trueband eval``,
   ``trueband fill``): spreadsheet apps in many settings show ``;`` between
   arguments, files always store ``,``.
@@ -21,7 +24,7 @@ import difflib
 import formulas
 import regex
 from formulas.errors import ParenthesesError
-from formulas.tokens.operand import Number
+from formulas.tokens.operand import Number, String
 
 from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import REGISTRY
@@ -38,6 +41,22 @@ class _Number(Number):
 
 
 
+#: Stands for a line break inside a string literal while the library reads the formula (it drops line breaks).
+_LINE_BREAK = "\ue000"
+_LITERAL = regex.compile(r'"(?:[^"]|"")*"')
+
+
+def _keep_line_breaks(text: str) -> str:
+    if "\n" not in text:
+        return text
+    return _LITERAL.sub(lambda m: m.group(0).replace("\n", _LINE_BREAK), text)
+
+
+class _String(String):
+    def compile(self):
+        return super().compile().replace(_LINE_BREAK, "\n")
+
+
 def _tracking(token_class):
     """A filter that notes, on the parser, the text still to read before it tries its token."""
     def read(text, context, parser):
@@ -47,8 +66,11 @@ def _tracking(token_class):
 
 
 class _Parser(formulas.Parser):
-    filters = [_tracking(_Number if f is Number else f) for f in formulas.Parser.filters]
+    filters = [_tracking({Number: _Number, String: _String}.get(f, f)) for f in formulas.Parser.filters]
     rest: str | None = None
+
+    def ast(self, expression, context=None):
+        return super().ast(_keep_line_breaks(expression), context)
 
 
 def parser() -> formulas.Parser:

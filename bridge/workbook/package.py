@@ -237,6 +237,8 @@ class WorkbookPackage:
     is_macro_enabled : bool
         True for an .xlsm (a ``vbaProject.bin`` part or the macro content type).
     shared_strings_part : str or None
+    date1904 : bool
+        The workbook's dates count from 1904 (``<workbookPr date1904="1"/>``).
 
     The zip file stays open until :meth:`close` (or the end of a ``with`` block).
     """
@@ -403,6 +405,10 @@ class WorkbookPackage:
                 sheet = self.sheets[int(local)].name
             self.defined_names.append(DefinedName(name=el.get("name", ""), text=(el.text or "").strip(),
                                                   sheet=sheet, hidden=el.get("hidden") in ("1", "true")))
+
+        workbook_pr = root.find(qualified("workbookPr"))
+        #: The workbook counts dates from 1904-01-01 (``workbookPr date1904``, Mac-made books) instead of 1900.
+        self.date1904 = workbook_pr is not None and workbook_pr.get("date1904", "").strip().lower() in ("1", "true")
 
         calc = root.find(qualified("calcPr"))
         self.calc_properties: dict[str, str] = {} if calc is None else dict(calc.attrib)
