@@ -104,8 +104,9 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
     for j, name in enumerate(order):
         g.set(names_row, c_pass + j, name)
         impact_row = t.first + t.names.index(name)
+        # fixed ($B$17): every cut's row divides by the same applicants, so a row's formulas have one shape
         apps[name] = ctx.link(g, app_row, c_pass + j, cell(IMPACT_SHEET, impact_row, 2, value=applicants[name]),
-                              style="count")
+                              style="count").fixed()
         g.set(head, c_pass + j, f"Passing: {name}", "header")
         g.set(head, c_rate + j, f"Pass rate: {name}", "header")
     for j, name in enumerate(focal):
