@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import argparse
 import sys
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -9,6 +10,7 @@ from typing import TYPE_CHECKING
 
 from .common import EXIT_CELL_ERRORS, EXIT_OK, CommandError
 from ..study.demo_folder import DEMO_FILES, DemoFolderError, write_demo  # noqa: F401  (DEMO_FILES: tests)
+from ..study.setup_predictors import CLEAR, is_clear
 from ..study.words import CAUTION, NOT_COMPUTABLE
 
 if TYPE_CHECKING:
@@ -29,7 +31,10 @@ def register(sub) -> None:
         description="Build a new workbook with a copy of the data and analysis sheets (reliability, items, raters, "
                     "validity, bands, adverse impact, utility) whose every number is a live formula, recalculated. "
                     "Column roles come from the data workbook's Setup sheet; the options below override it. "
-                    + CAUTION)
+                    "Give the word none to clear a setting of the Setup sheet (--retest none: no retest column). "
+                    "The options set the first predictor's settings; a further predictor (a questionnaire, an "
+                    "interview total...) is a 'predictor | NAME' block on the Setup sheet, whose settings belong to "
+                    "it alone. " + CAUTION)
     p.add_argument("data", help="the data workbook (.xlsx)")
     p.add_argument("-o", "--output", help="the study workbook to write (default: DATA-study.xlsx beside it)")
     p.add_argument("--overwrite", action="store_true", help="replace the output if it exists")
@@ -39,17 +44,17 @@ def register(sub) -> None:
     p.add_argument("--items", help="item columns: FIRST:LAST or a comma-separated list of headers")
     p.add_argument("--reverse", help="reverse-keyed items (scored minimum + maximum - response): FIRST:LAST or a "
                                      "comma-separated list of headers; needs --item-min and --item-max")
-    p.add_argument("--item-min", type=float, help="lowest response an item allows (e.g. 1)")
-    p.add_argument("--item-max", type=float, help="highest response an item allows (e.g. 5)")
+    p.add_argument("--item-min", type=_number_or_none, help="lowest response an item allows (e.g. 1)")
+    p.add_argument("--item-max", type=_number_or_none, help="highest response an item allows (e.g. 5)")
     p.add_argument("--total", help="header of a total-score column")
     p.add_argument("--ratings", help="rating columns: FIRST:LAST or a list")
     p.add_argument("--criterion", help="header of the job-performance column")
     p.add_argument("--retest", help="header of the retest-score column")
     p.add_argument("--hired", help="header of the hired (yes/no) column")
-    p.add_argument("--cut", type=float, help="cut score for adverse impact and utility")
-    p.add_argument("--confidence", type=float, help="confidence level (default 0.95)")
-    p.add_argument("--criterion-reliability", type=float, help="criterion reliability (default 0.52)")
-    p.add_argument("--success", type=float, help="criterion value that counts as success (default: median)")
+    p.add_argument("--cut", type=_number_or_none, help="cut score for adverse impact and utility")
+    p.add_argument("--confidence", type=_number_or_none, help="confidence level (default 0.95)")
+    p.add_argument("--criterion-reliability", type=_number_or_none, help="criterion reliability (default 0.52)")
+    p.add_argument("--success", type=_number_or_none, help="criterion value that counts as success (default: median)")
     p.add_argument("--reference-group", help="the group others are compared with")
     p.add_argument("--test-name", help="name of the test, for titles")
     p.set_defaults(handler=run_study)
@@ -63,11 +68,24 @@ def register(sub) -> None:
     p.set_defaults(handler=run_demo)
 
 
+def _number_or_none(text: str):
+    """A number option's value: a number, or the word none (clears the Setup sheet's setting)."""
+    if is_clear(text):
+        return CLEAR
+    try:
+        return float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number or {CLEAR}, got {text!r}") from None
+
+
 def _overrides(args) -> dict:
     out = {}
     for opt, field in _OPTIONS.items():
         value = getattr(args, opt, None)
         if value is None:
+            continue
+        if is_clear(value):
+            out[field] = CLEAR
             continue
         if field in ("items", "ratings", "reverse"):
             value = tuple(p.strip() for p in value.split(",") if p.strip())

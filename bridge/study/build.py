@@ -76,7 +76,14 @@ def plan(ctx: StudyContext) -> tuple[SetupSheet, Bands]:
     validity = sheets.validity.write(ctx, setup, rel, layout)
     impact = sheets.impact.write(ctx, setup, rel, layout)
     utility = sheets.utility.write(ctx, setup, layout, validity)
-    sheets.summary.write(ctx, setup, rel, raters, validity, impact, utility)
+    ctx.predictors = [sheets.predictors.first(ctx, setup, rel, bands, validity),
+                      *sheets.predictors.write(ctx, setup, _full_checks)]
+    for predictor in ctx.predictors:  # each predictor's Fairness and DIF sheets, under its sheet titles
+        with predictor.sheets(ctx, _full_checks(predictor.data)) as pctx:
+            sheets.fairness.write(pctx, predictor)
+            sheets.dif.write(pctx, predictor)
+    combined = sheets.combined.write(ctx, ctx.predictors)
+    sheets.summary.write(ctx, setup, rel, raters, validity, impact, utility, combined)
     sheets.notes.write(ctx)
     return setup, bands
 

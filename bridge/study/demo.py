@@ -5,7 +5,8 @@ coordinators**. Each applicant took a 40-item *Dispatch Knowledge Test*
 (items scored 0/1) and a structured interview rated 1 to 5 by three raters;
 the people hired earlier under the old process have a supervisor performance
 rating; a few applicants sat the test twice; applicants belong to two groups
-named neutrally ("Group A", "Group B") for the adverse-impact analysis.
+named neutrally ("Group A", "Group B") for the adverse-impact analysis. They also answered a 12-statement
+*Work Style Questionnaire* (a second predictor, :mod:`.demo_predictors`).
 
 Everything is generated from a fixed seed with :func:`numpy.random.default_rng`,
 so the demo is the same on every machine. The structure is chosen to look like
@@ -32,6 +33,8 @@ import dataclasses
 
 import numpy as np
 
+from .demo_predictors import QUESTIONNAIRE_ITEMS, make_questionnaire
+
 __all__ = ["DemoData", "make_demo", "DEMO_SEED", "ORGANISATION", "ROLE", "TEST_NAME"]
 
 DEMO_SEED = 20261201
@@ -51,6 +54,7 @@ class DemoData:
     performance: list[float | None]   # blank (None) for people not hired or not yet rated
     retest: list[float | None]  # blank for people who sat the test once
     hired: list[str]            # "yes" / "no"
+    questionnaire: np.ndarray | None = None   # applicants x 12, 1..5: the second predictor (demo_predictors)
 
     @property
     def n(self) -> int:
@@ -61,13 +65,18 @@ class DemoData:
 
     def header(self) -> list[str]:
         return ["Applicant", "Group", *self.item_names, *self.rater_names,
-                "Supervisor rating", "Retest score", "Hired"]
+                "Supervisor rating", "Retest score", "Hired", *self.questionnaire_names]
+
+    @property
+    def questionnaire_names(self) -> tuple[str, ...]:
+        return QUESTIONNAIRE_ITEMS if self.questionnaire is not None else ()
 
     def rows(self):
         """The data rows as lists of plain Python values (blank = None)."""
         for i in range(self.n):
             yield [self.ids[i], self.groups[i], *self.items[i].tolist(), *self.ratings[i].tolist(),
-                   self.performance[i], self.retest[i], self.hired[i]]
+                   self.performance[i], self.retest[i], self.hired[i],
+                   *(self.questionnaire[i].tolist() if self.questionnaire is not None else ())]
 
 
 def make_demo(n: int = 400, seed: int = DEMO_SEED) -> DemoData:
@@ -113,4 +122,5 @@ def make_demo(n: int = 400, seed: int = DEMO_SEED) -> DemoData:
     ids = [f"OHL-{1001 + i}" for i in range(n)]
     groups = ["Group B" if b else "Group A" for b in group_b]
     return DemoData(ids=ids, groups=groups, items=items, ratings=ratings, performance=performance,
-                    retest=retest, hired=["yes" if h else "no" for h in hired])
+                    retest=retest, hired=["yes" if h else "no" for h in hired],
+                    questionnaire=make_questionnaire(seed, latent, group_b))

@@ -6,6 +6,7 @@ sheets is a frozen dataclass returned by the sheet that makes it.
 
 from . import bands, data_copy, impact, items, notes, raters, reliability, scored_items, setup, summary, utility
 from . import validity
+from . import combined, dif, fairness, predictors
 
 __all__ = ["bands", "data_copy", "impact", "items", "notes", "raters", "reliability", "scored_items", "setup",
-           "summary", "utility", "validity"]
+           "summary", "utility", "validity", "combined", "dif", "fairness", "predictors"]
