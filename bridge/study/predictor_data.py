@@ -34,7 +34,13 @@ def further_predictors(data: StudyData, header, rows) -> list[StudyData]:
     out: list[StudyData] = []
     used = columns_used(data)
     first = data.setup.test_name
+    seen = {" ".join(first.split()).casefold()}
     for predictor in data.setup.predictors:
+        key = " ".join(predictor.test_name.split()).casefold()
+        if key in seen:
+            raise SetupError(f"{predictor.source.get('test_name', 'Setup')}: two predictors are called "
+                             f"{predictor.test_name!r}; give each its own name (the sheets are named after it)")
+        seen.add(key)
         setup = full_setup(data.setup, predictor)
         own = dataclasses.replace(setup, **{role: None for role in _STUDY_ROLES})
         name = setup.test_name

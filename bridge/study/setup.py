@@ -234,7 +234,7 @@ def read_setup_sheet(wb) -> tuple[dict[str, Any], dict[str, str]]:
     if sheet is None:
         return {}, {}
     values, where = {}, {}
-    blocks = setup_predictors.PredictorBlocks(sheet)
+    blocks = setup_predictors.PredictorBlocks(sheet, SetupError, cell_text)
     started = False
     for r, row in enumerate(wb.rows(sheet, max_col=2), start=1):
         key = cell_text(row[0]) if row else None

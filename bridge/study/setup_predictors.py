@@ -49,19 +49,19 @@ def is_clear(value) -> bool:
 class PredictorBlocks:
     """Collects the Setup rows of the predictor blocks while :func:`.setup.read_setup_sheet` reads the sheet."""
 
-    def __init__(self, sheet: str):
-        self.sheet = sheet
+    def __init__(self, sheet: str, error: type, cell_text):
+        """``error``: the setup's error class; ``cell_text``: how a cell reads as text (both from :mod:`.setup`,
+        which imports this module)."""
+        self.sheet, self.error, self.cell_text = sheet, error, cell_text
         self.blocks: list[dict] = []     # {"name", "where", "values", "sources"} of each further predictor
         self._first_has_settings = False
 
     def start(self, name, row: int) -> None:
         """A ``predictor | NAME`` row at ``row``."""
-        from .setup import SetupError, cell_text
-
-        text = cell_text(name)
+        text = self.cell_text(name)
         where = f"sheet '{self.sheet}', cell B{row}"
         if text is None:
-            raise SetupError(f"{where}: a predictor row needs the predictor's name in column B")
+            raise self.error(f"{where}: a predictor row needs the predictor's name in column B")
         if not self.blocks and not self._first_has_settings:
             self.first_name = (text, where)  # names the first predictor
             return
@@ -69,14 +69,12 @@ class PredictorBlocks:
 
     def target(self, field: str, key: str, row: int, values: dict, where: dict) -> tuple[dict, dict]:
         """The dicts a setting read at ``row`` goes into: the study's (and first predictor's), or the block's."""
-        from .setup import SetupError
-
         if not self.blocks:
             if field in PREDICTOR_FIELDS:
                 self._first_has_settings = True
             return values, where
         if field not in PREDICTOR_FIELDS:
-            raise SetupError(f"sheet '{self.sheet}', cell A{row}: {key!r} is a setting of the whole study; put it "
+            raise self.error(f"sheet '{self.sheet}', cell A{row}: {key!r} is a setting of the whole study; put it "
                              f"above the first 'predictor' row (the rows below a 'predictor' row belong to that "
                              f"predictor)")
         block = self.blocks[-1]
@@ -94,9 +92,8 @@ class PredictorBlocks:
 def predictor_setups(blocks, parse) -> tuple:
     """The further predictors as :class:`.setup.StudySetup` objects holding their own settings only.
 
-    ``parse(values, where)`` turns one block's raw values into a StudySetup (the reader of the top block)."""
-    from .setup import SetupError
-
+    ``parse(values, where)`` turns one block's raw values into a StudySetup (the reader of the top block).
+    Names are compared with the first predictor's in :func:`.predictor_data.further_predictors`."""
     out = []
     for block in blocks:
         values = dict(block["values"])
@@ -104,11 +101,6 @@ def predictor_setups(blocks, parse) -> tuple:
         where = dict(block["sources"])
         where.setdefault("test_name", block["where"])
         out.append(parse(values, where))
-    names = [p.test_name.strip().lower() for p in out]
-    for p, name in zip(out, names):
-        if names.count(name) > 1:
-            raise SetupError(f"{p.source.get('test_name', 'predictor')}: two predictors are called "
-                             f"{p.test_name!r}; give each its own name")
     return tuple(out)
 
 
