@@ -285,8 +285,9 @@ def test_charts_are_in_the_package(study):
     with zipfile.ZipFile(result.path) as z:
         parts = [n for n in z.namelist() if n.startswith("xl/charts/chart")]
         xml = b"".join(z.read(n) for n in parts)
-    # the demo's two predictors each get a Fairness chart (one line per group)
-    assert len(parts) == 6
+    # the demo's questionnaire (a second predictor) has its own Items, Validity and Fairness charts, and each
+    # predictor's Fairness sheet a chart of one line per group: 4 + 1 + 3
+    assert len(parts) == 8
     for title in (b"Test score against job performance", b"Score distribution", b"four-fifths line",
                   b"Item difficulty against discrimination", b"one line per group"):
         assert title in xml
