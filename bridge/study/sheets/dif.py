@@ -54,8 +54,15 @@ def write(ctx: StudyContext, predictor) -> Dif:
     row += 1 + g.para(row, 1, DIF_SIZES.format(minimum=MIN_GROUP))
     complete = ~np.isnan(d.items).any(axis=1)
     numbers = predictor.layout.group_numbers
-    codes = [numbers.get(x) for x in d.groups]
+    # read-only arrays, as the recalculation passes them: the tables are then counted once for all the checks
+    codes = np.array([[np.nan if numbers.get(x) is None else numbers[x]] for x in d.groups], dtype=float)
+    codes.flags.writeable = False
     groups_ref = predictor.group_numbers.with_value(codes)
+    item_values = predictor.rel.items.value
+    if isinstance(item_values, np.ndarray):
+        item_values = item_values.view()
+        item_values.flags.writeable = False
+    items_ref = predictor.rel.items.with_value(item_values)
     out: dict = {}
     for header, labels in columns:
         counts = {name: int(sum(1 for i, x in enumerate(labels) if x == name and complete[i])) for name in numbers}
@@ -79,7 +86,7 @@ def write(ctx: StudyContext, predictor) -> Dif:
         row += 3
         for name in enough:
             if name != reference:
-                row, out[name] = _table(ctx, g, row, predictor.rel.items, groups_ref, name, reference, numbers)
+                row, out[name] = _table(ctx, g, row, items_ref, groups_ref, name, reference, numbers)
     _flags(ctx, out)
     return Dif(out)
 
