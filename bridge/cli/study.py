@@ -109,7 +109,7 @@ def headline_values(path: Path, result: StudyResult) -> dict:
 
     keys = ("n_scored", "n_criterion", "alpha", "alpha_lower", "alpha_upper", "sem", "band_width",
             "icc_agreement_average", "r", "r_lower", "r_upper", "r_p", "operational", "min_ratio", "n_below",
-            "taylor_russell", "base_rate", "bcg")
+            "taylor_russell", "base_rate", "bcg", "multiple_r", "cross_validity")
     wanted = {k: result.cells[k] for k in keys if k in result.cells}
     wb = load_workbook(path, read_only=True, data_only=True)
     try:
@@ -152,6 +152,9 @@ def headline_lines(h: dict) -> list[str]:
         below = h.get("n_below")
         flag = (f"; {below} group(s) below four-fifths" if isinstance(below, (int, float)) else "")
         lines.append(f"  lowest impact ratio at cut {_fmt(h.get('cut'), 1)}: {_fmt(h['min_ratio'])}{flag}")
+    if "multiple_r" in h:  # several predictors (the Combined sheet)
+        lines.append(f"  predictors combined: multiple R {_fmt(h['multiple_r'])}; cross-validated R² "
+                     f"{_fmt(h.get('cross_validity'))}")
     if "taylor_russell" in h:
         tr, base = _fmt(h["taylor_russell"]), _fmt(h.get("base_rate"))
         if isinstance(h["taylor_russell"], (int, float)):
