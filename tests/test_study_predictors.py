@@ -364,3 +364,27 @@ def test_small_groups_are_stated_not_compared(tmp_path):
     values = load_workbook(result.path, data_only=True)
     assert str(value((result, values), "fairness")).startswith("not computable: differential prediction needs")
     assert str(value((result, values), "dif")).startswith("not computable: DIF needs at least two groups with 100")
+
+
+@pytest.mark.slow
+def test_three_predictors_without_criterion_or_groups_say_what_is_not_computable(tmp_path):
+    # a total column as a predictor of its own; without a criterion and groups the Combined sheet keeps the
+    # intercorrelations and the composite's reliability, and says why the rest is not computable
+    header, rows, test, scored = table(60)
+    setup = [("id column", "id"), ("item columns", "T1:T8"), ("cut score", 4), ("predictor", "Q"),
+             ("item columns", "W1:W6"), ("predictor", "R"), ("total column", "retest")]
+    result = make_study(write_book(tmp_path / "d.xlsx", header, rows, setup), tmp_path / "s.xlsx")
+    assert result.recalc_report.ok, [tuple(e) for e in result.recalc_report.errors][:5]
+    values = load_workbook(result.path, data_only=True)
+    assert {"Reliability (Q)", "Bands (R)", "Combined", "Combined scores"} <= set(values.sheetnames)
+    assert "Fairness" not in values.sheetnames and "multiple_r" not in result.cells
+    x = test.sum(axis=1).astype(float)
+    q = quest_scores(rows)
+    assert value((result, values), "combined_r_1_2") == pytest.approx(np.corrcoef(x, q)[0, 1], rel=1e-9)
+    reasons = {reason for sheet, _, reason in result.not_computable if sheet == "Combined"}
+    assert "it needs every predictor's observed validity, which is not computable" in reasons
+    assert "needs a group column with at least two groups" in reasons
+
+
+def quest_scores(rows):
+    return np.array([sum(r[2 + len(TEST):2 + len(TEST) + len(QUEST)]) for r in rows], dtype=float)

@@ -131,7 +131,10 @@ def _predictors_table(ctx, g, row, predictors, cols):
     first, last = row + 1, row + k
     rel_values = ([_value(p.rel.sd) for p in predictors], [_value(p.rel.reliability) for p in predictors],
                   [_value(p.validity.r) for p in predictors])
-    sds, rels, validities = (area(SHEET, c, first, c, last, value=_vector(v)) for c, v in zip((2, 3, 4), rel_values))
+    sds, rels, validities = (area(SHEET, c, first, c, last, value=_vector(v)).with_value(_vector(v), name=what)
+                             for c, v, what in zip((2, 3, 4), rel_values, ("every predictor's SD",
+                                                                          "every predictor's reliability",
+                                                                          "every predictor's observed validity")))
     row = last + 2
     g.set(row, 1, "Intercorrelations (all applicants with both scores)", "heading")
     for i, p in enumerate(predictors):
@@ -152,7 +155,8 @@ def _predictors_table(ctx, g, row, predictors, cols):
                 matrix[i, j] = np.nan
             ctx.formula(g, r, 2 + j, "CORREL", cols["scores"][i], cols["scores"][j], style="coef",
                         check=lambda v=matrix[i, j]: _correlation(v), key=f"combined_r_{i + 1}_{j + 1}")
-    corr = area(SHEET, 2, row + 1, 1 + k, row + k, value=None if np.isnan(matrix).any() else matrix)
+    corr = area(SHEET, 2, row + 1, 1 + k, row + k).with_value(None if np.isnan(matrix).any() else matrix,
+                                                              name="every intercorrelation")
     return row + k + 2, dict(sds=sds, rels=rels, validities=validities, corr=corr, matrix=matrix, k=k)
 
 
@@ -179,17 +183,19 @@ def _composite(ctx, g, row, t):
     places = [_maybe(t["sds"]), _maybe(t["rels"]), _maybe(t["validities"]), _maybe(t["corr"])]
     sds, rels, validities, corr = places
     g.set(row + 1, 1, "Regression weight of each predictor's raw score (β / SD)")
-    weights = []
+    beta = _beta(t)
     for i in range(k):
+        if isinstance(beta, Exception):
+            ctx.not_computable_at(g, row + 1, 4 + i, beta.message)
+            continue
         text = "INDEX(MMULT(MINVERSE({corr}),{validities}),{i})/INDEX({sds},{i})"
-        weights.append(ctx.expression(g, row + 1, 4 + i, text, None, style="coef", corr=corr,
-                                      validities=validities, sds=sds, i=i + 1))
+        ctx.expression(g, row + 1, 4 + i, text, lambda v=beta[i]: v, style="coef", corr=corr,
+                       validities=validities, sds=sds, i=i + 1)
     g.set(row, 4, "Raw-score regression weights, in predictor order", "header")
     w_range = area(SHEET, 4, row + 1, 3 + k, row + 1)
     g.set(row + 2, 1, "Composite reliability (Mosier 1943)")
     reliability = ctx.formula(g, row + 2, 2, "COMPOSITE_RELIABILITY", sds, rels, corr, style="coef",
                               key="composite_reliability")
-    beta = _beta(t)
     ctx.formula(g, row + 2, 3, "COMPOSITE_RELIABILITY", sds, rels, corr, w_range.with_value(beta), style="coef",
                 key="composite_reliability_regression")
     g.set(row + 3, 1, "Composite validity (from the observed validities and the intercorrelations)")
@@ -204,8 +210,7 @@ def _composite(ctx, g, row, t):
 
 
 def _maybe(ref: Ref) -> Ref:
-    return ref if ref.value is not None else ref.with_value(InsufficientDataError(
-        "a predictor's SD, reliability, validity or intercorrelation is not computable"))
+    return ref if ref.value is not None else ref.with_value(InsufficientDataError(f"{ref.name} is not computable"))
 
 
 def _beta(t):
