@@ -106,8 +106,18 @@ def _per_predictor(name: str, value, k: int) -> np.ndarray:
     return x
 
 
+def _word(value) -> str | None:
+    """``weights`` given as a word ("unit", "regression"), typed or in one cell of a range, in lower case;
+    None for numbers. A workbook formula passes even a quoted word to a range argument as a one-cell range."""
+    while isinstance(value, (list, tuple)) and len(value) == 1:
+        value = value[0]
+    if isinstance(value, np.ndarray) and value.size == 1 and value.dtype == object:
+        value = value.item()
+    return value.strip().lower() if isinstance(value, str) else None
+
+
 def _weights(weights, k: int) -> np.ndarray:
-    if isinstance(weights, str) and weights.strip().lower() == "unit":
+    if _word(weights) == "unit":
         return np.ones(k)
     w = _per_predictor("weights", weights, k)
     if not (w != 0).any():
@@ -233,7 +243,7 @@ def composite_validity(sds: Range, validities: Range, correlations: Range, weigh
     v.positive("sds", s)
     validity = _per_predictor("validities", validities, k)
     v.between("validities", validity, -1.0, 1.0)
-    if isinstance(weights, str) and weights.strip().lower() == "regression":
+    if _word(weights) == "regression":
         a = regression_weights(validity, r)  # already in standard-score units
     else:
         a = _weights(weights, k) * s

@@ -55,7 +55,7 @@ import numpy as np
 
 from . import _validate as v
 from ._lazy import lazy_module
-from ._models import logistic_fit, two_groups
+from ._models import group_label, logistic_fit, two_groups
 from ._validate import Range
 from .errors import DomainError, InsufficientDataError, TruebandError, ZeroVarianceError
 from .registry import spreadsheet
@@ -506,9 +506,30 @@ def item_dif(items, groups, focal, reference, *, alpha: float = 0.05) -> ItemDIF
 
 # ---------------------------------------------------------------- spreadsheet functions
 
+#: The tables of the last spreadsheet call over read-only arrays, one tuple (items, groups, focal key,
+#: reference key, tables) replaced whole (a reader sees one call's entry, never a mix). A workbook's
+#: recalculation hands every item's cells the same read-only arrays of the same ranges, so the tables are
+#: counted once per range, not once per cell (a study's DIF sheet has seven cells per item).
+_LAST_TABLES: list = [None]
+
+
+def _tables(items, groups, focal, reference) -> DifData:
+    """:func:`dif_data`, reused while the same read-only arrays come again (kept alive in the entry, so their
+    ids cannot pass to other arrays)."""
+    if not all(isinstance(a, np.ndarray) and not a.flags.writeable for a in (items, groups)):
+        return dif_data(items, groups, focal, reference)
+    keys = (group_label("focal", focal), group_label("reference", reference))
+    last = _LAST_TABLES[0]
+    if last is not None and last[0] is items and last[1] is groups and last[2] == keys:
+        return last[3]
+    data = dif_data(items, groups, focal, reference)
+    _LAST_TABLES[0] = (items, groups, keys, data)
+    return data
+
+
 def _one_item(items, groups, item, focal, reference, method: str):
     """One item's result by the named method (computed for that item only)."""
-    data = dif_data(items, groups, focal, reference)
+    data = _tables(items, groups, focal, reference)
     j = v.column_index("item", item, data.n_items)
     if method == "mh":
         a, c = data.keyed[j, 0], data.keyed[j, 1]

@@ -259,3 +259,14 @@ def test_composite_d_refusals():
         call("COMPOSITE_D", [0.8, 0.2, 0.1], -0.5)  # below -1/(k - 1): impossible for 3 predictors
     with raises_code("#VALUE!", "ds"):
         call("COMPOSITE_D", [0.8, None], 0.3)
+
+
+@pytest.mark.parametrize("word", ["regression", "unit"])
+def test_weights_word_in_one_cell_of_a_range_reads_as_typed(word):
+    # a workbook formula hands COMPOSITE_VALIDITY(...,"regression") to the range argument as a one-cell range;
+    # it must read as the word, not as text among numbers (found building the study's Combined sheet)
+    args = ([10, 5], [0.5, 0.3], [[1, 0.4], [0.4, 1]])
+    assert call("COMPOSITE_VALIDITY", *args, [[word]]) == pytest.approx(call("COMPOSITE_VALIDITY", *args, word),
+                                                                        rel=1e-15)
+    assert call("COMPOSITE_RELIABILITY", [10, 5], [0.85, 0.75], args[2], [["unit"]]) == pytest.approx(
+        call("COMPOSITE_RELIABILITY", [10, 5], [0.85, 0.75], args[2]), rel=1e-15)

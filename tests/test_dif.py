@@ -272,3 +272,23 @@ def test_every_form_of_a_label_column_reads_alike():
     labels[4] = float("inf")
     with raises_code("#NUM!", "groups", match="row 5"):
         mantel_haenszel_dif(items, [[g] for g in labels], "Focal", "Reference")
+
+
+def test_the_tables_of_read_only_arrays_are_counted_once_and_match_a_fresh_count():
+    # the workbook engine passes every item's cells the same read-only arrays; the tables are reused then,
+    # and the results are those of lists (counted afresh each call); a writeable array is never reused
+    from trueband.funcs import dif
+
+    rng = np.random.default_rng(5)
+    items = (rng.random((300, 6)) < 0.6).astype(float)
+    groups = rng.integers(1, 3, (300, 1)).astype(float)
+    fresh = [dif.dif_mh_delta(items.tolist(), groups.tolist(), j, 2, 1) for j in range(1, 7)]
+    frozen_items, frozen_groups = items.copy(), groups.copy()
+    frozen_items.flags.writeable = frozen_groups.flags.writeable = False
+    got = [dif.dif_mh_delta(frozen_items, frozen_groups, j, 2, 1) for j in range(1, 7)]
+    assert got == pytest.approx(fresh, rel=1e-15)
+    assert dif._LAST_TABLES[0][0] is frozen_items
+    assert dif.dif_mh_delta(frozen_items, frozen_groups, 1, 1, 2) == pytest.approx(-fresh[0], rel=1e-12)
+    items[:, 0] = 1 - items[:, 0]  # a writeable array may change between calls: counted afresh
+    flipped = dif.dif_mh_delta(items, groups, 1, 2, 1)
+    assert flipped == pytest.approx(dif.dif_mh_delta(items.tolist(), groups.tolist(), 1, 2, 1), rel=1e-15)

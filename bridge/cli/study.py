@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import argparse
 import sys
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -9,6 +10,7 @@ from typing import TYPE_CHECKING
 
 from .common import EXIT_CELL_ERRORS, EXIT_OK, CommandError
 from ..study.demo_folder import DEMO_FILES, DemoFolderError, write_demo  # noqa: F401  (DEMO_FILES: tests)
+from ..study.setup_predictors import CLEAR, is_clear
 from ..study.words import CAUTION, NOT_COMPUTABLE
 
 if TYPE_CHECKING:
@@ -30,7 +32,10 @@ def register(sub) -> None:
         description="Build a new workbook with a copy of the data and analysis sheets (reliability, items, raters, "
                     "validity, bands, adverse impact, utility) whose every number is a live formula, recalculated. "
                     "Column roles come from the data workbook's Setup sheet; the options below override it. "
-                    + CAUTION)
+                    "Give the word none to clear a setting of the Setup sheet (--retest none: no retest column). "
+                    "The options set the first predictor's settings; a further predictor (a questionnaire, an "
+                    "interview total...) is a 'predictor | NAME' block on the Setup sheet, whose settings belong to "
+                    "it alone. " + CAUTION)
     p.add_argument("data", help="the data workbook (.xlsx)")
     p.add_argument("-o", "--output", help="the study workbook to write (default: DATA-study.xlsx beside it)")
     p.add_argument("--overwrite", action="store_true", help="replace the output if it exists")
@@ -41,17 +46,17 @@ def register(sub) -> None:
     p.add_argument("--items", help="item columns: FIRST:LAST or a comma-separated list of headers")
     p.add_argument("--reverse", help="reverse-keyed items (scored minimum + maximum - response): FIRST:LAST or a "
                                      "comma-separated list of headers; needs --item-min and --item-max")
-    p.add_argument("--item-min", type=float, help="lowest response an item allows (e.g. 1)")
-    p.add_argument("--item-max", type=float, help="highest response an item allows (e.g. 5)")
+    p.add_argument("--item-min", type=_number_or_none, help="lowest response an item allows (e.g. 1)")
+    p.add_argument("--item-max", type=_number_or_none, help="highest response an item allows (e.g. 5)")
     p.add_argument("--total", help="header of a total-score column")
     p.add_argument("--ratings", help="rating columns: FIRST:LAST or a list")
     p.add_argument("--criterion", help="header of the job-performance column")
     p.add_argument("--retest", help="header of the retest-score column")
     p.add_argument("--hired", help="header of the hired (yes/no) column")
-    p.add_argument("--cut", type=float, help="cut score for adverse impact and utility")
-    p.add_argument("--confidence", type=float, help="confidence level (default 0.95)")
-    p.add_argument("--criterion-reliability", type=float, help="criterion reliability (default 0.52)")
-    p.add_argument("--success", type=float, help="criterion value that counts as success (default: median)")
+    p.add_argument("--cut", type=_number_or_none, help="cut score for adverse impact and utility")
+    p.add_argument("--confidence", type=_number_or_none, help="confidence level (default 0.95)")
+    p.add_argument("--criterion-reliability", type=_number_or_none, help="criterion reliability (default 0.52)")
+    p.add_argument("--success", type=_number_or_none, help="criterion value that counts as success (default: median)")
     p.add_argument("--reference-group", help="the group others are compared with")
     p.add_argument("--reference-groups", help="a reference group per demographic column, e.g. "
                                               "'Sex: Men; Ethnicity: White' (default: the highest selection rate)")
@@ -70,11 +75,24 @@ def register(sub) -> None:
     p.set_defaults(handler=run_demo)
 
 
+def _number_or_none(text: str):
+    """A number option's value: a number, or the word none (clears the Setup sheet's setting)."""
+    if is_clear(text):
+        return CLEAR
+    try:
+        return float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number or {CLEAR}, got {text!r}") from None
+
+
 def _overrides(args) -> dict:
     out = {}
     for opt, field in _OPTIONS.items():
         value = getattr(args, opt, None)
         if value is None:
+            continue
+        if is_clear(value):
+            out[field] = CLEAR
             continue
         if field in ("items", "ratings", "reverse", "stages"):
             value = tuple(p.strip() for p in value.split(",") if p.strip())
@@ -99,8 +117,8 @@ def headline_values(path: Path, result: StudyResult) -> dict:
     from openpyxl import load_workbook
 
     keys = ("n_scored", "n_criterion", "alpha", "alpha_lower", "alpha_upper", "sem", "band_width",
-            "icc_agreement_average", "r", "r_lower", "r_upper", "r_p", "operational", "min_ratio", "n_below", "min_ratio_where",
-            "taylor_russell", "base_rate", "bcg")
+            "icc_agreement_average", "r", "r_lower", "r_upper", "r_p", "operational", "min_ratio", "n_below",
+            "min_ratio_where", "taylor_russell", "base_rate", "bcg", "multiple_r", "cross_validity")
     wanted = {k: result.cells[k] for k in keys if k in result.cells}
     wb = load_workbook(path, read_only=True, data_only=True)
     try:
@@ -145,6 +163,9 @@ def headline_lines(h: dict) -> list[str]:
         where = f" ({h['min_ratio_where']})" if isinstance(h.get("min_ratio_where"), str) and not h[
             "min_ratio_where"].startswith(NOT_COMPUTABLE) else ""
         lines.append(f"  lowest impact ratio at cut {_fmt(h.get('cut'), 1)}: {_fmt(h['min_ratio'])}{where}{flag}")
+    if "multiple_r" in h:  # several predictors (the Combined sheet)
+        lines.append(f"  predictors combined: multiple R {_fmt(h['multiple_r'])}; cross-validated R² "
+                     f"{_fmt(h.get('cross_validity'))}")
     if "taylor_russell" in h:
         tr, base = _fmt(h["taylor_russell"]), _fmt(h.get("base_rate"))
         if isinstance(h["taylor_russell"], (int, float)):

@@ -79,7 +79,14 @@ def plan(ctx: StudyContext) -> tuple[SetupSheet, Bands]:
     sheets.groups.write(ctx, setup, impact, layout)
     sheets.stages.write(ctx, setup, impact, layout)
     sheets.cuts.write(ctx, setup, impact, layout, utility)
-    sheets.summary.write(ctx, setup, rel, raters, validity, impact, utility, strata)
+    ctx.predictors = [sheets.predictors.first(ctx, setup, rel, bands, validity),
+                      *sheets.predictors.write(ctx, setup, _full_checks)]
+    for predictor in ctx.predictors:  # each predictor's Fairness and DIF sheets, under its sheet titles
+        with predictor.sheets(ctx, _full_checks(predictor.data)) as pctx:
+            sheets.fairness.write(pctx, predictor)
+            sheets.dif.write(pctx, predictor)
+    combined = sheets.combined.write(ctx, ctx.predictors)
+    sheets.summary.write(ctx, setup, rel, raters, validity, impact, utility, strata, combined)
     sheets.notes.write(ctx)
     return setup, bands
 

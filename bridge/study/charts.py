@@ -14,7 +14,7 @@ from openpyxl.chart.shapes import GraphicalProperties
 from openpyxl.drawing.line import LineProperties
 from openpyxl.chart.trendline import Trendline
 
-__all__ = ["score_vs_criterion", "score_distribution", "selection_rates", "item_map", "area"]
+__all__ = ["score_vs_criterion", "score_distribution", "selection_rates", "item_map", "area", "group_lines"]
 
 
 def area(ref) -> Reference:
@@ -104,4 +104,23 @@ def item_map(difficulty: Reference, discrimination: Reference, *, binary: bool =
     _axes(chart, "Difficulty (proportion correct)" if binary else "Mean item score",
           "Corrected item-total correlation")
     chart.legend = None
+    return chart
+
+
+def group_lines(series: list, *, x_title: str, y_title: str) -> ScatterChart:
+    """Score against the criterion, one colour of points and one least-squares line per group (``series``:
+    (group name, scores reference, criterion reference) for each group)."""
+    chart = ScatterChart()
+    chart.title = "Criterion on score: one line per group"
+    chart.scatterStyle = "marker"
+    chart.style = 13
+    colours = ("1F4E79", "C00000", "548235", "7030A0", "BF8F00", "2E75B6")
+    for k, (name, x, y) in enumerate(series):
+        colour = colours[k % len(colours)]
+        s = Series(y, x, title=str(name))
+        _points_only(s, colour)
+        s.trendline = Trendline(trendlineType="linear", dispRSqr=False, dispEq=False)
+        s.trendline.spPr = GraphicalProperties(ln=LineProperties(solidFill=colour, w=28575))
+        chart.series.append(s)
+    _axes(chart, x_title, y_title)
     return chart

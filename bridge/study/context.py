@@ -9,6 +9,9 @@ handles' addresses. Either refuses a template or a text argument that holds an A
 
 from __future__ import annotations
 
+import contextlib
+import contextvars
+import copy
 import dataclasses
 import re
 from typing import Any, Callable
@@ -23,7 +26,40 @@ from .setup import StudyData
 from .words import NOT_COMPUTABLE
 
 __all__ = ["StudyContext", "Ref", "Expr", "cell", "area", "fill_row", "formula_text", "ROW", "UNCHECKED", "CALL",
-           "A1_ADDRESS", "HandTypedAddress"]
+           "A1_ADDRESS", "HandTypedAddress", "sheet_title", "sheet_names", "in_sheet_names"]
+
+#: While a further predictor's sheets are written (:meth:`StudyContext.predictor`): a sheet module's own
+#: title (``Reliability``) -> that predictor's copy (``Reliability (Questionnaire)``). A handle takes the
+#: title in force when it is made, so every sheet module is written once for all predictors.
+_SHEET_NAMES: contextvars.ContextVar[dict] = contextvars.ContextVar("study_sheet_names", default={})
+
+
+def sheet_title(name: str) -> str:
+    """The title sheet ``name`` has for the predictor whose sheets are being written."""
+    return _SHEET_NAMES.get().get(name, name)
+
+
+@contextlib.contextmanager
+def sheet_names(names: dict):
+    """Sheet titles as ``names`` maps them, for the handles and grids made inside the block."""
+    token = _SHEET_NAMES.set(dict(names))
+    try:
+        yield
+    finally:
+        _SHEET_NAMES.reset(token)
+
+
+def in_sheet_names(names: dict, make_rows):
+    """The rows of ``make_rows()`` (a generator function), each made with the sheet titles of ``names``
+    (the long sheets' rows are made while the workbook is saved, after the predictor's block has ended)."""
+    run = contextvars.copy_context()
+    run.run(_SHEET_NAMES.set, dict(names))
+    rows = run.run(make_rows)
+    while True:
+        try:
+            yield run.run(next, rows)
+        except StopIteration:
+            return
 
 #: The value of a cell whose formula was not checked (a heavy check skipped with large data).
 UNCHECKED = object()
@@ -66,6 +102,12 @@ class Ref:
     value: Any = UNCHECKED         # the Python value, a TruebandError, or UNCHECKED
     prefix: str = "auto"           # the sheet before the address: "auto", "none", "quoted", "bare"
     absolute: bool | None = None   # None: absolute when the sheet is written
+    titled: bool = dataclasses.field(default=False, repr=False)  # the sheet is already the predictor's title
+
+    def __post_init__(self):
+        if not self.titled:
+            object.__setattr__(self, "sheet", sheet_title(self.sheet))
+            object.__setattr__(self, "titled", True)
 
     def local(self) -> "Ref":
         return dataclasses.replace(self, prefix="none", absolute=False)
@@ -90,6 +132,7 @@ class Ref:
         return f"{get_column_letter(self.col)}{self.row}"
 
     def address(self, on_sheet: str) -> str:
+        on_sheet = sheet_title(on_sheet)
         prefix = self.prefix
         if prefix == "auto":
             prefix = "none" if on_sheet == self.sheet else "quoted"
@@ -172,8 +215,25 @@ class StudyContext:
         self.cells: dict[str, tuple[str, str]] = {}           # name -> (sheet, coordinate), for StudyResult
         self.not_computable: list[tuple[str, str, str]] = []  # (sheet, coordinate, reason)
         self.notes: list[str] = list(data.notes)
+        self.key_prefix = ""   # before the named cells' keys of a further predictor ("p2_alpha")
+        self.predictors: list = []   # every predictor (sheets.predictors.Predictor), set by build.plan
+        #: long sheets beyond the Bands, Scored items and data copy: (title, header, widths, rows, width)
+        self.long_sheets: list = []
+
+    @contextlib.contextmanager
+    def predictor(self, data: StudyData, names: dict, key_prefix: str, *, full_checks: bool):
+        """A context for a further predictor's sheets: its data and setup, its sheet titles (``names``), its
+        cells' keys prefixed; the sheets, named cells, notes and not-computable list stay shared."""
+        other = copy.copy(self)
+        other.data, other.setup, other.key_prefix, other.full_checks = data, data.setup, key_prefix, full_checks
+        with sheet_names(names):
+            yield other
+
+    def _key(self, key: str | None) -> str | None:
+        return self.key_prefix + key if key else key
 
     def sheet(self, title: str) -> Grid:
+        title = sheet_title(title)
         grid = Grid(title)
         self.grids[title] = grid
         return grid
@@ -238,7 +298,7 @@ class StudyContext:
             here = here.with_value(result)
         grid.set(row, col, text, style)
         if key:
-            self.cells[key] = (grid.title, here.coordinate)
+            self.cells[self._key(key)] = (grid.title, here.coordinate)
         return here
 
     def not_computable_at(self, grid: Grid, row: int, col: int, reason: str, key: str | None = None,
@@ -248,9 +308,9 @@ class StudyContext:
         here = cell(grid.title, row, col, value=error or InsufficientDataError(reason), name=key)
         self.not_computable.append((grid.title, here.coordinate, reason))
         if key:
-            self.cells[key] = (grid.title, here.coordinate)
+            self.cells[self._key(key)] = (grid.title, here.coordinate)
         return here
 
     def name(self, key: str, ref: Ref) -> None:
         """List ``ref`` under ``key`` among the result's named cells."""
-        self.cells[key] = (ref.sheet, ref.coordinate)
+        self.cells[self._key(key)] = (ref.sheet, ref.coordinate)

@@ -10,6 +10,7 @@ from pathlib import Path
 from typing import Any, Mapping
 
 from .data_checks import check_data, note_uncached
+from .predictor_data import further_predictors
 from .setup import SETUP_SHEET, SetupError, StudyData, cell_text, read_setup_sheet, setup_from_values
 
 __all__ = ["DataWorkbook", "read_study_data"]
@@ -155,6 +156,7 @@ def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None
         raise SetupError(f"sheet '{sheet}' has a header row but no data rows below it")
     data = check_data(setup, path, sheet, header, rows, uncached=uncached, formulas=formulas,
                       blank=lambda r, c: _blank_cell(grid, r, c))
+    data.predictors = further_predictors(data, header, rows)
     data.raw_header = list(grid[0][:width])
     # the copy's rows stand in the same sheet rows as the source's (from row 2)
     data.formats = {(r, c - 1): f for (r, c), f in formats.items() if 2 <= r <= len(rows) + 1 and c <= width}

@@ -8,6 +8,8 @@ rating; a few applicants sat the test twice; applicants belong to two groups
 named neutrally ("Group A", "Group B") for the adverse-impact analysis, and
 to an age band; they applied at one of three invented sites and passed (or
 not) a paper screen and an interview before hiring (:mod:`.demo_impact`).
+They also answered a 12-statement
+*Work Style Questionnaire* (a second predictor, :mod:`.demo_predictors`).
 
 Everything is generated from a fixed seed with :func:`numpy.random.default_rng`,
 so the demo is the same on every machine. The structure is chosen to look like
@@ -35,6 +37,7 @@ import dataclasses
 import numpy as np
 
 from .demo_impact import HEADER as EXTRA_HEADER, ImpactExtras, make_impact_extras
+from .demo_predictors import QUESTIONNAIRE_ITEMS, make_questionnaire
 
 __all__ = ["DemoData", "make_demo", "DEMO_SEED", "ORGANISATION", "ROLE", "TEST_NAME"]
 
@@ -56,6 +59,7 @@ class DemoData:
     retest: list[float | None]  # blank for people who sat the test once
     hired: list[str]            # "yes" / "no"
     extras: ImpactExtras | None = None   # age band, site and stages (see .demo_impact)
+    questionnaire: np.ndarray | None = None   # applicants x 12, 1..5: the second predictor (demo_predictors)
 
     @property
     def n(self) -> int:
@@ -66,14 +70,20 @@ class DemoData:
 
     def header(self) -> list[str]:
         return ["Applicant", "Group", *self.item_names, *self.rater_names,
-                "Supervisor rating", "Retest score", "Hired", *(EXTRA_HEADER if self.extras is not None else ())]
+                "Supervisor rating", "Retest score", "Hired", *(EXTRA_HEADER if self.extras is not None else ()),
+                *self.questionnaire_names]
+
+    @property
+    def questionnaire_names(self) -> tuple[str, ...]:
+        return QUESTIONNAIRE_ITEMS if self.questionnaire is not None else ()
 
     def rows(self):
         """The data rows as lists of plain Python values (blank = None)."""
         for i in range(self.n):
             yield [self.ids[i], self.groups[i], *self.items[i].tolist(), *self.ratings[i].tolist(),
                    self.performance[i], self.retest[i], self.hired[i],
-                   *(self.extras.row(i) if self.extras is not None else ())]
+                   *(self.extras.row(i) if self.extras is not None else ()),
+                   *(self.questionnaire[i].tolist() if self.questionnaire is not None else ())]
 
 
 def make_demo(n: int = 400, seed: int = DEMO_SEED) -> DemoData:
@@ -120,4 +130,5 @@ def make_demo(n: int = 400, seed: int = DEMO_SEED) -> DemoData:
     groups = ["Group B" if b else "Group A" for b in group_b]
     extras = make_impact_extras(rng, group_b, composite, hired)  # drawn last: the values above are unchanged
     return DemoData(ids=ids, groups=groups, items=items, ratings=ratings, performance=performance,
-                    retest=retest, hired=["yes" if h else "no" for h in hired], extras=extras)
+                    retest=retest, hired=["yes" if h else "no" for h in hired], extras=extras,
+                    questionnaire=make_questionnaire(seed, latent, group_b))

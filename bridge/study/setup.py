@@ -39,6 +39,10 @@ setting                  value
 ``stratum column``,      process (read by :mod:`.setup_impact`)
 ``stage columns``
 ``test name``, ``job title``, ``organisation``  words for the titles
+``predictor``            starts the block of a further predictor (a
+                         questionnaire, an interview...): the predictor
+                         settings below it belong to it alone (see
+                         :mod:`.setup_predictors`)
 =======================  ====================================================
 
 A setup the study cannot use is a :class:`SetupError` whose message names the
@@ -63,6 +67,8 @@ from pathlib import Path
 from typing import Any, Mapping
 
 import numpy as np
+
+from . import setup_predictors
 
 __all__ = ["SetupError", "StudySetup", "StudyData", "SETTINGS", "normalise_key", "cell_text", "read_setup_sheet",
            "SETUP_SHEET", "DEFAULT_CRITERION_RELIABILITY", "HIRED_CODINGS", "YES_CODES", "NO_CODES"]
@@ -157,12 +163,19 @@ class StudySetup:
     stratum: str | None = None
     stages: tuple[str, ...] = ()
     source: Mapping[str, str] = dataclasses.field(default_factory=dict)  # field -> where it was given
+    predictors: tuple = ()  # the further predictors (StudySetup of their own settings; see setup_predictors)
 
     def merged(self, overrides: Mapping[str, Any]) -> "StudySetup":
-        """This setup with the non-empty ``overrides`` (field name -> value) applied."""
+        """This setup with the non-empty ``overrides`` (field name -> value) applied; the word ``none`` clears
+        a setting back to its default."""
         changes, source = {}, dict(self.source)
+        clear = setup_predictors.cleared(self, overrides)
         for name, value in overrides.items():
             if value is None or value == () or value == "":
+                continue
+            if name in clear:
+                changes[name] = clear[name]
+                source.pop(name, None)
                 continue
             changes[name] = value
             source[name] = "command line"
@@ -200,6 +213,7 @@ class StudyData:
     item_scale_given: bool = False
     raw_items: np.ndarray | None = None                             # the responses before reverse keying
     impact: Any = None                                              # setup_impact.ImpactData
+    predictors: list = dataclasses.field(default_factory=list)      # the further predictors' StudyData
 
     @property
     def binary_items(self) -> bool:
@@ -241,6 +255,7 @@ def read_setup_sheet(wb) -> tuple[dict[str, Any], dict[str, str]]:
     if sheet is None:
         return {}, {}
     values, where = {}, {}
+    blocks = setup_predictors.PredictorBlocks(sheet, SetupError, cell_text)
     started = False
     for r, row in enumerate(wb.rows(sheet, max_col=2), start=1):
         key = cell_text(row[0]) if row else None
@@ -252,8 +267,11 @@ def read_setup_sheet(wb) -> tuple[dict[str, Any], dict[str, str]]:
         norm = normalise_key(key)
         if norm in ("setting", "settings", "key"):
             continue  # a header row
+        if norm == setup_predictors.PREDICTOR_SETTING:
+            blocks.start(row[1] if len(row) > 1 else None, r)
+            continue
         if norm not in SETTINGS:
-            known = ", ".join(repr(k) for k in SETTINGS)
+            known = ", ".join(repr(k) for k in (*SETTINGS, setup_predictors.PREDICTOR_SETTING))
             raise SetupError(f"sheet '{sheet}', cell A{r}: unknown setting {key!r}; the settings are {known}")
         value = row[1] if len(row) > 1 else None
         if isinstance(value, str):
@@ -261,8 +279,10 @@ def read_setup_sheet(wb) -> tuple[dict[str, Any], dict[str, str]]:
         if value is None:
             continue
         field = SETTINGS[norm][0]
-        values[field] = value
-        where[field] = f"sheet '{sheet}', cell B{r}"
+        into, into_where = blocks.target(field, key, r, values, where)
+        into[field] = value
+        into_where[field] = f"sheet '{sheet}', cell B{r}"
+    blocks.finish(values, where)
     return values, where
 
 
@@ -275,6 +295,9 @@ def _parse_columns(spec) -> tuple[str, ...]:
 def setup_from_values(values: Mapping[str, Any], where: Mapping[str, str]) -> StudySetup:
     kwargs: dict[str, Any] = {}
     by_field = {f: (k, kind) for k, (f, kind, _) in SETTINGS.items()}
+    values = dict(values)
+    if "predictors" in values:
+        kwargs["predictors"] = setup_predictors.predictor_setups(values.pop("predictors"), setup_from_values)
     for field, raw in values.items():
         key, kind = by_field[field]
         if kind == "columns":

@@ -31,6 +31,7 @@ from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.datavalidation import DataValidation
 
 from ..formulas.calc_binding import bind_workbook
+from . import templates_predictors
 from .demo import DemoData
 from .grid import P_FORMAT
 from .words import CAUTION
@@ -144,10 +145,12 @@ def study_data_workbook(path: str | Path, demo: DemoData | None = None, *, n_ite
     st.column_dimensions["B"].width = 34
     st.column_dimensions["C"].width = 62
     _setup_checks(st, n_items, n_raters, last)
-    st.cell(len(SETTINGS) + 3, 1, "Fill the Applicants sheet (one row per candidate; leave the supervisor rating blank "
-                                  "for people not hired), name your columns above, then run: trueband study "
-                                  "THIS_FILE.xlsx -o study.xlsx").alignment = _WRAP
-    _caution(st, f"A{len(SETTINGS) + 5}", 3)
+    more = templates_predictors.write_block(st, len(SETTINGS) + 2, demo, _INPUT_FILL)  # a further predictor
+    st.cell(len(SETTINGS) + 3 + more, 1, "Fill the Applicants sheet (one row per candidate; leave the supervisor "
+                                         "rating blank for people not hired), name your columns above, then run: "
+                                         "trueband study THIS_FILE.xlsx -o study.xlsx").alignment = _WRAP
+    st.cell(len(SETTINGS) + 4 + more, 1, templates_predictors.HOW_TO).alignment = _WRAP
+    _caution(st, f"A{len(SETTINGS) + 6 + more}", 3)
     bind_workbook(wb)  # registered calls as _xludf.NAME(, the form LibreOffice binds to the add-in
     wb.save(path)
     return path

@@ -11,7 +11,7 @@ from pathlib import Path
 from openpyxl import Workbook
 from openpyxl.utils import get_column_letter
 
-from . import long_sheets
+from . import long_sheets, workbook_predictors
 from .context import StudyContext
 from .grid import styled
 from .setup import SETUP_SHEET
@@ -24,11 +24,12 @@ from .sheets.setup import SetupSheet
 __all__ = ["ANALYSIS_SHEETS", "save"]
 
 ANALYSIS_SHEETS = ("Summary", "Reliability", "Items", "Raters", "Validity", BANDS_SHEET, "Impact", "Strata",
-                   "Cuts", "Stages", "Groups", "Utility", "Notes")
+                   "Cuts", "Stages", "Groups", "Utility", "Combined", "Fairness", "DIF", "Notes")
+# Strata, Cuts, Stages, Groups, Combined, Fairness, DIF: when the study has them
 
 
-def _bands_header(wb: Workbook, bands: Bands) -> None:
-    ws = wb.create_sheet(BANDS_SHEET)
+def _bands_header(wb: Workbook, bands: Bands, title: str = BANDS_SHEET) -> None:
+    ws = wb.create_sheet(title)
     for c, w in enumerate(bands_sheet.WIDTHS, start=1):
         ws.column_dimensions[get_column_letter(c)].width = w
     ws.freeze_panes = "A2"
@@ -46,10 +47,9 @@ def save(ctx: StudyContext, setup: SetupSheet, bands: Bands, path: Path) -> None
     for title in ANALYSIS_SHEETS:
         if title == BANDS_SHEET:
             _bands_header(wb, bands)
-        elif title not in ctx.grids:
-            continue  # a sheet this study has no data for (Strata without a stratum column, ...)
-        else:
+        elif title in ctx.grids:  # not every study has every sheet (Strata without a stratum column, ...)
             ctx.grids[title].write(wb)
+    more_rows, more_corners = workbook_predictors.write_headers(wb, ctx, _bands_header)
     ctx.grids[SETUP_SHEET].write(wb)
     if d.reverse_items:
         ws = wb.create_sheet(SCORED_SHEET)
@@ -66,4 +66,6 @@ def save(ctx: StudyContext, setup: SetupSheet, bands: Bands, path: Path) -> None
         rows[SCORED_SHEET] = lambda: long_sheets.rows_xml(
             scored_items.rows(d, setup.item_min, setup.item_max), 2, formulas=True)
         corners[SCORED_SHEET] = f"{get_column_letter(len(d.item_columns))}{last}"
+    rows.update(more_rows)
+    corners.update(more_corners)
     long_sheets.splice_rows(path, rows, corners)

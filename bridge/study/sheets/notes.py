@@ -20,8 +20,13 @@ FUNCTIONS_USED = ("CRONBACH_ALPHA", "ALPHA_CI", "KR20", "SPLIT_HALF", "OMEGA", "
                   "KRIPPENDORFF_ALPHA", "COHEN_KAPPA", "R_CI", "R_PVALUE", "DISATTENUATE", "RANGE_CORRECT",
                   "OPERATIONAL_VALIDITY", "RANGE_CORRECT_INDIRECT", "MAX_VALIDITY", "SELECTION_RATE", "IMPACT_RATIO",
                   "FOUR_FIFTHS", "IMPACT_Z", "IMPACT_FISHER", "IMPACT_EXTRA_SELECTIONS", "TAYLOR_RUSSELL", "NAYLOR_SHINE",
-                  "BCG_UTILITY")
-#: The adverse-impact functions of the Impact, Strata, Cuts, Stages and Groups sheets (issue 17).
+                  "BCG_UTILITY",
+                  # several predictors, fairness and item bias (Combined, Fairness, DIF)
+                  "COMPOSITE_RELIABILITY", "COMPOSITE_VALIDITY", "MULTIPLE_R", "ADJUSTED_R2", "CROSS_VALIDITY",
+                  "INCREMENTAL_R2", "COHENS_D", "COMPOSITE_D", "PREDICTION_SLOPE_P", "PREDICTION_INTERCEPT_P",
+                  "PREDICTION_GAP", "DIF_MH_DELTA", "DIF_MH_P", "DIF_MH_CLASS", "DIF_LR_P", "DIF_LR_R2",
+                  "DIF_LR_CLASS")
+#: The adverse-impact functions of the Impact, Strata, Cuts, Stages and Groups sheets.
 FUNCTIONS_USED += ("IMPACT_RATIO_CI", "IMPACT_ODDS_RATIO", "IMPACT_FLIP", "IMPACT_SMALL_NUMBERS",
                    "POOLED_ODDS_RATIO", "POOLED_IMPACT_P", "POOLED_EXACT_P", "POOLED_HOMOGENEITY_P", "COHENS_D_CI")
 
@@ -50,6 +55,15 @@ CONVENTIONS = (
     "Cochran–Mantel–Haenszel test with the ½ continuity correction, the exact conditional test and the "
     "Breslow–Day test (Tarone's correction); a pooled figure is not reported as a headline when the Breslow–Day "
     "p is below 0.05.",
+    "Several predictors: each further predictor (a 'predictor' block of the Setup sheet) has its own settings, "
+    "Reliability, Items, Validity and Bands sheets; Impact and Utility are the first predictor's. On Combined, the "
+    "composite is the sum of the raw scores (unit weights) or the least-squares combination (regression weights); "
+    "its validity uses the observed validities with the applicants' SDs and intercorrelations, the multiple "
+    "correlation only the people with every score and a criterion value. The composite d takes unit weights on "
+    "standardised scores and the mean intercorrelation of all applicants.",
+    "Fairness: the people with a score and a criterion value, in groups with at least 20 of them (common "
+    "practice); the reference group is the one named on Setup, else the largest. DIF: 0/1 items, groups with at "
+    "least 100 people who answered every item (common practice), matched on the total score including the item.",
 )
 
 

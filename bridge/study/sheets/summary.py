@@ -20,7 +20,7 @@ SHEET = "Summary"
 
 
 def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, raters: Raters, validity: Validity,
-          impact: Impact, utility: Utility, strata: Strata | None = None) -> None:
+          impact: Impact, utility: Utility, strata: Strata | None = None, combined=None) -> None:
     g = ctx.sheet(SHEET)
     g.landscape = True
     g.widths.update({1: 62, 2: 16, 3: 16, 4: 16})
@@ -64,6 +64,12 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, raters: Raters
         ("Money gain from one year's hires (Brogden–Cronbach–Gleser; inputs on Utility)", "bcg", utility.bcg,
          "money", None),
     ]
+    if combined is not None and combined.multiple_r is not None:  # several predictors (the Combined sheet)
+        rows += [("Do the predictors together predict better?", None, None, "", None),
+                 ("Multiple correlation of the predictors with the criterion", "multiple_r", combined.multiple_r,
+                  "coef", None),
+                 ("Cross-validated R² (Browne): what the weights explain in new people", "cross_validity",
+                  combined.cross_validity, "coef", None)]
     r = first_row
     for label, key, figure, style, extra in rows:
         if key is None:

@@ -1,0 +1,147 @@
+"""DIF: item bias of 0/1 items between groups (Mantel–Haenszel and logistic regression), and the flags on Items.
+
+For each demographic column (:func:`.fairness.demographic_columns`) and each group with enough people who
+answered every item, against the reference group, one row per item: the Mantel–Haenszel common odds ratio,
+MH D-DIF (−2.35 ln α), χ² and p, the ETS category A/B/C (Holland & Thayer 1988; Zwick 2012), and the
+logistic-regression DIF of Swaminathan & Rogers (1990): the 2-df test, Nagelkerke ΔR² and the category under
+each published convention (Zumbo & Thomas 1997; Jodoin & Gierl 2001). The Items sheet gets a column with
+each item's worst MH category.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+
+from ..context import StudyContext, sheet_title
+from ..words import CAUTION, DIF_CAUTION, DIF_SIZES
+from . import items as items_sheet
+from .fairness import demographic_columns
+
+__all__ = ["Dif", "write", "MIN_GROUP"]
+
+SHEET = "DIF"
+#: People with every item answered each compared group needs (common practice: below this the MH and
+#: logistic statistics are too unstable to categorise; operational programmes use hundreds, Zwick 2012).
+MIN_GROUP = 100
+#: The Items sheet's column for the DIF flag.
+ITEMS_COLUMN = 7
+
+_COLUMNS = (("MH common odds ratio", "coef"), ("MH D-DIF (−2.35 ln α)", "coef"), ("MH χ² (1 df)", "coef"),
+            ("MH p", "p"), ("ETS category (MH)", None), ("Logistic 2-df p", "p"), ("Nagelkerke ΔR²", "coef"),
+            ("Category, Zumbo–Thomas (ΔR² .13/.26)", None), ("Category, Jodoin–Gierl (ΔR² .035/.070)", None))
+
+
+@dataclasses.dataclass(frozen=True)
+class Dif:
+    """Per focal group name: the ETS category cells of the items, in item order (empty when not computed)."""
+
+    classes: dict
+
+
+def write(ctx: StudyContext, predictor) -> Dif:
+    """``predictor``: a :class:`.predictors.Predictor` (its item range and group numbers)."""
+    d, s = ctx.data, ctx.setup
+    columns = demographic_columns(ctx)
+    if not d.binary_items or not columns or predictor.rel.items is None:
+        return Dif({})
+    g = ctx.sheet(SHEET)
+    g.widths.update({1: 20, **{c: 14 for c in range(2, 11)}})
+    g.set(1, 1, f"Item bias (DIF) of {s.test_name}: 0/1 items, people matched on the total score", "title")
+    row = 2 + g.para(2, 1, CAUTION, "caution")
+    row += g.para(row, 1, DIF_CAUTION, "caution")
+    row += 1 + g.para(row, 1, DIF_SIZES.format(minimum=MIN_GROUP))
+    complete = ~np.isnan(d.items).any(axis=1)
+    numbers = predictor.layout.group_numbers
+    # read-only arrays, as the recalculation passes them: the tables are then counted once for all the checks
+    codes = np.array([[np.nan if numbers.get(x) is None else numbers[x]] for x in d.groups], dtype=float)
+    codes.flags.writeable = False
+    groups_ref = predictor.group_numbers.with_value(codes)
+    item_values = predictor.rel.items.value
+    if isinstance(item_values, np.ndarray):
+        item_values = item_values.view()
+        item_values.flags.writeable = False
+    items_ref = predictor.rel.items.with_value(item_values)
+    out: dict = {}
+    for header, labels in columns:
+        counts = {name: int(sum(1 for i, x in enumerate(labels) if x == name and complete[i])) for name in numbers}
+        g.set(row, 1, f"Groups of column {header!r}", "heading")
+        row += 1
+        for name in numbers:
+            g.set(row, 1, name)
+            g.set(row, 2, counts[name], "count")
+            g.set(row, 3, "people with every item answered" + ("" if counts[name] >= MIN_GROUP else
+                                                                 f"; fewer than {MIN_GROUP}: not compared"))
+            row += 1
+        enough = [n for n in numbers if counts[n] >= MIN_GROUP]
+        reference = _reference(s.reference_group, counts, enough)
+        if reference is None or len(enough) < 2:
+            ctx.not_computable_at(g, row + 1, 1, f"DIF needs at least two groups with {MIN_GROUP} or more people who "
+                                                 f"answered every item", key="dif")
+            row += 3
+            continue
+        g.set(row + 1, 1, "Reference group")
+        g.set(row + 1, 2, reference, "header")
+        row += 3
+        for name in enough:
+            if name != reference:
+                row, out[name] = _table(ctx, g, row, items_ref, groups_ref, name, reference, numbers)
+    _flags(ctx, out)
+    return Dif(out)
+
+
+def _reference(given, counts, enough):
+    if given:
+        from trueband.funcs.impact import group_key
+
+        match = next((n for n in enough if group_key(n) == group_key(given)), None)
+        if match is not None:
+            return match
+    return max(enough, key=lambda n: counts[n]) if enough else None
+
+
+def _table(ctx: StudyContext, g, row: int, items, groups, name: str, reference: str, numbers) -> tuple[int, list]:
+    """One focal group's table, an item a row; returns the next free row and the items' ETS category cells."""
+    d = ctx.data
+    g.set(row, 1, f"Focal group {name} (reference {reference}); negative D-DIF: the item is harder for {name}",
+          "heading")
+    g.set(row + 1, 1, "Item", "header")
+    for c, (h, _) in enumerate(_COLUMNS, start=2):
+        g.set(row + 1, c, h, "header")
+    classes = []
+    for j, col in enumerate(d.item_columns):
+        r = row + 2 + j
+        g.set(r, 1, d.header[col])
+        args = (items, groups, j + 1, numbers[name], numbers[reference])
+        key = f"dif_{name}_{j + 1}"
+        opts = dict(checked=ctx.full_checks)
+        delta = ctx.formula(g, r, 3, "DIF_MH_DELTA", *args, style="coef", key=key + "_delta", **opts)
+        ctx.expression(g, r, 2, "EXP(-{delta}/2.35)", None, style="coef", delta=delta)
+        p = ctx.formula(g, r, 5, "DIF_MH_P", *args, style="p", key=key + "_mh_p", **opts)
+        ctx.expression(g, r, 4, "CHIINV({p},1)", None, style="coef", p=p)
+        classes.append(ctx.formula(g, r, 6, "DIF_MH_CLASS", *args, key=key + "_mh_class", **opts))
+        ctx.formula(g, r, 7, "DIF_LR_P", *args, style="p", key=key + "_lr_p", **opts)
+        ctx.formula(g, r, 8, "DIF_LR_R2", *args, style="coef", key=key + "_lr_r2", **opts)
+        for c, convention in ((9, "Zumbo-Thomas"), (10, "Jodoin-Gierl")):
+            ctx.formula(g, r, c, "DIF_LR_CLASS", *args, convention, key=f"{key}_lr_{convention.lower()}", **opts)
+    return row + 3 + len(d.item_columns), classes
+
+
+def _flags(ctx: StudyContext, classes: dict) -> None:
+    """Each item's worst ETS category over the focal groups, in a column of the Items sheet."""
+    g = ctx.grids.get(sheet_title(items_sheet.SHEET))
+    if g is None or not classes:
+        return
+    g.set(items_sheet.FIRST_ROW - 1, ITEMS_COLUMN, "DIF (worst ETS category, see DIF)", "header")
+    g.widths[ITEMS_COLUMN] = 20
+    for j in range(len(ctx.data.item_columns)):
+        cells = [cells[j] for cells in classes.values() if not isinstance(cells[j].value, Exception)]
+        r = items_sheet.FIRST_ROW + j
+        if not cells:
+            g.set(r, ITEMS_COLUMN, "see DIF", "na")
+            continue
+        places = {f"c{k}": ref for k, ref in enumerate(cells)}
+        any_of = lambda letter: "OR(" + ",".join(f'{{c{k}}}="{letter}"' for k in range(len(cells))) + ")"  # noqa: E731
+        g.set(r, ITEMS_COLUMN, ctx.text(f'=IF({any_of("C")},"C: review",IF({any_of("B")},"B","A"))',
+                                        items_sheet.SHEET, **places))

@@ -1,0 +1,207 @@
+"""Fairness: differential prediction of the criterion from a predictor's score, group by group (Cleary 1968).
+
+For each demographic column (today the study's group column, read through :func:`demographic_columns`) and
+each group with enough people who have a score and a criterion value, against the reference group: the
+step-down tests (slopes, then intercepts, ``PREDICTION_SLOPE_P`` / ``PREDICTION_INTERCEPT_P``), each group's
+line and the common line (``INTERCEPT`` / ``SLOPE`` over the group's own columns, the slope's interval from
+``STEYX`` and ``DEVSQ``), and the gap at the cut (``PREDICTION_GAP``), with a chart of one line per group.
+
+The people with a score and a criterion value are listed from column T (their Bands row, score, criterion
+and group number, then one criterion and one score column per group), so every range holds numbers only.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+
+from .. import charts
+from ..context import Ref, StudyContext, area, cell, fill_row
+from ..words import CAUTION, FAIRNESS_CAUTION, FAIRNESS_READING
+from .bands import BANDS_SHEET
+
+__all__ = ["Fairness", "write", "MIN_GROUP", "demographic_columns"]
+
+SHEET = "Fairness"
+#: People with a score and a criterion value each group needs before its line is compared (common practice:
+#: fewer give lines too unstable to read; even this many give the tests little power).
+MIN_GROUP = 20
+LIST_COL, LIST_ROW = 20, 3   # the listing's first column (T) and first row
+
+
+@dataclasses.dataclass(frozen=True)
+class Fairness:
+    """The gap at the cut and the two p values of each focal group (by group name); empty when not computed."""
+
+    gaps: dict
+    slope_p: dict
+    intercept_p: dict
+
+
+def demographic_columns(ctx: StudyContext) -> list[tuple[str, list]]:
+    """(column header, each person's group label) of every demographic column the study compares groups on.
+
+    Today the one ``group column``; the one place a list of columns will be read from."""
+    d = ctx.data
+    if "group" not in d.columns or d.group_tally is None:
+        return []
+    return [(d.header[d.columns["group"]], list(d.groups))]
+
+
+def write(ctx: StudyContext, predictor) -> Fairness:
+    """``predictor``: a :class:`.predictors.Predictor` (its Bands ranges and Setup cells)."""
+    d, s = ctx.data, ctx.setup
+    empty = Fairness({}, {}, {})
+    columns = demographic_columns(ctx)
+    if d.criterion is None or not columns:
+        return empty
+    g = ctx.sheet(SHEET)
+    g.widths.update({1: 44, 2: 14, 3: 14, 4: 14, 5: 14, 6: 16, 7: 40})
+    g.set(1, 1, f"Fairness: differential prediction of {s.criterion or 'the criterion'} from {s.test_name}", "title")
+    row = 2 + g.para(2, 1, CAUTION, "caution")
+    row += 1 + g.para(row, 1, FAIRNESS_CAUTION, "caution")
+    scores, criterion = d.scores, d.criterion
+    both = ~np.isnan(scores) & ~np.isnan(criterion)
+    listed = np.flatnonzero(both)
+    numbers = predictor.layout.group_numbers
+    out = empty
+    for header, labels in columns:
+        row, out = _column(ctx, g, row, predictor, header, labels, listed, numbers)
+    return out
+
+
+def _column(ctx, g, row, predictor, header, labels, listed, numbers):
+    d, s = ctx.data, ctx.setup
+    g.set(row, 1, f"Groups of column {header!r}", "heading")
+    row += 1
+    group_of = [labels[i] for i in listed]
+    counts = {name: sum(1 for x in group_of if x == name) for name in numbers}
+    enough = [name for name in numbers if counts[name] >= MIN_GROUP]
+    reference = _reference(s.reference_group, counts, enough)
+    for name in numbers:
+        g.set(row, 1, f"People with a score and a criterion value in {name}")
+        g.set(row, 2, counts[name], "count")
+        if counts[name] < MIN_GROUP:
+            g.set(row, 3, f"fewer than {MIN_GROUP}: this group's line is not compared", "na")
+        row += 1
+    if reference is None or len(enough) < 2:
+        ctx.not_computable_at(g, row + 1, 1, f"differential prediction needs at least two groups with {MIN_GROUP} or "
+                                             f"more people who have a score and a criterion value", key="fairness")
+        return row + 3, Fairness({}, {}, {})
+    listing = _listing(ctx, g, predictor, listed, [numbers.get(x) for x in group_of], enough)
+    row += 1
+    g.set(row, 1, "Reference group (the group each other group is compared with)")
+    g.set(row, 2, reference, "header")
+    row += 2
+    out = Fairness({}, {}, {})
+    for name in enough:
+        if name != reference:
+            row = _tests(ctx, g, row, predictor, listing, name, reference, numbers, out)
+    row = _lines(ctx, g, row, predictor, listing, enough)
+    row += g.para(row, 1, FAIRNESS_READING) + 1
+    return row, out
+
+
+def _reference(given, counts, enough):
+    if given:
+        from trueband.funcs.impact import group_key
+
+        match = next((n for n in enough if group_key(n) == group_key(given)), None)
+        if match is not None:
+            return match
+    # the largest group with a criterion value (common practice: the majority group as the reference)
+    return max(enough, key=lambda n: counts[n]) if enough else None
+
+
+def _listing(ctx, g, predictor, listed, group_numbers, groups) -> dict:
+    """Columns T onwards: the people with a score and a criterion value; returns their ranges (with values)."""
+    d = ctx.data
+    end = LIST_ROW - 1 + len(listed)
+    c = LIST_COL
+    for k, h in enumerate(("Row on Bands", "Score", "Criterion", "Group number")):
+        g.set(LIST_ROW - 1, c + k, h, "header")
+    places = dict(row=cell(SHEET, None, c))
+    texts = [ctx.text("=INDEX({column},{row})", SHEET, column=area(BANDS_SHEET, col, 1, col, predictor.layout.last),
+                      **places) for col in (3, 9, predictor.layout.group_col)]
+    per_group = []
+    for k, name in enumerate(groups):
+        number = predictor.layout.group_numbers[name]
+        here = dict(group=cell(SHEET, None, c + 3), number=number)
+        per_group.append((name, ctx.text('=IF({group}={number},{x},"")', SHEET, x=cell(SHEET, None, c + 2), **here),
+                          ctx.text('=IF({group}={number},{x},"")', SHEET, x=cell(SHEET, None, c + 1), **here)))
+        g.set(LIST_ROW - 1, c + 4 + 2 * k, f"Criterion, {name}", "header")
+        g.set(LIST_ROW - 1, c + 5 + 2 * k, f"Score, {name}", "header")
+    for k, i in enumerate(listed):
+        r = LIST_ROW + k
+        g.set(r, c, int(i) + 2)
+        for j, t in enumerate(texts):
+            g.set(r, c + 1 + j, fill_row(t, r))
+        for m, (_, crit_text, score_text) in enumerate(per_group):
+            g.set(r, c + 4 + 2 * m, fill_row(crit_text, r))
+            g.set(r, c + 5 + 2 * m, fill_row(score_text, r))
+    scores, criterion = d.scores[listed], d.criterion[listed]
+    codes = np.array([np.nan if x is None else x for x in group_numbers], dtype=float)
+    out = {"scores": area(SHEET, c + 1, LIST_ROW, c + 1, end, value=scores),
+           "criterion": area(SHEET, c + 2, LIST_ROW, c + 2, end, value=criterion),
+           "groups": area(SHEET, c + 3, LIST_ROW, c + 3, end, value=codes.tolist())}
+    for m, name in enumerate(groups):
+        mine = codes == predictor.layout.group_numbers[name]
+        out[("criterion", name)] = area(SHEET, c + 4 + 2 * m, LIST_ROW, c + 4 + 2 * m, end,
+                                        value=np.where(mine, criterion, np.nan))
+        out[("scores", name)] = area(SHEET, c + 5 + 2 * m, LIST_ROW, c + 5 + 2 * m, end,
+                                     value=np.where(mine, scores, np.nan))
+    return out
+
+
+def _tests(ctx, g, row, predictor, listing, name, reference, numbers, out: Fairness) -> int:
+    """The step-down tests and the gap at the cut of group ``name`` against ``reference``."""
+    g.set(row, 1, f"{name} compared with {reference}", "heading")
+    args = (listing["scores"], listing["criterion"], listing["groups"], numbers[name], numbers[reference])
+    g.set(row + 1, 1, "Step 1, slopes: p of the score × group term")
+    out.slope_p[name] = ctx.formula(g, row + 1, 2, "PREDICTION_SLOPE_P", *args, style="p",
+                                    key=f"fairness_slope_p_{name}")
+    g.set(row + 2, 1, "Step 2, intercepts (common slope): p of the group term")
+    out.intercept_p[name] = ctx.formula(g, row + 2, 2, "PREDICTION_INTERCEPT_P", *args, style="p",
+                                        key=f"fairness_intercept_p_{name}")
+    g.set(row + 3, 1, "Common line minus the group's own line at the cut")
+    gap = ctx.formula(g, row + 3, 2, "PREDICTION_GAP", *args, predictor.setup.cut_cell, style="coef",
+                      key=f"fairness_gap_{name}")
+    out.gaps[name] = gap
+    if isinstance(gap.value, float):
+        g.set(row + 3, 3, ctx.text('=IF({gap}>0,"the common line over-predicts this group\'s criterion at the cut",'
+                                   'IF({gap}<0,"the common line under-predicts this group\'s criterion at the cut",'
+                                   '"the lines meet at the cut"))', SHEET, gap=gap))
+    return row + 5
+
+
+def _lines(ctx, g, row, predictor, listing, groups) -> int:
+    """Each group's line (intercept, slope and its interval) and the common line, and the chart."""
+    conf = ctx.setup.confidence
+    head = ("Line: criterion = intercept + slope × score", "People", "Intercept", "Slope",
+            f"{conf:.0%} CI lower (slope)", f"{conf:.0%} CI upper (slope)", "Predicted criterion at the cut")
+    for c, h in enumerate(head, start=1):
+        g.set(row, c, h, "header")
+    rows = [(name, listing[("criterion", name)], listing[("scores", name)]) for name in groups]
+    rows.append(("All groups together (the common line)", listing["criterion"], listing["scores"]))
+    for k, (name, y, x) in enumerate(rows):
+        r = row + 1 + k
+        yv, xv = np.asarray(y.value, float), np.asarray(x.value, float)
+        keep = ~np.isnan(yv) & ~np.isnan(xv)
+        slope, intercept = np.polyfit(xv[keep], yv[keep], 1) if keep.sum() >= 3 and np.ptp(xv[keep]) > 0 else (
+            np.nan, np.nan)
+        g.set(r, 1, name)
+        n = ctx.expression(g, r, 2, "COUNT({y})", lambda m=int(keep.sum()): m, style="count", y=y)
+        b = ctx.expression(g, r, 3, "INTERCEPT({y},{x})", lambda v=float(intercept): v, style="coef", y=y, x=x)
+        a = ctx.expression(g, r, 4, "SLOPE({y},{x})", lambda v=float(slope): v, style="coef", y=y, x=x)
+        for c, sign in ((5, "-"), (6, "+")):
+            ctx.expression(g, r, c, "{a}" + sign + "TINV(1-{conf},{n}-2)*STEYX({y},{x})/SQRT(DEVSQ({x}))",
+                           None, style="coef", a=a, conf=predictor.setup.confidence, n=n, y=y, x=x)
+        ctx.expression(g, r, 7, "{b}+{a}*{cut}", None, style="coef", a=a, b=b, cut=predictor.setup.cut_cell)
+    last = row + len(rows)
+    series = [(name, charts.area(listing[("scores", name)]), charts.area(listing[("criterion", name)]))
+              for name in groups]
+    g.charts.append((charts.group_lines(series, x_title=ctx.setup.test_name, y_title=ctx.setup.criterion or
+                                        "Criterion"), f"A{last + 8}"))
+    g.print_area = f"A1:G{last + 28}"
+    return last + 2
