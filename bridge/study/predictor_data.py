@@ -19,6 +19,8 @@ __all__ = ["further_predictors", "columns_used"]
 
 #: The roles that are the study's, not a predictor's (the predictor's data take the study's reading).
 _STUDY_ROLES = ("id", "group", "hired")
+#: The study-wide impact settings (several demographic columns, strata, stages): read once, for the study
+_STUDY_WIDE_CLEARED = {"group_columns": (), "reference_groups": None, "stratum": None, "stages": ()}
 
 
 def columns_used(data: StudyData) -> dict[int, str]:
@@ -42,7 +44,7 @@ def further_predictors(data: StudyData, header, rows) -> list[StudyData]:
                              f"{predictor.test_name!r}; give each its own name (the sheets are named after it)")
         seen.add(key)
         setup = full_setup(data.setup, predictor)
-        own = dataclasses.replace(setup, **{role: None for role in _STUDY_ROLES})
+        own = dataclasses.replace(setup, **{role: None for role in _STUDY_ROLES}, **_STUDY_WIDE_CLEARED)
         name = setup.test_name
         try:
             pdata = check_data(own, data.path, data.sheet, header, rows)
