@@ -76,7 +76,11 @@ def plan(ctx: StudyContext) -> tuple[SetupSheet, Bands]:
     validity = sheets.validity.write(ctx, setup, rel, layout)
     impact = sheets.impact.write(ctx, setup, rel, layout)
     utility = sheets.utility.write(ctx, setup, layout, validity)
-    sheets.summary.write(ctx, setup, rel, raters, validity, impact, utility)
+    cut_score = sheets.cut_score.write(ctx, setup, rel, impact)
+    standard = sheets.judges.write(ctx, setup, rel, layout)
+    content = sheets.content.write(ctx)
+    sheets.summary.write(ctx, setup, rel, raters, validity, impact, utility, cut_score=cut_score,
+                         standard=standard, content=content)
     sheets.notes.write(ctx)
     return setup, bands
 

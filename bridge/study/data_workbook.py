@@ -10,6 +10,7 @@ from pathlib import Path
 from typing import Any, Mapping
 
 from .data_checks import check_data, note_uncached
+from .setup_cut import read_cut_inputs
 from .setup import SETUP_SHEET, SetupError, StudyData, cell_text, read_setup_sheet, setup_from_values
 
 __all__ = ["DataWorkbook", "read_study_data"]
@@ -137,6 +138,7 @@ def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None
                              f"{', '.join(wb.sheetnames)})")
         sheet = match
         grid, formats, uncached = wb.sheet(sheet)
+        cut_inputs = read_cut_inputs(wb, setup, SetupError)
     finally:
         wb.close()
     header = [cell_text(h) for h in grid[0]] if grid else []
@@ -155,5 +157,7 @@ def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None
     # the copy's rows stand in the same sheet rows as the source's (from row 2)
     data.formats = {(r, c - 1): f for (r, c), f in formats.items() if 2 <= r <= len(rows) + 1 and c <= width}
     note_uncached(data, uncached, width)
+    data.judgments, data.content_ratings = cut_inputs[:2]
+    data.problems.extend(cut_inputs[2])
     return data
 

@@ -60,6 +60,8 @@ from typing import Any, Mapping
 
 import numpy as np
 
+from .setup_cut import CUT_SETTINGS
+
 __all__ = ["SetupError", "StudySetup", "StudyData", "SETTINGS", "normalise_key", "cell_text", "read_setup_sheet",
            "SETUP_SHEET", "DEFAULT_CRITERION_RELIABILITY", "HIRED_CODINGS", "YES_CODES", "NO_CODES"]
 
@@ -101,6 +103,7 @@ SETTINGS: dict[str, tuple[str, str, str]] = {
     "job title": ("job_title", "text", "the job, for titles"),
     "organisation": ("organisation", "text", "the employer, for titles"),
 }
+SETTINGS.update(CUT_SETTINGS)  # the cut-score evidence: judges' sheet, method, content ratings (setup_cut)
 
 
 
@@ -136,6 +139,11 @@ class StudySetup:
     test_name: str = "the test"
     job_title: str = ""
     organisation: str = ""
+    judges_sheet: str | None = None             # the cut-score evidence (setup_cut)
+    standard_setting_method: str | None = None
+    sem_adjustment: float | None = None
+    content_sheet: str | None = None
+    content_critical: str | None = None
     source: Mapping[str, str] = dataclasses.field(default_factory=dict)  # field -> where it was given
 
     def merged(self, overrides: Mapping[str, Any]) -> "StudySetup":
@@ -179,6 +187,8 @@ class StudyData:
     item_scale: tuple[float, float] | None = None                   # (min, max) given, or read from the data
     item_scale_given: bool = False
     raw_items: np.ndarray | None = None                             # the responses before reverse keying
+    judgments: Any = None                                           # setup_cut.Judgments, when a judges' sheet is named
+    content_ratings: Any = None                                     # setup_cut.ContentRatings, when named
 
     @property
     def binary_items(self) -> bool:

@@ -32,6 +32,8 @@ from openpyxl.worksheet.datavalidation import DataValidation
 
 from ..formulas.calc_binding import bind_workbook
 from .demo import DemoData
+from .demo_cut import setup_values as cut_setup_values
+from .templates_cut import add_cut_sheets
 from .words import CAUTION
 from .setup import DEFAULT_CRITERION_RELIABILITY, SETTINGS, SETUP_SHEET
 
@@ -131,6 +133,7 @@ def study_data_workbook(path: str | Path, demo: DemoData | None = None, *, n_ite
         "job title": "cargo dispatch coordinator" if demo is not None else None,
         "organisation": "Osterfell Harbour Logistics" if demo is not None else None,
     }
+    values.update(cut_setup_values(demo))  # the judges' and content sheets (demo_cut)
     for r, (key, (_, kind, meaning)) in enumerate(SETTINGS.items(), start=2):
         st.cell(r, 1, key)
         c = st.cell(r, 2, values.get(key))
@@ -144,6 +147,7 @@ def study_data_workbook(path: str | Path, demo: DemoData | None = None, *, n_ite
                                   "for people not hired), name your columns above, then run: trueband study "
                                   "THIS_FILE.xlsx -o study.xlsx").alignment = _WRAP
     _caution(st, f"A{len(SETTINGS) + 5}", 3)
+    add_cut_sheets(wb, demo, cut)  # the judges' sheet and the experts' content ratings (templates_cut)
     bind_workbook(wb)  # registered calls as _xludf.NAME(, the form LibreOffice binds to the add-in
     wb.save(path)
     return path

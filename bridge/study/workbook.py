@@ -16,7 +16,7 @@ from .context import StudyContext
 from .grid import styled
 from .setup import SETUP_SHEET
 from .sheets import bands as bands_sheet
-from .sheets import data_copy, scored_items
+from .sheets import content, cut_score, data_copy, judges, scored_items
 from .sheets.bands import BANDS_SHEET, Bands
 from .sheets.scored_items import SCORED_SHEET
 from .sheets.setup import SetupSheet
@@ -25,6 +25,8 @@ __all__ = ["ANALYSIS_SHEETS", "save"]
 
 ANALYSIS_SHEETS = ("Summary", "Reliability", "Items", "Raters", "Validity", BANDS_SHEET, "Impact", "Utility",
                    "Notes")
+#: Sheets written only when the study has their data (cut score, judges' sheet, content ratings), after Utility.
+ANALYSIS_SHEETS = ANALYSIS_SHEETS[:-1] + (cut_score.SHEET, judges.SHEET, content.SHEET) + ANALYSIS_SHEETS[-1:]
 
 
 def _bands_header(wb: Workbook, bands: Bands) -> None:
@@ -46,6 +48,8 @@ def save(ctx: StudyContext, setup: SetupSheet, bands: Bands, path: Path) -> None
     for title in ANALYSIS_SHEETS:
         if title == BANDS_SHEET:
             _bands_header(wb, bands)
+        elif title in (cut_score.SHEET, judges.SHEET, content.SHEET) and title not in ctx.grids:
+            continue  # not part of this study
         else:
             ctx.grids[title].write(wb)
     ctx.grids[SETUP_SHEET].write(wb)

@@ -26,6 +26,7 @@ DISTRIBUTION_ROW, DISTRIBUTION_COL = 5, 12   # the score distribution's heading 
 @dataclasses.dataclass(frozen=True)
 class Impact:
     min_ratio: Ref   # the lowest impact ratio
+    rates: tuple = ()  # (group, its selection-rate cell) for each group, in the table's order
 
 
 def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLayout) -> Impact:
@@ -47,16 +48,17 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLa
         min_ratio = ctx.not_computable_at(g, row, 1, f"column {s.group!r} on sheet '{d.sheet}' holds {only}; impact "
                                                      f"compares groups", key="min_ratio")
     else:
-        min_ratio = _table(ctx, g, row, groups, setup, bands, chart_row=row + len(groups) + 10)
+        rates: dict[str, Ref] = {}
+        min_ratio = _table(ctx, g, row, groups, setup, bands, chart_row=row + len(groups) + 10, rates=rates)
         # beside the rates chart, on the same page
         _distribution(ctx, g, row + len(groups) + 10, setup, rel, cut, anchor_col="E")
-        return Impact(min_ratio)
+        return Impact(min_ratio, rates=tuple(rates.items()))
     _distribution(ctx, g, row + 3, setup, rel, cut)
     return Impact(min_ratio)
 
 
 def _table(ctx: StudyContext, g, row: int, groups: list[str], setup: SetupSheet, bands: BandsLayout,
-           chart_row: int) -> Ref:
+           chart_row: int, rates: dict | None = None) -> Ref:
     """The table of groups from ``row`` (the reference group above it) and its chart; returns the lowest ratio."""
     d = ctx.data
     scores = d.scores
@@ -95,7 +97,9 @@ def _table(ctx: StudyContext, g, row: int, groups: list[str], setup: SetupSheet,
                                     number=number, selected=selected_flags)
         chosen = ctx.expression(g, r, 3, "COUNTIFS({groups},{number},{selected},1)", lambda n=focal_selected: n,
                                 style="count", groups=group_numbers, number=number, selected=selected_flags)
-        ctx.formula(g, r, 4, "SELECTION_RATE", chosen, applicants, style="coef", key=f"rate_{name}")
+        rate = ctx.formula(g, r, 4, "SELECTION_RATE", chosen, applicants, style="coef", key=f"rate_{name}")
+        if rates is not None:
+            rates[name] = rate
         g.set(r, 10, ctx.text("=0.8*MAX({rates})", SHEET, rates=area(SHEET, 4, first, 4, last).fixed()), "coef")
         if name == reference:
             for c in range(5, 10):

@@ -67,7 +67,7 @@ def write(ctx: StudyContext) -> None:
     lines.append(("Conventions", "heading"))
     lines += [(text, "wrap") for text in CONVENTIONS]
     lines.append(("Methods and references", "heading"))
-    for name in FUNCTIONS_USED:
+    for name in FUNCTIONS_USED + _cut_functions(ctx):
         try:
             spec = lookup(name)
             lines.append((f"{name}: {spec.description} — {spec.reference}", "wrap"))
@@ -87,3 +87,11 @@ def write(ctx: StudyContext) -> None:
         else:
             g.set(row, 1, text, style)
             row += 1
+
+
+def _cut_functions(ctx: StudyContext) -> tuple[str, ...]:
+    """The functions of the cut-score evidence sheets this study has (Cut score, Standard setting, Content)."""
+    from . import content, cut_score, judges
+
+    return tuple(name for module in (cut_score, judges, content) if module.SHEET in ctx.grids
+                 for name in module.FUNCTIONS)
