@@ -54,15 +54,15 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, impact: Impact
     g.set(1, 1, "The cut score: measurement error and decision accuracy", "title")
     row = 3 + g.para(2, 1, CUT_SCORE_CAUTION, "caution")
     g.set(row, 1, "Cut score (from Setup): a candidate passes at or above it")
-    cut = ctx.link(g, row, 2, setup.cut_cell, style="score", key="cut_score_cut")
+    cut = ctx.link(g, row, 2, setup.cut_cell, style="score", key="cut_score_cut").with_value(setup.cut, "the cut")
     g.set(row + 1, 1, "Mean score")
     mean = ctx.formula(g, row + 1, 2, "AVERAGE", rel.scores, check=lambda: float(scores.mean()), style="score")
     g.set(row + 2, 1, "Standard deviation (n − 1), from Reliability")
-    sd = ctx.link(g, row + 2, 2, rel.sd, style="score")
+    sd = _named(ctx.link(g, row + 2, 2, rel.sd, style="score"), "the standard deviation")
     g.set(row + 3, 1, "Standard deviation (n, as the beta-binomial model takes it)")
     sd_n = ctx.formula(g, row + 3, 2, "STDEVP", rel.scores, check=lambda: _sd_n(scores), style="score")
     g.set(row + 4, 1, "Reliability used (from Reliability)")
-    reliability = ctx.link(g, row + 4, 2, rel.reliability, style="coef")
+    reliability = _named(ctx.link(g, row + 4, 2, rel.reliability, style="coef"), "the reliability")
     g.set(row + 5, 1, "Pass rate at the cut, everyone with a score")
     ctx.expression(g, row + 5, 2, 'COUNTIF({scores},">="&{cut})/COUNT({scores})',
                    lambda: float((scores >= setup.cut).mean()), style="pct", key="pass_rate", scores=rel.scores,
@@ -97,6 +97,11 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, impact: Impact
     row = _by_group(ctx, g, row, impact)
     _sliding_band(ctx, g, row + 1, rel, setup, scores)
     return dataclasses.replace(figures, csem=csem)
+
+
+def _named(ref: Ref, name: str) -> Ref:
+    """``ref`` named for the messages of the figures that need it ("it needs the reliability, ...")."""
+    return dataclasses.replace(ref, name=name)
 
 
 def _sd_n(scores: np.ndarray) -> float:
