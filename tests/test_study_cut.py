@@ -349,3 +349,73 @@ def test_unusable_settings_name_the_setting(tmp_path, setup, extra, match):
     with pytest.raises((SetupError, StudyError), match=match):
         make_study(path, tmp_path / "s.xlsx")
     assert not (tmp_path / "s.xlsx").exists()
+
+
+# ---------------------------------------------------------------- as LibreOffice Calc shows it
+
+@pytest.mark.slow
+def test_libreoffice_shows_and_recomputes_the_new_sheets(study, tmp_path, soffice):
+    # every formula cell of the three sheets as Calc shows the stored values; and, with a profile that makes
+    # Calc recompute on loading, every formula of standard functions only (COUNTIF, LARGE, INDEX/MATCH,
+    # AVERAGEIF, STDEVP, VARP, ROUNDUP, NORMSDIST...) recomputed by Calc itself to the value trueband stored
+    from openpyxl.formula import Tokenizer
+    from openpyxl.utils import get_column_letter, range_boundaries
+
+    from test_study_libreoffice import CSV_FILTER, RECALC_ALWAYS, convert, mismatched_cells, read_csv, same, shown
+    from trueband.funcs import REGISTRY
+    from trueband.funcs.registry import normalize_name
+
+    result, values, formulas = study
+    sheets = ("Cut score", "Standard setting", "Content")
+    convert(soffice, result.path, CSV_FILTER, tmp_path / "csv", tmp_path / "profile")
+    checked, mismatches = mismatched_cells(result, tmp_path, sheets)
+    assert checked > 300 and not mismatches, mismatches[:10]
+
+    folder = tmp_path / "again"
+    folder.mkdir()
+    profile = folder / "profile"
+    (profile / "user").mkdir(parents=True)
+    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
+    convert(soffice, result.path, CSV_FILTER, folder / "csv", profile)
+    memo: dict = {}
+
+    def uses_ours(sheet: str, coordinate: str) -> bool:
+        """Whether the cell calls a trueband function or reads (at any depth) a cell that does."""
+        key = (sheet, coordinate)
+        if key not in memo:
+            memo[key] = False  # no cycles in a study; this stops a walk that meets itself
+            text = formulas[sheet][coordinate].value
+            if isinstance(text, str) and text.startswith("="):
+                tokens = Tokenizer(text).items
+                names = {normalize_name(t.value.rstrip("(")) for t in tokens if t.type == "FUNC" and t.subtype == "OPEN"}
+                memo[key] = bool(names & set(REGISTRY)) or any(
+                    uses_ours(*ref) for t in tokens if t.type == "OPERAND" and t.subtype == "RANGE"
+                    for ref in cells_of(t.value, sheet))
+        return memo[key]
+
+    def cells_of(reference: str, sheet: str):
+        if "!" in reference:
+            sheet, reference = reference.rsplit("!", 1)
+            sheet = sheet.strip("'").replace("''", "'")
+        (c0, r0, c1, r1) = range_boundaries(reference.replace("$", ""))
+        for r in range(r0, r1 + 1):
+            for c in range(c0, c1 + 1):
+                yield sheet, f"{get_column_letter(c)}{r}"
+
+    recomputed, wrong = {}, []
+    for sheet in sheets:
+        rows = read_csv(folder, sheet)
+        for row in formulas[sheet].iter_rows():
+            for cell in row:
+                text = cell.value
+                if not (isinstance(text, str) and text.startswith("=")):
+                    continue
+                theirs = shown(rows, cell.row, cell.column)
+                if uses_ours(sheet, cell.coordinate):
+                    continue  # a trueband function, or a cell that depends on one: Calc has no add-in here
+                recomputed[sheet] = recomputed.get(sheet, 0) + 1
+                if not same(values[sheet][cell.coordinate].value, theirs):
+                    wrong.append((sheet, cell.coordinate, text[:60], values[sheet][cell.coordinate].value, theirs))
+    assert not wrong, wrong[:10]
+    # Content: panel and essential counts of 40 items, and the summary counts; Cut score: the sliding band
+    assert recomputed.get("Content", 0) >= 80 and recomputed.get("Cut score", 0) >= 10, recomputed
