@@ -31,6 +31,7 @@ from . import sheets
 from .context import StudyContext
 from .data_workbook import read_study_data
 from .setup import SETUP_SHEET, SetupError, StudyData
+from .setup_answers import ANSWERS_SHEET
 from .sheets.bands import Bands
 from .sheets.scored_items import SCORED_SHEET
 from .sheets.setup import SetupSheet
@@ -72,6 +73,7 @@ def plan(ctx: StudyContext) -> tuple[SetupSheet, Bands]:
     rel = sheets.reliability.write(ctx, setup, layout)
     bands = sheets.bands.plan(ctx, layout, setup, rel)
     sheets.items.write(ctx, setup, rel)
+    options = sheets.distractors.write(ctx, rel)
     raters = sheets.raters.write(ctx, setup)
     validity = sheets.validity.write(ctx, setup, rel, layout)
     impact = sheets.impact.write(ctx, setup, rel, layout)
@@ -80,7 +82,7 @@ def plan(ctx: StudyContext) -> tuple[SetupSheet, Bands]:
     standard = sheets.judges.write(ctx, setup, rel, layout)
     content = sheets.content.write(ctx)
     sheets.summary.write(ctx, setup, rel, raters, validity, impact, utility, cut_score=cut_score,
-                         standard=standard, content=content)
+                         standard=standard, content=content, options=options)
     sheets.notes.write(ctx)
     return setup, bands
 
@@ -91,7 +93,7 @@ def _check_layout(d: StudyData) -> None:
             if b != a + 1:
                 raise SetupError(f"{role}: the columns must stand side by side on sheet '{d.sheet}'; "
                                  f"{d.header[b]!r} does not follow {d.header[a]!r}")
-    taken = {t.lower() for t in ANALYSIS_SHEETS} | {SETUP_SHEET.lower(), SCORED_SHEET.lower()}
+    taken = {t.lower() for t in ANALYSIS_SHEETS} | {SETUP_SHEET.lower(), SCORED_SHEET.lower(), ANSWERS_SHEET.lower()}
     if d.sheet.lower() in taken:
         raise SetupError(f"the data sheet is called '{d.sheet}', a name the study uses for one of its own "
                          f"sheets; rename it (e.g. 'Candidates')")

@@ -10,6 +10,7 @@ from pathlib import Path
 from typing import Any, Mapping
 
 from .data_checks import check_data, note_uncached
+from .setup_answers import attach_answers, read_answer_key, score_rows
 from .setup_cut import read_cut_inputs
 from .setup import SETUP_SHEET, SetupError, StudyData, cell_text, read_setup_sheet, setup_from_values
 
@@ -139,6 +140,7 @@ def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None
         sheet = match
         grid, formats, uncached = wb.sheet(sheet)
         cut_inputs = read_cut_inputs(wb, setup, SetupError)
+        answer_key = read_answer_key(wb, setup, SetupError)
     finally:
         wb.close()
     header = [cell_text(h) for h in grid[0]] if grid else []
@@ -152,7 +154,12 @@ def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None
         rows.pop()
     if not rows:
         raise SetupError(f"sheet '{sheet}' has a header row but no data rows below it")
+    raw_rows = rows
+    if answer_key is not None:  # raw answers: the checks read them scored 1/0
+        rows, scored = score_rows(answer_key, header, rows, setup, SetupError)
     data = check_data(setup, path, sheet, header, rows)
+    if answer_key is not None:
+        attach_answers(data, answer_key, scored, raw_rows, SetupError)
     data.raw_header = list(grid[0][:width])
     # the copy's rows stand in the same sheet rows as the source's (from row 2)
     data.formats = {(r, c - 1): f for (r, c), f in formats.items() if 2 <= r <= len(rows) + 1 and c <= width}

@@ -60,6 +60,7 @@ from typing import Any, Mapping
 
 import numpy as np
 
+from .setup_answers import ANSWER_SETTINGS
 from .setup_cut import CUT_SETTINGS
 
 __all__ = ["SetupError", "StudySetup", "StudyData", "SETTINGS", "normalise_key", "cell_text", "read_setup_sheet",
@@ -104,6 +105,7 @@ SETTINGS: dict[str, tuple[str, str, str]] = {
     "organisation": ("organisation", "text", "the employer, for titles"),
 }
 SETTINGS.update(CUT_SETTINGS)  # the cut-score evidence: judges' sheet, method, content ratings (setup_cut)
+SETTINGS.update(ANSWER_SETTINGS)  # raw multiple-choice answers and their key (setup_answers)
 
 
 
@@ -144,6 +146,7 @@ class StudySetup:
     sem_adjustment: float | None = None
     content_sheet: str | None = None
     content_critical: str | None = None
+    answer_key_sheet: str | None = None         # raw answers and their key (setup_answers)
     source: Mapping[str, str] = dataclasses.field(default_factory=dict)  # field -> where it was given
 
     def merged(self, overrides: Mapping[str, Any]) -> "StudySetup":
@@ -189,6 +192,14 @@ class StudyData:
     raw_items: np.ndarray | None = None                             # the responses before reverse keying
     judgments: Any = None                                           # setup_cut.Judgments, when a judges' sheet is named
     content_ratings: Any = None                                     # setup_cut.ContentRatings, when named
+    answer_key: tuple | None = None                                 # keyed option per item, when answers are raw
+    answer_options: tuple | None = None                             # the options offered per item (None: not given)
+    raw_answers: np.ndarray | None = None                           # the raw answers (object), None for a blank
+
+    @property
+    def scored_sheet(self) -> bool:
+        """Whether the item scores the study uses are on the Scored items sheet (reverse keying or raw answers)."""
+        return bool(self.reverse_items) or self.answer_key is not None
 
     @property
     def binary_items(self) -> bool:

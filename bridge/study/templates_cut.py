@@ -6,10 +6,11 @@ from __future__ import annotations
 from openpyxl.styles import Alignment, Font, PatternFill
 
 from .demo import DemoData
+from .demo_answers import KEY_SHEET, key_rows, raw_answers
 from .demo_cut import CONTENT_SHEET, JUDGES_SHEET, content_rows, judges_rows
 from .setup_cut import BLOCKS
 
-__all__ = ["add_cut_sheets"]
+__all__ = ["add_cut_sheets", "add_answer_key", "answer_rows"]
 
 _BOLD = Font(bold=True)
 _TITLE = Font(bold=True, size=12)
@@ -40,3 +41,22 @@ def add_cut_sheets(wb, demo: DemoData | None, cut: float | None) -> None:
             cell = cs.cell(r, c, value)
             if r == 1:
                 cell.font, cell.fill, cell.alignment = _BOLD, _HEADER_FILL, _WRAP
+
+
+def answer_rows(demo: DemoData):
+    """The demo's data rows with the raw answers (letters) in place of the 0/1 item scores."""
+    answers = raw_answers(demo)
+    k = len(demo.item_names)
+    for i, row in enumerate(demo.rows()):
+        yield [row[0], row[1], *answers[i], *row[2 + k:]]
+
+
+def add_answer_key(wb, demo: DemoData) -> None:
+    """Append the answer key sheet: item headers, keys, options offered."""
+    ws = wb.create_sheet(KEY_SHEET)
+    ws.column_dimensions["A"].width = 16
+    for r, row in enumerate(key_rows(demo), start=1):
+        for c, value in enumerate(row, start=1):
+            cell = ws.cell(r, c, value)
+            if r == 1 or c == 1:
+                cell.font = _BOLD

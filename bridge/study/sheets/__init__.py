@@ -6,8 +6,8 @@ sheets is a frozen dataclass returned by the sheet that makes it.
 
 from . import bands, data_copy, impact, items, notes, raters, reliability, scored_items, setup, summary, utility
 from . import validity
-from . import content, cut_score, judges
+from . import content, cut_score, distractors, judges
 
 __all__ = ["bands", "data_copy", "impact", "items", "notes", "raters", "reliability", "scored_items", "setup",
            "summary", "utility", "validity"]
-__all__ += ["content", "cut_score", "judges"]
+__all__ += ["content", "cut_score", "distractors", "judges"]

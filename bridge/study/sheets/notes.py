@@ -91,7 +91,7 @@ def write(ctx: StudyContext) -> None:
 
 def _cut_functions(ctx: StudyContext) -> tuple[str, ...]:
     """The functions of the cut-score evidence sheets this study has (Cut score, Standard setting, Content)."""
-    from . import content, cut_score, judges
+    from . import content, cut_score, distractors, judges
 
-    return tuple(name for module in (cut_score, judges, content) if module.SHEET in ctx.grids
+    return tuple(name for module in (distractors, cut_score, judges, content) if module.SHEET in ctx.grids
                  for name in module.FUNCTIONS)

@@ -19,7 +19,8 @@ SHEET = "Summary"
 
 
 def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, raters: Raters, validity: Validity,
-          impact: Impact, utility: Utility, *, cut_score=None, standard=None, content=None) -> None:
+          impact: Impact, utility: Utility, *, cut_score=None, standard=None, content=None,
+          options=None) -> None:
     g = ctx.sheet(SHEET)
     g.landscape = True
     g.widths.update({1: 62, 2: 16, 3: 16, 4: 16})
@@ -57,7 +58,7 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, raters: Raters
         ("Money gain from one year's hires (Brogden–Cronbach–Gleser; inputs on Utility)", "bcg", utility.bcg,
          "money", None),
     ]
-    rows += _cut_rows(cut_score, standard, content)
+    rows += _cut_rows(cut_score, standard, content, options)
     r = first_row
     for label, key, figure, style, extra in rows:
         if key is None:
@@ -98,9 +99,14 @@ def _figure(ctx: StudyContext, g, r: int, c: int, key: str, figure: Ref, style: 
     ctx.name(f"summary_{key}", cell(SHEET, r, c))
 
 
-def _cut_rows(cut_score, standard, content) -> list[tuple]:
-    """The headline rows of the cut-score evidence (Cut score, Standard setting, Content), when the study has them."""
+def _cut_rows(cut_score, standard, content, options=None) -> list[tuple]:
+    """The headline rows of the cut-score evidence (Options, Cut score, Standard setting, Content), when the study
+    has them."""
     rows: list[tuple] = []
+    if options is not None:
+        rows.append(("Do the answer options work?", None, None, "", None))
+        rows.append(("Items with at least one flag on the Options sheet (check the key first)", "items_flagged",
+                     options.flagged, "count", None))
     if cut_score is not None or standard is not None:
         rows.append(("Is the cut score defensible?", None, None, "", None))
     if standard is not None and standard.method_cut is not None:
