@@ -156,7 +156,7 @@ def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None
         raise SetupError(f"sheet '{sheet}' has a header row but no data rows below it")
     raw_rows = rows
     if answer_key is not None:  # raw answers: the checks read them scored 1/0
-        rows, scored = score_rows(answer_key, header, rows, setup, SetupError)
+        rows, scored = score_rows(answer_key, header, rows, setup, sheet, SetupError)
     data = check_data(setup, path, sheet, header, rows)
     if answer_key is not None:
         attach_answers(data, answer_key, scored, raw_rows, SetupError)

@@ -79,15 +79,20 @@ def read_answer_key(wb, setup, error) -> AnswerKey | None:
     return AnswerKey(sheet, keys, options)
 
 
-def score_rows(key: AnswerKey, header: list, rows: list, setup, error) -> tuple[list, dict]:
+def score_rows(key: AnswerKey, header: list, rows: list, setup, sheet: str, error) -> tuple[list, dict]:
     """``rows`` with each item column scored 1/0 (a blank left blank), and the columns scored: 0-based column ->
     its key. Every item column named on Setup must have a key."""
+    from .data_checks import _header_index, _resolve_many  # the one reading of the item columns' names
+
     by_name = {str(h).strip().lower(): c for c, h in enumerate(header) if h is not None}
     scored = {c: key.keys[name] for name, c in by_name.items() if name in key.keys}
-    named = [i.strip().lower() for i in setup.items if ":" not in i]
-    missing = [n for n in named if n not in key.keys]
-    if missing:
-        raise error(f"answer key sheet: item {missing[0]!r} has no key on sheet '{key.sheet}'")
+    if setup.items:
+        index, dupes = _header_index(header, sheet)
+        missing = [c for c in _resolve_many(setup.items, "item columns", index, dupes, header, sheet)
+                   if c not in scored]
+        if missing:
+            raise error(f"answer key sheet: item {header[missing[0]]!r} has no key on sheet '{key.sheet}' (row 1 "
+                        f"its header, row 2 its key)")
     out = []
     for row in rows:
         row = list(row)
