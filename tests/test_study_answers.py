@@ -106,7 +106,7 @@ def test_every_flag_that_applies_is_shown(study, answers):
         flags = item_flags(table, item, options="ABCD")
         for flag in flags:
             assert words[flag.code] in shown, (item, flag)
-        assert shown.count("; ") == len(flags), (item, shown, [f.code for f in flags])
+        assert shown.count(";") == len(flags) and not shown.endswith(" "), (item, shown, [f.code for f in flags])
     mis = rows[(f"Q{MISKEYED_ITEM + 1:02d}", "A")][11]
     assert "negative" in mis and "check the key" in mis and "alpha rises" in mis
     assert "nobody chose distractor" in rows[(f"Q{UNUSED_DISTRACTOR_ITEM + 1:02d}", "A")][11]
@@ -172,3 +172,34 @@ def test_unusable_keys_are_refused_in_one_line(tmp_path, extra, setup, match):
     with pytest.raises(SetupError, match=match):
         make_study(path, tmp_path / "s.xlsx")
     assert not (tmp_path / "s.xlsx").exists()
+
+
+def test_libreoffice_shows_and_recomputes_the_keyed_sheets(study, tmp_path, soffice):
+    # Calc shows every formula cell of Options, Answers and Scored items as trueband stored it; and, recomputing
+    # on loading, Calc's own IF/UPPER/TRIM scoring and the answer links give the stored values too
+    from openpyxl.utils import get_column_letter
+
+    from test_study_libreoffice import CSV_FILTER, RECALC_ALWAYS, convert, mismatched_cells, read_csv, same, shown
+
+    result, values, formulas = study
+    sheets = ("Options", "Answers", "Scored items")
+    convert(soffice, result.path, CSV_FILTER, tmp_path / "csv", tmp_path / "profile")
+    checked, mismatches = mismatched_cells(result, tmp_path, sheets)
+    assert checked > 2 * 400 * 40 and not mismatches, mismatches[:10]
+
+    folder = tmp_path / "again"
+    folder.mkdir()
+    profile = folder / "profile"
+    (profile / "user").mkdir(parents=True)
+    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
+    convert(soffice, result.path, CSV_FILTER, folder / "csv", profile)
+    wrong, count = [], 0
+    for sheet in ("Answers", "Scored items"):  # standard functions only: Calc recomputes them itself
+        rows = read_csv(folder, sheet)
+        for r in range(2, 402):
+            for c in range(1 if sheet == "Scored items" else 2, 41 + (sheet == "Answers")):
+                coordinate = f"{get_column_letter(c)}{r}"
+                count += 1
+                if not same(values[sheet][coordinate].value, shown(rows, r, c)):
+                    wrong.append((sheet, coordinate, values[sheet][coordinate].value, shown(rows, r, c)))
+    assert count == 2 * 400 * 40 and not wrong, wrong[:10]

@@ -26,12 +26,14 @@ FRACTION = 0.27   # Kelley (1939)
 _HEAD = ("Item", "Option", "Keyed?", "Share choosing it", "Upper 27%", "Lower 27%", "Option–rest r",
          "Option flags", "D (upper − lower)", "Corrected item–total r", "Alpha without the item", "Item flags")
 
-#: What each flag says (the formulas and the build-time check use the same words).
+#: What each flag says (the formulas and the build-time check use the same words). No flag text ends in a
+#: space: a spreadsheet app may drop a trailing space when it shows or exports text, so the flags are joined
+#: by single spaces inside TRIM.
 NOBODY = "nobody chose distractor "
-POSITIVE = " correlates positively with the rest of the test: check the key; "
-UPPER = " is chosen more by the upper group than the lower: check the key; "
-NEGATIVE = "corrected item-total r is negative: check the key; "
-ALPHA = "alpha rises without this item; "
+POSITIVE = " correlates positively with the rest of the test: check the key;"
+UPPER = " is chosen more by the upper group than the lower: check the key;"
+NEGATIVE = "corrected item-total r is negative: check the key;"
+ALPHA = "alpha rises without this item;"
 
 
 @dataclasses.dataclass(frozen=True)
@@ -109,19 +111,24 @@ def _number(ref: Ref) -> float:
     return ref.value if isinstance(ref.value, (int, float)) and not isinstance(ref.value, bool) else 0.0
 
 
+def _joined(text: str) -> str:
+    """What TRIM gives: no leading or trailing spaces, single spaces inside."""
+    return " ".join(part for part in text.split(" ") if part)
+
+
 def _option_flag(ctx: StudyContext, g, r: int, opt: Ref, share: Ref, upper: Ref, lower: Ref, rest: Ref) -> Ref:
     def expected():
         text = ""
         if isinstance(share.value, float) and share.value == 0:
-            text += NOBODY + opt.value + "; "
+            text += NOBODY + opt.value + ";"
         if _number(rest) > 0:
-            text += opt.value + POSITIVE
+            text += " " + opt.value + POSITIVE
         if _number(upper) > _number(lower):
-            text += opt.value + UPPER
-        return text
+            text += " " + opt.value + UPPER
+        return _joined(text)
 
-    template = ('IF({share}=0,{nobody}&{opt}&"; ","")&IF(N({rest})>0,{opt}&{positive},"")'
-                '&IF(N({upper})>N({lower}),{opt}&{up},"")')
+    template = ('TRIM(IF({share}=0,{nobody}&{opt}&";","")&IF(N({rest})>0," "&{opt}&{positive},"")'
+                '&IF(N({upper})>N({lower})," "&{opt}&{up},""))')
     return ctx.expression(g, r, 8, template, expected, share=share, opt=opt, rest=rest, upper=upper, lower=lower,
                           nobody=NOBODY, positive=POSITIVE, up=UPPER)
 
@@ -131,11 +138,11 @@ def _item_flag(ctx: StudyContext, g, r: int, total_r: Ref, without: Ref, alpha: 
     def expected():
         text = NEGATIVE if _number(total_r) < 0 else ""
         if _number(without) > _number(alpha):
-            text += ALPHA
-        return text + "".join(f.value if isinstance(f.value, str) else "" for f in option_flags)
+            text += " " + ALPHA
+        return _joined(text + "".join(" " + f.value for f in option_flags if isinstance(f.value, str)))
 
     places = {f"o{i}": f for i, f in enumerate(option_flags)}
-    template = ('IF(N({total})<0,{negative},"")&IF(N({without})>N({alpha}),{rises},"")'
-                + "".join(f"&{{o{i}}}" for i in range(len(option_flags))))
+    template = ('TRIM(IF(N({total})<0,{negative},"")&IF(N({without})>N({alpha})," "&{rises},"")'
+                + "".join(f'&" "&{{o{i}}}' for i in range(len(option_flags))) + ")")
     return ctx.expression(g, r, 12, template, expected, key=f"item_flags_{j + 1}", total=total_r, without=without,
                           alpha=alpha, negative=NEGATIVE, rises=ALPHA, **places)
