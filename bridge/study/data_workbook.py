@@ -9,7 +9,7 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any, Mapping
 
-from .data_checks import check_data, note_uncached
+from .data_checks import check_data, item_columns, note_uncached
 from .setup_answers import attach_answers, read_answer_key, score_rows
 from .setup_cut import read_cut_inputs
 from .setup import SETUP_SHEET, SetupError, StudyData, cell_text, read_setup_sheet, setup_from_values
@@ -156,7 +156,7 @@ def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None
         raise SetupError(f"sheet '{sheet}' has a header row but no data rows below it")
     raw_rows = rows
     if answer_key is not None:  # raw answers: the checks read them scored 1/0
-        rows, scored = score_rows(answer_key, header, rows, setup, sheet, SetupError)
+        rows, scored = score_rows(answer_key, header, rows, item_columns(setup, header, sheet), SetupError)
     data = check_data(setup, path, sheet, header, rows)
     if answer_key is not None:
         attach_answers(data, answer_key, scored, raw_rows, SetupError)

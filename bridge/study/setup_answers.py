@@ -79,17 +79,13 @@ def read_answer_key(wb, setup, error) -> AnswerKey | None:
     return AnswerKey(sheet, keys, options)
 
 
-def score_rows(key: AnswerKey, header: list, rows: list, setup, sheet: str, error) -> tuple[list, dict]:
+def score_rows(key: AnswerKey, header: list, rows: list, item_columns: list[int], error) -> tuple[list, dict]:
     """``rows`` with each item column scored 1/0 (a blank left blank), and the columns scored: 0-based column ->
-    its key. Every item column named on Setup must have a key."""
-    from .data_checks import _header_index, _resolve_many  # the one reading of the item columns' names
-
+    its key. Every one of ``item_columns`` (0-based, as the Setup names them) must have a key."""
     by_name = {str(h).strip().lower(): c for c, h in enumerate(header) if h is not None}
     scored = {c: key.keys[name] for name, c in by_name.items() if name in key.keys}
-    if setup.items:
-        index, dupes = _header_index(header, sheet)
-        missing = [c for c in _resolve_many(setup.items, "item columns", index, dupes, header, sheet)
-                   if c not in scored]
+    if item_columns:
+        missing = [c for c in item_columns if c not in scored]
         if missing:
             raise error(f"answer key sheet: item {header[missing[0]]!r} has no key on sheet '{key.sheet}' (row 1 "
                         f"its header, row 2 its key)")
