@@ -419,3 +419,23 @@ def test_libreoffice_shows_and_recomputes_the_new_sheets(study, tmp_path, soffic
     assert not wrong, wrong[:10]
     # Content: panel and essential counts of 40 items, and the summary counts; Cut score: the sliding band
     assert recomputed.get("Content", 0) >= 80 and recomputed.get("Cut score", 0) >= 10, recomputed
+
+
+def test_a_consensus_method_and_a_yes_no_panel(tmp_path):
+    # Ebel's grid is a consensus: the number of judges is not on the sheet, and the sheet says so; a yes/no
+    # Angoff panel (1/0 judgments) is labelled as such. Ebel (1972): Σ items × judged proportion.
+    judges = [["Ebel counts"], ["Relevance", "Easy", "Hard"], ["Essential", 3, 2], ["Useful", 2, 1], [],
+              ["Ebel proportions"], ["Relevance", "Easy", "Hard"], ["Essential", 0.9, 0.5], ["Useful", 0.8, 0.4], [],
+              ["Angoff"], ["Item", "J1", "J2", "J3"], ["i1", 1, 1, 0], ["i2", 0, 1, 1], ["i3", 1, 1, 1]]
+    setup = {"item columns": "i1:i8", "judges sheet": "Panel", "standard setting method": "Ebel",
+             "sem adjustment": 0.5}
+    result = make_study(book(tmp_path / "d.xlsx", candidates(), setup, {"Panel": judges}), tmp_path / "s.xlsx")
+    wb = load_workbook(result.path, data_only=True)
+    study = (result, wb, None)
+    assert value(study, "method_cut") == pytest.approx(3 * 0.9 + 2 * 0.5 + 2 * 0.8 + 1 * 0.4, rel=1e-12)
+    assert "n_judges" not in result.cells
+    assert value(study, "adjusted_cut") == pytest.approx(value(study, "method_cut") - 0.5 * value(study, "sem"))
+    texts = [c.value for row in wb["Standard setting"].iter_rows() for c in row if isinstance(c.value, str)]
+    assert "not recorded on the judges' sheet for this method (a consensus grid)" in texts
+    assert "Angoff cut (yes/no judgments)" in texts
+    assert value(study, "angoff_cut") == pytest.approx((2 + 3 + 2) / 3, rel=1e-12)  # mean of the judges' sums

@@ -11,9 +11,7 @@ from __future__ import annotations
 
 import dataclasses
 
-import numpy as np
-
-from ..context import Expr, Ref, StudyContext, area, cell
+from ..context import Ref, StudyContext, area, cell
 from ..setup_answers import ANSWERS_SHEET
 from .reliability import Reliability
 

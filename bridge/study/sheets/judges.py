@@ -14,7 +14,7 @@ import numpy as np
 
 from trueband.funcs.errors import InsufficientDataError
 
-from ..context import Expr, Ref, StudyContext, area, cell
+from ..context import Ref, StudyContext, area, cell
 from ..setup_cut import METHODS, Block
 from ..words import RATIONALE_PLACE, STANDARD_SETTING_CAUTION
 from .bands import BandsLayout
@@ -47,7 +47,7 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, layout: BandsL
     g.set(1, 1, "How the cut was set: standard setting", "title")
     top = 3 + g.para(2, 1, STANDARD_SETTING_CAUTION, "caution")
     row = top + _SUMMARY_ROWS
-    cuts: dict[str, tuple[Ref, Ref]] = {}   # method -> (cut, number of judges)
+    cuts: dict[str, tuple[Ref, Ref | None]] = {}   # method -> (cut, number of judges, when the sheet has it)
     scores = rel.scores.with_value(ctx.data.scores, name="the scores")
     writers = (("angoff", _angoff), ("nedelsky", _nedelsky), ("ebel counts", _ebel), ("hofstee", _hofstee),
                ("beuk", _beuk), ("candidate judgments", _candidates))
@@ -74,7 +74,10 @@ def _summary(ctx: StudyContext, g, row: int, j, cuts: dict, rel: Reliability, se
             method_cut = ctx.not_computable_at(g, row + 3, 2, f"the judges' sheet has no block for {METHODS[method]}",
                                                key="method_cut")
         else:
-            ctx.link(g, row + 2, 2, found[1], style="count", key="n_judges")
+            if found[1] is None:
+                g.set(row + 2, 2, "not recorded on the judges' sheet for this method (a consensus grid)")
+            else:
+                ctx.link(g, row + 2, 2, found[1], style="count", key="n_judges")
             method_cut = ctx.link(g, row + 3, 2, found[0], style="score", key="method_cut")
     g.set(row + 4, 1, "SEM (from Reliability)")
     sem = ctx.link(g, row + 4, 2, rel.sem, style="coef")
@@ -185,7 +188,7 @@ def _ebel(ctx, g, row, blocks, scores, layout, cuts) -> int:
     if "ebel proportions" not in blocks:
         g.set(r, 1, "Ebel cut")
         cuts["ebel"] = (ctx.not_computable_at(g, r, 2, "the judges' sheet has no 'Ebel proportions' block",
-                                              key="ebel_cut"), Expr("0", 0))
+                                              key="ebel_cut"), None)
         return r + 1
     first_p, last_p, last_col_p, p = _copy(g, r + 1, blocks["ebel proportions"], "Ebel: judged proportion correct",
                                            "The proportion of each category's items a minimally competent "
@@ -196,7 +199,7 @@ def _ebel(ctx, g, row, blocks, scores, layout, cuts) -> int:
                       style="score", key="ebel_cut")
     g.set(r + 1, 1, "Judges")
     g.set(r + 1, 2, "a consensus grid: the number of judges is in the record, not here")
-    cuts["ebel"] = (cut, Expr('"consensus"', "consensus"))
+    cuts["ebel"] = (cut, None)
     return r + 2
 
 
@@ -221,7 +224,7 @@ def _hofstee(ctx, g, row, blocks, scores, layout, cuts) -> int:
     r = last + 1
     if x.shape[1] < 4:
         cuts["hofstee"] = (ctx.not_computable_at(g, r, 2, "the Hofstee block needs four columns after the judge",
-                                                 key="hofstee_cut"), Expr("0", 0))
+                                                 key="hofstee_cut"), None)
         return r + 1
     means = _means(ctx, g, r, first, last, x[:, :4])
     g.set(r + 1, 1, "Judges")
