@@ -21,6 +21,11 @@ SHEET = "Content"
 #: The registered functions this sheet uses, for Notes.
 FUNCTIONS = ("CVR", "CVR_CRITICAL")
 _FIRST_RATING_COL = 9   # column I: the copy of the ratings
+#: How the sheet computes, for Notes.
+CONVENTIONS = (
+    "Content sheet: N is the number of experts who rated the item (a blank rating is left out); the critical "
+    "value is one-tailed at the significance level on the sheet; the content validity index is the mean CVR of "
+    "the items that reach it (Lawshe 1975).",)
 
 
 @dataclasses.dataclass(frozen=True)

@@ -23,6 +23,13 @@ SHEET = "Cut score"
 #: The registered functions this sheet uses, for Notes.
 FUNCTIONS = ("CSEM_BINOMIAL", "KR21", "DECISION_CONSISTENCY_BB", "CLASSIFICATION_ACCURACY_BB",
              "DECISION_CONSISTENCY", "CLASSIFICATION_ACCURACY", "BAND_FLOOR")
+#: How the sheet computes, for Notes.
+CONVENTIONS = (
+    "Cut score sheet: a candidate passes at or above the cut. Beta-binomial model: the SD with denominator n, the "
+    "cut rounded up to a whole number of items, a true score passing at or above that cut as a proportion of the "
+    "items (Hanson & Brennan 1990). Normal model: the SD with denominator n − 1 and, for whole-number scores, a "
+    "pass at the cut − 0.5. The sliding band uses the reliability and confidence of the Reliability and Setup "
+    "sheets.",)
 #: How many steps of the sliding band the sheet shows.
 SLIDING_STEPS = 5
 

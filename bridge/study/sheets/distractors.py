@@ -21,6 +21,13 @@ SHEET = "Options"
 #: The registered functions this sheet uses, for Notes.
 FUNCTIONS = ("OPTION_SHARE", "OPTION_REST_R", "DISCRIMINATION_INDEX", "ITEM_TOTAL", "ALPHA_IF_DELETED")
 FRACTION = 0.27   # Kelley (1939)
+#: How the sheet computes, for Notes.
+CONVENTIONS = (
+    "Options sheet: answers are compared as text, trimmed and in capitals, with the key in the first row of the "
+    "Answers sheet. Shares count a blank answer in the denominator (an omission is a choice of no option); the "
+    "upper and lower groups are the 27% with the highest and lowest number correct, ties at a group's edge "
+    "sharing its places. D, the item-total r and alpha without the item use the Scored items sheet, where a "
+    "blank answer is unanswered (0 in the total, and the person left out of the item statistics).",)
 _HEAD = ("Item", "Option", "Keyed?", "Share choosing it", "Upper 27%", "Lower 27%", "Option–rest r",
          "Option flags", "D (upper − lower)", "Corrected item–total r", "Alpha without the item", "Item flags")
 

@@ -28,6 +28,12 @@ SHEET = "Standard setting"
 FUNCTIONS = ("ANGOFF_CUT", "ANGOFF_SE", "NEDELSKY_CUT", "EBEL_CUT", "HOFSTEE_CUT", "BEUK_CUT",
              "CONTRASTING_GROUPS_CUT", "BORDERLINE_CUT")
 _SUMMARY_ROWS = 16   # the blocks start below the summary
+#: How the sheet computes, for Notes.
+CONVENTIONS = (
+    "Standard setting sheet: cuts are on the raw-score scale and are not rounded (rounding, and in which "
+    "direction, is a policy decision). Judges' blocks ignore all-blank rows and columns and refuse any other "
+    "blank; Hofstee's judgments are averaged over the judges; the candidates' scores are looked up by applicant "
+    "id on the Bands sheet.",)
 
 
 @dataclasses.dataclass(frozen=True)

@@ -65,7 +65,7 @@ def write(ctx: StudyContext) -> None:
         lines.append(("Problems in the data (check these cells)", "heading"))
         lines += [(n, "wrap") for n in d.problems]
     lines.append(("Conventions", "heading"))
-    lines += [(text, "wrap") for text in CONVENTIONS]
+    lines += [(text, "wrap") for text in CONVENTIONS + _cut_conventions(ctx)]
     lines.append(("Methods and references", "heading"))
     for name in FUNCTIONS_USED + _cut_functions(ctx):
         try:
@@ -95,3 +95,11 @@ def _cut_functions(ctx: StudyContext) -> tuple[str, ...]:
 
     return tuple(name for module in (distractors, cut_score, judges, content) if module.SHEET in ctx.grids
                  for name in module.FUNCTIONS)
+
+
+def _cut_conventions(ctx: StudyContext) -> tuple[str, ...]:
+    """The conventions of the cut-score evidence sheets this study has."""
+    from . import content, cut_score, distractors, judges
+
+    return tuple(text for module in (distractors, cut_score, judges, content) if module.SHEET in ctx.grids
+                 for text in module.CONVENTIONS)
