@@ -37,6 +37,10 @@ setting                  value
 ``test name``, ``job title``, ``organisation``  words for the titles
 =======================  ====================================================
 
+The settings of the cut-score evidence (``judges sheet``, ``standard setting method``, ``sem adjustment``,
+``content ratings sheet``, ``content critical value``) are described in :mod:`.setup_cut`; the ``answer key
+sheet`` of raw multiple-choice answers in :mod:`.setup_answers`.
+
 A setup the study cannot use is a :class:`SetupError` whose message names the
 setting, the column and the sheet; nothing is written before the whole setup
 and every data cell it names have been read and checked. Data the study can use

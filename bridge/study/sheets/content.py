@@ -63,26 +63,7 @@ def write(ctx: StudyContext) -> Content | None:
         g.set(head, _FIRST_RATING_COL + j, expert, "header")
         g.widths[_FIRST_RATING_COL + j] = 12
     first, last = head + 1, head + len(ratings.items)
-    last_col = _FIRST_RATING_COL + len(ratings.experts) - 1
-    for i, (item, values) in enumerate(zip(ratings.items, ratings.ratings)):
-        r = first + i
-        g.set(r, 1, item)
-        for j, value in enumerate(values):
-            if value is not None:
-                g.set(r, _FIRST_RATING_COL + j, value, "input")
-        given = [v for v in values if v is not None]
-        row_range = area(SHEET, _FIRST_RATING_COL, r, last_col, r)
-        panel = ctx.formula(g, r, 2, "COUNTA", row_range, check=lambda n=len(given): n, style="count")
-        essential = ctx.expression(g, r, 3, 'COUNTIF({ratings},"essential")',
-                                   lambda n=given.count("essential"): n, style="count", ratings=row_range)
-        cvr = ctx.formula(g, r, 4, "CVR", essential, panel, style="coef", key=f"cvr_{i + 1}")
-        critical = ctx.formula(g, r, 5, "CVR_CRITICAL", panel, alpha, method_cell, style="coef")
-        if isinstance(cvr.value, float) and isinstance(critical.value, float):
-            ctx.expression(g, r, 6, 'IF({cvr}>={critical},"yes","no")',
-                           lambda a=cvr.value, b=critical.value: "yes" if a >= b else "no", cvr=cvr,
-                           critical=critical)
-        else:
-            ctx.not_computable_at(g, r, 6, "no critical value for this panel (see column E)")
+    _item_rows(ctx, g, first, ratings, alpha, method_cell)
     passes = _passing(ratings, method)
     row = last + 2
     g.set(row, 1, "Items rated")
@@ -117,6 +98,31 @@ def write(ctx: StudyContext) -> Content | None:
                        "of the items kept (Lawshe 1975). Ratings other than essential, useful or not necessary "
                        "were left out and are listed on Notes.")
     return Content(n_items=n_items, n_pass=n_pass, cvi=cvi)
+
+
+def _item_rows(ctx: StudyContext, g, first: int, ratings, alpha: Ref, method_cell: Ref) -> None:
+    """One row per item from ``first``: experts rating, essential count, CVR, critical CVR, passes; the ratings
+    copied to the right as inputs."""
+    last_col = _FIRST_RATING_COL + len(ratings.experts) - 1
+    for i, (item, values) in enumerate(zip(ratings.items, ratings.ratings)):
+        r = first + i
+        g.set(r, 1, item)
+        for j, value in enumerate(values):
+            if value is not None:
+                g.set(r, _FIRST_RATING_COL + j, value, "input")
+        given = [v for v in values if v is not None]
+        row_range = area(SHEET, _FIRST_RATING_COL, r, last_col, r)
+        panel = ctx.formula(g, r, 2, "COUNTA", row_range, check=lambda n=len(given): n, style="count")
+        essential = ctx.expression(g, r, 3, 'COUNTIF({ratings},"essential")',
+                                   lambda n=given.count("essential"): n, style="count", ratings=row_range)
+        cvr = ctx.formula(g, r, 4, "CVR", essential, panel, style="coef", key=f"cvr_{i + 1}")
+        critical = ctx.formula(g, r, 5, "CVR_CRITICAL", panel, alpha, method_cell, style="coef")
+        if isinstance(cvr.value, float) and isinstance(critical.value, float):
+            ctx.expression(g, r, 6, 'IF({cvr}>={critical},"yes","no")',
+                           lambda a=cvr.value, b=critical.value: "yes" if a >= b else "no", cvr=cvr,
+                           critical=critical)
+        else:
+            ctx.not_computable_at(g, r, 6, "no critical value for this panel (see column E)")
 
 
 def _cvrs(ratings) -> list[float]:
