@@ -116,3 +116,19 @@ def test_option_refusals():
         call("OPTION_REST_R", data, 2, "D")
     with raises_code("#VALUE!", "option"):
         call("OPTION_SHARE", data, 1, True)
+
+
+def test_answers_are_read_as_label_matrix_reads_them():
+    # the answer reading looks up each distinct text once (speed); it must read every cell as the general
+    # label reader does (trimmed, capitals, 2 and 2.0 one option, blank and spaces blank) and name a refused
+    # cell by its row and column (constructed case, checked by hand)
+    from trueband.funcs import _validate
+    from trueband.funcs.errors import ArgumentTypeError
+    from trueband.funcs.options import _answers, _option_text
+
+    cells = [["A", 2, " b"], [None, 2.0, "  "], ["c", 1, "B"], ["a ", "2", None]]
+    expected = [[_option_text(x) for x in row] for row in _validate.label_matrix("responses", cells)]
+    assert _answers("responses", cells).tolist() == expected == [["A", "2", "B"], [None, "2", None],
+                                                                  ["C", "1", "B"], ["A", "2", None]]
+    with pytest.raises(ArgumentTypeError, match="row 2, column 3"):
+        _answers("responses", [["A", "B", "C"], ["A", "B", True]])

@@ -172,7 +172,8 @@ def test_libreoffice_recomputes_the_standard_formulas_to_the_same_values(tmp_pat
 
 def test_libreoffice_shows_the_computed_value_of_every_formula_cell(exported):
     result, folder = exported
-    checked, mismatches = mismatched_cells(result, folder, ANALYSIS_SHEETS)
+    present = load_workbook(result.path, read_only=True).sheetnames  # Options only with raw answers
+    checked, mismatches = mismatched_cells(result, folder, [s for s in ANALYSIS_SHEETS if s in present])
     assert checked > 3000  # the Bands sheet alone has 400 rows of formulas
     assert not mismatches, mismatches[:10]
 

@@ -30,6 +30,7 @@ from . import sheets
 from .context import StudyContext
 from .data_workbook import read_study_data
 from .setup import SETUP_SHEET, SetupError, StudyData
+from .setup_answers import ANSWERS_SHEET
 from .sheets.bands import Bands
 from .sheets.scored_items import SCORED_SHEET
 from .sheets.setup import SetupSheet
@@ -71,6 +72,7 @@ def plan(ctx: StudyContext) -> tuple[SetupSheet, Bands]:
     rel = sheets.reliability.write(ctx, setup, layout)
     bands = sheets.bands.plan(ctx, layout, setup, rel)
     sheets.items.write(ctx, setup, rel)
+    options = sheets.distractors.write(ctx, rel)
     raters = sheets.raters.write(ctx, setup)
     validity = sheets.validity.write(ctx, setup, rel, layout)
     impact = sheets.impact.write(ctx, setup, rel, layout)
@@ -86,7 +88,11 @@ def plan(ctx: StudyContext) -> tuple[SetupSheet, Bands]:
             sheets.fairness.write(pctx, predictor)
             sheets.dif.write(pctx, predictor)
     combined = sheets.combined.write(ctx, ctx.predictors)
-    sheets.summary.write(ctx, setup, rel, raters, validity, impact, utility, strata, combined)
+    cut_score = sheets.cut_score.write(ctx, setup, rel, impact)
+    standard = sheets.judges.write(ctx, setup, rel, layout)
+    content = sheets.content.write(ctx)
+    sheets.summary.write(ctx, setup, rel, raters, validity, impact, utility, strata, combined, cut_score=cut_score,
+                         standard=standard, content=content, options=options)
     sheets.notes.write(ctx)
     return setup, bands
 
@@ -97,7 +103,7 @@ def _check_layout(d: StudyData) -> None:
             if b != a + 1:
                 raise SetupError(f"{role}: the columns must stand side by side on sheet '{d.sheet}'; "
                                  f"{d.header[b]!r} does not follow {d.header[a]!r}")
-    taken = {t.lower() for t in ANALYSIS_SHEETS} | {SETUP_SHEET.lower(), SCORED_SHEET.lower()}
+    taken = {t.lower() for t in ANALYSIS_SHEETS} | {SETUP_SHEET.lower(), SCORED_SHEET.lower(), ANSWERS_SHEET.lower()}
     if d.sheet.lower() in taken:
         raise SetupError(f"the data sheet is called '{d.sheet}', a name the study uses for one of its own "
                          f"sheets; rename it (e.g. 'Candidates')")

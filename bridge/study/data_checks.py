@@ -426,3 +426,11 @@ def check_data(setup: StudySetup, path: Path, sheet: str, header, rows, *, uncac
                           f"item counts 0 in the total and the person is left out of the item statistics")
     return data
 
+
+
+def item_columns(setup: StudySetup, header, sheet: str) -> list[int]:
+    """The 0-based columns the Setup's ``item columns`` name (checked as :func:`check_data` checks them)."""
+    if not setup.items:
+        return []
+    index, dupes = _header_index(header, sheet)
+    return _resolve_many(setup.items, "item columns", index, dupes, header, sheet)

@@ -9,8 +9,10 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any, Mapping
 
-from .data_checks import check_data, note_uncached
+from .data_checks import check_data, item_columns, note_uncached
 from .predictor_data import further_predictors
+from .setup_answers import attach_answers, read_answer_key, score_rows
+from .setup_cut import read_cut_inputs
 from .setup import SETUP_SHEET, SetupError, StudyData, cell_text, read_setup_sheet, setup_from_values
 
 __all__ = ["DataWorkbook", "read_study_data"]
@@ -141,6 +143,8 @@ def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None
         sheet = match
         grid, formats, uncached = wb.sheet(sheet)
         formulas = wb.formulas
+        cut_inputs = read_cut_inputs(wb, setup, SetupError)
+        answer_key = read_answer_key(wb, setup, SetupError)
     finally:
         wb.close()
     header = [cell_text(h) for h in grid[0]] if grid else []
@@ -154,13 +158,20 @@ def read_study_data(path: str | Path, overrides: Mapping[str, Any] | None = None
         rows.pop()
     if not rows:
         raise SetupError(f"sheet '{sheet}' has a header row but no data rows below it")
+    raw_rows = rows
+    if answer_key is not None:  # raw answers: the checks read them scored 1/0
+        rows, scored = score_rows(answer_key, header, rows, item_columns(setup, header, sheet), SetupError)
     data = check_data(setup, path, sheet, header, rows, uncached=uncached, formulas=formulas,
                       blank=lambda r, c: _blank_cell(grid, r, c))
+    if answer_key is not None:
+        attach_answers(data, answer_key, scored, raw_rows, SetupError)
     data.predictors = further_predictors(data, header, rows)
     data.raw_header = list(grid[0][:width])
     # the copy's rows stand in the same sheet rows as the source's (from row 2)
     data.formats = {(r, c - 1): f for (r, c), f in formats.items() if 2 <= r <= len(rows) + 1 and c <= width}
     note_uncached(data, uncached, width)
+    data.judgments, data.content_ratings = cut_inputs[:2]
+    data.problems.extend(cut_inputs[2])
     return data
 
 

@@ -27,6 +27,8 @@ DEMO_FILES = {
     "blank_data": "templates/study-data-template.xlsx",
     "blank_scoring": "templates/scoring-sheet-template.xlsx",
     "blank_impact": "templates/adverse-impact-template.xlsx",
+    "answers": "osterfell-answers.xlsx",              # the same applicants' raw answers (A to D) and the key
+    "answers_study": "osterfell-answers-study.xlsx",  # its study, with the Options sheet
 }
 
 
@@ -54,6 +56,7 @@ def write_demo(target: Path, *, n: int = 400) -> tuple[StudyResult, dict[str, Pa
         cut = float(np.ceil(np.quantile(scores, 0.6)))  # about 40% pass
         paths = {k: work / v for k, v in DEMO_FILES.items()}
         study_data_workbook(paths["data"], demo, cut=cut)
+        study_data_workbook(paths["answers"], demo, cut=cut, answers=True)
         scoring_template(paths["scoring"], ids=demo.ids, responses=demo.items.tolist(),
                          title="Scoring sheet: Dispatch Knowledge Test (demo)")
         tally = tally_groups(demo.groups, scores >= cut)  # labels merged as the study merges them
@@ -63,9 +66,10 @@ def write_demo(target: Path, *, n: int = 400) -> tuple[StudyResult, dict[str, Pa
         study_data_workbook(paths["blank_data"])
         scoring_template(paths["blank_scoring"])
         impact_template(paths["blank_impact"])
-        for key in ("data", "scoring", "impact", "blank_data", "blank_scoring", "blank_impact"):
+        for key in ("data", "scoring", "impact", "blank_data", "blank_scoring", "blank_impact", "answers"):
             recalculate(paths[key], in_place=True)
         result = make_study(paths["data"], paths["study"])
+        make_study(paths["answers"], paths["answers_study"])
         write_report(paths["study"], paths["report"], version=__version__)
         apply_permissions(work, None)  # the private temporary folder becomes an ordinary one
         if target.exists():

@@ -20,7 +20,8 @@ __all__ = ["further_predictors", "columns_used"]
 #: The roles that are the study's, not a predictor's (the predictor's data take the study's reading).
 _STUDY_ROLES = ("id", "group", "hired")
 #: The study-wide impact settings (several demographic columns, strata, stages): read once, for the study
-_STUDY_WIDE_CLEARED = {"group_columns": (), "reference_groups": None, "stratum": None, "stages": ()}
+_STUDY_WIDE_CLEARED = {"group_columns": (), "reference_groups": None, "stratum": None, "stages": (),
+                       "answer_key_sheet": None}   # the key scores the first predictor's raw answers
 
 
 def columns_used(data: StudyData) -> dict[int, str]:

@@ -45,6 +45,10 @@ setting                  value
                          :mod:`.setup_predictors`)
 =======================  ====================================================
 
+The settings of the cut-score evidence (``judges sheet``, ``standard setting method``, ``sem adjustment``,
+``content ratings sheet``, ``content critical value``) are described in :mod:`.setup_cut`; the ``answer key
+sheet`` of raw multiple-choice answers in :mod:`.setup_answers`.
+
 A setup the study cannot use is a :class:`SetupError` whose message names the
 setting, the column and the sheet; nothing is written before the whole setup
 and every data cell it names have been read and checked. Data the study can use
@@ -69,6 +73,8 @@ from typing import Any, Mapping
 import numpy as np
 
 from . import setup_predictors
+from .setup_answers import ANSWER_SETTINGS
+from .setup_cut import CUT_SETTINGS
 
 __all__ = ["SetupError", "StudySetup", "StudyData", "SETTINGS", "normalise_key", "cell_text", "read_setup_sheet",
            "SETUP_SHEET", "DEFAULT_CRITERION_RELIABILITY", "HIRED_CODINGS", "YES_CODES", "NO_CODES"]
@@ -123,6 +129,8 @@ SETTINGS.update({
     "stage columns": ("stages", "columns", "the stages of the selection process in order, each coded "
                                            "yes/no as the hired column (optional; the Stages sheet)"),
 })
+SETTINGS.update(CUT_SETTINGS)  # the cut-score evidence: judges' sheet, method, content ratings (setup_cut)
+SETTINGS.update(ANSWER_SETTINGS)  # raw multiple-choice answers and their key (setup_answers)
 
 
 
@@ -162,6 +170,12 @@ class StudySetup:
     reference_groups: str | None = None
     stratum: str | None = None
     stages: tuple[str, ...] = ()
+    judges_sheet: str | None = None             # the cut-score evidence (setup_cut)
+    standard_setting_method: str | None = None
+    sem_adjustment: float | None = None
+    content_sheet: str | None = None
+    content_critical: str | None = None
+    answer_key_sheet: str | None = None         # raw answers and their key (setup_answers)
     source: Mapping[str, str] = dataclasses.field(default_factory=dict)  # field -> where it was given
     predictors: tuple = ()  # the further predictors (StudySetup of their own settings; see setup_predictors)
 
@@ -214,6 +228,16 @@ class StudyData:
     raw_items: np.ndarray | None = None                             # the responses before reverse keying
     impact: Any = None                                              # setup_impact.ImpactData
     predictors: list = dataclasses.field(default_factory=list)      # the further predictors' StudyData
+    judgments: Any = None                                           # setup_cut.Judgments, when a judges' sheet is named
+    content_ratings: Any = None                                     # setup_cut.ContentRatings, when named
+    answer_key: tuple | None = None                                 # keyed option per item, when answers are raw
+    answer_options: tuple | None = None                             # the options offered per item (None: not given)
+    raw_answers: np.ndarray | None = None                           # the raw answers (object), None for a blank
+
+    @property
+    def scored_sheet(self) -> bool:
+        """Whether the item scores the study uses are on the Scored items sheet (reverse keying or raw answers)."""
+        return bool(self.reverse_items) or self.answer_key is not None
 
     @property
     def binary_items(self) -> bool:

@@ -34,6 +34,9 @@ from ..formulas.calc_binding import bind_workbook
 from . import templates_predictors
 from .demo import DemoData
 from .grid import P_FORMAT
+from .demo_cut import setup_values as cut_setup_values
+from .demo_answers import KEY_SHEET
+from .templates_cut import add_answer_key, add_cut_sheets, answer_rows
 from .words import CAUTION
 from . import templates_impact
 from .setup import DEFAULT_CRITERION_RELIABILITY, SETTINGS, SETUP_SHEET
@@ -85,14 +88,15 @@ def _setup_checks(st, n_items: int, n_raters: int, last: int):
 
 
 def study_data_workbook(path: str | Path, demo: DemoData | None = None, *, n_items: int = 40, n_raters: int = 3,
-                        cut: float | None = None, capacity: int = 5000) -> Path:
+                        cut: float | None = None, capacity: int = 5000, answers: bool = False) -> Path:
     """The data workbook of a validation study: 'Applicants' and 'Setup'.
 
     With ``demo`` the Applicants sheet holds the demo applicants and the Setup
     sheet names the demo's columns; without it the headers and settings are in
     place for ``n_items`` items and ``n_raters`` raters, and the rows are empty.
     The check formulas beside the settings count what has been entered and
-    preview coefficient alpha over the first ``capacity`` rows.
+    preview coefficient alpha over the first ``capacity`` rows. With ``answers`` (and ``demo``) the item
+    columns hold the demo's raw answers (A to D) and an answer key sheet scores them (:mod:`.demo_answers`).
     """
     path = Path(path)
     if demo is not None:
@@ -111,7 +115,7 @@ def study_data_workbook(path: str | Path, demo: DemoData | None = None, *, n_ite
     for c in range(1, len(header) + 1):
         ws.column_dimensions[get_column_letter(c)].width = 6 if 3 <= c <= 2 + n_items else 12
     if demo is not None:
-        for row in demo.rows():
+        for row in (answer_rows(demo) if answers else demo.rows()):
             ws.append(row)
         last = demo.n + 1
     else:
@@ -136,6 +140,9 @@ def study_data_workbook(path: str | Path, demo: DemoData | None = None, *, n_ite
         "organisation": "Osterfell Harbour Logistics" if demo is not None else None,
         **templates_impact.setup_values(demo),
     }
+    values.update(cut_setup_values(demo))  # the judges' and content sheets (demo_cut)
+    if answers and demo is not None:
+        values["answer key sheet"] = KEY_SHEET
     for r, (key, (_, kind, meaning)) in enumerate(SETTINGS.items(), start=2):
         st.cell(r, 1, key)
         c = st.cell(r, 2, values.get(key))
@@ -151,6 +158,9 @@ def study_data_workbook(path: str | Path, demo: DemoData | None = None, *, n_ite
                                          "trueband study THIS_FILE.xlsx -o study.xlsx").alignment = _WRAP
     st.cell(len(SETTINGS) + 4 + more, 1, templates_predictors.HOW_TO).alignment = _WRAP
     _caution(st, f"A{len(SETTINGS) + 6 + more}", 3)
+    add_cut_sheets(wb, demo, cut)  # the judges' sheet and the experts' content ratings (templates_cut)
+    if answers and demo is not None:
+        add_answer_key(wb, demo)
     bind_workbook(wb)  # registered calls as _xludf.NAME(, the form LibreOffice binds to the add-in
     wb.save(path)
     return path

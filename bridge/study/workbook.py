@@ -16,7 +16,7 @@ from .context import StudyContext
 from .grid import styled
 from .setup import SETUP_SHEET
 from .sheets import bands as bands_sheet
-from .sheets import data_copy, scored_items
+from .sheets import content, cut_score, data_copy, distractors, judges, scored_items
 from .sheets.bands import BANDS_SHEET, Bands
 from .sheets.scored_items import SCORED_SHEET
 from .sheets.setup import SetupSheet
@@ -25,7 +25,10 @@ __all__ = ["ANALYSIS_SHEETS", "save"]
 
 ANALYSIS_SHEETS = ("Summary", "Reliability", "Items", "Raters", "Validity", BANDS_SHEET, "Impact", "Strata",
                    "Cuts", "Stages", "Groups", "Utility", "Combined", "Fairness", "DIF", "Notes")
-# Strata, Cuts, Stages, Groups, Combined, Fairness, DIF: when the study has them
+#: Sheets written only when the study has their data (cut score, judges' sheet, content ratings), before Notes.
+_OPTIONAL = (distractors.SHEET, cut_score.SHEET, judges.SHEET, content.SHEET)
+ANALYSIS_SHEETS = ANALYSIS_SHEETS[:-1] + _OPTIONAL + ANALYSIS_SHEETS[-1:]
+# Strata, Cuts, Stages, Groups, Combined, Fairness, DIF and the optional ones: when the study has them
 
 
 def _bands_header(wb: Workbook, bands: Bands, title: str = BANDS_SHEET) -> None:
@@ -51,7 +54,11 @@ def save(ctx: StudyContext, setup: SetupSheet, bands: Bands, path: Path) -> None
             ctx.grids[title].write(wb)
     more_rows, more_corners = workbook_predictors.write_headers(wb, ctx, _bands_header)
     ctx.grids[SETUP_SHEET].write(wb)
-    if d.reverse_items:
+    if d.answer_key is not None:  # raw answers: the Answers sheet, its key row as the header
+        ws = wb.create_sheet(scored_items.ANSWERS_SHEET)
+        ws.freeze_panes = "B2"
+        ws.append([styled(ws, h, "input") for h in scored_items.answers_header(d)])
+    if d.scored_sheet:
         ws = wb.create_sheet(SCORED_SHEET)
         ws.freeze_panes = "A2"
         ws.append([styled(ws, h, "header") for h in scored_items.header(d)])
@@ -62,7 +69,10 @@ def save(ctx: StudyContext, setup: SetupSheet, bands: Bands, path: Path) -> None
             d.sheet: lambda: long_sheets.rows_xml(d.rows, 2, formulas=False, styles=copy_styles)}
     corners = {BANDS_SHEET: f"{get_column_letter(len(bands.layout.header))}{last}",
                d.sheet: f"{get_column_letter(max(1, len(d.header)))}{last}"}
-    if d.reverse_items:
+    if d.answer_key is not None:
+        rows[scored_items.ANSWERS_SHEET] = lambda: long_sheets.rows_xml(scored_items.answers_rows(d), 2, formulas=True)
+        corners[scored_items.ANSWERS_SHEET] = f"{get_column_letter(len(d.item_columns) + 1)}{last}"
+    if d.scored_sheet:
         rows[SCORED_SHEET] = lambda: long_sheets.rows_xml(
             scored_items.rows(d, setup.item_min, setup.item_max), 2, formulas=True)
         corners[SCORED_SHEET] = f"{get_column_letter(len(d.item_columns))}{last}"

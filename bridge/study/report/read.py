@@ -299,6 +299,11 @@ def chart_sheets(path: Path) -> list[str]:
         return out
 
 
+def _base_title(title: str) -> str:
+    """A further predictor's sheet, ``Reliability (Work Style)``, is read as its kind, ``Reliability``."""
+    return title.split(" (")[0] if title.endswith(")") and " (" in title else title
+
+
 def read_study(path: str | Path, analysis_sheets: tuple[str, ...]) -> StudyContent:
     """Read the analysis sheets of a saved study (values as stored, and the Summary's links).
 
@@ -306,7 +311,9 @@ def read_study(path: str | Path, analysis_sheets: tuple[str, ...]) -> StudyConte
     was saved without the values of its formulas.
     """
     path = Path(path)
-    where = first_unstored(path, ("Summary",) + tuple(analysis_sheets))
+    with zipfile.ZipFile(path) as z:
+        titles = [t for t in _sheet_parts(z) if _base_title(t) in analysis_sheets]
+    where = first_unstored(path, ["Summary", *titles])
     if where is not None:
         raise NotRecalculated(where)
     values_wb = load_workbook(path, data_only=True, read_only=True)
@@ -317,8 +324,9 @@ def read_study(path: str | Path, analysis_sheets: tuple[str, ...]) -> StudyConte
             raise ValueError("it has no Summary sheet: is it a study that trueband study wrote?")
         content.summary = _summary(values_wb["Summary"], formulas_wb["Summary"])
         for title in values_wb.sheetnames:
-            if title not in analysis_sheets or title in PER_CANDIDATE:
-                if title not in analysis_sheets and title != "Setup":
+            base = _base_title(title)
+            if base not in analysis_sheets or base in PER_CANDIDATE:
+                if base not in analysis_sheets and title != "Setup":
                     content.data_sheets.append(title)
                 continue
             content.sheets[title] = SheetContent(title, _blocks(title, _cells_by_row(values_wb[title])))

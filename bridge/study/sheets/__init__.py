@@ -6,8 +6,8 @@ sheets is a frozen dataclass returned by the sheet that makes it.
 
 from . import bands, data_copy, impact, items, notes, raters, reliability, scored_items, setup, summary, utility
 from . import validity
-from . import combined, cuts, dif, fairness, groups, predictors, stages, strata
+from . import combined, content, cut_score, cuts, dif, distractors, fairness, groups, judges, predictors, stages, strata
 
 __all__ = ["bands", "data_copy", "impact", "items", "notes", "raters", "reliability", "scored_items", "setup",
            "summary", "utility", "validity", "strata", "cuts", "groups", "stages", "combined", "dif", "fairness",
-           "predictors"]
+           "predictors", "content", "cut_score", "distractors", "judges"]

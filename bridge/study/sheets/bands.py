@@ -177,7 +177,7 @@ def _rows(bands: Bands, data: StudyData) -> Iterator[list[Any]]:
     id_text = (here("={person_id}", person_id=cell(data.sheet, None, id_col + 1).qualified_relative())
                if id_col is not None else None)
     if data.items is not None:
-        if data.reverse_items:  # the scores after reverse keying
+        if data.scored_sheet:  # the scores after reverse keying, or of raw answers
             items = area(SCORED_SHEET, 1, None, len(data.item_columns), None)
         else:
             items = area(data.sheet, data.item_columns[0] + 1, None, data.item_columns[-1] + 1, None)

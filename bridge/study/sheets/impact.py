@@ -51,6 +51,7 @@ class ImpactTable:
     first: int
     last: int
     key_prefix: str                 # "" for the first column, else "<column>:"
+    rates: Mapping[str, Ref] = dataclasses.field(default_factory=dict)   # group -> its selection-rate cell
 
 
 @dataclasses.dataclass(frozen=True)
@@ -59,6 +60,7 @@ class Impact:
     n_below: Ref | None = None         # comparisons below four-fifths
     where: Ref | None = None           # the group and column of the lowest ratio (text)
     tables: tuple[ImpactTable, ...] = ()
+    rates: tuple = ()                  # (group, its selection-rate cell) of the first column's table
 
 
 def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLayout) -> Impact:
@@ -112,7 +114,7 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLa
     g.charts[-1][0].width = 11.5
     # beside the rates chart, on the same page
     _distribution(ctx, g, chart_row, setup, rel, cut, anchor_col="E")
-    return Impact(min_ratio, n_below, where, tuple(tables))
+    return Impact(min_ratio, n_below, where, tuple(tables), rates=tuple(tables[0].rates.items()))
 
 
 def _counts_at_cut(ctx: StudyContext, demo: Demographic, cut: float) -> dict[str, tuple[int, int]]:
@@ -137,6 +139,7 @@ def _table(ctx: StudyContext, g, row: int, demo: Demographic, numbers: Ref, sele
     for c, h in enumerate(HEAD, start=1):
         g.set(row, c, h, "header")
     first, last = row + 1, row + len(groups)
+    rates: dict[str, Ref] = {}
     places = dict(name=cell(SHEET, row - 1, 3).fixed(), names=area(SHEET, 1, first, 1, last).fixed())
     lookup = "INDEX({column},MATCH({name},{names},0))"
     ref_sel, ref_app = counts[reference]
@@ -154,7 +157,7 @@ def _table(ctx: StudyContext, g, row: int, demo: Demographic, numbers: Ref, sele
                                     selected=selected_flags)
         chosen = ctx.expression(g, r, 3, "COUNTIFS({groups},{number},{selected},1)", lambda n=focal_selected: n,
                                 style="count", groups=numbers, number=number, selected=selected_flags)
-        ctx.formula(g, r, 4, "SELECTION_RATE", chosen, applicants, style="coef", key=f"{prefix}rate_{name}")
+        rates[name] = ctx.formula(g, r, 4, "SELECTION_RATE", chosen, applicants, style="coef", key=f"{prefix}rate_{name}")
         g.set(r, 10, ctx.text("=0.8*MAX({rates})", SHEET, rates=area(SHEET, 4, first, 4, last).fixed()), "coef")
         if name == reference:
             g.set(r, 5, "reference group")
@@ -177,7 +180,7 @@ def _table(ctx: StudyContext, g, row: int, demo: Demographic, numbers: Ref, sele
     if n_below is not None:
         n_below = n_below.with_value(sum(1 for f in flags.values() if f.value is True))
     return ImpactTable(demo, numbers, reference, tuple(groups), counts, ratios, min_ratio, n_below, row, first,
-                       last, prefix)
+                       last, prefix, rates)
 
 
 def _key(prefix: str, function: str, extra: tuple, name: str) -> str:

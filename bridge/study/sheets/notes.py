@@ -90,9 +90,9 @@ def write(ctx: StudyContext) -> None:
         lines.append(("Problems in the data (check these cells)", "heading"))
         lines += [(n, "wrap") for n in d.problems]
     lines.append(("Conventions", "heading"))
-    lines += [(text, "wrap") for text in CONVENTIONS]
+    lines += [(text, "wrap") for text in CONVENTIONS + _cut_conventions(ctx)]
     lines.append(("Methods and references", "heading"))
-    for name in FUNCTIONS_USED:
+    for name in FUNCTIONS_USED + _cut_functions(ctx):
         try:
             spec = lookup(name)
             lines.append((f"{name}: {spec.description} — {spec.reference}", "wrap"))
@@ -112,3 +112,19 @@ def write(ctx: StudyContext) -> None:
         else:
             g.set(row, 1, text, style)
             row += 1
+
+
+def _cut_functions(ctx: StudyContext) -> tuple[str, ...]:
+    """The functions of the cut-score evidence sheets this study has (Cut score, Standard setting, Content)."""
+    from . import content, cut_score, distractors, judges
+
+    return tuple(name for module in (distractors, cut_score, judges, content) if module.SHEET in ctx.grids
+                 for name in module.FUNCTIONS)
+
+
+def _cut_conventions(ctx: StudyContext) -> tuple[str, ...]:
+    """The conventions of the cut-score evidence sheets this study has."""
+    from . import content, cut_score, distractors, judges
+
+    return tuple(text for module in (distractors, cut_score, judges, content) if module.SHEET in ctx.grids
+                 for text in module.CONVENTIONS)

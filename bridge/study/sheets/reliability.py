@@ -37,7 +37,7 @@ class Reliability:
 def _items_range(ctx: StudyContext, last: int) -> Ref:
     """The item scores the statistics use: the data's item columns, or the Scored items sheet."""
     d = ctx.data
-    if d.reverse_items:
+    if d.scored_sheet:
         return area(SCORED_SHEET, 1, 2, len(d.item_columns), last, value=d.items)
     return area(d.sheet, d.item_columns[0] + 1, 2, d.item_columns[-1] + 1, last, value=d.items)
 

@@ -20,7 +20,8 @@ SHEET = "Summary"
 
 
 def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, raters: Raters, validity: Validity,
-          impact: Impact, utility: Utility, strata: Strata | None = None, combined=None) -> None:
+          impact: Impact, utility: Utility, strata: Strata | None = None, combined=None, *, cut_score=None,
+          standard=None, content=None, options=None) -> None:
     g = ctx.sheet(SHEET)
     g.landscape = True
     g.widths.update({1: 62, 2: 16, 3: 16, 4: 16})
@@ -70,6 +71,7 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, raters: Raters
                   "coef", None),
                  ("Cross-validated R² (Browne): what the weights explain in new people", "cross_validity",
                   combined.cross_validity, "coef", None)]
+    rows += _cut_rows(cut_score, standard, content, options)
     r = first_row
     for label, key, figure, style, extra in rows:
         if key is None:
@@ -108,3 +110,33 @@ def _figure(ctx: StudyContext, g, r: int, c: int, key: str, figure: Ref, style: 
     else:
         g.set(r, c, "=" + figure.qualified_relative().address(SHEET), style)
     ctx.name(f"summary_{key}", cell(SHEET, r, c))
+
+
+def _cut_rows(cut_score, standard, content, options=None) -> list[tuple]:
+    """The headline rows of the cut-score evidence (Options, Cut score, Standard setting, Content), when the study
+    has them."""
+    rows: list[tuple] = []
+    if options is not None:
+        rows.append(("Do the answer options work?", None, None, "", None))
+        rows.append(("Items with at least one flag on the Options sheet (check the key first)", "items_flagged",
+                     options.flagged, "count", None))
+    if cut_score is not None or standard is not None:
+        rows.append(("Is the cut score defensible?", None, None, "", None))
+    if standard is not None and standard.method_cut is not None:
+        rows.append(("Cut given by the standard-setting method (Standard setting sheet)", "method_cut",
+                     standard.method_cut, "score", None))
+        rows.append(("The same cut lowered by k SEM (k and its rationale on that sheet)", "adjusted_cut",
+                     standard.adjusted_cut, "score", None))
+    if cut_score is not None:
+        rows.append(("Decision consistency at the cut: same decision on two sittings", "decision_consistency",
+                     cut_score.agreement, "coef", None))
+        rows.append(("Classification accuracy at the cut (observed against true pass/fail)",
+                     "classification_accuracy", cut_score.accuracy, "coef", None))
+        if cut_score.csem is not None:
+            rows.append(("Conditional SEM at the cut (Lord's binomial error)", "csem", cut_score.csem, "coef", None))
+    if content is not None:
+        rows.append(("Do experts judge the items essential to the job?", None, None, "", None))
+        rows.append(("Items whose content validity ratio reaches the critical value", "content_pass", content.n_pass,
+                     "count", None))
+        rows.append(("Content validity index (mean CVR of those items)", "cvi", content.cvi, "coef", None))
+    return rows
