@@ -398,3 +398,24 @@ def test_libreoffice_recomputes_the_new_sheets_standard_formulas_to_the_same_val
     assert checked.get("Bands", 0) >= 200 * 5
     for sheet in NEW_SHEETS:
         assert checked.get(sheet, 0) >= 10, (sheet, checked)
+
+
+def test_with_too_many_rows_for_per_group_columns_the_groups_sheet_says_why(tmp_path, monkeypatch):
+    # the per-group score columns are left out above a cell budget (their recalculation cost); n and the mean
+    # stay live (COUNTIFS, AVERAGEIFS) and the rest says why it is not computed
+    from trueband.bridge.study import setup_impact
+
+    monkeypatch.setattr(setup_impact, "MAX_GROUP_SCORE_CELLS", 10)
+    header, rows = table(n=120)
+    result = make_study(write_book(tmp_path / "d.xlsx", header, rows, SETUP), tmp_path / "s.xlsx")
+    assert result.recalc_report.ok
+    wb = load_workbook(result.path, data_only=True)
+    assert not any(str(h).startswith("Score if") for h in next(wb["Bands"].iter_rows(values_only=True)))
+    rows_ = sheet_rows(wb, "Groups")
+    at = find_row(rows_, "Group")
+    df = pd.DataFrame(rows, columns=header)
+    df["score"] = df[[f"i{j}" for j in range(1, K + 1)]].sum(axis=1)
+    women = rows_[at + 2]
+    assert women[0] == "Women" and women[1] == int((df["Sex"] == "Women").sum())
+    assert women[2] == pytest.approx(df[df["Sex"] == "Women"]["score"].mean(), rel=1e-12)  # pandas
+    assert str(women[4]).startswith("not computable: with 120 rows the per-group score columns")

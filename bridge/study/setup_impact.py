@@ -202,10 +202,16 @@ def _stage_columns(names, resolve, header, sheet: str) -> list[int]:
 MAX_GROUP_SCORE_COLUMNS = 12
 
 
-def _score_groups(impact: "ImpactData") -> list[tuple[int, str]]:
+#: Formula cells the per-group columns may add to the Bands sheet (rows x columns); beyond it they are left out
+#: and the Groups sheet says so (each such cell costs the recalculation about as much as a row of the data).
+MAX_GROUP_SCORE_CELLS = 150_000
+
+
+def _score_groups(data, impact: "ImpactData") -> list[tuple[int, str]]:
     """(demographic index, group) of the per-group score columns, or [] when there would be too many."""
     pairs = [(k, name) for k, d in enumerate(impact.demographics) for name in d.tally.names]
-    return pairs if 2 <= len(pairs) <= MAX_GROUP_SCORE_COLUMNS else []
+    cells = len(pairs) * (2 if data.criterion is not None else 1) * data.n
+    return pairs if 2 <= len(pairs) <= MAX_GROUP_SCORE_COLUMNS and cells <= MAX_GROUP_SCORE_CELLS else []
 
 
 def bands_columns(data) -> list[tuple[str, str]]:
@@ -220,7 +226,7 @@ def bands_columns(data) -> list[tuple[str, str]]:
         out.append(("stratum", f"Stratum number: {impact.stratum.header} (as counted on Strata)"))
     out += [(f"stage:{k}", f"{st.header} (1 = yes, as read)") for k, st in enumerate(impact.stages)]
     if impact.several or impact.stratum is not None or impact.stages:
-        for k, name in _score_groups(impact):
+        for k, name in _score_groups(data, impact):
             out.append((f"score:{k}:{name}", f"Score if {impact.demographics[k].header} is {name}"))
             if data.criterion is not None:
                 out.append((f"criterion:{k}:{name}", f"Criterion if {impact.demographics[k].header} is {name}"))

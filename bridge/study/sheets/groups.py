@@ -13,6 +13,7 @@ import numpy as np
 
 from ..context import Ref, StudyContext
 from ..words import CAUTION
+from ..setup_impact import MAX_GROUP_SCORE_CELLS
 from .bands import BandsLayout
 from .impact import Impact
 from .setup import SetupSheet
@@ -35,8 +36,9 @@ class Groups:
 
 def write(ctx: StudyContext, setup: SetupSheet, impact: Impact, bands: BandsLayout) -> Groups:
     d = ctx.data
-    if not impact.tables or not any(k.startswith("score:") for k in bands.extra):
+    if not impact.tables or not (d.impact.several or d.impact.stratum is not None or d.impact.stages):
         return Groups()
+    live = any(k.startswith("score:") for k in bands.extra)
     g = ctx.sheet(SHEET)
     g.widths.update({1: 22, **{c: 13 for c in range(2, 14)}})
     g.set(1, 1, "Test scores and the criterion by group", "title")
@@ -55,10 +57,32 @@ def write(ctx: StudyContext, setup: SetupSheet, impact: Impact, bands: BandsLayo
             g.set(row + 1, c, h, "header")
         first = row + 2
         for i, name in enumerate(t.names):
-            d_ref = _group_row(ctx, g, first + i, t, k_index, name, bands, setup)
-            first_d = first_d or d_ref
+            if live:
+                d_ref = _group_row(ctx, g, first + i, t, k_index, name, bands, setup)
+                first_d = first_d or d_ref
+            else:
+                _counts_only(ctx, g, first + i, t, name, bands)
         row = first + len(t.names) + 2
     return Groups(first_d)
+
+
+def _counts_only(ctx, g, r: int, t, name: str, bands: BandsLayout) -> None:
+    """Without the per-group columns (too many rows): n and the mean score by group; the rest says why not."""
+    g.set(r, 1, name)
+    mine = _values(ctx, t, name, ctx.data.scores)
+    number = t.demographic.numbers[name]
+    ctx.expression(g, r, 2, 'COUNTIFS({groups},{number},{selected},">=0")', lambda: len(mine), style="count",
+                   groups=t.numbers, number=number, selected=bands.selected)
+    ctx.expression(g, r, 3, "AVERAGEIFS({scores},{groups},{number})", _stat(mine, np.mean, 1), style="coef",
+                   scores=bands.scores, groups=t.numbers, number=number)
+    reason = (f"with {ctx.data.n:,} rows the per-group score columns this needs (one per group on Bands) would "
+              f"add more than {MAX_GROUP_SCORE_CELLS:,} formula cells to the recalculation; study a sample of the rows "
+              f"for this figure")
+    for c in range(4, 8 if ctx.data.criterion is None else 14):
+        if c == 5 and name == t.reference:
+            g.set(r, c, "reference group")
+        elif c == 4 or c >= 8 or name != t.reference:
+            ctx.not_computable_at(g, r, c, reason)
 
 
 def _values(ctx: StudyContext, t, name: str, x: np.ndarray) -> list[float]:
