@@ -33,7 +33,7 @@ from trueband.bridge.study.grid import P_FORMAT
 from trueband.bridge.study.templates import study_data_workbook
 
 #: the most pages the demo's report may take (stated in the README)
-DEMO_REPORT_PAGES = 16
+DEMO_REPORT_PAGES = 60
 
 
 @pytest.fixture(scope="module")

@@ -73,7 +73,8 @@ def stats_of(demo, study):
 def test_the_new_sheets_are_there_and_computed(study):
     result, wb, _ = study
     assert result.recalc_report.ok, [tuple(e) for e in result.recalc_report.errors[:10]]
-    assert result.not_computable == []
+    # the demo's other sheets have their own expected gaps (test_study.py); these three have none
+    assert [x for x in result.not_computable if x[0] in ("Cut score", "Standard setting", "Content")] == []
     assert {"Cut score", "Standard setting", "Content"} <= set(wb.sheetnames)
     assert wb.sheetnames.index("Content") < wb.sheetnames.index("Notes")
 

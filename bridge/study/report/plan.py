@@ -48,14 +48,14 @@ SECTIONS: tuple[Section, ...] = (
         "job; any bias in the criterion considered (1607.15B(5), 1607.14B(2))."),)),
     Section("The sample and its groups", sheets=("Groups",), summary_heading="The people", placeholders=(
         "How the sample was drawn and how it compares with the applicant population (1607.15B(6)).",)),
-    Section("Reliability", sheets=("Reliability", "Items", "Raters"),
+    Section("Reliability", sheets=("Reliability", "Items", "Options", "Raters"),
             summary_heading="Is the test consistent?"),
     Section("Validity and its corrections", sheets=("Validity", "Combined"),
             summary_heading="Does the score predict job performance?"),
     Section("Fairness", sheets=("Fairness", "DIF")),
     Section("Adverse impact", sheets=("Impact", "Strata", "Stages", "Cuts"),
             summary_heading="Does the cut screen out a group?"),
-    Section("The cut score and how it was set", sheets=("Cut score", "Judges", "Content", "Bands"),
+    Section("The cut score and how it was set", sheets=("Cut score", "Standard setting", "Content", "Bands"),
             placeholders=(("The rationale for the cut score and the method used to set it, in the author's "
                           "own words: why it is reasonable and consistent with normal expectations of "
                           "proficiency in the workforce (1607.5H)."),)),

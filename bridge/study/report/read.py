@@ -150,8 +150,11 @@ def _main_width(rows: dict[int, dict[int, Any]]) -> int:
     return width
 
 
-def _blocks(title: str, rows: dict[int, dict[int, Any]]) -> tuple:
+def _blocks(title: str, rows: dict[int, dict[int, Any]], candidates: frozenset = frozenset()) -> tuple:
+    """The sheet's headings, paragraphs and tables; a table row naming a candidate (an id of ``candidates``) is
+    left out, and a paragraph after the table says how many were."""
     width = _main_width(rows)
+    left_out = 0
     blocks: list = []
     table: list[tuple[int, tuple[str, ...]]] = []
     para: list[str] = []
@@ -200,9 +203,20 @@ def _blocks(title: str, rows: dict[int, dict[int, Any]]) -> tuple:
             continue
         flush_para()
         last = max(cells)
+        if candidates and any(t in candidates for t in texts.values()):
+            left_out += 1
+            continue
+        if left_out:
+            flush_table()
+            blocks.append(Paragraph(f"({left_out} rows naming individual candidates are left out here; they are "
+                                    f"on the study's sheet {title}.)"))
+            left_out = 0
         table.append((r, tuple(texts.get(c, "") for c in range(1, last + 1))))
     flush_table()
     flush_para()
+    if left_out:
+        blocks.append(Paragraph(f"({left_out} rows naming individual candidates are left out here; they are on "
+                                f"the study's sheet {title}.)"))
     return tuple(blocks)
 
 
@@ -299,6 +313,20 @@ def chart_sheets(path: Path) -> list[str]:
         return out
 
 
+def _candidate_ids(wb, settings: dict[str, Any]) -> frozenset:
+    """The candidates' ids, as the report would print them, read from the study's copy of the data."""
+    sheet, column = settings.get("data sheet"), settings.get("id column")
+    if not isinstance(sheet, str) or not isinstance(column, str) or sheet not in wb.sheetnames:
+        return frozenset()
+    rows = wb[sheet].iter_rows(values_only=True)
+    header = next(rows, ())
+    names = [str(h).strip() if h is not None else "" for h in header]
+    if column.strip() not in names:
+        return frozenset()
+    k = names.index(column.strip())
+    return frozenset(format_value(row[k], None) for row in rows if k < len(row) and row[k] is not None)
+
+
 def _base_title(title: str) -> str:
     """A further predictor's sheet, ``Reliability (Work Style)``, is read as its kind, ``Reliability``."""
     return title.split(" (")[0] if title.endswith(")") and " (" in title else title
@@ -323,13 +351,15 @@ def read_study(path: str | Path, analysis_sheets: tuple[str, ...]) -> StudyConte
         if "Summary" not in values_wb.sheetnames:
             raise ValueError("it has no Summary sheet: is it a study that trueband study wrote?")
         content.summary = _summary(values_wb["Summary"], formulas_wb["Summary"])
+        settings = _settings(values_wb["Setup"]) if "Setup" in values_wb.sheetnames else {}
+        candidates = _candidate_ids(values_wb, settings)
         for title in values_wb.sheetnames:
             base = _base_title(title)
             if base not in analysis_sheets or base in PER_CANDIDATE:
                 if base not in analysis_sheets and title != "Setup":
                     content.data_sheets.append(title)
                 continue
-            content.sheets[title] = SheetContent(title, _blocks(title, _cells_by_row(values_wb[title])))
+            content.sheets[title] = SheetContent(title, _blocks(title, _cells_by_row(values_wb[title]), candidates))
             content.order.append(title)
         if "Setup" in values_wb.sheetnames:
             content.settings = _settings(values_wb["Setup"])
