@@ -114,16 +114,55 @@ RECALC_ALWAYS = """<?xml version="1.0" encoding="UTF-8"?>
 """
 
 
+def recomputed_mismatches(soffice: str, book: Path, sheets, folder: Path, close=None):
+    """LibreOffice's own recomputation of the standard formulas of ``sheets`` against the stored values.
+
+    A private profile makes LibreOffice recompute every formula on loading (RECALC_ALWAYS); a formula that
+    calls a trueband function is skipped, and so is a cell whose recomputed value is an error (it reads a
+    trueband result LibreOffice does not have). ``close(stored, shown)`` may accept a near value. Returns
+    (cells compared per sheet, mismatches as (sheet, cell, formula, stored, shown)).
+    """
+    from openpyxl.formula import Tokenizer
+
+    from trueband.funcs import REGISTRY
+    from trueband.funcs.registry import normalize_name
+
+    profile = folder / "profile"
+    (profile / "user").mkdir(parents=True)
+    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
+    convert(soffice, book, CSV_FILTER, folder / "csv", profile)
+
+    def ours(text: str) -> bool:
+        names = {normalize_name(t.value.rstrip("(")) for t in Tokenizer(text).items
+                 if t.type == "FUNC" and t.subtype == "OPEN"}
+        return bool(names & set(REGISTRY))
+
+    formulas = load_workbook(book, data_only=False)
+    values = load_workbook(book, data_only=True)
+    checked, mismatches = {}, []
+    for sheet in sheets:
+        shown_rows = read_csv(folder, sheet)
+        for row in formulas[sheet].iter_rows():
+            for cell in row:
+                text = cell.value
+                if not (isinstance(text, str) and text.startswith("=")) or ours(text):
+                    continue
+                theirs = shown(shown_rows, cell.row, cell.column)
+                if theirs.startswith("#") or theirs.startswith("Err:"):
+                    continue  # depends on a trueband function LibreOffice does not have
+                stored = values[sheet][cell.coordinate].value
+                checked[sheet] = checked.get(sheet, 0) + 1
+                if not (same(stored, theirs) or (close is not None and close(stored, theirs))):
+                    mismatches.append((sheet, cell.coordinate, text[:70], stored, theirs))
+    return checked, mismatches
+
+
 def test_libreoffice_recomputes_the_standard_formulas_to_the_same_values(tmp_path, soffice):
     # LibreOffice's own COUNTIFS, SUM, IF... (it does not know trueband's functions: those cells show
     # #NAME? and are skipped) over messy group labels, reverse-keyed items and a y/n hired column must
     # give what trueband stored: the Python counts and the sheet's formulas agree in a spreadsheet app too
-    from openpyxl.formula import Tokenizer
-
     from test_study_likert import SETUP as LIKERT_SETUP, likert_table
     from test_study_setup import write_book
-    from trueband.funcs import REGISTRY
-    from trueband.funcs.registry import normalize_name
 
     header, rows, _ = likert_table(n=120)
     header = header + ["hired", "perf"]
@@ -134,33 +173,8 @@ def test_libreoffice_recomputes_the_standard_formulas_to_the_same_values(tmp_pat
         r.append(round(2 + 0.1 * sum(r[2:10]) % 3, 1) if hired[i % 6] in ("Y", " yes", 1) else None)
     setup = {**LIKERT_SETUP, "hired column": "hired", "criterion column": "perf"}
     result = make_study(write_book(tmp_path / "d.xlsx", header, rows, setup), tmp_path / "study.xlsx")
-    profile = tmp_path / "profile"
-    (profile / "user").mkdir(parents=True)
-    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
-    convert(soffice, result.path, CSV_FILTER, tmp_path / "csv", profile)
-
-    def ours_only(text: str) -> bool:
-        names = {normalize_name(t.value.rstrip("(")) for t in Tokenizer(text).items
-                 if t.type == "FUNC" and t.subtype == "OPEN"}
-        return bool(names & set(REGISTRY))
-
-    formulas = load_workbook(result.path, data_only=False)
-    values = load_workbook(result.path, data_only=True)
-    checked, mismatches = {}, []
-    for sheet in ("Impact", "Bands", "Scored items", "Validity", "Reliability"):
-        shown_rows = read_csv(tmp_path, sheet)
-        for row in formulas[sheet].iter_rows():
-            for cell in row:
-                text = cell.value
-                if not (isinstance(text, str) and text.startswith("=")) or ours_only(text):
-                    continue
-                theirs = shown(shown_rows, cell.row, cell.column)
-                if theirs.startswith("#") or theirs == "Err:502":
-                    continue  # depends on a trueband function LibreOffice does not have
-                checked[sheet] = checked.get(sheet, 0) + 1
-                if not same(values[sheet][cell.coordinate].value, theirs):
-                    mismatches.append((sheet, cell.coordinate, text[:60], values[sheet][cell.coordinate].value,
-                                       theirs))
+    checked, mismatches = recomputed_mismatches(soffice, result.path, ("Impact", "Bands", "Scored items", "Validity",
+                                                                       "Reliability"), tmp_path)
     assert not mismatches, mismatches[:10]
     assert checked.get("Scored items", 0) == 120 * 8 and checked.get("Bands", 0) >= 3 * 120
     assert checked.get("Impact", 0) >= 2 * 4  # Applicants and Selected of each group, at least

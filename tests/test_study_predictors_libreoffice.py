@@ -10,9 +10,8 @@ what trueband stored (cells that need a trueband function show #NAME? there and 
 from __future__ import annotations
 
 import pytest
-from openpyxl import load_workbook
 
-from test_study_libreoffice import CSV_FILTER, RECALC_ALWAYS, convert, mismatched_cells, read_csv, same, shown
+from test_study_libreoffice import CSV_FILTER, convert, mismatched_cells, recomputed_mismatches
 from trueband.bridge.study.build import make_study
 from trueband.bridge.study.demo import make_demo
 from trueband.bridge.study.templates import study_data_workbook
@@ -39,39 +38,10 @@ def test_libreoffice_shows_the_stored_value_of_every_formula_of_the_new_sheets(d
 
 
 def test_libreoffice_recomputes_the_standard_formulas_of_the_new_sheets_alike(demo_study, tmp_path, soffice):
-    from openpyxl.formula import Tokenizer
-
-    from trueband.funcs import REGISTRY
-    from trueband.funcs.registry import normalize_name
-
     result, _ = demo_study
-    profile = tmp_path / "profile"
-    (profile / "user").mkdir(parents=True)
-    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
-    convert(soffice, result.path, CSV_FILTER, tmp_path / "csv", profile)
-
-    def ours(text: str) -> bool:
-        names = {normalize_name(t.value.rstrip("(")) for t in Tokenizer(text).items
-                 if t.type == "FUNC" and t.subtype == "OPEN"}
-        return bool(names & set(REGISTRY))
-
-    formulas = load_workbook(result.path, data_only=False)
-    values = load_workbook(result.path, data_only=True)
-    checked, mismatches = {}, []
-    for sheet in ("Combined", "Fairness", "Combined scores", "Fairness (Work Style)", "DIF"):
-        rows = read_csv(tmp_path, sheet)
-        for row in formulas[sheet].iter_rows():
-            for cell in row:
-                text = cell.value
-                if not (isinstance(text, str) and text.startswith("=")) or ours(text):
-                    continue
-                theirs = shown(rows, cell.row, cell.column)
-                if theirs.startswith("#") or theirs.startswith("Err:"):
-                    continue  # depends on a trueband function LibreOffice does not have
-                ours_value = values[sheet][cell.coordinate].value
-                checked[sheet] = checked.get(sheet, 0) + 1
-                if not (same(ours_value, theirs) or (isinstance(ours_value, float) and _close(ours_value, theirs))):
-                    mismatches.append((sheet, cell.coordinate, text[:70], ours_value, theirs))
+    checked, mismatches = recomputed_mismatches(
+        soffice, result.path, ("Combined", "Fairness", "Combined scores", "Fairness (Work Style)", "DIF"), tmp_path,
+        close=lambda stored, theirs: isinstance(stored, float) and _close(stored, theirs))
     assert not mismatches, mismatches[:10]
     # the group lines (INTERCEPT, SLOPE, their intervals) and the listing behind them, the scores side by side
     assert checked.get("Fairness", 0) >= 3 * 5 + 4 * 100
