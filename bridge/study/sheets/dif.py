@@ -17,7 +17,7 @@ import numpy as np
 from ..context import StudyContext, sheet_title
 from ..words import CAUTION, DIF_CAUTION, DIF_SIZES
 from . import items as items_sheet
-from .fairness import demographic_columns
+from .fairness import demographic_columns, reference_of
 
 __all__ = ["Dif", "write", "MIN_GROUP"]
 
@@ -75,7 +75,7 @@ def write(ctx: StudyContext, predictor) -> Dif:
                                                                  f"; fewer than {MIN_GROUP}: not compared"))
             row += 1
         enough = [n for n in numbers if counts[n] >= MIN_GROUP]
-        reference = _reference(s.reference_group, counts, enough)
+        reference = reference_of(s.reference_group, counts, enough)
         if reference is None or len(enough) < 2:
             ctx.not_computable_at(g, row + 1, 1, f"DIF needs at least two groups with {MIN_GROUP} or more people who "
                                                  f"answered every item", key="dif")
@@ -89,16 +89,6 @@ def write(ctx: StudyContext, predictor) -> Dif:
                 row, out[name] = _table(ctx, g, row, items_ref, groups_ref, name, reference, numbers)
     _flags(ctx, out)
     return Dif(out)
-
-
-def _reference(given, counts, enough):
-    if given:
-        from trueband.funcs.impact import group_key
-
-        match = next((n for n in enough if group_key(n) == group_key(given)), None)
-        if match is not None:
-            return match
-    return max(enough, key=lambda n: counts[n]) if enough else None
 
 
 def _table(ctx: StudyContext, g, row: int, items, groups, name: str, reference: str, numbers) -> tuple[int, list]:

@@ -78,7 +78,7 @@ def _column(ctx, g, row, predictor, header, labels, listed, numbers):
     group_of = [labels[i] for i in listed]
     counts = {name: sum(1 for x in group_of if x == name) for name in numbers}
     enough = [name for name in numbers if counts[name] >= MIN_GROUP]
-    reference = _reference(s.reference_group, counts, enough)
+    reference = reference_of(s.reference_group, counts, enough)
     for name in numbers:
         g.set(row, 1, f"People with a score and a criterion value in {name}")
         g.set(row, 2, counts[name], "count")
@@ -103,7 +103,9 @@ def _column(ctx, g, row, predictor, header, labels, listed, numbers):
     return row, out
 
 
-def _reference(given, counts, enough):
+def reference_of(given, counts, enough):
+    """The reference group among the groups ``enough`` (large enough to compare): the one named on Setup,
+    matched as group labels are, else the largest."""
     if given:
         from trueband.funcs.impact import group_key
 
