@@ -192,7 +192,7 @@ def test_fill_drops_the_calculation_chain(tmp_path):
     (["--sheet", "Applicants", "--column", "F", "--formula", "  "], ["--formula"]),
     # The formula is checked before anything is written, as `trueband check` checks a saved one.
     (["--sheet", "Applicants", "--column", "F", "--formula", "=SME(C{row}, 0.9)"],
-     ["unknown function SME (did you mean SEM or SUM?)", "nothing was written"]),
+     ["unknown function SME (did you mean SEM?)", "nothing was written"]),
     (["--sheet", "Applicants", "--column", "F", "--formula", "=SEM(C{row})"],
      ["SEM takes 2 arguments, got 1: SEM(sd, reliability)"]),
     (["--sheet", "Applicants", "--column", "F", "--formula", "=C2*2"], ["has no {row}", "6 rows", "--same-formula"]),

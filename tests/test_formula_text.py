@@ -1,5 +1,5 @@
 """Reading formula text: names that begin like TRUE/FALSE, ';' typed between arguments, messages with the
-position where reading stopped, and "did you mean" from both function families (`trueband eval`, cells).
+position where reading stopped, and "did you mean" from both function families (names within a slip or two) (`trueband eval`, cells).
 
 Kelley's estimate (Kelley 1947, T = r x + (1 - r) mean) is the reference value of the cells; the registry's
 own call is checked against it in tests/test_scores.py.
@@ -68,7 +68,7 @@ def test_eval_of_an_unreadable_formula_is_one_line_with_the_formula(formula, wor
 
 def test_eval_of_a_misspelt_name_suggests_both_families(capsys):
     assert main(["eval", "SME(10, 0.9)"]) == EXIT_CELL_ERRORS
-    assert "unknown function SME (did you mean SEM or SUM?)" in capsys.readouterr().err
+    assert "unknown function SME (did you mean SEM?)" in capsys.readouterr().err
 
 
 def test_file_formulas_with_semicolons_get_a_hint_not_a_rewrite():
@@ -107,4 +107,4 @@ def test_recalc_names_the_close_functions_of_an_unknown_one(tmp_path):
     report = recalculate(src, tmp_path / "typo.out.xlsx")
     assert [(e.sheet, e.cell) for e in report.errors] == [("Scores", "B1"), ("Scores", "B2"), ("Scores", "B3")]
     assert {e.code for e in report.errors} == {"#NAME?"}
-    assert all("(did you mean SEM or SUM?)" in e.message for e in report.errors)
+    assert all("(did you mean SEM?)" in e.message for e in report.errors)

@@ -55,7 +55,7 @@ class CellProblem:
 
 
 def unknown_function(name: str) -> CellProblem:
-    """The problem of a call of a function nobody knows, with the closest names (``SME``: SEM or SUM)."""
+    """The problem of a call of a function nobody knows, with the closest names (``SME``: SEM)."""
     return CellProblem(name, "#NAME?", f"{name} is not a function trueband or the formula engine knows"
                                        f"{did_you_mean(name)}")
 

@@ -19,7 +19,6 @@ This module is the engine's; the command line imports it, never the reverse.
 
 from __future__ import annotations
 
-import difflib
 
 import formulas
 import regex
@@ -29,7 +28,8 @@ from formulas.tokens.operand import Number, String
 from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import REGISTRY
 
-from .names import bare_name, registered_name, standard_names
+from .names import registered_name, standard_names
+from .standard_functions import close_names
 
 # The library's number-and-logical token, with "_" added to what may not follow TRUE/FALSE.
 _LOOKAHEAD = r"(?!([a-z]|[0-9]|\.|\s*\:))"
@@ -176,22 +176,13 @@ def typed_formula(text: str) -> str:
 
 
 def suggestions(name: str) -> list[str]:
-    """The closest registered name and the closest standard name to ``name``, closest first (trueband's on a tie).
-
-    The other family's name is offered only when it is about as close (difflib
-    ratio within 0.1 of the best); no name is offered below a ratio of 0.6.
+    """The registered and standard names within a slip or two of ``name``, closest first (trueband's on a tie):
+    the one rule of "did you mean" for every way in (see :func:`.standard_functions.close_names`).
 
     >>> suggestions("SME")
-    ['SEM', 'SUM']
+    ['SEM']
     """
-    key = bare_name(name)
-    scored = []
-    for rank, family in enumerate((list(REGISTRY), [n for n in standard_names() if "." not in n])):
-        found = difflib.get_close_matches(key, family, n=1, cutoff=0.6)
-        if found:
-            scored.append((-difflib.SequenceMatcher(None, key, found[0]).ratio(), rank, found[0]))
-    scored.sort()
-    return [n for ratio, _, n in scored if ratio <= scored[0][0] + 0.1]  # the other family's only if about as close
+    return close_names(name, most=2)
 
 
 def did_you_mean(name: str) -> str:
