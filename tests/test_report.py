@@ -217,3 +217,28 @@ def test_p_values_below_0_0001_show_as_such_in_libreoffice(soffice, tmp_path):
                    check=True, capture_output=True, timeout=180)
     shown = (tmp_path / "p.csv").read_text(encoding="utf-8").splitlines()
     assert shown == ["< 0.0001", "< 0.0001", "0.0457", "0.5000"]
+
+
+def test_the_summary_says_live_that_local_validity_is_not_established(tmp_path):
+    # A criterion unrelated to the test (invented noise): the observed validity's interval includes 0, and the
+    # Summary's line above the utility figures says so; with the demo's criterion (interval above 0) it is empty.
+    # The interval itself is scipy's Fisher-z interval (checked in test_study.py); here only its reading.
+    import numpy as np
+
+    from test_study_predictors import table, write_book
+    from trueband.bridge.study.words import VALIDITY_NOT_ESTABLISHED
+
+    header, rows, _, _ = table(60)
+    rng = np.random.default_rng(5)
+    k = header.index("perf")
+    for r in rows:
+        r[k] = round(float(rng.standard_normal()), 2) if r[k] is not None else None
+    setup = [("id column", "id"), ("group column", "group"), ("item columns", "T1:T8"), ("criterion column", "perf")]
+    result = make_study(write_book(tmp_path / "d.xlsx", header, rows, setup), tmp_path / "s.xlsx")
+    values = load_workbook(result.path, data_only=True)
+    low = values[result.cells["r_lower"][0]][result.cells["r_lower"][1]].value
+    high = values[result.cells["r_upper"][0]][result.cells["r_upper"][1]].value
+    assert low <= 0 <= high
+    sheet, where = result.cells["validity_not_established"]
+    assert values[sheet][where].value == VALIDITY_NOT_ESTABLISHED
+    assert "IF(AND(" in load_workbook(result.path)[sheet][where].value   # a live formula, not a typed text

@@ -144,3 +144,12 @@ CONTENT_CAUTION = (
     "The content validity ratio shows how many subject-matter experts rated an item essential to the job; it "
     "is evidence about the items' content, not about how well the scores predict performance, and it rests on "
     "a job analysis the ratings must be linked to. A small panel cannot reach the critical value at all.")
+
+
+# ---------------------------------------------------------------- what the numbers do not support
+
+#: The Summary's line above the utility figures when the observed validity's interval includes zero (a live
+#: formula shows it only then).
+VALIDITY_NOT_ESTABLISHED = ("Local validity is not established: the observed validity's interval includes 0, so "
+                            "the figures below are conditional on a validity these data do not establish.")
+__all__ += ["VALIDITY_NOT_ESTABLISHED"]

@@ -5,7 +5,7 @@ from __future__ import annotations
 from trueband.funcs.errors import TruebandError
 
 from ..context import Ref, StudyContext, cell
-from ..words import CAUTION, NOT_COMPUTABLE
+from ..words import CAUTION, NOT_COMPUTABLE, VALIDITY_NOT_ESTABLISHED
 from .impact import Impact
 from .raters import Raters
 from .reliability import Reliability
@@ -77,6 +77,8 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, raters: Raters
         if key is None:
             g.set(r, 1, label, "heading")
             r += 1
+            if label == "What is the test worth?":
+                r += _validity_caution(ctx, g, r, validity)
             continue
         g.set(r, 1, label)
         if key == "cut":
@@ -101,6 +103,19 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, raters: Raters
     if d.problems:
         g.para(r + 1, 1, f"{len(d.problems)} problem(s) were found in the data (values outside the item scale, "
                          f"duplicate ids, blank groups and the like); the Notes sheet lists each cell.", "caution")
+
+
+def _validity_caution(ctx: StudyContext, g, r: int, validity: Validity) -> int:
+    """A live line saying that local validity is not established when the observed validity's interval includes
+    0 (empty text otherwise), above the utility figures; the rows it takes."""
+    low, high = validity.r_lower, validity.r_upper
+    if low is None or high is None or not all(isinstance(x.value, float) for x in (low, high)):
+        return 0
+    shown = VALIDITY_NOT_ESTABLISHED if low.value <= 0 <= high.value else ""
+    ctx.expression(g, r, 1, 'IF(AND({low}<=0,{high}>=0),{text},"")', lambda: shown, style="caution",
+                   key="validity_not_established", low=low.qualified_relative(), high=high.qualified_relative(),
+                   text=VALIDITY_NOT_ESTABLISHED)
+    return 1
 
 
 def _figure(ctx: StudyContext, g, r: int, c: int, key: str, figure: Ref, style: str) -> None:
