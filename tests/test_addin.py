@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import math
 import re
+import socket
 import struct
 import subprocess
 import sys
@@ -471,6 +472,12 @@ def test_thin_component_refuses_a_reply_over_its_size_cap(component, capsys, dec
         head += (b"Content-Length: %d\r\n" % size) if declared else b"Connection: close\r\n"
         try:
             conn.sendall(head + b"\r\n" + b'{"value": 1' + b" " * (size - 12) + b"}")
+            # end the reply without a reset: closing with unread bytes of the request in the buffer would send
+            # RST, and the client could see "connection reset" before it has read up to its cap
+            conn.shutdown(socket.SHUT_WR)
+            conn.settimeout(10)
+            while conn.recv(65536):
+                pass
         except OSError:
             pass
         conn.close()

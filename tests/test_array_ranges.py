@@ -52,7 +52,10 @@ def test_an_array_range_whose_other_cells_are_absent_is_written_in(tmp_path):
     assert after.index(b'<c r="F2">') < after.index(b'<c r="G2"') < after.index(b'<c r="F3">')
     head, tail = before.split(b"<sheetData>")[0], before.split(b"</sheetData>")[1]
     assert after.split(b"</sheetData>")[1] == tail
-    assert after.split(b"<sheetData>")[0] == head.replace(b'<dimension ref="A1:H1"/>', b'<dimension ref="A1:H4"/>')
+    # only the dimension's range changes, in whatever form the writer gave the element (openpyxl writes
+    # <dimension ref="A1:H1"/> with lxml and <dimension ref="A1:H1" /> without)
+    assert b'<dimension ref="A1:H1"' in head
+    assert after.split(b"<sheetData>")[0] == head.replace(b'<dimension ref="A1:H1"', b'<dimension ref="A1:H4"')
 
 
 def test_positions_beyond_an_array_result_are_error_cells(tmp_path):
