@@ -14,7 +14,8 @@ import pytest
 
 import golden_books as gb
 from trueband.bridge.engine.recalc import recalculate
-from trueband.bridge.workbook.package import UnusableWorkbook, open_workbook_package, parse_shared_strings
+from trueband.bridge.workbook.package import UnusableWorkbook, open_workbook_package
+from trueband.bridge.workbook.shared_strings import parse_shared_strings
 
 
 def _rewrite(src, dst, name, change):

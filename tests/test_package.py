@@ -21,6 +21,7 @@ import golden_books as gb
 from trueband.bridge.workbook import package as xp
 from trueband.bridge.cli import EXIT_FAILED, main
 from trueband.bridge.workbook.package import UnusableWorkbook, WorkbookLocked, open_workbook_package
+from trueband.bridge.workbook.shared_strings import parse_shared_strings
 
 
 @pytest.fixture
@@ -69,7 +70,7 @@ def test_shared_string_escapes():
     xml = (b'<sst xmlns="x"><si><t>a_x000D_b</t></si><si><t>_x005F_x0041_</t></si><si><t/></si>'
            b'<si><t xml:space="preserve">  two  </t></si><si><t>&#8211;&amp;&quot;</t></si></sst>')
     # ECMA-376 Part 1, 22.9.2.19 ST_Xstring: _xHHHH_ escapes a character; _x005F_ escapes the underscore
-    assert xp.parse_shared_strings(xml) == ["a\rb", "_x0041_", "", "  two  ", "\u2013&\""]
+    assert parse_shared_strings(xml) == ["a\rb", "_x0041_", "", "  two  ", "\u2013&\""]
 
 
 def test_defined_names_with_sheet_scope(forms):
