@@ -285,16 +285,16 @@ def _sheet_parts(z: zipfile.ZipFile) -> dict[str, str]:
     return out
 
 
-def first_unstored(path: Path, titles) -> str | None:
-    """The first formula cell of the sheets ``titles`` that has no stored value at all (no ``<v>``), or None.
+def first_unstored(path: Path, kinds) -> str | None:
+    """The first formula cell with no stored value at all (no ``<v>``) on a sheet of one of ``kinds`` (sheet
+    titles; a further predictor's ``Reliability (Work Style)`` is of the kind ``Reliability``), or None.
 
     A formula whose value is the empty text is stored as an empty ``<v></v>`` and counts as stored.
     """
     with zipfile.ZipFile(path) as z:
-        parts = _sheet_parts(z)
-        for title in titles:
-            if title in parts:
-                m = _NO_VALUE.search(z.read(parts[title]))
+        for title, part in _sheet_parts(z).items():
+            if _base_title(title) in kinds:
+                m = _NO_VALUE.search(z.read(part))
                 if m:
                     return f"{title}!{m.group(1).decode()}"
     return None
@@ -339,9 +339,7 @@ def read_study(path: str | Path, analysis_sheets: tuple[str, ...]) -> StudyConte
     was saved without the values of its formulas.
     """
     path = Path(path)
-    with zipfile.ZipFile(path) as z:
-        titles = [t for t in _sheet_parts(z) if _base_title(t) in analysis_sheets]
-    where = first_unstored(path, ["Summary", *titles])
+    where = first_unstored(path, analysis_sheets)
     if where is not None:
         raise NotRecalculated(where)
     values_wb = load_workbook(path, data_only=True, read_only=True)
