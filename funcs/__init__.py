@@ -20,7 +20,7 @@ with limits and a p value there is a result object with
 module                 topic
 =====================  ===================================================================================
 ``scores``             measurement error and score interpretation; score bands
-``reliability``        reliability from item data, item analysis
+``reliability``        reliability from item data, item analysis (in a group, retest gain: ``reliability_groups``)
 ``agreement``          rater agreement: kappas, rwg (and, re-exported, the next two)
 ``intraclass``         intraclass correlations (rater agreement)
 ``krippendorff``       Krippendorff's alpha (rater agreement)
@@ -62,6 +62,7 @@ from . import (  # noqa: F401  (registers)
     krippendorff,
     options,
     reliability,
+    reliability_groups,
     results,
     scores,
     standard_setting,
@@ -92,13 +93,14 @@ from .intraclass import *  # noqa: F401,F403
 from .krippendorff import *  # noqa: F401,F403
 from .options import *  # noqa: F401,F403
 from .reliability import *  # noqa: F401,F403
+from .reliability_groups import *  # noqa: F401,F403
 from .results import *  # noqa: F401,F403
 from .scores import *  # noqa: F401,F403
 from .standard_setting import *  # noqa: F401,F403
 from .utility import *  # noqa: F401,F403
 from .validity import *  # noqa: F401,F403
 
-_TOPICS = (agreement, composite, content, cutscores, decision_accuracy, dif, fairness, impact, impact_intervals, impact_pooled, intraclass, krippendorff, options, reliability, results, scores, standard_setting, utility, validity)
+_TOPICS = (agreement, composite, content, cutscores, decision_accuracy, dif, fairness, impact, impact_intervals, impact_pooled, intraclass, krippendorff, options, reliability, reliability_groups, results, scores, standard_setting, utility, validity)
 
 __all__ = sorted(
     {name for module in _TOPICS for name in module.__all__}

@@ -8,6 +8,8 @@ spreadsheet name            Python function                               what i
 ``RANGE_CORRECT``           :func:`range_corrected_correlation`           Thorndike Case II (direct selection)
 ``RANGE_CORRECT_INDIRECT``  :func:`indirect_range_corrected_validity`     Hunter, Schmidt & Le (2006), Case IV
 ``OPERATIONAL_VALIDITY``    :func:`operational_validity`                  criterion reliability, then Case II
+``RESTRICTED_RELIABILITY``  :func:`restricted_reliability`                the test reliability among incumbents
+                                                                          that the indirect correction implies
 ``R_CI``                    :func:`correlation_confidence_limit`          Fisher z confidence limit
 ``R_PVALUE``                :func:`correlation_p_value`                   t test of ρ = 0, n − 2 df
 ``R_TO_D``                  :func:`correlation_to_d`                      d = 2r / √(1 − r²)
@@ -63,6 +65,7 @@ __all__ = [
     "range_corrected_correlation",
     "indirect_range_corrected_validity",
     "operational_validity",
+    "restricted_reliability",
     "correlation_confidence_limit",
     "correlation_p_value",
     "correlation_to_d",
@@ -363,6 +366,50 @@ def operational_validity(r: float, ryy: float, sd_restricted: float, sd_unrestri
     rho_i = _within_one(r / np.sqrt(ryy), "r", "the correlation corrected for criterion unreliability",
                         r=r, ryy=ryy)
     return case_ii(rho_i, sd_restricted, sd_unrestricted)
+
+
+@spreadsheet("RESTRICTED_RELIABILITY", returns="coefficient", elementwise=True,
+             reference="Hunter, J. E., Schmidt, F. L. & Le, H. (2006). Implications of direct and indirect range "
+                       "restriction for meta-analysis methods and findings. Journal of Applied Psychology 91, "
+                       "594-612; Schmidt, F. L. & Hunter, J. E. (2015). Methods of Meta-Analysis (3rd ed.), p. 127.")
+def restricted_reliability(rxx_applicants: float, u_x: float) -> float:
+    """The predictor's reliability among incumbents that the indirect range-restriction correction implies.
+
+    rxx_i = 1 − (1 − rxx_a) / u_x²
+
+    This is step 2 of ``RANGE_CORRECT_INDIRECT``: the model of Hunter,
+    Schmidt & Le (2006) takes the predictor's error variance to be the same
+    among applicants and incumbents, so the incumbents' reliability follows
+    from the applicants' reliability and the SD ratio. Put it beside the
+    reliability computed among the incumbents themselves: a value far below
+    it (or at or below 0) means the model does not fit the data, and the
+    indirect correction then gives an inflated validity (the correction
+    divides the observed r by √rxx_i).
+
+    Parameters
+    ----------
+    rxx_applicants : float
+        Reliability of the predictor among applicants, between 0 and 1.
+    u_x : float
+        Ratio of the incumbents' predictor SD to the applicants' predictor SD, greater than 0.
+
+    Notes
+    -----
+    The result is at most 1 and may be 0 or negative (u_x² ≤ 1 − rxx_a): it
+    is returned, not refused, because showing it is the point: it says why
+    the indirect correction is not computable. u_x above 1 (incumbents more
+    variable than applicants) is allowed.
+
+    Examples
+    --------
+    Applicant reliability .81 and u_x = .67:
+
+    >>> round(restricted_reliability(0.81, 0.67), 6)
+    0.576743
+    """
+    v.reliability("rxx_applicants", rxx_applicants)
+    v.positive("u_x", u_x)
+    return 1.0 - (1.0 - rxx_applicants) / (u_x * u_x)
 
 
 def _sample_size(name, n, low):

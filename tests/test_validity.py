@@ -163,6 +163,37 @@ def test_case_iv_with_a_perfectly_reliable_predictor_is_case_ii(r, u_x):
     assert call("RANGE_CORRECT_INDIRECT", r, u_x, 1) == pytest.approx(call("RANGE_CORRECT", r, u_x, 1), rel=1e-13)
 
 
+
+@pytest.mark.parametrize("rxx_a, u_x", [(0.81, 0.67), (0.8, 0.8), (0.7, 0.5584), (0.9, 1.2), (0.6, 0.5)])
+def test_restricted_reliability_against_psychmeta_formula(rxx_a, u_x):
+    # psychmeta R/estimate_artifacts.R, estimate_rxxi_ux_irr: 1 - (1 - rxxa) / ux^2 (may be 0 or below)
+    assert call("RESTRICTED_RELIABILITY", rxx_a, u_x) == pytest.approx(1 - (1 - rxx_a) / u_x ** 2, rel=1e-13)
+
+
+def test_restricted_reliability_holds_under_indirect_but_not_direct_selection(population):
+    # Hunter, Schmidt & Le (2006): with selection on the true score, the error variance is the same among
+    # applicants and incumbents, and the implied incumbent reliability is the actual one (true-score variance
+    # over observed variance among incumbents, known by design). With direct selection on the observed score
+    # the selected group's error variance shrinks too, so its actual reliability is well above the implied
+    # one: the gap the study's plausibility rule looks for.
+    rng, x, t = population["rng"], population["x"], population["t"]
+    s = t + 0.5 * rng.standard_normal(N_APPLICANTS)
+    for chosen, close in ((s > np.quantile(s, 0.7), True), (x > np.quantile(x, 0.7), False)):
+        u_x = x[chosen].std(ddof=1) / x.std(ddof=1)
+        actual = t[chosen].var(ddof=1) / x[chosen].var(ddof=1)
+        implied = call("RESTRICTED_RELIABILITY", RXX_A, u_x)
+        if close:
+            assert implied == pytest.approx(actual, abs=0.01)
+        else:
+            assert implied < actual - 0.15
+
+
+def test_restricted_reliability_refusals():
+    with raises_code("#NUM!", "rxx_applicants"):
+        call("RESTRICTED_RELIABILITY", 1.2, 0.5)
+    with raises_code("#NUM!", "u_x"):
+        call("RESTRICTED_RELIABILITY", 0.8, 0)
+
 def test_operational_validity_order_is_reliability_then_range():
     # Hunter & Schmidt (2004), ch. 3: criterion unreliability corrected in the restricted group, then Case II.
     r, ryy, s, S = 0.25, 0.52, 6, 10
