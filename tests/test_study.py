@@ -25,6 +25,7 @@ from scipy import stats
 from trueband.bridge.study.demo import make_demo
 from trueband.bridge.study.build import NOT_COMPUTABLE, make_study
 from trueband.bridge.study.templates import study_data_workbook
+from trueband.bridge.study.sheets.validity import EXPECTANCY_ROW
 from trueband.funcs import call
 
 pingouin = pytest.importorskip("pingouin")
@@ -212,7 +213,7 @@ def _assert_expectancy_table(ws, scores, perf):
     edges = [np.percentile(scores, 20 * q) for q in range(6)]  # numpy's default = the spreadsheet PERCENTILE
     threshold = np.median(perf[ok])
     for q in range(5):
-        r = 27 + q
+        r = EXPECTANCY_ROW + 3 + q
         lo, hi = edges[q], edges[q + 1]
         inside = ok & (scores >= lo) & ((scores < hi) if q < 4 else (scores <= hi))
         assert ws.cell(r, 2).value == pytest.approx(lo) and ws.cell(r, 3).value == pytest.approx(hi)

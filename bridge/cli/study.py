@@ -23,7 +23,8 @@ _OPTIONS = {"sheet": "data_sheet", "id": "id", "group": "group", "items": "items
             "ratings": "ratings", "criterion": "criterion", "retest": "retest", "hired": "hired", "cut": "cut",
             "confidence": "confidence", "criterion_reliability": "criterion_reliability", "success": "success",
             "reference_group": "reference_group", "test_name": "test_name",
-            "reference_groups": "reference_groups", "stratum": "stratum", "stages": "stages"}
+            "reference_groups": "reference_groups", "stratum": "stratum", "stages": "stages",
+            "applicant_base_rate": "applicant_base_rate"}
 
 
 def register(sub) -> None:
@@ -64,6 +65,9 @@ def register(sub) -> None:
     p.add_argument("--stages", help="stage columns of the selection process in order, each yes/no: a "
                                     "comma-separated list of headers or FIRST:LAST")
     p.add_argument("--test-name", help="name of the test, for titles")
+    p.add_argument("--applicant-base-rate", type=_number_or_none,
+                   help="share of all applicants who would reach the success threshold, if known (Utility's base "
+                        "rate; default: the share of the hires who reach it)")
     p.set_defaults(handler=run_study)
 
     p = sub.add_parser(

@@ -131,6 +131,11 @@ SETTINGS.update({
 })
 SETTINGS.update(CUT_SETTINGS)  # the cut-score evidence: judges' sheet, method, content ratings (setup_cut)
 SETTINGS.update(ANSWER_SETTINGS)  # raw multiple-choice answers and their key (setup_answers)
+SETTINGS.update({  # the utility's base rate (issue 20)
+    "applicant base rate": ("applicant_base_rate", "number",
+                            "share of all applicants who would reach the success threshold, if you know it "
+                            "(optional; default: the share of the hires who reach it)"),
+})
 
 
 
@@ -176,6 +181,7 @@ class StudySetup:
     content_sheet: str | None = None
     content_critical: str | None = None
     answer_key_sheet: str | None = None         # raw answers and their key (setup_answers)
+    applicant_base_rate: float | None = None    # the utility's base rate among applicants, when known
     source: Mapping[str, str] = dataclasses.field(default_factory=dict)  # field -> where it was given
     predictors: tuple = ()  # the further predictors (StudySetup of their own settings; see setup_predictors)
 

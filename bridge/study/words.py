@@ -153,3 +153,52 @@ CONTENT_CAUTION = (
 VALIDITY_NOT_ESTABLISHED = ("Local validity is not established: the observed validity's interval includes 0, so "
                             "the figures below are conditional on a validity these data do not establish.")
 __all__ += ["VALIDITY_NOT_ESTABLISHED"]
+
+# ---------------------------------------------------------------- validity, utility, retest (issue 20)
+
+#: Below the corrected validities on the Validity sheet.
+CORRECTED_LIMITS_NOTE = (
+    "Intervals of the corrected validities: the observed validity's interval limits corrected the same way "
+    "(each correction rises with r, so the corrected limits bound the corrected value), with the reliabilities "
+    "and SDs taken as fixed, so they leave out the uncertainty of those inputs and are too narrow by that much "
+    "(Hunter & Schmidt 2004, Methods of Meta-Analysis, ch. 3, from memory).")
+
+#: The rule for showing the indirect range-restriction correction, on the Validity sheet and in the docs.
+INDIRECT_RULE = (
+    "Indirect correction shown only where plausible: its model (Hunter, Schmidt & Le 2006; Le & Schmidt 2006) "
+    "takes the test's error variance to be the same among applicants and in the restricted group, which implies "
+    "the restricted group's reliability shown above. The correction is shown only when that implied reliability "
+    "is above 0 and not below the lower confidence limit of the restricted group's own alpha; otherwise the "
+    "data contradict the model (selection directly on this test does that) and the correction, which divides r "
+    "by the square root of the implied reliability, would overstate the validity. The rule is this tool's, "
+    "built on the model's stated assumption; it is not printed in those papers.")
+
+#: The restricted group's own reliability cannot be computed (no items).
+NO_OWN_RELIABILITY = ("the restricted group's own reliability needs item columns, so the reliability the "
+                      "correction implies cannot be checked")
+INDIRECT_NOT_POSITIVE = ("not computable: the reliability among the restricted group that the correction implies "
+                         "is 0 or below, so its model does not fit these data")
+INDIRECT_IMPLAUSIBLE = ("not computable: the reliability among the restricted group that the correction implies is "
+                        "below the lower confidence limit of the group's own alpha, so its model does not fit "
+                        "these data (see the note below)")
+__all__ += ["CORRECTED_LIMITS_NOTE", "INDIRECT_RULE", "NO_OWN_RELIABILITY", "INDIRECT_NOT_POSITIVE",
+            "INDIRECT_IMPLAUSIBLE"]
+
+#: On the Utility sheet: which validity the figures use, and why.
+UTILITY_VALIDITY_NOTE = (
+    "Validity used: the operational validity (the observed r corrected for criterion unreliability and for direct "
+    "range restriction), the validity of the test's observed scores among applicants, as utility analysis uses it "
+    "(Schmidt, Hunter, McKenzie & Muldrow 1979; Schmidt & Hunter 1998, from memory). Success is a threshold on the "
+    "observed criterion, against which the validity corrected for range restriction only is the matching one: the "
+    "row 'for comparison' shows the success rate with that validity, so the spread between the two choices is "
+    "seen. "
+    "Where the validity's interval includes 0, every figure here is conditional on a validity the data do not "
+    "establish.")
+
+#: On the Utility sheet: what the base rate is.
+BASE_RATE_NOTE = (
+    "Base rate: by default the share of the hires (people with a criterion value) who reach the success "
+    "threshold, which is not the share among all applicants that Taylor–Russell assumes (Taylor & Russell 1939): "
+    "hires were selected, so their share is usually higher. If you know the applicant base rate, give it on the "
+    "Setup sheet ('applicant base rate', or --applicant-base-rate) and the figures use it.")
+__all__ += ["UTILITY_VALIDITY_NOTE", "BASE_RATE_NOTE"]

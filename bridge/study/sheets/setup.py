@@ -27,6 +27,7 @@ class SetupSheet:
     success_cell: Ref
     item_min: Ref
     item_max: Ref
+    applicant_base_rate: Ref | None = None   # the applicant base rate the user gave (None: not given)
 
     def passes(self) -> None:
         """Raise the plain reason when nobody reaches the cut (the checks of cut-dependent figures call it)."""
@@ -85,7 +86,9 @@ def write(ctx: StudyContext, criterion_median: Ref) -> SetupSheet:
                       confidence=setting("confidence", s.confidence), cut_cell=setting("cut", cut),
                       criterion_reliability=setting("criterion_reliability", s.criterion_reliability),
                       success_cell=setting("success", success), item_min=setting("item_min", s.item_min),
-                      item_max=setting("item_max", s.item_max))
+                      item_max=setting("item_max", s.item_max),
+                      applicant_base_rate=(setting("applicant_base_rate", s.applicant_base_rate)
+                                           if s.applicant_base_rate is not None else None))
 
 
 def _cut_message(d: StudyData, cut: float) -> str | None:

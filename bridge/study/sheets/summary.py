@@ -5,13 +5,13 @@ from __future__ import annotations
 from trueband.funcs.errors import TruebandError
 
 from ..context import Ref, StudyContext, cell
-from ..words import CAUTION, NOT_COMPUTABLE, VALIDITY_NOT_ESTABLISHED
+from ..words import CAUTION, NOT_COMPUTABLE
 from .impact import Impact
 from .raters import Raters
 from .reliability import Reliability
 from .setup import SetupSheet
 from .strata import Strata
-from .utility import Utility
+from .utility import Utility, validity_caution
 from .validity import Validity
 
 __all__ = ["write"]
@@ -93,7 +93,7 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, raters: Raters
                 g.set(r, 5, f"{s.confidence:.0%} interval")
             elif extra is not None:
                 g.set(r, 3, "=" + extra.qualified_relative().address(SHEET), style)
-                g.set(r, 4, "(base rate)")
+                g.set(r, 4, f"(base rate: {utility.base_rate_words})")
         else:
             ctx.not_computable_at(g, r, 2, "not part of this study (see Notes)")
         r += 1
@@ -108,14 +108,7 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, raters: Raters
 def _validity_caution(ctx: StudyContext, g, r: int, validity: Validity) -> int:
     """A live line saying that local validity is not established when the observed validity's interval includes
     0 (empty text otherwise), above the utility figures; the rows it takes."""
-    low, high = validity.r_lower, validity.r_upper
-    if low is None or high is None or not all(isinstance(x.value, float) for x in (low, high)):
-        return 0
-    shown = VALIDITY_NOT_ESTABLISHED if low.value <= 0 <= high.value else ""
-    ctx.expression(g, r, 1, 'IF(AND({low}<=0,{high}>=0),{text},"")', lambda: shown, style="caution",
-                   key="validity_not_established", low=low.qualified_relative(), high=high.qualified_relative(),
-                   text=VALIDITY_NOT_ESTABLISHED)
-    return 1
+    return validity_caution(ctx, g, r, validity, "validity_not_established")
 
 
 def _figure(ctx: StudyContext, g, r: int, c: int, key: str, figure: Ref, style: str) -> None:

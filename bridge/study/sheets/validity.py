@@ -10,16 +10,19 @@ from openpyxl.utils import get_column_letter
 from trueband.funcs.errors import InsufficientDataError
 
 from .. import charts
+from ..words import CORRECTED_LIMITS_NOTE, INDIRECT_RULE
 from ..context import Ref, StudyContext, area, cell, fill_row
 from ..setup import HIRED_CODINGS
 from .bands import BANDS_SHEET, BandsLayout
 from .reliability import Reliability
 from .setup import SetupSheet
+from . import validity_checks
 
 __all__ = ["Validity", "write"]
 
 SHEET = "Validity"
-EXPECTANCY_ROW = 24   # the expectancy table's heading
+FITTED_ROW = 36       # the fitted line's label
+EXPECTANCY_ROW = 39   # the expectancy table's heading
 LISTED_ROW = 3        # the first row of the people with a criterion value (columns O:Q, the chart's data)
 
 
@@ -34,6 +37,7 @@ class Validity:
     operational: Ref | None = None
     n_criterion: Ref | None = None
     criteria_listed: Ref | None = None   # the criterion values listed in column Q, when r is computable
+    r_range: Ref | None = None   # r corrected for direct range restriction only (against the observed criterion)
 
 
 def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLayout) -> Validity:
@@ -78,19 +82,20 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLa
                                     key=f"r_{part}") for col, part in ((3, "lower"), (4, "upper")))
     r_p = ctx.formula(g, 6, 5, "R_PVALUE", r, n_criterion, style="p", key="r_p")
     g.set(6, 1, "  interval (Fisher z) and p (t test of r = 0)")
-    operational = _corrections(ctx, g, setup, rel, r, restricted_range, scores[both])
-    g.set(21, 1, "Fitted line: criterion = intercept + slope × score")
-    g.set(21, 3, "slope", "header")
-    g.set(21, 5, "intercept", "header")
+    marked = restricted_range.with_value([[float(x)] if ok else [""] for x, ok in zip(scores, both)])
+    operational, r_range = _corrections(ctx, g, setup, rel, r, (r_lower, r_upper), marked, scores[both])
+    g.set(FITTED_ROW, 1, "Fitted line: criterion = intercept + slope × score")
+    g.set(FITTED_ROW, 3, "slope", "header")
+    g.set(FITTED_ROW, 5, "intercept", "header")
 
     def line(part):
         ctx.value(r)
         slope, intercept = np.polyfit(scores[both], criterion[both], 1)
         return float(slope if part == "slope" else intercept)
 
-    ctx.formula(g, 22, 3, "SLOPE", criterion_range, restricted_range, check=lambda: line("slope"), style="coef",
+    ctx.formula(g, FITTED_ROW + 1, 3, "SLOPE", criterion_range, restricted_range, check=lambda: line("slope"), style="coef",
                 key="slope")
-    ctx.formula(g, 22, 5, "INTERCEPT", criterion_range, restricted_range, check=lambda: line("intercept"),
+    ctx.formula(g, FITTED_ROW + 1, 5, "INTERCEPT", criterion_range, restricted_range, check=lambda: line("intercept"),
                 style="coef", key="intercept")
     listed = np.flatnonzero(both) + 2   # the Bands rows of the people with a criterion value
     have_r = isinstance(r.value, float)
@@ -100,14 +105,18 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLa
     if have_r:
         _listed(ctx, g, bands, listed, end, s.criterion)
     return Validity(r=r, r_lower=r_lower, r_upper=r_upper, r_p=r_p, operational=operational, n_criterion=n_criterion,
-                    criteria_listed=listed_criteria.qualified() if have_r else None)
+                    criteria_listed=listed_criteria.qualified() if have_r else None, r_range=r_range)
 
 
-def _corrections(ctx: StudyContext, g, setup: SetupSheet, rel: Reliability, r: Ref, restricted_range: Ref,
-                 restricted_scores) -> Ref:
-    """Rows 8 to 20: the inputs to the corrections and the corrected validities; returns operational validity."""
+def _corrections(ctx: StudyContext, g, setup: SetupSheet, rel: Reliability, r: Ref, limits: tuple[Ref, Ref],
+                 restricted_range: Ref, restricted_scores) -> tuple[Ref, Ref]:
+    """Rows 8 to 22 and the notes below: the inputs to the corrections, the restricted group's reliability (its
+    own and the one the indirect correction implies) and the corrected validities with their intervals; returns
+    operational validity and the validity corrected for range restriction only."""
     s = ctx.setup
     g.set(8, 1, "Inputs to the corrections", "heading")
+    g.set(8, 3, f"{s.confidence:.0%} CI lower", "header")
+    g.set(8, 4, f"{s.confidence:.0%} CI upper", "header")
     g.set(9, 1, "Criterion reliability (from Setup)")
     g.set(9, 2, "=" + setup.criterion_reliability.address(SHEET), "coef")
     ryy = cell(SHEET, 9, 2, value=s.criterion_reliability, name="ryy")
@@ -127,19 +136,32 @@ def _corrections(ctx: StudyContext, g, setup: SetupSheet, rel: Reliability, r: R
     g.set(13, 1, "Ratio of the two SDs, u")
     u = ctx.expression(g, 13, 2, "{restricted}/{all}", lambda: ctx.value(sd_restricted) / ctx.value(sd_all),
                        style="coef", key="u", restricted=sd_restricted, all=sd_all)
-    g.set(15, 1, "Corrected validity", "heading")
-    g.set(16, 1, "Corrected for criterion unreliability (Spearman)")
-    ctx.formula(g, 16, 2, "DISATTENUATE", r, 1, ryy, style="coef", key="r_disattenuated")
-    g.set(17, 1, "Corrected for direct range restriction on the test (Thorndike Case II)")
-    ctx.formula(g, 17, 2, "RANGE_CORRECT", r, sd_restricted, sd_all, style="coef", key="r_range")
-    g.set(18, 1, "Operational validity: criterion unreliability, then direct range restriction")
-    operational = ctx.formula(g, 18, 2, "OPERATIONAL_VALIDITY", r, ryy, sd_restricted, sd_all, style="coef",
-                              key="operational")
-    g.set(19, 1, "Operational validity under indirect range restriction (Hunter, Schmidt & Le, 2006)")
-    ctx.formula(g, 19, 2, "RANGE_CORRECT_INDIRECT", r, u, rxx, ryy, style="coef", key="operational_indirect")
-    g.set(20, 1, "Maximum possible observed validity, √(test reliability × criterion reliability)")
-    ctx.formula(g, 20, 2, "MAX_VALIDITY", rxx, ryy, style="coef", key="max_validity")
-    return operational
+    own = validity_checks.restricted_reliability(ctx, g, 14, rel, restricted_range, setup.confidence)
+    g.set(15, 1, "Test reliability among the restricted group implied by the indirect correction")
+    implied = ctx.formula(g, 15, 2, "RESTRICTED_RELIABILITY", rxx, u, style="coef", key="implied_rxx_restricted")
+    g.set(17, 1, "Corrected validity", "heading")
+    g.set(17, 2, "Estimate", "header")
+    g.set(17, 3, f"{s.confidence:.0%} CI lower", "header")
+    g.set(17, 4, f"{s.confidence:.0%} CI upper", "header")
+    rows = (
+        (18, "Corrected for criterion unreliability (Spearman)", "r_disattenuated", "DISATTENUATE", (1, ryy)),
+        (19, "Corrected for direct range restriction on the test (Thorndike Case II)", "r_range", "RANGE_CORRECT",
+         (sd_restricted, sd_all)),
+        (20, "Operational validity: criterion unreliability, then direct range restriction", "operational",
+         "OPERATIONAL_VALIDITY", (ryy, sd_restricted, sd_all)))
+    found = {}
+    for row, label, key, function, rest in rows:
+        g.set(row, 1, label)
+        found[key] = ctx.formula(g, row, 2, function, r, *rest, style="coef", key=key)
+        for col, part, limit in zip((3, 4), ("lower", "upper"), limits):
+            ctx.formula(g, row, col, function, limit, *rest, style="coef", key=f"{key}_{part}")
+    g.set(21, 1, "Operational validity under indirect range restriction (Hunter, Schmidt & Le, 2006)")
+    validity_checks.indirect(ctx, g, 21, r, limits, u, rxx, ryy, implied, own)
+    g.set(22, 1, "Maximum possible observed validity, √(test reliability × criterion reliability)")
+    ctx.formula(g, 22, 2, "MAX_VALIDITY", rxx, ryy, style="coef", key="max_validity")
+    row = 24 + g.para(24, 1, CORRECTED_LIMITS_NOTE)
+    g.para(row, 1, INDIRECT_RULE)
+    return found["operational"], found["r_range"]
 
 
 def _expectancy(ctx: StudyContext, g, setup: SetupSheet, rel: Reliability, have_r: bool, listed_scores: Ref,
@@ -200,5 +222,5 @@ def _listed(ctx: StudyContext, g, bands: BandsLayout, listed, end: int, criterio
     g.charts.append((charts.score_vs_criterion(charts.area(area(SHEET, 16, LISTED_ROW, 16, end)),
                                                charts.area(area(SHEET, 17, LISTED_ROW, 17, end)),
                                                x_title="Test score", y_title=criterion_name or "Criterion"),
-                     "A36"))
-    g.print_area = "A1:F56"  # the chart's data (columns P:Q) is not printed
+                     f"A{EXPECTANCY_ROW + 13}"))
+    g.print_area = f"A1:F{EXPECTANCY_ROW + 33}"  # the chart's data (columns P:Q) is not printed
