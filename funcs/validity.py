@@ -16,6 +16,9 @@ spreadsheet name            Python function                               what i
 ``D_TO_R``                  :func:`d_to_correlation`                      r = d / √(d² + 4)
 ``COHENS_D``                :func:`cohens_d`                              mean difference over the pooled SD
 ``COHENS_D_CI``             :func:`cohens_d_ci`                           d or a noncentral-t confidence limit
+``NTH_NUMBER_ROW``          :func:`nth_number_row`                        where the k-th number of a column is
+                                                                          (the study's list of people with a
+                                                                          criterion value)
 ==========================  ============================================  ======================================
 
 Caution
@@ -73,6 +76,7 @@ __all__ = [
     "cohens_d",
     "cohens_d_ci",
     "case_ii",
+    "nth_number_row",
 ]
 
 #: Rounding allowance at ±1 for corrected correlations.
@@ -692,3 +696,42 @@ def cohens_d_ci(scores_a: Range, scores_b: Range, *, part: Literal["estimate", "
     alpha = 1.0 - confidence
     target = 1.0 - alpha / 2.0 if part == "lower" else alpha / 2.0
     return _noncentrality_limit(d * scale, float(a.size + b.size - 2), target) / scale
+
+
+@spreadsheet("NTH_NUMBER_ROW", returns="integer", elementwise=["k"],
+             reference="The spreadsheet idiom SMALL(IF(ISNUMBER(column), ROW(column) - ROW(first) + 1), k) as one "
+                       "function (common practice).")
+def nth_number_row(column: Range, k: float) -> float:
+    """Position (1-based, within ``column``) of the k-th cell of ``column`` that holds a number; 0 if there is none.
+
+    Filled down with k = 1, 2, … it lists the rows of the people who have a value (e.g. a criterion), so a list
+    built from it follows the data when a value is added or removed. The column is read once for a whole
+    filled-down run of cells (k is elementwise).
+
+    Parameters
+    ----------
+    column : range
+        One column (or row); numbers count, blanks and empty text do not; other text is refused.
+    k : float
+        Which number: a whole number, at least 1.
+
+    Notes
+    -----
+    Returns 0, not an error, when the column holds fewer than k numbers: a list longer than the numbers shows
+    nothing there instead of an error.
+
+    Examples
+    --------
+    >>> nth_number_row([[4.0], [""], [2.5], [None], [7.0]], 2)
+    3
+    >>> nth_number_row([[4.0], [""], [2.5], [None], [7.0]], 4)
+    0
+    """
+    values = v.numeric_vector("column", column)
+    v.integer("k", k)
+    v.at_least("k", k, 1)
+    positions = np.flatnonzero(~np.isnan(values)) + 1
+    kk = np.asarray(k, dtype=np.int64)
+    found = kk <= positions.size
+    out = np.where(found, positions[np.clip(kk, 1, max(positions.size, 1)) - 1] if positions.size else 0, 0)
+    return out if out.ndim else int(out)

@@ -202,3 +202,17 @@ BASE_RATE_NOTE = (
     "hires were selected, so their share is usually higher. If you know the applicant base rate, give it on the "
     "Setup sheet ('applicant base rate', or --applicant-base-rate) and the figures use it.")
 __all__ += ["UTILITY_VALIDITY_NOTE", "BASE_RATE_NOTE"]
+
+#: On the Reliability sheet, shown by a live formula when the retesters are a selected group.
+RETEST_SELECTED = ("Caution: the retesters are a selected group, so their test–retest correlation is restricted "
+                   "in range (too low as the applicants' reliability) and their mean gain includes regression "
+                   "toward the mean, not only practice.")
+
+#: Below the retest rows: when the caution shows.
+RETEST_RULE = (
+    "The caution shows when at least 80% of the retesters scored below the cut at the first sitting, or when their "
+    "first-sitting mean lies at least 0.5 SD of all applicants' scores from all applicants' mean (this tool's "
+    "thresholds; half an SD is a medium difference, Cohen 1988). People retested because they failed regress "
+    "toward the mean at the second sitting even with no practice (Campbell & Kenny 1999), and their narrow range "
+    "lowers the correlation.")
+__all__ += ["RETEST_SELECTED", "RETEST_RULE"]

@@ -10,12 +10,14 @@ from trueband.funcs.errors import InsufficientDataError
 
 from ..context import Ref, StudyContext, area
 from .bands import BandsLayout
+from .retest import retest_gain
 from .scored_items import SCORED_SHEET
 from .setup import SetupSheet
 
 __all__ = ["Reliability", "write"]
 
 SHEET = "Reliability"
+MEASUREMENT_ROW = 28   # the measurement error heading (the retest rows are above it)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -73,24 +75,24 @@ def write(ctx: StudyContext, setup: SetupSheet, bands: BandsLayout) -> Reliabili
     g.set(7, 4, f"{conf:.0%} CI upper", "header")
     items, alpha, alpha_lower, alpha_upper = _internal_consistency(ctx, g, setup, bands)
     retest_r = _retest(ctx, g, setup, scores_range, has_score)
-    g.set(19, 1, "Measurement error", "heading")
-    g.set(20, 1, "Reliability used for the SEM, intervals and bands (edit to use another)")
+    g.set(MEASUREMENT_ROW, 1, "Measurement error", "heading")
+    g.set(MEASUREMENT_ROW + 1, 1, "Reliability used for the SEM, intervals and bands (edit to use another)")
     if d.items is not None:
-        reliability = ctx.link(g, 20, 2, alpha, style="input_coef", key="reliability")
+        reliability = ctx.link(g, MEASUREMENT_ROW + 1, 2, alpha, style="input_coef", key="reliability")
     elif retest_r is not None and isinstance(retest_r.value, float):
-        reliability = ctx.link(g, 20, 2, retest_r, style="input_coef", key="reliability")
+        reliability = ctx.link(g, MEASUREMENT_ROW + 1, 2, retest_r, style="input_coef", key="reliability")
     else:
-        reliability = ctx.not_computable_at(g, 20, 2, "no reliability estimate: give item columns or a retest column",
+        reliability = ctx.not_computable_at(g, MEASUREMENT_ROW + 1, 2, "no reliability estimate: give item columns or a retest column",
                                             key="reliability")
-    g.set(21, 1, "Standard error of measurement (SEM)")
-    sem = ctx.formula(g, 21, 2, "SEM", sd, reliability, style="coef", key="sem")
-    g.set(22, 1, "Standard error of the difference between two scores (SED)")
-    ctx.formula(g, 22, 2, "SED", sd, reliability, style="coef", key="sed")
-    g.set(23, 1, f"Band width: scores closer than this are not reliably different ({conf:.0%})")
-    band_width = ctx.formula(g, 23, 2, "BAND_WIDTH", sd, reliability, setup.confidence, style="coef",
+    g.set(MEASUREMENT_ROW + 2, 1, "Standard error of measurement (SEM)")
+    sem = ctx.formula(g, MEASUREMENT_ROW + 2, 2, "SEM", sd, reliability, style="coef", key="sem")
+    g.set(MEASUREMENT_ROW + 3, 1, "Standard error of the difference between two scores (SED)")
+    ctx.formula(g, MEASUREMENT_ROW + 3, 2, "SED", sd, reliability, style="coef", key="sed")
+    g.set(MEASUREMENT_ROW + 4, 1, f"Band width: scores closer than this are not reliably different ({conf:.0%})")
+    band_width = ctx.formula(g, MEASUREMENT_ROW + 4, 2, "BAND_WIDTH", sd, reliability, setup.confidence, style="coef",
                              key="band_width")
-    g.para(25, 1, "Alpha, KR-20, split-half and omega estimate internal consistency from one sitting; the SEM "
-                  "and bands use the reliability in B20. Intervals: Feldt's F-based limits for alpha, Fisher's z "
+    g.para(MEASUREMENT_ROW + 6, 1, "Alpha, KR-20, split-half and omega estimate internal consistency from one sitting; the SEM "
+                  "and bands use the reliability used above. Intervals: Feldt's F-based limits for alpha, Fisher's z "
                   "for the retest correlation.")
     return Reliability(scores=scores_range, items=items, n_scored=n_scored, sd=sd, alpha=alpha,
                        alpha_lower=alpha_lower, alpha_upper=alpha_upper, reliability=reliability, sem=sem,
@@ -129,6 +131,9 @@ def _retest(ctx: StudyContext, g, setup: SetupSheet, scores_range: Ref, has_scor
     for col, part in ((3, "lower"), (4, "upper")):
         ctx.formula(g, 17, col, "R_CI", retest_r, n_retest, part, setup.confidence, style="coef",
                     key=f"retest_{part}")
+    first = scores_range.with_value([[None if np.isnan(x) else float(x)] for x in d.scores])
+    second = retest_range.with_value([[None if np.isnan(x) else float(x)] for x in retest])
+    retest_gain(ctx, g, 18, setup, first, second)
     return retest_r
 
 

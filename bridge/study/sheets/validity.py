@@ -206,17 +206,22 @@ def _expectancy(ctx: StudyContext, g, setup: SetupSheet, rel: Reliability, have_
 
 
 def _listed(ctx: StudyContext, g, bands: BandsLayout, listed, end: int, criterion_name: str | None) -> None:
-    """The people with a criterion value (columns O:Q: their Bands row, score and criterion) and the scatter."""
-    g.set(2, 15, "Row on Bands", "header")
-    g.set(2, 16, "Score", "header")
-    g.set(2, 17, "Criterion", "header")
-    # one formula filled down (the row number beside it differs), not one formula per person
-    places = dict(row=cell(SHEET, None, 15))
-    score_text = ctx.text("=INDEX({column},{row})", SHEET, column=area(BANDS_SHEET, 3, 1, 3, bands.last), **places)
-    criterion_text = ctx.text("=INDEX({column},{row})", SHEET, column=area(BANDS_SHEET, 9, 1, 9, bands.last),
-                              **places)
-    for k, r in enumerate(listed):
-        g.set(LISTED_ROW + k, 15, int(r))
+    """The people with a score and a criterion value (columns N:Q: k, their position among the Bands rows, score
+    and criterion) and the scatter. Live: column O finds the k-th person with both (NTH_NUMBER_ROW over Bands'
+    score-with-criterion column), so an edited or blanked criterion flows through; the list is as long as the
+    number of such people when the study was built (a value added later enters r and the tables, not this list)."""
+    for col, head in ((14, "k"), (15, "Position among Bands rows"), (16, "Score"), (17, "Criterion")):
+        g.set(2, col, head, "header")
+    # one formula filled down (the k beside it differs), not one formula per person
+    position = cell(SHEET, None, 15)
+    find_text = "=" + ctx.call_text("NTH_NUMBER_ROW", (bands.scores_with_criterion, cell(SHEET, None, 14)),
+                                    SHEET)
+    score_text, criterion_text = (
+        ctx.text('=IF({row}>0,INDEX({column},{row}),"")', SHEET, column=column, row=position)
+        for column in (bands.scores, bands.criterion))
+    for k in range(len(listed)):
+        g.set(LISTED_ROW + k, 14, k + 1)
+        g.set(LISTED_ROW + k, 15, fill_row(find_text, LISTED_ROW + k))
         g.set(LISTED_ROW + k, 16, fill_row(score_text, LISTED_ROW + k))
         g.set(LISTED_ROW + k, 17, fill_row(criterion_text, LISTED_ROW + k))
     g.charts.append((charts.score_vs_criterion(charts.area(area(SHEET, 16, LISTED_ROW, 16, end)),
