@@ -699,8 +699,10 @@ def cohens_d_ci(scores_a: Range, scores_b: Range, *, part: Literal["estimate", "
 
 
 @spreadsheet("NTH_NUMBER_ROW", returns="integer", elementwise=["k"],
-             reference="The spreadsheet idiom SMALL(IF(ISNUMBER(column), ROW(column) - ROW(first) + 1), k) as one "
-                       "function (common practice).")
+             reference="OASIS (2011). Open Document Format for Office Applications (OpenDocument) Version 1.2, "
+                       "Part 2: Recalculated Formula (OpenFormula) Format (SMALL, ISNUMBER): the idiom "
+                       "SMALL(IF(ISNUMBER(column), ROW(column) - ROW(first) + 1), k) as one function (common "
+                       "practice).")
 def nth_number_row(column: Range, k: float) -> float:
     """Position (1-based, within ``column``) of the k-th cell of ``column`` that holds a number; 0 if there is none.
 

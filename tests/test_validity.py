@@ -324,3 +324,35 @@ def test_errors_name_the_argument():
         call("COHENS_D", [3, 3, 3], [5, 5])
     with raises_code("#VALUE!", "group_a", match="row 2"):
         call("COHENS_D", [1, "x", 3], [4, 5])
+
+
+# ---------------------------------------------------------------- the study's list of people with a criterion
+
+def test_nth_number_row_lists_the_rows_with_a_number():
+    # The spreadsheet idiom SMALL(IF(ISNUMBER(column), ROW(column) - ROW(first) + 1), k) (common practice), written
+    # out with numpy: the positions of the numbers, then 0 past the last one.
+    rng = np.random.default_rng(3)
+    values = rng.normal(3, 1, 200)
+    blank = rng.random(200) < 0.6
+    column = [[""] if b else [float(x)] for x, b in zip(values, blank)]
+    expected = (np.flatnonzero(~blank) + 1).tolist()
+    ks = list(range(1, len(expected) + 4))
+    got = [call("NTH_NUMBER_ROW", column, k) for k in ks]
+    assert got == expected + [0, 0, 0]
+    # the whole filled-down column at once (k elementwise, the column read once) gives the same
+    assert trueband_column(column, ks) == got
+
+
+def trueband_column(column, ks):
+    from trueband.funcs import nth_number_row
+    return [int(x) for x in nth_number_row(column, np.array(ks, dtype=float))]
+
+
+def test_nth_number_row_refusals():
+    with raises_code("#NUM!", "k"):
+        call("NTH_NUMBER_ROW", [[1.0], [2.0]], 0)
+    with raises_code("#NUM!", "k"):
+        call("NTH_NUMBER_ROW", [[1.0], [2.0]], 1.5)
+    with raises_code("#VALUE!", "column"):
+        call("NTH_NUMBER_ROW", [[1.0], ["yes"]], 1)
+    assert call("NTH_NUMBER_ROW", [[""], [None]], 1) == 0   # no number at all: 0, not an error
