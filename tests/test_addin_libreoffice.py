@@ -147,6 +147,11 @@ RANGES = {
     "judged_cuts": ("$Data.$AD$1:$AD$4", [row[:1] for row in BLOCKS["AD"]]),
     "judged_pass_rates": ("$Data.$AE$1:$AE$4", [row[1:] for row in BLOCKS["AD"]]),
     "responses": ("$Data.$AF$1:$AI$9", BLOCKS["AF"]),
+    # issue 20: a group marked by a criterion value beside the items, two sittings, a column to list
+    "among": ("$Data.$N$1:$N$8", [[v] for v in CRITERION]),
+    "first": ("$Data.$J$1:$J$8", [[v] for v in SCORES_A]),
+    "second": ("$Data.$K$1:$K$8", [[v] for v in SCORES_B]),
+    "column": ("$Data.$N$1:$N$8", [[v] for v in CRITERION]),
 }
 # Judges' probabilities for functions that need two or more judges.
 TWO_JUDGES = ("$Data.$AK$1:$AL$8", BLOCKS["AK"])

@@ -194,3 +194,18 @@ def test_the_criterion_list_follows_an_edited_criterion(built, tmp_path):
     assert [after.cell(3 + k, 17).value for k in range(3)] == perf[remaining[:3]].tolist()
     last = 3 + int(hired.sum()) - 1
     assert after.cell(last, 15).value == 0 and after.cell(last, 17).value in ("", None)
+
+
+def test_the_command_line_gives_the_applicant_base_rate():
+    # the option is additive: it maps to the Setup setting, and 'none' clears it back to the hires' share
+    from trueband.bridge.cli import build_parser
+    from trueband.bridge.cli.study import _overrides
+    from trueband.bridge.study.setup import SETTINGS, StudySetup
+
+    args = build_parser().parse_args(["study", "d.xlsx", "--applicant-base-rate", "0.3"])
+    assert _overrides(args) == {"applicant_base_rate": 0.3}
+    assert SETTINGS["applicant base rate"][0] == "applicant_base_rate"
+    given = StudySetup().merged({"applicant_base_rate": 0.3})
+    assert given.applicant_base_rate == 0.3 and given.source["applicant_base_rate"] == "command line"
+    cleared = given.merged(_overrides(build_parser().parse_args(["study", "d.xlsx", "--applicant-base-rate", "none"])))
+    assert cleared.applicant_base_rate is None
