@@ -288,7 +288,9 @@ def indirect_range_corrected_validity(r: float, u_x: float, rxx_applicants: floa
     (which gives steps 1 and 2). Step 2 needs u_x² > 1 − rxx_a; otherwise
     the incumbents' reliability would be zero or negative and the function
     raises ``DomainError`` naming u_x and rxx_applicants. A step-3 value
-    beyond ±1 raises ``DomainError`` naming r. The equation numbers of the
+    beyond ±1 raises ``DomainError`` naming r. Compare step 2 with the
+    incumbents' own reliability before using the result
+    (``RESTRICTED_RELIABILITY`` states the rule the validation study uses). The equation numbers of the
     paper are not cited here because they could not be checked against the
     printed article; the steps are identified by their content. The formulas
     of steps 1 and 2 also appear in Schmidt & Hunter (2015), Methods of
@@ -403,6 +405,15 @@ def restricted_reliability(rxx_applicants: float, u_x: float) -> float:
     is returned, not refused, because showing it is the point: it says why
     the indirect correction is not computable. u_x above 1 (incumbents more
     variable than applicants) is allowed.
+
+    The rule the validation study applies (this tool's, built on the model's
+    stated assumption; not printed in Hunter, Schmidt & Le 2006, Le & Schmidt
+    2006 or Schmidt, Oh & Le 2006): ``RANGE_CORRECT_INDIRECT`` is shown only
+    when this implied reliability is above 0 and not below the lower
+    confidence limit (Feldt) of the incumbents' own alpha (``ALPHA_AMONG``);
+    otherwise the equal-error-variance assumption is contradicted by the data
+    (selection directly on the test does that) and the cell says "not
+    computable" with the reason.
 
     Examples
     --------

@@ -48,6 +48,10 @@ def indirect(ctx: StudyContext, g, row: int, r: Ref, limits: tuple[Ref, Ref], u:
         why = NO_OWN_RELIABILITY if own is None else "the implied reliability is not computable (see the row above)"
         return ctx.not_computable_at(g, row, 2, why, key="operational_indirect")
     _, lower = own
+    if not isinstance(lower.value, float):
+        return ctx.not_computable_at(g, row, 2, "the restricted group's own alpha is not computable (see the rows "
+                                                "above), so the reliability the correction implies cannot be checked",
+                                     key="operational_indirect")
     shown = _branch(implied, lower)
     estimate = None
     for col, value, key in ((2, r, "operational_indirect"), (3, limits[0], "operational_indirect_lower"),
