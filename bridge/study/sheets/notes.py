@@ -67,6 +67,15 @@ CONVENTIONS = (
     "practice); the reference group is the one named on Setup, else the largest. DIF: 0/1 items, groups with at "
     "least 100 people who answered every item (common practice), matched on the total score including the item.",
 )
+#: What the numbers do not support (issue 20): the rules of the Validity, Utility and Reliability sheets.
+CONVENTIONS += (
+    "Indirect range restriction (Hunter, Schmidt & Le 2006) is shown only when the test reliability it implies among "
+    "the people with a criterion value is above 0 and not below the lower confidence limit of their own alpha "
+    "(this tool's rule); corrected validities' intervals are the observed limits corrected the same way, inputs "
+    "taken as fixed. Utility's base rate is the share of the hires reaching the success threshold unless an "
+    "applicant base rate is given on Setup. Retesters are called a selected group when at least 80% scored below "
+    "the cut at the first sitting or their first-sitting mean lies at least 0.5 SD from all applicants'.",
+)
 
 
 def write(ctx: StudyContext) -> None:
