@@ -242,3 +242,133 @@ def test_the_summary_says_live_that_local_validity_is_not_established(tmp_path):
     sheet, where = result.cells["validity_not_established"]
     assert values[sheet][where].value == VALIDITY_NOT_ESTABLISHED
     assert "IF(AND(" in load_workbook(result.path)[sheet][where].value   # a live formula, not a typed text
+
+
+# --- the charts -------------------------------------------------------------------------------------------------
+
+def _study_charts(study: Path) -> list[tuple[str, str]]:
+    """(sheet, the first series' y or value cells) of every chart in the study, as openpyxl's own chart reader (an
+    independent reader of the chart parts) finds them."""
+    wb = load_workbook(study)
+    out = []
+    for ws in wb.worksheets:
+        for chart in ws._charts:
+            first = chart.series[0]
+            ref = (first.yVal if first.yVal is not None else first.val).numRef.f
+            out.append((ws.title, ref.replace("'", "").replace("$", "")))
+    return out
+
+
+def test_every_chart_of_the_study_is_drawn_with_a_caption_naming_its_cells(report, study):
+    charts = _study_charts(study)
+    assert len(charts) >= 6   # the demo's item maps, validity scatters, impact bars, score distribution, cuts, fairness
+    doc = Document(str(report))
+    assert len(doc.inline_shapes) == len(charts)
+    captions = [p.text for p in doc.paragraphs if p.text.startswith("Figure: ")]
+    assert len(captions) == len(charts)
+    for sheet, cells in charts:
+        assert any(f"on sheet {sheet} at cell" in c and cells in c for c in captions), (sheet, cells)
+
+
+def test_the_chart_of_cuts_carries_the_four_fifths_line_and_reads_the_stored_values(study):
+    from trueband.bridge.study.report.read import read_study
+    from trueband.bridge.study.workbook import ANALYSIS_SHEETS
+
+    content = read_study(study, ANALYSIS_SHEETS)
+    cuts = [c for c in content.charts if c.sheet == "Cuts"]
+    assert len(cuts) == 1
+    line = [s for s in cuts[0].series if s.kind == "line"]
+    assert len(line) == 1 and list(line[0].y) == [0.8, 0.8]
+    wb = load_workbook(study, data_only=True)
+    scatter = next(c for c in content.charts if c.sheet == "Validity")
+    first, last = scatter.series[0].y_cells.split("!")[1].split(":")
+    assert list(scatter.series[0].y) == [row[0].value for row in wb["Validity"][f"{first}:{last}"]]
+
+
+@pytest.mark.slow
+def test_without_matplotlib_the_report_says_where_each_chart_is(study, tmp_path, monkeypatch, capsys):
+    from trueband.bridge.study.report import CHARTS_NOTE
+
+    monkeypatch.setitem(sys.modules, "matplotlib", None)   # import matplotlib now raises ImportError
+    out = tmp_path / "plain.docx"
+    assert main(["report", str(study), "-o", str(out)]) == 0
+    assert capsys.readouterr().err.count(CHARTS_NOTE) == 1
+    doc = Document(str(out))
+    assert len(doc.inline_shapes) == 0
+    notes = [p.text for p in doc.paragraphs if p.text.startswith("Chart “")]
+    charts = _study_charts(study)
+    assert len(notes) == len(charts)
+    for sheet, cells in charts:
+        assert any(f"on sheet {sheet} at cell" in n and cells in n and "trueband[charts]" in n for n in notes)
+
+
+# --- every sheet the study composed, every figure traced to its cell ---------------------------------------------
+
+def _report_cells(doc) -> dict[tuple[str, int, str], str]:
+    """(sheet, row, column letter) -> the text the report prints there, from the report's sheet tables."""
+    out = {}
+    for table in doc.tables:
+        letters = [c.text for c in table.rows[0].cells]
+        if letters[0] != "row":
+            continue
+        sheet = _sheet_of(doc, table)
+        for row in table.rows[1:]:
+            for letter, cell in zip(letters[1:], row.cells[1:]):
+                out[(sheet, int(row.cells[0].text), letter)] = cell.text
+    return out
+
+
+def _main_block(ws) -> dict[tuple[int, int], object]:
+    """The cells of the sheet's main block of columns (A up to the first column empty on the whole sheet)."""
+    cells = {(c.row, c.column): c for row in ws.iter_rows() for c in row if c.value is not None}
+    used = {k for _, k in cells}
+    width = 1
+    while width + 1 in used:
+        width += 1
+    return {key: c for key, c in cells.items() if key[1] <= width}
+
+
+def test_every_composed_sheet_is_cited_and_every_number_and_reason_traced_to_its_cell(report, study):
+    # Generic over the study's sheets: a sheet or row another part of the study adds is checked without a change
+    # here. The report must show every number of each analysis sheet's main block at its row and column, and
+    # every "not computable" reason in the cell it qualifies.
+    from openpyxl.utils import get_column_letter
+    from trueband.bridge.study.report.read import PER_CANDIDATE
+    from trueband.bridge.study.workbook import ANALYSIS_SHEETS
+
+    doc = Document(str(report))
+    headings = {p.text for p in doc.paragraphs if p.style.name.startswith("Heading")}
+    shown = _report_cells(doc)
+    wb = load_workbook(study, data_only=True)
+    ids = set(make_demo().ids)
+    composed = [t for t in wb.sheetnames if t.split(" (")[0] in ANALYSIS_SHEETS
+                and t.split(" (")[0] not in PER_CANDIDATE + ("Summary", "Notes")]
+    assert {"Impact", "Strata", "Cuts", "Stages", "Groups", "Combined", "Fairness", "DIF", "Cut score",
+            "Standard setting", "Content"} <= set(composed)
+    numbers = reasons = 0
+    for title in composed:
+        assert f"Study sheet: {title}" in headings, title
+        block = _main_block(wb[title])
+        candidate_rows = {r for (r, _), c in block.items() if str(c.value) in ids}
+        for (r, k), c in block.items():
+            if r in candidate_rows:
+                continue
+            where = (title, r, get_column_letter(k))
+            if isinstance(c.value, (int, float)) and not isinstance(c.value, bool):
+                assert shown.get(where) == format_value(c.value, c.number_format), where
+                numbers += 1
+            elif isinstance(c.value, str) and c.value.startswith("not computable"):
+                assert shown.get(where) == c.value, where
+                reasons += 1
+    assert numbers > 500
+
+
+@pytest.mark.slow
+def test_the_options_sheet_of_a_study_with_raw_answers_is_reported(tmp_path):
+    data = study_data_workbook(tmp_path / "answers.xlsx", make_demo(), cut=24.0, answers=True)
+    study = make_study(data, tmp_path / "study.xlsx").path
+    out = write_report(study, tmp_path / "r.docx", version="test", charts=False)
+    headings = [p.text for p in Document(str(out)).paragraphs if p.style.name.startswith("Heading")]
+    assert "Study sheet: Options" in headings
+    assert headings.index("Reliability") < headings.index("Study sheet: Options") < headings.index(
+        "Validity and its corrections")

@@ -15,6 +15,7 @@ from docx.shared import Cm, Pt, RGBColor
 from ..words import CAUTION
 from .plan import PLACEHOLDER_MARK, SECTIONS, Section, section_of
 from .charts import StudyChart
+from .layout import column_widths, needs_landscape, orient, repeat_header
 from .read import Figure, Heading, Paragraph, StudyContent, Table
 
 __all__ = ["compose", "validity_not_established"]
@@ -123,9 +124,8 @@ def _sheet_table(doc, sheet: str, block: Table) -> None:
         cells[0].text = str(r)
         for cell, text in zip(cells[1:], texts):
             cell.text = text
-    n = len(block.columns)
-    widths = [Cm(1.0), Cm(6.0 if n > 1 else 16.0)] + [Cm(10.0 / max(1, n - 1))] * (n - 1)
-    _widths(table, widths)
+    _widths(table, column_widths(block, doc.sections[-1].orientation == WD_ORIENT.LANDSCAPE))
+    repeat_header(table)
     for row in table.rows:
         for cell in row.cells:
             for p in cell.paragraphs:
@@ -163,6 +163,8 @@ def _chart(doc, chart: StudyChart, draw) -> None:
 
 
 def _sheet(doc, content: StudyContent, title: str, draw=None) -> None:
+    # a sheet with a table too wide for a portrait page is printed on landscape pages, whole
+    orient(doc, any(needs_landscape(b) for b in content.sheets[title].blocks if isinstance(b, Table)))
     doc.add_heading(f"Study sheet: {title}", level=2)
     charts = [c for c in content.charts if c.sheet == title]
     for block in content.sheets[title].blocks:
@@ -198,9 +200,12 @@ def validity_not_established(content: StudyContent) -> str | None:
 
 
 def _section(doc, content: StudyContent, section: Section, shown: set[str], draw=None) -> None:
+    orient(doc, False)
     doc.add_heading(section.heading, level=1)
     if section.intro:
         doc.add_paragraph(section.intro)
+    if section.caution and any(section_of(t) == section.heading for t in content.order):
+        _caution(doc, section.caution)
     if section.heading == "Utility" or section.heading == "Validity and its corrections":
         warning = validity_not_established(content)
         if warning:
@@ -278,6 +283,7 @@ def compose(content: StudyContent, out: Path, *, version: str, charts: bool = Tr
             if not rest:
                 continue
         if section.heading == "Cautions and limits":
+            orient(doc, False)
             doc.add_heading(section.heading, level=1)
             _caution(doc, CAUTION)
             _notes(doc, content, "cautions")
@@ -293,6 +299,7 @@ def compose(content: StudyContent, out: Path, *, version: str, charts: bool = Tr
                                   + "; they are not printed here.")
             continue
         if section.heading == "References":
+            orient(doc, False)
             doc.add_heading(section.heading, level=1)
             _notes(doc, content, "references")
             continue
