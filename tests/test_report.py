@@ -190,6 +190,16 @@ def test_report_turns_into_pdf_in_writer_with_headings_numbers_and_marks(report,
                                                                text=True, check=True).stdout).group(1))
     assert pages <= DEMO_REPORT_PAGES
     assert f"of {pages}" in flat   # the footer's page count
+    # Writer draws every chart image (pdfimages lists each picture once; its transparency mask is an "smask" row)
+    listed = subprocess.run(["pdfimages", "-list", str(pdf)], check=True, capture_output=True, text=True).stdout
+    images = [line for line in listed.splitlines()[2:] if line.split()[2] == "image"]
+    assert len(images) == len(_study_charts(study))
+    # no table runs off the page: every word Writer placed lies inside its page, short of the right margin's middle
+    boxes = subprocess.run(["pdftotext", "-bbox", str(pdf), "-"], check=True, capture_output=True, text=True).stdout
+    for page in re.finditer(r'<page width="([0-9.]+)" height="([0-9.]+)">(.*?)</page>', boxes, re.S):
+        width = float(page.group(1))
+        for word in re.finditer(r'<word xMin="([0-9.]+)" yMin="[0-9.]+" xMax="([0-9.]+)"[^>]*>([^<]*)<', page.group(3)):
+            assert float(word.group(2)) <= width - 28.0, (word.group(3), width)   # 28 pt = 1 cm of the 2 cm margin
 
 
 def test_report_module_loads_python_docx_only_when_writing():
@@ -372,3 +382,85 @@ def test_the_options_sheet_of_a_study_with_raw_answers_is_reported(tmp_path):
     assert "Study sheet: Options" in headings
     assert headings.index("Reliability") < headings.index("Study sheet: Options") < headings.index(
         "Validity and its corrections")
+
+
+# --- what the numbers do not support -----------------------------------------------------------------------------
+
+#: sentences a report must never write from a test that found nothing: absence of evidence is not evidence of absence
+NEVER_SAID = ("no adverse impact", "no bias", "not biased", "unbiased", "free of bias", "is fair",
+              "no evidence of adverse", "no evidence of bias", "no disparate", "proves")
+
+
+def _body_text(doc) -> str:
+    """The document's text in reading order (paragraphs and table cells as they come)."""
+    ns = "{http://schemas.openxmlformats.org/wordprocessingml/2006/main}"
+    parts = []
+    for p in doc.element.body.iter(ns + "p"):
+        parts.append("".join(t.text or "" for t in p.iter(ns + "t")))
+    return "\n".join(parts)
+
+
+@pytest.mark.slow
+def test_a_study_with_null_validity_and_no_impact_says_what_the_numbers_do_not_support(tmp_path):
+    # Invented data: the criterion is noise unrelated to the test, and the two groups are dealt alternately down the
+    # ranking of scores, so their pass rates at the cut are nearly equal. The report must say, before any utility
+    # figure, that the validity is not established, and must not turn the non-significant impact and fairness tests
+    # into "no adverse impact" or "no bias".
+    import numpy as np
+
+    from test_study_predictors import table, write_book
+    from trueband.bridge.study.report.plan import FAIRNESS_NOT_SHOWN, IMPACT_NOT_SHOWN
+    from trueband.bridge.study.report.read import read_study
+    from trueband.bridge.study.workbook import ANALYSIS_SHEETS
+
+    header, rows, test, _ = table(80)
+    rng = np.random.default_rng(7)
+    k_perf, k_group = header.index("perf"), header.index("group")
+    order = np.argsort(-test.sum(axis=1), kind="stable")
+    for rank, i in enumerate(order):
+        rows[i][k_group] = "A" if rank % 2 == 0 else "B"
+        if rows[i][k_perf] is not None:
+            rows[i][k_perf] = round(float(3 + 0.6 * rng.standard_normal()), 2)
+    setup = [("id column", "id"), ("group column", "group"), ("item columns", "T1:T8"),
+             ("criterion column", "perf"), ("cut score", 4), ("test name", "Reasoning Test")]
+    study = make_study(write_book(tmp_path / "d.xlsx", header, rows, setup), tmp_path / "s.xlsx").path
+    out = write_report(study, tmp_path / "r.docx", version="test", charts=False)
+    content = read_study(study, ANALYSIS_SHEETS)
+    warning = validity_not_established(content)
+    assert warning is not None   # the interval of the noise criterion's r includes 0
+    lowest = next(figures[0].value for label, figures in content.summary if label.startswith("Lowest impact ratio"))
+    assert lowest >= 0.8   # no comparison below four-fifths: the case where "no adverse impact" would tempt
+
+    text = _body_text(Document(str(out)))
+    lowered = text.lower()
+    for phrase in NEVER_SAID:
+        assert phrase not in lowered, phrase
+    assert IMPACT_NOT_SHOWN in text and FAIRNESS_NOT_SHOWN in text
+    # the warning comes before the first utility figure, in the key figures and again in the Utility section
+    utility_labels, inside = [], False
+    for label, figures in content.summary:
+        if not figures:
+            inside = label == "What is the test worth?"
+        elif inside:
+            utility_labels.append(label)
+    assert utility_labels
+    first_utility = min(text.index(label) for label in utility_labels if label in text)
+    assert text.index(warning) < first_utility
+    utility_section = text.index("\nUtility\n")
+    assert text.index(warning, utility_section) < text.index("Study sheet: Utility", utility_section)
+
+
+def test_a_live_sentence_on_the_summary_does_not_end_the_rows_of_its_heading(report, study):
+    # The Summary's live line above the utility figures (a formula in column A) once read as a heading, so the
+    # Utility section lost its key figures. Every figure row under "What is the test worth?" opens that section.
+    from trueband.bridge.study.report.read import read_study
+    from trueband.bridge.study.workbook import ANALYSIS_SHEETS
+
+    content = read_study(study, ANALYSIS_SHEETS)
+    assert not any(label.startswith("=") for label, _ in content.summary)
+    labels = [label for label, figures in content.summary]
+    start = labels.index("What is the test worth?")
+    assert content.summary[start + 1][1], "the first row under the utility heading has its figures"
+    text = _body_text(Document(str(report)))
+    utility = text.index("\nUtility\n")
+    assert content.summary[start + 1][0] in text[utility:text.index("Study sheet: Utility", utility)]

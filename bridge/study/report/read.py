@@ -241,6 +241,13 @@ def _summary(values_ws, formulas_ws) -> list[tuple[str, list[Figure]]]:
         label = cells.get(1)
         if label is None or not isinstance(label.value, str):
             continue
+        if label.value.startswith("="):
+            # a live sentence (the line saying local validity is not established): the report words it itself, and
+            # a row without figures would read as a heading and end its section's rows
+            shown_label = values.get(r, {}).get(1)
+            if len(cells) == 1 or shown_label is None or not isinstance(shown_label.value, str):
+                continue
+            label = shown_label
         figures = []
         for c in sorted(cells):
             m = _LINK.match(str(cells[c].value)) if c > 1 else None
