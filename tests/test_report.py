@@ -371,6 +371,19 @@ def test_every_composed_sheet_is_cited_and_every_number_and_reason_traced_to_its
                 assert shown.get(where) == c.value, where
                 reasons += 1
     assert numbers > 500
+    # each sheet's own cautions (bold lines in the study's caution colour) are printed in its part of the report
+    from trueband.bridge.study.report.read import Paragraph, read_study
+    from trueband.bridge.study.words import CAUTION
+
+    text = _body_text(doc)
+    content = read_study(study, ANALYSIS_SHEETS)
+    cautions = [(t, b.text) for t in composed for b in content.sheets[t].blocks
+                if isinstance(b, Paragraph) and b.caution and b.text != CAUTION]
+    assert cautions
+    for title, caution in cautions:
+        start = text.index(f"Study sheet: {title}\n")
+        end = text.find("Study sheet: ", start + 1)
+        assert caution in text[start:end if end > 0 else None], (title, caution[:60])
 
 
 @pytest.mark.slow
