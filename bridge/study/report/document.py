@@ -15,7 +15,7 @@ from docx.shared import Cm, Pt, RGBColor
 from ..words import CAUTION
 from .plan import PLACEHOLDER_MARK, SECTIONS, Section, section_of
 from .charts import StudyChart
-from .layout import column_widths, needs_landscape, orient, repeat_header
+from .layout import column_widths, narrow_margins, needs_landscape, orient, repeat_header
 from .read import Figure, Heading, Paragraph, StudyContent, Table
 
 __all__ = ["compose", "validity_not_established"]
@@ -126,6 +126,7 @@ def _sheet_table(doc, sheet: str, block: Table) -> None:
             cell.text = text
     _widths(table, column_widths(block, doc.sections[-1].orientation == WD_ORIENT.LANDSCAPE))
     repeat_header(table)
+    narrow_margins(table)
     for row in table.rows:
         for cell in row.cells:
             for p in cell.paragraphs:

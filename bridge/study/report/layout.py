@@ -13,16 +13,17 @@ import re
 
 from docx.enum.section import WD_ORIENT, WD_SECTION
 from docx.oxml import OxmlElement
+from docx.oxml.ns import qn
 from docx.shared import Cm, Emu
 
 from .read import Table
 
-__all__ = ["PAGE", "column_widths", "needs_landscape", "orient", "repeat_header", "usable_width"]
+__all__ = ["PAGE", "column_widths", "narrow_margins", "needs_landscape", "orient", "repeat_header", "usable_width"]
 
 #: A4 (210 mm by 297 mm) and the margins, in centimetres
 PAGE = {"short": 21.0, "long": 29.7, "margin": 2.0}
 #: the width of one character of the tables' 7.5 pt type, about half an em (common practice), and a cell's padding
-_CHAR_CM, _PAD_CM = 0.17, 0.45
+_CHAR_CM, _PAD_CM = 0.17, 0.3
 _ROW_NUMBER_CM = 0.9
 #: a column never gets less than this (a number such as "-0.123" fits), nor a text more room than this many characters
 _MIN_CM, _CAP_CHARS = 1.2, 44
@@ -88,6 +89,22 @@ def orient(doc, landscape: bool) -> None:
     section.orientation = WD_ORIENT.LANDSCAPE if landscape else WD_ORIENT.PORTRAIT
     long, short = Cm(PAGE["long"]), Cm(PAGE["short"])
     section.page_width, section.page_height = (long, short) if landscape else (short, long)
+
+
+#: the cells' left and right padding, in twentieths of a point (45 = 0.08 cm; the default style's is 0.19 cm)
+_CELL_MARGIN_TWIPS = "45"
+
+
+def narrow_margins(table) -> None:
+    """Narrow left and right cell padding, so that a wide table's numbers keep to one line."""
+    tbl_pr = table._tbl.tblPr
+    margins = OxmlElement("w:tblCellMar")
+    for side in ("left", "right"):
+        m = OxmlElement(f"w:{side}")
+        m.set(qn("w:w"), _CELL_MARGIN_TWIPS)
+        m.set(qn("w:type"), "dxa")
+        margins.append(m)
+    tbl_pr.append(margins)
 
 
 def repeat_header(table) -> None:
