@@ -477,3 +477,24 @@ def test_a_live_sentence_on_the_summary_does_not_end_the_rows_of_its_heading(rep
     text = _body_text(Document(str(report)))
     utility = text.index("\nUtility\n")
     assert content.summary[start + 1][0] in text[utility:text.index("Study sheet: Utility", utility)]
+
+
+def test_table_columns_are_fitted_into_the_page_and_wide_tables_go_landscape():
+    # A4 with 2 cm margins (ISO 216): 17 cm between the margins upright, 25.7 cm on its side.
+    from docx.shared import Cm
+
+    from trueband.bridge.study.report.layout import column_widths, needs_landscape, usable_width
+    from trueband.bridge.study.report.read import Table
+
+    def block(n_cols, text):
+        rows = tuple((r, (f"label of row {r} that is rather long",) + (text,) * (n_cols - 1)) for r in range(3, 9))
+        return Table(3, 8, tuple("ABCDEFGHIJKLMNOPQRST"[:n_cols]), rows)
+
+    narrow, wide = block(3, "0.123"), block(15, "Selections that flip the exact test")
+    assert not needs_landscape(narrow) and needs_landscape(wide)
+    assert usable_width(False) == pytest.approx(17.0) and usable_width(True) == pytest.approx(25.7)
+    for table, landscape in ((narrow, False), (wide, True), (wide, False)):
+        widths = column_widths(table, landscape)
+        assert len(widths) == len(table.columns) + 1
+        assert sum(widths) <= Cm(usable_width(landscape)) + len(widths)   # EMU rounding, one per column
+        assert min(widths) > 0
