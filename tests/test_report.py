@@ -190,6 +190,16 @@ def test_report_turns_into_pdf_in_writer_with_headings_numbers_and_marks(report,
                                                                text=True, check=True).stdout).group(1))
     assert pages <= DEMO_REPORT_PAGES
     assert f"of {pages}" in flat   # the footer's page count
+    # Writer draws every chart image (pdfimages lists each picture once; its transparency mask is an "smask" row)
+    listed = subprocess.run(["pdfimages", "-list", str(pdf)], check=True, capture_output=True, text=True).stdout
+    images = [line for line in listed.splitlines()[2:] if line.split()[2] == "image"]
+    assert len(images) == len(_study_charts(study))
+    # no table runs off the page: every word Writer placed lies inside its page, short of the right margin's middle
+    boxes = subprocess.run(["pdftotext", "-bbox", str(pdf), "-"], check=True, capture_output=True, text=True).stdout
+    for page in re.finditer(r'<page width="([0-9.]+)" height="([0-9.]+)">(.*?)</page>', boxes, re.S):
+        width = float(page.group(1))
+        for word in re.finditer(r'<word xMin="([0-9.]+)" yMin="[0-9.]+" xMax="([0-9.]+)"[^>]*>([^<]*)<', page.group(3)):
+            assert float(word.group(2)) <= width - 28.0, (word.group(3), width)   # 28 pt = 1 cm of the 2 cm margin
 
 
 def test_report_module_loads_python_docx_only_when_writing():
@@ -242,3 +252,249 @@ def test_the_summary_says_live_that_local_validity_is_not_established(tmp_path):
     sheet, where = result.cells["validity_not_established"]
     assert values[sheet][where].value == VALIDITY_NOT_ESTABLISHED
     assert "IF(AND(" in load_workbook(result.path)[sheet][where].value   # a live formula, not a typed text
+
+
+# --- the charts -------------------------------------------------------------------------------------------------
+
+def _study_charts(study: Path) -> list[tuple[str, str]]:
+    """(sheet, the first series' y or value cells) of every chart in the study, as openpyxl's own chart reader (an
+    independent reader of the chart parts) finds them."""
+    wb = load_workbook(study)
+    out = []
+    for ws in wb.worksheets:
+        for chart in ws._charts:
+            first = chart.series[0]
+            ref = (first.yVal if first.yVal is not None else first.val).numRef.f
+            out.append((ws.title, ref.replace("'", "").replace("$", "")))
+    return out
+
+
+def test_every_chart_of_the_study_is_drawn_with_a_caption_naming_its_cells(report, study):
+    charts = _study_charts(study)
+    assert len(charts) >= 6   # the demo's item maps, validity scatters, impact bars, score distribution, cuts, fairness
+    doc = Document(str(report))
+    assert len(doc.inline_shapes) == len(charts)
+    captions = [p.text for p in doc.paragraphs if p.text.startswith("Figure: ")]
+    assert len(captions) == len(charts)
+    for sheet, cells in charts:
+        assert any(f"on sheet {sheet} at cell" in c and cells in c for c in captions), (sheet, cells)
+
+
+def test_the_chart_of_cuts_carries_the_four_fifths_line_and_reads_the_stored_values(study):
+    from trueband.bridge.study.report.read import read_study
+    from trueband.bridge.study.workbook import ANALYSIS_SHEETS
+
+    content = read_study(study, ANALYSIS_SHEETS)
+    cuts = [c for c in content.charts if c.sheet == "Cuts"]
+    assert len(cuts) == 1
+    line = [s for s in cuts[0].series if s.kind == "line"]
+    assert len(line) == 1 and list(line[0].y) == [0.8, 0.8]
+    wb = load_workbook(study, data_only=True)
+    scatter = next(c for c in content.charts if c.sheet == "Validity")
+    first, last = scatter.series[0].y_cells.split("!")[1].split(":")
+    assert list(scatter.series[0].y) == [row[0].value for row in wb["Validity"][f"{first}:{last}"]]
+
+
+@pytest.mark.slow
+def test_without_matplotlib_the_report_says_where_each_chart_is(study, tmp_path, monkeypatch, capsys):
+    from trueband.bridge.study.report import CHARTS_NOTE
+
+    monkeypatch.setitem(sys.modules, "matplotlib", None)   # import matplotlib now raises ImportError
+    out = tmp_path / "plain.docx"
+    assert main(["report", str(study), "-o", str(out)]) == 0
+    assert capsys.readouterr().err.count(CHARTS_NOTE) == 1
+    doc = Document(str(out))
+    assert len(doc.inline_shapes) == 0
+    notes = [p.text for p in doc.paragraphs if p.text.startswith("Chart “")]
+    charts = _study_charts(study)
+    assert len(notes) == len(charts)
+    for sheet, cells in charts:
+        assert any(f"on sheet {sheet} at cell" in n and cells in n and "trueband[charts]" in n for n in notes)
+
+
+# --- every sheet the study composed, every figure traced to its cell ---------------------------------------------
+
+def _report_cells(doc) -> dict[tuple[str, int, str], str]:
+    """(sheet, row, column letter) -> the text the report prints there, from the report's sheet tables."""
+    out = {}
+    for table in doc.tables:
+        letters = [c.text for c in table.rows[0].cells]
+        if letters[0] != "row":
+            continue
+        sheet = _sheet_of(doc, table)
+        for row in table.rows[1:]:
+            for letter, cell in zip(letters[1:], row.cells[1:]):
+                out[(sheet, int(row.cells[0].text), letter)] = cell.text
+    return out
+
+
+def _main_block(ws) -> dict[tuple[int, int], object]:
+    """The cells of the sheet's main block of columns (A up to the first column empty on the whole sheet)."""
+    cells = {(c.row, c.column): c for row in ws.iter_rows() for c in row if c.value is not None}
+    used = {k for _, k in cells}
+    width = 1
+    while width + 1 in used:
+        width += 1
+    return {key: c for key, c in cells.items() if key[1] <= width}
+
+
+def test_every_composed_sheet_is_cited_and_every_number_and_reason_traced_to_its_cell(report, study):
+    # Generic over the study's sheets: a sheet or row another part of the study adds is checked without a change
+    # here. The report must show every number of each analysis sheet's main block at its row and column, and
+    # every "not computable" reason in the cell it qualifies.
+    from openpyxl.utils import get_column_letter
+    from trueband.bridge.study.report.read import PER_CANDIDATE
+    from trueband.bridge.study.workbook import ANALYSIS_SHEETS
+
+    doc = Document(str(report))
+    headings = {p.text for p in doc.paragraphs if p.style.name.startswith("Heading")}
+    shown = _report_cells(doc)
+    wb = load_workbook(study, data_only=True)
+    ids = set(make_demo().ids)
+    composed = [t for t in wb.sheetnames if t.split(" (")[0] in ANALYSIS_SHEETS
+                and t.split(" (")[0] not in PER_CANDIDATE + ("Summary", "Notes")]
+    assert {"Impact", "Strata", "Cuts", "Stages", "Groups", "Combined", "Fairness", "DIF", "Cut score",
+            "Standard setting", "Content"} <= set(composed)
+    numbers = reasons = 0
+    for title in composed:
+        assert f"Study sheet: {title}" in headings, title
+        block = _main_block(wb[title])
+        candidate_rows = {r for (r, _), c in block.items() if str(c.value) in ids}
+        for (r, k), c in block.items():
+            if r in candidate_rows:
+                continue
+            where = (title, r, get_column_letter(k))
+            if isinstance(c.value, (int, float)) and not isinstance(c.value, bool):
+                assert shown.get(where) == format_value(c.value, c.number_format), where
+                numbers += 1
+            elif isinstance(c.value, str) and c.value.startswith("not computable"):
+                assert shown.get(where) == c.value, where
+                reasons += 1
+    assert numbers > 500
+    # each sheet's own cautions (bold lines in the study's caution colour) are printed in its part of the report
+    from trueband.bridge.study.report.read import Paragraph, read_study
+    from trueband.bridge.study.words import CAUTION
+
+    text = _body_text(doc)
+    content = read_study(study, ANALYSIS_SHEETS)
+    cautions = [(t, b.text) for t in composed for b in content.sheets[t].blocks
+                if isinstance(b, Paragraph) and b.caution and b.text != CAUTION]
+    assert cautions
+    for title, caution in cautions:
+        start = text.index(f"Study sheet: {title}\n")
+        end = text.find("Study sheet: ", start + 1)
+        assert caution in text[start:end if end > 0 else None], (title, caution[:60])
+
+
+@pytest.mark.slow
+def test_the_options_sheet_of_a_study_with_raw_answers_is_reported(tmp_path):
+    data = study_data_workbook(tmp_path / "answers.xlsx", make_demo(), cut=24.0, answers=True)
+    study = make_study(data, tmp_path / "study.xlsx").path
+    out = write_report(study, tmp_path / "r.docx", version="test", charts=False)
+    headings = [p.text for p in Document(str(out)).paragraphs if p.style.name.startswith("Heading")]
+    assert "Study sheet: Options" in headings
+    assert headings.index("Reliability") < headings.index("Study sheet: Options") < headings.index(
+        "Validity and its corrections")
+
+
+# --- what the numbers do not support -----------------------------------------------------------------------------
+
+#: sentences a report must never write from a test that found nothing: absence of evidence is not evidence of absence
+NEVER_SAID = ("no adverse impact", "no bias", "not biased", "unbiased", "free of bias", "is fair",
+              "no evidence of adverse", "no evidence of bias", "no disparate", "proves")
+
+
+def _body_text(doc) -> str:
+    """The document's text in reading order (paragraphs and table cells as they come)."""
+    ns = "{http://schemas.openxmlformats.org/wordprocessingml/2006/main}"
+    parts = []
+    for p in doc.element.body.iter(ns + "p"):
+        parts.append("".join(t.text or "" for t in p.iter(ns + "t")))
+    return "\n".join(parts)
+
+
+@pytest.mark.slow
+def test_a_study_with_null_validity_and_no_impact_says_what_the_numbers_do_not_support(tmp_path):
+    # Invented data: the criterion is noise unrelated to the test, and the two groups are dealt alternately down the
+    # ranking of scores, so their pass rates at the cut are nearly equal. The report must say, before any utility
+    # figure, that the validity is not established, and must not turn the non-significant impact and fairness tests
+    # into "no adverse impact" or "no bias".
+    import numpy as np
+
+    from test_study_predictors import table, write_book
+    from trueband.bridge.study.report.plan import FAIRNESS_NOT_SHOWN, IMPACT_NOT_SHOWN
+    from trueband.bridge.study.report.read import read_study
+    from trueband.bridge.study.workbook import ANALYSIS_SHEETS
+
+    header, rows, test, _ = table(80)
+    rng = np.random.default_rng(7)
+    k_perf, k_group = header.index("perf"), header.index("group")
+    order = np.argsort(-test.sum(axis=1), kind="stable")
+    for rank, i in enumerate(order):
+        rows[i][k_group] = "A" if rank % 2 == 0 else "B"
+        if rows[i][k_perf] is not None:
+            rows[i][k_perf] = round(float(3 + 0.6 * rng.standard_normal()), 2)
+    setup = [("id column", "id"), ("group column", "group"), ("item columns", "T1:T8"),
+             ("criterion column", "perf"), ("cut score", 4), ("test name", "Reasoning Test")]
+    study = make_study(write_book(tmp_path / "d.xlsx", header, rows, setup), tmp_path / "s.xlsx").path
+    out = write_report(study, tmp_path / "r.docx", version="test", charts=False)
+    content = read_study(study, ANALYSIS_SHEETS)
+    warning = validity_not_established(content)
+    assert warning is not None   # the interval of the noise criterion's r includes 0
+    lowest = next(figures[0].value for label, figures in content.summary if label.startswith("Lowest impact ratio"))
+    assert lowest >= 0.8   # no comparison below four-fifths: the case where "no adverse impact" would tempt
+
+    text = _body_text(Document(str(out)))
+    lowered = text.lower()
+    for phrase in NEVER_SAID:
+        assert phrase not in lowered, phrase
+    assert IMPACT_NOT_SHOWN in text and FAIRNESS_NOT_SHOWN in text
+    # the warning comes before the first utility figure, in the key figures and again in the Utility section
+    utility_labels, inside = [], False
+    for label, figures in content.summary:
+        if not figures:
+            inside = label == "What is the test worth?"
+        elif inside:
+            utility_labels.append(label)
+    assert utility_labels
+    first_utility = min(text.index(label) for label in utility_labels if label in text)
+    assert text.index(warning) < first_utility
+    utility_section = text.index("\nUtility\n")
+    assert text.index(warning, utility_section) < text.index("Study sheet: Utility", utility_section)
+
+
+def test_a_live_sentence_on_the_summary_does_not_end_the_rows_of_its_heading(report, study):
+    # The Summary's live line above the utility figures (a formula in column A) once read as a heading, so the
+    # Utility section lost its key figures. Every figure row under "What is the test worth?" opens that section.
+    from trueband.bridge.study.report.read import read_study
+    from trueband.bridge.study.workbook import ANALYSIS_SHEETS
+
+    content = read_study(study, ANALYSIS_SHEETS)
+    assert not any(label.startswith("=") for label, _ in content.summary)
+    labels = [label for label, figures in content.summary]
+    start = labels.index("What is the test worth?")
+    assert content.summary[start + 1][1], "the first row under the utility heading has its figures"
+    text = _body_text(Document(str(report)))
+    utility = text.index("\nUtility\n")
+    assert content.summary[start + 1][0] in text[utility:text.index("Study sheet: Utility", utility)]
+
+
+def test_table_columns_are_fitted_into_the_page_and_wide_tables_go_landscape():
+    # A4 with 2 cm margins (ISO 216): 17 cm between the margins upright, 25.7 cm on its side.
+    from docx.shared import Cm
+
+    from trueband.bridge.study.report.layout import column_widths, needs_landscape, usable_width
+    from trueband.bridge.study.report.read import Table
+
+    def block(n_cols, text):
+        rows = tuple((r, (f"label of row {r} that is rather long",) + (text,) * (n_cols - 1)) for r in range(3, 9))
+        return Table(3, 8, tuple("ABCDEFGHIJKLMNOPQRST"[:n_cols]), rows)
+
+    narrow, wide = block(3, "0.123"), block(15, "Selections that flip the exact test")
+    assert not needs_landscape(narrow) and needs_landscape(wide)
+    assert usable_width(False) == pytest.approx(17.0) and usable_width(True) == pytest.approx(25.7)
+    for table, landscape in ((narrow, False), (wide, True), (wide, False)):
+        widths = column_widths(table, landscape)
+        assert len(widths) == len(table.columns) + 1
+        assert sum(widths) <= Cm(usable_width(landscape)) + len(widths)   # EMU rounding, one per column
+        assert min(widths) > 0

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import sys
 from pathlib import Path
 
 from .common import EXIT_OK, CommandError
@@ -23,7 +24,7 @@ def register(sub) -> None:
 def run_report(args) -> int:
     from trueband.funcs import __version__
 
-    from ..study.report import ReportError, write_report
+    from ..study.report import CHARTS_NOTE, ReportError, charts_drawable, write_report
 
     study = Path(args.study)
     if not study.is_file():
@@ -40,4 +41,6 @@ def run_report(args) -> int:
     except ReportError as e:
         raise CommandError(str(e)) from None
     print(f"wrote {out}")
+    if not charts_drawable():
+        print(f"note: {CHARTS_NOTE}", file=sys.stderr)
     return EXIT_OK

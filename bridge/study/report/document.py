@@ -14,7 +14,9 @@ from docx.shared import Cm, Pt, RGBColor
 
 from ..words import CAUTION
 from .plan import PLACEHOLDER_MARK, SECTIONS, Section, section_of
-from .read import Figure, Heading, Paragraph, StudyContent, Table, chart_sheets
+from .charts import StudyChart
+from .layout import column_widths, narrow_margins, needs_landscape, orient, repeat_header
+from .read import Figure, Heading, Paragraph, StudyContent, Table
 
 __all__ = ["compose", "validity_not_established"]
 
@@ -122,9 +124,9 @@ def _sheet_table(doc, sheet: str, block: Table) -> None:
         cells[0].text = str(r)
         for cell, text in zip(cells[1:], texts):
             cell.text = text
-    n = len(block.columns)
-    widths = [Cm(1.0), Cm(6.0 if n > 1 else 16.0)] + [Cm(10.0 / max(1, n - 1))] * (n - 1)
-    _widths(table, widths)
+    _widths(table, column_widths(block, doc.sections[-1].orientation == WD_ORIENT.LANDSCAPE))
+    repeat_header(table)
+    narrow_margins(table)
     for row in table.rows:
         for cell in row.cells:
             for p in cell.paragraphs:
@@ -133,9 +135,43 @@ def _sheet_table(doc, sheet: str, block: Table) -> None:
     doc.add_paragraph()
 
 
-def _sheet(doc, content: StudyContent, title: str) -> None:
+#: what the report says where a chart is not drawn because matplotlib is missing
+CHARTS_EXTRA = 'pip install "trueband[charts]"'
+
+
+def _has_points(chart: StudyChart) -> bool:
+    return any(isinstance(v, (int, float)) and not isinstance(v, bool) for s in chart.series for v in s.y)
+
+
+def _chart(doc, chart: StudyChart, draw) -> None:
+    """The chart drawn as an image with its caption, or (``draw`` None, or nothing to draw) where it is."""
+    where = f"the chart on sheet {chart.sheet} at cell {chart.anchor}"
+    if draw is not None and _has_points(chart):
+        from io import BytesIO
+
+        doc.add_picture(BytesIO(draw(chart)), width=Cm(16.0))
+        doc.paragraphs[-1].alignment = WD_ALIGN_PARAGRAPH.CENTER
+        caption = doc.add_paragraph(f"Figure: {chart.title}. Drawn for this report from {where}, with the values "
+                                    f"stored in its cells ({chart.sources()}).")
+        caption.runs[0].font.size = Pt(8)
+        return
+    why = (f"not drawn here: install the charts extra ({CHARTS_EXTRA}) and write the report again, or open "
+           "the study to see it" if draw is None else "not drawn: its cells hold no numbers")
+    p = doc.add_paragraph()
+    p.add_run(f"Chart “{chart.title}”: ").bold = True
+    p.add_run(f"{where}, rows {chart.row} onward; its data: {chart.sources()}. The chart is {why}.")
+    _shade(p, "F2F2F2")
+
+
+def _sheet(doc, content: StudyContent, title: str, draw=None) -> None:
+    # a sheet with a table too wide for a portrait page is printed on landscape pages, whole
+    orient(doc, any(needs_landscape(b) for b in content.sheets[title].blocks if isinstance(b, Table)))
     doc.add_heading(f"Study sheet: {title}", level=2)
+    charts = [c for c in content.charts if c.sheet == title]
     for block in content.sheets[title].blocks:
+        start = block.first_row if isinstance(block, Table) else block.row
+        while charts and start and charts[0].row <= start:
+            _chart(doc, charts.pop(0), draw)
         if isinstance(block, Heading):
             doc.add_heading(block.text, level=3)
         elif isinstance(block, Paragraph):
@@ -147,6 +183,8 @@ def _sheet(doc, content: StudyContent, title: str) -> None:
                 doc.add_paragraph(block.text)
         elif isinstance(block, Table):
             _sheet_table(doc, title, block)
+    for chart in charts:
+        _chart(doc, chart, draw)
 
 
 def validity_not_established(content: StudyContent) -> str | None:
@@ -162,10 +200,13 @@ def validity_not_established(content: StudyContent) -> str | None:
     return None
 
 
-def _section(doc, content: StudyContent, section: Section, shown: set[str]) -> None:
+def _section(doc, content: StudyContent, section: Section, shown: set[str], draw=None) -> None:
+    orient(doc, False)
     doc.add_heading(section.heading, level=1)
     if section.intro:
         doc.add_paragraph(section.intro)
+    if section.caution and any(section_of(t) == section.heading for t in content.order):
+        _caution(doc, section.caution)
     if section.heading == "Utility" or section.heading == "Validity and its corrections":
         warning = validity_not_established(content)
         if warning:
@@ -184,7 +225,7 @@ def _section(doc, content: StudyContent, section: Section, shown: set[str]) -> N
               and section_of(t) == section.heading]
     for title in titles:
         shown.add(title)
-        _sheet(doc, content, title)
+        _sheet(doc, content, title, draw)
 
 
 def _notes(doc, content: StudyContent, part: str) -> None:
@@ -206,8 +247,12 @@ def _notes(doc, content: StudyContent, part: str) -> None:
             _sheet_table(doc, "Notes", block)
 
 
-def compose(content: StudyContent, out: Path, *, version: str) -> None:
-    """Write the report for ``content`` to ``out`` (a .docx)."""
+def compose(content: StudyContent, out: Path, *, version: str, charts: bool = True) -> None:
+    """Write the report for ``content`` to ``out`` (a .docx); its charts drawn when ``charts`` and matplotlib is
+    installed, else said where they are."""
+    from . import draw as drawing
+
+    draw = drawing.draw if charts and drawing.available() else None
     doc = Document()
     sec = doc.sections[0]
     sec.orientation = WD_ORIENT.PORTRAIT
@@ -239,20 +284,25 @@ def compose(content: StudyContent, out: Path, *, version: str) -> None:
             if not rest:
                 continue
         if section.heading == "Cautions and limits":
+            orient(doc, False)
             doc.add_heading(section.heading, level=1)
             _caution(doc, CAUTION)
             _notes(doc, content, "cautions")
-            charts = chart_sheets(content.path)
-            if charts:
-                doc.add_paragraph("The study's charts are on its sheets " + ", ".join(charts) + "; open the workbook "
-                                  "to see them.")
+            sheets = list(dict.fromkeys(c.sheet for c in content.charts))
+            if sheets:
+                doc.add_paragraph("The study's charts are on its sheets " + ", ".join(sheets) + (
+                    "; they are drawn above from the values stored in their cells (the study's own charts follow "
+                    "the cells when the workbook is recalculated)." if draw is not None else
+                    f"; they are not drawn in this report (install the charts extra: {CHARTS_EXTRA}); open the "
+                    "workbook to see them."))
             if content.data_sheets:
                 doc.add_paragraph("The candidates' data are in the study's sheets " + ", ".join(content.data_sheets)
                                   + "; they are not printed here.")
             continue
         if section.heading == "References":
+            orient(doc, False)
             doc.add_heading(section.heading, level=1)
             _notes(doc, content, "references")
             continue
-        _section(doc, content, section, shown)
+        _section(doc, content, section, shown, draw)
     doc.save(str(out))

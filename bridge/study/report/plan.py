@@ -20,6 +20,19 @@ __all__ = ["PLACEHOLDER_MARK", "SECTIONS", "Section", "section_of"]
 #: every part only a person can write starts with this mark (and is shaded), so none is handed over unwritten
 PLACEHOLDER_MARK = "[TO BE WRITTEN BY THE STUDY'S AUTHOR]"
 
+#: a test that finds no significant difference is not evidence that there is none: said before the figures
+FAIRNESS_NOT_SHOWN = (
+    "Read these figures as indicators, not as a finding. A difference between groups' regression lines, or an "
+    "item's difference between groups, that is not statistically significant does not establish that the test "
+    "predicts equally well, or works the same way, for every group: with groups of these sizes a real difference "
+    "can go undetected, so look at the intervals as well as the p values.")
+IMPACT_NOT_SHOWN = (
+    "Read these figures as indicators, not as a legal finding. An impact ratio at or above four-fifths, or a "
+    "difference in selection rates that is not statistically significant, does not establish that adverse "
+    "impact is absent: small groups give wide intervals, and the Uniform Guidelines also weigh differences "
+    "that are practically or statistically significant whatever the ratio, and each step of the process "
+    "(29 CFR 1607.4C and 1607.4D).")   # 4C: components of the process; 4D: four-fifths and significance (from memory)
+
 
 @dataclass(frozen=True)
 class Section:
@@ -28,6 +41,7 @@ class Section:
     summary_heading: str | None = None   # the Summary's heading whose rows open the section
     placeholders: tuple[str, ...] = ()   # what the author must write here
     intro: str = ""
+    caution: str = ""                    # what the section's figures do not support, said before them
 
 
 SECTIONS: tuple[Section, ...] = (
@@ -37,7 +51,7 @@ SECTIONS: tuple[Section, ...] = (
     Section("Purpose and setting", placeholders=(
         ("Why the selection procedure is used, for which decisions, and the labour market and applicant "
         "population it is used with (1607.15B(2))."),)),
-    Section("The job and its analysis", placeholders=(
+    Section("The job and its analysis", sheets=("Content",), placeholders=(
         ("The job analysis: its method, the important work behaviours and outcomes found, and how the "
         "selection procedure and the criterion relate to them (1607.15B(3), 1607.14B(2))."),)),
     Section("The selection procedures", intro="The procedure studied is named on the study's Setup sheet.",
@@ -52,10 +66,10 @@ SECTIONS: tuple[Section, ...] = (
             summary_heading="Is the test consistent?"),
     Section("Validity and its corrections", sheets=("Validity", "Combined"),
             summary_heading="Does the score predict job performance?"),
-    Section("Fairness", sheets=("Fairness", "DIF")),
+    Section("Fairness", sheets=("Fairness", "DIF"), caution=FAIRNESS_NOT_SHOWN),
     Section("Adverse impact", sheets=("Impact", "Strata", "Stages", "Cuts"),
-            summary_heading="Does the cut screen out a group?"),
-    Section("The cut score and how it was set", sheets=("Cut score", "Standard setting", "Content", "Bands"),
+            summary_heading="Does the cut screen out a group?", caution=IMPACT_NOT_SHOWN),
+    Section("The cut score and how it was set", sheets=("Cut score", "Standard setting", "Bands"),
             placeholders=(("The rationale for the cut score and the method used to set it, in the author's "
                           "own words: why it is reasonable and consistent with normal expectations of "
                           "proficiency in the workforce (1607.5H)."),)),

@@ -25,6 +25,8 @@ from typing import Any
 from openpyxl import load_workbook
 from openpyxl.utils import get_column_letter
 
+from .charts import StudyChart, read_charts
+
 __all__ = [
     "Figure",
     "Heading",
@@ -33,7 +35,6 @@ __all__ = [
     "SheetContent",
     "StudyContent",
     "Table",
-    "chart_sheets",
     "first_unstored",
     "format_value",
     "read_study",
@@ -64,12 +65,14 @@ class Figure:
 @dataclass(frozen=True)
 class Heading:
     text: str
+    row: int = 0        # its sheet row (0: not from a sheet)
 
 
 @dataclass(frozen=True)
 class Paragraph:
     text: str
     caution: bool = False
+    row: int = 0        # the sheet row of its first line
 
 
 @dataclass(frozen=True)
@@ -94,6 +97,7 @@ class StudyContent:
     summary: list[tuple[str, list[Figure]]] = field(default_factory=list)   # (label, figures) or a heading
     settings: dict[str, Any] = field(default_factory=dict)
     data_sheets: list[str] = field(default_factory=list)
+    charts: list[StudyChart] = field(default_factory=list)   # every chart of the analysis sheets, in order
 
 
 _DECIMALS = re.compile(r"0\.(0+)")
@@ -159,6 +163,7 @@ def _blocks(title: str, rows: dict[int, dict[int, Any]], candidates: frozenset =
     table: list[tuple[int, tuple[str, ...]]] = []
     para: list[str] = []
     para_caution = False
+    para_row = 0
 
     def flush_table():
         if table:
@@ -171,7 +176,7 @@ def _blocks(title: str, rows: dict[int, dict[int, Any]], candidates: frozenset =
     def flush_para():
         nonlocal para_caution
         if para:
-            blocks.append(Paragraph(" ".join(para), caution=para_caution))
+            blocks.append(Paragraph(" ".join(para), caution=para_caution, row=para_row))
             para.clear()
             para_caution = False
 
@@ -191,7 +196,7 @@ def _blocks(title: str, rows: dict[int, dict[int, Any]], candidates: frozenset =
             font = cells[1].font
             if font is not None and font.b and not (font.color is not None and font.color.rgb == "007A2E00"):
                 flush_para()
-                blocks.append(Heading(texts[1]))
+                blocks.append(Heading(texts[1], row=r))
             else:
                 caution = bool(font is not None and font.b)
                 if para and caution != para_caution:
@@ -199,6 +204,8 @@ def _blocks(title: str, rows: dict[int, dict[int, Any]], candidates: frozenset =
                 if para and _STARTS_ENTRY.match(texts[1]):
                     flush_para()   # a list of entries ("NAME: …") written without blank rows between them
                 para_caution = caution
+                if not para:
+                    para_row = r
                 para.append(texts[1])
             continue
         flush_para()
@@ -234,6 +241,13 @@ def _summary(values_ws, formulas_ws) -> list[tuple[str, list[Figure]]]:
         label = cells.get(1)
         if label is None or not isinstance(label.value, str):
             continue
+        if label.value.startswith("="):
+            # a live sentence (the line saying local validity is not established): the report words it itself, and
+            # a row without figures would read as a heading and end its section's rows
+            shown_label = values.get(r, {}).get(1)
+            if len(cells) == 1 or shown_label is None or not isinstance(shown_label.value, str):
+                continue
+            label = shown_label
         figures = []
         for c in sorted(cells):
             m = _LINK.match(str(cells[c].value)) if c > 1 else None
@@ -300,19 +314,6 @@ def first_unstored(path: Path, kinds) -> str | None:
     return None
 
 
-def chart_sheets(path: Path) -> list[str]:
-    """The titles of the sheets that hold a drawing (the study's charts), in workbook order."""
-    with zipfile.ZipFile(path) as z:
-        names = set(z.namelist())
-        out = []
-        for title, part in _sheet_parts(z).items():
-            p = PurePosixPath(part)
-            rels = str(p.parent / "_rels" / (p.name + ".rels"))
-            if rels in names and b"/drawing" in z.read(rels):
-                out.append(title)
-        return out
-
-
 def _candidate_ids(wb, settings: dict[str, Any]) -> frozenset:
     """The candidates' ids, as the report would print them, read from the study's copy of the data."""
     sheet, column = settings.get("data sheet"), settings.get("id column")
@@ -361,6 +362,9 @@ def read_study(path: str | Path, analysis_sheets: tuple[str, ...]) -> StudyConte
             content.order.append(title)
         if "Setup" in values_wb.sheetnames:
             content.settings = _settings(values_wb["Setup"])
+        with zipfile.ZipFile(path) as z:
+            parts = _sheet_parts(z)
+        content.charts = read_charts(path, parts, values_wb, set(content.order))
     finally:
         values_wb.close()
         formulas_wb.close()
