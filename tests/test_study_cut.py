@@ -451,5 +451,7 @@ def test_a_consensus_method_and_a_yes_no_panel(tmp_path):
     assert value(study, "adjusted_cut") == pytest.approx(value(study, "method_cut") - 0.5 * value(study, "sem"))
     texts = [c.value for row in wb["Standard setting"].iter_rows() for c in row if isinstance(c.value, str)]
     assert "not recorded on the judges' sheet for this method (a consensus grid)" in texts
+    # k is the yellow input cell (0.5 here); the text beside it names no value that would go stale when it is edited
+    assert not [t for t in texts if "k = 0.5" in t] and any(t.startswith("Why lower the cut by k SEM") for t in texts)
     assert "Angoff cut (yes/no judgments)" in texts
     assert value(study, "angoff_cut") == pytest.approx((2 + 3 + 2) / 3, rel=1e-12)  # mean of the judges' sums
