@@ -55,6 +55,9 @@ def test_sliding_band_on_bands_without_a_cut(built):
         people = floor.parent.cell(floor.row, floor.column + 1).value
         assert people == int(((scores >= floor.value) & (scores <= top)).sum())
         assert formulas["Bands"][floor.coordinate].value.startswith("=")
+    # Notes lists the function the sheet uses, with or without a Cut score sheet
+    assert any(isinstance(c, str) and "BAND_FLOOR" in c for row in values["Notes"].iter_rows(values_only=True)
+               for c in row)
 
 
 def test_the_caution_and_the_fixed_bands_note_are_beside_the_band(built):

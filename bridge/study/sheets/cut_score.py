@@ -23,7 +23,7 @@ __all__ = ["CutScore", "SHEET", "FUNCTIONS", "write"]
 SHEET = "Cut score"
 #: The registered functions this sheet uses, for Notes.
 FUNCTIONS = ("CSEM_BINOMIAL", "KR21", "DECISION_CONSISTENCY_BB", "CLASSIFICATION_ACCURACY_BB",
-             "DECISION_CONSISTENCY", "CLASSIFICATION_ACCURACY", "BAND_FLOOR")  # BAND_FLOOR: on Bands
+             "DECISION_CONSISTENCY", "CLASSIFICATION_ACCURACY")
 #: How the sheet computes, for Notes.
 CONVENTIONS = (
     "Cut score sheet: a candidate passes at or above the cut. Beta-binomial model: the SD with denominator n, the "

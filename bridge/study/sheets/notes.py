@@ -29,6 +29,8 @@ FUNCTIONS_USED = ("CRONBACH_ALPHA", "ALPHA_CI", "KR20", "SPLIT_HALF", "OMEGA", "
 #: The adverse-impact functions of the Impact, Strata, Cuts, Stages and Groups sheets.
 FUNCTIONS_USED += ("IMPACT_RATIO_CI", "IMPACT_ODDS_RATIO", "IMPACT_FLIP", "IMPACT_SMALL_NUMBERS",
                    "POOLED_ODDS_RATIO", "POOLED_IMPACT_P", "POOLED_EXACT_P", "POOLED_HOMOGENEITY_P", "COHENS_D_CI")
+#: The sliding band beside the Bands rows.
+FUNCTIONS_USED += ("BAND_FLOOR",)
 
 CONVENTIONS = (
     "A person's score is the sum of their item scores (a blank item counts 0); a person with no item "
