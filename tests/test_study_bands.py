@@ -103,3 +103,16 @@ def test_no_sliding_band_when_the_bands_are_not_computable(tmp_path):
     assert not [k for k in result.cells if k.startswith("band_floor")]
     ws = load_workbook(result.path)["Bands"]
     assert ws.max_column == len([c for c in ws[1] if c.value is not None])
+
+
+def test_band_styles_answer_per_cell_without_counting(monkeypatch):
+    # the row writer tests "styles and (row, column) in styles" for every cell: truth must not count the cells
+    # (50,000 rows x two interval columns each time); membership covers whole columns of the people's rows
+    from trueband.bridge.study.sheets.bands import BandStyles
+
+    styles = BandStyles({4: 7, 5: 7}, {(3, 12): 9}, last=10 ** 12)
+    monkeypatch.setattr(BandStyles, "__len__", lambda self: (_ for _ in ()).throw(AssertionError("counted")))
+    assert styles
+    assert (2, 4) in styles and styles[(10 ** 12, 5)] == 7 and styles[(3, 12)] == 9
+    assert (1, 4) not in styles and (10 ** 12 + 1, 4) not in styles and (2, 6) not in styles
+    assert not BandStyles({}, {}, last=5)

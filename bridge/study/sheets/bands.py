@@ -217,6 +217,9 @@ class BandStyles(Mapping):
     def __len__(self):
         return sum(1 for _ in self)
 
+    def __bool__(self):  # the writer asks for every cell: never count the cells for that
+        return bool(self.cells or self.columns)
+
 
 def plan(ctx: StudyContext, layout: BandsLayout, setup, rel) -> Bands:
     """Decide whether the bands are computable (they need the SEM), noting why not."""
