@@ -6,6 +6,14 @@ Sources:
   exact one-tailed critical values at alpha = 0.05 (N, N critical, CVR critical). The values below are
   as that table prints them (from memory: the article itself could not be retrieved here); every one is
   also recomputed with scipy.stats.binom, the reference library, in the test.
+* Lawshe (1975), Table 1, minimum CVR at one-tailed p = .05 for N = 5, 6, 7, 8, 9, 10, 15, 20, 25, 30, 40:
+  .99 .99 .99 .75 .78 .62 .49 .42 .37 .33 .29 (from memory; the same values as an open-source R transcription
+  of the table reads them, a function CVRcut_Lawshe found through the project's code search, whose repository
+  the index does not name). Lawshe's values for N >= 10 are not the CVR of a whole number of essential ratings;
+  read as "the fewest essential ratings whose CVR reaches the value", they give the exact binomial rule's count
+  at every N but 9, where .78 is .778 rounded up (see ``test_lawshe_table``).
+* A search of the project's page, code and documentation corpora (Dec 2026) found Ayre & Scally (2014) itself
+  (title, abstract) but not the text of its table; the values below stay marked "from memory".
 * Wilson, Pan & Schumsky (2012), same journal 45, 197-210, normal approximation z/√N: 0.456 for N = 13
   at one-tailed alpha 0.05, as quoted from their table by later users of it (bio-protocol r8758338);
   scipy.stats.norm for the quantile otherwise.
@@ -33,6 +41,36 @@ def test_exact_critical_values(panel, n_critical, cvr):
     assert got == pytest.approx((n_critical - panel / 2) / (panel / 2), rel=1e-15)
     # scipy.stats.binom: n_critical is the smallest count with P(X >= count) <= 0.05
     assert stats.binom.sf(n_critical - 1, panel, 0.5) <= 0.05 < stats.binom.sf(n_critical - 2, panel, 0.5)
+
+
+# Lawshe (1975), Table 1 (from memory, and as an R transcription of the table reads it): N, minimum CVR
+LAWSHE = [(5, 0.99), (6, 0.99), (7, 0.99), (8, 0.75), (9, 0.78), (10, 0.62), (15, 0.49), (20, 0.42), (25, 0.37),
+          (30, 0.33), (40, 0.29)]
+
+
+def _fewest(panel, cvr):
+    """The fewest essential ratings whose CVR reaches ``cvr`` (hand-checkable: CVR = (k − N/2)/(N/2))."""
+    return next(k for k in range(panel + 1) if (k - panel / 2) / (panel / 2) >= cvr - 1e-12)
+
+
+@pytest.mark.parametrize("panel, printed", LAWSHE)
+def test_lawshe_table(panel, printed):
+    # How Lawshe's table differs from CVR_CRITICAL (the exact rule of Ayre & Scally 2014), and why:
+    exact = call("CVR_CRITICAL", panel)
+    k_exact = _fewest(panel, exact)
+    assert stats.binom.sf(k_exact - 1, panel, 0.5) <= 0.05 < stats.binom.sf(k_exact - 2, panel, 0.5)  # scipy
+    if panel <= 7:
+        # .99 stands for 1: every expert must say essential, as the exact rule asks (k = N)
+        assert exact == 1.0 and k_exact == panel and _fewest(panel, printed) == panel
+    elif panel == 9:
+        # .78 is .778 = (8 − 4.5)/4.5 rounded up: read literally it asks for 9 experts, the exact rule for 8
+        assert exact == pytest.approx(0.778, abs=0.0005) and _fewest(panel, printed) == 9 and k_exact == 8
+    else:
+        # the same count of essential ratings; Lawshe's value lies between the CVR of one fewer and that count
+        # (for N >= 10 it is not itself a CVR a panel can reach), so the printed value is lower than CVR_CRITICAL
+        assert _fewest(panel, printed) == k_exact
+        assert (k_exact - 1 - panel / 2) / (panel / 2) < printed <= exact
+        assert printed < exact or panel == 8
 
 
 @pytest.mark.parametrize("panel", [5, 9, 17, 60, 150])

@@ -6,6 +6,14 @@ No printed worked example with its data could be retrieved for any of them, so t
 constructed cases whose answer follows from the definition by hand (said so beside each), numpy
 (median, means) as a reference library, and for the crossing methods an independent brute-force
 search over a fine grid of candidate cuts.
+
+A search of the project's page and code corpora (Dec 2026) for openly published numerical worked examples of
+Nedelsky, Ebel, Hofstee and Beuk found none with their data. It found Mills & Melican (1987), "A preliminary
+investigation of three compromise methods for establishing cut-off scores", ETS Research Report RR-87-14
+(ERIC ED 283 842), whose abstract describes the two compromise constructions tested here: Hofstee's line
+through (maximum cut, minimum failure rate) and (minimum cut, maximum failure rate), and Beuk's line through
+the judges' mean cut and mean pass rate with its slope set by the ratio of the two standard deviations. The
+values asserted stay constructed, hand-checkable cases.
 """
 
 import numpy as np

@@ -169,9 +169,14 @@ def test_sliding_band_floor(study, stats_of):
     second = np.unique(s["scores"])[-2]
     assert value(study, "band_floor_2") == pytest.approx(second - z * s["sd"] * math.sqrt(2 * (1 - s["rel"])),
                                                          rel=1e-12)
-    _, wb, _ = study
-    text = " ".join(str(c.value) for row in wb["Cut score"].iter_rows(max_col=1) for c in row if c.value)
-    assert "section 106" in text and "not a neutral one" in text
+    result, wb, _ = study
+    # the sliding band is on Bands, beside the applicants' rows, with its caution; Cut score points there
+    assert result.cells["band_floor_1"][0] == "Bands"
+    text = " ".join(str(c.value) for row in wb["Bands"].iter_rows(min_row=1, max_row=40, min_col=12) for c in row
+                    if isinstance(c.value, str))
+    assert "section 106" in text and "not a neutral one" in text and "Fixed bands" in text
+    cut_text = " ".join(str(c.value) for row in wb["Cut score"].iter_rows(max_col=1) for c in row if c.value)
+    assert "section 106" not in cut_text and "is on the Bands sheet" in cut_text
 
 
 def _blocks(rows):
@@ -367,7 +372,7 @@ def test_libreoffice_shows_and_recomputes_the_new_sheets(study, tmp_path, soffic
     from trueband.funcs.registry import normalize_name
 
     result, values, formulas = study
-    sheets = ("Cut score", "Standard setting", "Content")
+    sheets = ("Cut score", "Standard setting", "Content", "Bands")  # Bands: the sliding band beside the rows
     convert(soffice, result.path, CSV_FILTER, tmp_path / "csv", tmp_path / "profile")
     checked, mismatches = mismatched_cells(result, tmp_path, sheets)
     assert checked > 300 and not mismatches, mismatches[:10]
@@ -403,7 +408,11 @@ def test_libreoffice_shows_and_recomputes_the_new_sheets(study, tmp_path, soffic
             for c in range(c0, c1 + 1):
                 yield sheet, f"{get_column_letter(c)}{r}"
 
-    recomputed, wrong = {}, []
+    recomputed, wrong, recomputed_cells = {}, [], set()
+    floor_col = result.cells["band_floor_1"][1].rstrip("0123456789")
+    top_col = get_column_letter(range_boundaries(floor_col + "1")[0] - 1)
+    tops = {f"{top_col}{r}" for r in range(1, 60) if isinstance(formulas["Bands"][f"{top_col}{r}"].value, str)
+            and formulas["Bands"][f"{top_col}{r}"].value.startswith("=")}
     for sheet in sheets:
         rows = read_csv(folder, sheet)
         for row in formulas[sheet].iter_rows():
@@ -415,11 +424,15 @@ def test_libreoffice_shows_and_recomputes_the_new_sheets(study, tmp_path, soffic
                 if uses_ours(sheet, cell.coordinate):
                     continue  # a trueband function, or a cell that depends on one: Calc has no add-in here
                 recomputed[sheet] = recomputed.get(sheet, 0) + 1
+                recomputed_cells.add((sheet, cell.coordinate))
                 if not same(values[sheet][cell.coordinate].value, theirs):
                     wrong.append((sheet, cell.coordinate, text[:60], values[sheet][cell.coordinate].value, theirs))
     assert not wrong, wrong[:10]
     # Content: panel and essential counts of 40 items, and the summary counts; Cut score: the sliding band
-    assert recomputed.get("Content", 0) >= 80 and recomputed.get("Cut score", 0) >= 10, recomputed
+    assert recomputed.get("Content", 0) >= 80 and recomputed.get("Cut score", 0) >= 5, recomputed
+    # the sliding band's top scores (MAX, then LARGE/COUNTIF) recomputed by Calc on the Bands sheet
+    side = [k for k in recomputed_cells if k[0] == "Bands" and k[1] in tops]
+    assert len(side) == len(tops) >= 2, (side, tops)
 
 
 def test_a_consensus_method_and_a_yes_no_panel(tmp_path):
@@ -438,5 +451,7 @@ def test_a_consensus_method_and_a_yes_no_panel(tmp_path):
     assert value(study, "adjusted_cut") == pytest.approx(value(study, "method_cut") - 0.5 * value(study, "sem"))
     texts = [c.value for row in wb["Standard setting"].iter_rows() for c in row if isinstance(c.value, str)]
     assert "not recorded on the judges' sheet for this method (a consensus grid)" in texts
+    # k is the yellow input cell (0.5 here); the text beside it names no value that would go stale when it is edited
+    assert not [t for t in texts if "k = 0.5" in t] and any(t.startswith("Why lower the cut by k SEM") for t in texts)
     assert "Angoff cut (yes/no judgments)" in texts
     assert value(study, "angoff_cut") == pytest.approx((2 + 3 + 2) / 3, rel=1e-12)  # mean of the judges' sums

@@ -74,6 +74,7 @@ import numpy as np
 
 from . import setup_predictors
 from .setup_answers import ANSWER_SETTINGS
+from .setup_cells import cell_text
 from .setup_cut import CUT_SETTINGS
 
 __all__ = ["SetupError", "StudySetup", "StudyData", "SETTINGS", "normalise_key", "cell_text", "read_setup_sheet",
@@ -266,16 +267,6 @@ class StudyData:
 
 
 # ---------------------------------------------------------------- the Setup sheet
-
-def cell_text(value) -> str | None:
-    """A cell as the text it shows, trimmed (2.0 is "2"); None for a blank."""
-    if value is None:
-        return None
-    if isinstance(value, float) and value.is_integer():
-        value = int(value)
-    text = str(value).strip()
-    return text or None
-
 
 
 def read_setup_sheet(wb) -> tuple[dict[str, Any], dict[str, str]]:

@@ -16,6 +16,8 @@ import dataclasses
 import numpy as np
 from openpyxl.utils import get_column_letter
 
+from .setup_cells import cell_text
+
 __all__ = ["ANSWER_SETTINGS", "ANSWERS_SHEET", "AnswerKey", "answer_text", "read_answer_key", "score_rows"]
 
 #: setting -> (field name, kind, what it means), merged into :data:`.setup.SETTINGS`.
@@ -31,12 +33,10 @@ ANSWERS_SHEET = "Answers"
 
 def answer_text(value) -> str | None:
     """An answer or option as it is compared: trimmed text in capitals; a whole number without ".0"; None blank."""
-    if value is None or isinstance(value, bool):
-        return None if value is None else ("TRUE" if value else "FALSE")
-    if isinstance(value, float) and value.is_integer():
-        value = int(value)
-    text = str(value).strip().upper()
-    return text or None
+    if isinstance(value, bool):
+        return "TRUE" if value else "FALSE"
+    text = cell_text(value)
+    return None if text is None else text.upper()
 
 
 @dataclasses.dataclass(frozen=True)

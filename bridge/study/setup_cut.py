@@ -30,6 +30,8 @@ import numbers
 
 from openpyxl.utils import get_column_letter
 
+from .setup_cells import cell_text
+
 __all__ = ["CUT_SETTINGS", "METHODS", "BLOCKS", "RATINGS", "Block", "Judgments", "ContentRatings",
            "read_cut_inputs", "method_key"]
 
@@ -122,15 +124,6 @@ class ContentRatings:
     ratings: tuple[tuple, ...]
 
 
-def _text(value) -> str | None:
-    if value is None:
-        return None
-    if isinstance(value, float) and value.is_integer():
-        value = int(value)
-    text = str(value).strip()
-    return text or None
-
-
 def _find_sheet(wb, name: str, setting: str, error) -> str:
     match = next((n for n in wb.sheetnames if n.strip().lower() == name.strip().lower()), None)
     if match is None:
@@ -156,7 +149,7 @@ def _blocks(rows: list[list], sheet: str, error) -> dict:
     """The blocks of the judges' sheet: a title in column A, its header on the next row, rows to the first blank."""
     blocks, r = {}, 0
     while r < len(rows):
-        title = _text(rows[r][0]) if rows[r] else None
+        title = cell_text(rows[r][0]) if rows[r] else None
         key = " ".join(title.lower().split()) if title else None
         if key not in BLOCKS:
             r += 1
@@ -164,17 +157,17 @@ def _blocks(rows: list[list], sheet: str, error) -> dict:
         if key in blocks:
             raise error(f"sheet '{sheet}', cell A{r + 1}: a second {title!r} block; each block appears once")
         header_row = rows[r + 1] if r + 1 < len(rows) else []
-        header = [_text(h) for h in header_row]
+        header = [cell_text(h) for h in header_row]
         while header and header[-1] is None:
             header.pop()
         first = r + 2
         end = first
-        while end < len(rows) and any(_text(x) is not None for x in rows[end]):
+        while end < len(rows) and any(cell_text(x) is not None for x in rows[end]):
             end += 1
         labels, values = [], []
         for i in range(first, end):
             row = list(rows[i]) + [None] * len(header)
-            labels.append(_text(row[0]) or f"row {i + 1}")
+            labels.append(cell_text(row[0]) or f"row {i + 1}")
             yes_no = key == "candidate judgments"
             if yes_no:  # the applicant id stays as written
                 labels[-1] = row[0] if row[0] is not None else labels[-1]
@@ -192,19 +185,19 @@ def _blocks(rows: list[list], sheet: str, error) -> dict:
 def _ratings(rows: list[list], sheet: str, problems: list[str]) -> ContentRatings | None:
     if not rows:
         return None
-    header = [_text(h) for h in rows[0]]
+    header = [cell_text(h) for h in rows[0]]
     while header and header[-1] is None:
         header.pop()
     experts = tuple(h or f"Expert {j}" for j, h in enumerate(header[1:], start=1))
     items, ratings = [], []
     for r, row in enumerate(rows[1:], start=2):
         row = list(row) + [None] * len(header)
-        if not any(_text(x) is not None for x in row[:len(header)]):
+        if not any(cell_text(x) is not None for x in row[:len(header)]):
             continue
-        items.append(_text(row[0]) or f"row {r}")
+        items.append(cell_text(row[0]) or f"row {r}")
         out = []
         for c in range(1, len(header)):
-            text = _text(row[c])
+            text = cell_text(row[c])
             key = _RATING_WORDS.get(" ".join(text.lower().split())) if text else None
             if text is not None and key is None:
                 problems.append(f"sheet '{sheet}', cell {get_column_letter(c + 1)}{r}: {row[c]!r} is not a rating "

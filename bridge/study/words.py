@@ -216,3 +216,16 @@ RETEST_RULE = (
     "toward the mean at the second sitting even with no practice (Campbell & Kenny 1999), and their narrow range "
     "lowers the correlation.")
 __all__ += ["RETEST_SELECTED", "RETEST_RULE"]
+# ---------------------------------------------------------------- the Bands sheet (issue 19: bands, sliding band)
+
+#: Beside the Bands rows, above the sliding band.
+BANDS_SIDE_NOTE = (
+    "Fixed bands (column Band): scores within one band width of a band's top score are treated alike. Sliding "
+    "band: the band starts at the highest score still in contention and its floor (BAND_FLOOR) is that score "
+    "minus the band width; when everyone at the top score has been chosen, the band slides down to the next "
+    "score. The band width is the confidence level's z × SD × √(2(1 − reliability)), the standard error of a "
+    "difference between two scores.")
+#: On the Cut score sheet, where the sliding band was: where it is now.
+SLIDING_BAND_ON_BANDS = ("The sliding band from the top score, with its caution, is on the Bands sheet, beside the "
+                         "applicants' bands.")
+__all__ += ["BANDS_SIDE_NOTE", "SLIDING_BAND_ON_BANDS"]

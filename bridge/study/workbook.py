@@ -31,16 +31,18 @@ ANALYSIS_SHEETS = ANALYSIS_SHEETS[:-1] + _OPTIONAL + ANALYSIS_SHEETS[-1:]
 # Strata, Cuts, Stages, Groups, Combined, Fairness, DIF and the optional ones: when the study has them
 
 
-def _bands_header(wb: Workbook, bands: Bands, title: str = BANDS_SHEET) -> None:
+def _bands_header(wb: Workbook, bands: Bands, title: str = BANDS_SHEET) -> bands_sheet.BandStyles:
     ws = wb.create_sheet(title)
-    for c, w in enumerate(bands_sheet.WIDTHS, start=1):
+    for c, w in enumerate(bands.widths(), start=1):
         ws.column_dimensions[get_column_letter(c)].width = w
+    ws.row_dimensions[1].height = bands.header_height()  # the wrapped headers whole
     ws.freeze_panes = "A2"
     ws.print_title_rows = "1:1"
     ws.page_setup.fitToWidth = 1
     ws.page_setup.fitToHeight = 0
     ws.sheet_properties.pageSetUpPr.fitToPage = True
     ws.append([styled(ws, h, "header") for h in bands.layout.header])
+    return bands.styles(ws)
 
 
 def save(ctx: StudyContext, setup: SetupSheet, bands: Bands, path: Path) -> None:
@@ -49,7 +51,7 @@ def save(ctx: StudyContext, setup: SetupSheet, bands: Bands, path: Path) -> None
     wb = Workbook(write_only=True)
     for title in ANALYSIS_SHEETS:
         if title == BANDS_SHEET:
-            _bands_header(wb, bands)
+            band_styles = _bands_header(wb, bands)
         elif title in ctx.grids:  # not every study has every sheet (Strata without a stratum column, ...)
             ctx.grids[title].write(wb)
     more_rows, more_corners = workbook_predictors.write_headers(wb, ctx, _bands_header)
@@ -65,9 +67,9 @@ def save(ctx: StudyContext, setup: SetupSheet, bands: Bands, path: Path) -> None
     copy_styles = data_copy.write_header(wb, d)
     wb.save(path)
     last = d.n + 1
-    rows = {BANDS_SHEET: lambda: long_sheets.rows_xml(bands.rows(d), 2, formulas=True),
+    rows = {BANDS_SHEET: lambda: long_sheets.rows_xml(bands.rows(d), 2, formulas=True, styles=band_styles),
             d.sheet: lambda: long_sheets.rows_xml(d.rows, 2, formulas=False, styles=copy_styles)}
-    corners = {BANDS_SHEET: f"{get_column_letter(len(bands.layout.header))}{last}",
+    corners = {BANDS_SHEET: f"{get_column_letter(bands.width)}{bands.last_row}",
                d.sheet: f"{get_column_letter(max(1, len(d.header)))}{last}"}
     if d.answer_key is not None:
         rows[scored_items.ANSWERS_SHEET] = lambda: long_sheets.rows_xml(scored_items.answers_rows(d), 2, formulas=True)

@@ -32,9 +32,10 @@ def write_headers(wb, ctx: StudyContext, bands_header) -> tuple[dict, dict]:
             if title in ctx.grids:
                 ctx.grids[title].write(wb)
         title = p.title(BANDS_SHEET)
-        bands_header(wb, p.bands, title)
-        rows[title] = (lambda p=p: long_sheets.rows_xml(p.long_rows()(), 2, formulas=True))
-        corners[title] = f"{get_column_letter(len(p.layout.header))}{last}"
+        styles = bands_header(wb, p.bands, title)
+        rows[title] = (lambda p=p, styles=styles: long_sheets.rows_xml(p.long_rows()(), 2, formulas=True,
+                                                                      styles=styles))
+        corners[title] = f"{get_column_letter(p.bands.width)}{p.bands.last_row}"
         if d.reverse_items:
             title = p.title(SCORED_SHEET)
             ws = wb.create_sheet(title)

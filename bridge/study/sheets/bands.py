@@ -1,32 +1,45 @@
-"""Bands: one row per person (score, confidence interval, band, pass/fail at the cut, criterion, group, hired).
+"""Bands: one row per person (score, confidence interval, band, pass/fail at the cut, criterion, group, hired),
+and beside those rows the sliding band from the top score with its caution.
 
 Its layout (which column holds what) is known from the data alone, before any sheet is written, since the
 Setup, Reliability, Validity, Impact and Utility sheets read its columns; its rows are written last, in
-streaming mode (see :mod:`..long_sheets`).
+streaming mode (see :mod:`..long_sheets`). The sliding band is composed like any sheet (a :class:`..grid.Grid`,
+every figure through ``ctx.formula``) and its cells are merged into those rows, right of the per-person columns.
 """
 
 from __future__ import annotations
 
 import dataclasses
 import functools
+import math
 from typing import Any, Iterator, Mapping
 
 import numpy as np
+from openpyxl.cell import WriteOnlyCell
 
 from trueband.funcs import call
 from trueband.funcs.errors import TruebandError, UnknownFunctionError
 
-from ..context import Ref, StudyContext, area, cell, fill_row, formula_text
+from ..context import Ref, StudyContext, area, cell, fill_row, formula_text, sheet_title
 from .. import setup_impact
+from ..grid import STYLES, Grid
 from ..setup import StudyData
-from ..words import NOT_COMPUTABLE
+from ..words import BANDS_SIDE_NOTE, NOT_COMPUTABLE, SLIDING_BAND_CAUTION
 from .scored_items import SCORED_SHEET
 
-__all__ = ["BANDS_SHEET", "BandsLayout", "Bands", "layout", "plan"]
+__all__ = ["BANDS_SHEET", "BandsLayout", "Bands", "layout", "plan", "sliding_band", "SLIDING_STEPS"]
 
 BANDS_SHEET = "Bands"
 #: The column widths of the Bands sheet, from column A.
 WIDTHS = (14, 12, 9, 10, 10, 10, 8, 12, 11, 14)
+#: The width of a further per-person column (group number, hired, interval note, impact columns).
+OTHER_WIDTH = 16
+#: The number format of CI lower and CI upper: two decimals shown, the cell keeps every digit.
+INTERVAL_FORMAT = "0.00"
+#: How many steps of the sliding band are shown.
+SLIDING_STEPS = 5
+#: The widths of the sliding band's columns (step, top score, floor, people), right of a blank column.
+SIDE_WIDTHS = (14, 14, 12, 12)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -120,10 +133,92 @@ class Bands:
     confidence: Ref
     cut: Ref
     item_scale: tuple[Any, Any] | None = None  # the item scale's ends (Setup cells, or the numbers found)
+    side: Grid | None = None        # the sliding band, in sheet rows and columns (right of the header)
 
     def rows(self, data: StudyData) -> Iterator[list[Any]]:
-        """The rows below the header: formulas as text starting with '='."""
-        return _rows(self, data)
+        """The rows below the header: formulas as text starting with '='; the sliding band's cells merged in."""
+        if self.side is None:
+            return _rows(self, data)
+        return _with_side(_rows(self, data), self.side)
+
+    @property
+    def width(self) -> int:
+        """The last column used (the per-person columns, and the sliding band beside them)."""
+        return max([len(self.layout.header)] + [c for _, c in (self.side.cells if self.side else ())])
+
+    @property
+    def last_row(self) -> int:
+        """The last row used (the people's rows, or the sliding band's when it is longer)."""
+        return max([self.layout.last] + [r for r, _ in (self.side.cells if self.side else ())])
+
+    def widths(self) -> list[float]:
+        """The column widths from column A: the per-person columns, then the sliding band's."""
+        n = len(self.layout.header)
+        out = [WIDTHS[c] if c < len(WIDTHS) else OTHER_WIDTH for c in range(n)]
+        if self.layout.note_col is not None:
+            out[self.layout.note_col - 1] = 40
+        if self.side is not None:
+            out += [4, *SIDE_WIDTHS]
+        return out
+
+    def header_height(self) -> float:
+        """The height (points) of the header row that shows every wrapped header whole: apps do not all grow a
+        row to fit wrapped text when they open a file."""
+        widths = self.widths()
+        lines = max(math.ceil(len(h) / max(1.0, widths[c] - 1)) for c, h in enumerate(self.layout.header))
+        return 15.0 * max(1, lines)
+
+    def styles(self, ws) -> "BandStyles":
+        """The style indexes of the spliced rows, registered in ``ws``'s workbook: CI lower and upper at two
+        decimals (the values keep every digit), the sliding band's cells as composed."""
+        ids: dict[str, int] = {}
+
+        def style_id(style: str) -> int:
+            if style not in ids:
+                c = WriteOnlyCell(ws)
+                for attr, val in STYLES[style].items():
+                    setattr(c, attr, val)
+                ids[style] = c.style_id
+            return ids[style]
+
+        interval = WriteOnlyCell(ws)
+        interval.number_format = INTERVAL_FORMAT
+        columns = {4: interval.style_id, 5: interval.style_id} if self.can_band else {}
+        cells = {(r, c - 1): style_id(st) for (r, c), (_, st) in (self.side.cells.items() if self.side else ())
+                 if st is not None}
+        return BandStyles(columns, cells, self.layout.last)
+
+
+class BandStyles(Mapping):
+    """(sheet row, 0-based column) -> style index of the spliced Bands rows: whole columns of the people's rows
+    (the interval limits) and single cells (the sliding band), without a per-cell table for the columns."""
+
+    def __init__(self, columns: Mapping[int, int], cells: Mapping[tuple[int, int], int], last: int):
+        self.columns, self.cells, self.last = columns, cells, last
+
+    def __getitem__(self, key):
+        if key in self.cells:
+            return self.cells[key]
+        r, c = key
+        if 2 <= r <= self.last and c in self.columns:
+            return self.columns[c]
+        raise KeyError(key)
+
+    def __contains__(self, key):
+        return key in self.cells or (2 <= key[0] <= self.last and key[1] in self.columns)
+
+    def __iter__(self):
+        yield from self.cells
+        for r in range(2, self.last + 1):
+            for c in self.columns:
+                if (r, c) not in self.cells:
+                    yield (r, c)
+
+    def __len__(self):
+        return sum(1 for _ in self)
+
+    def __bool__(self):  # the writer asks for every cell: never count the cells for that
+        return bool(self.cells or self.columns)
 
 
 def plan(ctx: StudyContext, layout: BandsLayout, setup, rel) -> Bands:
@@ -150,7 +245,69 @@ def plan(ctx: StudyContext, layout: BandsLayout, setup, rel) -> Bands:
         item_scale = (setup.item_min, setup.item_max) if d.item_scale_given else d.item_scale
         if can_band:
             _note_clipped(ctx, d, rel)
-    return Bands(layout, can_band, rel.sd, rel.reliability, setup.confidence, setup.cut_cell, item_scale)
+    side = None
+    scores = ctx.data.scores[~np.isnan(ctx.data.scores)]
+    if can_band and scores.size:
+        side = Grid(sheet_title(BANDS_SHEET))
+        col = len(layout.header) + 2
+        side.set(2, col, "Sliding band from the top score", "heading")
+        row = 3 + side.para(3, col, BANDS_SIDE_NOTE, width=60)
+        row = sliding_band(ctx, side, row, col, layout.scores, rel.sd, rel.reliability, setup.confidence, scores)
+        side.para(row + 1, col, SLIDING_BAND_CAUTION, "caution", width=60)
+    return Bands(layout, can_band, rel.sd, rel.reliability, setup.confidence, setup.cut_cell, item_scale, side)
+
+
+def sliding_band(ctx: StudyContext, g: Grid, row: int, col: int, scores_ref: Ref, sd: Ref, reliability: Ref,
+                 confidence: Ref, scores: np.ndarray) -> int:
+    """The first steps of a sliding band from the top score down (BAND_FLOOR) at (row, col) of ``g``: a header
+    row, then one row per step; returns the next free row. ``scores`` are the scores as built (for the checks)."""
+    for k, h in enumerate(("Step (all at the previous top chosen)", "Top score still in contention",
+                           "Band floor", "People in the band")):
+        g.set(row, col + k, h, "header")
+    distinct = np.unique(scores)[::-1]
+    top: Ref | None = None
+    steps = min(SLIDING_STEPS, distinct.size)
+    for step in range(1, steps + 1):
+        r = row + step
+        g.set(r, col, step, "count")
+        value = float(distinct[step - 1])
+        if top is None:
+            top = ctx.formula(g, r, col + 1, "MAX", scores_ref, check=lambda v=value: v, style="score")
+        else:
+            top = ctx.expression(g, r, col + 1, 'LARGE({scores},COUNTIF({scores},">="&{top})+1)',
+                                 lambda v=value: v, style="score", scores=scores_ref, top=top)
+        floor = ctx.formula(g, r, col + 2, "BAND_FLOOR", top, sd, reliability, confidence, style="score",
+                            key=f"band_floor_{step}")
+        if isinstance(floor.value, float):
+            inside = int(((scores >= floor.value) & (scores <= value)).sum())
+            ctx.expression(g, r, col + 3, 'COUNTIFS({scores},">="&{floor},{scores},"<="&{top})', lambda n=inside: n,
+                           style="count", scores=scores_ref, floor=floor, top=top)
+        else:
+            ctx.not_computable_at(g, r, col + 3, "the band floor is not computable")
+    return row + steps + 1
+
+
+def _with_side(rows: Iterator[list[Any]], side: Grid) -> Iterator[list[Any]]:
+    """``rows`` (sheet rows from 2) with the cells of ``side`` put in their columns; rows added below the
+    people's rows while the side block goes on."""
+    by_row: dict[int, dict[int, Any]] = {}
+    for (r, c), (v, _) in side.cells.items():
+        by_row.setdefault(r, {})[c] = v
+    last = max(by_row)
+    r = 1
+    for r, row in enumerate(rows, start=2):
+        yield _put_side(row, by_row.get(r))
+    for r in range(r + 1, last + 1):
+        yield _put_side([], by_row.get(r))
+
+
+def _put_side(row: list[Any], here: dict[int, Any] | None) -> list[Any]:
+    if not here:
+        return row
+    row = list(row) + [None] * (max(here) - len(row))
+    for c, v in here.items():
+        row[c - 1] = v
+    return row
 
 
 def _note_clipped(ctx: StudyContext, d: StudyData, rel) -> None:

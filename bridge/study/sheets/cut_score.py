@@ -1,4 +1,5 @@
-"""Cut score: measurement error and decision accuracy at the cut, the pass rate by group, and the sliding band.
+"""Cut score: measurement error and decision accuracy at the cut, and the pass rate by group (the sliding band is
+on the Bands sheet, :func:`.bands.sliding_band`).
 
 Written when the Setup names a cut score (the median cut the study falls back on is no one's decision).
 """
@@ -12,7 +13,7 @@ import numpy as np
 from trueband.funcs.errors import InsufficientDataError
 
 from ..context import Expr, Ref, StudyContext, area
-from ..words import CUT_SCORE_CAUTION, MODELS_NOTE, SLIDING_BAND_CAUTION
+from ..words import CUT_SCORE_CAUTION, MODELS_NOTE, SLIDING_BAND_ON_BANDS
 from .impact import Impact
 from .reliability import Reliability
 from .setup import SetupSheet
@@ -22,16 +23,14 @@ __all__ = ["CutScore", "SHEET", "FUNCTIONS", "write"]
 SHEET = "Cut score"
 #: The registered functions this sheet uses, for Notes.
 FUNCTIONS = ("CSEM_BINOMIAL", "KR21", "DECISION_CONSISTENCY_BB", "CLASSIFICATION_ACCURACY_BB",
-             "DECISION_CONSISTENCY", "CLASSIFICATION_ACCURACY", "BAND_FLOOR")
+             "DECISION_CONSISTENCY", "CLASSIFICATION_ACCURACY")
 #: How the sheet computes, for Notes.
 CONVENTIONS = (
     "Cut score sheet: a candidate passes at or above the cut. Beta-binomial model: the SD with denominator n, the "
     "cut rounded up to a whole number of items, a true score passing at or above that cut as a proportion of the "
     "items (Hanson & Brennan 1990). Normal model: the SD with denominator n − 1 and, for whole-number scores, a "
-    "pass at the cut − 0.5. The sliding band uses the reliability and confidence of the Reliability and Setup "
-    "sheets.",)
-#: How many steps of the sliding band the sheet shows.
-SLIDING_STEPS = 5
+    "pass at the cut − 0.5. The sliding band (Bands sheet) uses the reliability and confidence of the Reliability "
+    "and Setup sheets.",)
 
 _NOT_NUMBER_CORRECT = ("the beta-binomial model and Lord's binomial error need number-correct scores of "
                        "right/wrong (0/1) items")
@@ -102,7 +101,7 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, impact: Impact
     row += 9
     figures, row = _decisions(ctx, g, row, setup, mean, sd, sd_n, reliability, cut, n_items, binary)
     row = _by_group(ctx, g, row, impact)
-    _sliding_band(ctx, g, row + 1, rel, setup, scores)
+    g.para(row + 1, 1, SLIDING_BAND_ON_BANDS)
     return dataclasses.replace(figures, csem=csem)
 
 
@@ -173,31 +172,3 @@ def _by_group(ctx: StudyContext, g, row: int, impact: Impact) -> int:
     row += g.para(row, 1, "Impact ratios, tests and the four-fifths comparison are on the Impact sheet; a pass "
                           "rate that differs by group is a reason to look further, not a finding by itself.")
     return row + 1
-
-
-def _sliding_band(ctx: StudyContext, g, row: int, rel: Reliability, setup: SetupSheet, scores: np.ndarray) -> None:
-    """The first steps of a sliding band from the top score down (BAND_FLOOR), with its caution."""
-    g.set(row, 1, "Sliding band from the top score", "heading")
-    for c, h in ((1, "Step (everyone at the previous top score chosen)"), (2, "Top score still in contention"),
-                 (3, "Band floor"), (4, "People in the band")):
-        g.set(row + 1, c, h, "header")
-    distinct = np.unique(scores)[::-1]
-    top: Ref | None = None
-    for step in range(1, min(SLIDING_STEPS, distinct.size) + 1):
-        r = row + 1 + step
-        g.set(r, 1, step, "count")
-        value = float(distinct[step - 1])
-        if top is None:
-            top = ctx.formula(g, r, 2, "MAX", rel.scores, check=lambda v=value: v, style="score")
-        else:
-            top = ctx.expression(g, r, 2, 'LARGE({scores},COUNTIF({scores},">="&{top})+1)', lambda v=value: v,
-                                 style="score", scores=rel.scores, top=top)
-        floor = ctx.formula(g, r, 3, "BAND_FLOOR", top, rel.sd, rel.reliability, setup.confidence, style="score",
-                            key=f"band_floor_{step}")
-        if isinstance(floor.value, float):
-            inside = int(((scores >= floor.value) & (scores <= value)).sum())
-            ctx.expression(g, r, 4, 'COUNTIFS({scores},">="&{floor},{scores},"<="&{top})', lambda n=inside: n,
-                           style="count", scores=rel.scores, floor=floor, top=top)
-        else:
-            ctx.not_computable_at(g, r, 4, "the band floor is not computable")
-    g.para(row + SLIDING_STEPS + 3, 1, SLIDING_BAND_CAUTION, "caution")

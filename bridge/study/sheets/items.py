@@ -16,21 +16,28 @@ SHEET = "Items"
 FIRST_ROW = 7  # the first item's row
 
 
+#: The flag of an item whose corrected item–total r is negative (issue 19: a mis-keyed item showed only "weak
+#: discrimination"); shown besides that flag.
+NEGATIVE_FLAG = "negative item–total r: check the key"
+
+
 def _flag_formula(ctx: StudyContext, r: int, binary: bool, alpha: Ref) -> str:
-    """Row ``r``'s flag: the first threshold (rows 2 to 5, column F and G) the item's statistics cross."""
+    """Row ``r``'s flags: every threshold (rows 2 to 5, column F and G) the item's statistics cross, joined by
+    "; " (each flag adds "; " and its words; MID drops the first "; "), an empty text when none applies."""
     places = dict(mean=cell(SHEET, r, 2), sd=cell(SHEET, r, 3), total=cell(SHEET, r, 4),
                   deleted=cell(SHEET, r, 5), alpha=alpha.qualified(), weak=cell(SHEET, 2, 6).fixed(),
                   low=cell(SHEET, 3, 6).fixed(), high=cell(SHEET, 4, 6).fixed(), bottom=cell(SHEET, 5, 6).fixed(),
                   top=cell(SHEET, 5, 7).fixed())
-    last_flag = 'IF({deleted}>{alpha},"alpha rises without it","")'
+    flags = [("{total}<{weak}", "weak discrimination"), ("{total}<0", NEGATIVE_FLAG)]
     if binary:
-        template = ('=IF({total}<{weak},"weak discrimination",IF({mean}<{low},"very hard",'
-                    'IF({mean}>{high},"very easy",' + last_flag + ')))')
+        flags += [("{mean}<{low}", "very hard"), ("{mean}>{high}", "very easy")]
     else:
         span = "({top}-{bottom})"
-        template = ('=IF({total}<{weak},"weak discrimination",IF(({mean}-{bottom})/' + span + '<{low},'
-                    '"mean near the bottom of the scale",IF(({top}-{mean})/' + span + '<{low},'
-                    '"mean near the top of the scale",IF({sd}<{high},"little spread",' + last_flag + '))))')
+        flags += [("({mean}-{bottom})/" + span + "<{low}", "mean near the bottom of the scale"),
+                  ("({top}-{mean})/" + span + "<{low}", "mean near the top of the scale"),
+                  ("{sd}<{high}", "little spread")]
+    flags.append(("{deleted}>{alpha}", "alpha rises without it"))
+    template = "=MID(" + "&".join(f'IF({test},"; {words}","")' for test, words in flags) + ",3,400)"
     return ctx.text(template, SHEET, **places)
 
 
@@ -63,7 +70,7 @@ def _thresholds(ctx: StudyContext, g, setup: SetupSheet, binary: bool) -> str:
 
 def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability) -> None:
     g = ctx.sheet(SHEET)
-    g.widths.update({1: 18, 2: 16, 3: 14, 4: 16, 5: 16, 6: 34})
+    g.widths.update({1: 18, 2: 16, 3: 14, 4: 16, 5: 16, 6: 50})  # 50: room for several flags
     d = ctx.data
     g.set(1, 1, "Item analysis", "title")
     if d.items is None:

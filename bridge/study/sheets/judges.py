@@ -103,10 +103,11 @@ def _summary(ctx: StudyContext, g, row: int, j, cuts: dict, rel: Reliability, se
         ctx.not_computable_at(g, row + 6, 2, "no method is named, so there is no method cut to adjust")
     g.set(row + 7, 1, "Chance that a candidate whose true score is at the cut reaches the adjusted cut")
     ctx.formula(g, row + 7, 2, "NORMSDIST", k_cell, check=lambda: _normal_cdf(k), style="pct")
-    g.para(row + 8, 1, f"Why k = {k:g}: under a normal error model a candidate whose true score is exactly at the "
-                       f"method's cut scores at or above the cut − k SEM with the chance shown; lowering the cut "
-                       f"trades fewer false fails for more false passes, and is a policy choice to be stated in the "
-                       f"rationale below (k = 0 leaves the cut as the method gives it).")
+    # no value of k in the text: k is an input cell, and a number typed here would go stale when it is edited
+    g.para(row + 8, 1, "Why lower the cut by k SEM: under a normal error model a candidate whose true score is "
+                       "exactly at the method's cut scores at or above the cut − k SEM with the chance shown; "
+                       "lowering the cut trades fewer false fails for more false passes, and is a policy choice to "
+                       "be stated in the rationale below (k = 0 leaves the cut as the method gives it).")
     g.set(row + 10, 1, "Cut the study uses (from Setup)")
     ctx.link(g, row + 10, 2, setup.cut_cell, style="score")
     g.para(row + 11, 1, RATIONALE_PLACE, "caution")

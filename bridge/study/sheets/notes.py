@@ -31,6 +31,8 @@ FUNCTIONS_USED += ("IMPACT_RATIO_CI", "IMPACT_ODDS_RATIO", "IMPACT_FLIP", "IMPAC
                    "POOLED_ODDS_RATIO", "POOLED_IMPACT_P", "POOLED_EXACT_P", "POOLED_HOMOGENEITY_P", "COHENS_D_CI")
 #: The restricted group's reliability, the retest gain and the live criterion list (issue 20).
 FUNCTIONS_USED += ("ALPHA_AMONG", "RESTRICTED_RELIABILITY", "RETEST_GAIN", "RETEST_SELECTION", "NTH_NUMBER_ROW")
+#: The sliding band beside the Bands rows.
+FUNCTIONS_USED += ("BAND_FLOOR",)
 
 CONVENTIONS = (
     "A person's score is the sum of their item scores (a blank item counts 0); a person with no item "
