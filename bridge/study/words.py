@@ -65,6 +65,14 @@ STAGES_CAUTION = (
     "An acceptable bottom line does not excuse a stage with adverse impact: each component of a selection "
     "process is examined on its own (Connecticut v. Teal, 457 U.S. 440 (1982); 29 CFR 1607.4(C)).")
 
+#: The reference group is one live choice: the Impact sheet's cell, read by every other impact sheet.
+LIVE_REFERENCE_WORDS = (
+    "The reference group of each demographic column is the one in the Impact sheet's 'Reference group' cell "
+    "(by default the group with the highest selection rate at the cut when the study was built). Edit that cell "
+    "and recalculate: the Impact, Strata, Cuts, Stages and Groups sheets and the Summary all compare with the "
+    "group named there.")
+__all__ += ["LIVE_REFERENCE_WORDS"]
+
 # ---------------------------------------------------------------- fairness, item bias and combined predictors
 
 __all__ += ["FAIRNESS_CAUTION", "FAIRNESS_READING", "DIF_CAUTION", "DIF_SIZES", "COMBINED_CAUTION"]

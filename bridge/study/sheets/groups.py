@@ -11,11 +11,11 @@ import dataclasses
 
 import numpy as np
 
-from ..context import Ref, StudyContext
+from ..context import Expr, Ref, StudyContext, area, cell
 from ..words import CAUTION
 from ..setup_impact import MAX_GROUP_SCORE_CELLS
 from .bands import BandsLayout
-from .impact import Impact
+from .impact import SHEET as IMPACT_SHEET, Impact, unless_reference
 from .setup import SetupSheet
 
 __all__ = ["Groups", "write", "SHEET"]
@@ -52,7 +52,9 @@ def write(ctx: StudyContext, setup: SetupSheet, impact: Impact, bands: BandsLayo
     first_d = None
     for k, t in enumerate(impact.tables):
         k_index = next(i for i, demo in enumerate(d.impact.demographics) if demo is t.demographic)
-        g.set(row, 1, f"{t.demographic.header} (reference group: {t.reference})", "heading")
+        g.set(row, 1, f"{t.demographic.header}", "heading")
+        g.set(row, 2, "Reference group (the Impact sheet's cell)")
+        ctx.link(g, row, 5, t.reference_cell)
         for c, h in enumerate(_HEAD if d.criterion is not None else _HEAD[:7], start=1):
             g.set(row + 1, c, h, "header")
         first = row + 2
@@ -79,10 +81,7 @@ def _counts_only(ctx, g, r: int, t, name: str, bands: BandsLayout) -> None:
               f"add more than {MAX_GROUP_SCORE_CELLS:,} formula cells to the recalculation; study a sample of the rows "
               f"for this figure")
     for c in range(4, 8 if ctx.data.criterion is None else 14):
-        if c == 5 and name == t.reference:
-            g.set(r, c, "reference group")
-        elif c == 4 or c >= 8 or name != t.reference:
-            ctx.not_computable_at(g, r, c, reason)
+        ctx.not_computable_at(g, r, c, reason)
 
 
 def _values(ctx: StudyContext, t, name: str, x: np.ndarray) -> list[float]:
@@ -105,16 +104,18 @@ def _group_row(ctx, g, r: int, t, k: int, name: str, bands: BandsLayout, setup: 
         ctx.expression(g, r, c0 + 1, "AVERAGE({x})", _stat(mine, np.mean, 1), style="coef", x=here)
         ctx.expression(g, r, c0 + 2, "STDEV({x})", _stat(mine, lambda v: np.std(v, ddof=1), 2), style="coef",
                        x=here)
-        if name == t.reference:
-            g.set(r, c0 + 3, "reference group")
-            continue
-        theirs = _values(ctx, t, t.reference, x)
-        ref = bands.column(bands.extra[f"{what}:{k}:{t.reference}"]).with_value(theirs, f"the {what}s of "
-                                                                                          f"{t.reference}")
+        # the reference group's column of Bands, chosen by the name in the Impact sheet's cell
+        columns = ",".join(bands.column(bands.extra[f"{what}:{k}:{n}"]).address(SHEET) for n in t.names)
+        ref = Expr(ctx.text("CHOOSE(MATCH({reference},{names},0),", SHEET, reference=t.reference_cell,
+                            names=area(IMPACT_SHEET, 1, t.first, 1, t.last)) + columns + ")",
+                   _values(ctx, t, t.reference, x), f"the {what}s of {t.reference}")
         for j, part in enumerate(("estimate", "lower", "upper")):
-            written = ctx.formula(g, r, c0 + 3 + j, "COHENS_D_CI", here, ref, part, setup.confidence, style="coef",
-                                  key=f"{t.demographic.header}:d_{what}_{part}_{name}")
-            if what == "score" and part == "estimate":
+            written = unless_reference(ctx, g, r, c0 + 3 + j, "COHENS_D_CI", here, ref, part, setup.confidence,
+                                       group=cell(SHEET, r, 1).local(), reference=t.reference_cell,
+                                       is_reference=name == t.reference,
+                                       label="reference group" if part == "estimate" else "", style="coef",
+                                       key=f"{t.demographic.header}:d_{what}_{part}_{name}")
+            if what == "score" and part == "estimate" and name != t.reference:
                 result = written
     return result
 

@@ -10,6 +10,7 @@ from typing import Mapping
 import numpy as np
 from openpyxl.utils import get_column_letter
 
+from trueband.funcs import call
 from trueband.funcs.impact import tally_groups
 
 from .. import charts
@@ -52,6 +53,9 @@ class ImpactTable:
     last: int
     key_prefix: str                 # "" for the first column, else "<column>:"
     rates: Mapping[str, Ref] = dataclasses.field(default_factory=dict)   # group -> its selection-rate cell
+    #: the reference group's input cell (its value: the group at build time); the other sheets read the
+    #: reference group through it, so an edit there reaches them on recalculation
+    reference_cell: Ref | None = None
 
 
 @dataclasses.dataclass(frozen=True)
@@ -159,19 +163,22 @@ def _table(ctx: StudyContext, g, row: int, demo: Demographic, numbers: Ref, sele
                                 style="count", groups=numbers, number=number, selected=selected_flags)
         rates[name] = ctx.formula(g, r, 4, "SELECTION_RATE", chosen, applicants, style="coef", key=f"{prefix}rate_{name}")
         g.set(r, 10, ctx.text("=0.8*MAX({rates})", SHEET, rates=area(SHEET, 4, first, 4, last).fixed()), "coef")
-        if name == reference:
-            g.set(r, 5, "reference group")
-            continue
         four = (chosen, applicants, ref_sel, ref_app)
         for c, function, extra, style in _FIGURES:
-            written = ctx.formula(
-                g, r, c, function, *four, *extra(setup),
+            # every row has the same formulas: the row of the reference group (the one named in the reference
+            # cell now, not when the study was built) shows that it is the reference instead of figures
+            written = unless_reference(
+                ctx, g, r, c, function, *four, *extra(setup), group=cell(SHEET, r, 1).local(),
+                reference=places["name"], is_reference=name == reference,
+                label="reference group" if c == 5 else "",
                 # Fisher's p and the small-numbers flag are defined when nobody passes; the rest are not
                 before=None if function in ("IMPACT_FISHER", "IMPACT_SMALL_NUMBERS") else setup.passes,
                 # shown as yes/no: spreadsheet apps show a stored TRUE/FALSE of a function they do not
                 # know as an error, while stored text shows as it is
                 wrap='IF({},"yes","no")' if function in ("FOUR_FIFTHS", "IMPACT_SMALL_NUMBERS") else "{}",
                 style=style, key=_key(prefix, function, extra(setup), name))
+            if name == reference:
+                continue
             if function == "IMPACT_RATIO":
                 ratios[name] = written
             elif function == "FOUR_FIFTHS":
@@ -180,7 +187,26 @@ def _table(ctx: StudyContext, g, row: int, demo: Demographic, numbers: Ref, sele
     if n_below is not None:
         n_below = n_below.with_value(sum(1 for f in flags.values() if f.value is True))
     return ImpactTable(demo, numbers, reference, tuple(groups), counts, ratios, min_ratio, n_below, row, first,
-                       last, prefix, rates)
+                       last, prefix, rates, cell(SHEET, row - 1, 3, value=reference, name="the reference group"))
+
+
+def unless_reference(ctx: StudyContext, g, r: int, c: int, function: str, *args, group: Ref, reference: Ref,
+                     is_reference: bool, label: str, before=None, wrap: str = "{}", style: str | None = None,
+                     key: str | None = None) -> Ref:
+    """Write ``=IF(group=reference,"label",<wrap of function(args)>)``: one formula shape for every group's row,
+    so that editing the reference group on Impact moves the label and the figures with it. ``is_reference``
+    says whether the row is the reference group's at build time (its check is the label)."""
+    text = ("=" + ctx.text('IF({group}={reference},"' + label + '",', g.title, group=group, reference=reference)
+            + wrap.format(ctx.call_text(function, args, g.title)) + ")")
+    if is_reference:
+        check = (lambda: label)
+    else:
+        def check():
+            if before is not None:
+                before()
+            return call(function, *(ctx.value(a) for a in args))
+    # the build-time reference row is not named (its figures are the label until the reference changes)
+    return ctx.put(g, r, c, text, check, style=style, key=None if is_reference else key)
 
 
 def _key(prefix: str, function: str, extra: tuple, name: str) -> str:
