@@ -73,23 +73,36 @@ def test_the_edited_workbook_recalculates_cleanly(edited):
     assert report.ok, [tuple(e) for e in report.errors][:5]
 
 
+def impact_row(wb, column, group):
+    """The Impact table row of ``group`` in ``column``'s table, as {header: value}."""
+    rows = sheet_rows(wb, "Impact")
+    at = find_row(rows, f"Demographic column: {column}")
+    head = find_row(rows, "Group", start=at)
+    row = rows[find_row(rows, group, start=head)]
+    return dict(zip(rows[head], row))
+
+
 def test_impact_tables_compare_with_the_new_reference(edited):
     _, _, wb, df = edited
-    for column, prefix in (("Sex", ""), ("Ethnicity", "Ethnicity:")):
+    for column in ("Sex", "Ethnicity"):
         reference = NEW[column]
         rs, ra = counts(df, column, reference)
-        assert shown(edited, f"{prefix}impact_ratio_{reference}") == "reference group"
+        mine = impact_row(wb, column, reference)
+        assert mine["Impact ratio (rate ÷ reference rate)"] == "reference group"
+        assert mine["Fisher exact p"] is None   # the reference row's other figures are empty text
         for focal in sorted(set(df[column]) - {reference}):
             fs, fa = counts(df, column, focal)
-            assert shown(edited, f"{prefix}impact_ratio_{focal}") == pytest.approx((fs / fa) / (rs / ra), rel=1e-12)
+            got = impact_row(wb, column, focal)   # the old reference's row too: it now has figures
+            assert got["Impact ratio (rate ÷ reference rate)"] == pytest.approx((fs / fa) / (rs / ra), rel=1e-12)
             # statsmodels: the log interval of a ratio of two independent proportions
             low, high = sm_proportion.confint_proportions_2indep(fs, fa, rs, ra, method="log", compare="ratio")
-            assert shown(edited, f"{prefix}impact_ratio_ci_lower_{focal}") == pytest.approx(low, rel=1e-9)
-            assert shown(edited, f"{prefix}impact_ratio_ci_upper_{focal}") == pytest.approx(high, rel=1e-9)
-            assert shown(edited, f"{prefix}impact_fisher_{focal}") == pytest.approx(
+            assert got["Impact ratio, lower limit"] == pytest.approx(low, rel=1e-9)
+            assert got["Impact ratio, upper limit"] == pytest.approx(high, rel=1e-9)
+            assert got["Fisher exact p"] == pytest.approx(
                 stats.fisher_exact([[fs, fa - fs], [rs, ra - rs]]).pvalue, rel=1e-9)   # scipy
             z = sm_proportion.proportions_ztest([rs, fs], [ra, fa])[0]   # statsmodels, pooled
-            assert shown(edited, f"{prefix}impact_z_{focal}") == pytest.approx(z, rel=1e-9)
+            assert got["z: gap in standard deviations"] == pytest.approx(z, rel=1e-9)
+            assert got["Below four-fifths?"] == ("yes" if (fs / fa) / (rs / ra) < 0.8 else "no")
 
 
 def test_the_summary_names_the_lowest_ratio_with_the_new_references(edited):
@@ -215,3 +228,17 @@ def test_libreoffice_recomputes_the_edited_workbook_to_the_same_values(tmp_path,
     assert not mismatches, mismatches[:10]
     for sheet in ("Impact", "Strata", "Cuts", "Stages", "Groups"):
         assert checked.get(sheet, 0) >= 10, (sheet, checked)
+
+
+def test_a_reference_that_is_no_group_is_said_beside_the_cell(tmp_path):
+    header, rows = table(n=120)
+    result = make_study(write_book(tmp_path / "d.xlsx", header, rows, SETUP), tmp_path / "study.xlsx")
+    wb = load_workbook(result.path, data_only=True)
+    text = " ".join(str(c) for r in wb["Notes"].iter_rows(values_only=True) for c in r if c is not None)
+    assert "Edit that cell and recalculate" in text   # Notes says the reference group is live
+    beside = [r[9] for r in sheet_rows(wb, "Impact") if r[0] == LABEL]
+    assert beside == [None, None]   # empty text while the cells name groups
+    edit_references(result.path, {"Sex": "men ", "Ethnicity": "X"})   # not as written in column A
+    wb = load_workbook(result.path, data_only=True)
+    beside = [r[9] for r in sheet_rows(wb, "Impact") if r[0] == LABEL]
+    assert beside[0].startswith("not one of the groups below") and beside[1] in (None, "")

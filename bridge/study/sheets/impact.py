@@ -149,6 +149,9 @@ def _table(ctx: StudyContext, g, row: int, demo: Demographic, numbers: Ref, sele
     ref_sel, ref_app = counts[reference]
     ref_sel = Expr(ctx.text(lookup, SHEET, column=area(SHEET, 3, first, 3, last).fixed(), **places), ref_sel)
     ref_app = Expr(ctx.text(lookup, SHEET, column=area(SHEET, 2, first, 2, last).fixed(), **places), ref_app)
+    # a name that is not one of the groups would leave every comparison #N/A: say so beside the cell
+    ctx.expression(g, row - 1, 10, 'IF(ISNA(MATCH({name},{names},0)),"' + NOT_A_GROUP + '","")', lambda: "",
+                   **places)
     ratios: dict[str, Ref] = {}
     flags: dict[str, Ref] = {}
     for i, name in enumerate(groups):
@@ -213,6 +216,9 @@ def _key(prefix: str, function: str, extra: tuple, name: str) -> str:
     part = f"_{extra[0]}" if extra and isinstance(extra[0], str) else ""
     return f"{prefix}{function.lower()}{part}_{name}"
 
+
+#: Beside the reference cell when it names no group of the table.
+NOT_A_GROUP = "not one of the groups below: type a label of column A as written there"
 
 #: (column, function, the arguments after the four counts, style) of each comparison's figures
 _FIGURES = ((5, "IMPACT_RATIO", lambda s: (), "coef"), (6, "FOUR_FIFTHS", lambda s: (), None),

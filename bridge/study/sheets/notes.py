@@ -8,7 +8,7 @@ from trueband.funcs import __version__, lookup
 from trueband.funcs.errors import UnknownFunctionError
 
 from ..context import StudyContext
-from ..words import CAUTION
+from ..words import CAUTION, LIVE_REFERENCE_WORDS
 
 __all__ = ["write", "FUNCTIONS_USED"]
 
@@ -55,6 +55,7 @@ CONVENTIONS = (
     "Cochran–Mantel–Haenszel test with the ½ continuity correction, the exact conditional test and the "
     "Breslow–Day test (Tarone's correction); a pooled figure is not reported as a headline when the Breslow–Day "
     "p is below 0.05.",
+    LIVE_REFERENCE_WORDS,
     "Several predictors: each further predictor (a 'predictor' block of the Setup sheet) has its own settings, "
     "Reliability, Items, Validity and Bands sheets; Impact and Utility are the first predictor's. On Combined, the "
     "composite is the sum of the raw scores (unit weights) or the least-squares combination (regression weights); "
