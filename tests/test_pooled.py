@@ -5,13 +5,16 @@ Sources:
   logodds_pooled_se and oddsratio_pooled_confint (Robins-Breslow-Greenland), test_null_odds(correction=True
   and False) (CMH), test_equal_odds(adjust=True and False) (Breslow-Day, with and without Tarone);
 * the Penicillin and Rabbits data of Agresti (1990, pp. 231-237), printed with R's mantelhaen.test example
-  (its comments: "p = 0.047" for the classical test, "p - 0.040" for the exact conditional test); the
-  statistic 3.9286 is from memory of R's printed output;
+  (its comments: "p = 0.047" for the classical test, "p - 0.040" for the exact conditional test, "p = 0.020"
+  for the one-sided exact test of a higher cure rate for immediate injection); the array and the comments were
+  checked against a copy of R's example file (repository migue/r-ide, .../bison/mantelhaen.test.R, found by
+  search); the statistic 3.9286 is from memory of R's printed output;
 * the Berkeley graduate admissions of Bickel, Hammel & O'Connell (1975, Science 187, 398-404), the classic
   reversal within strata; department counts from memory, checked here against the published totals (1,198 of
-  2,691 men and 557 of 1,835 women admitted); R's mantelhaen.test example says of them "no evidence for
-  association between admission and gender when adjusted for department" and that the homogeneous odds
-  ratio assumption "may be violated" (Woolf p = 0.003);
+  2,691 men and 557 of 1,835 women admitted; the men's total as R's UCBAdmissions help page states it, "2691
+  male applicants, of whom 1198 (44.5%) were admitted", checked by search); R's mantelhaen.test example says of
+  them "no evidence for association between admission and gender when adjusted for department" and that the
+  homogeneous odds ratio assumption "may be violated" (Woolf p = 0.003);
 * the exact conditional test: scipy.stats.fisher_exact for one stratum (reference library) and, for several,
   the conditional distribution enumerated by brute force in exact rational arithmetic (math.comb and
   fractions), independent of the convolution.
@@ -131,10 +134,30 @@ def test_berkeley_admissions_reverse_within_departments():
     assert call("POOLED_HOMOGENEITY_P", BERKELEY) < 0.01  # the odds ratios differ: show the departments
 
 
+def test_penicillin_and_rabbits_one_sided_exact_p_checks_the_enumeration():
+    # R's mantelhaen.test example: the one-sided exact conditional test (a higher cure rate for immediate
+    # injection) gives "p = 0.020". The brute-force enumeration that checks POOLED_EXACT_P below gives that value
+    # for the upper tail, and the two-sided value p = 0.040 as POOLED_EXACT_P does: the enumeration is itself
+    # checked against the published example.
+    dist = _conditional_distribution(RABBITS)
+    observed = sum(r[0] for r in RABBITS)
+    upper = float(sum(p for t, p in dist.items() if t >= observed))
+    assert upper == pytest.approx(0.020, abs=5e-4)
+    assert _brute_force_exact_p(RABBITS) == pytest.approx(0.040, abs=5e-4)
+    assert call("POOLED_EXACT_P", RABBITS) == pytest.approx(_brute_force_exact_p(RABBITS), rel=1e-9)
+
+
 # ---------------------------------------------------------------- exact conditional test
 
 def _brute_force_exact_p(rows):
     """Enumerate every combination of focal-selected counts with the strata margins fixed (exact fractions)."""
+    dist = _conditional_distribution(rows)
+    observed = dist[sum(r[0] for r in rows)]
+    return float(sum(p for p in dist.values() if p <= observed))
+
+
+def _conditional_distribution(rows):
+    """The distribution of the total focal-selected count given every stratum's margins (exact fractions)."""
     supports = []
     for fs, fa, rs, ra in rows:
         m1 = fs + rs
@@ -148,8 +171,7 @@ def _brute_force_exact_p(rows):
         for _, q in combo:
             p *= q
         dist[t] = dist.get(t, 0) + p
-    observed = dist[sum(r[0] for r in rows)]
-    return float(sum(p for p in dist.values() if p <= observed))
+    return dist
 
 
 @pytest.mark.parametrize("seed", range(8))

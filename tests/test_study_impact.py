@@ -430,3 +430,32 @@ def test_with_too_many_rows_for_per_group_columns_the_groups_sheet_says_why(tmp_
     assert women[0] == "Women" and women[1] == int((df["Sex"] == "Women").sum())
     assert women[2] == pytest.approx(df[df["Sex"] == "Women"]["score"].mean(), rel=1e-12)  # pandas
     assert str(women[4]).startswith("not computable: with 120 rows the per-group score columns")
+
+
+def test_the_standard_deviations_convention_names_its_cases_and_what_is_from_memory():
+    # Castaneda v. Partida, 430 U.S. 482 (decided March 23, 1977) and Hazelwood School District v. United States,
+    # 433 U.S. 299 (decided June 27, 1977): the reporter citations and years checked against the published
+    # opinions (openjurist.org/430/us/482; case-law.vlex.com, 433 U.S. 299); the peer-reviewed review of
+    # Hazelwood's binomial test, Meier, Sacks & Zabell (1984), American Bar Foundation Research Journal 9(1),
+    # 139-186, checked against its published abstract. The footnote numbers and the exact phrase were not found
+    # by search: the words say they are cited from memory.
+    from trueband.bridge.study.words import IMPACT_Z_WORDS
+
+    assert "Castaneda v. Partida, 430 U.S. 482 (1977)" in IMPACT_Z_WORDS
+    assert "Hazelwood School District v. United States, 433 U.S. 299 (1977)" in IMPACT_Z_WORDS
+    assert "American Bar Foundation Research Journal 9, 139-186" in IMPACT_Z_WORDS
+    assert "n.17 and 433 U.S. at 308 n.14, are cited from memory" in IMPACT_Z_WORDS
+    assert "common practice" in IMPACT_Z_WORDS and "not a legal test" in IMPACT_Z_WORDS
+
+
+def test_the_ratio_interval_cites_the_peer_reviewed_article_it_follows():
+    # Morris, S. B. & Lobsenz, R. E. (2000). Significance tests and confidence intervals for the adverse impact
+    # ratio. Personnel Psychology 53, 89-111: journal, volume and pages checked against the published abstract,
+    # which recommends reporting "an estimate of the adverse impact ratio along with a confidence interval"; the
+    # log form of the interval is that of Katz et al. (1978), checked numerically against statsmodels and scipy in
+    # tests/test_impact_intervals.py.
+    from trueband.funcs import lookup
+
+    reference = lookup("IMPACT_RATIO_CI").reference
+    assert "Morris" in reference and "Lobsenz" in reference and "2000" in reference
+    assert "Personnel Psychology" in reference and "53" in reference and "89-111" in reference

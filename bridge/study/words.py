@@ -16,9 +16,12 @@ NOT_COMPUTABLE = "not computable: "
 IMPACT_Z_WORDS = (
     "z is the gap between the two selection rates in standard deviations (standard errors of the gap if the "
     "rates were equal), two-sided; US courts have often treated a gap of more than two or three standard "
-    "deviations as more than chance (common practice in US case law; the phrase is from Castaneda v. Partida, "
-    "430 U.S. 482, 496 n.17 (1977), and Hazelwood School District v. United States, 433 U.S. 299, 308 n.14 "
-    "(1977); from memory). It is a convention, not a legal test.")
+    "deviations as more than chance (common practice in US case law, after Castaneda v. Partida, 430 U.S. 482 "
+    "(1977), and Hazelwood School District v. United States, 433 U.S. 299 (1977), which used a binomial test of "
+    "this kind; the footnotes with the phrase, 430 U.S. at 496 n.17 and 433 U.S. at 308 n.14, are cited from "
+    "memory; see Meier, P., Sacks, J. & Zabell, S. L. (1984). What happened in Hazelwood: statistics, employment "
+    "discrimination, and the 80% rule. American Bar Foundation Research Journal 9, 139-186). It is a "
+    "convention, not a legal test.")
 
 #: The extra selections to reach four-fifths, in the study's own words.
 EXTRA_SELECTIONS_WORDS = (
