@@ -8,7 +8,10 @@ Sources:
   (its comments: "p = 0.047" for the classical test, "p - 0.040" for the exact conditional test, "p = 0.020"
   for the one-sided exact test of a higher cure rate for immediate injection); the array and the comments were
   checked against a copy of R's example file (repository migue/r-ide, .../bison/mantelhaen.test.R, found by
-  search); the statistic 3.9286 is from memory of R's printed output;
+  search); R's printed output of mantelhaen.test(Rabbits) and mantelhaen.test(Rabbits, exact = TRUE),
+  checked in several independent copies found by search: "Mantel-Haenszel X-squared = 3.9286, df = 1, p-value
+  = 0.04747", "95 percent confidence interval: 1.026713 47.725133", "common odds ratio 7", and for the exact
+  test "S = 16, p = 0.03994";
 * the Berkeley graduate admissions of Bickel, Hammel & O'Connell (1975, Science 187, 398-404), the classic
   reversal within strata; department counts from memory, checked here against the published totals (1,198 of
   2,691 men and 557 of 1,835 women admitted; the men's total as R's UCBAdmissions help page states it, "2691
@@ -108,12 +111,18 @@ def test_correction_is_not_applied_below_one_half():
 # ---------------------------------------------------------------- published examples
 
 def test_penicillin_and_rabbits():
-    # R's mantelhaen.test example (Agresti 1990): classical test p = 0.047, exact conditional test p = 0.040;
-    # Mantel-Haenszel X-squared = 3.9286 (from memory).
+    # R's mantelhaen.test example (Agresti 1990): classical test p = 0.047, exact conditional test p = 0.040
+    # (the example's comments); R's printed output (found by search, see above): X-squared = 3.9286,
+    # p-value = 0.04747, common odds ratio 7 with the 95 percent interval 1.026713 to 47.725133 (the
+    # Robins-Breslow-Greenland variance), exact conditional test S = 16, p = 0.03994.
     mh = ip.mantel_haenszel(RABBITS)
     assert mh.statistic == pytest.approx(3.9286, abs=5e-5)
-    assert call("POOLED_IMPACT_P", RABBITS) == pytest.approx(0.047, abs=5e-4)
-    assert call("POOLED_EXACT_P", RABBITS) == pytest.approx(0.040, abs=5e-4)
+    assert call("POOLED_IMPACT_P", RABBITS) == pytest.approx(0.04747, abs=5e-6)
+    assert call("POOLED_EXACT_P", RABBITS) == pytest.approx(0.03994, abs=5e-6)
+    assert sum(r[0] for r in RABBITS) == 16   # R's S: immediate injections cured, over every level
+    assert call("POOLED_ODDS_RATIO", RABBITS) == pytest.approx(7.0, rel=1e-12)
+    assert call("POOLED_ODDS_RATIO", RABBITS, "lower") == pytest.approx(1.026713, abs=5e-7)
+    assert call("POOLED_ODDS_RATIO", RABBITS, "upper") == pytest.approx(47.725133, abs=5e-7)
     # The first and last levels cure nobody and everybody: they carry no information and are left out.
     assert (mh.strata_used, mh.strata_dropped) == (3, 2)
     assert call("POOLED_EXACT_P", RABBITS) == call("POOLED_EXACT_P", RABBITS[1:4])
