@@ -18,6 +18,10 @@ Sources:
   male applicants, of whom 1198 (44.5%) were admitted", checked by search); R's mantelhaen.test example says of
   them "no evidence for association between admission and gender when adjusted for department" and that the
   homogeneous odds ratio assumption "may be violated" (Woolf p = 0.003);
+* Breslow-Day on Agresti's AZT data (AZT use and AIDS symptoms by race; Agresti, An Introduction to
+  Categorical Data Analysis, 2nd ed., 2007, section 4.4.3 as the worked R code found by search labels it):
+  DescTools::BreslowDayTest on the array c(14, 32, 93, 81, 11, 12, 52, 43) gives p = 0.2382 (that code's
+  comment, found by search); Agresti's printed statistic 1.39 on 1 df is from memory;
 * the exact conditional test: scipy.stats.fisher_exact for one stratum (reference library) and, for several,
   the conditional distribution enumerated by brute force in exact rational arithmetic (math.comb and
   fractions), independent of the convolution.
@@ -154,6 +158,17 @@ def test_penicillin_and_rabbits_one_sided_exact_p_checks_the_enumeration():
     assert upper == pytest.approx(0.020, abs=5e-4)
     assert _brute_force_exact_p(RABBITS) == pytest.approx(0.040, abs=5e-4)
     assert call("POOLED_EXACT_P", RABBITS) == pytest.approx(_brute_force_exact_p(RABBITS), rel=1e-9)
+
+
+def test_breslow_day_on_agresti_azt_data():
+    # rows: AZT yes with symptoms, AZT yes; AZT no with symptoms, AZT no (White, then Black), from R's
+    # array(c(14, 32, 93, 81, 11, 12, 52, 43), dim = c(2, 2, 2)) with dimnames azt, symptoms, race.
+    azt = [[14, 107, 32, 113], [11, 63, 12, 55]]
+    plain = ip.breslow_day(azt, tarone=False)   # DescTools' default (no Tarone correction): p = 0.2382
+    assert plain.p_value == pytest.approx(0.2382, abs=5e-5)
+    assert plain.statistic == pytest.approx(1.39, abs=5e-3)   # Agresti's 1.39 (from memory)
+    # with two strata Tarone's correction changes nothing visible; the sheet's function uses it
+    assert call("POOLED_HOMOGENEITY_P", azt) == pytest.approx(0.2382, abs=5e-5)
 
 
 # ---------------------------------------------------------------- exact conditional test
