@@ -88,12 +88,9 @@ def _counts(ctx: StudyContext, t: ImpactTable, focal: str, stratum, cut: float) 
     return out
 
 
-def _comparison(ctx, g, row, t: ImpactTable, j: int, focal: str, stratum, strata_col: Ref, bands: BandsLayout,
-                setup: SetupSheet, key: str | None):
-    """The ``j``-th group other than the reference group (as the Impact sheet's reference cell names it now;
-    ``focal`` at build time) against the reference group, stratum by stratum, then pooled; returns (Strata,
-    the next row)."""
-    prefix = f"{t.demographic.header}:{focal}:"
+def _groups(ctx, g, row, t: ImpactTable, j: int, focal: str) -> tuple[Ref, Ref]:
+    """The heading of the ``j``-th comparison and, below it, its groups' names and numbers (the group's, the
+    reference group's), read from the Impact sheet's reference cell; returns the two number cells."""
     g.set(row, 1, f"{t.demographic.header}: comparison {j} of {len(t.names) - 1}", "heading")
     names_on_impact = area(IMPACT_SHEET, 1, t.first, 1, t.last)
     g.set(row + 1, 1, "Group")
@@ -108,6 +105,16 @@ def _comparison(ctx, g, row, t: ImpactTable, j: int, focal: str, stratum, strata
                                 reference=t.reference_cell, names=names_on_impact).fixed()
     focal_number = ctx.expression(g, row + 1, 6, "{j}+({j}>={ref})", lambda: t.demographic.numbers[focal],
                                   style="count", j=j, ref=ref_number).fixed()
+    return focal_number, ref_number
+
+
+def _comparison(ctx, g, row, t: ImpactTable, j: int, focal: str, stratum, strata_col: Ref, bands: BandsLayout,
+                setup: SetupSheet, key: str | None):
+    """The ``j``-th group other than the reference group (as the Impact sheet's reference cell names it now;
+    ``focal`` at build time) against the reference group, stratum by stratum, then pooled; returns (Strata,
+    the next row)."""
+    prefix = f"{t.demographic.header}:{focal}:"
+    focal_number, ref_number = _groups(ctx, g, row, t, j, focal)
     row += 1
     for c, h in enumerate(_HEAD, start=1):
         g.set(row + 1, c, h, "header")
