@@ -148,6 +148,18 @@ def _cut_block(rows, column):
     return rows[at], rows[head], head
 
 
+#: The two cuts the Cuts test checks (each a distinct score above the lowest: one row each per column)
+TWO_CUTS = (3, 5)
+
+
+def lowest_as_the_sheet_picks(ratios: dict, order: list):
+    """The sheet's rule for a cut's lowest ratio and its group: MIN of the row's ratios, and the group of the first
+    ratio equal to it by MATCH(lowest, ratios, 0), i.e. on a tie the first of the tied groups in the order of the
+    Impact table's column A (the order of the Cuts sheet's ratio columns)."""
+    low = min(ratios.values())
+    return low, next(g for g in order if g in ratios and ratios[g] == low)
+
+
 @pytest.mark.parametrize("column", ["Sex", "Ethnicity"])
 def test_cuts_at_two_cuts_against_statsmodels_and_scipy(edited, column):
     _, _, wb, df = edited
@@ -156,19 +168,27 @@ def test_cuts_at_two_cuts_against_statsmodels_and_scipy(edited, column):
     assert NEW[column] in heading   # the block shows the reference group it reads
     reference = NEW[column]
     groups = sorted(set(df[column]))
+    order = [h.removeprefix("Impact ratio: ") for h in header if isinstance(h, str) and h.startswith("Impact ratio: ")]
+    impact = sheet_rows(wb, "Impact")
+    first = find_row(impact, "Group", start=find_row(impact, f"Demographic column: {column}")) + 1
+    assert order == [r[0] for r in impact[first:first + len(groups)]]   # the Impact table's order
     n = {g: int((df[column] == g).sum()) for g in groups}
-    checked = 0
+    block = []
     for r in rows[head + 1:]:
-        if not r or not isinstance(r[0], (int, float)) or r[0] not in (3, 5):
-            if checked == 2:
-                break
-            continue
+        if not r or not isinstance(r[0], (int, float)):
+            break   # the block ends at its first row without a cut
+        block.append(r)
+    picked = [r for r in block if r[0] in TWO_CUTS]
+    # exactly the rows meant: one per cut, in order (the block's cuts are the distinct scores above the lowest)
+    assert [r[0] for r in picked] == list(TWO_CUTS)
+    assert [r[0] for r in block] == sorted(set(df["score"]))[1:]
+    for r in picked:
         cut = r[0]
         passing = {g: int(((df[column] == g) & (df["score"] >= cut)).sum()) for g in groups}
         assert r[header.index(f"Impact ratio: {reference}")] == "reference group"
         ratios = {g: (passing[g] / n[g]) / (passing[reference] / n[reference]) for g in groups if g != reference}
-        low = min(ratios, key=ratios.get)
-        assert r[header.index("Lowest impact ratio")] == pytest.approx(ratios[low], rel=1e-12)
+        low_ratio, low = lowest_as_the_sheet_picks(ratios, order)
+        assert r[header.index("Lowest impact ratio")] == pytest.approx(low_ratio, rel=1e-12)
         assert r[header.index("Its group")] == low
         fs, fa, rs, ra = passing[low], n[low], passing[reference], n[reference]
         lo, hi = sm_proportion.confint_proportions_2indep(fs, fa, rs, ra, method="log", compare="ratio")
@@ -178,8 +198,51 @@ def test_cuts_at_two_cuts_against_statsmodels_and_scipy(edited, column):
             sm_proportion.proportions_ztest([rs, fs], [ra, fa])[0], rel=1e-9)       # statsmodels
         assert r[header.index("Fisher exact p")] == pytest.approx(
             stats.fisher_exact([[fs, fa - fs], [rs, ra - rs]]).pvalue, rel=1e-9)    # scipy
-        checked += 1
-    assert checked == 2
+
+
+def tie_table():
+    """Y (twice over) and X with the same scores (so the same pass rate at every cut: their ratios tie); Z, the
+    reference, scoring higher."""
+    scores = [0, 1, 2, 3, 3, 4, 4, 5, 5, 6, 6, 7, 8, 2, 3, 4, 5, 6, 3, 4]
+    header = ["id", "Sex", "Ethnicity", *[f"i{j}" for j in range(1, K + 1)]]
+    rows = []
+    for group, shift, times in (("Y", 0, 2), ("X", 0, 1), ("Z", 2, 1)):
+        for i, s in enumerate(scores * times):
+            s = min(K, s + shift)
+            rows.append([f"{group}{i}", "Women" if i % 2 else "Men", group, *([1] * s + [0] * (K - s))])
+    return header, rows
+
+
+def test_a_tie_for_the_lowest_ratio_names_the_first_group_of_the_impact_table(tmp_path):
+    header, rows = tie_table()
+    setup = {"id column": "id", "group columns": "Sex, Ethnicity", "item columns": f"i1:i{K}", "cut score": 4,
+             "reference groups": "Sex: Men; Ethnicity: Z"}
+    result = make_study(write_book(tmp_path / "d.xlsx", header, rows, setup), tmp_path / "study.xlsx")
+    assert recalculate(result.path, in_place=True, all_formulas=True).ok
+    wb = load_workbook(result.path, data_only=True)
+    rows_ = sheet_rows(wb, "Cuts")
+    _, head_row, head = _cut_block(rows_, "Ethnicity")
+    order = [h.removeprefix("Impact ratio: ") for h in head_row if isinstance(h, str)
+             and h.startswith("Impact ratio: ")]
+    assert sorted(order) == ["X", "Y", "Z"] and order == [r[0] for r in sheet_rows(wb, "Impact") if r[0] in (
+        "X", "Y", "Z")]   # the Impact table's order
+    df = pd.DataFrame(rows, columns=header)
+    df["score"] = df[[f"i{j}" for j in range(1, K + 1)]].sum(axis=1)
+    n = {g: int((df["Ethnicity"] == g).sum()) for g in "XYZ"}
+    tied = 0
+    for r in rows_[head + 1:]:
+        if not r or not isinstance(r[0], (int, float)):
+            break
+        passing = {g: int(((df["Ethnicity"] == g) & (df["score"] >= r[0])).sum()) for g in "XYZ"}
+        if passing["Z"] == 0:
+            continue
+        ratios = {g: (passing[g] / n[g]) / (passing["Z"] / n["Z"]) for g in "XY"}
+        assert ratios["X"] == ratios["Y"]   # the tie the data were made for
+        low_ratio, low = lowest_as_the_sheet_picks(ratios, order)
+        assert low == order[0] and r[head_row.index("Its group")] == low   # the first of the tied groups
+        assert r[head_row.index("Lowest impact ratio")] == pytest.approx(low_ratio, rel=1e-12)
+        tied += 1
+    assert tied >= 5
 
 
 def test_stages_compare_with_the_new_reference(edited):
