@@ -15,7 +15,7 @@ import numpy as np
 from ..context import Expr, Ref, StudyContext, area, cell
 from ..words import CAUTION, STAGES_CAUTION
 from .bands import BandsLayout
-from .impact import Impact, ImpactTable, unless_reference
+from .impact import Impact, ImpactTable, count_guards, unless_reference
 from .setup import SetupSheet
 
 __all__ = ["Stages", "write", "SHEET"]
@@ -119,5 +119,8 @@ def _block(ctx, g, r: int, t: ImpactTable, label: str, before: list[Ref], stage:
             unless_reference(ctx, g, row, c, function, *four, *extra_args, group=cell(SHEET, row, 2).local(),
                              reference=t.reference_cell, is_reference=name == t.reference,
                              label="reference group" if c == 6 else "", style=style,
-                             wrap='IF({},"yes","no")' if function in ("FOUR_FIFTHS", "IMPACT_SMALL_NUMBERS") else "{}")
+                             wrap='IF({},"yes","no")' if function in ("FOUR_FIFTHS", "IMPACT_SMALL_NUMBERS") else "{}",
+                             guards=count_guards(function, (extra_args or (None,))[0], chosen="passed the stage",
+                                                 people="people reaching the stage"),
+                             places=dict(zip(("fs", "fa", "rs", "ra"), four)))
     return r + len(t.names) + 1
