@@ -5,6 +5,7 @@ the small-numbers caution), an overview of the lowest ratios, and the score dist
 from __future__ import annotations
 
 import dataclasses
+import inspect
 from typing import Mapping
 
 import numpy as np
@@ -12,6 +13,7 @@ from openpyxl.utils import get_column_letter
 
 from trueband.funcs import call
 from trueband.funcs.impact import tally_groups
+from trueband.funcs.impact_intervals import impact_flip
 
 from .. import charts
 from ..context import Expr, Ref, StudyContext, area, cell
@@ -236,6 +238,15 @@ def count_guards(function: str, part: str | None = None, *, chosen: str = "is se
                     "IMPACT_ODDS_RATIO"):
         guards.append(("{rs}=0", lambda fs, fa, rs, ra: rs == 0,
                        f"nobody in the reference group {chosen}, so a ratio to its rate (0) is undefined"))
+    if function == "IMPACT_FLIP":
+        # IMPACT_FLIP's rule: a verdict that is not significant flips only if removing the group's selections
+        # (down to none) makes it significant; the function finds none when even none selected is not
+        guards.append((f"AND(IMPACT_FISHER({{fs}},{{fa}},{{rs}},{{ra}})>={FLIP_ALPHA},"
+                       f"IMPACT_FISHER(0,{{fa}},{{rs}},{{ra}})>={FLIP_ALPHA})",
+                       lambda fs, fa, rs, ra: min(call("IMPACT_FISHER", fs, fa, rs, ra),
+                                                  call("IMPACT_FISHER", 0, fa, rs, ra)) >= FLIP_ALPHA,
+                       f"the exact test is not significant at {FLIP_ALPHA} and stays so even with nobody of the "
+                       f"group {chosen.removeprefix('is ')}, so no number of selections flips it"))
     if function == "IMPACT_Z":
         guards += [("{fs}+{rs}=0", lambda fs, fa, rs, ra: fs + rs == 0,
                     f"nobody in either group {chosen}, so z is undefined"),
@@ -257,6 +268,9 @@ def _key(prefix: str, function: str, extra: tuple, name: str) -> str:
     part = f"_{extra[0]}" if extra and isinstance(extra[0], str) else ""
     return f"{prefix}{function.lower()}{part}_{name}"
 
+
+#: The significance level of the flip count (IMPACT_FLIP's default, which the sheet uses).
+FLIP_ALPHA = inspect.signature(impact_flip).parameters["alpha"].default
 
 #: The four counts' places in the guards' conditions (see :func:`count_guards`).
 _FOUR = ("fs", "fa", "rs", "ra")
