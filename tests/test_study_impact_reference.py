@@ -305,3 +305,45 @@ def test_a_reference_that_is_no_group_is_said_beside_the_cell(tmp_path):
     wb = load_workbook(result.path, data_only=True)
     beside = [r[9] for r in sheet_rows(wb, "Impact") if r[0] == LABEL]
     assert beside[0].startswith("not one of the groups below") and beside[1] in (None, "")
+
+
+def how_chosen(wb):
+    """{column: (the reference cell, the words beside it)} on Impact, and the Notes lines that read them."""
+    out, column = {}, "Sex"
+    for r in sheet_rows(wb, "Impact"):
+        if isinstance(r[0], str) and r[0].startswith("Demographic column: "):
+            column = r[0].removeprefix("Demographic column: ")
+        elif r[0] == LABEL:
+            out[column] = (r[2], r[3])
+    notes = [str(r[0]) for r in sheet_rows(wb, "Notes") if r and r[0] is not None]
+    return out, notes
+
+
+def test_the_words_beside_the_reference_cell_and_on_notes_follow_an_edit(tmp_path):
+    from trueband.bridge.study.words import REFERENCE_BY_RATE, REFERENCE_CHOSEN, REFERENCE_GIVEN
+
+    header, rows = table(n=120)
+    result = make_study(write_book(tmp_path / "d.xlsx", header, rows, SETUP), tmp_path / "study.xlsx")
+    df = pd.DataFrame(rows, columns=header)
+    df["score"] = df[[f"i{j}" for j in range(1, K + 1)]].sum(axis=1)
+    df["passed"] = df["score"] >= CUT
+    rate = {g: counts(df, "Ethnicity", g)[0] / counts(df, "Ethnicity", g)[1] for g in "XYZ"}   # pandas
+    highest = max(rate, key=rate.get)
+    lower = min(rate, key=rate.get)
+    assert rate[lower] < rate[highest]
+
+    def check(sex, sex_words, ethnicity, ethnicity_words):
+        wb = load_workbook(result.path, data_only=True)
+        shown_, notes = how_chosen(wb)
+        assert shown_ == {"Sex": (sex, sex_words), "Ethnicity": (ethnicity, ethnicity_words)}
+        for words in (f"{sex} {sex_words}", f"{ethnicity} {ethnicity_words}"):
+            assert words in notes   # Notes reads the same cells
+        text = " ".join(notes)
+        assert "when the study was built" not in text.split("Reference group for impact")[1]
+
+    assert recalculate(result.path, in_place=True, all_formulas=True).ok
+    check("Men", REFERENCE_GIVEN, highest, REFERENCE_BY_RATE)          # as built: the defaults
+    assert edit_references(result.path, {"Sex": "Women", "Ethnicity": lower}).ok
+    check("Women", "(chosen here; the setup gave Men)", lower, REFERENCE_CHOSEN)
+    assert edit_references(result.path, {"Sex": "Men", "Ethnicity": highest}).ok
+    check("Men", REFERENCE_GIVEN, highest, REFERENCE_BY_RATE)          # back to the defaults

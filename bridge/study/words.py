@@ -55,7 +55,12 @@ RATIO_INTERVAL_WORDS = (
     "selected over the reference group's.")
 
 #: The reference group of a demographic column when none is given.
-REFERENCE_BY_RATE = "(the group with the highest selection rate at the cut when the study was built)"
+REFERENCE_BY_RATE = "(the group with the highest selection rate at the cut: the default)"
+#: Beside the reference cell after an edit (live: the cell's formula compares the group's rate with the highest).
+REFERENCE_CHOSEN = "(chosen here; the default is the group with the highest selection rate at the cut)"
+#: Beside the reference cell when the setup named the group, and after an edit ("... gave " & the group).
+REFERENCE_GIVEN = "(as given in the setup)"
+REFERENCE_EDITED = "(chosen here; the setup gave "
 
 #: Pooling over strata when the odds ratios differ.
 POOLING_REFUSED = (
@@ -74,7 +79,7 @@ LIVE_REFERENCE_WORDS = (
     "(by default the group with the highest selection rate at the cut when the study was built). Edit that cell "
     "and recalculate: the Impact, Strata, Cuts, Stages and Groups sheets and the Summary all compare with the "
     "group named there.")
-__all__ += ["LIVE_REFERENCE_WORDS"]
+__all__ += ["LIVE_REFERENCE_WORDS", "REFERENCE_CHOSEN", "REFERENCE_GIVEN", "REFERENCE_EDITED"]
 
 # ---------------------------------------------------------------- fairness, item bias and combined predictors
 

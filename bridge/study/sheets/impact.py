@@ -20,7 +20,7 @@ from ..context import Expr, Ref, StudyContext, area, cell
 from ..setup import SetupError
 from ..setup_impact import Demographic
 from ..words import (CAUTION, NOT_COMPUTABLE, EXTRA_SELECTIONS_WORDS, FLIP_WORDS, IMPACT_Z_WORDS, RATIO_INTERVAL_WORDS,
-                     REFERENCE_BY_RATE, SMALL_NUMBERS_WORDS)
+                     REFERENCE_BY_RATE, REFERENCE_CHOSEN, REFERENCE_EDITED, REFERENCE_GIVEN, SMALL_NUMBERS_WORDS)
 from .bands import BandsLayout
 from .reliability import Reliability
 from .setup import SetupSheet
@@ -58,6 +58,8 @@ class ImpactTable:
     #: the reference group's input cell (its value: the group at build time); the other sheets read the
     #: reference group through it, so an edit there reaches them on recalculation
     reference_cell: Ref | None = None
+    #: beside the reference cell: how the group there was chosen (live: the default, or a choice made there)
+    how: Ref | None = None
 
 
 @dataclasses.dataclass(frozen=True)
@@ -141,7 +143,6 @@ def _table(ctx: StudyContext, g, row: int, demo: Demographic, numbers: Ref, sele
     reference, how = reference_group(ctx, demo, counts)
     g.set(row - 1, 1, "Reference group (edit to compare with another)")
     g.set(row - 1, 3, reference, "input")
-    g.set(row - 1, 4, how)
     for c, h in enumerate(HEAD, start=1):
         g.set(row, c, h, "header")
     first, last = row + 1, row + len(groups)
@@ -154,6 +155,7 @@ def _table(ctx: StudyContext, g, row: int, demo: Demographic, numbers: Ref, sele
     # a name that is not one of the groups would leave every comparison #N/A: say so beside the cell
     ctx.expression(g, row - 1, 10, 'IF(ISNA(MATCH({name},{names},0)),"' + NOT_A_GROUP + '","")', lambda: "",
                    **places)
+    how = _how_chosen(ctx, g, row - 1, demo, reference, how, places, first, last)
     ratios: dict[str, Ref] = {}
     flags: dict[str, Ref] = {}
     for i, name in enumerate(groups):
@@ -193,7 +195,22 @@ def _table(ctx: StudyContext, g, row: int, demo: Demographic, numbers: Ref, sele
     if n_below is not None:
         n_below = n_below.with_value(sum(1 for f in flags.values() if f.value is True))
     return ImpactTable(demo, numbers, reference, tuple(groups), counts, ratios, min_ratio, n_below, row, first,
-                       last, prefix, rates, cell(SHEET, row - 1, 3, value=reference, name="the reference group"))
+                       last, prefix, rates, cell(SHEET, row - 1, 3, value=reference, name="the reference group"), how)
+
+
+def _how_chosen(ctx: StudyContext, g, r: int, demo: Demographic, reference: str, how: str, places: dict,
+                first: int, last: int) -> Ref:
+    """Beside the reference cell, live: whether it holds the default (the setup's group, else a group with the
+    highest selection rate at the cut) or a group chosen there; empty when it names no group (said beside)."""
+    found = "ISNA(MATCH({name},{names},0))"
+    if demo.reference is not None:   # the setup's group: its label in column A
+        given = cell(SHEET, first + list(demo.tally.names).index(reference), 1).fixed()
+        template = ('IF({name}={given},"' + REFERENCE_GIVEN + '",IF(' + found + ',"","' + REFERENCE_EDITED
+                    + '"&{given}&")"))')
+        return ctx.expression(g, r, 4, template, lambda: how, given=given, **places)
+    template = ("IF(" + found + ',"",IF(INDEX({rates},MATCH({name},{names},0))=MAX({rates}),"' + REFERENCE_BY_RATE
+                + '","' + REFERENCE_CHOSEN + '"))')
+    return ctx.expression(g, r, 4, template, lambda: how, rates=area(SHEET, 4, first, 4, last).fixed(), **places)
 
 
 def unless_reference(ctx: StudyContext, g, r: int, c: int, function: str, *args, group: Ref, reference: Ref,
@@ -322,8 +339,6 @@ def reference_group(ctx: StudyContext, demo: Demographic, counts: dict[str, tupl
         return reference, "(as given in the setup)"
     rates = {k: (sel / app if app else 0.0) for k, (sel, app) in counts.items()}
     reference = max(groups, key=lambda k: (rates[k], counts[k][1]))
-    ctx.notes.append(f"Reference group for impact by {demo.header!r}: {reference}, the group with the highest "
-                     f"selection rate at the cut when the study was built.")
     return reference, REFERENCE_BY_RATE
 
 
