@@ -8,8 +8,10 @@ Sources:
 * the worked examples of the Questions and Answers on the Uniform Guidelines
   (1979): the 60% / 45% / 48% / 51% example, whose wording was found quoted
   from the Questions and Answers ("adverse impact is indicated for American
-  Indians but not for Hispanics or Blacks"; its question number, 11, is from
-  memory); the 48-of-80 against 12-of-40 example of Q&A 12 (from memory); the
+  Indians but not for Hispanics or Blacks"; quoted with the rates 60%, 45%,
+  48%, 51% and the ratios 75%, 80%, 85% by the NC State data ethics
+  repository's entry for the Q&A, dataethicsrepository.iaa.ncsu.edu/?p=1099,
+  found by search; its question number, 11, is from memory); the 48-of-80 against 12-of-40 example of Q&A 12 (from memory); the
   80-of-120 against 20-of-50 example (from memory);
 * IMPACT_FISHER: scipy.stats.fisher_exact (reference library) and Fisher's
   (1935) tea-tasting table, two-sided p = 34/70 (from memory);

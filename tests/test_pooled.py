@@ -5,13 +5,23 @@ Sources:
   logodds_pooled_se and oddsratio_pooled_confint (Robins-Breslow-Greenland), test_null_odds(correction=True
   and False) (CMH), test_equal_odds(adjust=True and False) (Breslow-Day, with and without Tarone);
 * the Penicillin and Rabbits data of Agresti (1990, pp. 231-237), printed with R's mantelhaen.test example
-  (its comments: "p = 0.047" for the classical test, "p - 0.040" for the exact conditional test); the
-  statistic 3.9286 is from memory of R's printed output;
+  (its comments: "p = 0.047" for the classical test, "p - 0.040" for the exact conditional test, "p = 0.020"
+  for the one-sided exact test of a higher cure rate for immediate injection); the array and the comments were
+  checked against a copy of R's example file (repository migue/r-ide, .../bison/mantelhaen.test.R, found by
+  search); R's printed output of mantelhaen.test(Rabbits) and mantelhaen.test(Rabbits, exact = TRUE),
+  checked in several independent copies found by search: "Mantel-Haenszel X-squared = 3.9286, df = 1, p-value
+  = 0.04747", "95 percent confidence interval: 1.026713 47.725133", "common odds ratio 7", and for the exact
+  test "S = 16, p = 0.03994";
 * the Berkeley graduate admissions of Bickel, Hammel & O'Connell (1975, Science 187, 398-404), the classic
   reversal within strata; department counts from memory, checked here against the published totals (1,198 of
-  2,691 men and 557 of 1,835 women admitted); R's mantelhaen.test example says of them "no evidence for
-  association between admission and gender when adjusted for department" and that the homogeneous odds
-  ratio assumption "may be violated" (Woolf p = 0.003);
+  2,691 men and 557 of 1,835 women admitted; the men's total as R's UCBAdmissions help page states it, "2691
+  male applicants, of whom 1198 (44.5%) were admitted", checked by search); R's mantelhaen.test example says of
+  them "no evidence for association between admission and gender when adjusted for department" and that the
+  homogeneous odds ratio assumption "may be violated" (Woolf p = 0.003);
+* Breslow-Day on Agresti's AZT data (AZT use and AIDS symptoms by race; Agresti, An Introduction to
+  Categorical Data Analysis, 2nd ed., 2007, section 4.4.3 as the worked R code found by search labels it):
+  DescTools::BreslowDayTest on the array c(14, 32, 93, 81, 11, 12, 52, 43) gives p = 0.2382 (that code's
+  comment, found by search); Agresti's printed statistic 1.39 on 1 df is from memory;
 * the exact conditional test: scipy.stats.fisher_exact for one stratum (reference library) and, for several,
   the conditional distribution enumerated by brute force in exact rational arithmetic (math.comb and
   fractions), independent of the convolution.
@@ -105,12 +115,18 @@ def test_correction_is_not_applied_below_one_half():
 # ---------------------------------------------------------------- published examples
 
 def test_penicillin_and_rabbits():
-    # R's mantelhaen.test example (Agresti 1990): classical test p = 0.047, exact conditional test p = 0.040;
-    # Mantel-Haenszel X-squared = 3.9286 (from memory).
+    # R's mantelhaen.test example (Agresti 1990): classical test p = 0.047, exact conditional test p = 0.040
+    # (the example's comments); R's printed output (found by search, see above): X-squared = 3.9286,
+    # p-value = 0.04747, common odds ratio 7 with the 95 percent interval 1.026713 to 47.725133 (the
+    # Robins-Breslow-Greenland variance), exact conditional test S = 16, p = 0.03994.
     mh = ip.mantel_haenszel(RABBITS)
     assert mh.statistic == pytest.approx(3.9286, abs=5e-5)
-    assert call("POOLED_IMPACT_P", RABBITS) == pytest.approx(0.047, abs=5e-4)
-    assert call("POOLED_EXACT_P", RABBITS) == pytest.approx(0.040, abs=5e-4)
+    assert call("POOLED_IMPACT_P", RABBITS) == pytest.approx(0.04747, abs=5e-6)
+    assert call("POOLED_EXACT_P", RABBITS) == pytest.approx(0.03994, abs=5e-6)
+    assert sum(r[0] for r in RABBITS) == 16   # R's S: immediate injections cured, over every level
+    assert call("POOLED_ODDS_RATIO", RABBITS) == pytest.approx(7.0, rel=1e-12)
+    assert call("POOLED_ODDS_RATIO", RABBITS, "lower") == pytest.approx(1.026713, abs=5e-7)
+    assert call("POOLED_ODDS_RATIO", RABBITS, "upper") == pytest.approx(47.725133, abs=5e-7)
     # The first and last levels cure nobody and everybody: they carry no information and are left out.
     assert (mh.strata_used, mh.strata_dropped) == (3, 2)
     assert call("POOLED_EXACT_P", RABBITS) == call("POOLED_EXACT_P", RABBITS[1:4])
@@ -131,10 +147,41 @@ def test_berkeley_admissions_reverse_within_departments():
     assert call("POOLED_HOMOGENEITY_P", BERKELEY) < 0.01  # the odds ratios differ: show the departments
 
 
+def test_penicillin_and_rabbits_one_sided_exact_p_checks_the_enumeration():
+    # R's mantelhaen.test example: the one-sided exact conditional test (a higher cure rate for immediate
+    # injection) gives "p = 0.020". The brute-force enumeration that checks POOLED_EXACT_P below gives that value
+    # for the upper tail, and the two-sided value p = 0.040 as POOLED_EXACT_P does: the enumeration is itself
+    # checked against the published example.
+    dist = _conditional_distribution(RABBITS)
+    observed = sum(r[0] for r in RABBITS)
+    upper = float(sum(p for t, p in dist.items() if t >= observed))
+    assert upper == pytest.approx(0.020, abs=5e-4)
+    assert _brute_force_exact_p(RABBITS) == pytest.approx(0.040, abs=5e-4)
+    assert call("POOLED_EXACT_P", RABBITS) == pytest.approx(_brute_force_exact_p(RABBITS), rel=1e-9)
+
+
+def test_breslow_day_on_agresti_azt_data():
+    # rows: AZT yes with symptoms, AZT yes; AZT no with symptoms, AZT no (White, then Black), from R's
+    # array(c(14, 32, 93, 81, 11, 12, 52, 43), dim = c(2, 2, 2)) with dimnames azt, symptoms, race.
+    azt = [[14, 107, 32, 113], [11, 63, 12, 55]]
+    plain = ip.breslow_day(azt, tarone=False)   # DescTools' default (no Tarone correction): p = 0.2382
+    assert plain.p_value == pytest.approx(0.2382, abs=5e-5)
+    assert plain.statistic == pytest.approx(1.39, abs=5e-3)   # Agresti's 1.39 (from memory)
+    # with two strata Tarone's correction changes nothing visible; the sheet's function uses it
+    assert call("POOLED_HOMOGENEITY_P", azt) == pytest.approx(0.2382, abs=5e-5)
+
+
 # ---------------------------------------------------------------- exact conditional test
 
 def _brute_force_exact_p(rows):
     """Enumerate every combination of focal-selected counts with the strata margins fixed (exact fractions)."""
+    dist = _conditional_distribution(rows)
+    observed = dist[sum(r[0] for r in rows)]
+    return float(sum(p for p in dist.values() if p <= observed))
+
+
+def _conditional_distribution(rows):
+    """The distribution of the total focal-selected count given every stratum's margins (exact fractions)."""
     supports = []
     for fs, fa, rs, ra in rows:
         m1 = fs + rs
@@ -148,8 +195,7 @@ def _brute_force_exact_p(rows):
         for _, q in combo:
             p *= q
         dist[t] = dist.get(t, 0) + p
-    observed = dist[sum(r[0] for r in rows)]
-    return float(sum(p for p in dist.values() if p <= observed))
+    return dist
 
 
 @pytest.mark.parametrize("seed", range(8))

@@ -335,6 +335,20 @@ def test_libreoffice_recomputes_the_new_sheets_standard_formulas_to_the_same_val
     # LibreOffice's own COUNTIFS (with several conditions), INDEX/MATCH, MIN, SUM, COUNTIF, AVERAGE, STDEV
     # and IF, recomputed on opening: the same values trueband stored (cells that call trueband's functions
     # show #NAME? there and are skipped, as are cells that depend on them)
+    header, rows = table(n=200, seed=5)
+    result = make_study(write_book(tmp_path / "d.xlsx", header, rows, SETUP), tmp_path / "study.xlsx")
+    checked, mismatches = libreoffice_mismatches(soffice, result.path, (*NEW_SHEETS, "Bands"), tmp_path)
+    assert not mismatches, mismatches[:10]
+    # the per-group score columns of Bands, the counts of every sheet
+    assert checked.get("Bands", 0) >= 200 * 5
+    for sheet in NEW_SHEETS:
+        assert checked.get(sheet, 0) >= 10, (sheet, checked)
+
+
+def libreoffice_mismatches(soffice, book, sheets, folder):
+    """LibreOffice's recomputation (on opening) of the standard formulas of ``sheets`` against the values trueband
+    stored: cells that call a trueband function, or read (through any chain) a cell that does, are skipped
+    (LibreOffice cannot compute them). Returns (cells compared per sheet, mismatches)."""
     from openpyxl.formula import Tokenizer
 
     from test_study_libreoffice import CSV_FILTER, RECALC_ALWAYS, convert, read_csv, same
@@ -342,19 +356,17 @@ def test_libreoffice_recomputes_the_new_sheets_standard_formulas_to_the_same_val
     from trueband.funcs import REGISTRY
     from trueband.funcs.registry import normalize_name
 
-    header, rows = table(n=200, seed=5)
-    result = make_study(write_book(tmp_path / "d.xlsx", header, rows, SETUP), tmp_path / "study.xlsx")
-    profile = tmp_path / "profile"
+    profile = folder / "profile"
     (profile / "user").mkdir(parents=True)
     (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
-    convert(soffice, result.path, CSV_FILTER, tmp_path / "csv", profile)
-    formulas = load_workbook(result.path, data_only=False)
-    values = load_workbook(result.path, data_only=True)
+    convert(soffice, book, CSV_FILTER, folder / "csv", profile)
+    formulas = load_workbook(book, data_only=False)
+    values = load_workbook(book, data_only=True)
     csv_rows = {}
 
     def csv(sheet):
         if sheet not in csv_rows:
-            csv_rows[sheet] = read_csv(tmp_path, sheet)
+            csv_rows[sheet] = read_csv(folder, sheet)
         return csv_rows[sheet]
 
     tainted_memo: dict = {}
@@ -386,7 +398,7 @@ def test_libreoffice_recomputes_the_new_sheets_standard_formulas_to_the_same_val
         return result_
 
     checked, mismatches = {}, []
-    for sheet in (*NEW_SHEETS, "Bands"):
+    for sheet in sheets:
         for row in formulas[sheet].iter_rows():
             for c in row:
                 text = c.value
@@ -396,11 +408,7 @@ def test_libreoffice_recomputes_the_new_sheets_standard_formulas_to_the_same_val
                 checked[sheet] = checked.get(sheet, 0) + 1
                 if not same(values[sheet][c.coordinate].value, theirs):
                     mismatches.append((sheet, c.coordinate, text[:70], values[sheet][c.coordinate].value, theirs))
-    assert not mismatches, mismatches[:10]
-    # the per-group score columns of Bands, the counts of every sheet
-    assert checked.get("Bands", 0) >= 200 * 5
-    for sheet in NEW_SHEETS:
-        assert checked.get(sheet, 0) >= 10, (sheet, checked)
+    return checked, mismatches
 
 
 def test_with_too_many_rows_for_per_group_columns_the_groups_sheet_says_why(tmp_path, monkeypatch):
@@ -422,3 +430,32 @@ def test_with_too_many_rows_for_per_group_columns_the_groups_sheet_says_why(tmp_
     assert women[0] == "Women" and women[1] == int((df["Sex"] == "Women").sum())
     assert women[2] == pytest.approx(df[df["Sex"] == "Women"]["score"].mean(), rel=1e-12)  # pandas
     assert str(women[4]).startswith("not computable: with 120 rows the per-group score columns")
+
+
+def test_the_standard_deviations_convention_names_its_cases_and_what_is_from_memory():
+    # Castaneda v. Partida, 430 U.S. 482 (decided March 23, 1977) and Hazelwood School District v. United States,
+    # 433 U.S. 299 (decided June 27, 1977): the reporter citations and years checked against the published
+    # opinions (openjurist.org/430/us/482; case-law.vlex.com, 433 U.S. 299); the peer-reviewed review of
+    # Hazelwood's binomial test, Meier, Sacks & Zabell (1984), American Bar Foundation Research Journal 9(1),
+    # 139-186, checked against its published abstract. The footnote numbers and the exact phrase were not found
+    # by search: the words say they are cited from memory.
+    from trueband.bridge.study.words import IMPACT_Z_WORDS
+
+    assert "Castaneda v. Partida, 430 U.S. 482 (1977)" in IMPACT_Z_WORDS
+    assert "Hazelwood School District v. United States, 433 U.S. 299 (1977)" in IMPACT_Z_WORDS
+    assert "American Bar Foundation Research Journal 9, 139-186" in IMPACT_Z_WORDS
+    assert "n.17 and 433 U.S. at 308 n.14, are cited from memory" in IMPACT_Z_WORDS
+    assert "common practice" in IMPACT_Z_WORDS and "not a legal test" in IMPACT_Z_WORDS
+
+
+def test_the_ratio_interval_cites_the_peer_reviewed_article_it_follows():
+    # Morris, S. B. & Lobsenz, R. E. (2000). Significance tests and confidence intervals for the adverse impact
+    # ratio. Personnel Psychology 53, 89-111: journal, volume and pages checked against the published abstract,
+    # which recommends reporting "an estimate of the adverse impact ratio along with a confidence interval"; the
+    # log form of the interval is that of Katz et al. (1978), checked numerically against statsmodels and scipy in
+    # tests/test_impact_intervals.py.
+    from trueband.funcs import lookup
+
+    reference = lookup("IMPACT_RATIO_CI").reference
+    assert "Morris" in reference and "Lobsenz" in reference and "2000" in reference
+    assert "Personnel Psychology" in reference and "53" in reference and "89-111" in reference

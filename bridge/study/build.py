@@ -93,7 +93,7 @@ def plan(ctx: StudyContext) -> tuple[SetupSheet, Bands]:
     content = sheets.content.write(ctx)
     sheets.summary.write(ctx, setup, rel, raters, validity, impact, utility, strata, combined, cut_score=cut_score,
                          standard=standard, content=content, options=options)
-    sheets.notes.write(ctx)
+    sheets.notes.write(ctx, impact)
     return setup, bands
 
 

@@ -16,9 +16,12 @@ NOT_COMPUTABLE = "not computable: "
 IMPACT_Z_WORDS = (
     "z is the gap between the two selection rates in standard deviations (standard errors of the gap if the "
     "rates were equal), two-sided; US courts have often treated a gap of more than two or three standard "
-    "deviations as more than chance (common practice in US case law; the phrase is from Castaneda v. Partida, "
-    "430 U.S. 482, 496 n.17 (1977), and Hazelwood School District v. United States, 433 U.S. 299, 308 n.14 "
-    "(1977); from memory). It is a convention, not a legal test.")
+    "deviations as more than chance (common practice in US case law, after Castaneda v. Partida, 430 U.S. 482 "
+    "(1977), and Hazelwood School District v. United States, 433 U.S. 299 (1977), which used a binomial test of "
+    "this kind; the footnotes with the phrase, 430 U.S. at 496 n.17 and 433 U.S. at 308 n.14, are cited from "
+    "memory; see Meier, P., Sacks, J. & Zabell, S. L. (1984). What happened in Hazelwood: statistics, employment "
+    "discrimination, and the 80% rule. American Bar Foundation Research Journal 9, 139-186). It is a "
+    "convention, not a legal test.")
 
 #: The extra selections to reach four-fifths, in the study's own words.
 EXTRA_SELECTIONS_WORDS = (
@@ -52,7 +55,12 @@ RATIO_INTERVAL_WORDS = (
     "selected over the reference group's.")
 
 #: The reference group of a demographic column when none is given.
-REFERENCE_BY_RATE = "(the group with the highest selection rate at the cut when the study was built)"
+REFERENCE_BY_RATE = "(the group with the highest selection rate at the cut: the default)"
+#: Beside the reference cell after an edit (live: the cell's formula compares the group's rate with the highest).
+REFERENCE_CHOSEN = "(chosen here; the default is the group with the highest selection rate at the cut)"
+#: Beside the reference cell when the setup named the group, and after an edit ("... gave " & the group).
+REFERENCE_GIVEN = "(as given in the setup)"
+REFERENCE_EDITED = "(chosen here; the setup gave "
 
 #: Pooling over strata when the odds ratios differ.
 POOLING_REFUSED = (
@@ -64,6 +72,14 @@ POOLING_REFUSED = (
 STAGES_CAUTION = (
     "An acceptable bottom line does not excuse a stage with adverse impact: each component of a selection "
     "process is examined on its own (Connecticut v. Teal, 457 U.S. 440 (1982); 29 CFR 1607.4(C)).")
+
+#: The reference group is one live choice: the Impact sheet's cell, read by every other impact sheet.
+LIVE_REFERENCE_WORDS = (
+    "The reference group of each demographic column is the one in the Impact sheet's 'Reference group' cell "
+    "(by default the group with the highest selection rate at the cut when the study was built). Edit that cell "
+    "and recalculate: the Impact, Strata, Cuts, Stages and Groups sheets and the Summary all compare with the "
+    "group named there.")
+__all__ += ["LIVE_REFERENCE_WORDS", "REFERENCE_CHOSEN", "REFERENCE_GIVEN", "REFERENCE_EDITED"]
 
 # ---------------------------------------------------------------- fairness, item bias and combined predictors
 

@@ -11,6 +11,7 @@ import dataclasses
 import numpy as np
 from openpyxl.chart import ScatterChart, Series
 
+from trueband.funcs import call
 from trueband.funcs.impact_intervals import passing_counts
 
 from .. import charts
@@ -51,8 +52,11 @@ def write(ctx: StudyContext, setup: SetupSheet, impact: Impact, bands: BandsLayo
     row += g.para(row, 1, f"One row per cut: passing = score at or above it. {distinct.size} distinct scores "
                           f"above the lowest (a cut at the lowest score passes everybody)"
                           + (f"; {cuts.size} of them, evenly spread, are shown." if cuts.size < distinct.size
-                             else ".") + " Each group is compared with the reference group its Impact table "
-                          "had when the study was built; the lowest impact ratio of the row is shown with its "
+                             else ".") + " One block per demographic column, as on Impact: each column has its own "
+                          "reference group, and a reviewer reads each column's comparisons (and the chart's line "
+                          "for each column) rather than one figure mixing them. Each group is compared with the "
+                          "reference group named in the Impact sheet's cell for its column (edit it there: these "
+                          "rows follow on recalculation); the lowest impact ratio of the row is shown with its "
                           "group, interval, z, Fisher p and the extra selections to reach four-fifths. A cut is a "
                           "decision for professional judgment: these figures show the trade-off, they do not "
                           "choose.", width=150)
@@ -88,29 +92,33 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
            utility, validity: Ref | None):
     """One demographic column's table of cuts from ``row``; returns (the next free row, its chart series)."""
     d = ctx.data
-    focal = [k for k in t.names if k != t.reference]
-    order = focal + [t.reference]        # the passing columns: focal groups first, as the ratio columns
+    order = list(t.names)                # every group: the reference is the one named on Impact now
     m = len(order)
     counts = passing_counts(d.scores, list(t.demographic.groups), cuts=cuts)
     index = {name: counts.groups.index(name) for name in order}
     applicants = {name: t.counts[name][1] for name in order}
-    g.set(row, 1, f"{t.demographic.header} (reference group: {t.reference})", "heading")
     names_row, app_row, head = row + 1, row + 2, row + 3
     c_pass, c_rate, c_ratio = 2, 2 + m, 2 + 2 * m
-    c_low = c_ratio + len(focal)
+    c_low = c_ratio + m
+    g.set(row, 1, f"{t.demographic.header}", "heading")
+    g.set(row, 2, "Reference group (the Impact sheet's cell)")
+    ctx.link(g, row, c_pass + 3, t.reference_cell)
+    g.set(row, c_pass + 4, "its place among the groups")
+    ref_at = ctx.expression(g, row, c_pass + 5, "MATCH({reference},{names},0)", lambda: order.index(t.reference) + 1,
+                            style="count", reference=t.reference_cell,
+                            names=area(SHEET, c_pass, names_row, c_pass + m - 1, names_row)).fixed()
     g.set(names_row, 1, "Group")
     g.set(app_row, 1, "Applicants (Impact)")
     apps = {}
     for j, name in enumerate(order):
         g.set(names_row, c_pass + j, name)
+        g.set(names_row, c_ratio + j, name)
         impact_row = t.first + t.names.index(name)
         # fixed ($B$17): every cut's row divides by the same applicants, so a row's formulas have one shape
         apps[name] = ctx.link(g, app_row, c_pass + j, cell(IMPACT_SHEET, impact_row, 2, value=applicants[name]),
                               style="count").fixed()
         g.set(head, c_pass + j, f"Passing: {name}", "header")
         g.set(head, c_rate + j, f"Pass rate: {name}", "header")
-    for j, name in enumerate(focal):
-        g.set(names_row, c_ratio + j, name)
         g.set(head, c_ratio + j, f"Impact ratio: {name}", "header")
     g.set(head, 1, "Cut", "header")
     tail = ("Lowest impact ratio", "Its group", "Lower limit", "Upper limit", "z: gap in standard deviations",
@@ -124,7 +132,7 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
     for c in range(1, c_low + len(tail)):
         g.widths.setdefault(c, 12)
     first = head + 1
-    ref_j = index[t.reference]
+    app_area = area(SHEET, c_pass, app_row, c_pass + m - 1, app_row).fixed()
     for i, cut in enumerate(cuts):
         r = first + i
         cut_ref = ctx.put(g, r, 1, float(cut), lambda v=float(cut): v, style="score")
@@ -135,11 +143,11 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
                 lambda v=int(counts.passing[i, index[name]]): v, style="count", groups=t.numbers,
                 number=t.demographic.numbers[name], scores=bands.scores, cut=cut_ref)
             ctx.formula(g, r, c_rate + j, "SELECTION_RATE", passing[name], apps[name], style="coef")
-        ratios = []
-        for j, name in enumerate(focal):
-            ratios.append(ctx.formula(g, r, c_ratio + j, "IMPACT_RATIO", passing[name], apps[name],
-                                      passing[t.reference], apps[t.reference], style="coef"))
-        _lowest(ctx, g, r, c_low, focal, ratios, passing, apps, t, names_row, c_pass, c_ratio, setup)
+        row_of = _RowOf(ctx, area(SHEET, c_pass, r, c_pass + m - 1, r), app_area)
+        reference = (row_of.at(ref_at, passing[t.reference].value), row_of.at_app(ref_at, applicants[t.reference]))
+        ratios = [_ratio(ctx, g, r, c_ratio + j, name, t, passing, apps, reference, names_row)
+                  for j, name in enumerate(order)]
+        _lowest(ctx, g, r, c_low, order, ratios, passing, apps, reference, row_of, names_row, c_ratio, setup)
         if with_criterion:
             share = float((d.scores[~np.isnan(d.scores)] >= cut).mean())
             sr = ctx.expression(g, r, c_low + len(tail) - 2, 'COUNTIF({scores},">="&{cut})/COUNT({scores})',
@@ -153,28 +161,70 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
     return last + 2, series
 
 
-def _lowest(ctx, g, r, c, focal, ratios, passing, apps, t, names_row, c_pass, c_ratio, setup) -> None:
-    """The row's lowest ratio, its group, and that comparison's interval, z, Fisher p and extra selections."""
-    values = [x.value for x in ratios]
-    usable = [(v, k) for v, k in zip(values, focal) if isinstance(v, float)]
-    if not usable:
-        ctx.not_computable_at(g, r, c, "no impact ratio is computable at this cut (the reference group has "
-                                       "nobody passing)")
-        return
-    low_value, low_group = min(usable, key=lambda x: x[0])
-    ratio_row = area(SHEET, c_ratio, r, c_ratio + len(focal) - 1, r)
-    low = ctx.expression(g, r, c, "MIN({ratios})", lambda: low_value, style="coef", ratios=ratio_row)
-    names = area(SHEET, c_ratio, names_row, c_ratio + len(focal) - 1, names_row).fixed()
+#: What a cut's ratio cell shows when the reference group has nobody passing (the ratio is not defined).
+NOBODY_PASSES = "nobody in the reference group passes"
+#: What the lowest-ratio cell shows when no ratio of its row is defined.
+NO_RATIO = "no impact ratio is computable at this cut"
+
+
+@dataclasses.dataclass(frozen=True)
+class _RowOf:
+    """INDEX into one cut row's passing counts and the applicants row, by a place (a cell or a MATCH text)."""
+
+    ctx: StudyContext
+    passing: Ref
+    applicants: Ref
+
+    def at(self, place, value) -> Expr:
+        return Expr(self.ctx.text("INDEX({row},", SHEET, row=self.passing) + _place(place) + ")", value)
+
+    def at_app(self, place, value) -> Expr:
+        return Expr(self.ctx.text("INDEX({row},", SHEET, row=self.applicants) + _place(place) + ")", value)
+
+
+def _place(place) -> str:
+    return place if isinstance(place, str) else place.address(SHEET)
+
+
+def _ratio(ctx, g, r, c, name, t: ImpactTable, passing, apps, reference, names_row) -> Ref:
+    """A group's impact ratio at one cut against the reference group named on Impact; text for the reference
+    group itself and when nobody of the reference group passes (same formula shape in every row)."""
+    ref_pass, ref_app = reference
+    text = ("=" + ctx.text('IF({name}={reference},"reference group",IF(', SHEET, name=cell(SHEET, names_row, c).fixed(),
+                           reference=t.reference_cell) + ref_pass.text + '=0,"' + NOBODY_PASSES + '",'
+            + ctx.call_text("IMPACT_RATIO", (passing[name], apps[name], ref_pass, ref_app), SHEET) + "))")
+
+    def check():
+        if name == t.reference:
+            return "reference group"
+        if ref_pass.value == 0:
+            return NOBODY_PASSES
+        return call("IMPACT_RATIO", passing[name].value, apps[name].value, ref_pass.value, ref_app.value)
+    return ctx.put(g, r, c, text, check, style="coef")
+
+
+def _lowest(ctx, g, r, c, order, ratios, passing, apps, reference, row_of: _RowOf, names_row, c_ratio,
+            setup) -> None:
+    """The row's lowest ratio, its group, and that comparison's interval, z, Fisher p and extra selections;
+    text when no ratio of the row is defined (one formula shape in every row)."""
+    usable = [(x.value, k) for x, k in zip(ratios, order) if isinstance(x.value, float)]
+    ratio_row = area(SHEET, c_ratio, r, c_ratio + len(order) - 1, r)
+    low = ctx.expression(g, r, c, 'IF(COUNT({ratios})=0,"' + NO_RATIO + '",MIN({ratios}))',
+                         lambda: min(usable)[0] if usable else NO_RATIO, style="coef", ratios=ratio_row)
+    low_group = min(usable, key=lambda x: x[0])[1] if usable else None
+    names = area(SHEET, c_ratio, names_row, c_ratio + len(order) - 1, names_row).fixed()
     where = ctx.text("MATCH({low},{ratios},0)", SHEET, low=low, ratios=ratio_row)
-    ctx.put(g, r, c + 1, "=" + ctx.text("INDEX({names},", SHEET, names=names) + where + ")", lambda: low_group)
-    focal_pass = Expr(ctx.text("INDEX({row},", SHEET, row=area(SHEET, c_pass, r, c_pass + len(focal) - 1, r))
-                      + where + ")", passing[low_group].value)
-    focal_app = Expr(ctx.text("INDEX({row},", SHEET, row=area(SHEET, c_pass, names_row + 1, c_pass + len(focal) - 1,
-                                                                 names_row + 1).fixed()) + where + ")",
-                     apps[low_group].value)
-    four = (focal_pass, focal_app, passing[t.reference], apps[t.reference])
+    guard = ctx.text("IF(ISNUMBER({low}),", SHEET, low=low)
+    ctx.put(g, r, c + 1, "=" + guard + ctx.text("INDEX({names},", SHEET, names=names) + where + '),"")',
+            lambda: low_group or "")
+    focal = (row_of.at(where, passing[low_group].value if low_group else None),
+             row_of.at_app(where, apps[low_group].value if low_group else None))
     for j, (function, extra, style) in enumerate((("IMPACT_RATIO_CI", ("lower", setup.confidence), "coef"),
                                                   ("IMPACT_RATIO_CI", ("upper", setup.confidence), "coef"),
                                                   ("IMPACT_Z", (), "coef"), ("IMPACT_FISHER", (), "p"),
                                                   ("IMPACT_EXTRA_SELECTIONS", (), "count"))):
-        ctx.formula(g, r, c + 2 + j, function, *four, *extra, style=style)
+        args = (*focal, *reference, *extra)
+        text = "=" + guard + ctx.call_text(function, args, SHEET) + ',"")'
+        ctx.put(g, r, c + 2 + j, text,
+                (lambda f=function, a=args: call(f, *(ctx.value(x) for x in a))) if low_group else (lambda: ""),
+                style=style)

@@ -11,11 +11,13 @@ import dataclasses
 
 import numpy as np
 
-from ..context import Ref, StudyContext
+from trueband.funcs.errors import InsufficientDataError
+
+from ..context import Expr, Ref, StudyContext, area, cell
 from ..words import CAUTION
 from ..setup_impact import MAX_GROUP_SCORE_CELLS
 from .bands import BandsLayout
-from .impact import Impact
+from .impact import SHEET as IMPACT_SHEET, Impact, unless_reference
 from .setup import SetupSheet
 
 __all__ = ["Groups", "write", "SHEET"]
@@ -52,13 +54,15 @@ def write(ctx: StudyContext, setup: SetupSheet, impact: Impact, bands: BandsLayo
     first_d = None
     for k, t in enumerate(impact.tables):
         k_index = next(i for i, demo in enumerate(d.impact.demographics) if demo is t.demographic)
-        g.set(row, 1, f"{t.demographic.header} (reference group: {t.reference})", "heading")
+        g.set(row, 1, f"{t.demographic.header}", "heading")
+        g.set(row, 2, "Reference group (the Impact sheet's cell)")
+        ctx.link(g, row, 5, t.reference_cell)
         for c, h in enumerate(_HEAD if d.criterion is not None else _HEAD[:7], start=1):
             g.set(row + 1, c, h, "header")
         first = row + 2
         for i, name in enumerate(t.names):
             if live:
-                d_ref = _group_row(ctx, g, first + i, t, k_index, name, bands, setup)
+                d_ref = _group_row(ctx, g, first + i, t, k_index, name, bands, setup, (first, first + len(t.names) - 1))
                 first_d = first_d or d_ref
             else:
                 _counts_only(ctx, g, first + i, t, name, bands)
@@ -79,10 +83,7 @@ def _counts_only(ctx, g, r: int, t, name: str, bands: BandsLayout) -> None:
               f"add more than {MAX_GROUP_SCORE_CELLS:,} formula cells to the recalculation; study a sample of the rows "
               f"for this figure")
     for c in range(4, 8 if ctx.data.criterion is None else 14):
-        if c == 5 and name == t.reference:
-            g.set(r, c, "reference group")
-        elif c == 4 or c >= 8 or name != t.reference:
-            ctx.not_computable_at(g, r, c, reason)
+        ctx.not_computable_at(g, r, c, reason)
 
 
 def _values(ctx: StudyContext, t, name: str, x: np.ndarray) -> list[float]:
@@ -91,7 +92,9 @@ def _values(ctx: StudyContext, t, name: str, x: np.ndarray) -> list[float]:
     return picked[~np.isnan(picked)].tolist()
 
 
-def _group_row(ctx, g, r: int, t, k: int, name: str, bands: BandsLayout, setup: SetupSheet) -> Ref | None:
+def _group_row(ctx, g, r: int, t, k: int, name: str, bands: BandsLayout, setup: SetupSheet,
+               block: tuple[int, int]) -> Ref | None:
+    """One group's row (``block``: the first and last rows of its column's groups); returns its d of the score."""
     d = ctx.data
     g.set(r, 1, name)
     result = None
@@ -101,22 +104,46 @@ def _group_row(ctx, g, r: int, t, k: int, name: str, bands: BandsLayout, setup: 
     for what, c0, x in blocks:
         mine = _values(ctx, t, name, x)
         here = bands.column(bands.extra[f"{what}:{k}:{name}"]).with_value(mine, f"the {what}s of {name}")
-        ctx.expression(g, r, c0, "COUNT({x})", lambda v=len(mine): v, style="count", x=here)
+        n = ctx.expression(g, r, c0, "COUNT({x})", lambda v=len(mine): v, style="count", x=here)
         ctx.expression(g, r, c0 + 1, "AVERAGE({x})", _stat(mine, np.mean, 1), style="coef", x=here)
-        ctx.expression(g, r, c0 + 2, "STDEV({x})", _stat(mine, lambda v: np.std(v, ddof=1), 2), style="coef",
-                       x=here)
-        if name == t.reference:
-            g.set(r, c0 + 3, "reference group")
-            continue
-        theirs = _values(ctx, t, t.reference, x)
-        ref = bands.column(bands.extra[f"{what}:{k}:{t.reference}"]).with_value(theirs, f"the {what}s of "
-                                                                                          f"{t.reference}")
+        sd = ctx.expression(g, r, c0 + 2, "STDEV({x})", _stat(mine, lambda v: np.std(v, ddof=1), 2), style="coef",
+                            x=here)
+        guards, places = _d_guards(ctx, t, what, c0, block, x, n, sd)
+        # the reference group's column of Bands, chosen by the name in the Impact sheet's cell
+        columns = ",".join(bands.column(bands.extra[f"{what}:{k}:{n}"]).address(SHEET) for n in t.names)
+        ref = Expr(ctx.text("CHOOSE(MATCH({reference},{names},0),", SHEET, reference=t.reference_cell,
+                            names=area(IMPACT_SHEET, 1, t.first, 1, t.last)) + columns + ")",
+                   _values(ctx, t, t.reference, x), f"the {what}s of {t.reference}")
         for j, part in enumerate(("estimate", "lower", "upper")):
-            written = ctx.formula(g, r, c0 + 3 + j, "COHENS_D_CI", here, ref, part, setup.confidence, style="coef",
-                                  key=f"{t.demographic.header}:d_{what}_{part}_{name}")
-            if what == "score" and part == "estimate":
+            written = unless_reference(ctx, g, r, c0 + 3 + j, "COHENS_D_CI", here, ref, part, setup.confidence,
+                                       group=cell(SHEET, r, 1).local(), reference=t.reference_cell,
+                                       is_reference=name == t.reference,
+                                       label="reference group" if part == "estimate" else "", style="coef",
+                                       guards=guards, places=places,
+                                       key=f"{t.demographic.header}:d_{what}_{part}_{name}")
+            if what == "score" and part == "estimate" and name != t.reference:
                 result = written
     return result
+
+
+def _d_guards(ctx, t, what: str, c0: int, block: tuple[int, int], x: np.ndarray, n: Ref, sd: Ref):
+    """The live guards of d (fewer than two values in either group, no spread in both) and their places: this
+    row's n and SD, and the reference group's, found in this block by the name in the Impact sheet's cell."""
+    first, last = block
+    names = area(SHEET, 1, first, 1, last).fixed()
+    mine = _values(ctx, t, t.reference, x)
+    ref_sd = float(np.std(mine, ddof=1)) if len(mine) >= 2 else InsufficientDataError("fewer than 2 values")
+    lookup = "INDEX({column},MATCH({reference},{names},0))"
+    places = dict(nf=n, sf=sd,
+                  nr=Expr(ctx.text(lookup, SHEET, column=area(SHEET, c0, first, c0, last).fixed(),
+                                   reference=t.reference_cell, names=names), len(mine)),
+                  sr=Expr(ctx.text(lookup, SHEET, column=area(SHEET, c0 + 2, first, c0 + 2, last).fixed(),
+                                   reference=t.reference_cell, names=names), ref_sd))
+    guards = (("{nf}<2", lambda nf, sf, nr, sr: nf < 2, f"the group has fewer than 2 {what} values"),
+              ("{nr}<2", lambda nf, sf, nr, sr: nr < 2, f"the reference group has fewer than 2 {what} values"),
+              ("AND({sf}=0,{sr}=0)", lambda nf, sf, nr, sr: sf == 0 and sr == 0,
+               f"every {what} of both groups is the same, so the pooled standard deviation is 0"))
+    return guards, places
 
 
 def _stat(values: list[float], f, at_least: int):

@@ -5,19 +5,22 @@ the small-numbers caution), an overview of the lowest ratios, and the score dist
 from __future__ import annotations
 
 import dataclasses
+import inspect
 from typing import Mapping
 
 import numpy as np
 from openpyxl.utils import get_column_letter
 
+from trueband.funcs import call
 from trueband.funcs.impact import tally_groups
+from trueband.funcs.impact_intervals import impact_flip
 
 from .. import charts
 from ..context import Expr, Ref, StudyContext, area, cell
 from ..setup import SetupError
 from ..setup_impact import Demographic
-from ..words import (CAUTION, EXTRA_SELECTIONS_WORDS, FLIP_WORDS, IMPACT_Z_WORDS, RATIO_INTERVAL_WORDS,
-                     REFERENCE_BY_RATE, SMALL_NUMBERS_WORDS)
+from ..words import (CAUTION, NOT_COMPUTABLE, EXTRA_SELECTIONS_WORDS, FLIP_WORDS, IMPACT_Z_WORDS, RATIO_INTERVAL_WORDS,
+                     REFERENCE_BY_RATE, REFERENCE_CHOSEN, REFERENCE_EDITED, REFERENCE_GIVEN, SMALL_NUMBERS_WORDS)
 from .bands import BandsLayout
 from .reliability import Reliability
 from .setup import SetupSheet
@@ -52,6 +55,11 @@ class ImpactTable:
     last: int
     key_prefix: str                 # "" for the first column, else "<column>:"
     rates: Mapping[str, Ref] = dataclasses.field(default_factory=dict)   # group -> its selection-rate cell
+    #: the reference group's input cell (its value: the group at build time); the other sheets read the
+    #: reference group through it, so an edit there reaches them on recalculation
+    reference_cell: Ref | None = None
+    #: beside the reference cell: how the group there was chosen (live: the default, or a choice made there)
+    how: Ref | None = None
 
 
 @dataclasses.dataclass(frozen=True)
@@ -135,7 +143,6 @@ def _table(ctx: StudyContext, g, row: int, demo: Demographic, numbers: Ref, sele
     reference, how = reference_group(ctx, demo, counts)
     g.set(row - 1, 1, "Reference group (edit to compare with another)")
     g.set(row - 1, 3, reference, "input")
-    g.set(row - 1, 4, how)
     for c, h in enumerate(HEAD, start=1):
         g.set(row, c, h, "header")
     first, last = row + 1, row + len(groups)
@@ -145,6 +152,10 @@ def _table(ctx: StudyContext, g, row: int, demo: Demographic, numbers: Ref, sele
     ref_sel, ref_app = counts[reference]
     ref_sel = Expr(ctx.text(lookup, SHEET, column=area(SHEET, 3, first, 3, last).fixed(), **places), ref_sel)
     ref_app = Expr(ctx.text(lookup, SHEET, column=area(SHEET, 2, first, 2, last).fixed(), **places), ref_app)
+    # a name that is not one of the groups would leave every comparison #N/A: say so beside the cell
+    ctx.expression(g, row - 1, 10, 'IF(ISNA(MATCH({name},{names},0)),"' + NOT_A_GROUP + '","")', lambda: "",
+                   **places)
+    how = _how_chosen(ctx, g, row - 1, demo, reference, how, places, first, last)
     ratios: dict[str, Ref] = {}
     flags: dict[str, Ref] = {}
     for i, name in enumerate(groups):
@@ -159,19 +170,23 @@ def _table(ctx: StudyContext, g, row: int, demo: Demographic, numbers: Ref, sele
                                 style="count", groups=numbers, number=number, selected=selected_flags)
         rates[name] = ctx.formula(g, r, 4, "SELECTION_RATE", chosen, applicants, style="coef", key=f"{prefix}rate_{name}")
         g.set(r, 10, ctx.text("=0.8*MAX({rates})", SHEET, rates=area(SHEET, 4, first, 4, last).fixed()), "coef")
-        if name == reference:
-            g.set(r, 5, "reference group")
-            continue
         four = (chosen, applicants, ref_sel, ref_app)
         for c, function, extra, style in _FIGURES:
-            written = ctx.formula(
-                g, r, c, function, *four, *extra(setup),
+            # every row has the same formulas: the row of the reference group (the one named in the reference
+            # cell now, not when the study was built) shows that it is the reference instead of figures
+            written = unless_reference(
+                ctx, g, r, c, function, *four, *extra(setup), group=cell(SHEET, r, 1).local(),
+                reference=places["name"], is_reference=name == reference,
+                label="reference group" if c == 5 else "",
                 # Fisher's p and the small-numbers flag are defined when nobody passes; the rest are not
                 before=None if function in ("IMPACT_FISHER", "IMPACT_SMALL_NUMBERS") else setup.passes,
                 # shown as yes/no: spreadsheet apps show a stored TRUE/FALSE of a function they do not
                 # know as an error, while stored text shows as it is
                 wrap='IF({},"yes","no")' if function in ("FOUR_FIFTHS", "IMPACT_SMALL_NUMBERS") else "{}",
-                style=style, key=_key(prefix, function, extra(setup), name))
+                style=style, key=_key(prefix, function, extra(setup), name),
+                guards=count_guards(function, (extra(setup) or (None,))[0]), places=dict(zip(_FOUR, four)))
+            if name == reference:
+                continue
             if function == "IMPACT_RATIO":
                 ratios[name] = written
             elif function == "FOUR_FIFTHS":
@@ -180,13 +195,105 @@ def _table(ctx: StudyContext, g, row: int, demo: Demographic, numbers: Ref, sele
     if n_below is not None:
         n_below = n_below.with_value(sum(1 for f in flags.values() if f.value is True))
     return ImpactTable(demo, numbers, reference, tuple(groups), counts, ratios, min_ratio, n_below, row, first,
-                       last, prefix, rates)
+                       last, prefix, rates, cell(SHEET, row - 1, 3, value=reference, name="the reference group"), how)
+
+
+def _how_chosen(ctx: StudyContext, g, r: int, demo: Demographic, reference: str, how: str, places: dict,
+                first: int, last: int) -> Ref:
+    """Beside the reference cell, live: whether it holds the default (the setup's group, else a group with the
+    highest selection rate at the cut) or a group chosen there; empty when it names no group (said beside)."""
+    found = "ISNA(MATCH({name},{names},0))"
+    if demo.reference is not None:   # the setup's group: its label in column A
+        given = cell(SHEET, first + list(demo.tally.names).index(reference), 1).fixed()
+        template = ('IF({name}={given},"' + REFERENCE_GIVEN + '",IF(' + found + ',"","' + REFERENCE_EDITED
+                    + '"&{given}&")"))')
+        return ctx.expression(g, r, 4, template, lambda: how, given=given, **places)
+    template = ("IF(" + found + ',"",IF(INDEX({rates},MATCH({name},{names},0))=MAX({rates}),"' + REFERENCE_BY_RATE
+                + '","' + REFERENCE_CHOSEN + '"))')
+    return ctx.expression(g, r, 4, template, lambda: how, rates=area(SHEET, 4, first, 4, last).fixed(), **places)
+
+
+def unless_reference(ctx: StudyContext, g, r: int, c: int, function: str, *args, group: Ref, reference: Ref,
+                     is_reference: bool, label: str, before=None, wrap: str = "{}", style: str | None = None,
+                     key: str | None = None, guards: tuple = (), places: Mapping | None = None) -> Ref:
+    """Write ``=IF(group=reference,"label",IF(<guard>,"not computable: <reason>",...<wrap of function(args)>))``:
+    one formula shape for every group's row, so that editing the reference group on Impact moves the label, the
+    figures and the reasons a figure is not computable with it. ``guards``: (condition template on ``places``,
+    the same condition in Python on their values, the reason in words), tested in order, live in the formula and
+    at build time alike. ``is_reference`` says whether the row is the reference group's at build time."""
+    inner = wrap.format(ctx.call_text(function, args, g.title))
+    for template, _, reason in reversed(guards):
+        inner = ctx.text("IF(" + template + ',"' + NOT_COMPUTABLE + reason + '",', g.title, **places) + inner + ")"
+    text = "=" + ctx.text('IF({group}={reference},"' + label + '",', g.title, group=group, reference=reference) \
+        + inner + ")"
+    if is_reference:
+        check = (lambda: label)
+    else:
+        def check():
+            if guards:
+                # the values as stored (an exception for a cell not computable): a guard reads only what the
+                # guards before it leave defined, as the formula's IFs do
+                values = {k: getattr(v, "value", v) for k, v in places.items()}
+                for _, holds, reason in guards:
+                    if holds(**values):
+                        return NOT_COMPUTABLE + reason
+            if before is not None:
+                before()
+            return call(function, *(ctx.value(a) for a in args))
+    # the build-time reference row is not named (its figures are the label until the reference changes)
+    return ctx.put(g, r, c, text, check, style=style, key=None if is_reference else key)
+
+
+def count_guards(function: str, part: str | None = None, *, chosen: str = "is selected",
+                 people: str = "applicants with a score") -> tuple:
+    """The live guards of a comparison figure on the four counts {fs}, {fa} (the group's chosen and people), {rs},
+    {ra} (the reference group's): when one holds the figure is not defined, and the sheet says why in words.
+    ``chosen`` and ``people``: the sheet's words for them (Stages: passed, reached the stage)."""
+    guards = [("{fa}=0", lambda fs, fa, rs, ra: fa == 0, f"the group has no {people}"),
+              ("{ra}=0", lambda fs, fa, rs, ra: ra == 0, f"the reference group has no {people}")]
+    if function in ("IMPACT_RATIO", "FOUR_FIFTHS", "IMPACT_EXTRA_SELECTIONS", "IMPACT_RATIO_CI",
+                    "IMPACT_ODDS_RATIO"):
+        guards.append(("{rs}=0", lambda fs, fa, rs, ra: rs == 0,
+                       f"nobody in the reference group {chosen}, so a ratio to its rate (0) is undefined"))
+    if function == "IMPACT_FLIP":
+        # IMPACT_FLIP's rule: a verdict that is not significant flips only if removing the group's selections
+        # (down to none) makes it significant; the function finds none when even none selected is not
+        guards.append((f"AND(IMPACT_FISHER({{fs}},{{fa}},{{rs}},{{ra}})>={FLIP_ALPHA},"
+                       f"IMPACT_FISHER(0,{{fa}},{{rs}},{{ra}})>={FLIP_ALPHA})",
+                       lambda fs, fa, rs, ra: min(call("IMPACT_FISHER", fs, fa, rs, ra),
+                                                  call("IMPACT_FISHER", 0, fa, rs, ra)) >= FLIP_ALPHA,
+                       f"the exact test is not significant at {FLIP_ALPHA} and stays so even with nobody of the "
+                       f"group {chosen.removeprefix('is ')}, so no number of selections flips it"))
+    if function == "IMPACT_Z":
+        guards += [("{fs}+{rs}=0", lambda fs, fa, rs, ra: fs + rs == 0,
+                    f"nobody in either group {chosen}, so z is undefined"),
+                   ("{fs}+{rs}={fa}+{ra}", lambda fs, fa, rs, ra: fs + rs == fa + ra,
+                    f"everybody in both groups {chosen}, so z is undefined")]
+    if function == "IMPACT_RATIO_CI":
+        guards.append(("AND({fs}={fa},{rs}={ra})", lambda fs, fa, rs, ra: fs == fa and rs == ra,
+                       f"everybody in both groups {chosen}, so the interval has no width"))
+        if part == "upper":
+            guards.append(("{fs}=0", lambda fs, fa, rs, ra: fs == 0,
+                           f"nobody in the group {chosen}, so the upper limit is infinite"))
+    if function == "IMPACT_ODDS_RATIO":
+        guards.append(("{fs}={fa}", lambda fs, fa, rs, ra: fs == fa,
+                       f"everybody in the group {chosen}, so its odds are infinite"))
+    return tuple(guards)
 
 
 def _key(prefix: str, function: str, extra: tuple, name: str) -> str:
     part = f"_{extra[0]}" if extra and isinstance(extra[0], str) else ""
     return f"{prefix}{function.lower()}{part}_{name}"
 
+
+#: The significance level of the flip count (IMPACT_FLIP's default, which the sheet uses).
+FLIP_ALPHA = inspect.signature(impact_flip).parameters["alpha"].default
+
+#: The four counts' places in the guards' conditions (see :func:`count_guards`).
+_FOUR = ("fs", "fa", "rs", "ra")
+
+#: Beside the reference cell when it names no group of the table.
+NOT_A_GROUP = "not one of the groups below: type a label of column A as written there"
 
 #: (column, function, the arguments after the four counts, style) of each comparison's figures
 _FIGURES = ((5, "IMPACT_RATIO", lambda s: (), "coef"), (6, "FOUR_FIFTHS", lambda s: (), None),
@@ -198,16 +305,21 @@ _FIGURES = ((5, "IMPACT_RATIO", lambda s: (), "coef"), (6, "FOUR_FIFTHS", lambda
             (15, "IMPACT_SMALL_NUMBERS", lambda s: (), None))
 
 
-def _lowest(ctx, g, last, first, groups, reference, ratios, column, setup) -> tuple[Ref, Ref | None]:
-    """The lowest ratio of one table and how many of its groups fall below four-fifths, below the table."""
+#: The lowest ratio of a table (or of every column) when one of its ratios is not computable.
+RATIO_MISSING = "an impact ratio of this table is not computable (see the table)"
+RATIO_MISSING_ALL = "an impact ratio is not computable (see the tables above)"
+
+
+def _lowest(ctx, g, last, first, groups, reference, ratios, column, setup) -> tuple[Ref, Ref]:
+    """The lowest ratio of one table and how many of its groups fall below four-fifths, below the table: live, so
+    that a reference group for which a ratio is not computable (or no longer is) shows so after recalculation."""
     g.set(last + 2, 1, "Lowest impact ratio")
     values = [ratios[k].value for k in groups if k != reference]
-    if not all(isinstance(x, float) for x in values):
-        return ctx.not_computable_at(g, last + 2, 5, setup.cut_message or "an impact ratio is not computable "
-                                                                           "(see the table)",
-                                     key=f"{column}:min_ratio"), None
-    min_ratio = ctx.expression(g, last + 2, 5, "MIN({ratios})", lambda: min(values), style="coef",
-                               key=f"{column}:min_ratio", ratios=area(SHEET, 5, first, 5, last))
+    missing = NOT_COMPUTABLE + RATIO_MISSING
+    min_ratio = ctx.expression(
+        g, last + 2, 5, "IF(COUNT({ratios})<{comparisons},\"" + missing + "\",MIN({ratios}))",
+        lambda: min(values) if all(isinstance(x, float) for x in values) else missing, style="coef",
+        key=f"{column}:min_ratio", ratios=area(SHEET, 5, first, 5, last), comparisons=len(groups) - 1)
     g.set(last + 3, 1, "Groups below four-fifths")
     below = ctx.expression(g, last + 3, 5, 'COUNTIF({flags},"yes")', None, style="count",
                            key=f"{column}:n_below", flags=area(SHEET, 6, first, 6, last))
@@ -227,52 +339,49 @@ def reference_group(ctx: StudyContext, demo: Demographic, counts: dict[str, tupl
         return reference, "(as given in the setup)"
     rates = {k: (sel / app if app else 0.0) for k, (sel, app) in counts.items()}
     reference = max(groups, key=lambda k: (rates[k], counts[k][1]))
-    ctx.notes.append(f"Reference group for impact by {demo.header!r}: {reference}, the group with the highest "
-                     f"selection rate at the cut when the study was built.")
     return reference, REFERENCE_BY_RATE
 
 
 def _overview(ctx: StudyContext, g, at: int, tables: list[ImpactTable]):
     """The lowest ratio of every column, the lowest overall with its group and column, and how many comparisons
-    fall below four-fifths; returns (lowest, below, where, the next free row)."""
+    fall below four-fifths (live formulas: they follow the reference cells); returns (lowest, below, where, the
+    next free row)."""
     g.set(at, 1, "The lowest impact ratios", "heading")
     for c, h in enumerate(("Demographic column", "Lowest impact ratio", "Its group", "Comparisons below "
                            "four-fifths", "Comparisons"), start=1):
         g.set(at + 1, c, h, "header")
     first = at + 2
-    computable = []
     for i, t in enumerate(tables):
         r = first + i
         g.set(r, 1, t.demographic.header)
+        ratio = ctx.link(g, r, 2, t.min_ratio, style="coef")
+        lowest = ""
         if isinstance(t.min_ratio.value, float):
-            ratio = ctx.link(g, r, 2, t.min_ratio, style="coef")
-            ratios = area(SHEET, 5, t.first, 5, t.last)
             lowest = min((k for k in t.names if k != t.reference), key=lambda k: t.ratios[k].value)
-            ctx.expression(g, r, 3, "INDEX({names},MATCH({ratio},{ratios},0))", lambda k=lowest: k,
-                           names=area(SHEET, 1, t.first, 1, t.last), ratio=ratio, ratios=ratios)
-            ctx.link(g, r, 4, t.n_below, style="count")
-            computable.append((t, ratio))
-        else:
-            ctx.not_computable_at(g, r, 2, t.min_ratio.value.message)
+        ctx.expression(g, r, 3, 'IF(ISNUMBER({ratio}),INDEX({names},MATCH({ratio},{ratios},0)),"")',
+                       lambda k=lowest: k, names=area(SHEET, 1, t.first, 1, t.last), ratio=ratio,
+                       ratios=area(SHEET, 5, t.first, 5, t.last))
+        ctx.link(g, r, 4, t.n_below, style="count")
         g.set(r, 5, len(t.names) - 1, "count")
     last = first + len(tables) - 1
     total = last + 1
     g.set(total, 1, "All columns", "heading")
-    if not computable:
-        reason = tables[0].min_ratio.value.message
-        return ctx.not_computable_at(g, total, 2, reason, key="min_ratio"), None, None, total + 2
-    values = [ref.value for _, ref in computable]
-    low = ctx.expression(g, total, 2, "MIN({ratios})", lambda: min(values), style="coef", key="min_ratio",
-                         ratios=area(SHEET, 2, first, 2, last))
-    best = min(computable, key=lambda x: x[1].value)[0]
-    lowest_group = min((k for k in best.names if k != best.reference), key=lambda k: best.ratios[k].value)
-    where_text = f"{lowest_group} ({best.demographic.header})"
-    where = ctx.expression(g, total, 3, 'INDEX({groups},MATCH({low},{ratios},0))&" ("&INDEX({columns},MATCH({low},'
-                                        '{ratios},0))&")"', lambda: where_text, key="min_ratio_where",
-                           groups=area(SHEET, 3, first, 3, last), low=low, ratios=area(SHEET, 2, first, 2, last),
+    computable = [t for t in tables if isinstance(t.min_ratio.value, float)]
+    missing = NOT_COMPUTABLE + RATIO_MISSING_ALL
+    ratios = area(SHEET, 2, first, 2, last)
+    low = ctx.expression(g, total, 2, "IF(COUNT({ratios})<{columns},\"" + missing + "\",MIN({ratios}))",
+                         lambda: min(t.min_ratio.value for t in computable) if len(computable) == len(tables)
+                         else missing, style="coef", key="min_ratio", ratios=ratios, columns=len(tables))
+    where_text = ""
+    if len(computable) == len(tables):
+        best = min(computable, key=lambda t: t.min_ratio.value)
+        lowest_group = min((k for k in best.names if k != best.reference), key=lambda k: best.ratios[k].value)
+        where_text = f"{lowest_group} ({best.demographic.header})"
+    where = ctx.expression(g, total, 3, 'IF(ISNUMBER({low}),INDEX({groups},MATCH({low},{ratios},0))&" ("&INDEX('
+                                        '{columns},MATCH({low},{ratios},0))&")","")', lambda: where_text,
+                           key="min_ratio_where", groups=area(SHEET, 3, first, 3, last), low=low, ratios=ratios,
                            columns=area(SHEET, 1, first, 1, last))
-    below_count = sum(t.n_below.value for t, _ in computable)
-    below = ctx.expression(g, total, 4, "SUM({below})", lambda: below_count, style="count", key="n_below",
+    below = ctx.expression(g, total, 4, "SUM({below})", None, style="count", key="n_below",
                            below=area(SHEET, 4, first, 4, last))
     g.set(total, 5, ctx.text("=SUM({n})", SHEET, n=area(SHEET, 5, first, 5, last)), "count")
     return low, below, where, total + 2

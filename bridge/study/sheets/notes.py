@@ -8,7 +8,7 @@ from trueband.funcs import __version__, lookup
 from trueband.funcs.errors import UnknownFunctionError
 
 from ..context import StudyContext
-from ..words import CAUTION
+from ..words import CAUTION, LIVE_REFERENCE_WORDS
 
 __all__ = ["write", "FUNCTIONS_USED"]
 
@@ -59,6 +59,7 @@ CONVENTIONS = (
     "Cochran–Mantel–Haenszel test with the ½ continuity correction, the exact conditional test and the "
     "Breslow–Day test (Tarone's correction); a pooled figure is not reported as a headline when the Breslow–Day "
     "p is below 0.05.",
+    LIVE_REFERENCE_WORDS,
     "Several predictors: each further predictor (a 'predictor' block of the Setup sheet) has its own settings, "
     "Reliability, Items, Validity and Bands sheets; Impact and Utility are the first predictor's. On Combined, the "
     "composite is the sum of the raw scores (unit weights) or the least-squares combination (regression weights); "
@@ -80,8 +81,9 @@ CONVENTIONS += (
 )
 
 
-def write(ctx: StudyContext) -> None:
-    """Written last: it lists the notes and the cells not computable that every other sheet recorded."""
+def write(ctx: StudyContext, impact=None) -> None:
+    """Written last: it lists the notes and the cells not computable that every other sheet recorded; with
+    ``impact`` (the Impact sheet's tables), each column's reference group as the Impact sheet's cell says now."""
     g = ctx.sheet(SHEET)
     g.widths.update({1: 120})
     d = ctx.data
@@ -99,6 +101,7 @@ def write(ctx: StudyContext) -> None:
          f"trueband's recalculation and are stored with the formulas.", "wrap"),
     ]
     lines += [(n, "wrap") for n in ctx.notes]
+    lines += _reference_lines(ctx, impact)
     if d.problems:
         lines.append(("Problems in the data (check these cells)", "heading"))
         lines += [(n, "wrap") for n in d.problems]
@@ -141,3 +144,16 @@ def _cut_conventions(ctx: StudyContext) -> tuple[str, ...]:
 
     return tuple(text for module in (distractors, cut_score, judges, content) if module.SHEET in ctx.grids
                  for text in module.CONVENTIONS)
+
+
+def _reference_lines(ctx: StudyContext, impact) -> list[tuple[str, str | None]]:
+    """Per demographic column: its reference group, read live from the Impact sheet's cell and the words beside
+    it (the default, or a group chosen there), so that the line stays true after an edit."""
+    lines: list[tuple[str, str | None]] = []
+    for t in getattr(impact, "tables", ()) or ():
+        if t.reference_cell is None or t.how is None:
+            continue
+        lines.append((f"Reference group for impact by {t.demographic.header!r} (the Impact sheet's cell; edit it "
+                      f"there and recalculate):", "wrap"))
+        lines.append(("=" + ctx.text('{reference}&" "&{how}', SHEET, reference=t.reference_cell, how=t.how), None))
+    return lines

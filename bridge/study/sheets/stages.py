@@ -12,10 +12,10 @@ import dataclasses
 
 import numpy as np
 
-from ..context import Ref, StudyContext
+from ..context import Expr, Ref, StudyContext, area, cell
 from ..words import CAUTION, STAGES_CAUTION
 from .bands import BandsLayout
-from .impact import Impact, ImpactTable
+from .impact import Impact, ImpactTable, count_guards, unless_reference
 from .setup import SetupSheet
 
 __all__ = ["Stages", "write", "SHEET"]
@@ -58,7 +58,9 @@ def write(ctx: StudyContext, setup: SetupSheet, impact: Impact, bands: BandsLayo
         final, final_flag = bands.column(bands.extra[f"stage:{len(stages) - 1}"]), flags[-1]
     lowest = None
     for t in impact.tables:
-        g.set(row, 1, f"{t.demographic.header} (reference group: {t.reference})", "heading")
+        g.set(row, 1, f"{t.demographic.header}", "heading")
+        g.set(row, 2, "Reference group (the Impact sheet's cell)")
+        ctx.link(g, row, 5, t.reference_cell)
         for c, h in enumerate(_HEAD, start=1):
             g.set(row + 1, c, h, "header")
         r = row + 2
@@ -98,18 +100,27 @@ def _block(ctx, g, r: int, t: ImpactTable, label: str, before: list[Ref], stage:
                                 stage=stage, **extra)
         ctx.formula(g, row, 5, "SELECTION_RATE", passed, reached, style="coef")
         written[name] = (passed, reached)
-    ref_passed, ref_reached = written[t.reference]
+    # the reference group's counts: its row of this block, found by the name in the Impact sheet's cell
+    last = r + len(t.names) - 1
+    lookup = "INDEX({column},MATCH({reference},{names},0))"
+    places = dict(reference=t.reference_cell, names=area(SHEET, 2, r, 2, last).fixed())
+    ref_passed = Expr(ctx.text(lookup, SHEET, column=area(SHEET, 4, r, 4, last).fixed(), **places),
+                      written[t.reference][0].value)
+    ref_reached = Expr(ctx.text(lookup, SHEET, column=area(SHEET, 3, r, 3, last).fixed(), **places),
+                       written[t.reference][1].value)
     for i, name in enumerate(t.names):
         row = r + i
-        if name == t.reference:
-            g.set(row, 6, "reference group")
-            continue
         four = (*written[name], ref_passed, ref_reached)
         for c, function, extra_args, style in ((6, "IMPACT_RATIO", (), "coef"),
                                                (7, "IMPACT_RATIO_CI", ("lower", setup.confidence), "coef"),
                                                (8, "IMPACT_RATIO_CI", ("upper", setup.confidence), "coef"),
                                                (9, "FOUR_FIFTHS", (), None), (10, "IMPACT_Z", (), "coef"),
                                                (11, "IMPACT_FISHER", (), "p"), (12, "IMPACT_SMALL_NUMBERS", (), None)):
-            ctx.formula(g, row, c, function, *four, *extra_args, style=style,
-                        wrap='IF({},"yes","no")' if function in ("FOUR_FIFTHS", "IMPACT_SMALL_NUMBERS") else "{}")
+            unless_reference(ctx, g, row, c, function, *four, *extra_args, group=cell(SHEET, row, 2).local(),
+                             reference=t.reference_cell, is_reference=name == t.reference,
+                             label="reference group" if c == 6 else "", style=style,
+                             wrap='IF({},"yes","no")' if function in ("FOUR_FIFTHS", "IMPACT_SMALL_NUMBERS") else "{}",
+                             guards=count_guards(function, (extra_args or (None,))[0], chosen="passed the stage",
+                                                 people="people reaching the stage"),
+                             places=dict(zip(("fs", "fa", "rs", "ra"), four)))
     return r + len(t.names) + 1

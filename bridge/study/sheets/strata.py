@@ -13,10 +13,10 @@ import dataclasses
 
 import numpy as np
 
-from ..context import Ref, StudyContext, area
-from ..words import CAUTION, POOLING_REFUSED
+from ..context import Ref, StudyContext, area, cell
+from ..words import CAUTION, LIVE_REFERENCE_WORDS, POOLING_REFUSED
 from .bands import BandsLayout
-from .impact import Impact, ImpactTable
+from .impact import SHEET as IMPACT_SHEET, Impact, ImpactTable
 from .setup import SetupSheet
 
 __all__ = ["Strata", "write", "SHEET", "HOMOGENEITY_ALPHA"]
@@ -60,11 +60,11 @@ def write(ctx: StudyContext, setup: SetupSheet, impact: Impact, bands: BandsLayo
         return Strata()
     strata_col = bands.column(bands.extra["stratum"])
     first_result: Strata | None = None
+    row += g.para(row, 1, LIVE_REFERENCE_WORDS, width=150) + 1
     for t in impact.tables:
-        for focal in t.names:
-            if focal == t.reference:
-                continue
-            result, row = _comparison(ctx, g, row, t, focal, stratum, strata_col, bands, setup,
+        focal_groups = [k for k in t.names if k != t.reference]
+        for j, focal in enumerate(focal_groups, start=1):
+            result, row = _comparison(ctx, g, row, t, j, focal, stratum, strata_col, bands, setup,
                                       key=None if first_result is not None else "")
             first_result = first_result or result
     return first_result or Strata()
@@ -88,11 +88,34 @@ def _counts(ctx: StudyContext, t: ImpactTable, focal: str, stratum, cut: float) 
     return out
 
 
-def _comparison(ctx, g, row, t: ImpactTable, focal: str, stratum, strata_col: Ref, bands: BandsLayout,
+def _groups(ctx, g, row, t: ImpactTable, j: int, focal: str) -> tuple[Ref, Ref]:
+    """The heading of the ``j``-th comparison and, below it, its groups' names and numbers (the group's, the
+    reference group's), read from the Impact sheet's reference cell; returns the two number cells."""
+    g.set(row, 1, f"{t.demographic.header}: comparison {j} of {len(t.names) - 1}", "heading")
+    names_on_impact = area(IMPACT_SHEET, 1, t.first, 1, t.last)
+    g.set(row + 1, 1, "Group")
+    ctx.expression(g, row + 1, 2, "INDEX({names},{number})", lambda: focal, names=names_on_impact,
+                   number=cell(SHEET, row + 1, 6).fixed())
+    g.set(row + 1, 3, "compared with")
+    ctx.link(g, row + 1, 4, t.reference_cell)
+    g.set(row + 1, 5, "Group numbers (Bands)")
+    # the group's number: the j-th of the groups, skipping the reference group's (the MATCH beside it)
+    ref_number = ctx.expression(g, row + 1, 7, "MATCH({reference},{names},0)",
+                                lambda: t.demographic.numbers[t.reference], style="count",
+                                reference=t.reference_cell, names=names_on_impact).fixed()
+    focal_number = ctx.expression(g, row + 1, 6, "{j}+({j}>={ref})", lambda: t.demographic.numbers[focal],
+                                  style="count", j=j, ref=ref_number).fixed()
+    return focal_number, ref_number
+
+
+def _comparison(ctx, g, row, t: ImpactTable, j: int, focal: str, stratum, strata_col: Ref, bands: BandsLayout,
                 setup: SetupSheet, key: str | None):
-    """One focal group against its reference group, stratum by stratum, then pooled; returns (Strata, next row)."""
+    """The ``j``-th group other than the reference group (as the Impact sheet's reference cell names it now;
+    ``focal`` at build time) against the reference group, stratum by stratum, then pooled; returns (Strata,
+    the next row)."""
     prefix = f"{t.demographic.header}:{focal}:"
-    g.set(row, 1, f"{t.demographic.header}: {focal} compared with {t.reference}", "heading")
+    focal_number, ref_number = _groups(ctx, g, row, t, j, focal)
+    row += 1
     for c, h in enumerate(_HEAD, start=1):
         g.set(row + 1, c, h, "header")
     counts = _counts(ctx, t, focal, stratum, setup.cut)
@@ -102,12 +125,12 @@ def _comparison(ctx, g, row, t: ImpactTable, focal: str, stratum, strata_col: Re
         r = first + i
         g.set(r, 1, s)
         refs = []
-        for j, (group, what) in enumerate(((focal, "selected"), (focal, "applicants"), (t.reference, "selected"),
-                                           (t.reference, "applicants"))):
+        for k, (number, what) in enumerate(((focal_number, "selected"), (focal_number, "applicants"),
+                                            (ref_number, "selected"), (ref_number, "applicants"))):
             condition = "1" if what == "selected" else '">=0"'
             refs.append(ctx.expression(
-                g, r, 2 + j, "COUNTIFS({groups},{number},{strata},{stratum},{selected}," + condition + ")",
-                lambda v=int(counts[i, j]): v, style="count", groups=t.numbers, number=t.demographic.numbers[group],
+                g, r, 2 + k, "COUNTIFS({groups},{number},{strata},{stratum},{selected}," + condition + ")",
+                lambda v=int(counts[i, k]): v, style="count", groups=t.numbers, number=number,
                 strata=strata_col, stratum=stratum.numbers[s], selected=bands.selected))
         for c, function, style in ((6, "IMPACT_RATIO", "coef"), (7, "IMPACT_ODDS_RATIO", "coef"),
                                    (8, "IMPACT_FISHER", "p")):
