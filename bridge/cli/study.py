@@ -10,7 +10,7 @@ from typing import TYPE_CHECKING
 
 from .common import EXIT_CELL_ERRORS, EXIT_OK, CommandError
 from ..study.demo_folder import DEMO_FILES, DemoFolderError, write_demo  # noqa: F401  (DEMO_FILES: tests)
-from ..study.setup_predictors import CLEAR, is_clear
+from ..study.setup_predictors import CLEAR, PREDICTOR_FIELDS, SCOPED, is_clear
 from ..study.words import CAUTION, NOT_COMPUTABLE
 
 if TYPE_CHECKING:
@@ -24,6 +24,10 @@ _OPTIONS = {"sheet": "data_sheet", "id": "id", "group": "group", "items": "items
             "confidence": "confidence", "criterion_reliability": "criterion_reliability", "success": "success",
             "reference_group": "reference_group", "test_name": "test_name",
             "reference_groups": "reference_groups", "stratum": "stratum", "stages": "stages"}
+#: the options that set one predictor's settings: after --predictor NAME they set that predictor's
+_PREDICTOR_OPTIONS = tuple(opt for opt, field in _OPTIONS.items() if field in PREDICTOR_FIELDS)
+#: the number options (a number or the word none)
+_NUMBER_OPTIONS = ("item_min", "item_max", "cut", "confidence", "criterion_reliability", "success")
 
 
 def register(sub) -> None:
@@ -35,7 +39,11 @@ def register(sub) -> None:
                     "Give the word none to clear a setting of the Setup sheet (--retest none: no retest column). "
                     "The options set the first predictor's settings; a further predictor (a questionnaire, an "
                     "interview total...) is a 'predictor | NAME' block on the Setup sheet, whose settings belong to "
-                    "it alone. " + CAUTION)
+                    "it alone. To set a predictor's settings from the command line, put --predictor NAME before "
+                    "them: the predictor options after it (--items, --reverse, --item-min, --item-max, --total, "
+                    "--ratings, --retest, --cut, --test-name) set that predictor's, up to the next --predictor "
+                    "(e.g. --cut 24 --predictor 'Work Style Questionnaire' --cut 40 --retest none); the study-wide "
+                    "options go before the first --predictor. " + CAUTION)
     p.add_argument("data", help="the data workbook (.xlsx)")
     p.add_argument("-o", "--output", help="the study workbook to write (default: DATA-study.xlsx beside it)")
     p.add_argument("--overwrite", action="store_true", help="replace the output if it exists")
@@ -64,7 +72,11 @@ def register(sub) -> None:
     p.add_argument("--stages", help="stage columns of the selection process in order, each yes/no: a "
                                     "comma-separated list of headers or FIRST:LAST")
     p.add_argument("--test-name", help="name of the test, for titles")
-    p.set_defaults(handler=run_study)
+    p.add_argument("--predictor", metavar="NAME", action=_PredictorScope, dest="current_predictor",
+                   help="the predictor (its name on the Setup sheet) whose settings the predictor options after it "
+                        "set, up to the next --predictor; none clears a setting for that predictor alone")
+    _scope_predictor_options(p)
+    p.set_defaults(handler=run_study, predictor_scopes=None, before_predictor=None)
 
     p = sub.add_parser(
         "demo", help="write the demo data, templates and study into a new folder",
@@ -85,20 +97,80 @@ def _number_or_none(text: str):
         raise argparse.ArgumentTypeError(f"expected a number or {CLEAR}, got {text!r}") from None
 
 
+class _PredictorScope(argparse.Action):
+    """``--predictor NAME``: the predictor options after it set that predictor's settings."""
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        name = " ".join(str(values).split())
+        if not name or is_clear(name):
+            parser.error(f"argument {option_string}: give the predictor's name as on the Setup sheet, got {values!r}")
+        if namespace.before_predictor is None:  # the study-wide options as they stood before the first --predictor
+            namespace.before_predictor = {opt: getattr(namespace, opt, None) for opt in _OPTIONS
+                                          if opt not in _PREDICTOR_OPTIONS}
+        namespace.predictor_scopes = dict(namespace.predictor_scopes or {})
+        namespace.predictor_scopes.setdefault(name, {})
+        setattr(namespace, self.dest, name)
+
+
+class _Scoped(argparse.Action):
+    """A predictor option: the first predictor's setting, or after ``--predictor NAME`` that predictor's."""
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        name = getattr(namespace, "current_predictor", None)
+        where = f"argument {option_string}" + (f" (predictor {name!r})" if name else "")
+        if self.dest in _NUMBER_OPTIONS:
+            try:
+                values = _number_or_none(values)
+            except argparse.ArgumentTypeError as exc:
+                parser.error(f"{where}: {exc}")
+        if name is None:
+            setattr(namespace, self.dest, values)
+            return
+        scope = namespace.predictor_scopes[name]
+        if self.dest in scope:
+            parser.error(f"{where}: given twice for this predictor")
+        scope[self.dest] = values
+
+
+def _scope_predictor_options(parser) -> None:
+    """Make the predictor options (``_PREDICTOR_OPTIONS``) follow ``--predictor``; the options are declared
+    above as usual, so an option added there needs nothing here unless it is a predictor's."""
+    for opt in _PREDICTOR_OPTIONS:
+        action = parser._option_string_actions["--" + opt.replace("_", "-")]  # the Action add_argument made
+        action.__class__ = _Scoped
+        action.type = None  # _Scoped converts, naming the predictor in its message
+
+
+def _field_value(opt: str, value):
+    """(setup field, value) of a command-line option's value."""
+    field = _OPTIONS[opt]
+    if is_clear(value):
+        return field, CLEAR
+    if field in ("items", "ratings", "reverse", "stages"):
+        value = tuple(p.strip() for p in value.split(",") if p.strip())
+    elif field == "group" and "," in value:  # several demographic columns
+        field, value = "group_columns", tuple(p.strip() for p in value.split(",") if p.strip())
+    return field, value
+
+
 def _overrides(args) -> dict:
     out = {}
-    for opt, field in _OPTIONS.items():
+    for opt in _OPTIONS:
         value = getattr(args, opt, None)
         if value is None:
             continue
-        if is_clear(value):
-            out[field] = CLEAR
-            continue
-        if field in ("items", "ratings", "reverse", "stages"):
-            value = tuple(p.strip() for p in value.split(",") if p.strip())
-        elif field == "group" and "," in value:  # several demographic columns
-            field, value = "group_columns", tuple(p.strip() for p in value.split(",") if p.strip())
+        field, value = _field_value(opt, value)
         out[field] = value
+    before = getattr(args, "before_predictor", None)
+    scopes = getattr(args, "predictor_scopes", None)
+    if scopes:
+        first = next(iter(scopes))
+        for opt, value in (before or {}).items():
+            if getattr(args, opt, None) != value:
+                raise CommandError(f"--{opt.replace('_', '-')} after --predictor {first!r}: it is a setting of the "
+                                   f"whole study; give it before the first --predictor")
+        out[SCOPED] = {name: dict(_field_value(opt, value) for opt, value in fields.items())
+                       for name, fields in scopes.items()}
     return out
 
 

@@ -182,6 +182,7 @@ class StudySetup:
     def merged(self, overrides: Mapping[str, Any]) -> "StudySetup":
         """This setup with the non-empty ``overrides`` (field name -> value) applied; the word ``none`` clears
         a setting back to its default."""
+        overrides, scoped = setup_predictors.split_scoped(overrides)  # the settings after --predictor NAME
         changes, source = {}, dict(self.source)
         clear = setup_predictors.cleared(self, overrides)
         for name, value in overrides.items():
@@ -193,7 +194,8 @@ class StudySetup:
                 continue
             changes[name] = value
             source[name] = "command line"
-        return dataclasses.replace(self, **changes, source=source)
+        merged = dataclasses.replace(self, **changes, source=source)
+        return setup_predictors.apply_scoped(merged, scoped, SetupError) if scoped else merged
 
 
 @dataclasses.dataclass

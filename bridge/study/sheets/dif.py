@@ -4,8 +4,9 @@ For each demographic column (:func:`.fairness.demographic_columns`) and each gro
 answered every item, against the reference group, one row per item: the Mantel–Haenszel common odds ratio,
 MH D-DIF (−2.35 ln α), χ² and p, the ETS category A/B/C (Holland & Thayer 1988; Zwick 2012), and the
 logistic-regression DIF of Swaminathan & Rogers (1990): the 2-df test, Nagelkerke ΔR² and the category under
-each published convention (Zumbo & Thomas 1997; Jodoin & Gierl 2001). The Items sheet gets a column with
-each item's worst MH category.
+each published convention (Zumbo & Thomas 1997; Jodoin & Gierl 2001). The Items sheet gets a column per
+demographic column with each item's worst MH category over that column's focal groups. The cells of the
+first column keep their keys (``dif_B_3_delta``); those of the k-th are keyed ``dif_colK_B_3_delta``.
 """
 
 from __future__ import annotations
@@ -38,12 +39,14 @@ class Dif:
     """Per focal group name: the ETS category cells of the items, in item order (empty when not computed)."""
 
     classes: dict
+    #: the same per further demographic column (its header -> focal group name -> cells)
+    others: dict = dataclasses.field(default_factory=dict)
 
 
 def write(ctx: StudyContext, predictor) -> Dif:
     """``predictor``: a :class:`.predictors.Predictor` (its item range and group numbers)."""
     d, s = ctx.data, ctx.setup
-    columns = demographic_columns(ctx)
+    columns = demographic_columns(ctx, predictor)
     if not d.binary_items or not columns or predictor.rel.items is None:
         return Dif({})
     g = ctx.sheet(SHEET)
@@ -53,49 +56,58 @@ def write(ctx: StudyContext, predictor) -> Dif:
     row += g.para(row, 1, DIF_CAUTION, "caution")
     row += 1 + g.para(row, 1, DIF_SIZES.format(minimum=MIN_GROUP))
     complete = ~np.isnan(d.items).any(axis=1)
-    numbers = predictor.layout.group_numbers
-    # read-only arrays, as the recalculation passes them: the tables are then counted once for all the checks
-    codes = np.array([[np.nan if numbers.get(x) is None else numbers[x]] for x in d.groups], dtype=float)
-    codes.flags.writeable = False
-    groups_ref = predictor.group_numbers.with_value(codes)
     item_values = predictor.rel.items.value
     if isinstance(item_values, np.ndarray):
         item_values = item_values.view()
         item_values.flags.writeable = False
     items_ref = predictor.rel.items.with_value(item_values)
-    out: dict = {}
-    for header, labels in columns:
-        counts = {name: int(sum(1 for i, x in enumerate(labels) if x == name and complete[i])) for name in numbers}
-        g.set(row, 1, f"Groups of column {header!r}", "heading")
+    found: list = []
+    for column in columns:
+        row, classes = _column(ctx, g, row, items_ref, column, complete)
+        found.append((column, classes))
+    _flags(ctx, found)
+    return Dif(found[0][1], {c.header: classes for c, classes in found[1:]})
+
+
+def _column(ctx: StudyContext, g, row: int, items_ref, column, complete) -> tuple[int, dict]:
+    """The tables of one demographic column from ``row``; returns the next free row and, per focal group, the
+    items' ETS category cells."""
+    numbers = column.numbers
+    # read-only arrays, as the recalculation passes them: the tables are then counted once for all the checks
+    codes = np.array([[np.nan if numbers.get(x) is None else numbers[x]] for x in column.labels], dtype=float)
+    codes.flags.writeable = False
+    groups_ref = column.codes.with_value(codes)
+    counts = {name: int(sum(1 for i, x in enumerate(column.labels) if x == name and complete[i])) for name in numbers}
+    g.set(row, 1, f"Groups of column {column.header!r}", "heading")
+    row += 1
+    for name in numbers:
+        g.set(row, 1, name)
+        g.set(row, 2, counts[name], "count")
+        g.set(row, 3, "people with every item answered" + ("" if counts[name] >= MIN_GROUP else
+                                                             f"; fewer than {MIN_GROUP}: not compared"))
         row += 1
-        for name in numbers:
-            g.set(row, 1, name)
-            g.set(row, 2, counts[name], "count")
-            g.set(row, 3, "people with every item answered" + ("" if counts[name] >= MIN_GROUP else
-                                                                 f"; fewer than {MIN_GROUP}: not compared"))
-            row += 1
-        enough = [n for n in numbers if counts[n] >= MIN_GROUP]
-        reference = reference_of(s.reference_group, counts, enough)
-        if reference is None or len(enough) < 2:
-            ctx.not_computable_at(g, row + 1, 1, f"DIF needs at least two groups with {MIN_GROUP} or more people who "
-                                                 f"answered every item", key="dif")
-            row += 3
-            continue
-        g.set(row + 1, 1, "Reference group")
-        g.set(row + 1, 2, reference, "header")
-        row += 3
-        for name in enough:
-            if name != reference:
-                row, out[name] = _table(ctx, g, row, items_ref, groups_ref, name, reference, numbers)
-    _flags(ctx, out)
-    return Dif(out)
+    enough = [n for n in numbers if counts[n] >= MIN_GROUP]
+    reference = reference_of(column.reference, counts, enough)
+    if reference is None or len(enough) < 2:
+        ctx.not_computable_at(g, row + 1, 1, f"DIF needs at least two groups with {MIN_GROUP} or more people who "
+                                             f"answered every item (column {column.header!r})",
+                              key="dif" + ("_" + column.key[:-1] if column.key else ""))
+        return row + 3, {}
+    g.set(row + 1, 1, f"Reference group of {column.header!r}")
+    g.set(row + 1, 2, reference, "header")
+    row += 3
+    out = {}
+    for name in enough:
+        if name != reference:
+            row, out[name] = _table(ctx, g, row, items_ref, groups_ref, column, name, reference)
+    return row, out
 
 
-def _table(ctx: StudyContext, g, row: int, items, groups, name: str, reference: str, numbers) -> tuple[int, list]:
+def _table(ctx: StudyContext, g, row: int, items, groups, column, name: str, reference: str) -> tuple[int, list]:
     """One focal group's table, an item a row; returns the next free row and the items' ETS category cells."""
-    d = ctx.data
-    g.set(row, 1, f"Focal group {name} (reference {reference}); negative D-DIF: the item is harder for {name}",
-          "heading")
+    d, numbers = ctx.data, column.numbers
+    g.set(row, 1, f"{column.header}: focal group {name} (reference {reference}); negative D-DIF: the item is harder "
+                  f"for {name}", "heading")
     g.set(row + 1, 1, "Item", "header")
     for c, (h, _) in enumerate(_COLUMNS, start=2):
         g.set(row + 1, c, h, "header")
@@ -104,7 +116,7 @@ def _table(ctx: StudyContext, g, row: int, items, groups, name: str, reference: 
         r = row + 2 + j
         g.set(r, 1, d.header[col])
         args = (items, groups, j + 1, numbers[name], numbers[reference])
-        key = f"dif_{name}_{j + 1}"
+        key = f"dif_{column.key}{name}_{j + 1}"
         opts = dict(checked=ctx.full_checks)
         delta = ctx.formula(g, r, 3, "DIF_MH_DELTA", *args, style="coef", key=key + "_delta", **opts)
         ctx.expression(g, r, 2, "EXP(-{delta}/2.35)", None, style="coef", delta=delta)
@@ -118,20 +130,23 @@ def _table(ctx: StudyContext, g, row: int, items, groups, name: str, reference: 
     return row + 3 + len(d.item_columns), classes
 
 
-def _flags(ctx: StudyContext, classes: dict) -> None:
-    """Each item's worst ETS category over the focal groups, in a column of the Items sheet."""
+def _flags(ctx: StudyContext, found: list) -> None:
+    """Each item's worst ETS category over the focal groups of each demographic column, a column of the Items
+    sheet per demographic column (naming it)."""
     g = ctx.grids.get(sheet_title(items_sheet.SHEET))
-    if g is None or not classes:
+    if g is None:
         return
-    g.set(items_sheet.FIRST_ROW - 1, ITEMS_COLUMN, "DIF (worst ETS category, see DIF)", "header")
-    g.widths[ITEMS_COLUMN] = 20
-    for j in range(len(ctx.data.item_columns)):
-        cells = [cells[j] for cells in classes.values() if not isinstance(cells[j].value, Exception)]
-        r = items_sheet.FIRST_ROW + j
-        if not cells:
-            g.set(r, ITEMS_COLUMN, "see DIF", "na")
-            continue
-        places = {f"c{k}": ref for k, ref in enumerate(cells)}
-        any_of = lambda letter: "OR(" + ",".join(f'{{c{k}}}="{letter}"' for k in range(len(cells))) + ")"  # noqa: E731
-        g.set(r, ITEMS_COLUMN, ctx.text(f'=IF({any_of("C")},"C: review",IF({any_of("B")},"B","A"))',
-                                        items_sheet.SHEET, **places))
+    for k, (column, classes) in enumerate(c for c in found if c[1]):
+        col = ITEMS_COLUMN + k
+        g.set(items_sheet.FIRST_ROW - 1, col, f"DIF by {column.header} (worst ETS category, see DIF)", "header")
+        g.widths[col] = 20
+        for j in range(len(ctx.data.item_columns)):
+            cells = [cells[j] for cells in classes.values() if not isinstance(cells[j].value, Exception)]
+            r = items_sheet.FIRST_ROW + j
+            if not cells:
+                g.set(r, col, "see DIF", "na")
+                continue
+            places = {f"c{m}": ref for m, ref in enumerate(cells)}
+            any_of = lambda letter: "OR(" + ",".join(f'{{c{m}}}="{letter}"' for m in range(len(cells))) + ")"  # noqa: E731
+            g.set(r, col, ctx.text(f'=IF({any_of("C")},"C: review",IF({any_of("B")},"B","A"))',
+                                   items_sheet.SHEET, **places))
