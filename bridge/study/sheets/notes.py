@@ -62,7 +62,8 @@ CONVENTIONS = (
     "correlation only the people with every score and a criterion value. The composite d takes unit weights on "
     "standardised scores and the mean intercorrelation of all applicants.",
     "Fairness: the people with a score and a criterion value, in groups with at least 20 of them (common "
-    "practice); the reference group is the one named on Setup, else the largest. DIF: 0/1 items, groups with at "
+    "practice); the reference group is the one named on Setup, else the largest. Fairness and DIF: one block per "
+    "demographic column, each against that column's reference group. DIF: 0/1 items, groups with at "
     "least 100 people who answered every item (common practice), matched on the total score including the item.",
 )
 
