@@ -256,9 +256,20 @@ class StudyData:
         a person with no item answered has no score)."""
         if self.total is not None:
             return self.total
+        if self.items is None and self.ratings is not None:  # a panel of ratings only: the raters' mean
+            return panel_scores(self.ratings)
         answered = (~np.isnan(self.items)).sum(axis=1)
         s = np.nansum(self.items, axis=1)
         return np.where(answered > 0, s, np.nan)
+
+
+def panel_scores(ratings: np.ndarray) -> np.ndarray:
+    """The score of a predictor given only as a panel of ratings: each person's mean of the ratings given
+    (``AVERAGE`` over the person's rating cells); no score without a rating."""
+    given = (~np.isnan(ratings)).sum(axis=1)
+    with np.errstate(invalid="ignore"):
+        total = np.nansum(ratings, axis=1)
+    return np.where(given > 0, total / np.maximum(given, 1), np.nan)
 
 
 # ---------------------------------------------------------------- the Setup sheet
