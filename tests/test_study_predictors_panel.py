@@ -119,3 +119,20 @@ def test_the_panel_s_validity_fairness_and_place_on_combined(built):
     m2 = sm.OLS(y, sm.add_constant(np.column_stack([s, g]))).fit()  # statsmodels OLS, the step-down tests
     m3 = sm.OLS(y, sm.add_constant(np.column_stack([s, g, s * g]))).fit()
     assert value(built, "p3_fairness_slope_p_B") == pytest.approx(m3.compare_f_test(m2)[1], rel=1e-9)
+
+
+@pytest.mark.slow
+def test_a_study_whose_only_predictor_is_a_panel(tmp_path, capsys):
+    from trueband.bridge import cli
+
+    header, rows, _, ratings = with_panel(80)
+    setup = [("id column", "id"), ("group column", "group"), ("rating columns", "I1:I3"),
+             ("criterion column", "perf"), ("cut score", 3), ("test name", "Interview")]
+    book = write_book(tmp_path / "d.xlsx", header, rows, setup)
+    assert cli.main(["study", str(book), "-o", str(tmp_path / "s.xlsx")]) == 0
+    out = capsys.readouterr().out
+    assert "reliability of the panel's mean rating, ICC(A,k): " in out and "coefficient alpha" not in out
+    values = load_workbook(tmp_path / "s.xlsx", data_only=True)
+    assert values["Reliability"]["B20"].value == pytest.approx(values["Raters"]["B14"].value, rel=1e-15)
+    got = [values["Bands"].cell(i + 2, 3).value for i in range(len(ratings))]
+    np.testing.assert_allclose(np.array(got, float), np.nanmean(ratings, axis=1), rtol=1e-12)  # numpy.nanmean

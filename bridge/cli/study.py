@@ -190,7 +190,7 @@ def headline_values(path: Path, result: StudyResult) -> dict:
 
     keys = ("n_scored", "n_criterion", "alpha", "alpha_lower", "alpha_upper", "sem", "band_width",
             "icc_agreement_average", "r", "r_lower", "r_upper", "r_p", "operational", "min_ratio", "n_below",
-            "min_ratio_where", "taylor_russell", "base_rate", "bcg", "multiple_r", "cross_validity")
+            "min_ratio_where", "taylor_russell", "base_rate", "bcg", "multiple_r", "cross_validity", "panel_icc")
     wanted = {k: result.cells[k] for k in keys if k in result.cells}
     wb = load_workbook(path, read_only=True, data_only=True)
     try:
@@ -218,11 +218,14 @@ def _fmt(value, digits: int = 3) -> str:
 def headline_lines(h: dict) -> list[str]:
     lines = [f"  applicants with a score: {_fmt(h.get('n_scored'), 0)}; with a performance value: "
              f"{_fmt(h.get('n_criterion'), 0)}"]
-    if "alpha" in h:
+    if "alpha" in h and "panel_icc" not in h:
         ci = (f" [{_fmt(h.get('alpha_lower'))}, {_fmt(h.get('alpha_upper'))}]"
               if isinstance(h.get("alpha_lower"), float) else "")
         lines.append(f"  reliability (coefficient alpha): {_fmt(h['alpha'])}{ci}; SEM {_fmt(h.get('sem'), 2)}; "
                      f"band width {_fmt(h.get('band_width'), 2)}")
+    if "panel_icc" in h:  # the first predictor is a panel of ratings: its score is the raters' mean
+        lines.append(f"  reliability of the panel's mean rating, ICC(A,k): {_fmt(h['panel_icc'])}; SEM "
+                     f"{_fmt(h.get('sem'), 2)}; band width {_fmt(h.get('band_width'), 2)}")
     if "icc_agreement_average" in h:
         lines.append(f"  interview panel agreement ICC(A,k): {_fmt(h['icc_agreement_average'])}")
     if "r" in h:
