@@ -147,6 +147,10 @@ def _flags(ctx: StudyContext, found: list) -> None:
                 g.set(r, col, "see DIF", "na")
                 continue
             places = {f"c{m}": ref for m, ref in enumerate(cells)}
-            any_of = lambda letter: "OR(" + ",".join(f'{{c{m}}}="{letter}"' for m in range(len(cells))) + ")"  # noqa: E731
-            g.set(r, col, ctx.text(f'=IF({any_of("C")},"C: review",IF({any_of("B")},"B","A"))',
-                                   items_sheet.SHEET, **places))
+            g.set(r, col, ctx.text(f'=IF({_any_of("C", len(cells))},"C: review",IF({_any_of("B", len(cells))},'
+                                   f'"B","A"))', items_sheet.SHEET, **places))
+
+
+def _any_of(letter: str, k: int) -> str:
+    """Formula text: any of the cells ``{c0}``... ``{c<k-1>}`` holds ``letter``."""
+    return "OR(" + ",".join(f'{{c{m}}}="{letter}"' for m in range(k)) + ")"

@@ -131,9 +131,10 @@ def _column(ctx, g, row, predictor, column: GroupColumn, listed, list_col: int):
             g.set(row, 3, f"fewer than {MIN_GROUP}: this group's line is not compared", "na")
         row += 1
     if reference is None or len(enough) < 2:
+        key = "fairness" + ("_" + column.key[:-1] if column.key else "")  # fairness, fairness_col2...
         ctx.not_computable_at(g, row + 1, 1, f"differential prediction needs at least two groups with {MIN_GROUP} or "
                                              f"more people who have a score and a criterion value (column "
-                                             f"{column.header!r})", key="fairness" + ("_" + column.key[:-1] if column.key else ""))
+                                             f"{column.header!r})", key=key)
         return row + 3, list_col, Fairness({}, {}, {})
     listing = _listing(ctx, g, predictor, column, listed, [numbers.get(x) for x in group_of], enough, list_col)
     row += 1
