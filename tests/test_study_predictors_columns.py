@@ -108,6 +108,64 @@ def test_help_says_how_to_set_a_further_predictor(capsys):
     assert "none clears a setting for that predictor alone" in text
 
 
+
+def test_the_scoping_uses_argparse_s_public_interface_only():
+    # the predictor options were once made scoped by changing the class of the Actions found through the parser's
+    # private table; nothing of argparse's starting with an underscore may be read or written, no class swapped
+    import ast
+    import inspect
+
+    from trueband.bridge.cli import study
+
+    tree = ast.parse(inspect.getsource(study))
+    private = sorted({n.attr for n in ast.walk(tree) if isinstance(n, ast.Attribute) and n.attr.startswith("_")})
+    assert private == []
+    assert "_option_string_actions" not in inspect.getsource(study)
+
+
+def test_the_predictor_options_table_is_the_setup_s_predictor_settings():
+    from trueband.bridge.cli.study import _OPTIONS, _PREDICTOR_OPTIONS
+    from trueband.bridge.study.setup_predictors import PREDICTOR_FIELDS
+
+    assert sorted(_OPTIONS[opt] for opt in _PREDICTOR_OPTIONS) == sorted(PREDICTOR_FIELDS)
+
+
+def test_every_option_of_the_table_is_declared_and_reaches_its_setting():
+    # each option of _OPTIONS (study-wide or a predictor's, before any --predictor) parses into its Setup field;
+    # an option added to the table without a declaration (or declared under another name) fails here
+    from trueband.bridge.cli.study import _OPTIONS
+
+    for opt, field in _OPTIONS.items():
+        got = parse(["--" + opt.replace("_", "-"), "0.5"])
+        assert list(got) == [field] and got[field] in ("0.5", 0.5, ("0.5",)), opt
+
+
+@pytest.mark.parametrize("option", ["--confidence", "--reference-groups", "--stratum"])
+def test_any_study_wide_option_after_predictor_is_refused(option):
+    with pytest.raises(CommandError, match=rf"^{option} after --predictor 'Q': it is a setting of the whole study"):
+        parse(["--predictor", "Q", "--cut", "3", option, "0.9"])
+
+
+@pytest.mark.parametrize("argv, message", [
+    (["--item-min", "low"], "argument --item-min: expected a number or none, got 'low'"),
+    (["--confidence", "high"], "argument --confidence: expected a number or none, got 'high'"),
+])
+def test_a_wrong_number_before_any_predictor_is_one_line_naming_the_option(argv, message, capsys):
+    with pytest.raises(SystemExit):
+        parse(argv)
+    assert capsys.readouterr().err.strip().splitlines()[-1].endswith(message)
+
+
+def test_help_groups_the_predictor_options_after_predictor(capsys):
+    with pytest.raises(SystemExit):
+        cli.main(["study", "--help"])
+    text = capsys.readouterr().out
+    group = text[text.index("predictor options:"):]
+    for option in ("--predictor NAME", "--items", "--reverse", "--item-min", "--item-max", "--total", "--ratings",
+                   "--retest", "--cut", "--test-name"):
+        assert option in group, option
+    assert "--criterion" not in group and "--confidence" not in group
+
 # ---------------------------------------------------------------- Fairness and DIF by every column (slow)
 
 @pytest.fixture(scope="module")

@@ -10,7 +10,7 @@ from typing import TYPE_CHECKING
 
 from .common import EXIT_CELL_ERRORS, EXIT_OK, CommandError
 from ..study.demo_folder import DEMO_FILES, DemoFolderError, write_demo  # noqa: F401  (DEMO_FILES: tests)
-from ..study.setup_predictors import CLEAR, PREDICTOR_FIELDS, SCOPED, is_clear
+from ..study.setup_predictors import CLEAR, SCOPED, is_clear
 from ..study.words import CAUTION, NOT_COMPUTABLE
 
 if TYPE_CHECKING:
@@ -24,10 +24,6 @@ _OPTIONS = {"sheet": "data_sheet", "id": "id", "group": "group", "items": "items
             "confidence": "confidence", "criterion_reliability": "criterion_reliability", "success": "success",
             "reference_group": "reference_group", "test_name": "test_name",
             "reference_groups": "reference_groups", "stratum": "stratum", "stages": "stages"}
-#: the options that set one predictor's settings: after --predictor NAME they set that predictor's
-_PREDICTOR_OPTIONS = tuple(opt for opt, field in _OPTIONS.items() if field in PREDICTOR_FIELDS)
-#: the number options (a number or the word none)
-_NUMBER_OPTIONS = ("item_min", "item_max", "cut", "confidence", "criterion_reliability", "success")
 
 
 def register(sub) -> None:
@@ -51,17 +47,8 @@ def register(sub) -> None:
     p.add_argument("--id", help="header of the id column")
     p.add_argument("--group", help="header of the applicant-group column, or several demographic columns separated by "
                                    "commas (e.g. Sex,Ethnicity), one impact table each")
-    p.add_argument("--items", help="item columns: FIRST:LAST or a comma-separated list of headers")
-    p.add_argument("--reverse", help="reverse-keyed items (scored minimum + maximum - response): FIRST:LAST or a "
-                                     "comma-separated list of headers; needs --item-min and --item-max")
-    p.add_argument("--item-min", type=_number_or_none, help="lowest response an item allows (e.g. 1)")
-    p.add_argument("--item-max", type=_number_or_none, help="highest response an item allows (e.g. 5)")
-    p.add_argument("--total", help="header of a total-score column")
-    p.add_argument("--ratings", help="rating columns: FIRST:LAST or a list")
     p.add_argument("--criterion", help="header of the job-performance column")
-    p.add_argument("--retest", help="header of the retest-score column")
     p.add_argument("--hired", help="header of the hired (yes/no) column")
-    p.add_argument("--cut", type=_number_or_none, help="cut score for adverse impact and utility")
     p.add_argument("--confidence", type=_number_or_none, help="confidence level (default 0.95)")
     p.add_argument("--criterion-reliability", type=_number_or_none, help="criterion reliability (default 0.52)")
     p.add_argument("--success", type=_number_or_none, help="criterion value that counts as success (default: median)")
@@ -71,12 +58,8 @@ def register(sub) -> None:
     p.add_argument("--stratum", help="header of the stratum column (sites, years, job groups) to pool impact over")
     p.add_argument("--stages", help="stage columns of the selection process in order, each yes/no: a "
                                     "comma-separated list of headers or FIRST:LAST")
-    p.add_argument("--test-name", help="name of the test, for titles")
-    p.add_argument("--predictor", metavar="NAME", action=_PredictorScope, dest="current_predictor",
-                   help="the predictor (its name on the Setup sheet) whose settings the predictor options after it "
-                        "set, up to the next --predictor; none clears a setting for that predictor alone")
-    _scope_predictor_options(p)
-    p.set_defaults(handler=run_study, predictor_scopes=None, before_predictor=None)
+    _add_predictor_options(p)
+    p.set_defaults(handler=run_study)
 
     p = sub.add_parser(
         "demo", help="write the demo data, templates and study into a new folder",
@@ -95,6 +78,24 @@ def _number_or_none(text: str):
         return float(text)
     except ValueError:
         raise argparse.ArgumentTypeError(f"expected a number or {CLEAR}, got {text!r}") from None
+
+
+#: The predictor options: option -> (help, takes a number or none). Each is declared once, from this table, by
+#: :func:`_add_predictor_options` with the :class:`_Scoped` action: before any ``--predictor`` it sets the first
+#: predictor's setting, after ``--predictor NAME`` that predictor's. Every other option of ``_OPTIONS`` is a
+#: setting of the whole study, declared in :func:`register` as usual (and refused after ``--predictor``).
+_PREDICTOR_OPTIONS = {
+    "items": ("item columns: FIRST:LAST or a comma-separated list of headers", False),
+    "reverse": ("reverse-keyed items (scored minimum + maximum - response): FIRST:LAST or a comma-separated list of "
+                "headers; needs --item-min and --item-max", False),
+    "item_min": ("lowest response an item allows (e.g. 1)", True),
+    "item_max": ("highest response an item allows (e.g. 5)", True),
+    "total": ("header of a total-score column", False),
+    "ratings": ("rating columns: FIRST:LAST or a list", False),
+    "retest": ("header of the retest-score column", False),
+    "cut": ("cut score for adverse impact and utility", True),
+    "test_name": ("name of the test, for titles", False),
+}
 
 
 class _PredictorScope(argparse.Action):
@@ -118,7 +119,7 @@ class _Scoped(argparse.Action):
     def __call__(self, parser, namespace, values, option_string=None):
         name = getattr(namespace, "current_predictor", None)
         where = f"argument {option_string}" + (f" (predictor {name!r})" if name else "")
-        if self.dest in _NUMBER_OPTIONS:
+        if _PREDICTOR_OPTIONS[self.dest][1]:  # a number or none, converted here to name the predictor
             try:
                 values = _number_or_none(values)
             except argparse.ArgumentTypeError as exc:
@@ -132,13 +133,17 @@ class _Scoped(argparse.Action):
         scope[self.dest] = values
 
 
-def _scope_predictor_options(parser) -> None:
-    """Make the predictor options (``_PREDICTOR_OPTIONS``) follow ``--predictor``; the options are declared
-    above as usual, so an option added there needs nothing here unless it is a predictor's."""
-    for opt in _PREDICTOR_OPTIONS:
-        action = parser._option_string_actions["--" + opt.replace("_", "-")]  # the Action add_argument made
-        action.__class__ = _Scoped
-        action.type = None  # _Scoped converts, naming the predictor in its message
+def _add_predictor_options(parser) -> None:
+    """``--predictor NAME`` and the predictor options (``_PREDICTOR_OPTIONS``), in a group of their own."""
+    group = parser.add_argument_group(
+        "predictor options", "the first predictor's settings; after --predictor NAME, that predictor's (up to the "
+                             "next --predictor)")
+    group.add_argument("--predictor", metavar="NAME", action=_PredictorScope, dest="current_predictor",
+                       help="the predictor (its name on the Setup sheet) whose settings the predictor options after "
+                            "it set, up to the next --predictor; none clears a setting for that predictor alone")
+    for opt, (text, _) in _PREDICTOR_OPTIONS.items():
+        group.add_argument("--" + opt.replace("_", "-"), action=_Scoped, help=text)
+    parser.set_defaults(predictor_scopes=None, before_predictor=None)
 
 
 def _field_value(opt: str, value):
