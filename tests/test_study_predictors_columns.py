@@ -249,9 +249,11 @@ def test_dif_by_the_second_column_against_statsmodels(built):
 
 @pytest.mark.slow
 def test_the_items_sheet_has_a_dif_flag_column_per_demographic_column(built):
+    from trueband.bridge.study.sheets.dif import flag_header
+
     ws = built[1]["Items"]
-    assert ws.cell(6, 7).value == "DIF by group (worst ETS category, see DIF)"
-    assert ws.cell(6, 8).value == "DIF by band (worst ETS category, see DIF)"
+    assert ws.cell(6, 7).value == flag_header("group") and ws.cell(6, 8).value == flag_header("band")
+    assert "column 'band'" in ws.cell(6, 8).value
     for col in (7, 8):
         assert {ws.cell(7 + j, col).value for j in range(len(TEST))} <= {"A", "B", "C: review"}
 
@@ -267,3 +269,180 @@ def test_a_column_with_a_small_group_says_so_naming_the_column(tmp_path):
     reasons = [reason for sheet, _, reason in result.not_computable if sheet == "DIF"]
     assert any("(column 'band')" in r for r in reasons)
     assert isinstance(value((result, values), "dif_B_3_delta"), float)  # the first column is compared as before
+
+
+# ---------------------------------------------------------------- the Summary's fairness and DIF lines
+
+#: Words the study never uses of a group comparison: a test that finds no difference cannot show there is none
+#: (Aguinis, Culpepper & Pierce 2010); a DIF flag is a reason for review, not a finding (Zwick 2012).
+NEVER = ("no bias", "unbiased", "free of bias", "not biased")
+
+#: (slope p, intercept p, confidence) -> the start of the reading the step-down rule gives (Lautenschlager &
+#: Mendoza 1986: the slopes first; the intercepts only when the slopes do not differ), written out by hand
+READINGS = [
+    ((0.012, 0.30, 0.95), "slopes differ (p = 0.012, below the 0.05 level): "),
+    ((0.0001, 0.0001, 0.95), "slopes differ (p < 0.001, below the 0.05 level): "),
+    ((0.40, 0.0301, 0.95), "intercepts differ (p = 0.030, below the 0.05 level): the slopes do not differ"),
+    ((0.02, 0.004, 0.99), "intercepts differ (p = 0.004, below the 0.01 level): "),
+    ((0.3581, 0.448, 0.95), "no difference detected at this sample size (slopes p = 0.358, intercepts p = 0.448; "
+                            "level 0.05): this does not show the absence of bias"),
+    ((0.07, 0.2, 0.9), "slopes differ (p = 0.070, below the 0.1 level): "),
+]
+
+
+def _reading_book(path):
+    """A workbook of the reading formula over typed p values and confidence levels (one case a row)."""
+    from openpyxl import Workbook
+
+    from trueband.bridge.study.context import cell, formula_text
+    from trueband.bridge.study.sheets.fairness import reading_formula
+
+    wb = Workbook()
+    ws = wb.active
+    ws.title = "Readings"
+    for r, ((sp, ip, conf), _) in enumerate(READINGS, start=1):
+        ws.cell(r, 1, sp), ws.cell(r, 2, ip), ws.cell(r, 3, conf)
+        template, places = reading_formula(*(cell("Readings", r, c) for c in (1, 2, 3)))
+        ws.cell(r, 4, "=" + formula_text(template, "Readings", **places))
+    wb.save(path)
+    return path
+
+
+def test_the_reading_formula_says_the_step_down_result_in_cautious_words(tmp_path):
+    # trueband's own engine evaluates the formula (every branch); its words are the hand-written ones above,
+    # and the same as reading_words gives (what the study checks each cell with)
+    from trueband.bridge.engine.recalc import recalculate
+    from trueband.bridge.study.sheets.fairness import reading_words
+
+    report = recalculate(_reading_book(tmp_path / "study-in.xlsx"), tmp_path / "study.xlsx", all_formulas=True)
+    assert report.ok
+    ws = load_workbook(tmp_path / "study.xlsx", data_only=True)["Readings"]
+    for r, (args, start) in enumerate(READINGS, start=1):
+        got = ws.cell(r, 4).value
+        assert got.startswith(start) and got == reading_words(*args)
+        assert not any(word in got.lower() for word in NEVER)
+
+
+@pytest.mark.slow
+@pytest.mark.libreoffice
+def test_libreoffice_reads_the_step_down_result_alike(tmp_path, soffice):
+    from test_study_libreoffice import recomputed_mismatches
+    from trueband.bridge.engine.recalc import recalculate
+
+    recalculate(_reading_book(tmp_path / "in.xlsx"), tmp_path / "study.xlsx", all_formulas=True)
+    checked, mismatches = recomputed_mismatches(soffice, tmp_path / "study.xlsx", ("Readings",), tmp_path / "lo")
+    assert checked == {"Readings": len(READINGS)} and not mismatches, mismatches
+
+
+def _sheet_text(ws) -> str:
+    return " ".join(str(c.value) for row in ws.iter_rows() for c in row if isinstance(c.value, str)).lower()
+
+
+@pytest.mark.slow
+def test_the_summary_reads_each_column_s_differential_prediction_from_the_fairness_sheets(built):
+    from trueband.bridge.study.sheets.fairness import reading_words
+
+    result, values, test, perf, band = built
+    formulas = load_workbook(result.path)
+    readings = [k for k in result.cells if k.startswith("summary_") and "_reading_" in k]
+    # two predictors (the test, the questionnaire) by two columns (group, band), one focal group each
+    assert sorted(readings) == ["summary_fairness_col2_reading_Y", "summary_fairness_reading_B",
+                                "summary_p2_fairness_col2_reading_Y", "summary_p2_fairness_reading_B"]
+    for key in readings:
+        own = key[len("summary_"):]
+        sheet, coord = result.cells[own]
+        assert sheet.startswith("Fairness")
+        # a link to the Fairness sheet's cell, which says what its own p values and the Setup's level give
+        assert formulas["Summary"][result.cells[key][1]].value == f"='{sheet}'!{coord}"
+        p_slope, p_intercept = (value(built, own.replace("reading_", part)) for part in ("slope_p_", "intercept_p_"))
+        assert value(built, key) == value(built, own) == reading_words(p_slope, p_intercept, 0.95)
+    # the second column's reading from statsmodels' own step-down tests (OLS, compare_f_test; Cleary 1968)
+    score, ok = test.sum(axis=1), ~np.isnan(perf)
+    y, s, g = perf[ok], score[ok], (band == "Y").astype(float)[ok]
+    m1 = sm.OLS(y, sm.add_constant(s)).fit()
+    m2 = sm.OLS(y, sm.add_constant(np.column_stack([s, g]))).fit()
+    m3 = sm.OLS(y, sm.add_constant(np.column_stack([s, g, s * g]))).fit()
+    expected = reading_words(m3.compare_f_test(m2)[1], m2.compare_f_test(m1)[1], 0.95)
+    assert value(built, "summary_fairness_col2_reading_Y") == expected
+    labels = {formulas["Summary"].cell(int(result.cells[k][1][1:]), 1).value for k in readings}
+    assert "Reasoning Test: Y compared with X, differential prediction (Fairness sheet)" in labels
+
+
+@pytest.mark.slow
+def test_the_summary_counts_each_column_s_dif_items_as_the_dif_sheet_categorises_them(built):
+    result, values = built[0], built[1]
+    formulas = load_workbook(result.path)
+    for col, focal in (("", "B"), ("col2_", "Y")):
+        worst = []
+        for j in range(1, len(TEST) + 1):
+            got = value(built, f"dif_{col}{focal}_{j}_mh_class")  # the DIF sheet's own ETS category
+            worst.append("C: review" if got == "C" else got)
+            assert value(built, f"dif_flag_{col}{j}") == worst[-1]  # the Items flag, found by its column's key
+        for word, letter in (("C: review", "c"), ("B", "b")):
+            key = f"dif_{col}count_{letter}"
+            assert value(built, f"summary_{key}") == value(built, key) == worst.count(word)
+            sheet, coord = result.cells[key]
+            assert formulas["Summary"][result.cells[f"summary_{key}"][1]].value == f"='{sheet}'!{coord}"
+    # T3 was made to behave differently for group B (see test_study_predictors.table): category C by 'group'
+    assert value(built, "dif_flag_3") == "C: review" and value(built, "summary_dif_count_c") >= 1
+
+
+@pytest.mark.slow
+def test_no_sheet_says_the_groups_are_shown_to_be_treated_alike(built):
+    values = built[1]
+    for name in ("Summary", "Fairness", "Fairness (Work)", "DIF", "Items"):
+        text = _sheet_text(values[name])
+        assert not any(word in text for word in NEVER), name
+    summary = _sheet_text(values["Summary"])
+    assert "groups of 'group'" in summary and "groups of 'band'" in summary
+    for key in [k for k in built[0].cells if k.startswith("summary_") and "_reading_" in k]:
+        got = value(built, key)
+        assert got.startswith(("slopes differ (p", "intercepts differ (p", "no difference detected at this sample "
+                                                                          "size"))
+        assert got.startswith("no difference") == got.endswith("this does not show the absence of bias")
+
+
+#: the first demographic column ('band', its group X about 5% of the people) too small for Fairness and DIF; the
+#: second ('group') compared
+SMALL_FIRST = [("id column", "id"), ("group column", "band"), ("item columns", "T1:T8"), ("criterion column", "perf"),
+               ("retest column", "retest"), ("cut score", 4), ("test name", "Reasoning Test"),
+               ("group columns", "band, group"), ("reference groups", "band: Y; group: A")] + SETUP[8:]
+
+
+@pytest.fixture(scope="module")
+def small_first(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("small_first")
+    header, rows, _, _, _ = with_band(share_x=0.05)
+    result = make_study(write_book(folder / "d.xlsx", header, rows, SMALL_FIRST), folder / "study.xlsx")
+    return result, load_workbook(result.path, data_only=True)
+
+
+@pytest.mark.slow
+def test_items_names_the_column_of_its_dif_flags_when_the_first_is_not_computed(small_first):
+    from trueband.bridge.study.sheets.dif import flag_header
+
+    result, values = small_first
+    assert result.recalc_report.ok
+    ws = values["Items"]
+    # the only DIF column on Items is the second demographic column's, and its header says so
+    assert ws.cell(6, 7).value == flag_header("group") == ("DIF by column 'group' (worst ETS category over its "
+                                                           "focal groups; see DIF)")
+    assert ws.cell(6, 8).value is None
+    # its cells are keyed by their column (col2), not by their place; the first column has none
+    assert [result.cells[f"dif_flag_col2_{j}"] for j in range(1, len(TEST) + 1)] == [
+        ("Items", f"G{6 + j}") for j in range(1, len(TEST) + 1)]
+    assert not any(k.startswith("dif_flag_") and not k.startswith("dif_flag_col2_") for k in result.cells)
+    assert value(small_first, "dif_flag_col2_3") == "C: review"  # T3, made to differ for group B
+
+
+@pytest.mark.slow
+def test_the_summary_says_why_a_column_is_not_compared_and_reads_the_other(small_first):
+    result, values = small_first
+    fairness, dif = str(value(small_first, "summary_fairness")), str(value(small_first, "summary_dif"))
+    assert fairness == ("not computable: differential prediction needs at least two groups with 20 or more people "
+                        "who have a score and a criterion value (column 'band')")
+    assert dif == ("not computable: DIF needs at least two groups with 100 or more people who answered every item "
+                   "(column 'band')")
+    assert value(small_first, "summary_dif_col2_count_c") == value(small_first, "dif_col2_count_c") >= 1
+    assert value(small_first, "summary_fairness_col2_reading_B") == value(small_first, "fairness_col2_reading_B")
+    assert not any(word in _sheet_text(values["Summary"]) for word in NEVER)

@@ -8,7 +8,7 @@ what trueband stored (cells that need a trueband function show #NAME? there and 
 two demographic columns (Group, Age band): the Fairness and DIF blocks of both are covered. A third check
 builds the random tables of the predictor tests with a second demographic column and a predictor given only
 as a panel of ratings, and compares the same way its Reliability, Raters and Bands sheets and the blocks of
-the second column (Fairness, DIF, the Items sheet's flags).
+the second column (Fairness, DIF, the Items sheet's flags, the Summary's lines linking them).
 """
 
 from __future__ import annotations
@@ -63,7 +63,7 @@ def _close(ours: float, theirs: str) -> bool:
 
 
 PANEL_SHEETS = ("Reliability (Panel Interview)", "Raters (Panel Interview)", "Bands (Panel Interview)",
-                "Fairness (Panel Interview)", "Fairness", "DIF", "Items", "Combined")
+                "Fairness (Panel Interview)", "Fairness", "DIF", "Items", "Combined", "Summary")
 
 
 @pytest.fixture(scope="module")

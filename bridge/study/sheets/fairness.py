@@ -6,6 +6,9 @@ against that column's reference group: the
 step-down tests (slopes, then intercepts, ``PREDICTION_SLOPE_P`` / ``PREDICTION_INTERCEPT_P``), each group's
 line and the common line (``INTERCEPT`` / ``SLOPE`` over the group's own columns, the slope's interval from
 ``STEYX`` and ``DEVSQ``), and the gap at the cut (``PREDICTION_GAP``), with a chart of one line per group.
+Below each group's tests, the reading of the steps in words (a live ``IF`` on the two p values and the
+confidence level of Setup: "slopes differ", "intercepts differ" or "no difference detected at this sample
+size: this does not show the absence of bias"), which the Summary links.
 
 The people with a score and a criterion value are listed from column T (their Bands row, score, criterion
 and group number, then one criterion and one score column per group), so every range holds numbers only;
@@ -21,10 +24,12 @@ import numpy as np
 
 from .. import charts
 from ..context import Ref, StudyContext, area, cell, fill_row, sheet_names
-from ..words import CAUTION, FAIRNESS_CAUTION, FAIRNESS_READING
+from ..words import (CAUTION, FAIRNESS_CAUTION, FAIRNESS_READING, INTERCEPTS_DIFFER, NO_DIFFERENCE, NOT_ABSENCE,
+                     SLOPES_DIFFER)
 from .bands import BANDS_SHEET
 
-__all__ = ["Fairness", "GroupColumn", "write", "MIN_GROUP", "demographic_columns", "reference_of"]
+__all__ = ["Fairness", "GroupColumn", "write", "MIN_GROUP", "demographic_columns", "reference_of", "reading_words",
+           "reading_formula"]
 
 SHEET = "Fairness"
 #: People with a score and a criterion value each group needs before its line is compared (common practice:
@@ -43,6 +48,14 @@ class Fairness:
     intercept_p: dict
     #: the same, per further demographic column (its header -> a Fairness of its own)
     others: dict = dataclasses.field(default_factory=dict)
+    header: str | None = None       # the demographic column compared
+    key: str = ""                   # the column's part of its cells' keys: "" for the first, "col2_"...
+    reference: str | None = None    # its reference group (None when not compared)
+    #: per focal group name, the reading of its step-down tests in words (a live text cell)
+    readings: dict = dataclasses.field(default_factory=dict)
+    reason: Ref | None = None       # the cell saying why the column is not compared (when it is not)
+    #: every demographic column's Fairness in order (on the one :func:`write` returns)
+    columns: tuple = ()
 
 
 @dataclasses.dataclass(frozen=True)
@@ -111,7 +124,7 @@ def write(ctx: StudyContext, predictor) -> Fairness:
         found.append((column, out))
     g.print_area = f"A1:G{row}"
     first = found[0][1]
-    return dataclasses.replace(first, others={c.header: f for c, f in found[1:]})
+    return dataclasses.replace(first, others={c.header: f for c, f in found[1:]}, columns=tuple(f for _, f in found))
 
 
 def _column(ctx, g, row, predictor, column: GroupColumn, listed, list_col: int):
@@ -132,16 +145,16 @@ def _column(ctx, g, row, predictor, column: GroupColumn, listed, list_col: int):
         row += 1
     if reference is None or len(enough) < 2:
         key = "fairness" + ("_" + column.key[:-1] if column.key else "")  # fairness, fairness_col2...
-        ctx.not_computable_at(g, row + 1, 1, f"differential prediction needs at least two groups with {MIN_GROUP} or "
-                                             f"more people who have a score and a criterion value (column "
-                                             f"{column.header!r})", key=key)
-        return row + 3, list_col, Fairness({}, {}, {})
+        reason = ctx.not_computable_at(g, row + 1, 1, f"differential prediction needs at least two groups with "
+                                                      f"{MIN_GROUP} or more people who have a score and a criterion "
+                                                      f"value (column {column.header!r})", key=key)
+        return row + 3, list_col, Fairness({}, {}, {}, header=column.header, key=column.key, reason=reason)
     listing = _listing(ctx, g, predictor, column, listed, [numbers.get(x) for x in group_of], enough, list_col)
     row += 1
     g.set(row, 1, f"Reference group of {column.header!r} (the group each other group is compared with)")
     g.set(row, 2, reference, "header")
     row += 2
-    out = Fairness({}, {}, {})
+    out = Fairness({}, {}, {}, header=column.header, key=column.key, reference=reference)
     for name in enough:
         if name != reference:
             row = _tests(ctx, g, row, predictor, listing, column, name, reference, out)
@@ -228,7 +241,51 @@ def _tests(ctx, g, row, predictor, listing, column: GroupColumn, name, reference
         g.set(row + 3, 3, ctx.text('=IF({gap}>0,"the common line over-predicts this group\'s criterion at the cut",'
                                    'IF({gap}<0,"the common line under-predicts this group\'s criterion at the cut",'
                                    '"the lines meet at the cut"))', SHEET, gap=gap))
-    return row + 5
+    g.set(row + 4, 1, "Reading of the steps (p against 1 − the confidence level)")
+    out.readings[name] = _reading(ctx, g, row + 4, 2, out.slope_p[name], out.intercept_p[name],
+                                  predictor.setup.confidence, f"{key}reading_{name}")
+    return row + 6
+
+
+def _p_text(p: str) -> str:
+    """Formula text: ``p = 0.012`` (or ``p < 0.001``) of the p value at the place ``p``."""
+    return f'IF({p}<0.0005,"p < 0.001","p = "&TEXT({p},"0.000"))'
+
+
+def _p_words(p: float) -> str:
+    return "p < 0.001" if p < 0.0005 else f"p = {p:.3f}"
+
+
+def reading_words(slope_p: float, intercept_p: float, confidence: float) -> str:
+    """The reading of the step-down tests, as the Fairness sheet's formula puts it together (step 1, the slopes;
+    step 2, the intercepts, read only when the slopes do not differ detectably)."""
+    level = 1 - confidence
+    shown = f"{level:.3f}".rstrip("0")
+    if slope_p < level:
+        return f"{SLOPES_DIFFER[0]} ({_p_words(slope_p)}, below the {shown} level): {SLOPES_DIFFER[1]}"
+    if intercept_p < level:
+        return f"{INTERCEPTS_DIFFER[0]} ({_p_words(intercept_p)}, below the {shown} level): {INTERCEPTS_DIFFER[1]}"
+    return (f"{NO_DIFFERENCE} (slopes {_p_words(slope_p)}, intercepts {_p_words(intercept_p)}; level {shown}): "
+            f"{NOT_ABSENCE}")
+
+
+def reading_formula(slope_p, intercept_p, confidence) -> tuple[str, dict]:
+    """The formula template of the reading of the step-down tests (:func:`reading_words` says the same) and its
+    places: ``slope_p``, ``intercept_p`` and ``confidence`` (handles), and the words."""
+    level = 'TEXT(1-{conf},"0.###")'
+    template = ('IF({sp}<1-{conf},{s1}&" ("&' + _p_text("{sp}") + '&", below the "&' + level + '&" level): "&{s2},'
+                'IF({ip}<1-{conf},{i1}&" ("&' + _p_text("{ip}") + '&", below the "&' + level + '&" level): "&{i2},'
+                '{n1}&" (slopes "&' + _p_text("{sp}") + '&", intercepts "&' + _p_text("{ip}") + '&"; level "&'
+                + level + '&"): "&{n2}))')
+    return template, dict(sp=slope_p, ip=intercept_p, conf=confidence, s1=SLOPES_DIFFER[0], s2=SLOPES_DIFFER[1],
+                          i1=INTERCEPTS_DIFFER[0], i2=INTERCEPTS_DIFFER[1], n1=NO_DIFFERENCE, n2=NOT_ABSENCE)
+
+
+def _reading(ctx, g, r: int, c: int, slope_p: Ref, intercept_p: Ref, confidence: Ref, key: str) -> Ref:
+    """The live reading of one group's step-down tests (:func:`reading_formula`)."""
+    template, places = reading_formula(slope_p, intercept_p, confidence)
+    return ctx.expression(g, r, c, template, lambda: reading_words(ctx.value(slope_p), ctx.value(intercept_p),
+                                                                    ctx.value(confidence)), key=key, **places)
 
 
 def _lines(ctx, g, row, predictor, listing, column: GroupColumn, groups) -> int:
