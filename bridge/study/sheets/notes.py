@@ -65,6 +65,10 @@ CONVENTIONS = (
     "practice); the reference group is the one named on Setup, else the largest. Fairness and DIF: one block per "
     "demographic column, each against that column's reference group. DIF: 0/1 items, groups with at "
     "least 100 people who answered every item (common practice), matched on the total score including the item.",
+    "Fairness readings (on the Fairness sheet, linked from the Summary): a p value below 1 − the confidence level "
+    "counts as a difference detected, slopes first, then intercepts (Lautenschlager & Mendoza 1986); a difference "
+    "not detected is not shown to be absent, since these tests have little power in local samples (Aguinis, "
+    "Culpepper & Pierce 2010).",
 )
 
 
