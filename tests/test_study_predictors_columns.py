@@ -118,8 +118,9 @@ def test_the_scoping_uses_argparse_s_public_interface_only():
     from trueband.bridge.cli import study
 
     tree = ast.parse(inspect.getsource(study))
-    private = sorted({n.attr for n in ast.walk(tree) if isinstance(n, ast.Attribute) and n.attr.startswith("_")})
-    assert private == []
+    attributes = {n.attr for n in ast.walk(tree) if isinstance(n, ast.Attribute)}
+    assert sorted(a for a in attributes if a.startswith("_") and not a.endswith("__")) == []
+    assert "__class__" not in attributes and "__dict__" not in attributes
     assert "_option_string_actions" not in inspect.getsource(study)
 
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import functools
 import sys
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -10,7 +11,7 @@ from typing import TYPE_CHECKING
 
 from .common import EXIT_CELL_ERRORS, EXIT_OK, CommandError
 from ..study.demo_folder import DEMO_FILES, DemoFolderError, write_demo  # noqa: F401  (DEMO_FILES: tests)
-from ..study.setup_predictors import CLEAR, SCOPED, is_clear
+from ..study.setup_predictors import CLEAR, PREDICTOR_FIELDS, SCOPED, is_clear
 from ..study.words import CAUTION, NOT_COMPUTABLE
 
 if TYPE_CHECKING:
@@ -27,7 +28,7 @@ _OPTIONS = {"sheet": "data_sheet", "id": "id", "group": "group", "items": "items
 
 
 def register(sub) -> None:
-    p = sub.add_parser(
+    p = _Declarations(sub.add_parser(
         "study", help="build a validation-study workbook from a data workbook",
         description="Build a new workbook with a copy of the data and analysis sheets (reliability, items, raters, "
                     "validity, bands, adverse impact, utility) whose every number is a live formula, recalculated. "
@@ -39,7 +40,7 @@ def register(sub) -> None:
                     "them: the predictor options after it (--items, --reverse, --item-min, --item-max, --total, "
                     "--ratings, --retest, --cut, --test-name) set that predictor's, up to the next --predictor "
                     "(e.g. --cut 24 --predictor 'Work Style Questionnaire' --cut 40 --retest none); the study-wide "
-                    "options go before the first --predictor. " + CAUTION)
+                    "options go before the first --predictor. " + CAUTION))
     p.add_argument("data", help="the data workbook (.xlsx)")
     p.add_argument("-o", "--output", help="the study workbook to write (default: DATA-study.xlsx beside it)")
     p.add_argument("--overwrite", action="store_true", help="replace the output if it exists")
@@ -47,8 +48,17 @@ def register(sub) -> None:
     p.add_argument("--id", help="header of the id column")
     p.add_argument("--group", help="header of the applicant-group column, or several demographic columns separated by "
                                    "commas (e.g. Sex,Ethnicity), one impact table each")
+    p.add_argument("--items", help="item columns: FIRST:LAST or a comma-separated list of headers")
+    p.add_argument("--reverse", help="reverse-keyed items (scored minimum + maximum - response): FIRST:LAST or a "
+                                     "comma-separated list of headers; needs --item-min and --item-max")
+    p.add_argument("--item-min", type=_number_or_none, help="lowest response an item allows (e.g. 1)")
+    p.add_argument("--item-max", type=_number_or_none, help="highest response an item allows (e.g. 5)")
+    p.add_argument("--total", help="header of a total-score column")
+    p.add_argument("--ratings", help="rating columns: FIRST:LAST or a list")
     p.add_argument("--criterion", help="header of the job-performance column")
+    p.add_argument("--retest", help="header of the retest-score column")
     p.add_argument("--hired", help="header of the hired (yes/no) column")
+    p.add_argument("--cut", type=_number_or_none, help="cut score for adverse impact and utility")
     p.add_argument("--confidence", type=_number_or_none, help="confidence level (default 0.95)")
     p.add_argument("--criterion-reliability", type=_number_or_none, help="criterion reliability (default 0.52)")
     p.add_argument("--success", type=_number_or_none, help="criterion value that counts as success (default: median)")
@@ -58,7 +68,7 @@ def register(sub) -> None:
     p.add_argument("--stratum", help="header of the stratum column (sites, years, job groups) to pool impact over")
     p.add_argument("--stages", help="stage columns of the selection process in order, each yes/no: a "
                                     "comma-separated list of headers or FIRST:LAST")
-    _add_predictor_options(p)
+    p.add_argument("--test-name", help="name of the test, for titles")
     p.set_defaults(handler=run_study)
 
     p = sub.add_parser(
@@ -80,22 +90,11 @@ def _number_or_none(text: str):
         raise argparse.ArgumentTypeError(f"expected a number or {CLEAR}, got {text!r}") from None
 
 
-#: The predictor options: option -> (help, takes a number or none). Each is declared once, from this table, by
-#: :func:`_add_predictor_options` with the :class:`_Scoped` action: before any ``--predictor`` it sets the first
-#: predictor's setting, after ``--predictor NAME`` that predictor's. Every other option of ``_OPTIONS`` is a
-#: setting of the whole study, declared in :func:`register` as usual (and refused after ``--predictor``).
-_PREDICTOR_OPTIONS = {
-    "items": ("item columns: FIRST:LAST or a comma-separated list of headers", False),
-    "reverse": ("reverse-keyed items (scored minimum + maximum - response): FIRST:LAST or a comma-separated list of "
-                "headers; needs --item-min and --item-max", False),
-    "item_min": ("lowest response an item allows (e.g. 1)", True),
-    "item_max": ("highest response an item allows (e.g. 5)", True),
-    "total": ("header of a total-score column", False),
-    "ratings": ("rating columns: FIRST:LAST or a list", False),
-    "retest": ("header of the retest-score column", False),
-    "cut": ("cut score for adverse impact and utility", True),
-    "test_name": ("name of the test, for titles", False),
-}
+#: The predictor options: the options of ``_OPTIONS`` whose Setup field is a predictor's setting. ``register``
+#: declares every option in one list; :class:`_Declarations` puts these in the "predictor options" group with the
+#: :class:`_Scoped` action (before any ``--predictor`` the first predictor's setting, after ``--predictor NAME``
+#: that predictor's); every other option is a setting of the whole study (refused after ``--predictor``).
+_PREDICTOR_OPTIONS = tuple(opt for opt, field in _OPTIONS.items() if field in PREDICTOR_FIELDS)
 
 
 class _PredictorScope(argparse.Action):
@@ -114,15 +113,20 @@ class _PredictorScope(argparse.Action):
 
 
 class _Scoped(argparse.Action):
-    """A predictor option: the first predictor's setting, or after ``--predictor NAME`` that predictor's."""
+    """A predictor option: the first predictor's setting, or after ``--predictor NAME`` that predictor's.
+    ``convert`` (the type the option was declared with) runs here, so that its message names the predictor."""
+
+    def __init__(self, option_strings, dest, convert=None, **kwargs):
+        super().__init__(option_strings, dest, **kwargs)
+        self.convert = convert
 
     def __call__(self, parser, namespace, values, option_string=None):
         name = getattr(namespace, "current_predictor", None)
         where = f"argument {option_string}" + (f" (predictor {name!r})" if name else "")
-        if _PREDICTOR_OPTIONS[self.dest][1]:  # a number or none, converted here to name the predictor
+        if self.convert is not None:
             try:
-                values = _number_or_none(values)
-            except argparse.ArgumentTypeError as exc:
+                values = self.convert(values)
+            except (argparse.ArgumentTypeError, ValueError) as exc:
                 parser.error(f"{where}: {exc}")
         if name is None:
             setattr(namespace, self.dest, values)
@@ -133,17 +137,32 @@ class _Scoped(argparse.Action):
         scope[self.dest] = values
 
 
-def _add_predictor_options(parser) -> None:
-    """``--predictor NAME`` and the predictor options (``_PREDICTOR_OPTIONS``), in a group of their own."""
-    group = parser.add_argument_group(
-        "predictor options", "the first predictor's settings; after --predictor NAME, that predictor's (up to the "
-                             "next --predictor)")
-    group.add_argument("--predictor", metavar="NAME", action=_PredictorScope, dest="current_predictor",
-                       help="the predictor (its name on the Setup sheet) whose settings the predictor options after "
-                            "it set, up to the next --predictor; none clears a setting for that predictor alone")
-    for opt, (text, _) in _PREDICTOR_OPTIONS.items():
-        group.add_argument("--" + opt.replace("_", "-"), action=_Scoped, help=text)
-    parser.set_defaults(predictor_scopes=None, before_predictor=None)
+class _Declarations:
+    """The study parser as :func:`register` declares its options (public argparse calls only): a predictor
+    option (``_PREDICTOR_OPTIONS``) goes to the "predictor options" group, after ``--predictor NAME``, with the
+    :class:`_Scoped` action; every other option, and ``set_defaults``, to the parser as given. An option added to
+    ``register`` and ``_OPTIONS`` is therefore study-wide unless its Setup field is one of ``PREDICTOR_FIELDS``."""
+
+    def __init__(self, parser: argparse.ArgumentParser):
+        self.parser = parser
+        self.group = parser.add_argument_group(
+            "predictor options", "the first predictor's settings; after --predictor NAME, that predictor's (up to "
+                                 "the next --predictor)")
+        self.group.add_argument("--predictor", metavar="NAME", action=_PredictorScope, dest="current_predictor",
+                                help="the predictor (its name on the Setup sheet) whose settings the predictor "
+                                     "options after it set, up to the next --predictor; none clears a setting for "
+                                     "that predictor alone")
+        parser.set_defaults(predictor_scopes=None, before_predictor=None)
+
+    def add_argument(self, *names, **kwargs):
+        dest = names[-1].lstrip("-").replace("-", "_")
+        if not names[-1].startswith("-") or dest not in _PREDICTOR_OPTIONS:
+            return self.parser.add_argument(*names, **kwargs)
+        convert = kwargs.pop("type", None)
+        return self.group.add_argument(*names, action=functools.partial(_Scoped, convert=convert), **kwargs)
+
+    def set_defaults(self, **kwargs) -> None:
+        self.parser.set_defaults(**kwargs)
 
 
 def _field_value(opt: str, value):

@@ -48,7 +48,7 @@ class DifColumn:
     flags: Ref | None = None    # the Items column of each item's worst category over the focal groups
     reason: Ref | None = None   # the DIF cell saying why the column is not compared (when it is not)
     counts_row: int | None = None   # the DIF sheet's row of the count of items in category C (B below it)
-    #: the counts of items whose worst category is C and B (cells of the DIF sheet, COUNTIF over ``flags``)
+    #: the counts of items whose worst category is C and B (cells of the DIF sheet, SUMPRODUCT over ``flags``)
     count_c: Ref | None = None
     count_b: Ref | None = None
 
@@ -181,7 +181,7 @@ def _flags(ctx: StudyContext, found: list) -> list:
 
 def _counts(ctx: StudyContext, column: DifColumn) -> DifColumn:
     """On the DIF sheet, the counts of items whose worst category over ``column``'s focal groups is C and B
-    (``COUNTIF`` over its flags on Items)."""
+    (over its flags on Items)."""
     g, r, values = ctx.grids[sheet_title(SHEET)], column.counts_row, column.flags.value
     known = all(v in ("A", "B", "C: review", None) for v in values)
     got = {}
@@ -189,7 +189,8 @@ def _counts(ctx: StudyContext, column: DifColumn) -> DifColumn:
         g.set(r + k, 1, f"Items in category {word[0]}")
         g.set(r + k, 3, f"items whose worst category over the focal groups of {column.header!r} is {label} (the "
                         f"Items sheet's flags)")
-        got[word] = ctx.expression(g, r + k, 2, "COUNTIF({flags},{word})",
+        # SUMPRODUCT, not COUNTIF: a flag in error makes the count an error rather than leaving it out unseen
+        got[word] = ctx.expression(g, r + k, 2, "SUMPRODUCT(({flags}={word})*1)",
                                    (lambda w=word: sum(v == w for v in values)) if known else None, style="count",
                                    key=f"dif_{column.key}count_{word[0].lower()}", flags=column.flags, word=word)
     return dataclasses.replace(column, count_c=got["C: review"], count_b=got["B"])
