@@ -352,8 +352,9 @@ def test_charts_are_in_the_package(study):
         parts = [n for n in z.namelist() if n.startswith("xl/charts/chart")]
         xml = b"".join(z.read(n) for n in parts)
     # the four charts, the Cuts sheet's, the questionnaire's own Items, Validity and Fairness charts, and each
-    # predictor's Fairness sheet a chart of one line per group: 4 + 1 + 3 + 1
-    assert len(parts) == 9
+    # predictor's Fairness sheet a chart of one line per group: 4 + 1 + 3 + 1; and per predictor a second
+    # Fairness chart for the demo's second demographic column (Age band): + 2
+    assert len(parts) == 11
     for title in (b"Test score against job performance", b"Score distribution", b"four-fifths line",
                   b"Item difficulty against discrimination", b"Lowest impact ratio at each cut",
                   b"one line per group"):

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import functools
 import sys
 from pathlib import Path
 from typing import TYPE_CHECKING
@@ -10,7 +11,7 @@ from typing import TYPE_CHECKING
 
 from .common import EXIT_CELL_ERRORS, EXIT_OK, CommandError
 from ..study.demo_folder import DEMO_FILES, DemoFolderError, write_demo  # noqa: F401  (DEMO_FILES: tests)
-from ..study.setup_predictors import CLEAR, is_clear
+from ..study.setup_predictors import CLEAR, PREDICTOR_FIELDS, SCOPED, is_clear
 from ..study.words import CAUTION, NOT_COMPUTABLE
 
 if TYPE_CHECKING:
@@ -28,7 +29,7 @@ _OPTIONS = {"sheet": "data_sheet", "id": "id", "group": "group", "items": "items
 
 
 def register(sub) -> None:
-    p = sub.add_parser(
+    p = _Declarations(sub.add_parser(
         "study", help="build a validation-study workbook from a data workbook",
         description="Build a new workbook with a copy of the data and analysis sheets (reliability, items, raters, "
                     "validity, bands, adverse impact, utility) whose every number is a live formula, recalculated. "
@@ -36,7 +37,11 @@ def register(sub) -> None:
                     "Give the word none to clear a setting of the Setup sheet (--retest none: no retest column). "
                     "The options set the first predictor's settings; a further predictor (a questionnaire, an "
                     "interview total...) is a 'predictor | NAME' block on the Setup sheet, whose settings belong to "
-                    "it alone. " + CAUTION)
+                    "it alone. To set a predictor's settings from the command line, put --predictor NAME before "
+                    "them: the predictor options after it (--items, --reverse, --item-min, --item-max, --total, "
+                    "--ratings, --retest, --cut, --test-name) set that predictor's, up to the next --predictor "
+                    "(e.g. --cut 24 --predictor 'Work Style Questionnaire' --cut 40 --retest none); the study-wide "
+                    "options go before the first --predictor. " + CAUTION))
     p.add_argument("data", help="the data workbook (.xlsx)")
     p.add_argument("-o", "--output", help="the study workbook to write (default: DATA-study.xlsx beside it)")
     p.add_argument("--overwrite", action="store_true", help="replace the output if it exists")
@@ -89,20 +94,111 @@ def _number_or_none(text: str):
         raise argparse.ArgumentTypeError(f"expected a number or {CLEAR}, got {text!r}") from None
 
 
+#: The predictor options: the options of ``_OPTIONS`` whose Setup field is a predictor's setting. ``register``
+#: declares every option in one list; :class:`_Declarations` puts these in the "predictor options" group with the
+#: :class:`_Scoped` action (before any ``--predictor`` the first predictor's setting, after ``--predictor NAME``
+#: that predictor's); every other option is a setting of the whole study (refused after ``--predictor``).
+_PREDICTOR_OPTIONS = tuple(opt for opt, field in _OPTIONS.items() if field in PREDICTOR_FIELDS)
+
+
+class _PredictorScope(argparse.Action):
+    """``--predictor NAME``: the predictor options after it set that predictor's settings."""
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        name = " ".join(str(values).split())
+        if not name or is_clear(name):
+            parser.error(f"argument {option_string}: give the predictor's name as on the Setup sheet, got {values!r}")
+        if namespace.before_predictor is None:  # the study-wide options as they stood before the first --predictor
+            namespace.before_predictor = {opt: getattr(namespace, opt, None) for opt in _OPTIONS
+                                          if opt not in _PREDICTOR_OPTIONS}
+        namespace.predictor_scopes = dict(namespace.predictor_scopes or {})
+        namespace.predictor_scopes.setdefault(name, {})
+        setattr(namespace, self.dest, name)
+
+
+class _Scoped(argparse.Action):
+    """A predictor option: the first predictor's setting, or after ``--predictor NAME`` that predictor's.
+    ``convert`` (the type the option was declared with) runs here, so that its message names the predictor."""
+
+    def __init__(self, option_strings, dest, convert=None, **kwargs):
+        super().__init__(option_strings, dest, **kwargs)
+        self.convert = convert
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        name = getattr(namespace, "current_predictor", None)
+        where = f"argument {option_string}" + (f" (predictor {name!r})" if name else "")
+        if self.convert is not None:
+            try:
+                values = self.convert(values)
+            except (argparse.ArgumentTypeError, ValueError) as exc:
+                parser.error(f"{where}: {exc}")
+        if name is None:
+            setattr(namespace, self.dest, values)
+            return
+        scope = namespace.predictor_scopes[name]
+        if self.dest in scope:
+            parser.error(f"{where}: given twice for this predictor")
+        scope[self.dest] = values
+
+
+class _Declarations:
+    """The study parser as :func:`register` declares its options (public argparse calls only): a predictor
+    option (``_PREDICTOR_OPTIONS``) goes to the "predictor options" group, after ``--predictor NAME``, with the
+    :class:`_Scoped` action; every other option, and ``set_defaults``, to the parser as given. An option added to
+    ``register`` and ``_OPTIONS`` is therefore study-wide unless its Setup field is one of ``PREDICTOR_FIELDS``."""
+
+    def __init__(self, parser: argparse.ArgumentParser):
+        self.parser = parser
+        self.group = parser.add_argument_group(
+            "predictor options", "the first predictor's settings; after --predictor NAME, that predictor's (up to "
+                                 "the next --predictor)")
+        self.group.add_argument("--predictor", metavar="NAME", action=_PredictorScope, dest="current_predictor",
+                                help="the predictor (its name on the Setup sheet) whose settings the predictor "
+                                     "options after it set, up to the next --predictor; none clears a setting for "
+                                     "that predictor alone")
+        parser.set_defaults(predictor_scopes=None, before_predictor=None)
+
+    def add_argument(self, *names, **kwargs):
+        dest = names[-1].lstrip("-").replace("-", "_")
+        if not names[-1].startswith("-") or dest not in _PREDICTOR_OPTIONS:
+            return self.parser.add_argument(*names, **kwargs)
+        convert = kwargs.pop("type", None)
+        return self.group.add_argument(*names, action=functools.partial(_Scoped, convert=convert), **kwargs)
+
+    def set_defaults(self, **kwargs) -> None:
+        self.parser.set_defaults(**kwargs)
+
+
+def _field_value(opt: str, value):
+    """(setup field, value) of a command-line option's value."""
+    field = _OPTIONS[opt]
+    if is_clear(value):
+        return field, CLEAR
+    if field in ("items", "ratings", "reverse", "stages"):
+        value = tuple(p.strip() for p in value.split(",") if p.strip())
+    elif field == "group" and "," in value:  # several demographic columns
+        field, value = "group_columns", tuple(p.strip() for p in value.split(",") if p.strip())
+    return field, value
+
+
 def _overrides(args) -> dict:
     out = {}
-    for opt, field in _OPTIONS.items():
+    for opt in _OPTIONS:
         value = getattr(args, opt, None)
         if value is None:
             continue
-        if is_clear(value):
-            out[field] = CLEAR
-            continue
-        if field in ("items", "ratings", "reverse", "stages"):
-            value = tuple(p.strip() for p in value.split(",") if p.strip())
-        elif field == "group" and "," in value:  # several demographic columns
-            field, value = "group_columns", tuple(p.strip() for p in value.split(",") if p.strip())
+        field, value = _field_value(opt, value)
         out[field] = value
+    before = getattr(args, "before_predictor", None)
+    scopes = getattr(args, "predictor_scopes", None)
+    if scopes:
+        first = next(iter(scopes))
+        for opt, value in (before or {}).items():
+            if getattr(args, opt, None) != value:
+                raise CommandError(f"--{opt.replace('_', '-')} after --predictor {first!r}: it is a setting of the "
+                                   f"whole study; give it before the first --predictor")
+        out[SCOPED] = {name: dict(_field_value(opt, value) for opt, value in fields.items())
+                       for name, fields in scopes.items()}
     return out
 
 
@@ -122,7 +218,7 @@ def headline_values(path: Path, result: StudyResult) -> dict:
 
     keys = ("n_scored", "n_criterion", "alpha", "alpha_lower", "alpha_upper", "sem", "band_width",
             "icc_agreement_average", "r", "r_lower", "r_upper", "r_p", "operational", "min_ratio", "n_below",
-            "min_ratio_where", "taylor_russell", "base_rate", "bcg", "multiple_r", "cross_validity")
+            "min_ratio_where", "taylor_russell", "base_rate", "bcg", "multiple_r", "cross_validity", "panel_icc")
     wanted = {k: result.cells[k] for k in keys if k in result.cells}
     wb = load_workbook(path, read_only=True, data_only=True)
     try:
@@ -150,11 +246,14 @@ def _fmt(value, digits: int = 3) -> str:
 def headline_lines(h: dict) -> list[str]:
     lines = [f"  applicants with a score: {_fmt(h.get('n_scored'), 0)}; with a performance value: "
              f"{_fmt(h.get('n_criterion'), 0)}"]
-    if "alpha" in h:
+    if "alpha" in h and "panel_icc" not in h:
         ci = (f" [{_fmt(h.get('alpha_lower'))}, {_fmt(h.get('alpha_upper'))}]"
               if isinstance(h.get("alpha_lower"), float) else "")
         lines.append(f"  reliability (coefficient alpha): {_fmt(h['alpha'])}{ci}; SEM {_fmt(h.get('sem'), 2)}; "
                      f"band width {_fmt(h.get('band_width'), 2)}")
+    if "panel_icc" in h:  # the first predictor is a panel of ratings: its score is the raters' mean
+        lines.append(f"  reliability of the panel's mean rating, ICC(A,k): {_fmt(h['panel_icc'])}; SEM "
+                     f"{_fmt(h.get('sem'), 2)}; band width {_fmt(h.get('band_width'), 2)}")
     if "icc_agreement_average" in h:
         lines.append(f"  interview panel agreement ICC(A,k): {_fmt(h['icc_agreement_average'])}")
     if "r" in h:

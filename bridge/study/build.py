@@ -83,16 +83,16 @@ def plan(ctx: StudyContext) -> tuple[SetupSheet, Bands]:
     sheets.cuts.write(ctx, setup, impact, layout, utility)
     ctx.predictors = [sheets.predictors.first(ctx, setup, rel, bands, validity),
                       *sheets.predictors.write(ctx, setup, _full_checks)]
+    bias = []
     for predictor in ctx.predictors:  # each predictor's Fairness and DIF sheets, under its sheet titles
         with predictor.sheets(ctx, _full_checks(predictor.data)) as pctx:
-            sheets.fairness.write(pctx, predictor)
-            sheets.dif.write(pctx, predictor)
+            bias.append((predictor, sheets.fairness.write(pctx, predictor), sheets.dif.write(pctx, predictor)))
     combined = sheets.combined.write(ctx, ctx.predictors)
     cut_score = sheets.cut_score.write(ctx, setup, rel, impact)
     standard = sheets.judges.write(ctx, setup, rel, layout)
     content = sheets.content.write(ctx)
     sheets.summary.write(ctx, setup, rel, raters, validity, impact, utility, strata, combined, cut_score=cut_score,
-                         standard=standard, content=content, options=options)
+                         standard=standard, content=content, options=options, bias=bias)
     sheets.notes.write(ctx, impact)
     return setup, bands
 

@@ -338,9 +338,9 @@ def check_data(setup: StudySetup, path: Path, sheet: str, header, rows, *, uncac
     formula over blank cells only counts as no score."""
     index, dupes = _header_index(header, sheet)
     setup = setup_impact.normalise(setup)  # the first of several group columns is the group column
-    if not setup.items and setup.total is None:
-        raise SetupError(f"no test score: give 'item columns' (or 'total column') on the {SETUP_SHEET} sheet "
-                         f"or with --items / --total")
+    if not setup.items and setup.total is None and not setup.ratings:  # ratings alone: the panel's mean
+        raise SetupError(f"no test score: give 'item columns' (or 'total column', or 'rating columns' for a panel "
+                         f"of ratings) on the {SETUP_SHEET} sheet or with --items / --total / --ratings")
     columns: dict[str, int] = {}
     for role in ("id", "group", "total", "criterion", "retest", "hired"):
         name = getattr(setup, role)
@@ -409,7 +409,8 @@ def check_data(setup: StudySetup, path: Path, sheet: str, header, rows, *, uncac
         lambda kind, lines: _report(data, kind, lines), hired_code)
     scores = data.scores
     if np.isnan(scores).all():
-        what = f"column {setup.total!r} holds" if total is not None else "the item columns hold"
+        what = (f"column {setup.total!r} holds" if total is not None else "the item columns hold" if items is not None
+                else "the rating columns hold")
         raise SetupError(f"sheet '{sheet}': {what} no scores (every cell is blank); if they hold formulas, "
                          f"recalculate the data workbook first (trueband recalc)")
     if tally is not None and tally.merged:

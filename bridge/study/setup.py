@@ -189,6 +189,7 @@ class StudySetup:
     def merged(self, overrides: Mapping[str, Any]) -> "StudySetup":
         """This setup with the non-empty ``overrides`` (field name -> value) applied; the word ``none`` clears
         a setting back to its default."""
+        overrides, scoped = setup_predictors.split_scoped(overrides)  # the settings after --predictor NAME
         changes, source = {}, dict(self.source)
         clear = setup_predictors.cleared(self, overrides)
         for name, value in overrides.items():
@@ -200,7 +201,8 @@ class StudySetup:
                 continue
             changes[name] = value
             source[name] = "command line"
-        return dataclasses.replace(self, **changes, source=source)
+        merged = dataclasses.replace(self, **changes, source=source)
+        return setup_predictors.apply_scoped(merged, scoped, SetupError) if scoped else merged
 
 
 @dataclasses.dataclass
@@ -261,9 +263,20 @@ class StudyData:
         a person with no item answered has no score)."""
         if self.total is not None:
             return self.total
+        if self.items is None and self.ratings is not None:  # a panel of ratings only: the raters' mean
+            return panel_scores(self.ratings)
         answered = (~np.isnan(self.items)).sum(axis=1)
         s = np.nansum(self.items, axis=1)
         return np.where(answered > 0, s, np.nan)
+
+
+def panel_scores(ratings: np.ndarray) -> np.ndarray:
+    """The score of a predictor given only as a panel of ratings: each person's mean of the ratings given
+    (``AVERAGE`` over the person's rating cells); no score without a rating."""
+    given = (~np.isnan(ratings)).sum(axis=1)
+    with np.errstate(invalid="ignore"):
+        total = np.nansum(ratings, axis=1)
+    return np.where(given > 0, total / np.maximum(given, 1), np.nan)
 
 
 # ---------------------------------------------------------------- the Setup sheet

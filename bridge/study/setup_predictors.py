@@ -20,8 +20,12 @@ Here the questionnaire has no retest column: a setting never passes from one pre
 settings (the id, group, criterion and hired columns, the confidence...) stand above the first block; one
 inside a block is refused, naming its cell.
 
-On the command line, the options set the first predictor's settings and the study-wide ones; the word
-``none`` clears a setting given on the Setup sheet (``--retest none``), back to its default.
+On the command line, the options set the first predictor's settings and the study-wide ones; after
+``--predictor NAME`` the predictor options (``--items``, ``--reverse``, ``--item-min``, ``--item-max``,
+``--total``, ``--ratings``, ``--retest``, ``--cut``, ``--test-name``) set that predictor's settings, up to the
+next ``--predictor``. The word ``none`` clears a setting given on the Setup sheet (``--retest none``), back to
+its default, for the predictor it is given for. The command line hands these on as ``overrides[SCOPED]``:
+predictor name -> {field: value} (:func:`apply_scoped`).
 """
 
 from __future__ import annotations
@@ -30,8 +34,8 @@ import dataclasses
 import re
 from typing import Any, Mapping
 
-__all__ = ["PREDICTOR_SETTING", "PREDICTOR_FIELDS", "CLEAR", "is_clear", "PredictorBlocks", "predictor_setups",
-           "sheet_label"]
+__all__ = ["PREDICTOR_SETTING", "PREDICTOR_FIELDS", "CLEAR", "SCOPED", "is_clear", "PredictorBlocks",
+           "predictor_setups", "sheet_label", "split_scoped", "apply_scoped"]
 
 #: The Setup row that starts a further predictor's block.
 PREDICTOR_SETTING = "predictor"
@@ -39,6 +43,8 @@ PREDICTOR_SETTING = "predictor"
 PREDICTOR_FIELDS = ("items", "reverse", "item_min", "item_max", "total", "ratings", "retest", "cut", "test_name")
 #: The word that clears a setting from the command line.
 CLEAR = "none"
+#: The overrides' key for the settings given after ``--predictor NAME``: {name: {field: value}}.
+SCOPED = "predictor_options"
 
 
 def is_clear(value) -> bool:
@@ -119,6 +125,40 @@ def cleared(setup, overrides: Mapping[str, Any]) -> dict:
     defaults = {f.name: (f.default if f.default is not dataclasses.MISSING else f.default_factory())
                 for f in dataclasses.fields(setup)}
     return {name: defaults[name] for name, value in overrides.items() if is_clear(value)}
+
+
+def split_scoped(overrides: Mapping[str, Any]) -> tuple[dict, dict]:
+    """``overrides`` without the per-predictor part, and that part (name -> {field: value})."""
+    rest = dict(overrides)
+    return rest, dict(rest.pop(SCOPED, None) or {})
+
+
+def _key(name: str) -> str:
+    return " ".join(str(name).split()).casefold()
+
+
+def apply_scoped(setup, scoped: Mapping[str, Mapping[str, Any]], error: type):
+    """``setup`` with each predictor's command-line settings (``--predictor NAME`` ...) merged into that
+    predictor's own: the first predictor's are the study setup's, a further one's its block's. ``error``: the
+    setup's error class; a name that is no predictor's, or a setting that is not a predictor's, is refused in
+    one line naming the option and the predictor."""
+    for name, fields in scoped.items():
+        for field in fields:
+            if field not in PREDICTOR_FIELDS:
+                raise error(f"--{field.replace('_', '-')} after --predictor {name!r}: it is a setting of the whole "
+                            f"study; give it before the first --predictor")
+        names = [setup.test_name] + [p.test_name for p in setup.predictors]
+        if _key(name) == _key(setup.test_name):
+            setup = setup.merged(dict(fields))
+            continue
+        k = next((k for k, p in enumerate(setup.predictors) if _key(p.test_name) == _key(name)), None)
+        if k is None:
+            raise error(f"--predictor {name!r}: no predictor of that name on the Setup sheet (its predictors: "
+                        f"{', '.join(repr(n) for n in names)})")
+        further = list(setup.predictors)
+        further[k] = further[k].merged(dict(fields))
+        setup = dataclasses.replace(setup, predictors=tuple(further))
+    return setup
 
 
 _NOT_IN_SHEET_NAMES = re.compile(r"[\[\]:*?/\\]")

@@ -15,7 +15,10 @@ __all__ = ["write_block", "HOW_TO"]
 #: What the templates say about further predictors.
 HOW_TO = ("To study a further predictor (a questionnaire, a work sample...), add a row 'predictor | its name' "
           "right below the settings, then its own rows: item columns, reverse keyed items, item scale minimum "
-          "and maximum, total column, retest column, cut score. They belong to that predictor only.")
+          "and maximum, total column, retest column, cut score. They belong to that predictor only. A panel "
+          "of ratings with no total (an interview rated by 2 to 4 raters) is a predictor too: give only its "
+          "'rating columns' (and its cut score); its score is each person's mean rating, its reliability the "
+          "ICC of the raters' mean.")
 
 
 def write_block(st, row: int, demo: DemoData | None, fill) -> int:

@@ -120,6 +120,19 @@ COMBINED_CAUTION = (
     "estimates how much less); the composite's subgroup difference and impact ratio assume normal scores with "
     "equal spread in the groups and are indicators, not a prediction of any actual selection.")
 
+# ---------------------------------------------------------------- the Summary's fairness and DIF lines (pred)
+
+#: The reading of one group's step-down tests (Lautenschlager & Mendoza 1986), put together live on the Fairness
+#: sheet and linked from the Summary: "slopes differ (p = 0.012 < 0.05): ...". The words never claim the absence
+#: of bias: a test that finds no difference in a small sample cannot show there is none (Aguinis, Culpepper &
+#: Pierce 2010).
+SLOPES_DIFFER = ("slopes differ", "the group's line crosses the reference group's; read the gap at the cut")
+INTERCEPTS_DIFFER = ("intercepts differ", "the slopes do not differ detectably, but one group's line lies above "
+                                          "the other's; read the gap at the cut")
+NO_DIFFERENCE = "no difference detected at this sample size"
+NOT_ABSENCE = "this does not show the absence of bias"
+__all__ += ["SLOPES_DIFFER", "INTERCEPTS_DIFFER", "NO_DIFFERENCE", "NOT_ABSENCE"]
+
 # ---------------------------------------------------------------- the cut-score evidence (Cut score, Standard
 # setting and Content sheets)
 

@@ -1,9 +1,9 @@
 """Saving what several predictors add: each further predictor's sheets, and the study's extra long sheets.
 
 Called by :func:`.workbook.save` after the analysis sheets: each further predictor's Reliability, Items,
-Validity, Fairness and DIF (composed grids) and its Bands and Scored items (a header now, the rows spliced in
-after saving, made under the predictor's sheet titles), then the long sheets of ``ctx.long_sheets`` (the
-Combined sheet's scores).
+Raters (with rating columns), Validity, Fairness and DIF (composed grids) and its Bands and Scored items (a
+header now, the rows spliced in after saving, made under the predictor's sheet titles), then the long
+sheets of ``ctx.long_sheets`` (the Combined sheet's scores).
 """
 
 from __future__ import annotations
@@ -27,7 +27,7 @@ def write_headers(wb, ctx: StudyContext, bands_header) -> tuple[dict, dict]:
     for p in ctx.predictors[1:]:
         d = p.data
         last = d.n + 1
-        for base in ("Reliability", "Items", "Validity", "Fairness", "DIF"):
+        for base in ("Reliability", "Items", "Raters", "Validity", "Fairness", "DIF"):
             title = p.title(base)
             if title in ctx.grids:
                 ctx.grids[title].write(wb)

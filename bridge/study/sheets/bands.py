@@ -87,7 +87,10 @@ class BandsLayout:
 
 
 def layout(data: StudyData) -> BandsLayout:
-    header = ["Applicant", "Group", "Score", "Items answered" if data.items is not None else "Has a score",
+    header = ["Applicant", "Group", "Score" if data.items is not None or data.total is not None or data.ratings is None
+              else "Score (the raters' mean)",
+              "Items answered" if data.items is not None else "Has a score" if data.total is not None or
+              data.ratings is None else "Ratings given",
               "CI lower", "CI upper", "Band", "At or above cut (1 = yes)"]
     if data.criterion is not None:
         header += ["Criterion", "Score of people with a criterion value"]
@@ -342,6 +345,11 @@ def _rows(bands: Bands, data: StudyData) -> Iterator[list[Any]]:
         score_text = here('=IF({answered}=0,"",SUM({items}))' if guard else "=SUM({items})",
                           answered=answered, items=items)
         count_text = here("=COUNT({items})", items=items)
+    elif "total" not in data.columns:  # a panel of ratings only: the score is the raters' mean
+        ratings = area(data.sheet, data.rating_columns[0] + 1, None, data.rating_columns[-1] + 1, None)
+        ratings = ratings.qualified_relative()
+        score_text = here('=IF(COUNT({ratings})=0,"",AVERAGE({ratings}))', ratings=ratings)
+        count_text = here("=COUNT({ratings})", ratings=ratings)
     else:
         total = cell(data.sheet, None, data.columns["total"] + 1).qualified_relative()
         score_text = here('=IF(COUNT({total})=1,{total},"")' if guard else "={total}", total=total)

@@ -4,8 +4,12 @@ For each demographic column (:func:`.fairness.demographic_columns`) and each gro
 answered every item, against the reference group, one row per item: the Mantel–Haenszel common odds ratio,
 MH D-DIF (−2.35 ln α), χ² and p, the ETS category A/B/C (Holland & Thayer 1988; Zwick 2012), and the
 logistic-regression DIF of Swaminathan & Rogers (1990): the 2-df test, Nagelkerke ΔR² and the category under
-each published convention (Zumbo & Thomas 1997; Jodoin & Gierl 2001). The Items sheet gets a column with
-each item's worst MH category.
+each published convention (Zumbo & Thomas 1997; Jodoin & Gierl 2001). The Items sheet gets a column per
+demographic column whose DIF is computed (a column without enough people gets none: the DIF sheet says why),
+its header naming the column, with each item's worst MH category over that column's focal groups. The cells of
+the first column keep their keys (``dif_B_3_delta``); those of the k-th are keyed ``dif_colK_B_3_delta``; the
+flags on Items are keyed by their column, not by their place: ``dif_flag_3`` (item 3, the first column),
+``dif_flag_col2_3`` (the second column), whichever Items column they land in.
 """
 
 from __future__ import annotations
@@ -14,12 +18,12 @@ import dataclasses
 
 import numpy as np
 
-from ..context import StudyContext, sheet_title
+from ..context import UNCHECKED, Ref, StudyContext, area, sheet_title
 from ..words import CAUTION, DIF_CAUTION, DIF_SIZES
 from . import items as items_sheet
 from .fairness import demographic_columns, reference_of
 
-__all__ = ["Dif", "write", "MIN_GROUP"]
+__all__ = ["Dif", "DifColumn", "write", "MIN_GROUP", "flag_header"]
 
 SHEET = "DIF"
 #: People with every item answered each compared group needs (common practice: below this the MH and
@@ -34,16 +38,36 @@ _COLUMNS = (("MH common odds ratio", "coef"), ("MH D-DIF (−2.35 ln α)", "coef
 
 
 @dataclasses.dataclass(frozen=True)
+class DifColumn:
+    """What the DIF sheet found for one demographic column."""
+
+    header: str
+    key: str                # the column's part of its cells' keys: "" for the first, "col2_"...
+    reference: str | None   # the reference group compared with (None when not computed)
+    classes: dict           # focal group name -> the items' ETS category cells, in item order ({}: not computed)
+    flags: Ref | None = None    # the Items column of each item's worst category over the focal groups
+    reason: Ref | None = None   # the DIF cell saying why the column is not compared (when it is not)
+    counts_row: int | None = None   # the DIF sheet's row of the count of items in category C (B below it)
+    #: the counts of items whose worst category is C and B (cells of the DIF sheet, SUMPRODUCT over ``flags``)
+    count_c: Ref | None = None
+    count_b: Ref | None = None
+
+
+@dataclasses.dataclass(frozen=True)
 class Dif:
     """Per focal group name: the ETS category cells of the items, in item order (empty when not computed)."""
 
     classes: dict
+    #: the same per further demographic column (its header -> focal group name -> cells)
+    others: dict = dataclasses.field(default_factory=dict)
+    #: every demographic column in order, computed or not
+    columns: tuple = ()
 
 
 def write(ctx: StudyContext, predictor) -> Dif:
     """``predictor``: a :class:`.predictors.Predictor` (its item range and group numbers)."""
     d, s = ctx.data, ctx.setup
-    columns = demographic_columns(ctx)
+    columns = demographic_columns(ctx, predictor)
     if not d.binary_items or not columns or predictor.rel.items is None:
         return Dif({})
     g = ctx.sheet(SHEET)
@@ -53,49 +77,59 @@ def write(ctx: StudyContext, predictor) -> Dif:
     row += g.para(row, 1, DIF_CAUTION, "caution")
     row += 1 + g.para(row, 1, DIF_SIZES.format(minimum=MIN_GROUP))
     complete = ~np.isnan(d.items).any(axis=1)
-    numbers = predictor.layout.group_numbers
-    # read-only arrays, as the recalculation passes them: the tables are then counted once for all the checks
-    codes = np.array([[np.nan if numbers.get(x) is None else numbers[x]] for x in d.groups], dtype=float)
-    codes.flags.writeable = False
-    groups_ref = predictor.group_numbers.with_value(codes)
     item_values = predictor.rel.items.value
     if isinstance(item_values, np.ndarray):
         item_values = item_values.view()
         item_values.flags.writeable = False
     items_ref = predictor.rel.items.with_value(item_values)
-    out: dict = {}
-    for header, labels in columns:
-        counts = {name: int(sum(1 for i, x in enumerate(labels) if x == name and complete[i])) for name in numbers}
-        g.set(row, 1, f"Groups of column {header!r}", "heading")
+    found: list = []
+    for column in columns:
+        row, done = _column(ctx, g, row, items_ref, column, complete)
+        found.append(done)
+    found = _flags(ctx, found)
+    return Dif(found[0].classes, {c.header: c.classes for c in found[1:]}, tuple(found))
+
+
+def _column(ctx: StudyContext, g, row: int, items_ref, column, complete) -> tuple[int, DifColumn]:
+    """The tables of one demographic column from ``row``; returns the next free row and what it found (per
+    focal group, the items' ETS category cells)."""
+    numbers = column.numbers
+    # read-only arrays, as the recalculation passes them: the tables are then counted once for all the checks
+    codes = np.array([[np.nan if numbers.get(x) is None else numbers[x]] for x in column.labels], dtype=float)
+    codes.flags.writeable = False
+    groups_ref = column.codes.with_value(codes)
+    counts = {name: int(sum(1 for i, x in enumerate(column.labels) if x == name and complete[i])) for name in numbers}
+    g.set(row, 1, f"Groups of column {column.header!r}", "heading")
+    row += 1
+    for name in numbers:
+        g.set(row, 1, name)
+        g.set(row, 2, counts[name], "count")
+        g.set(row, 3, "people with every item answered" + ("" if counts[name] >= MIN_GROUP else
+                                                             f"; fewer than {MIN_GROUP}: not compared"))
         row += 1
-        for name in numbers:
-            g.set(row, 1, name)
-            g.set(row, 2, counts[name], "count")
-            g.set(row, 3, "people with every item answered" + ("" if counts[name] >= MIN_GROUP else
-                                                                 f"; fewer than {MIN_GROUP}: not compared"))
-            row += 1
-        enough = [n for n in numbers if counts[n] >= MIN_GROUP]
-        reference = reference_of(s.reference_group, counts, enough)
-        if reference is None or len(enough) < 2:
-            ctx.not_computable_at(g, row + 1, 1, f"DIF needs at least two groups with {MIN_GROUP} or more people who "
-                                                 f"answered every item", key="dif")
-            row += 3
-            continue
-        g.set(row + 1, 1, "Reference group")
-        g.set(row + 1, 2, reference, "header")
-        row += 3
-        for name in enough:
-            if name != reference:
-                row, out[name] = _table(ctx, g, row, items_ref, groups_ref, name, reference, numbers)
-    _flags(ctx, out)
-    return Dif(out)
+    enough = [n for n in numbers if counts[n] >= MIN_GROUP]
+    reference = reference_of(column.reference, counts, enough)
+    if reference is None or len(enough) < 2:
+        reason = ctx.not_computable_at(g, row + 1, 1, f"DIF needs at least two groups with {MIN_GROUP} or more "
+                                                      f"people who answered every item (column {column.header!r})",
+                                       key="dif" + ("_" + column.key[:-1] if column.key else ""))
+        return row + 3, DifColumn(column.header, column.key, None, {}, reason=reason)
+    g.set(row + 1, 1, f"Reference group of {column.header!r}")
+    g.set(row + 1, 2, reference, "header")
+    counts_row = row + 2  # the counts of flagged items, written with the flags (:func:`_counts`)
+    row += 5
+    out = {}
+    for name in enough:
+        if name != reference:
+            row, out[name] = _table(ctx, g, row, items_ref, groups_ref, column, name, reference)
+    return row, DifColumn(column.header, column.key, reference, out, counts_row=counts_row)
 
 
-def _table(ctx: StudyContext, g, row: int, items, groups, name: str, reference: str, numbers) -> tuple[int, list]:
+def _table(ctx: StudyContext, g, row: int, items, groups, column, name: str, reference: str) -> tuple[int, list]:
     """One focal group's table, an item a row; returns the next free row and the items' ETS category cells."""
-    d = ctx.data
-    g.set(row, 1, f"Focal group {name} (reference {reference}); negative D-DIF: the item is harder for {name}",
-          "heading")
+    d, numbers = ctx.data, column.numbers
+    g.set(row, 1, f"{column.header}: focal group {name} (reference {reference}); negative D-DIF: the item is harder "
+                  f"for {name}", "heading")
     g.set(row + 1, 1, "Item", "header")
     for c, (h, _) in enumerate(_COLUMNS, start=2):
         g.set(row + 1, c, h, "header")
@@ -104,7 +138,7 @@ def _table(ctx: StudyContext, g, row: int, items, groups, name: str, reference: 
         r = row + 2 + j
         g.set(r, 1, d.header[col])
         args = (items, groups, j + 1, numbers[name], numbers[reference])
-        key = f"dif_{name}_{j + 1}"
+        key = f"dif_{column.key}{name}_{j + 1}"
         opts = dict(checked=ctx.full_checks)
         delta = ctx.formula(g, r, 3, "DIF_MH_DELTA", *args, style="coef", key=key + "_delta", **opts)
         ctx.expression(g, r, 2, "EXP(-{delta}/2.35)", None, style="coef", delta=delta)
@@ -118,20 +152,66 @@ def _table(ctx: StudyContext, g, row: int, items, groups, name: str, reference: 
     return row + 3 + len(d.item_columns), classes
 
 
-def _flags(ctx: StudyContext, classes: dict) -> None:
-    """Each item's worst ETS category over the focal groups, in a column of the Items sheet."""
+def flag_header(header: str) -> str:
+    """The Items header of the DIF flags of demographic column ``header``."""
+    return f"DIF by column {header!r} (worst ETS category over its focal groups; see DIF)"
+
+
+def _flags(ctx: StudyContext, found: list) -> list:
+    """Each item's worst ETS category over the focal groups of each demographic column, a column of the Items
+    sheet per computed demographic column, its header naming the column and its cells keyed by it; returns
+    ``found`` with each computed column's flags."""
     g = ctx.grids.get(sheet_title(items_sheet.SHEET))
-    if g is None or not classes:
-        return
-    g.set(items_sheet.FIRST_ROW - 1, ITEMS_COLUMN, "DIF (worst ETS category, see DIF)", "header")
-    g.widths[ITEMS_COLUMN] = 20
-    for j in range(len(ctx.data.item_columns)):
-        cells = [cells[j] for cells in classes.values() if not isinstance(cells[j].value, Exception)]
-        r = items_sheet.FIRST_ROW + j
-        if not cells:
-            g.set(r, ITEMS_COLUMN, "see DIF", "na")
+    if g is None:
+        return found
+    out, col, first, m = [], ITEMS_COLUMN, items_sheet.FIRST_ROW, len(ctx.data.item_columns)
+    for column in found:
+        if not column.classes:
+            out.append(column)
             continue
-        places = {f"c{k}": ref for k, ref in enumerate(cells)}
-        any_of = lambda letter: "OR(" + ",".join(f'{{c{k}}}="{letter}"' for k in range(len(cells))) + ")"  # noqa: E731
-        g.set(r, ITEMS_COLUMN, ctx.text(f'=IF({any_of("C")},"C: review",IF({any_of("B")},"B","A"))',
-                                        items_sheet.SHEET, **places))
+        g.set(first - 1, col, flag_header(column.header), "header")
+        g.widths[col] = 24
+        values = [_flag(ctx, g, first + j, col, f"dif_flag_{column.key}{j + 1}",
+                        [cells[j] for cells in column.classes.values()]) for j in range(m)]
+        flags = area(items_sheet.SHEET, col, first, col, first + m - 1, value=values)
+        out.append(_counts(ctx, dataclasses.replace(column, flags=flags)))
+        col += 1
+    return out
+
+
+def _counts(ctx: StudyContext, column: DifColumn) -> DifColumn:
+    """On the DIF sheet, the counts of items whose worst category over ``column``'s focal groups is C and B
+    (over its flags on Items)."""
+    g, r, values = ctx.grids[sheet_title(SHEET)], column.counts_row, column.flags.value
+    known = all(v in ("A", "B", "C: review", None) for v in values)
+    got = {}
+    for k, (label, word) in enumerate((("C, for review", "C: review"), ("B", "B"))):
+        g.set(r + k, 1, f"Items in category {word[0]}")
+        g.set(r + k, 3, f"items whose worst category over the focal groups of {column.header!r} is {label} (the "
+                        f"Items sheet's flags)")
+        # SUMPRODUCT, not COUNTIF: a flag in error makes the count an error rather than leaving it out unseen
+        got[word] = ctx.expression(g, r + k, 2, "SUMPRODUCT(({flags}={word})*1)",
+                                   (lambda w=word: sum(v == w for v in values)) if known else None, style="count",
+                                   key=f"dif_{column.key}count_{word[0].lower()}", flags=column.flags, word=word)
+    return dataclasses.replace(column, count_c=got["C: review"], count_b=got["B"])
+
+
+def _flag(ctx: StudyContext, g, r: int, col: int, key: str, classes: list):
+    """One item's worst category over ``classes`` (its ETS category cells, one per focal group); its value."""
+    cells = [c for c in classes if not isinstance(c.value, Exception)]
+    if not cells:
+        g.set(r, col, "see DIF", "na")
+        ctx.name(key, Ref(g.title, r, col, titled=True))
+        return None
+    got = [c.value for c in cells]
+    worst = UNCHECKED if any(v not in ("A", "B", "C") for v in got) else (
+        "C: review" if "C" in got else "B" if "B" in got else "A")
+    places = {f"c{k}": ref for k, ref in enumerate(cells)}
+    ctx.expression(g, r, col, f'IF({_any_of("C", len(cells))},"C: review",IF({_any_of("B", len(cells))},"B","A"))',
+                   (lambda: worst) if worst is not UNCHECKED else None, key=key, **places)
+    return worst
+
+
+def _any_of(letter: str, k: int) -> str:
+    """Formula text: any of the cells ``{c0}``... ``{c<k-1>}`` holds ``letter``."""
+    return "OR(" + ",".join(f'{{c{m}}}="{letter}"' for m in range(k)) + ")"

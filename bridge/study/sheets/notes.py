@@ -67,8 +67,13 @@ CONVENTIONS = (
     "correlation only the people with every score and a criterion value. The composite d takes unit weights on "
     "standardised scores and the mean intercorrelation of all applicants.",
     "Fairness: the people with a score and a criterion value, in groups with at least 20 of them (common "
-    "practice); the reference group is the one named on Setup, else the largest. DIF: 0/1 items, groups with at "
+    "practice); the reference group is the one named on Setup, else the largest. Fairness and DIF: one block per "
+    "demographic column, each against that column's reference group. DIF: 0/1 items, groups with at "
     "least 100 people who answered every item (common practice), matched on the total score including the item.",
+    "Fairness readings (on the Fairness sheet, linked from the Summary): a p value below 1 − the confidence level "
+    "counts as a difference detected, slopes first, then intercepts (Lautenschlager & Mendoza 1986); a difference "
+    "not detected is not shown to be absent, since these tests have little power in local samples (Aguinis, "
+    "Culpepper & Pierce 2010).",
 )
 #: What the numbers do not support (issue 20): the rules of the Validity, Utility and Reliability sheets.
 CONVENTIONS += (

@@ -21,6 +21,7 @@ from ..setup import SETUP_SHEET, StudyData
 from ..setup_predictors import sheet_label
 from . import bands as bands_sheet
 from . import items as items_sheet
+from . import raters as raters_sheet
 from . import reliability as reliability_sheet
 from . import validity as validity_sheet
 from .bands import BANDS_SHEET, Bands, BandsLayout
@@ -33,7 +34,7 @@ __all__ = ["Predictor", "write", "PER_PREDICTOR_SHEETS"]
 
 #: The sheets each further predictor gets a copy of (the Fairness and DIF sheets are named by their modules).
 PER_PREDICTOR_SHEETS = (reliability_sheet.SHEET, items_sheet.SHEET, validity_sheet.SHEET, BANDS_SHEET,
-                        SCORED_SHEET, "Fairness", "DIF")
+                        SCORED_SHEET, "Fairness", "DIF", raters_sheet.SHEET)
 
 
 @dataclasses.dataclass(frozen=True)
@@ -102,6 +103,8 @@ def write(ctx: StudyContext, setup: SetupSheet, full_checks: Callable[[StudyData
             rel = reliability_sheet.write(pctx, psetup, layout)
             bands = bands_sheet.plan(pctx, layout, psetup, rel)
             items_sheet.write(pctx, psetup, rel)
+            if pdata.ratings is not None:  # the panel's agreement on its own Raters sheet
+                raters_sheet.write(pctx, psetup)
             validity = validity_sheet.write(pctx, psetup, rel, layout)
             out.append(Predictor(number, name, pdata, psetup, layout, rel, bands, validity, names, f"p{number}_",
                                  **_handles(layout, pdata)))
@@ -133,8 +136,9 @@ def _setup_rows(ctx: StudyContext, setup: SetupSheet, number: int, layout: Bands
               else None)
         rows[key] = row + k
     if s.ratings:
-        g.set(rows["rating columns"], 3, "the panel's ratings are on the Raters sheet only for the first "
-                                         "predictor", "wrap")
+        g.set(rows["rating columns"], 3, ("the score is each person's mean of the ratings given; " if
+                                          raters_sheet.is_panel(d) else "") + "the raters' agreement is on its "
+                                         "Raters sheet", "wrap")
 
     def setting(key: str, value, field: str) -> Ref:
         return cell(SETUP_SHEET, rows[key], 2, value=value, name=field)

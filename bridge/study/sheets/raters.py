@@ -1,4 +1,10 @@
-"""Raters: agreement of the interview ratings (ICC forms, Krippendorff's alpha, Cohen's kappa)."""
+"""Raters: agreement of the interview ratings (ICC forms, Krippendorff's alpha, Cohen's kappa).
+
+A predictor given only as a panel of ratings (``rating columns`` without items or a total) scores each person
+by the mean of the ratings given; :func:`panel_reliability` writes its reliability on its Reliability sheet:
+the ICC for the mean of k raters with absolute agreement, ICC(A,k) (McGraw & Wong 1996), the form this sheet
+reports as its headline, since rater leniency is error when people are compared on the panel's mean.
+"""
 
 from __future__ import annotations
 
@@ -11,7 +17,7 @@ from trueband.funcs.errors import InsufficientDataError
 from ..context import Ref, StudyContext, area
 from .setup import SetupSheet
 
-__all__ = ["Raters", "write"]
+__all__ = ["Raters", "write", "panel_reliability", "is_panel"]
 
 SHEET = "Raters"
 
@@ -107,3 +113,28 @@ def _icc(ctx: StudyContext, g, row: int, setup: SetupSheet, ratings: Ref, m: int
     for (model, unit), estimate in estimates.items():
         ctx.name(f"icc_{model}_{unit}", estimate)
     return estimates["agreement", "average"]
+
+
+def is_panel(data) -> bool:
+    """Whether ``data``'s predictor is a panel of ratings only (its score the raters' mean)."""
+    return data.items is None and data.total is None and data.ratings is not None
+
+
+def panel_reliability(ctx: StudyContext, g, row: int, setup: SetupSheet) -> Ref:
+    """Row ``row`` of a Reliability sheet: ICC(A,k) of a panel-only predictor's ratings and its interval;
+    returns the estimate's cell (the reliability of the raters' mean)."""
+    d = ctx.data
+    m = len(d.rating_columns)
+    ratings = area(d.sheet, d.rating_columns[0] + 1, 2, d.rating_columns[-1] + 1, d.n + 1, value=d.ratings)
+    g.set(row, 1, f"Panel of {m} raters: ICC(A,{m}), absolute agreement of the raters' mean (McGraw & Wong 1996)")
+    out = None
+    for c, part in ((2, "estimate"), (3, "lower"), (4, "upper")):
+        written = ctx.formula(g, row, c, "ICC", ratings, "agreement", "average", part, setup.confidence,
+                              checked=part == "estimate" or ctx.full_checks, style="coef",
+                              key=f"panel_icc_{part}" if part != "estimate" else "panel_icc")
+        out = written if part == "estimate" else out
+    complete = int((~np.isnan(d.ratings)).all(axis=1).sum())
+    g.set(row + 1, 1, f"The score is each person's mean of the ratings given; the ICC uses the {complete} people "
+                      f"rated by every rater, so it describes the mean of all {m} (fewer ratings: less reliable).",
+          "wrap")
+    return out

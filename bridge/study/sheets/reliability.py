@@ -9,6 +9,7 @@ import numpy as np
 from trueband.funcs.errors import InsufficientDataError
 
 from ..context import Ref, StudyContext, area
+from . import raters as raters_sheet
 from .bands import BandsLayout
 from .retest import retest_gain
 from .scored_items import SCORED_SHEET
@@ -75,10 +76,13 @@ def write(ctx: StudyContext, setup: SetupSheet, bands: BandsLayout) -> Reliabili
     g.set(7, 4, f"{conf:.0%} CI upper", "header")
     items, alpha, alpha_lower, alpha_upper = _internal_consistency(ctx, g, setup, bands)
     retest_r = _retest(ctx, g, setup, scores_range, has_score)
+    panel = raters_sheet.panel_reliability(ctx, g, 8, setup) if raters_sheet.is_panel(d) else None
     g.set(MEASUREMENT_ROW, 1, "Measurement error", "heading")
     g.set(MEASUREMENT_ROW + 1, 1, "Reliability used for the SEM, intervals and bands (edit to use another)")
     if d.items is not None:
         reliability = ctx.link(g, MEASUREMENT_ROW + 1, 2, alpha, style="input_coef", key="reliability")
+    elif panel is not None:  # a panel of ratings only: the ICC of the raters' mean
+        reliability = ctx.link(g, MEASUREMENT_ROW + 1, 2, panel, style="input_coef", key="reliability")
     elif retest_r is not None and isinstance(retest_r.value, float):
         reliability = ctx.link(g, MEASUREMENT_ROW + 1, 2, retest_r, style="input_coef", key="reliability")
     else:
@@ -171,7 +175,9 @@ def _internal_consistency(ctx: StudyContext, g, setup: SetupSheet, bands: BandsL
         g.set(13, 1, "Omega total (McDonald), one-factor model")
         ctx.formula(g, 13, 2, "OMEGA", items, checked=ctx.full_checks, style="coef", key="omega")
     else:
-        reason = "no item columns were given (only a total), so internal consistency needs items"
+        reason = ("no item columns were given (a panel of ratings: its reliability is the ICC above)"
+                  if raters_sheet.is_panel(d) else "no item columns were given (only a total), so internal "
+                  "consistency needs items")
         for r, label, key in ((10, "Coefficient alpha (Cronbach)", "alpha"), (11, "KR-20", "kr20"),
                               (12, "Split-half", "split_half"), (13, "Omega", "omega")):
             g.set(r, 1, label)

@@ -13,6 +13,7 @@ from .setup import SetupSheet
 from .strata import Strata
 from .utility import Utility, validity_caution
 from .validity import Validity
+from .summary_fairness import fairness_rows
 
 __all__ = ["write"]
 
@@ -21,7 +22,7 @@ SHEET = "Summary"
 
 def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, raters: Raters, validity: Validity,
           impact: Impact, utility: Utility, strata: Strata | None = None, combined=None, *, cut_score=None,
-          standard=None, content=None, options=None) -> None:
+          standard=None, content=None, options=None, bias=()) -> None:
     g = ctx.sheet(SHEET)
     g.landscape = True
     g.widths.update({1: 62, 2: 16, 3: 16, 4: 16})
@@ -71,6 +72,7 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, raters: Raters
                   "coef", None),
                  ("Cross-validated R² (Browne): what the weights explain in new people", "cross_validity",
                   combined.cross_validity, "coef", None)]
+    rows += fairness_rows(bias)  # per demographic column: Fairness's readings, DIF's counts (summary_fairness.py)
     rows += _cut_rows(cut_score, standard, content, options)
     r = first_row
     for label, key, figure, style, extra in rows:
