@@ -539,7 +539,9 @@ def _first_threshold(t: _Tables) -> float:
     log_ratio = -0.5 * (float(np.sum(t.a)) - float(np.sum(n1 * m1 / n))) ** 2 / variance
     if log_ratio > -20.0:
         return _FAST_NEGLIGIBLE
-    return float(max(_NEGLIGIBLE, math.exp(max(1.15 * log_ratio + math.log(_FAST_NEGLIGIBLE), math.log(_NEGLIGIBLE)))))
+    exponent = 1.15 * log_ratio + math.log(_FAST_NEGLIGIBLE)
+    # at the finest threshold exactly (not exp(log(1e-300)), a hair above it, which the passes take for coarser)
+    return _NEGLIGIBLE if exponent <= math.log(_NEGLIGIBLE) + 1e-9 else math.exp(exponent)
 
 
 @spreadsheet("POOLED_EXACT_P", returns="probability",

@@ -68,3 +68,15 @@ def test_near_the_centre_the_first_threshold_is_the_coarse_one():
     rows = tail_strata(50, 9, 1.0)
     assert pooled._first_threshold(pooled._tables(rows)) == pooled._FAST_NEGLIGIBLE
     assert call("POOLED_EXACT_P", rows) == pytest.approx(log_space_exact_p(rows), rel=1e-9)
+
+
+def test_far_beyond_the_finest_threshold_one_pass_is_enough(monkeypatch):
+    # a total so far in a tail that the p value is below ~1e-290 (returned as 0): the first pass is the finest
+    # one and, its bound exact, the last (a threshold a hair above 1e-300 made a second pass, twice the work)
+    rows = [[2, 20, 18, 20]] * 300
+    assert pooled._first_threshold(pooled._tables(rows)) == pooled._NEGLIGIBLE
+    passes = []
+    real = pooled._exact_p
+    monkeypatch.setattr(pooled, "_exact_p", lambda t, negligible: passes.append(negligible) or real(t, negligible))
+    assert call("POOLED_EXACT_P", rows) == 0.0
+    assert passes == [pooled._NEGLIGIBLE]
