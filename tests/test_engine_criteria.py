@@ -37,19 +37,21 @@ class LibraryOnly:
 
 
 def random_sheet(seed: int, rows: int = 30, messy: bool = False) -> dict:
-    """Columns A..C of numbers (whole and decimal, negative too) and blanks; E1..E3 criteria cells; with
-    ``messy`` a text, a logical or an error here and there."""
+    """Columns A..C of numbers (whole and decimal, negative too), site names and blanks; E1..E3 criteria
+    cells; with ``messy`` numeric text, wildcard-like text and logicals here and there."""
     rng = np.random.default_rng(seed)
     columns = {}
     for c in (1, 2, 3):
         values = []
         for _ in range(rows):
             u = rng.random()
-            if u < 0.15:
+            if u < 0.12:
                 values.append(None)
-            elif messy and u < 0.2:
-                values.append(str(rng.choice(["5", "abc", "A*", ""])))
-            elif messy and u < 0.22:
+            elif messy and u < 0.16:
+                values.append(str(rng.choice(["5", "abc", "A*", "", "-1.5"])))
+            elif u < 0.22:  # site names: texts in every sheet, messy or not
+                values.append(str(rng.choice(["North", "north", "South", "East "])))
+            elif messy and u < 0.25:
                 values.append(bool(rng.random() < 0.5))
             else:
                 values.append(float(rng.integers(-3, 6)) if rng.random() < 0.7 else float(rng.integers(-30, 60)) / 10)
@@ -65,7 +67,9 @@ FORMULAS = [
     "=COUNTIF(A2:A31,\">=\"&E2)", "=COUNTIF(A2:A31,E3)", "=COUNTIF(A2:B31,\">0\")", "=COUNTIF(A:A,\">=0\")",
     "=COUNTIFS(A2:A31,\">=0\",B2:B31,2)", "=COUNTIFS(A2:A31,E1,B2:B31,\"<\"&E2,C2:C31,\">=-1\")",
     "=COUNTIFS(A2:A31,\">=0\",B2:B20,2)", "=COUNTIFS(A2:B31,\">=0\",B2:C31,\"<3\")", "=COUNTIFS(A2:A31,TRUE)",
-    "=COUNTIFS($A$2:$A$31,\">=1\",$C$2:$C$31,\"<=\"&E2)",
+    "=COUNTIFS($A$2:$A$31,\">=1\",$C$2:$C$31,\"<=\"&E2)", "=COUNTIF(A2:A31,\"NORTH\")",
+    "=COUNTIFS(A2:A31,\"north\",B2:B31,\">=0\")", "=COUNTIFS(A2:A31,\"South\",B2:B31,\"East \")",
+    "=COUNTIF(A2:A31,\"=North\")", "=COUNTIF(A2:A31,\">North\")", "=COUNTIF(A2:A31,\"East\")",
 ]
 
 
@@ -111,7 +115,8 @@ def test_filled_down_runs_equal_the_library_cell_by_cell(seed, messy):
 def test_fast_path_is_taken_for_the_plain_numeric_forms_only():
     store, _ = stores(1, messy=False)
     cases = {"=COUNTIF(A2:A31,\">=\"&E2)": True, "=COUNTIFS(A2:A31,2,B2:B31,\"<1\")": True,
-             "=COUNTIF(A2:A31,\"<>2\")": False, "=COUNTIF(A2:A31,\"abc\")": False, "=COUNTIF(A2:A31,E3)": False,
+             "=COUNTIF(A2:A31,\"<>2\")": False, "=COUNTIF(A2:A31,\"abc\")": True, "=COUNTIF(A2:A31,E3)": True,
+             "=COUNTIF(A2:A31,\"A*\")": False, "=COUNTIF(A2:A31,\"\")": False, "=COUNTIF(A2:A31,\">North\")": False,
              "=COUNTIFS(A2:A31,1,B2:B20,1)": False, "=COUNTIF(A2:A31,TRUE)": False}
     for text, taken in cases.items():
         node = compile_formula(text, 40, 8).tree
@@ -119,23 +124,26 @@ def test_fast_path_is_taken_for_the_plain_numeric_forms_only():
         assert (got is not None) == taken, text
     messy, _ = stores(3, messy=True)
     node = compile_formula("=COUNTIF(A2:A31,1)", 40, 8).tree
-    assert count_if("COUNTIF", node.args, lambda n: 1.0, messy, "S", 40, 8) is None  # text in the range
+    assert count_if("COUNTIF", node.args, lambda n: 1.0, messy, "S", 40, 8) is None  # a logical in the range
 
 
 def test_parse_criterion():
     assert parse_criterion(">=12.5") == parse_criterion(">=" + "12.5")
     assert parse_criterion("=-3")[1] == -3.0 and parse_criterion("7")[1] == 7.0
-    for text in ("<>1", "", "=", ">=", "1e5", " 5", "5 ", "abc", "A*", "1/2/2020", True, None):
+    assert parse_criterion("North") == parse_criterion("=NORTH") == ("text", "north")
+    for text in ("<>1", "", "=", ">=", "1e5", " 5", "5 ", "A*", "a~*", "1/2/2020", "#N/A", ">abc", True, None):
         assert parse_criterion(text) is None, text
 
 
 def test_writes_drop_the_dense_ranges_they_touch():
     store = CellStore()
     store.add_sheet("S", {1: ([1, 2, 3], [1.0, 2.0, 3.0])})
-    assert store.dense("S", 1, 1, 3, 1).ravel().tolist() == [1.0, 2.0, 3.0]
+    assert store.dense("S", 1, 1, 3, 1)[0].ravel().tolist() == [1.0, 2.0, 3.0]
     store.write("S", 1, 2, np.array([9.0]))
-    assert store.dense("S", 1, 1, 3, 1).ravel().tolist() == [1.0, 9.0, 3.0]
+    assert store.dense("S", 1, 1, 3, 1)[0].ravel().tolist() == [1.0, 9.0, 3.0]
     store.write("S", 1, 3, np.array(["text"], dtype=object))
+    assert store.dense("S", 1, 1, 3, 1)[1] == [(2, 0, "text")]
+    store.write("S", 1, 1, np.array([True], dtype=object))
     assert store.dense("S", 1, 1, 3, 1) is None
 
 
@@ -154,6 +162,8 @@ def libreoffice_book(path, seed: int = 5):
         ws.cell(40 + i, 8, text)
     for k, text in enumerate(RUN_FORMULAS):
         for r in range(2, 32):
+            if k == 1 and not isinstance(ws.cell(r, 3).value, float):
+                continue  # ">="&"North" and ">=" (a blank): text comparisons, left to the library (not checked here)
             if k == 0 and ws.cell(r, 1).value is None:
                 # a blank criterion cell: the apps count it as 0 (Microsoft's COUNTIFS reference says so, and
                 # LibreOffice does), the formulas library as matching nothing; that path is not the fast one
@@ -172,4 +182,4 @@ def test_libreoffice_computes_the_same_counts(tmp_path, soffice):
     report = recalculate(book, tmp_path / "study.xlsx", all_formulas=True)  # the CSV files are named after it
     checked, mismatches = recomputed_mismatches(soffice, report.output, ("Counts",), tmp_path)
     assert not mismatches, mismatches[:10]
-    assert checked.get("Counts", 0) >= 15 + 2 * 30 + 20
+    assert checked.get("Counts", 0) >= 15 + 30 + 2 * 20

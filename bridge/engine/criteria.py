@@ -1,22 +1,25 @@
-"""COUNTIF and COUNTIFS over number-only ranges, counted with numpy instead of cell by cell.
+"""COUNTIF and COUNTIFS counted with numpy instead of cell by cell.
 
 The ``formulas`` library evaluates a criteria function cell by cell (each cell of each range converted,
 compared and type-checked in Python), which on a study of 50,000 candidates was the largest part of the
-recalculation. :func:`count_if` counts the same thing from the store's dense column arrays, but only in
-the cases whose meaning is plain and the same in the library and in the spreadsheet apps:
+recalculation. :func:`count_if` counts the same thing from the store's dense arrays of each range (numbers,
+and the texts by position; kept until a write into the range), in the cases whose meaning is plain:
 
-* every range is a reference (no name) to cells holding numbers or blanks only: a text, logical or error
-  anywhere in a range sends the call to the library (text criteria, wildcards, numeric text, errors);
-* every criterion is one number (not a logical), or a text of an operator ``=``, ``<``, ``>``, ``<=``,
-  ``>=`` (or none) followed by a plain decimal number (``">="&B3`` with B3 a number gives such a text);
-  ``"<>…"`` is left to the library (the apps count blanks as different, the library does not), and so is
-  any other text (``""``, ``"="``, dates, words, wildcards);
+* every range is a reference (no name) to cells holding numbers, texts or blanks: a logical or an error
+  anywhere in a range sends the call to the library;
+* every criterion is one number (not a logical); or a text of an operator ``=``, ``<``, ``>``, ``<=``, ``>=``
+  (or none) followed by a plain decimal number (``">="&B3`` with B3 a number gives such a text); or a plain
+  text (no operator, wildcard, ``~`` or ``#``, and not a number or date the library reads it as), which
+  equals a text cell whatever the letter case and never a number or a blank. ``"<>…"`` is left to the
+  library (the apps count blanks as different, the library does not), and so is any other text (``""``,
+  ``"="``, wildcards, dates);
 * the ranges of COUNTIFS have the same shape (else the library answers).
 
-A blank cell never meets a numeric criterion (in the apps and in the library), so the ranges are read
-only down to the last row the sheet uses. Anything outside these cases returns None and the library
-decides, so the values are those of the reference path (``tests/test_engine_criteria.py`` compares both,
-and LibreOffice).
+Under a numeric criterion a text cell counts as the number (or date) the library's own ``_text2num`` makes
+of it, once per distinct text, as the library does per cell. A blank cell meets none of these criteria (in
+the apps and in the library), so the ranges are read only down to the last row the sheet uses. Anything else
+returns None and the library decides, so the values are those of the reference path
+(``tests/test_engine_criteria.py`` compares both, and LibreOffice).
 """
 
 from __future__ import annotations
@@ -25,6 +28,7 @@ import operator
 import re
 
 import numpy as np
+from formulas.functions import _text2num
 
 from ..workbook.cells import MAX_COLUMN, MAX_ROW
 
@@ -37,16 +41,21 @@ COUNT_FUNCTIONS = frozenset({"COUNTIF", "COUNTIFS"})
 _OPERATORS = ((">=", operator.ge), ("<=", operator.le), ("<", operator.lt), (">", operator.gt),
               ("=", operator.eq))
 _DECIMAL = re.compile(r"-?[0-9]+(?:\.[0-9]+)?")
+#: Texts left to the library as criteria: wildcards and their escape, operators, errors.
+_NOT_PLAIN_TEXT = re.compile(r"[*?~=<>#]")
+#: The kind of a text criterion (equality whatever the letter case), in place of a comparison.
+TEXT = "text"
 
 #: Ranges wider than this are left to the library (the store reads a column at a time).
 _MAX_COLUMNS = 256
 
 
 def parse_criterion(value):
-    """A criterion as (comparison, number), or None when it is not one of the plain numeric forms.
+    """A criterion as (comparison, number) or (TEXT, the text casefolded), or None when it is none of the plain
+    forms (the library then decides).
 
-    >>> parse_criterion(">="+"12.5")[1], parse_criterion(3.0)[1], parse_criterion("<>1"), parse_criterion(True)
-    (12.5, 3.0, None, None)
+    >>> parse_criterion(">="+"12.5")[1], parse_criterion(3.0)[1], parse_criterion("North")[1], parse_criterion("<>1")
+    (12.5, 3.0, 'north', None)
     """
     if isinstance(value, np.ndarray):
         if value.size != 1:
@@ -66,13 +75,17 @@ def parse_criterion(value):
         if value.startswith(text) and value != text:
             compare, rest = fn, value[len(text):]
             break
-    if not _DECIMAL.fullmatch(rest):
+    if _DECIMAL.fullmatch(rest):
+        return compare, float(rest)
+    if compare is not operator.eq or not rest or _NOT_PLAIN_TEXT.search(rest):
         return None
-    return compare, float(rest)
+    # the library reads a text criterion as a number or a date when it can (its _text2num): those are left to it
+    converted = _text2num(rest)
+    return (TEXT, rest.casefold()) if isinstance(converted, str) else None
 
 
 def _ranges(nodes, store, sheet: str, row: int, col: int):
-    """The dense number arrays of the range arguments (trimmed to a common height), or None."""
+    """The dense arrays of the range arguments, (numbers, texts) each, trimmed to a common height; or None."""
     dense_of = getattr(store, "dense", None)
     if dense_of is None:
         return None
@@ -90,18 +103,39 @@ def _ranges(nodes, store, sheet: str, row: int, col: int):
         blocks.append(block)
     if len(shapes) != 1:
         return None
-    height = min(b.shape[0] for b in blocks)
-    return [b[:height] for b in blocks]
+    height = min(num.shape[0] for num, _ in blocks)
+    return [(num[:height], [t for t in texts if t[0] < height]) for num, texts in blocks]
+
+
+def _mask(block, criterion) -> np.ndarray:
+    """Where a range meets a criterion, as the library decides it cell by cell."""
+    num, texts = block
+    compare, target = criterion
+    if compare is TEXT:  # a text equals a text whatever its letter case; numbers and blanks never do
+        out = np.zeros(num.shape, dtype=bool)
+        for i, j, v in texts:
+            out[i, j] = v.casefold() == target
+        return out
+    if texts:  # a numeric criterion reads a text cell as the number or date the library makes of it
+        num = num.copy()
+        converted = {}
+        for i, j, v in texts:
+            x = converted.get(v)
+            if x is None:
+                x = converted[v] = _text2num(v)
+            if isinstance(x, (int, float)) and not isinstance(x, bool):
+                num[i, j] = x
+    with np.errstate(invalid="ignore"):
+        return compare(num, target)  # NaN (a blank, or a text that is no number) never meets it
 
 
 def _count(blocks, criteria, masks: dict) -> float:
     hit = None
-    for k, (block, (compare, number)) in enumerate(zip(blocks, criteria)):
-        key = (k, compare, number)
+    for k, (block, criterion) in enumerate(zip(blocks, criteria)):
+        key = (k, *criterion)
         mask = masks.get(key)
         if mask is None:
-            with np.errstate(invalid="ignore"):
-                mask = masks[key] = compare(block, number)  # NaN (a blank) never meets a criterion
+            mask = masks[key] = _mask(block, criterion)
         hit = mask if hit is None else hit & mask
     return float(np.count_nonzero(hit))
 

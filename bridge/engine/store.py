@@ -175,10 +175,10 @@ class CellStore:
             return None
         return num[kind == _KIND_NUMBER]
 
-    def dense(self, sheet: str, r1: int, c1: int, r2: int, c2: int) -> np.ndarray | None:
-        """A range of numbers and blanks as a (rows, columns) float array, NaN for a blank, read down to the last
-        row the sheet uses (kept until a write into it); None when a cell of it holds text, a logical or an
-        error, or the sheet does not exist."""
+    def dense(self, sheet: str, r1: int, c1: int, r2: int, c2: int):
+        """A range of numbers, texts and blanks as (a (rows, columns) float array, NaN for a blank or a text; the
+        texts as a list of (row index, column index, text)), read down to the last row the sheet uses and kept
+        until a write into it; None when a cell of it holds a logical or an error, or the sheet does not exist."""
         key = (sheet.casefold(), r1, c1, r2, c2)
         if key in self._dense:
             return self._dense[key]
@@ -186,14 +186,21 @@ class CellStore:
         out = None
         if name is not None:
             r2 = min(r2, max(self.max_row[name], r1))
-            out = np.full((r2 - r1 + 1, c2 - c1 + 1), np.nan)
+            num, texts = np.full((r2 - r1 + 1, c2 - c1 + 1), np.nan), []
+            out = (num, texts)
             for c, col in self.sheets[name].items():
                 if c1 <= c <= c2 and r1 < col.kind.size:
                     stop = min(r2 + 1, col.kind.size)
-                    if (col.kind[r1:stop] == _KIND_OTHER).any():
-                        out = None
+                    kind = col.kind[r1:stop]
+                    num[:stop - r1, c - c1] = np.where(kind == _KIND_NUMBER, col.num[r1:stop], np.nan)
+                    for i in np.flatnonzero(kind == _KIND_OTHER).tolist():
+                        v = col.other[r1 + i]
+                        if type(v) is not str:
+                            out = None
+                            break
+                        texts.append((i, c - c1, v))
+                    if out is None:
                         break
-                    out[:stop - r1, c - c1] = np.where(col.kind[r1:stop] == _KIND_NUMBER, col.num[r1:stop], np.nan)
         self._dense[key] = out
         return out
 
