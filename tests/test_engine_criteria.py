@@ -1,4 +1,4 @@
-"""COUNTIF / COUNTIFS counted with numpy (bridge/engine/criteria.py) give what the reference path gives.
+"""COUNTIF / COUNTIFS (and AVERAGEIFS / SUMIFS) counted with numpy (bridge/engine/criteria.py) give what the reference path gives.
 
 * Against the engine's reference path (the ``formulas`` library's COUNTIF/COUNTIFS, cell by cell) on random
   small sheets of numbers, blanks and now and then a text or an error, with criteria of every form (numbers,
@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 from openpyxl import Workbook
 
-from trueband.bridge.engine.criteria import count_if, parse_criterion
+from trueband.bridge.engine.criteria import aggregate_if, count_if, parse_criterion
 from trueband.bridge.engine.eval_cell import _CellEval, evaluate_cell
 from trueband.bridge.engine.eval_run import evaluate_run
 from trueband.bridge.engine.graph import Run
@@ -70,6 +70,9 @@ FORMULAS = [
     "=COUNTIFS($A$2:$A$31,\">=1\",$C$2:$C$31,\"<=\"&E2)", "=COUNTIF(A2:A31,\"NORTH\")",
     "=COUNTIFS(A2:A31,\"north\",B2:B31,\">=0\")", "=COUNTIFS(A2:A31,\"South\",B2:B31,\"East \")",
     "=COUNTIF(A2:A31,\"=North\")", "=COUNTIF(A2:A31,\">North\")", "=COUNTIF(A2:A31,\"East\")",
+    "=AVERAGEIFS(C2:C31,A2:A31,\">=0\")", "=AVERAGEIFS(C2:C31,A2:A31,\"north\",B2:B31,\"<\"&E2)",
+    "=SUMIFS(C2:C31,A2:A31,\">=1\",B2:B31,\"<=3\")", "=AVERAGEIFS(B2:C31,A2:B31,\">0\")",
+    "=AVERAGEIFS(C2:C31,A2:A31,\">99\")", "=SUMIFS(C2:C31,A3:A32,\">=0\")", "=AVERAGEIFS(C2:C31,A2:A31,\"<>1\")",
 ]
 
 
@@ -118,9 +121,12 @@ def test_fast_path_is_taken_for_the_plain_numeric_forms_only():
              "=COUNTIF(A2:A31,\"<>2\")": False, "=COUNTIF(A2:A31,\"abc\")": True, "=COUNTIF(A2:A31,E3)": True,
              "=COUNTIF(A2:A31,\"A*\")": False, "=COUNTIF(A2:A31,\"\")": False, "=COUNTIF(A2:A31,\">North\")": False,
              "=COUNTIFS(A2:A31,1,B2:B20,1)": False, "=COUNTIF(A2:A31,TRUE)": False}
+    cases.update({"=AVERAGEIFS(C2:C31,A2:A31,\">=0\")": True, "=SUMIFS(C2:C31,A2:A31,1,B2:B31,\"<3\")": True,
+                  "=SUMIFS(C2:C31,A3:A32,\">=0\")": False, "=AVERAGEIFS(C2:C31,A2:A31,\">99\")": False})
     for text, taken in cases.items():
         node = compile_formula(text, 40, 8).tree
-        got = count_if(node.name, node.args, _CellEval(store, "S", 40, 8).evaluate, store, "S", 40, 8)
+        fast = aggregate_if if node.name in ("AVERAGEIFS", "SUMIFS") else count_if
+        got = fast(node.name, node.args, _CellEval(store, "S", 40, 8).evaluate, store, "S", 40, 8)
         assert (got is not None) == taken, text
     messy, _ = stores(3, messy=True)
     node = compile_formula("=COUNTIF(A2:A31,1)", 40, 8).tree
@@ -158,7 +164,7 @@ def libreoffice_book(path, seed: int = 5):
                 ws.cell(r, c, v)
     ws["E3"] = 3  # a number criterion cell (LibreOffice and the library treat a text one differently)
     for i, text in enumerate(t for t in FORMULAS if all(s not in t for s in ('"<>', '""', '"abc"', '"A*"', "TRUE",
-                                                                              "B2:B20", "E3"))):
+                                                                              "B2:B20", "E3", '">99"', "A3:A32"))):
         ws.cell(40 + i, 8, text)
     for k, text in enumerate(RUN_FORMULAS):
         for r in range(2, 32):

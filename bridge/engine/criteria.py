@@ -32,10 +32,14 @@ from formulas.functions import _text2num
 
 from ..workbook.cells import MAX_COLUMN, MAX_ROW
 
-__all__ = ["COUNT_FUNCTIONS", "parse_criterion", "count_if", "count_if_rows"]
+__all__ = ["COUNT_FUNCTIONS", "AGGREGATE_FUNCTIONS", "parse_criterion", "count_if", "count_if_rows", "aggregate_if"]
 
 #: The criteria functions counted here (with their ``_xlfn.`` forms, which they do not have, left out).
 COUNT_FUNCTIONS = frozenset({"COUNTIF", "COUNTIFS"})
+
+#: AVERAGEIFS and SUMIFS: the cells to aggregate are chosen as COUNTIFS chooses them, then given to the
+#: library's own accumulator (the same values in the same order, so the same sum or mean to the last bit).
+AGGREGATE_FUNCTIONS = frozenset({"AVERAGEIFS", "SUMIFS"})
 
 #: The operators in the order the library tries them (the longest first), with their comparisons.
 _OPERATORS = ((">=", operator.ge), ("<=", operator.le), ("<", operator.lt), (">", operator.gt),
@@ -130,6 +134,10 @@ def _mask(block, criterion) -> np.ndarray:
 
 
 def _count(blocks, criteria, masks: dict) -> float:
+    return float(np.count_nonzero(_hits(blocks, criteria, masks)))
+
+
+def _hits(blocks, criteria, masks: dict) -> np.ndarray:
     hit = None
     for k, (block, criterion) in enumerate(zip(blocks, criteria)):
         key = (k, *criterion)
@@ -137,7 +145,7 @@ def _count(blocks, criteria, masks: dict) -> float:
         if mask is None:
             mask = masks[key] = _mask(block, criterion)
         hit = mask if hit is None else hit & mask
-    return float(np.count_nonzero(hit))
+    return hit
 
 
 def count_if(name: str, nodes, evaluate, store, sheet: str, row: int, col: int):
@@ -184,3 +192,49 @@ def count_if_rows(name: str, nodes, values, store, sheet: str, first: int, col: 
         per_row.append(row_criteria)
     masks: dict = {}
     return np.array([_count(blocks, [rc[i] for rc in per_row], masks) for i in range(n)])
+
+
+def _accumulator(name: str):
+    if name == "AVERAGEIFS":
+        from formulas.functions.stat import xaverage  # the library's statistics module (AVERAGEIFS is in it)
+        return xaverage
+    from formulas.functions.math import xsum
+    return xsum
+
+
+def aggregate_if(name: str, nodes, evaluate, store, sheet: str, row: int, col: int):
+    """The value of ``AVERAGEIFS(range, criteria_range1, criterion1, ...)`` or ``SUMIFS(...)`` at one cell, or
+    None when the library must decide (as :func:`count_if`; besides, every range on one sheet over the same
+    rows, and a result that is a finite number: an error or an empty average is the library's to give)."""
+    if name not in AGGREGATE_FUNCTIONS or len(nodes) < 3 or len(nodes) % 2 == 0:
+        return None
+    areas = set()
+    for node in [nodes[0], *nodes[1::2]]:
+        if node.kind != "ref" or node.ref.name is not None:
+            return None
+        r1, c1, r2, c2 = node.ref.area(row, col)
+        areas.add(((node.ref.sheet or sheet).casefold(), r1, r2, c2 - c1))
+    if len(areas) != 1:
+        return None
+    blocks = _ranges(nodes[1::2], store, sheet, row, col)
+    if blocks is None:
+        return None
+    criteria = [parse_criterion(evaluate(node)) for node in nodes[2::2]]
+    if any(c is None for c in criteria):
+        return None
+    hit = _hits(blocks, criteria, {})
+    values = evaluate(nodes[0])  # the range to aggregate as the library receives it
+    if not isinstance(values, np.ndarray) or values.ndim != 2 or values.shape[1] != hit.shape[1] or \
+            values.shape[0] < hit.shape[0]:
+        return None
+    if values.shape[0] > hit.shape[0]:  # rows below the last one used: blank, never chosen
+        hit = np.vstack([hit, np.zeros((values.shape[0] - hit.shape[0], hit.shape[1]), dtype=bool)])
+    try:
+        out = _accumulator(name)(np.asarray(values)[hit])
+    except Exception:  # the library's own answer (an error value) comes from its own path
+        return None
+    if isinstance(out, np.ndarray) and out.size == 1:
+        out = out.ravel()[0]
+    if isinstance(out, (float, np.floating)) and np.isfinite(out):
+        return float(out)
+    return None
