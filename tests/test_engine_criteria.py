@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 from openpyxl import Workbook
 
-from trueband.bridge.engine.criteria import aggregate_if, count_if, parse_criterion
+from trueband.bridge.engine.criteria import aggregate_if, count_if, count_if_rows, parse_criterion
 from trueband.bridge.engine.eval_cell import _CellEval, evaluate_cell
 from trueband.bridge.engine.eval_run import evaluate_run
 from trueband.bridge.engine.graph import Run
@@ -97,6 +97,8 @@ RUN_FORMULAS = [
     "=COUNTIFS($A$2:$A$31,A2,$B$2:$B$31,\">=0\")",  # the criterion moves with the row (a number or blank)
     "=COUNTIF($B$2:$B$31,\">=\"&C2)",               # an &-built criterion per row
     "=COUNTIFS($A$2:$A$31,\">=0\",$C$2:$C$31,\"<\"&$E$2)",  # the same for every row
+    "=SUMIFS($C$2:$C$31,$B$2:$B$31,\">=\"&ROW()/10)",
+    "=AVERAGEIFS($C$2:$C$31,$A$2:$A$31,\">=-5\",$B$2:$B$31,\"<=\"&(ROW()+5))",
 ]
 
 
@@ -131,6 +133,17 @@ def test_fast_path_is_taken_for_the_plain_numeric_forms_only():
     messy, _ = stores(3, messy=True)
     node = compile_formula("=COUNTIF(A2:A31,1)", 40, 8).tree
     assert count_if("COUNTIF", node.args, lambda n: 1.0, messy, "S", 40, 8) is None  # a logical in the range
+
+
+def test_run_path_is_taken_for_counts_and_aggregates():
+    from trueband.bridge.engine.eval_run import _RunEval
+
+    store, _ = stores(2, messy=False)
+    for text in RUN_FORMULAS[2:]:  # (the criteria of the first two read cells that may hold text or blanks)
+        run = Run("S", 8, 2, 31, compile_formula(text, 2, 8))
+        node = run.compiled.tree
+        got = count_if_rows(node.name, node.args, _RunEval(run, store).per_row, store, "S", 2, 8, 30)
+        assert got is not None and got.shape == (30,), text
 
 
 def test_parse_criterion():

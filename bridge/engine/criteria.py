@@ -163,18 +163,39 @@ def count_if(name: str, nodes, evaluate, store, sheet: str, row: int, col: int):
 
 
 def count_if_rows(name: str, nodes, values, store, sheet: str, first: int, col: int, n: int):
-    """The counts of a filled-down run whose ranges do not move (their rows fixed), or None when the library
-    must decide. ``values`` gives each criterion node's per-row values (a list of ``n``)."""
-    if name not in COUNT_FUNCTIONS or len(nodes) < 2 or len(nodes) % 2 or (name == "COUNTIF" and len(nodes) != 2):
+    """The values of a filled-down COUNTIF/COUNTIFS (or AVERAGEIFS/SUMIFS) run whose ranges do not move (their
+    rows fixed), or None when the library must decide. ``values`` gives each criterion node's per-row values
+    (a list of ``n``)."""
+    aggregate = name in AGGREGATE_FUNCTIONS
+    if aggregate:
+        if len(nodes) < 3 or len(nodes) % 2 == 0:
+            return None
+        target, ranges, criteria_nodes = nodes[0], nodes[1::2], nodes[2::2]
+    elif name in COUNT_FUNCTIONS and len(nodes) >= 2 and not len(nodes) % 2 and (name == "COUNTIFS" or len(nodes) == 2):
+        target, ranges, criteria_nodes = None, nodes[0::2], nodes[1::2]
+    else:
         return None
-    if any(node.kind != "ref" or node.ref.name is not None or not node.ref.rows_fixed for node in nodes[0::2]):
+    every = ranges if target is None else [target, *ranges]
+    if any(node.kind != "ref" or node.ref.name is not None or not node.ref.rows_fixed for node in every):
         return None
-    blocks = _ranges(nodes[0::2], store, sheet, first, col)
+    blocks = _ranges(ranges, store, sheet, first, col)
     if blocks is None:
         return None
-    parsed: dict = {}
+    cells = None
+    if aggregate:
+        areas = {((node.ref.sheet or sheet).casefold(), *node.ref.area(first, col)[::2]) for node in every}
+        widths = {node.ref.area(first, col)[3] - node.ref.area(first, col)[1] for node in every}
+        if len(areas) != 1 or len(widths) != 1:
+            return None
+        r1, c1, r2, c2 = target.ref.area(first, col)
+        if r1 == r2 and c1 == c2:
+            return None
+        cells = store.area(target.ref.sheet or sheet, r1, c1, r2, c2)  # the range as the library receives it
+        if cells.shape[1] != blocks[0][0].shape[1] or cells.shape[0] < blocks[0][0].shape[0]:
+            return None
     per_row = []
-    for node in nodes[1::2]:
+    parsed: dict = {}
+    for node in criteria_nodes:
         column = values(node)
         if column is None:
             return None
@@ -191,7 +212,31 @@ def count_if_rows(name: str, nodes, values, store, sheet: str, first: int, col: 
             row_criteria.append(c)
         per_row.append(row_criteria)
     masks: dict = {}
-    return np.array([_count(blocks, [rc[i] for rc in per_row], masks) for i in range(n)])
+    if not aggregate:
+        return np.array([_count(blocks, [rc[i] for rc in per_row], masks) for i in range(n)])
+    out = np.empty(n)
+    accumulate = _accumulator(name)
+    for i in range(n):
+        x = _aggregate(accumulate, cells, _hits(blocks, [rc[i] for rc in per_row], masks))
+        if x is None:
+            return None
+        out[i] = x
+    return out
+
+
+def _aggregate(accumulate, cells: np.ndarray, hit: np.ndarray) -> float | None:
+    """The library's accumulator over the chosen cells, when it gives a finite number (else None)."""
+    if cells.shape[0] > hit.shape[0]:  # rows below the last one used: blank, never chosen
+        hit = np.vstack([hit, np.zeros((cells.shape[0] - hit.shape[0], hit.shape[1]), dtype=bool)])
+    try:
+        out = accumulate(np.asarray(cells)[hit])
+    except Exception:  # the library's own answer (an error value) comes from its own path
+        return None
+    if isinstance(out, np.ndarray) and out.size == 1:
+        out = out.ravel()[0]
+    if isinstance(out, (float, np.floating)) and np.isfinite(out):
+        return float(out)
+    return None
 
 
 def _accumulator(name: str):
@@ -227,14 +272,4 @@ def aggregate_if(name: str, nodes, evaluate, store, sheet: str, row: int, col: i
     if not isinstance(values, np.ndarray) or values.ndim != 2 or values.shape[1] != hit.shape[1] or \
             values.shape[0] < hit.shape[0]:
         return None
-    if values.shape[0] > hit.shape[0]:  # rows below the last one used: blank, never chosen
-        hit = np.vstack([hit, np.zeros((values.shape[0] - hit.shape[0], hit.shape[1]), dtype=bool)])
-    try:
-        out = _accumulator(name)(np.asarray(values)[hit])
-    except Exception:  # the library's own answer (an error value) comes from its own path
-        return None
-    if isinstance(out, np.ndarray) and out.size == 1:
-        out = out.ravel()[0]
-    if isinstance(out, (float, np.floating)) and np.isfinite(out):
-        return float(out)
-    return None
+    return _aggregate(_accumulator(name), values, hit)

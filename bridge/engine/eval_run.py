@@ -45,7 +45,7 @@ from ..formulas.compile import Node
 from ..formulas.library import (ERROR_LOG, NOT_IMPLEMENTED, PassError, function_table, message_for, range_argument,
                                 scalar_argument)
 from ..formulas.names import registered_name
-from .criteria import COUNT_FUNCTIONS, count_if_rows
+from .criteria import AGGREGATE_FUNCTIONS, COUNT_FUNCTIONS, count_if_rows
 from .eval_cell import area_value, range_aggregate, single_value_arguments
 from .graph import Run
 from .values import (NAME_ERROR, VALUE_ERROR, CannotEvaluate, CellProblem, VectorUnsupported, final_array, final_value,
@@ -312,7 +312,7 @@ class _RunEval:
         fast = range_aggregate(name, node.args, self.store, self.sheet, self.first, self.col, fixed_rows=True)
         if fast is not None:
             return fast
-        if name in COUNT_FUNCTIONS:
+        if name in COUNT_FUNCTIONS or name in AGGREGATE_FUNCTIONS:
             counts = count_if_rows(name, node.args, self.per_row, self.store, self.sheet, self.first, self.col, self.n)
             if counts is not None:
                 return Col(counts)
