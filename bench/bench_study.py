@@ -18,6 +18,9 @@ the figure to read): 50,000 plain 62 s of processor time, 710 MB peak; 50,000 im
 setup is over the 60 s target. A profile at 10,000 puts most of the difference in the COUNTIFS of the Cuts,
 Stages and Strata sheets, which the formulas library evaluates cell by cell (``_text2num``); a fast path for
 COUNTIFS over fixed ranges in the engine (as it has for SUM, COUNT, ...) is the likely fix.
+That fast path exists now (``bridge/engine/criteria.py``); with it and the study's sheets written without
+character references, 5,000 impact went from 22.8 s to 15.2 s of processor time and 50,000 impact measured
+67 s, 806 MB with the final code (bench/README.md, 2026-12-05): still over the target.
 
     python bench/bench_study.py            # 5,000 and 50,000
     python bench/bench_study.py 2000       # other sizes

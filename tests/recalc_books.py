@@ -55,6 +55,7 @@ MIXED_FORMULAS = {
     "Y": '=ISNUMBER(A{r})&"|"&B{r}',
     "AA": "=AA{prev}+B{r}",  # a running total: each row reads the row above
     "AB": "=IF(ISERROR(H{r}),0,H{r})*2",
+    "AC": '=COUNTIFS($B$2:$B$11,">=2",$D$2:$D$11,"<="&ROW())',  # engine/criteria.py: counted with numpy
 }
 
 

@@ -29,6 +29,7 @@ from ..formulas.compile import Compiled, Node
 from ..workbook.cells import MAX_COLUMN, MAX_ROW
 from ..formulas.library import ERROR_LOG, NOT_IMPLEMENTED, NotEvaluated, function_table, message_for
 from ..formulas.names import registered_name
+from .criteria import AGGREGATE_FUNCTIONS, COUNT_FUNCTIONS, aggregate_if, count_if
 from .values import (NA_ERROR, NAME_ERROR, REF_ERROR, VALUE_ERROR, CannotEvaluate, CellProblem, VectorUnsupported,
                      error_value, filled, final_value, unknown_function)
 
@@ -219,6 +220,10 @@ class _CellEval:
         if name in ("ROW", "COLUMN"):
             return self._row_column(node)
         fast = range_aggregate(name, node.args, self.store, self.sheet, self.row, self.col)
+        if fast is None and name in COUNT_FUNCTIONS:
+            fast = count_if(name, node.args, self.evaluate, self.store, self.sheet, self.row, self.col)
+        elif fast is None and name in AGGREGATE_FUNCTIONS:
+            fast = aggregate_if(name, node.args, self.evaluate, self.store, self.sheet, self.row, self.col)
         if fast is not None:
             return fast
         table = function_table()

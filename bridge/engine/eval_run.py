@@ -45,6 +45,7 @@ from ..formulas.compile import Node
 from ..formulas.library import (ERROR_LOG, NOT_IMPLEMENTED, PassError, function_table, message_for, range_argument,
                                 scalar_argument)
 from ..formulas.names import registered_name
+from .criteria import AGGREGATE_FUNCTIONS, COUNT_FUNCTIONS, count_if_rows
 from .eval_cell import area_value, range_aggregate, single_value_arguments
 from .graph import Run
 from .values import (NAME_ERROR, VALUE_ERROR, CannotEvaluate, CellProblem, VectorUnsupported, final_array, final_value,
@@ -311,6 +312,10 @@ class _RunEval:
         fast = range_aggregate(name, node.args, self.store, self.sheet, self.first, self.col, fixed_rows=True)
         if fast is not None:
             return fast
+        if name in COUNT_FUNCTIONS or name in AGGREGATE_FUNCTIONS:
+            counts = count_if_rows(name, node.args, self.per_row, self.store, self.sheet, self.first, self.col, self.n)
+            if counts is not None:
+                return Col(counts)
         table = function_table()
         if name not in table or table[name] is NOT_IMPLEMENTED:
             raise CannotEvaluate(unknown_function(name))
@@ -333,6 +338,17 @@ class _RunEval:
                 res = _ELEMENTWISE[name](_numbers_of(args[0]))
             return self.finite_or_library(res, fn, args, name)
         return Col(_tidy(self.rowwise(fn, args, label=name)))
+
+    def per_row(self, node: Node) -> list | None:
+        """A criterion's value in each row of the run (a list), or None when it is a range of several cells."""
+        x = self.evaluate(node)
+        if isinstance(x, Col):
+            return [v.item() if isinstance(v, np.generic) else v for v in x.a]
+        if isinstance(x, RowRange) or (isinstance(x, Fixed) and np.size(x.a) != 1):
+            return None
+        if isinstance(x, Fixed):
+            x = np.ravel(x.a)[0]
+        return [x] * self.n
 
     def row_column(self, node: Node):
         """``ROW()``, ``COLUMN()``, ``ROW(ref)``, ``COLUMN(ref)``: a row number moves with the run's rows."""

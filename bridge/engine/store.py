@@ -57,6 +57,7 @@ class CellStore:
         self.names: dict[str, str] = {}  # casefolded → canonical
         self.max_row: dict[str, int] = {}
         self._areas: dict[tuple, np.ndarray] = {}
+        self._dense: dict[tuple, np.ndarray | None] = {}
 
     def add_sheet(self, name: str, columns: dict[int, "sheet_columns.ColumnArrays | tuple[list[int], list]"]):
         """Add a sheet from the package reader's columns (:class:`~trueband.bridge.workbook.sheet_columns.ColumnArrays`, or
@@ -174,6 +175,35 @@ class CellStore:
             return None
         return num[kind == _KIND_NUMBER]
 
+    def dense(self, sheet: str, r1: int, c1: int, r2: int, c2: int):
+        """A range of numbers, texts and blanks as (a (rows, columns) float array, NaN for a blank or a text; the
+        texts as a list of (row index, column index, text)), read down to the last row the sheet uses and kept
+        until a write into it; None when a cell of it holds a logical or an error, or the sheet does not exist."""
+        key = (sheet.casefold(), r1, c1, r2, c2)
+        if key in self._dense:
+            return self._dense[key]
+        name = self.canonical(sheet)
+        out = None
+        if name is not None:
+            r2 = min(r2, max(self.max_row[name], r1))
+            num, texts = np.full((r2 - r1 + 1, c2 - c1 + 1), np.nan), []
+            out = (num, texts)
+            for c, col in self.sheets[name].items():
+                if c1 <= c <= c2 and r1 < col.kind.size:
+                    stop = min(r2 + 1, col.kind.size)
+                    kind = col.kind[r1:stop]
+                    num[:stop - r1, c - c1] = np.where(kind == _KIND_NUMBER, col.num[r1:stop], np.nan)
+                    for i in np.flatnonzero(kind == _KIND_OTHER).tolist():
+                        v = col.other[r1 + i]
+                        if type(v) is not str:
+                            out = None
+                            break
+                        texts.append((i, c - c1, v))
+                    if out is None:
+                        break
+        self._dense[key] = out
+        return out
+
     def row_block(self, sheet: str, r1: int, r2: int, c1: int, c2: int):
         """(numbers NaN elsewhere (rows, cols), rows that are all numbers, row i in the engine's form)."""
         n, k = r2 - r1 + 1, c2 - c1 + 1
@@ -250,6 +280,11 @@ class CellStore:
                     c.kind[r] = _KIND_OTHER
                     c.other[r] = v
         self.max_row[name] = max(self.max_row[name], last)
+        if self._dense:
+            folded = name.casefold()
+            for key in [k for k in self._dense if k[0] == folded and k[2] <= col <= k[4]
+                        and not (k[3] < first or k[1] > last)]:
+                del self._dense[key]
         if self._areas:
             folded = name.casefold()
             for key in [k for k in self._areas if k[0] == folded and k[2] <= col <= k[4]

@@ -6,11 +6,14 @@ saved package (see :mod:`.long_sheets`), which is much faster than writing them 
 
 from __future__ import annotations
 
+import re
+import zipfile
 from pathlib import Path
 
 from openpyxl import Workbook
 from openpyxl.utils import get_column_letter
 
+from ..workbook.files import replacing
 from . import long_sheets, workbook_predictors
 from .context import StudyContext
 from .grid import styled
@@ -66,6 +69,7 @@ def save(ctx: StudyContext, setup: SetupSheet, bands: Bands, path: Path) -> None
         ws.append([styled(ws, h, "header") for h in scored_items.header(d)])
     copy_styles = data_copy.write_header(wb, d)
     wb.save(path)
+    _characters_as_utf8(path)
     last = d.n + 1
     rows = {BANDS_SHEET: lambda: long_sheets.rows_xml(bands.rows(d), 2, formulas=True, styles=band_styles),
             d.sheet: lambda: long_sheets.rows_xml(d.rows, 2, formulas=False, styles=copy_styles)}
@@ -81,3 +85,25 @@ def save(ctx: StudyContext, setup: SetupSheet, bands: Bands, path: Path) -> None
     rows.update(more_rows)
     corners.update(more_corners)
     long_sheets.splice_rows(path, rows, corners)
+
+
+_CHARACTER_REFERENCE = re.compile(rb"&#(?:x([0-9A-Fa-f]+)|([0-9]+));")
+
+
+def _characters_as_utf8(path: Path) -> None:
+    """openpyxl writes every character beyond ASCII in a sheet as a character reference (``&#215;`` for ×),
+    which sends each such part through the XML parser when the study is recalculated (the engine's fast
+    readers take the regular form only; see :mod:`trueband.bridge.workbook.xml_form`): the references of
+    characters beyond ASCII become the UTF-8 characters (the same text to any reader; ASCII references,
+    which may stand for ``<``, ``&`` or a line end in an attribute, stay). Done before the long sheets' rows
+    are spliced in, so the package is small."""
+    def character(m: re.Match) -> bytes:
+        code = int(m[1], 16) if m[1] else int(m[2])
+        return chr(code).encode("utf-8") if 0x80 <= code <= 0x10FFFF and not 0xD800 <= code <= 0xDFFF else m[0]
+
+    with replacing(path) as tmp, zipfile.ZipFile(path) as src, zipfile.ZipFile(tmp, "w", zipfile.ZIP_DEFLATED) as dst:
+        for info in src.infolist():
+            data = src.read(info.filename)
+            if info.filename.startswith("xl/worksheets/") and info.filename.endswith(".xml") and b"&#" in data:
+                data = _CHARACTER_REFERENCE.sub(character, data)
+            dst.writestr(info, data, compress_type=zipfile.ZIP_DEFLATED)
