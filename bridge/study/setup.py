@@ -131,6 +131,9 @@ SETTINGS.update({
 })
 SETTINGS.update(CUT_SETTINGS)  # the cut-score evidence: judges' sheet, method, content ratings (setup_cut)
 SETTINGS.update(ANSWER_SETTINGS)  # raw multiple-choice answers and their key (setup_answers)
+# printing (issue 20): the currency shown in the money cells' number format (checked by .printing.money_format)
+SETTINGS["currency"] = ("currency", "text", "the currency of money figures, a code or symbol shown beside them, "
+                                            "e.g. EUR, GBP or $ (default USD)")
 
 
 
@@ -176,6 +179,7 @@ class StudySetup:
     content_sheet: str | None = None
     content_critical: str | None = None
     answer_key_sheet: str | None = None         # raw answers and their key (setup_answers)
+    currency: str = "USD"                       # shown in the money format (printing)
     source: Mapping[str, str] = dataclasses.field(default_factory=dict)  # field -> where it was given
     predictors: tuple = ()  # the further predictors (StudySetup of their own settings; see setup_predictors)
 

@@ -11,7 +11,7 @@ from pathlib import Path
 from openpyxl import Workbook
 from openpyxl.utils import get_column_letter
 
-from . import long_sheets, workbook_predictors
+from . import long_sheets, printing, workbook_predictors
 from .context import StudyContext
 from .grid import styled
 from .setup import SETUP_SHEET
@@ -46,6 +46,7 @@ def _bands_header(wb: Workbook, bands: Bands, title: str = BANDS_SHEET) -> None:
 def save(ctx: StudyContext, setup: SetupSheet, bands: Bands, path: Path) -> None:
     """Write the workbook, then splice in the rows of the long sheets."""
     d = ctx.data
+    printing.lay_out(ctx)  # the print layout of every composed sheet (issue 20)
     wb = Workbook(write_only=True)
     for title in ANALYSIS_SHEETS:
         if title == BANDS_SHEET:
@@ -63,6 +64,7 @@ def save(ctx: StudyContext, setup: SetupSheet, bands: Bands, path: Path) -> None
         ws.freeze_panes = "A2"
         ws.append([styled(ws, h, "header") for h in scored_items.header(d)])
     copy_styles = data_copy.write_header(wb, d)
+    printing.out_of_print(wb, ctx)  # the per-applicant sheets print only when asked for
     wb.save(path)
     last = d.n + 1
     rows = {BANDS_SHEET: lambda: long_sheets.rows_xml(bands.rows(d), 2, formulas=True),
