@@ -19,8 +19,8 @@ P_FORMAT = '[<0.0001]"< 0.0001";0.0000'
 #: The study's own palette, chosen to read in grey print: each colour a distinct lightness (CIE L*, checked by
 #: tests/test_print_pdf.py), and input cells marked by a dashed border as well as by their fill.
 INK = "1F3A4D"            # titles, headings, dark chart series (L* about 24)
-HEADER_FILL = "B8C9C4"    # table header rows (L* about 80)
-INPUT_FILL = "F6EFDD"     # cells a user may edit (L* about 94)
+HEADER_FILL = "A7BAB4"    # table header rows (L* about 74)
+INPUT_FILL = "E9DDC0"     # cells a user may edit (L* about 88)
 CAUTION_INK = "7A3B12"    # cautions (L* about 33)
 NA_INK = "8C1C13"         # "not computable" (italic as well as coloured)
 _INPUT_EDGE = Side(style="dashed", color=INK)

@@ -65,6 +65,9 @@ UNIT_PT = 7.0
 #: Units of column width one character of text takes (measured 0.75 for plain text in the same PDF; bold text a
 #: tenth more, the title a third more).
 CHAR_UNITS = 0.85
+#: Units one character of a word that must not break takes: a digit is one unit by definition, and a header is
+#: bold.
+WORD_UNITS = 1.1
 #: A label longer than this (in units of column width) wraps inside its cell instead of widening the column.
 MAX_LABEL_UNITS = 64.0
 #: The widest a column right of column A grows for a text in a table (a "not computable" reason...): longer
@@ -120,8 +123,8 @@ class PageLayout:
 def header_footer(ws, title: str, built: str) -> None:
     """The study's title and the sheet's name above; the build date, page X of Y and the version below."""
     title = title.replace("&", "&&")
-    if len(title) > 110:
-        title = title[:109] + "…"
+    if len(title) > 90:  # the left part of the header stays clear of the sheet's name on the right
+        title = title[:89] + "…"
     for part, text in ((ws.oddHeader.left, title), (ws.oddHeader.right, "&A"),
                        (ws.oddFooter.left, f"Built {built}"), (ws.oddFooter.center, "Page &P of &N"),
                        (ws.oddFooter.right, f"trueband {__version__}")):
@@ -186,7 +189,7 @@ def _fit_columns(s: _Sheet) -> None:
             continue
         if style == "header":
             longest = max((len(w) for w in value.split()), default=0)
-            g.widths[c] = max(s.width(c), longest * CHAR_UNITS * 1.1 + 1.5)
+            g.widths[c] = max(s.width(c), longest * WORD_UNITS + 2.0)
             continue
         right = _next_filled(s, r, c)
         if right is None:
@@ -213,9 +216,10 @@ def _compact(s: _Sheet) -> None:
         if c == 1 or c > s.cols:
             continue
         if style == "header":
-            least = max((len(w) for w in str(value).split()), default=0) * CHAR_UNITS * 1.1 + 1.5
-        elif isinstance(value, str) and not value.startswith("=") and (r, c) not in s.g.wrapped:
-            least = s.width(c)  # a label keeps its width
+            least = max((len(w) for w in str(value).split()), default=0) * WORD_UNITS + 2.0
+        elif isinstance(value, str) and not value.startswith("="):  # a label keeps its width, a wrapped text
+            longest = max((len(w) for w in value.split()), default=0) * WORD_UNITS + 2.0  # its longest word
+            least = max(longest, 14.0) if (r, c) in s.g.wrapped else s.width(c)
         else:
             least = NUMBER_UNITS - 1.5
         need[c] = max(need.get(c, 0.0), least)

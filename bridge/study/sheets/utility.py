@@ -35,7 +35,7 @@ def write(ctx: StudyContext, setup: SetupSheet, bands: BandsLayout, validity: Va
     g.widths.update({1: 70, 2: 16})
     d = ctx.data
     g.set(1, 1, "Selection utility", "title")
-    g.para(2, 1, "Yellow cells are inputs: replace them with your own figures.")
+    g.para(2, 1, "Shaded cells with a dashed border are inputs: replace them with your own figures.")
     g.set(4, 1, "Validity used (operational validity from the Validity sheet)")
     source = validity.operational if validity.operational is not None and isinstance(validity.operational.value,
                                                                                        float) else validity.r

@@ -1,0 +1,196 @@
+"""The study in print (issue 20): the print pass's choices, and LibreOffice's PDF export of the demo study and of
+its ``recalc --values`` copy read back with poppler's ``pdftotext -bbox-layout`` (see ``print_check.py``): no text
+over text, every printed cell's text whole, no more pages than the README states. Each check is shown to fail
+on a small workbook made to break it."""
+
+from __future__ import annotations
+
+import re
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from openpyxl import Workbook, load_workbook
+from openpyxl.styles import Alignment
+
+from trueband.bridge.study import charts, printing
+from trueband.bridge.study.grid import HEADER_FILL, INK, INPUT_FILL, Grid
+from trueband.bridge.study.setup import SetupError
+
+sys.path.insert(0, str(Path(__file__).parent))
+from print_check import cut_cells, overlaps, page_sheets, pdf_pages, to_pdf  # noqa: E402
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+# ---------------------------------------------------------------- the print pass, without LibreOffice
+
+@pytest.mark.parametrize("currency, expected", [("EUR", '#,##0 "EUR"'), ("usd", '#,##0 "usd"'), ("$", '"$"#,##0'),
+                                                ("€", '"€"#,##0'), (" GBP ", '#,##0 "GBP"')])
+def test_money_format_shows_the_currency(currency, expected):
+    assert printing.money_format(currency) == expected
+
+
+@pytest.mark.parametrize("currency", ['"', "", "a;b", "TOOLONGCODE", "[$]"])
+def test_money_format_refuses_what_would_break_the_format(currency):
+    with pytest.raises(SetupError, match="currency"):
+        printing.money_format(currency, "Setup!B30")
+
+
+def _lightness(hex_colour: str) -> float:
+    """CIE 1976 L* of an sRGB colour (sRGB transfer function of IEC 61966-2-1; D65 white)."""
+    def linear(v):
+        v /= 255
+        return v / 12.92 if v <= 0.04045 else ((v + 0.055) / 1.055) ** 2.4
+    r, g, b = (linear(int(hex_colour[k:k + 2], 16)) for k in (0, 2, 4))
+    y = 0.2126 * r + 0.7152 * g + 0.0722 * b
+    return 116 * y ** (1 / 3) - 16 if y > 216 / 24389 else y * 24389 / 27
+
+
+def test_palette_reads_in_grey_print():
+    # each pair that shares a page differs by at least 10 in CIE L* (a step readers tell apart in grey; common
+    # practice), and the chart series differ by dashes and markers too
+    for group in ((INK, HEADER_FILL, INPUT_FILL, "FFFFFF"), charts.SERIES_COLOURS,
+                  (charts.BELOW_CUT, charts.AT_OR_ABOVE_CUT)):
+        values = sorted(_lightness(c) for c in group)
+        assert all(b - a >= 10 for a, b in zip(values, values[1:])), (group, values)
+    assert len(set(charts.SERIES_DASHES)) == len(charts.SERIES_DASHES)
+    assert len(set(charts.SERIES_MARKERS)) == len(charts.SERIES_MARKERS)
+    assert _lightness("FFFFFF") == pytest.approx(100, abs=1e-6) and _lightness("000000") == 0
+
+
+def test_lay_out_widens_a_cut_label_and_wraps_a_long_one():
+    g = Grid("Sheet")
+    g.widths.update({1: 10, 2: 12})
+    g.set(1, 1, "Reference group (edit to compare)")
+    g.set(1, 2, 0.5)
+    g.set(2, 1, "word " * 40)
+    g.set(2, 2, 0.5)
+    printing._lay_out_grid(g, "T", "2026-01-01", '#,##0 "USD"')
+    assert g.widths[1] >= len("Reference group (edit to compare)") * printing.CHAR_UNITS
+    assert (2, 1) in g.wrapped and (1, 1) not in g.wrapped
+    assert g.heights[2] >= 3 * printing.LINE_PT  # 200 characters in a column of 64 units: at least 3 lines
+
+
+def test_lay_out_moves_a_chart_off_text_and_breaks_before_a_block_that_would_not_fit():
+    g = Grid("Sheet")
+    for r in range(1, 30):
+        g.set(r, 1, f"row {r}")
+    for r in range(32, 60):
+        g.set(r, 1, f"second table {r}")
+    chart = charts.item_map(charts.Reference(range_string="'Sheet'!$B$1:$B$3"),
+                            charts.Reference(range_string="'Sheet'!$C$1:$C$3"))
+    g.charts.append((chart, "A5"))
+    printing._lay_out_grid(g, "T", "2026-01-01", '#,##0 "USD"')
+    anchor_row = int(re.sub(r"[A-Z]+", "", g.charts[0][1]))
+    assert anchor_row >= 60  # below the text it covered (both tables have text in column A)
+    assert g.page.scale >= printing.MIN_SCALE
+    assert g.page.breaks  # three blocks of about 29 rows and a chart do not fit on one page
+
+
+def test_lay_out_keeps_chart_data_columns_out_of_print():
+    g = Grid("Sheet")
+    g.set(1, 1, "label")
+    g.set(1, 2, 1.0)
+    g.set(1, 20, "chart data")  # after a gap of more than three empty columns
+    printing._lay_out_grid(g, "T", "2026-01-01", '#,##0 "USD"')
+    assert g.page.area == "A1:B1"
+
+
+# ---------------------------------------------------------------- LibreOffice's PDF
+
+def _stated_pages() -> tuple[int, int]:
+    """The page counts the README states for the demo study and its values copy."""
+    text = (ROOT / "README.md").read_text(encoding="utf-8")
+    m = re.search(r"prints on at most (\d+) pages \(LibreOffice's PDF export\); its `recalc --values` copy on at "
+                  r"most (\d+)", text)
+    assert m, "the README states the demo study's page count"
+    return int(m.group(1)), int(m.group(2))
+
+
+def _fixture_book(path: Path) -> Path:
+    """A small workbook made to break each check: a label cut by its neighbour, a wrapped header in a row too
+    low for it (it covers the next row), and five pages of rows."""
+    wb = Workbook()
+    ws = wb.active
+    ws.title = "Broken"
+    ws.column_dimensions["A"].width = 10
+    ws["A1"] = "Reference group (edit to compare with another)"
+    ws["B1"] = 0.25
+    ws["A3"] = "Difficulty (proportion correct) of the item among all applicants"
+    ws["A3"].alignment = Alignment(wrap_text=True, vertical="top")
+    ws.row_dimensions[3].height = 15
+    ws["A4"] = "firstdatarow"
+    for r in range(10, 260):
+        ws.cell(r, 1, r)
+    ws.oddHeader.right.text = "&A"
+    wb.save(path)
+    return path
+
+
+@pytest.fixture(scope="module")
+def fixture_pages(tmp_path_factory, soffice):
+    folder = tmp_path_factory.mktemp("print_fixture")
+    book = _fixture_book(folder / "broken.xlsx")
+    pdf = to_pdf(soffice, book, folder, folder / "profile")
+    return book, pdf_pages(pdf)
+
+
+def test_the_checks_fail_on_a_broken_workbook(fixture_pages):
+    book, pages = fixture_pages
+    assert page_sheets(pages)[0] == "Broken"
+    cut = cut_cells(book, pages)
+    assert ("Broken", "A1", "(edit") in cut or ("Broken", "A1", "group") in cut, cut
+    found = overlaps(pages)
+    assert any("firstdatarow" in (a, b) for _, a, b in found), found
+    assert len(pages) > 3  # over a limit of 3 pages
+
+
+@pytest.fixture(scope="module")
+def demo_pdfs(tmp_path_factory, soffice):
+    if shutil.which("pdftotext") is None:
+        pytest.skip("pdftotext (poppler-utils) is not installed")
+    from trueband.bridge.study.build import make_study
+
+    folder = tmp_path_factory.mktemp("print_demo")
+    study = make_study(ROOT / "workbooks" / "demo" / "osterfell-applicants.xlsx", folder / "study.xlsx").path
+    values = folder / "values.xlsx"
+    subprocess.run([sys.executable, "-m", "trueband.bridge", "recalc", str(study), "--values", "-o", str(values)],
+                   check=True, capture_output=True, timeout=900)
+    profile = folder / "profile"
+    return {name: (book, pdf_pages(to_pdf(soffice, book, folder / name, profile)))
+            for name, book in (("study", study), ("values", values))}
+
+
+@pytest.mark.parametrize("which", ["study", "values"])
+def test_demo_prints_without_text_over_text(demo_pdfs, which):
+    _, pages = demo_pdfs[which]
+    assert overlaps(pages) == []
+
+
+@pytest.mark.parametrize("which", ["study", "values"])
+def test_demo_prints_every_cell_whole(demo_pdfs, which):
+    book, pages = demo_pdfs[which]
+    assert cut_cells(book, pages) == []
+
+
+@pytest.mark.parametrize("which", ["study", "values"])
+def test_demo_pages_within_the_readme(demo_pdfs, which):
+    book, pages = demo_pdfs[which]
+    limit = _stated_pages()[0 if which == "study" else 1]
+    assert len(pages) <= limit
+    printed = set(page_sheets(pages))
+    wb = load_workbook(book, read_only=True)
+    # the per-applicant sheets are out of the default print; every analysis sheet prints
+    assert not printed & {"Bands", "Scored items", "Applicants"}
+    assert {"Summary", "Reliability", "Items", "Validity", "Impact", "Notes"} <= printed
+    wb.close()
+
+
+def test_demo_pages_carry_header_and_footer(demo_pdfs):
+    _, pages = demo_pdfs["study"]
+    first = " ".join(w[4] for w in pages[0]["words"])
+    assert "Validation study:" in first and f"Page 1 of {len(pages)}" in first and "trueband" in first
+    assert re.search(r"Built \d{4}-\d{2}-\d{2}", first)
