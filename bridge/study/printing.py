@@ -262,6 +262,8 @@ def _chart_boxes(s: _Sheet) -> list[list[float]]:
             r += 1
         x0 = s.x(c)
         x1 = x0 + width
+        if r - 1 in s.by_row:  # an empty row above every chart (a page may break there)
+            r += 1
         while True:
             last = _rows_for(s, r, height)
             hit = [rr for rr in range(r, last + 1) if _text_in(s, rr, x0, x1)]
@@ -306,20 +308,24 @@ def _right_edge(s: _Sheet, boxes) -> float:
 
 
 def _blocks(s: _Sheet, boxes) -> list[tuple[int, int]]:
-    """Runs of rows holding something (cells, charts), a lone heading joined to the run below it."""
-    used = set(s.by_row)
-    for b in boxes:
-        used.update(range(int(b[2]), int(b[3]) + 1))
+    """Runs of rows holding cells, and each chart with the runs beside it (a chart under a run is a block of its
+    own, so that a break can fall between them); a lone heading joins the block below it."""
     runs: list[list[int]] = []
-    for r in sorted(used):
+    for r in sorted(s.by_row):
         if runs and r == runs[-1][1] + 1:
             runs[-1][1] = r
         else:
             runs.append([r, r])
+    for b in boxes:
+        first, last = int(b[2]), int(b[3])
+        beside = [run for run in runs if run[0] <= last and first <= run[1]]
+        runs = [run for run in runs if run not in beside]
+        runs.append([min([first] + [run[0] for run in beside]), max([last] + [run[1] for run in beside])])
+    runs.sort()
     merged: list[list[int]] = []
     for run in runs:
-        if merged and _lone_heading(s, merged[-1]):
-            merged[-1][1] = run[1]
+        if merged and (run[0] <= merged[-1][1] or _lone_heading(s, merged[-1])):
+            merged[-1][1] = max(merged[-1][1], run[1])
         else:
             merged.append(run)
     return [(a, b) for a, b in merged]
@@ -343,7 +349,7 @@ def _scale(s: _Sheet, blocks, width_pt: float) -> int:
     return max(MIN_SCALE, int(math.floor(scale)))
 
 
-def _breaks(s: _Sheet, blocks, scale: int) -> tuple[list[int], int | None]:
+def _breaks(s: _Sheet, blocks, scale: int, chart_rows=frozenset()) -> tuple[list[int], int | None]:
     """Page breaks (the last row of a page) before each block that would not fit on the rest of its page; the
     header row to repeat when a block is taller than a page."""
     page = PRINT_HEIGHT_PT * 100 / scale
@@ -352,8 +358,11 @@ def _breaks(s: _Sheet, blocks, scale: int) -> tuple[list[int], int | None]:
         gap = _height(s, end + 1, a - 1)
         tall = _height(s, a, b)
         if y > 0 and y + gap + tall > page and tall <= page:  # a block taller than a page splits anyway
-            breaks.append(a - 1)
-            y = 0.0
+            # a chart at the top of a page keeps an empty row above it: LibreOffice places a chart by its drawn
+            # position, and a chart touching the break leaks onto the page before (clipped, but in its text)
+            cut = a - 2 if a in chart_rows and a - 1 not in s.by_row and a - 2 >= end else a - 1
+            breaks.append(cut)
+            y = _height(s, cut + 1, a - 1)
         else:
             y += gap
         if repeat is None and y + tall > page:  # the block runs over: repeat the header of the table it splits
@@ -380,7 +389,7 @@ def _lay_out_grid(grid: Grid, title: str, built: str, money: str) -> None:
     blocks = _blocks(s, boxes)
     width_pt = _right_edge(s, boxes)
     scale = _scale(s, blocks, width_pt)
-    breaks, repeat = _breaks(s, blocks, scale)
+    breaks, repeat = _breaks(s, blocks, scale, {int(b[2]) for b in boxes})
     last_row = max([s.rows] + [int(b[3]) for b in boxes])
     area = f"A1:{get_column_letter(s.column_at(width_pt))}{last_row}"
     grid.print_area = None  # the sheet module's own range gives way to the measured one
