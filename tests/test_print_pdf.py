@@ -194,3 +194,46 @@ def test_demo_pages_carry_header_and_footer(demo_pdfs):
     first = " ".join(w[4] for w in pages[0]["words"])
     assert "Validation study:" in first and f"Page 1 of {len(pages)}" in first and "trueband" in first
     assert re.search(r"Built \d{4}-\d{2}-\d{2}", first)
+
+
+# ---------------------------------------------------------------- the currency setting and the print setup of a study
+
+def _small_study(tmp_path, **more):
+    from test_study_setup import SETUP, small_table, write_book
+    from trueband.bridge.study.build import build_study
+
+    header, rows = small_table()
+    book = write_book(tmp_path / "data.xlsx", header, rows, {**SETUP, **more})
+    return build_study(read_study_data(book), tmp_path / "study.xlsx").path
+
+
+def _money_formats(path):
+    wb = load_workbook(path)
+    return {ws["B16"].number_format for ws in [wb["Utility"]]}
+
+
+def read_study_data(book):
+    from trueband.bridge.study.data_workbook import read_study_data as read
+    return read(book)
+
+
+def test_money_shows_the_currency_setting_and_usd_by_default(tmp_path):
+    (tmp_path / "a").mkdir()
+    (tmp_path / "b").mkdir()
+    assert _money_formats(_small_study(tmp_path / "a")) == {'#,##0 "USD"'}
+    assert _money_formats(_small_study(tmp_path / "b", currency="€")) == {'"€"#,##0'}
+
+
+def test_a_bad_currency_names_the_setting(tmp_path):
+    with pytest.raises(SetupError, match="currency"):
+        _small_study(tmp_path, currency='E"UR')
+
+
+def test_study_sheets_print_with_header_footer_and_the_data_out_of_print(tmp_path):
+    wb = load_workbook(_small_study(tmp_path))
+    summary = wb["Summary"]
+    assert summary.page_setup.orientation == "landscape" and summary.page_setup.scale >= printing.MIN_SCALE
+    assert summary.oddFooter.center.text == "Page &P of &N" and summary.oddHeader.right.text == "&A"
+    assert summary.oddHeader.left.text.startswith("Validation study")
+    for title in ("Candidates", "Bands"):
+        assert wb[title].print_area == f"'{title}'!$AMJ$1"

@@ -67,7 +67,7 @@ UNIT_PT = 7.0
 CHAR_UNITS = 0.85
 #: Units one character of a word that must not break takes: a digit is one unit by definition, and a header is
 #: bold.
-WORD_UNITS = 1.1
+WORD_UNITS = 1.2
 #: A label longer than this (in units of column width) wraps inside its cell instead of widening the column.
 MAX_LABEL_UNITS = 64.0
 #: The widest a column right of column A grows for a text in a table (a "not computable" reason...): longer
@@ -75,6 +75,8 @@ MAX_LABEL_UNITS = 64.0
 MAX_TABLE_TEXT_UNITS = 24.0
 #: Width of a cell that holds a number or a formula, at least.
 NUMBER_UNITS = 11.0
+#: Width of a column of numbers in a sheet too wide for a page: "< 0.0001", "-0.123", "100.0%" and a margin.
+COMPACT_NUMBER_UNITS = 8.5
 #: The print range of a sheet kept out of the default print: one cell that stays empty (column 1024, the last
 #: column of every LibreOffice version).
 OUT_OF_PRINT = "AMJ1"
@@ -193,7 +195,13 @@ def _fit_columns(s: _Sheet) -> None:
             continue
         right = _next_filled(s, r, c)
         if right is None:
-            continue  # the text runs on over the empty cells to its right (its width counts for the scale)
+            # the text runs on over the empty cells to its right (its width counts for the scale), unless, right of
+            # column A, it would run past a page's width: then it wraps in its column
+            need = _units(value, style) + 1.0
+            if c > 1 and s.x(c) + need * UNIT_PT > PRINT_WIDTH_PT:
+                g.widths[c] = max(s.width(c), min(MAX_TABLE_TEXT_UNITS, need))
+                g.wrapped.add((r, c))
+            continue
         room = sum(s.width(k) for k in range(c, right))
         need = _units(value, style) + 1.0
         if need <= room:
@@ -215,16 +223,16 @@ def _compact(s: _Sheet) -> None:
     for (r, c), (value, style) in s.g.cells.items():
         if c == 1 or c > s.cols:
             continue
-        if style == "header":
-            least = max((len(w) for w in str(value).split()), default=0) * WORD_UNITS + 2.0
+        if style == "header":  # LibreOffice breaks a header's words after a hyphen or dash too (not a slash)
+            least = max((len(w) for w in re.split(r"\s+|(?<=[-–])", str(value))), default=0) * WORD_UNITS + 2.0
         elif isinstance(value, str) and not value.startswith("="):  # a label keeps its width, a wrapped text
             longest = max((len(w) for w in value.split()), default=0) * WORD_UNITS + 2.0  # its longest word
             least = max(longest, 14.0) if (r, c) in s.g.wrapped else s.width(c)
         else:
-            least = NUMBER_UNITS - 1.5
+            least = COMPACT_NUMBER_UNITS
         need[c] = max(need.get(c, 0.0), least)
     for c, least in need.items():
-        s.g.widths[c] = min(s.width(c), max(least, NUMBER_UNITS - 1.5))
+        s.g.widths[c] = min(s.width(c), max(least, COMPACT_NUMBER_UNITS))
 
 
 def _next_filled(s: _Sheet, r: int, c: int) -> int | None:
