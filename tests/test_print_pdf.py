@@ -237,3 +237,17 @@ def test_study_sheets_print_with_header_footer_and_the_data_out_of_print(tmp_pat
     assert summary.oddHeader.left.text.startswith("Validation study")
     for title in ("Candidates", "Bands"):
         assert wb[title].print_area == f"'{title}'!$AMJ$1"
+
+
+def test_a_sheet_wider_than_a_page_repeats_its_label_column():
+    g = Grid("Sheet")
+    g.set(1, 1, "label")
+    for c in range(2, 40):
+        g.set(1, c, 1.0)  # 38 columns of numbers: wider than a page at the lowest scale
+    printing._lay_out_grid(g, "T", "2026-01-01", '#,##0 "USD"')
+    assert g.page.label_column and g.page.scale == printing.MIN_SCALE
+    narrow = Grid("Narrow")
+    narrow.set(1, 1, "label")
+    narrow.set(1, 2, 1.0)
+    printing._lay_out_grid(narrow, "T", "2026-01-01", '#,##0 "USD"')
+    assert not narrow.page.label_column

@@ -106,6 +106,7 @@ class PageLayout:
     breaks: list[int]
     title: str
     built: str
+    label_column: bool = False  # wider than a page at the lowest scale: column A repeats on the pages to the right
 
     def apply(self, ws) -> None:
         ws.page_setup.orientation = "landscape"
@@ -117,6 +118,8 @@ class PageLayout:
             ws.print_area = self.area
         if self.title_rows:
             ws.print_title_rows = f"{self.title_rows}:{self.title_rows}"
+        if self.label_column:
+            ws.print_title_cols = "A:A"
         for row in self.breaks:
             ws.row_breaks.append(Break(id=row))
         header_footer(ws, self.title, self.built)
@@ -401,7 +404,8 @@ def _lay_out_grid(grid: Grid, title: str, built: str, money: str) -> None:
     last_row = max([s.rows] + [int(b[3]) for b in boxes])
     area = f"A1:{get_column_letter(s.column_at(width_pt))}{last_row}"
     grid.print_area = None  # the sheet module's own range gives way to the measured one
-    grid.page = PageLayout(scale, area, repeat, breaks, title, built)
+    wide = width_pt * MIN_SCALE / 100 > PRINT_WIDTH_PT
+    grid.page = PageLayout(scale, area, repeat, breaks, title, built, label_column=wide)
 
 
 def lay_out(ctx: Any) -> None:
