@@ -199,9 +199,9 @@ def _fit_columns(s: _Sheet) -> None:
         right = _next_filled(s, r, c)
         if right is None:
             # the text runs on over the empty cells to its right (its width counts for the scale), unless, right of
-            # column A, it would run past a page's width: then it wraps in its column
+            # column A, it would run past a page's width at the lowest scale: then it wraps in its column
             need = _units(value, style) + 1.0
-            if c > 1 and s.x(c) + need * UNIT_PT > PRINT_WIDTH_PT:
+            if c > 1 and s.x(c) + need * UNIT_PT > PRINT_WIDTH_PT * 100 / MIN_SCALE:
                 g.widths[c] = max(s.width(c), min(MAX_TABLE_TEXT_UNITS, need))
                 g.wrapped.add((r, c))
             continue
