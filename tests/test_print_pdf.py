@@ -251,3 +251,53 @@ def test_a_sheet_wider_than_a_page_repeats_its_label_column():
     narrow.set(1, 2, 1.0)
     printing._lay_out_grid(narrow, "T", "2026-01-01", '#,##0 "USD"')
     assert not narrow.page.label_column
+
+
+# ---------------------------------------------------------------- the templates and the charts take the study's palette
+
+def _fills_and_inks(path):
+    wb = load_workbook(path)
+    fills, inks, inputs = set(), set(), []
+    for ws in wb.worksheets:
+        for row in ws.iter_rows():
+            for c in row:
+                if c.fill is not None and c.fill.fill_type == "solid":
+                    fills.add(str(c.fill.fgColor.rgb)[-6:].upper())
+                    if str(c.fill.fgColor.rgb)[-6:].upper() == INPUT_FILL:
+                        inputs.append(c)
+                if c.font is not None and c.font.color is not None and isinstance(c.font.color.rgb, str):
+                    inks.add(c.font.color.rgb[-6:].upper())
+    return fills, inks, inputs
+
+
+@pytest.mark.parametrize("make", ["study_data_workbook", "scoring_template", "impact_template"])
+def test_templates_use_the_study_palette(tmp_path, make):
+    from trueband.bridge.study import templates
+    from trueband.bridge.study.grid import CAUTION_INK
+    from trueband.bridge.study.demo import make_demo
+
+    path = tmp_path / "t.xlsx"
+    if make == "study_data_workbook":
+        templates.study_data_workbook(path, make_demo(60), answers=True)
+    else:
+        getattr(templates, make)(path)
+    fills, inks, inputs = _fills_and_inks(path)
+    # no pale yellow or pale blue of the office suites' conventions: only the palette's header and input fills
+    assert fills and fills <= {HEADER_FILL, INPUT_FILL}, fills
+    assert inks <= {INK, CAUTION_INK}, inks
+    assert inputs and all(c.border.left.style == "dashed" for c in inputs)  # marked in grey print too
+
+
+def test_the_cuts_chart_draws_four_fifths_as_the_palettes_dashed_dark_line():
+    import numpy as np
+    from openpyxl.chart import ScatterChart
+    from xml.etree import ElementTree
+    from trueband.bridge.study.sheets import cuts
+
+    g = Grid(cuts.SHEET)
+    chart = ScatterChart()
+    cuts._line(g, chart, 10, np.array([20.0, 30.0, 40.0]))
+    xml = chart._write()
+    text = xml if isinstance(xml, str) else ElementTree.tostring(xml).decode()
+    assert "C00000" not in text.upper() and "FF0000" not in text.upper()  # not a warning red
+    assert f'val="{INK}"' in text and 'prstDash val="dash"' in text, text

@@ -24,13 +24,23 @@ SERIES_MARKERS = ("circle", "triangle", "square", "diamond", "x", "plus")
 #: Columns of the score chart: below the cut light, at or above it dark (passing is not shown as a warning).
 BELOW_CUT, AT_OR_ABOVE_CUT = "D2C29A", INK
 
-__all__ = ["SERIES_COLOURS", "SERIES_DASHES", "SERIES_MARKERS", "BELOW_CUT", "AT_OR_ABOVE_CUT", "score_vs_criterion", "score_distribution", "selection_rates", "item_map", "area", "group_lines"]
+__all__ = ["SERIES_COLOURS", "SERIES_DASHES", "SERIES_MARKERS", "BELOW_CUT", "AT_OR_ABOVE_CUT", "score_vs_criterion", "score_distribution", "selection_rates", "item_map", "area", "group_lines",
+           "threshold_line"]
 
 
 def area(ref) -> Reference:
     """A chart reference to the cells of a :class:`.context.Ref`, absolute and by sheet name (sheets are written
     in streaming mode)."""
     return Reference(range_string=ref.qualified().address(ref.sheet))
+
+
+def threshold_line(series: Series) -> Series:
+    """A threshold drawn as a line (the four-fifths line): the palette's dark ink, dashed and 2.25 pt wide, no
+    markers, so that it reads in grey print and is told from the data series by its dashes, not by a warning hue."""
+    series.marker.symbol = "none"
+    series.smooth = False
+    series.graphicalProperties = GraphicalProperties(ln=LineProperties(solidFill=INK, w=28575, prstDash="dash"))
+    return series
 
 
 def _axes(chart, x_title: str, y_title: str):

@@ -10,7 +10,7 @@ from openpyxl.cell import WriteOnlyCell
 from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 from openpyxl.utils import get_column_letter
 
-__all__ = ["Grid", "P_FORMAT", "STYLES", "styled", "quote", "INK", "HEADER_FILL", "INPUT_FILL", "CAUTION_INK", "NA_INK"]
+__all__ = ["Grid", "P_FORMAT", "STYLES", "styled", "quote", "INK", "HEADER_FILL", "INPUT_FILL", "CAUTION_INK", "NA_INK", "INPUT_BORDER"]
 
 #: p values to four decimals, and "< 0.0001" below that rather than a misleading 0.0000 (a conditional
 #: number format that LibreOffice and other spreadsheet apps read alike)
@@ -26,6 +26,8 @@ NA_INK = "8C1C13"         # "not computable" (italic as well as coloured)
 _INPUT_EDGE = Side(style="dashed", color=INK)
 _INPUT_BORDER = Border(left=_INPUT_EDGE, right=_INPUT_EDGE, top=_INPUT_EDGE, bottom=_INPUT_EDGE)
 _INPUT_FILL = PatternFill("solid", fgColor=INPUT_FILL)
+#: The dashed border of input cells (the templates mark their input cells the same way)
+INPUT_BORDER = _INPUT_BORDER
 
 STYLES: dict[str, dict[str, Any]] = {
     "title": {"font": Font(bold=True, size=14, color=INK)},
