@@ -4,6 +4,8 @@
   chart over a note);
 - :func:`cut_cells`: every word of a printed cell's text appears on the pages of its sheet (a label cut by the
   next cell, a text running off the print range, two cells' texts run together);
+- :func:`split_rows`: every printed row's text cells appear together on one page (a table whose right-hand
+  columns print on a further page is split sideways);
 - :func:`page_count`.
 
 A page's sheet is read from its header's right part, where the study prints the sheet's name (``&A``).
@@ -21,7 +23,8 @@ from pathlib import Path
 from openpyxl import load_workbook
 from openpyxl.utils import range_boundaries
 
-__all__ = ["to_pdf", "pdf_pages", "overlaps", "cut_cells", "page_count", "page_sheets", "Word"]
+__all__ = ["to_pdf", "pdf_pages", "overlaps", "cut_cells", "split_rows", "page_count", "page_sheets", "Word",
+           "printed_texts", "found"]
 
 _XHTML = "{http://www.w3.org/1999/xhtml}"
 #: Words whose boxes overlap by less than this many points across are taken as touching.
@@ -136,3 +139,25 @@ def cut_cells(book: Path, pages) -> list[tuple[str, str, str]]:
                 missing.append((sheet, coordinate, word))
                 break
     return missing
+
+
+def split_rows(book: Path, pages) -> list[tuple[str, int]]:
+    """(sheet, row) of each printed row of two or more text cells whose words are on no single page of its sheet:
+    a table split sideways (its right-hand columns on a further page)."""
+    by_page = [(name, {w[4] for w in page["words"]}) for name, page in zip(page_sheets(pages), pages)]
+    rows: dict[tuple[str, int], list[str]] = {}
+    for sheet, coordinate, text in _printed_texts(book):
+        row = int(re.sub(r"[A-Z]+", "", coordinate))
+        rows.setdefault((sheet, row), []).append(text)
+    out = []
+    for (sheet, row), texts in rows.items():
+        if len(texts) < 2:
+            continue
+        words = [w for t in texts for w in t.split()]
+        if not any(name == sheet and all(_found(w, seen) for w in words) for name, seen in by_page):
+            out.append((sheet, row))
+    return sorted(out)
+
+
+printed_texts = _printed_texts
+found = _found

@@ -506,8 +506,9 @@ def test_recalc_and_values_on_cells_written_without_references(tmp_path):
 
 
 @pytest.mark.libreoffice
-def test_libreoffice_prints_the_start_of_the_notice_on_the_first_page(demo_scoring, tmp_path, soffice):
-    # what Calc draws, not only what the cell holds: the notice's first words on the sheet's first page
+def test_libreoffice_prints_every_line_of_the_notice(demo_scoring, tmp_path, soffice):
+    # what Calc draws, not only what the cells hold: every line of the notice, whole, on the printed pages (issue 20:
+    # it was one long cell, cut at the page's edge; now lines as wide as the printed columns)
     import shutil
     import subprocess
 
@@ -517,10 +518,14 @@ def test_libreoffice_prints_the_start_of_the_notice_on_the_first_page(demo_scori
     profile = (tmp_path / "lo-profile").resolve().as_uri()
     subprocess.run([soffice, f"-env:UserInstallation={profile}", "--headless", "--norestore", "--convert-to", "pdf",
                     "--outdir", str(tmp_path), str(values)], check=True, capture_output=True, timeout=180)
-    first = subprocess.run(["pdftotext", "-l", "1", str(tmp_path / (values.stem + ".pdf")), "-"],
-                           capture_output=True, text=True, check=True).stdout
-    flat = " ".join(first.split())
-    assert f"{vm.NOTICE_OPENING} trueband results in this file do not follow edits of their inputs" in flat
+    printed = subprocess.run(["pdftotext", "-layout", str(tmp_path / (values.stem + ".pdf")), "-"],
+                             capture_output=True, text=True, check=True).stdout
+    wb = openpyxl.load_workbook(values)
+    for sheet, cell, _ in _notices(values):
+        row, col = split_ref(cell)
+        for line in _lines_from(wb[sheet], row, col):
+            assert " ".join(line.split()) in {" ".join(x.split()) for x in printed.splitlines()} or \
+                " ".join(line.split()) in " ".join(printed.split()), (sheet, line)
 
 
 def test_a_sheet_without_a_safe_cell_gets_no_notice_and_the_summary_says_so(tmp_path, capsys):

@@ -46,7 +46,7 @@ from ..workbook.xml_text import escape_text, unescape_xml
 from .values import EMPTY
 
 __all__ = ["Notice", "NOTICE_OPENING", "NOTICE_ITEMS", "notice_text", "frozen_inputs", "reader_of", "kept_areas",
-           "place_notice", "notice_lines", "place_lines", "printed_width", "PRINT_AREA", "PrintRange", "place_on_sheet",
+           "place_notice", "notice_lines", "place_lines", "printed_width", "page_width", "PRINT_AREA", "PrintRange", "place_on_sheet",
            "print_range", "set_print_range", "take_out"]
 
 
@@ -329,6 +329,31 @@ def printed_width(xml: bytes, c1: int, c2: int) -> float:
     return sum(widths.values())
 
 
+_PAGE_SETUP = re.compile(rb"<(?:[\w.-]+:)?pageSetup\b([^>]*)/?>")
+_MARGINS = re.compile(rb"<(?:[\w.-]+:)?pageMargins\b([^>]*)/?>")
+_NUMBER_ATTR = re.compile(rb'\b(scale|orientation|left|right)\s*=\s*["\']([^"\']*)["\']')
+#: Points of one unit of column width in print (one digit of the default font: 7 pt as LibreOffice prints
+#: Calibri 11 with DejaVu Sans, measured by ``study/printing.py``; narrower fonts leave room).
+UNIT_PT = 7.0
+
+
+def page_width(xml: bytes) -> float:
+    """The width of one printed page of the sheet in column-width units: the smaller of A4 and US Letter in the
+    sheet's orientation, less its side margins (0.7 inch when it states none), at its print scale."""
+    attrs = {}
+    for pattern in (_PAGE_SETUP, _MARGINS):
+        m = pattern.search(xml)
+        if m:
+            attrs.update({k.decode(): v.decode() for k, v in _NUMBER_ATTR.findall(m.group(1))})
+    try:
+        scale = min(400.0, max(10.0, float(attrs.get("scale", 100))))
+        sides = float(attrs.get("left", 0.7)) + float(attrs.get("right", 0.7))
+    except ValueError:
+        scale, sides = 100.0, 1.4
+    inches = (11.0 if attrs.get("orientation") == "landscape" else 8.27) - sides
+    return max(inches, 1.0) * 72 / UNIT_PT * 100 / scale
+
+
 def notice_lines(text: str, width: float) -> list[str]:
     """The notice as lines that fit ``width`` column-width units (at least ``LINE_CHARS[0]`` characters a line).
 
@@ -377,7 +402,7 @@ def place_on_sheet(pkg, changes, info, xml: bytes, text: str, is_read):
         raw = area = None  # one cell: the sheet is kept out of print (the study's per-applicant sheets)
     used = sheet_read.used_range(xml, pkg.shared_strings)
     c1, c2 = (area[1], area[3]) if area is not None else (used[1], used[3]) if used is not None else (1, 8)
-    lines = notice_lines(text, printed_width(xml, c1, c2))
+    lines = notice_lines(text, min(printed_width(xml, c1, c2), page_width(xml)))  # the columns on one page
     where = place_lines(xml, pkg.shared_strings, info.name, is_read, kept_areas(pkg, info, xml), len(lines), area)
     if where is None:
         return None

@@ -77,6 +77,11 @@ MAX_TABLE_TEXT_UNITS = 24.0
 NUMBER_UNITS = 11.0
 #: Width of a column of numbers in a sheet too wide for a page: "< 0.0001", "-0.123", "100.0%" and a margin.
 COMPACT_NUMBER_UNITS = 8.5
+#: Units a character of a bold header's word takes when a sheet too wide for a page narrows its columns: DejaVu
+#: Sans bold, the widest common case (0.85 for plain text, a tenth more for bold; measured as CHAR_UNITS).
+HEADER_WORD_UNITS = 0.95
+#: Width of an empty column between tables of a sheet too wide for a page.
+EMPTY_COLUMN_UNITS = 2.0
 #: The print range of a sheet kept out of the default print: one cell that stays empty (column 1024, the last
 #: column of every LibreOffice version).
 OUT_OF_PRINT = "AMJ1"
@@ -222,20 +227,32 @@ def _compact(s: _Sheet) -> None:
     numbers and their header's longest word need."""
     if _right_edge(s, []) <= PRINT_WIDTH_PT * 100 / MIN_SCALE:
         return
-    need: dict[int, float] = {}
+    need: dict[int, float] = {c: EMPTY_COLUMN_UNITS for c in range(2, s.cols + 1)}  # an empty column: a narrow gap
+    labels: list[tuple[int, int, float]] = []
     for (r, c), (value, style) in s.g.cells.items():
         if c == 1 or c > s.cols:
             continue
         if style == "header":  # LibreOffice breaks a header's words after a hyphen or dash too (not a slash)
-            least = max((len(w) for w in re.split(r"\s+|(?<=[-–])", str(value))), default=0) * WORD_UNITS + 2.0
-        elif isinstance(value, str) and not value.startswith("="):  # a label keeps its width, a wrapped text
-            longest = max((len(w) for w in value.split()), default=0) * WORD_UNITS + 2.0  # its longest word
-            least = max(longest, 14.0) if (r, c) in s.g.wrapped else s.width(c)
+            words = re.split(r"\s+|(?<=[-–])", str(value))
+            least = max((len(w) for w in words), default=0) * HEADER_WORD_UNITS + 1.5
+        elif isinstance(value, str) and not value.startswith("="):  # a text needs its longest word: it wraps
+            longest = max((len(w) for w in value.split()), default=0) * HEADER_WORD_UNITS + 1.5
+            if (r, c) in s.g.wrapped:
+                least = max(longest, 10.0)
+            elif _next_filled(s, r, c) is None:  # runs on over the empty cells to its right
+                least = EMPTY_COLUMN_UNITS
+            else:  # a label the next cell would cut: it wraps when its column narrows below its width
+                least = longest
+                labels.append((r, c, _units(value, style) + 1.0))
         else:
             least = COMPACT_NUMBER_UNITS
         need[c] = max(need.get(c, 0.0), least)
     for c, least in need.items():
-        s.g.widths[c] = min(s.width(c), max(least, COMPACT_NUMBER_UNITS))
+        floor = COMPACT_NUMBER_UNITS if least > EMPTY_COLUMN_UNITS else EMPTY_COLUMN_UNITS
+        s.g.widths[c] = min(s.width(c), max(least, floor))
+    for r, c, full in labels:
+        if full > s.width(c):
+            s.g.wrapped.add((r, c))
 
 
 def _next_filled(s: _Sheet, r: int, c: int) -> int | None:
