@@ -77,9 +77,10 @@ MAX_TABLE_TEXT_UNITS = 24.0
 NUMBER_UNITS = 11.0
 #: Width of a column of numbers in a sheet too wide for a page: "< 0.0001", "-0.123", "100.0%" and a margin.
 COMPACT_NUMBER_UNITS = 8.5
-#: Units a character of a bold header's word takes when a sheet too wide for a page narrows its columns: DejaVu
-#: Sans bold, the widest common case (0.85 for plain text, a tenth more for bold; measured as CHAR_UNITS).
-HEADER_WORD_UNITS = 0.95
+#: Units a character of a bold header's word takes when a sheet too wide for a page narrows its columns: 0.95
+#: cut "Category," and 1.05 cut ".035/.070)" of the DIF sheet in LibreOffice's PDF (it breaks such words
+#: itself); WORD_UNITS prints every header word of the demo whole.
+HEADER_WORD_UNITS = WORD_UNITS
 #: Width of an empty column between tables of a sheet too wide for a page.
 EMPTY_COLUMN_UNITS = 2.0
 #: The print range of a sheet kept out of the default print: one cell that stays empty (column 1024, the last
@@ -234,7 +235,7 @@ def _compact(s: _Sheet) -> None:
             continue
         if style == "header":  # LibreOffice breaks a header's words after a hyphen or dash too (not a slash)
             words = re.split(r"\s+|(?<=[-–])", str(value))
-            least = max((len(w) for w in words), default=0) * HEADER_WORD_UNITS + 1.5
+            least = max((len(w) for w in words), default=0) * HEADER_WORD_UNITS + 2.0
         elif isinstance(value, str) and not value.startswith("="):  # a text needs its longest word: it wraps
             longest = max((len(w) for w in value.split()), default=0) * HEADER_WORD_UNITS + 1.5
             if (r, c) in s.g.wrapped:
@@ -244,6 +245,8 @@ def _compact(s: _Sheet) -> None:
             else:  # a label the next cell would cut: it wraps when its column narrows below its width
                 least = longest
                 labels.append((r, c, _units(value, style) + 1.0))
+        elif isinstance(value, str) and "&" in value:  # a formula that builds a text: its width is unknown here
+            least = s.width(c)
         else:
             least = COMPACT_NUMBER_UNITS
         need[c] = max(need.get(c, 0.0), least)
