@@ -343,3 +343,20 @@ def test_the_cuts_chart_draws_four_fifths_as_the_palettes_dashed_dark_line():
     text = xml if isinstance(xml, str) else ElementTree.tostring(xml).decode()
     assert "C00000" not in text.upper() and "FF0000" not in text.upper()  # not a warning red
     assert f'val="{INK}"' in text and 'prstDash val="dash"' in text, text
+
+
+def test_a_sheet_too_wide_narrows_empty_columns_and_wraps_labels_but_keeps_built_texts():
+    g = Grid("Wide")
+    g.set(1, 1, "label")
+    for c in range(2, 30):
+        if c != 5:  # column E stays empty: a gap between tables
+            g.set(2, c, "=1+1", "coef")
+    g.set(3, 2, "a label with several words", None)  # cut by the next cell: wraps when its column narrows
+    g.set(3, 3, 1.0)
+    g.set(4, 6, '=A1&" ("&B1&")"')  # a formula that builds a text: its width is unknown, so it is kept
+    g.widths[6] = 16.0
+    printing._lay_out_grid(g, "T", "2026-01-01", '#,##0 "USD"')
+    assert g.widths[5] == printing.EMPTY_COLUMN_UNITS
+    assert (3, 2) in g.wrapped and g.widths[2] < len("a label with several words") * printing.CHAR_UNITS
+    assert g.widths[6] == 16.0
+    assert g.heights[3] >= 2 * printing.LINE_PT  # the wrapped label gets its lines
