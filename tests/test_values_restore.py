@@ -347,10 +347,27 @@ def test_restore_takes_out_a_hidden_sheet_entry_written_with_single_quotes(forms
 
 
 def _notices(path):
-    """(sheet, cell, text) of every cell that holds a values notice, as openpyxl (a reference reader) sees them."""
+    """(sheet, first cell, text) of every values notice, as openpyxl (a reference reader) sees them: the cell that
+    opens it and its lines in the cells under it, joined."""
     wb = openpyxl.load_workbook(path)
-    return [(ws.title, c.coordinate, c.value) for ws in wb.worksheets if ws.title != vm.FORMULA_SHEET
-            for row in ws.iter_rows() for c in row if isinstance(c.value, str) and c.value.startswith(vm.NOTICE_OPENING)]
+    found = []
+    for ws in wb.worksheets:
+        if ws.title == vm.FORMULA_SHEET:
+            continue
+        for row in ws.iter_rows():
+            for c in row:
+                if isinstance(c.value, str) and c.value.startswith(vm.NOTICE_OPENING):
+                    found.append((ws.title, c.coordinate, " ".join(_lines_from(ws, c.row, c.column))))
+    return found
+
+
+def _lines_from(ws, row, col):
+    """The notice's lines: the text cells from (row, col) down, until an empty cell."""
+    lines = []
+    while isinstance(ws.cell(row, col).value, str) and ws.cell(row, col).value:
+        lines.append(ws.cell(row, col).value)
+        row += 1
+    return lines
 
 
 def test_every_sheet_of_a_values_file_says_its_values_are_fixed(forms, tmp_path):
@@ -430,8 +447,14 @@ def test_libreoffice_shows_the_notice_on_every_sheet(demo_scoring, tmp_path, sof
         expected = _notices(values)
         assert expected, book.name
         shown = gb.libreoffice_csv(soffice, values, tmp_path / ("csv-" + book.stem))
-        for sheet, cell, text in expected:
-            assert gb.csv_cell(shown[sheet], cell) == text, (book.name, sheet, cell)
+        wb = openpyxl.load_workbook(values)
+        for sheet, cell, text in expected:  # each line of the notice in its cell
+            row, col = split_ref(cell)
+            lines = _lines_from(wb[sheet], row, col)
+            assert " ".join(lines) == text
+            for k, line in enumerate(lines):
+                assert gb.csv_cell(shown[sheet], f"{openpyxl.utils.get_column_letter(col)}{row + k}") == line, \
+                    (book.name, sheet, cell, k)
 
 
 def test_restore_checks_each_recorded_formula_element(forms, tmp_path, capsys):
@@ -483,8 +506,9 @@ def test_recalc_and_values_on_cells_written_without_references(tmp_path):
 
 
 @pytest.mark.libreoffice
-def test_libreoffice_prints_the_start_of_the_notice_on_the_first_page(demo_scoring, tmp_path, soffice):
-    # what Calc draws, not only what the cell holds: the notice's first words on the sheet's first page
+def test_libreoffice_prints_every_line_of_the_notice(demo_scoring, tmp_path, soffice):
+    # what Calc draws, not only what the cells hold: every line of the notice, whole, on the printed pages (issue 20:
+    # it was one long cell, cut at the page's edge; now lines as wide as the printed columns)
     import shutil
     import subprocess
 
@@ -494,10 +518,14 @@ def test_libreoffice_prints_the_start_of_the_notice_on_the_first_page(demo_scori
     profile = (tmp_path / "lo-profile").resolve().as_uri()
     subprocess.run([soffice, f"-env:UserInstallation={profile}", "--headless", "--norestore", "--convert-to", "pdf",
                     "--outdir", str(tmp_path), str(values)], check=True, capture_output=True, timeout=180)
-    first = subprocess.run(["pdftotext", "-l", "1", str(tmp_path / (values.stem + ".pdf")), "-"],
-                           capture_output=True, text=True, check=True).stdout
-    flat = " ".join(first.split())
-    assert f"{vm.NOTICE_OPENING} trueband results in this file do not follow edits of their inputs" in flat
+    printed = subprocess.run(["pdftotext", "-layout", str(tmp_path / (values.stem + ".pdf")), "-"],
+                             capture_output=True, text=True, check=True).stdout
+    wb = openpyxl.load_workbook(values)
+    for sheet, cell, _ in _notices(values):
+        row, col = split_ref(cell)
+        for line in _lines_from(wb[sheet], row, col):
+            assert " ".join(line.split()) in {" ".join(x.split()) for x in printed.splitlines()} or \
+                " ".join(line.split()) in " ".join(printed.split()), (sheet, line)
 
 
 def test_a_sheet_without_a_safe_cell_gets_no_notice_and_the_summary_says_so(tmp_path, capsys):
@@ -549,3 +577,49 @@ def test_the_notice_never_takes_an_empty_styled_cell_and_restore_gives_back_ever
     assert main(["restore", str(tmp_path / "values.xlsx"), "-o", str(tmp_path / "back.xlsx")]) == EXIT_OK
     with zipfile.ZipFile(book) as a, zipfile.ZipFile(tmp_path / "back.xlsx") as b:
         assert b.read("xl/worksheets/sheet1.xml") == a.read("xl/worksheets/sheet1.xml")  # every byte, style and all
+
+
+def test_the_notice_prints_in_lines_inside_the_print_range_and_restore_gives_back_every_byte(tmp_path):
+    # issue 20: the notice was one unwrapped long cell beside a study sheet's print range, so it never printed. Now
+    # its lines are as wide as the printed columns, in new rows under the print range, which is extended over them;
+    # restore takes the rows out and puts the print range back, byte for byte (the workbook part with it).
+    from trueband.funcs import call
+
+    sem = call("SEM", 12.0, 0.91)
+    rows = [gb.row_xml(1, ['<c r="A1" t="inlineStr"><is><t>Dispatch scores</t></is></c>'])]
+    rows += [gb.row_xml(r, [gb.cell_xml(f"A{r}", r), gb.cell_xml(f"B{r}", sem, formula="SEM(12,0.91)"),
+                            gb.cell_xml(f"C{r}", r)]) for r in range(2, 12)]
+    rows += [gb.row_xml(20, [gb.cell_xml("K20", 1)])]  # chart data beyond the printed columns
+    cols = '<cols><col min="1" max="1" width="30" customWidth="1"/><col min="2" max="3" width="15" customWidth="1"/></cols>'
+    xml = gb.sheet_part(rows, dimension="A1:K20").replace(b"<sheetData>", cols.encode() + b"<sheetData>", 1)
+    book = gb.handmade_package(tmp_path / "printed.xlsx", [("Scores", xml)],
+                               defined_names=[("_xlnm.Print_Area", "Scores!$A$1:$C$11", 0)])
+    assert main(["recalc", "--values", str(book), "-o", str(tmp_path / "values.xlsx")]) == EXIT_OK
+    wb = openpyxl.load_workbook(tmp_path / "values.xlsx")
+    [(sheet, cell, text)] = _notices(tmp_path / "values.xlsx")
+    row, col = split_ref(cell)
+    ws = wb["Scores"]
+    lines = _lines_from(ws, row, col)
+    assert (row, col) == (13, 1) and len(lines) > 3  # under the print range, one empty row between, in column A
+    assert max(len(line) for line in lines) <= 60 / 0.95  # as wide as columns A:C (60 units), not one long cell
+    assert text.startswith(vm.NOTICE_OPENING) and text.endswith("then trueband recalc.")
+    assert ws.print_area == f"'Scores'!$A$1:$C${row + len(lines) - 1}" or \
+        ws.print_area == f"Scores!$A$1:$C${row + len(lines) - 1}"  # the print range takes in every line
+    assert main(["restore", str(tmp_path / "values.xlsx"), "-o", str(tmp_path / "back.xlsx")]) == EXIT_OK
+    with zipfile.ZipFile(book) as a, zipfile.ZipFile(tmp_path / "back.xlsx") as b:
+        for name in ("xl/worksheets/sheet1.xml", "xl/workbook.xml"):
+            assert b.read(name) == a.read(name), name  # every byte: the rows gone, the print range as it was
+
+
+def test_a_second_values_run_rewrites_the_notice_lines_and_keeps_the_first_print_range(tmp_path):
+    rows = [gb.row_xml(r, [gb.cell_xml(f"A{r}", r), gb.cell_xml(f"B{r}", 0, formula="SEM(A1,0.91)")])
+            for r in range(1, 6)]
+    book = gb.handmade_package(tmp_path / "book.xlsx", [("Scores", gb.sheet_part(rows))],
+                               defined_names=[("_xlnm.Print_Area", "Scores!$A$1:$B$5", 0)])
+    assert main(["recalc", "--values", str(book), "-o", str(tmp_path / "once.xlsx")]) == EXIT_OK
+    assert main(["recalc", "--values", str(tmp_path / "once.xlsx"), "-o", str(tmp_path / "twice.xlsx")]) == EXIT_OK
+    assert len(_notices(tmp_path / "twice.xlsx")) == 1  # the first run's lines taken out, not left above the new
+    assert main(["restore", str(tmp_path / "twice.xlsx"), "-o", str(tmp_path / "back.xlsx")]) == EXIT_OK
+    with zipfile.ZipFile(book) as a, zipfile.ZipFile(tmp_path / "back.xlsx") as b:
+        assert b.read("xl/workbook.xml") == a.read("xl/workbook.xml")
+    assert _notices(tmp_path / "back.xlsx") == []

@@ -13,9 +13,12 @@ attributes). Formulas that only use standard functions stay formulas.
 cell's current value, removes the hidden sheet (its part, its ``<sheet>``
 entry, its relationship and content type) and drops the calculation chain.
 
-Each sheet of a values file also gets a notice cell saying that those values
-are fixed (:mod:`~trueband.bridge.engine.values_notice` says why a notice and where
-it goes); it is recorded in the hidden sheet too, and restore takes it out.
+Each sheet of a values file also gets a notice saying that those values are
+fixed, in lines as wide as the sheet's printed columns, in new rows under its
+print range, which is extended over them (:mod:`~trueband.bridge.engine.values_notice`
+says why a notice and where it goes); the lines and the print range as it was
+are recorded in the hidden sheet too, and restore takes them out and puts the
+print range back.
 
 Package edits made here, all as byte edits of the small parts involved:
 ``xl/workbook.xml`` (a ``<sheet>`` appended at the end, so the positions that
@@ -38,7 +41,8 @@ from ..formulas.names import uses_registered_function
 from ..workbook import sheet_data, sheet_edit, sheet_patch, sheet_read, xml_form
 from ..workbook.cells import split_ref
 from ..workbook.save import PackageChanges, add_override, remove_override
-from .values_notice import NOTICE_OPENING, Notice, frozen_inputs, kept_areas, notice_text, place_notice, reader_of
+from .values_notice import (PRINT_AREA, Notice, NOTICE_OPENING, PrintRange, frozen_inputs, notice_text, place_on_sheet,
+                            reader_of, set_print_range, take_out)
 from ..workbook.sheet_patch import CellUpdate
 from ..workbook.sheet_read import iter_cells
 from ..workbook.xml_text import escape_text
@@ -66,6 +70,9 @@ _NOTE = "Formulas replaced by their values by trueband; `trueband restore FILE` 
 #: Column D of a hidden-sheet row that records a notice (its own row: made for the notice).
 _NOTICE_MARK = "(values notice)"
 _NOTICE_NEW_ROW = "(values notice, own row)"
+#: Column D of a row that records a print range the notice extended: C the range now, E the range before (both as
+#: the workbook part wrote them, so that restore gives the part back byte for byte).
+_PRINT_MARK = "(values notice, print range)"
 CT_WORKSHEET = "application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"
 
 @dataclasses.dataclass(frozen=True)
@@ -151,8 +158,9 @@ def replace_with_values(pkg: WorkbookPackage, changes: PackageChanges,
             raise UnusableWorkbook(f"{pkg.path.name}: sheet {info.name!r}: {exc}", path=pkg.path) from None
     if records:
         all_records = _existing(pkg)[0] + records
-        notices = _write_notices(pkg, changes, notice_text(all_records, inputs, written_at), is_read, unplaced)
-        _write_formula_sheet(pkg, changes, all_records, notices)
+        notices, ranges = _write_notices(pkg, changes, notice_text(all_records, inputs, written_at), is_read,
+                                         unplaced)
+        _write_formula_sheet(pkg, changes, all_records, notices, ranges)
         changes.drop_calc_chain(pkg)
     return records
 
@@ -175,39 +183,32 @@ def _registered_cells(xml: bytes, strings, values: Mapping[str, object]) -> dict
 
 
 def _write_notices(pkg: WorkbookPackage, changes: PackageChanges, text: str, is_read,
-                   unplaced: list[str] | None) -> list[Notice]:
-    """A notice cell on every worksheet (a notice from an earlier run is rewritten where it is)."""
-    earlier = {n.sheet.casefold(): n for n in _existing(pkg)[1]}
-    notices = []
+                   unplaced: list[str] | None) -> tuple[list[Notice], list[PrintRange]]:
+    """The notice's lines on every worksheet, inside its print range (the lines and print range of an earlier run
+    are taken out first; lines edited since stay, recorded)."""
+    _, earlier, earlier_ranges = _existing(pkg)
+    notices: list[Notice] = []
+    ranges: list[PrintRange] = []
     for info in pkg.worksheets:
         if info.name == FORMULA_SHEET:
             continue
+        mine = [n for n in earlier if n.sheet.casefold() == info.name.casefold()]
         xml = xml_form.regular_form(changes.current(pkg, info.part))
-        old = earlier.get(info.name.casefold())
-        if old is not None:
-            cell = next((c for c in iter_cells(xml, pkg.shared_strings) if c.ref == old.cell), None)
-            if cell is not None and isinstance(cell.value, str) and cell.value.startswith(NOTICE_OPENING):
-                changes.set(pkg, info.part, sheet_patch.patch_sheet(xml, {old.cell: CellUpdate(text)}))
-                notices.append(Notice(info.name, old.cell, text, old.new_row))
-                continue
-        place = place_notice(xml, pkg.shared_strings, info.name, is_read, kept_areas(pkg, info, xml))
-        if place is None:
+        if mine:
+            xml, kept_lines = take_out(pkg, xml, mine)
+            notices += kept_lines
+            changes.set(pkg, info.part, xml)
+        for old in earlier_ranges:
+            if old.sheet.casefold() == info.name.casefold():
+                set_print_range(pkg, changes, info, old.new, old.old)
+        placed = place_on_sheet(pkg, changes, info, xml, text, is_read)
+        if placed is None:
             if unplaced is not None:
                 unplaced.append(info.name)
             continue
-        ref, new_row = place
-        before = sheet_read.dimension(xml)
-        try:
-            new = sheet_edit.add_cells(xml, {ref: sheet_edit.NewCell(value=text)})
-        except sheet_data.SheetXmlError:  # rows written without numbers: no cell can be added safely
-            if unplaced is not None:
-                unplaced.append(info.name)
-            continue
-        if before is not None:  # the notice stays outside the recorded extent: restore gives the same bytes back
-            new = sheet_edit.set_dimension(new, before)
-        changes.set(pkg, info.part, new)
-        notices.append(Notice(info.name, ref, text, new_row))
-    return notices
+        notices += placed[0]
+        ranges += placed[1]
+    return notices, ranges
 
 
 _CELL = re.compile(rb'<(?:\w+:)?c\b[^>]*?\br="([A-Z]+[0-9]+)"[^>]*?(?:/>|>(.*?)</(?:\w+:)?c>)', re.S)
@@ -232,7 +233,7 @@ def _inline(ref: str, text: str) -> bytes:
     return (f'<c r="{ref}" t="inlineStr"><is><t'.encode() + space + b">" + escape_text(text) + b"</t></is></c>")
 
 
-def _records_part(records: list[FormulaRecord], notices: list[Notice] = ()) -> bytes:
+def _records_part(records: list[FormulaRecord], notices: list[Notice] = (), ranges: list[PrintRange] = ()) -> bytes:
     rows = [b'<row r="1">' + b"".join(_inline(f"{c}1", h) for c, h in zip("ABCD", _HEADER))
             + _inline("F1", _NOTE) + b"</row>"]
     i = 1
@@ -244,19 +245,22 @@ def _records_part(records: list[FormulaRecord], notices: list[Notice] = ()) -> b
         mark = _NOTICE_NEW_ROW if note.new_row else _NOTICE_MARK
         rows.append(f'<row r="{i}">'.encode() + _inline(f"A{i}", note.sheet) + _inline(f"B{i}", note.cell)
                     + _inline(f"C{i}", note.text) + _inline(f"D{i}", mark) + b"</row>")
-    last = len(records) + len(notices) + 1
+    for i, pr in enumerate(ranges, start=len(records) + len(notices) + 2):
+        rows.append(f'<row r="{i}">'.encode() + _inline(f"A{i}", pr.sheet) + _inline(f"B{i}", PRINT_AREA)
+                    + _inline(f"C{i}", pr.new) + _inline(f"D{i}", _PRINT_MARK) + _inline(f"E{i}", pr.old) + b"</row>")
+    last = len(records) + len(notices) + len(ranges) + 1
     return (b'<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
             b'<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main" '
             b'xmlns:r="http://schemas.openxmlformats.org/officeDocument/2006/relationships">'
             + f'<dimension ref="A1:F{last}"/>'.encode() + b"<sheetData>" + b"".join(rows) + b"</sheetData></worksheet>")
 
 
-def _existing(pkg: WorkbookPackage) -> tuple[list[FormulaRecord], list[Notice]]:
-    """The records and notices of an earlier ``--values`` run (none without its formula sheet)."""
+def _existing(pkg: WorkbookPackage) -> tuple[list[FormulaRecord], list[Notice], list[PrintRange]]:
+    """The records, notices and print ranges of an earlier ``--values`` run (none without its formula sheet)."""
     try:
         info = pkg.sheet(FORMULA_SHEET)
     except KeyError:
-        return [], []
+        return [], [], []
     return _read_sheet_records(pkg.read(info.part), pkg.shared_strings)
 
 
@@ -270,17 +274,22 @@ def read_notices(xml: bytes, shared_strings=()) -> list[Notice]:
     return _read_sheet_records(xml, shared_strings)[1]
 
 
-def _read_sheet_records(xml: bytes, shared_strings=()) -> tuple[list[FormulaRecord], list[Notice]]:
+def _read_sheet_records(xml: bytes, shared_strings=()) -> tuple[list[FormulaRecord], list[Notice], list[PrintRange]]:
     rows: dict[int, dict[int, object]] = {}
     for cell in iter_cells(xml, shared_strings):
         rows.setdefault(cell.row, {})[cell.col] = cell.value
     out = []
     notices = []
+    ranges = []
     for r in sorted(rows):
         if r == 1:
             continue
         row = rows[r]
         sheet, ref, shown, element = (row.get(i) for i in (1, 2, 3, 4))
+        if element == _PRINT_MARK and isinstance(sheet, str) and isinstance(shown, str) \
+                and isinstance(row.get(5), str):
+            ranges.append(PrintRange(sheet, shown, row.get(5)))
+            continue
         if element in (_NOTICE_MARK, _NOTICE_NEW_ROW) and isinstance(sheet, str) and isinstance(ref, str):
             notices.append(Notice(sheet, ref, shown if isinstance(shown, str) else "", element == _NOTICE_NEW_ROW))
             continue
@@ -289,7 +298,7 @@ def _read_sheet_records(xml: bytes, shared_strings=()) -> tuple[list[FormulaReco
                                    f"it was edited by hand")
         text = shown[1:] if isinstance(shown, str) and shown.startswith("=") else None
         out.append(FormulaRecord(sheet, ref, text, element.encode("utf-8")))
-    return out, notices
+    return out, notices, ranges
 
 
 def _free_name(names, pattern: str) -> str:
@@ -300,8 +309,8 @@ def _free_name(names, pattern: str) -> str:
 
 
 def _write_formula_sheet(pkg: WorkbookPackage, changes: PackageChanges, records: list[FormulaRecord],
-                         notices: list[Notice] = ()) -> None:
-    data = _records_part(records, notices)
+                         notices: list[Notice] = (), ranges: list[PrintRange] = ()) -> None:
+    data = _records_part(records, notices, ranges)
     try:
         existing = pkg.sheet(FORMULA_SHEET)
     except KeyError:
@@ -403,7 +412,7 @@ def restore_formulas(pkg: WorkbookPackage, changes: PackageChanges) -> RestoreRe
         raise UnusableWorkbook(f"{pkg.path.name} has no sheet {FORMULA_SHEET}: there are no replaced formulas "
                                f"to restore", path=pkg.path) from None
     try:
-        records, notices = _read_sheet_records(pkg.read(info.part), pkg.shared_strings)
+        records, notices, ranges = _read_sheet_records(pkg.read(info.part), pkg.shared_strings)
     except sheet_data.SheetXmlError as exc:
         raise UnusableWorkbook(f"{pkg.path.name}: the hidden sheet {FORMULA_SHEET} cannot be read ({exc})",
                                path=pkg.path) from None
@@ -426,6 +435,14 @@ def restore_formulas(pkg: WorkbookPackage, changes: PackageChanges) -> RestoreRe
         except sheet_data.SheetXmlError as exc:
             raise UnusableWorkbook(f"{pkg.path.name}: sheet {name!r}: {exc}; nothing was restored",
                                    path=pkg.path) from None
+    for pr in ranges:  # the print ranges the notice extended, as they were
+        try:
+            target = pkg.sheet(pr.sheet)
+        except KeyError:
+            continue
+        if not set_print_range(pkg, changes, target, pr.new, pr.old):
+            report.skipped.append((f"{pr.sheet} print range", "it was changed since the notice extended it; it is "
+                                                               "left as it is"))
     _remove_sheet(pkg, changes, info)
     changes.drop_calc_chain(pkg)
     changes.keep_cached_values(pkg)

@@ -9,20 +9,26 @@ new cut beside an old selection ratio). So every sheet gets one text cell, a
 notice, saying that the values of trueband functions were fixed when the
 file was written (with the date and time), which cells hold them, which
 inputs they were computed from with the inputs' values then, and how to
-update them. The notice goes where it overwrites nothing and changes no
-result: a row with no cells near the top (above the data, or under a title),
-else the first free column right of the used range, else the row under it;
-never a merged cell, a cell that any formula of the workbook reads, or a cell of
-a table, filter, chart series or defined name (chart sheets hold no cells and get none). A
-cell, not a header or a note: spreadsheet apps show header text only in
-print preview and a note only on hover, and LibreOffice Calc shows the cell
-(tests check it). Its place is recorded in the hidden sheet, and ``trueband
-restore`` takes it out again (unless it was edited).
+update them. The notice is printed with the sheet (issue 20): its text is
+split into lines as wide as the sheet's printed columns (:func:`notice_lines`;
+the print range's columns, else the used range's), one line a cell, in new
+rows under the print range (else under the used range), and a sheet's print
+range is extended over them. The rows go where they overwrite nothing and
+change no result (:func:`place_lines`): rows that hold no row element at all
+(so ``restore`` removes them and gives the part back byte for byte), in no
+merged cell, no cell that any formula of the workbook reads, no cell of a
+table, filter, chart series or defined name (chart sheets hold no cells and
+get none). Cells, not a header or a note: spreadsheet apps show header text
+only in print preview and a note only on hover, and LibreOffice Calc shows
+the cells (tests check it). Their places and the print range as it was are
+recorded in the hidden sheet, and ``trueband restore`` takes them out again
+(unless a line was edited).
 
 :func:`notice_text` writes the text, :func:`frozen_inputs` lists the inputs
 (from the recalculation's formula runs), :func:`reader_of` tells the cells
-formulas read, :func:`place_notice` chooses the cell; :mod:`.values_mode`
-writes, records and removes it.
+formulas read, :func:`place_notice` chooses one cell (kept for callers that
+write one), :func:`place_lines` the rows of the lines; :mod:`.values_mode`
+writes, records and removes them.
 """
 
 from __future__ import annotations
@@ -30,15 +36,18 @@ from __future__ import annotations
 import dataclasses
 import datetime
 import re
+import textwrap
 
-from ..workbook import sheet_data, sheet_read, xml_text
+from ..workbook import sheet_data, sheet_edit, sheet_read, xml_text
 from ..workbook.cells import MAX_COLUMN, MAX_ROW, column_letters, range_box, split_ref
 from ..workbook.sheet_read import iter_cells
 from ..workbook.package import WorkbookPackage
+from ..workbook.xml_text import escape_text, unescape_xml
 from .values import EMPTY
 
 __all__ = ["Notice", "NOTICE_OPENING", "NOTICE_ITEMS", "notice_text", "frozen_inputs", "reader_of", "kept_areas",
-           "place_notice"]
+           "place_notice", "notice_lines", "place_lines", "printed_width", "page_width", "PRINT_AREA", "PrintRange", "place_on_sheet",
+           "print_range", "set_print_range", "take_out"]
 
 
 @dataclasses.dataclass(frozen=True)
@@ -49,6 +58,16 @@ class Notice:
     cell: str
     text: str
     new_row: bool = False
+
+
+@dataclasses.dataclass(frozen=True)
+class PrintRange:
+    """A sheet's print range as the notice left it (``new``) and as it was (``old``): the raw text of the
+    ``_xlnm.Print_Area`` defined name in ``xl/workbook.xml``."""
+
+    sheet: str
+    new: str
+    old: str
 
 
 #: First words of every notice (how a notice is told from other text).
@@ -191,6 +210,11 @@ _REF_ATTR = re.compile(rb'<(?:[\w.-]+:)?(?:autoFilter|table)\b[^>]*?\bref\s*=\s*
 _CHART_FORMULA = re.compile(rb"<(?:[\w.-]+:)?f>([^<]*)</(?:[\w.-]+:)?f>")
 
 
+#: The defined name of a sheet's print range (ECMA-376 Part 1, 18.2.5: built-in names).
+PRINT_AREA = "_xlnm.Print_Area"
+_PRINT_NAMES = {PRINT_AREA.casefold(), "_xlnm.print_titles"}
+
+
 def _areas_in(text: str, sheet: str) -> list[tuple[int, int, int, int]]:
     """The areas of ``sheet`` named in a formula text (``Sheet!$A$1:$B$9``, quoted names too)."""
     out = []
@@ -220,7 +244,8 @@ def kept_areas(pkg: WorkbookPackage, info, xml: bytes) -> list[tuple[int, int, i
             for m in _CHART_FORMULA.finditer(pkg.read(name)):
                 areas += _areas_in(xml_text.unescape_xml(m.group(1)), info.name)
     for d in pkg.defined_names:
-        areas += _areas_in(d.text, info.name)
+        if d.name.casefold() not in _PRINT_NAMES:  # what is printed is no data: the notice may join it
+            areas += _areas_in(d.text, info.name)
     return areas
 
 
@@ -270,3 +295,189 @@ def place_notice(xml: bytes, strings, sheet: str, is_read, kept=()) -> tuple[str
         if row not in used_rows and free(row, c0):
             return f"{column_letters(c0)}{row}", row not in existing_rows
     return None
+
+
+#: Column-width units (one digit's width) a character of the notice takes: text averages about a digit's width;
+#: 0.95 leaves room for wide fonts (LibreOffice prints Calibri as DejaVu Sans, 0.85 units a character as
+#: ``study/printing.py`` measured it).
+UNITS_PER_CHAR = 0.95
+#: Fewest and most characters on a line of the notice (a very narrow sheet still gets readable lines, and the
+#: first line holds the whole NOTICE_OPENING, by which a notice is told from other text).
+LINE_CHARS = (40, 160)
+#: Default column width in units when a sheet states none (ECMA-376 Part 1, 18.3.1.81: 8 digits and padding).
+DEFAULT_WIDTH = 8.43
+_COL = re.compile(rb"<(?:[\w.-]+:)?col\b([^>]*)/?>")
+_ATTR = re.compile(rb'\b(min|max|width|hidden)\s*=\s*["\']([^"\']*)["\']')
+_DEFAULT_WIDTH = re.compile(rb'<(?:[\w.-]+:)?sheetFormatPr\b[^>]*?\bdefaultColWidth\s*=\s*["\']([0-9.]+)["\']')
+_ROW_NUMBER = re.compile(rb'<(?:[\w.-]+:)?row\b[^>]*?\br\s*=\s*["\']([0-9]+)["\']')
+
+
+def printed_width(xml: bytes, c1: int, c2: int) -> float:
+    """The width of columns ``c1``..``c2`` in column-width units (``<cols>``; hidden columns count 0)."""
+    m = _DEFAULT_WIDTH.search(xml)
+    default = float(m.group(1)) if m else DEFAULT_WIDTH
+    widths = {c: default for c in range(c1, c2 + 1)}
+    for col in _COL.finditer(xml):
+        attrs = {k.decode(): v.decode() for k, v in _ATTR.findall(col.group(1))}
+        try:
+            lo, hi = int(attrs["min"]), int(attrs["max"])
+            width = 0.0 if attrs.get("hidden") in ("1", "true") else float(attrs.get("width", default))
+        except (KeyError, ValueError):
+            continue
+        for c in range(max(lo, c1), min(hi, c2) + 1):
+            widths[c] = width
+    return sum(widths.values())
+
+
+_PAGE_SETUP = re.compile(rb"<(?:[\w.-]+:)?pageSetup\b([^>]*)/?>")
+_MARGINS = re.compile(rb"<(?:[\w.-]+:)?pageMargins\b([^>]*)/?>")
+_NUMBER_ATTR = re.compile(rb'\b(scale|orientation|left|right)\s*=\s*["\']([^"\']*)["\']')
+#: Points of one unit of column width in print (one digit of the default font: 7 pt as LibreOffice prints
+#: Calibri 11 with DejaVu Sans, measured by ``study/printing.py``; narrower fonts leave room).
+UNIT_PT = 7.0
+
+
+def page_width(xml: bytes) -> float:
+    """The width of one printed page of the sheet in column-width units: the smaller of A4 and US Letter in the
+    sheet's orientation, less its side margins (0.7 inch when it states none), at its print scale."""
+    attrs = {}
+    for pattern in (_PAGE_SETUP, _MARGINS):
+        m = pattern.search(xml)
+        if m:
+            attrs.update({k.decode(): v.decode() for k, v in _NUMBER_ATTR.findall(m.group(1))})
+    try:
+        scale = min(400.0, max(10.0, float(attrs.get("scale", 100))))
+        sides = float(attrs.get("left", 0.7)) + float(attrs.get("right", 0.7))
+    except ValueError:
+        scale, sides = 100.0, 1.4
+    inches = (11.0 if attrs.get("orientation") == "landscape" else 8.27) - sides
+    return max(inches, 1.0) * 72 / UNIT_PT * 100 / scale
+
+
+def notice_lines(text: str, width: float) -> list[str]:
+    """The notice as lines that fit ``width`` column-width units (at least ``LINE_CHARS[0]`` characters a line).
+
+    >>> notice_lines("one two three four five six seven eight nine ten eleven twelve thirteen", 40)
+    ['one two three four five six seven eight', 'nine ten eleven twelve thirteen']
+    """
+    chars = max(LINE_CHARS[0], min(LINE_CHARS[1], int(width / UNITS_PER_CHAR)))
+    return textwrap.wrap(text, chars, break_long_words=True, break_on_hyphens=False) or [text]
+
+
+def place_lines(xml: bytes, strings, sheet: str, is_read, kept, lines: int,
+                area: tuple[int, int, int, int] | None = None) -> tuple[int, int] | None:
+    """(first row, column) of ``lines`` consecutive new rows for the notice, or None when no place is safe.
+
+    Under ``area`` (the print range: one empty row between), in its first
+    column; without it under the used range, in its first column. The rows
+    must have no row element (not even an empty styled one), and the cell of
+    each line must be in no merged range, no ``kept`` area and read by no formula.
+    """
+    used = sheet_read.used_range(xml, strings)
+    if area is not None:
+        top, col = area[2] + 2, area[1]
+    elif used is not None:
+        top, col = used[2] + 2, used[1]
+    else:
+        top, col = 1, 1
+    taken = {int(m.group(1)) for m in _ROW_NUMBER.finditer(xml)}
+    blocked = sheet_read.merged_ranges(xml) + list(kept)
+
+    def free(row):
+        return (row not in taken and row <= MAX_ROW
+                and not any(a <= row <= c and b <= col <= d for a, b, c, d in blocked)
+                and not (is_read is not None and is_read(sheet, row, col)))
+
+    for start in range(top, min(top + 400, MAX_ROW) + 1):
+        if all(free(r) for r in range(start, start + lines)):
+            return start, col
+    return None
+
+
+def place_on_sheet(pkg, changes, info, xml: bytes, text: str, is_read):
+    """Write the notice's lines on one sheet (``changes``: the package edits so far, ``info`` the sheet, ``xml`` its
+    part as it stands): (notices, print ranges changed), or None when no place is safe."""
+    raw, area = print_range(pkg, changes, info)
+    if area is not None and area[0] == area[2] and area[1] == area[3]:
+        raw = area = None  # one cell: the sheet is kept out of print (the study's per-applicant sheets)
+    used = sheet_read.used_range(xml, pkg.shared_strings)
+    c1, c2 = (area[1], area[3]) if area is not None else (used[1], used[3]) if used is not None else (1, 8)
+    lines = notice_lines(text, min(printed_width(xml, c1, c2), page_width(xml)))  # the columns on one page
+    where = place_lines(xml, pkg.shared_strings, info.name, is_read, kept_areas(pkg, info, xml), len(lines), area)
+    if where is None:
+        return None
+    top, col = where
+    refs = [f"{column_letters(col)}{top + k}" for k in range(len(lines))]
+    before = sheet_read.dimension(xml)
+    try:
+        new = sheet_edit.add_cells(xml, {ref: sheet_edit.NewCell(value=line) for ref, line in zip(refs, lines)})
+    except sheet_data.SheetXmlError:  # rows written without numbers: no cell can be added safely
+        return None
+    if before is not None:  # the notice stays outside the recorded extent: restore gives the same bytes back
+        new = sheet_edit.set_dimension(new, before)
+    changes.set(pkg, info.part, new)
+    ranges = []
+    if area is not None:
+        m = _AREA.fullmatch(unescape_xml(raw.encode("utf-8")))
+        last = top + len(lines) - 1
+        if m.group(6) is not None:
+            extended = m.string[:m.start(6)] + str(last) + m.string[m.end(6):]
+        else:
+            extended = m.string + f":${m.group(3)}${last}"
+        extended_raw = escape_text(extended).decode("utf-8")
+        set_print_range(pkg, changes, info, raw, extended_raw)
+        ranges.append(PrintRange(info.name, extended_raw, raw))
+    return [Notice(info.name, ref, line, True) for ref, line in zip(refs, lines)], ranges
+
+
+_DEFINED_PRINT = re.compile(rb'(<(?:[\w.-]+:)?definedName\b[^>]*?\bname\s*=\s*["\']' + re.escape(PRINT_AREA.encode())
+                            + rb'["\'][^>]*>)(.*?)(</(?:[\w.-]+:)?definedName\s*>)', re.S)
+_LOCAL_ID = re.compile(rb'\blocalSheetId\s*=\s*["\']([0-9]+)["\']')
+
+
+def print_range(pkg, changes, info) -> tuple[str | None, tuple[int, int, int, int] | None]:
+    """The raw text of a sheet's print range in the workbook part and its area, when it is one area of the sheet."""
+    wb = changes.current(pkg, pkg.workbook_part)
+    for m in _DEFINED_PRINT.finditer(wb):
+        local = _LOCAL_ID.search(m.group(1))
+        if local is None or int(local.group(1)) != info.index:
+            continue
+        text = unescape_xml(m.group(2)).strip()
+        area = _AREA.fullmatch(text)
+        name = area and ((area.group(1) or "").replace("''", "'") or area.group(2))
+        if area is None or name.casefold() != info.name.casefold():
+            return None, None  # several areas, or a form not read here: the notice goes under the used range
+        (r1, c1) = split_ref(area.group(3) + area.group(4))
+        (r2, c2) = split_ref((area.group(5) or area.group(3)) + (area.group(6) or area.group(4)))
+        return m.group(2).decode("utf-8"), (min(r1, r2), min(c1, c2), max(r1, r2), max(c1, c2))
+    return None, None
+
+
+def set_print_range(pkg, changes, info, now: str, then: str) -> bool:
+    """Replace a sheet's print range whose raw text is ``now`` by ``then`` (False when it was changed since)."""
+    wb = changes.current(pkg, pkg.workbook_part)
+    for m in _DEFINED_PRINT.finditer(wb):
+        local = _LOCAL_ID.search(m.group(1))
+        if local is not None and int(local.group(1)) == info.index and m.group(2) == now.encode("utf-8"):
+            changes.set(pkg, pkg.workbook_part, wb[:m.start(2)] + then.encode("utf-8") + wb[m.end(2):])
+            return True
+    return False
+
+
+def take_out(pkg, xml: bytes, notices: list[Notice]) -> tuple[bytes, list[Notice]]:
+    """A sheet part without the notice's lines that still read as written, and the lines edited since (kept)."""
+    current = {c.ref: c for c in iter_cells(xml, pkg.shared_strings)}
+    gone, own_rows, edited = [], [], []
+    for note in notices:
+        cell = current.get(note.cell)
+        if cell is None:
+            continue
+        if cell.value == note.text and cell.formula is None:
+            gone.append(note.cell)
+            if note.new_row:
+                own_rows.append(cell.row)
+        else:
+            edited.append(note)
+    if gone:
+        xml = sheet_edit.remove_cells(xml, gone, empty_rows=own_rows)
+    return xml, edited

@@ -14,13 +14,33 @@ from openpyxl.chart.shapes import GraphicalProperties
 from openpyxl.drawing.line import LineProperties
 from openpyxl.chart.trendline import Trendline
 
-__all__ = ["score_vs_criterion", "score_distribution", "selection_rates", "item_map", "area", "group_lines"]
+from .grid import INK
+
+#: Series of the study's charts, told apart in grey print by lightness (dark, middle, light: CIE L* about 24,
+#: 57 and 79), and by the line's dashes and the marker's shape as well as by hue.
+SERIES_COLOURS = (INK, "6F8F87", "D2C29A")
+SERIES_DASHES = ("solid", "dash", "sysDot", "lgDash", "dashDot", "sysDash")
+SERIES_MARKERS = ("circle", "triangle", "square", "diamond", "x", "plus")
+#: Columns of the score chart: below the cut light, at or above it dark (passing is not shown as a warning).
+BELOW_CUT, AT_OR_ABOVE_CUT = "D2C29A", INK
+
+__all__ = ["SERIES_COLOURS", "SERIES_DASHES", "SERIES_MARKERS", "BELOW_CUT", "AT_OR_ABOVE_CUT", "score_vs_criterion", "score_distribution", "selection_rates", "item_map", "area", "group_lines",
+           "threshold_line"]
 
 
 def area(ref) -> Reference:
     """A chart reference to the cells of a :class:`.context.Ref`, absolute and by sheet name (sheets are written
     in streaming mode)."""
     return Reference(range_string=ref.qualified().address(ref.sheet))
+
+
+def threshold_line(series: Series) -> Series:
+    """A threshold drawn as a line (the four-fifths line): the palette's dark ink, dashed and 2.25 pt wide, no
+    markers, so that it reads in grey print and is told from the data series by its dashes, not by a warning hue."""
+    series.marker.symbol = "none"
+    series.smooth = False
+    series.graphicalProperties = GraphicalProperties(ln=LineProperties(solidFill=INK, w=28575, prstDash="dash"))
+    return series
 
 
 def _axes(chart, x_title: str, y_title: str):
@@ -32,8 +52,8 @@ def _axes(chart, x_title: str, y_title: str):
     chart.legend.position = "b"
 
 
-def _points_only(series: Series, colour: str = "1F4E79"):
-    series.marker.symbol = "circle"
+def _points_only(series: Series, colour: str = INK, marker: str = "circle"):
+    series.marker.symbol = marker
     series.marker.size = 5
     series.marker.graphicalProperties = GraphicalProperties(solidFill=colour)
     series.marker.graphicalProperties.line.solidFill = colour
@@ -49,7 +69,7 @@ def score_vs_criterion(x: Reference, y: Reference, *, x_title: str, y_title: str
     series = Series(y, x, title="People with a performance rating")
     _points_only(series)
     series.trendline = Trendline(trendlineType="linear", dispRSqr=False, dispEq=False)
-    series.trendline.spPr = GraphicalProperties(ln=LineProperties(solidFill="C00000", w=28575))
+    series.trendline.spPr = GraphicalProperties(ln=LineProperties(solidFill=INK, w=28575, prstDash="dash"))
     chart.series.append(series)
     _axes(chart, x_title, y_title)
     return chart
@@ -66,6 +86,9 @@ def score_distribution(labels: Reference, below: Reference, above: Reference, *,
     chart.add_data(below, titles_from_data=True)
     chart.add_data(above, titles_from_data=True)
     chart.set_categories(labels)
+    for series, colour in zip(chart.series, (BELOW_CUT, AT_OR_ABOVE_CUT)):
+        series.graphicalProperties = GraphicalProperties(solidFill=colour)
+        series.graphicalProperties.line.solidFill = INK
     _axes(chart, "Test score", "Applicants")
     return chart
 
@@ -78,11 +101,15 @@ def selection_rates(groups: Reference, rates: Reference, line: Reference) -> Bar
     bars.add_data(rates, titles_from_data=True)
     bars.set_categories(groups)
     bars.y_axis.scaling.min = 0
+    bars.series[0].graphicalProperties = GraphicalProperties(solidFill=SERIES_COLOURS[1])
+    bars.series[0].graphicalProperties.line.solidFill = INK
     threshold = LineChart()
     threshold.add_data(line, titles_from_data=True)
     threshold.set_categories(groups)
     threshold.series[0].marker.symbol = "dash"
     threshold.series[0].graphicalProperties.line.width = 28575  # 2.25 pt
+    threshold.series[0].graphicalProperties.line.solidFill = INK
+    threshold.series[0].graphicalProperties.line.prstDash = "dash"
     _axes(bars, "Group", "Selection rate")
     bars += threshold
     return bars
@@ -114,13 +141,13 @@ def group_lines(series: list, *, x_title: str, y_title: str) -> ScatterChart:
     chart.title = "Criterion on score: one line per group"
     chart.scatterStyle = "marker"
     chart.style = 13
-    colours = ("1F4E79", "C00000", "548235", "7030A0", "BF8F00", "2E75B6")
     for k, (name, x, y) in enumerate(series):
-        colour = colours[k % len(colours)]
+        colour = SERIES_COLOURS[k % len(SERIES_COLOURS)]
         s = Series(y, x, title=str(name))
-        _points_only(s, colour)
+        _points_only(s, colour, SERIES_MARKERS[k % len(SERIES_MARKERS)])
         s.trendline = Trendline(trendlineType="linear", dispRSqr=False, dispEq=False)
-        s.trendline.spPr = GraphicalProperties(ln=LineProperties(solidFill=colour, w=28575))
+        s.trendline.spPr = GraphicalProperties(ln=LineProperties(solidFill=colour, w=28575,
+                                                                 prstDash=SERIES_DASHES[k % len(SERIES_DASHES)]))
         chart.series.append(s)
     _axes(chart, x_title, y_title)
     return chart

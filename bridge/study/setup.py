@@ -137,6 +137,9 @@ SETTINGS.update({  # the utility's base rate (issue 20)
                             "share of all applicants who would reach the success threshold, if you know it "
                             "(optional; default: the share of the hires who reach it)"),
 })
+# printing (issue 20): the currency shown in the money cells' number format (checked by .printing.money_format)
+SETTINGS["currency"] = ("currency", "text", "the currency of money figures, a code or symbol shown beside them, "
+                                            "e.g. EUR, GBP or $ (default USD)")
 
 
 
@@ -183,6 +186,7 @@ class StudySetup:
     content_critical: str | None = None
     answer_key_sheet: str | None = None         # raw answers and their key (setup_answers)
     applicant_base_rate: float | None = None    # the utility's base rate among applicants, when known
+    currency: str = "USD"                       # shown in the money format (printing)
     source: Mapping[str, str] = dataclasses.field(default_factory=dict)  # field -> where it was given
     predictors: tuple = ()  # the further predictors (StudySetup of their own settings; see setup_predictors)
 

@@ -33,7 +33,7 @@ from openpyxl.worksheet.datavalidation import DataValidation
 from ..formulas.calc_binding import bind_workbook
 from . import templates_predictors
 from .demo import DemoData
-from .grid import P_FORMAT
+from .grid import CAUTION_INK, HEADER_FILL, INPUT_BORDER, INPUT_FILL, INK, P_FORMAT
 from .demo_cut import setup_values as cut_setup_values
 from .demo_answers import KEY_SHEET
 from .templates_cut import add_answer_key, add_cut_sheets, answer_rows
@@ -44,16 +44,25 @@ from .setup import DEFAULT_CRITERION_RELIABILITY, SETTINGS, SETUP_SHEET
 __all__ = ["study_data_workbook", "scoring_template", "impact_template", "SCORING_LAYOUT", "IMPACT_LAYOUT"]
 
 _BOLD = Font(bold=True)
-_HEADER_FILL = PatternFill("solid", fgColor="DDE4EE")
-_INPUT_FILL = PatternFill("solid", fgColor="FFF2CC")
+# the study's palette (grid.py): the same header and input cells as the study it builds
+_HEADER_FILL = PatternFill("solid", fgColor=HEADER_FILL)
+_INPUT_FILL = PatternFill("solid", fgColor=INPUT_FILL)
 _WRAP = Alignment(wrap_text=True, vertical="top")
-_CAUTION_FONT = Font(bold=True, color="7A2E00")
+_CAUTION_FONT = Font(bold=True, color=CAUTION_INK)
 
 
 def _header(ws, row: int, values: Sequence[str], col: int = 1):
     for j, v in enumerate(values):
         c = ws.cell(row, col + j, v)
         c.font, c.fill, c.alignment = _BOLD, _HEADER_FILL, _WRAP
+
+
+def _mark_inputs(ws):
+    """The dashed border on every input cell (filled by another module too), so it reads in grey print."""
+    for row in ws.iter_rows():
+        for c in row:
+            if c.fill is not None and c.fill.fill_type == "solid" and str(c.fill.fgColor.rgb)[-6:] == INPUT_FILL:
+                c.border = INPUT_BORDER
 
 
 def _caution(ws, cell: str, width_cols: int = 8):
@@ -146,13 +155,14 @@ def study_data_workbook(path: str | Path, demo: DemoData | None = None, *, n_ite
     for r, (key, (_, kind, meaning)) in enumerate(SETTINGS.items(), start=2):
         st.cell(r, 1, key)
         c = st.cell(r, 2, values.get(key))
-        c.fill = _INPUT_FILL
+        c.fill, c.border = _INPUT_FILL, INPUT_BORDER
         st.cell(r, 3, meaning).alignment = _WRAP
     st.column_dimensions["A"].width = 24
     st.column_dimensions["B"].width = 34
     st.column_dimensions["C"].width = 62
     _setup_checks(st, n_items, n_raters, last)
     more = templates_predictors.write_block(st, len(SETTINGS) + 2, demo, _INPUT_FILL)  # a further predictor
+    _mark_inputs(st)
     st.cell(len(SETTINGS) + 3 + more, 1, "Fill the Applicants sheet (one row per candidate; leave the supervisor "
                                          "rating blank for people not hired), name your columns above, then run: "
                                          "trueband study THIS_FILE.xlsx -o study.xlsx").alignment = _WRAP
@@ -197,13 +207,13 @@ def scoring_template(path: str | Path, *, n_items: int = 40, capacity: int = 500
     items = f"${a}${first}:${z}${last}"
     totals = f"${T}${first}:${T}${last}"
     ws["A1"] = title
-    ws["A1"].font = Font(bold=True, size=14)
+    ws["A1"].font = Font(bold=True, size=14, color=INK)
     ws["A3"], ws["A4"], ws["A5"] = "Reliability", "Standard deviation of the totals", "Confidence level"
     ws["C3"] = f'=IF(COUNT({totals})<3,"enter responses",CRONBACH_ALPHA({items}))'
     ws["C4"] = f'=IF(COUNT({totals})<2,"enter responses",STDEV({totals}))'
     ws["C5"] = 0.95
     for ref, fmt in (("C3", "0.000"), ("C4", "0.00"), ("C5", "0%")):
-        ws[ref].fill, ws[ref].number_format = _INPUT_FILL, fmt
+        ws[ref].fill, ws[ref].border, ws[ref].number_format = _INPUT_FILL, INPUT_BORDER, fmt
     ws["E3"] = "The reliability defaults to coefficient alpha of the responses below; type a published value over it " \
                "if you have one. Blank items count 0 in the total; an empty row shows nothing."
     ws["E3"].alignment = _WRAP
@@ -257,14 +267,14 @@ def impact_template(path: str | Path, *, capacity: int = 8,
     ws = wb.active
     ws.title = "Adverse impact"
     ws["A1"] = title
-    ws["A1"].font = Font(bold=True, size=14)
+    ws["A1"].font = Font(bold=True, size=14, color=INK)
     _caution(ws, "A2", 10)
     first = IMPACT_LAYOUT["first_row"]
     last = first + rows - 1
     ws["A4"] = "Reference group"
     ws["B4"] = (f'=IF(COUNT($D${first}:$D${last})=0,"",INDEX($A${first}:$A${last},'
                 f"MATCH(MAX($D${first}:$D${last}),$D${first}:$D${last},0)))")
-    ws["B4"].fill = _INPUT_FILL
+    ws["B4"].fill, ws["B4"].border = _INPUT_FILL, INPUT_BORDER
     ws["D4"] = "(the group with the highest selection rate unless you type a name)"
     _header(ws, IMPACT_LAYOUT["header_row"],
             ["Group", "Applicants", "Selected", "Selection rate", "Impact ratio", "Below four-fifths", "z",
@@ -279,7 +289,7 @@ def impact_template(path: str | Path, *, capacity: int = 8,
             ws.cell(r, 2, applicants)
             ws.cell(r, 3, selected)
         for c in (1, 2, 3):
-            ws.cell(r, c).fill = _INPUT_FILL
+            ws.cell(r, c).fill, ws.cell(r, c).border = _INPUT_FILL, INPUT_BORDER
         ws.cell(r, 4, f'=IF(OR(A{r}="",B{r}=""),"",SELECTION_RATE(C{r},B{r}))').number_format = "0.000"
         skip = f'IF(OR(A{r}="",B{r}="",$B$4="",A{r}=$B$4),"",'
         for c, fn, fmt in ((5, "IMPACT_RATIO", "0.000"), (6, "FOUR_FIFTHS", "General"), (7, "IMPACT_Z", "0.000"),

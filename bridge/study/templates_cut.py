@@ -9,12 +9,13 @@ from .demo import DemoData
 from .demo_answers import KEY_SHEET, key_rows, raw_answers
 from .demo_cut import CONTENT_SHEET, JUDGES_SHEET, content_rows, judges_rows
 from .setup_cut import BLOCKS
+from .grid import HEADER_FILL
 
 __all__ = ["add_cut_sheets", "add_answer_key", "answer_rows"]
 
 _BOLD = Font(bold=True)
 _TITLE = Font(bold=True, size=12)
-_HEADER_FILL = PatternFill("solid", fgColor="DDE4EE")
+_HEADER_FILL = PatternFill("solid", fgColor=HEADER_FILL)  # the study's palette (grid.py)
 _WRAP = Alignment(wrap_text=True, vertical="top")
 
 

@@ -258,3 +258,13 @@ BANDS_SIDE_NOTE = (
 SLIDING_BAND_ON_BANDS = ("The sliding band from the top score, with its caution, is on the Bands sheet, beside the "
                          "applicants' bands.")
 __all__ += ["BANDS_SIDE_NOTE", "SLIDING_BAND_ON_BANDS"]
+
+# ---------------------------------------------------------------- printing (issue 20)
+
+#: The Summary's line on how its numbers are computed: true of the study and of a ``recalc --values`` copy of it.
+FORMULAS_OR_VALUES = (
+    "Every number is a formula: click it to see how it was computed. In a copy written by trueband recalc --values "
+    "the figures of trueband's functions are fixed values instead, which do not follow edits of their inputs "
+    "(a notice on each sheet says so; trueband restore puts the formulas back). The sheets Reliability, Items, "
+    "Raters, Validity, Bands, Impact and Utility hold the detail; Notes lists the methods and references.")
+__all__ += ["FORMULAS_OR_VALUES"]

@@ -14,7 +14,7 @@ from openpyxl import Workbook
 from openpyxl.utils import get_column_letter
 
 from ..workbook.files import replacing
-from . import long_sheets, workbook_predictors
+from . import long_sheets, printing, workbook_predictors
 from .context import StudyContext
 from .grid import styled
 from .setup import SETUP_SHEET
@@ -51,6 +51,7 @@ def _bands_header(wb: Workbook, bands: Bands, title: str = BANDS_SHEET) -> bands
 def save(ctx: StudyContext, setup: SetupSheet, bands: Bands, path: Path) -> None:
     """Write the workbook, then splice in the rows of the long sheets."""
     d = ctx.data
+    printing.lay_out(ctx)  # the print layout of every composed sheet (issue 20)
     wb = Workbook(write_only=True)
     for title in ANALYSIS_SHEETS:
         if title == BANDS_SHEET:
@@ -68,6 +69,7 @@ def save(ctx: StudyContext, setup: SetupSheet, bands: Bands, path: Path) -> None
         ws.freeze_panes = "A2"
         ws.append([styled(ws, h, "header") for h in scored_items.header(d)])
     copy_styles = data_copy.write_header(wb, d)
+    printing.out_of_print(wb, ctx)  # the per-applicant sheets print only when asked for
     wb.save(path)
     _characters_as_utf8(path)
     last = d.n + 1

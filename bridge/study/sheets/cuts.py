@@ -83,8 +83,7 @@ def _line(g, chart, row: int, cuts: np.ndarray) -> None:
         g.set(row + 2 + j, 2, 0.8, "coef")
     line = Series(charts.area(area(SHEET, 2, row + 2, 2, row + 3)), charts.area(area(SHEET, 1, row + 2, 1, row + 3)),
                   title="four-fifths (0.80)")
-    line.marker.symbol = "none"
-    line.graphicalProperties.line.solidFill = "C00000"
+    charts.threshold_line(line)  # the palette's dashed dark line (charts.py)
     chart.series.append(line)
 
 

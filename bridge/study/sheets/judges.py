@@ -114,7 +114,7 @@ def _summary(ctx: StudyContext, g, row: int, j, cuts: dict, rel: Reliability, se
     for r in range(row + 13, row + 16):
         g.set(r, 1, "", "input")
     ctx.notes.append("Standard setting: the rationale for the method, the judges and the cut is left for a person "
-                     "to write on the Standard setting sheet (the yellow cells below RATIONALE).")
+                     "to write on the Standard setting sheet (the shaded cells with a dashed border below RATIONALE).")
     return method_cut, adjusted
 
 

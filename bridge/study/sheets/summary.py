@@ -5,7 +5,7 @@ from __future__ import annotations
 from trueband.funcs.errors import TruebandError
 
 from ..context import Ref, StudyContext, cell
-from ..words import CAUTION, NOT_COMPUTABLE
+from ..words import CAUTION, FORMULAS_OR_VALUES, NOT_COMPUTABLE
 from .impact import Impact
 from .raters import Raters
 from .reliability import Reliability
@@ -99,9 +99,7 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, raters: Raters
         else:
             ctx.not_computable_at(g, r, 2, "not part of this study (see Notes)")
         r += 1
-    r += 1 + g.para(r + 1, 1, "Every number is a formula: click it to see how it was computed. The sheets "
-                             "Reliability, Items, Raters, Validity, Bands, Impact and Utility hold the detail; "
-                             "Notes lists the methods and references.")
+    r += 1 + g.para(r + 1, 1, FORMULAS_OR_VALUES)  # true of a recalc --values copy too (issue 20)
     if d.problems:
         g.para(r + 1, 1, f"{len(d.problems)} problem(s) were found in the data (values outside the item scale, "
                          f"duplicate ids, blank groups and the like); the Notes sheet lists each cell.", "caution")

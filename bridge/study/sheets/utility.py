@@ -37,7 +37,7 @@ def write(ctx: StudyContext, setup: SetupSheet, bands: BandsLayout, validity: Va
     g.widths.update({1: 70, 2: 16})
     d = ctx.data
     g.set(1, 1, "Selection utility", "title")
-    g.para(2, 1, "Yellow cells are inputs: replace them with your own figures.")
+    g.para(2, 1, "Shaded cells with a dashed border are inputs: replace them with your own figures.")
     validity_caution(ctx, g, 3, validity, "utility_validity_not_established")
     g.set(4, 1, "Validity used (operational validity from the Validity sheet; see the note below)")
     source = validity.operational if validity.operational is not None and isinstance(validity.operational.value,
