@@ -53,6 +53,11 @@ CASES = [
     ("MATCH(2.5,{1,2,2,3})", 3.0), ("MATCH(4,{1,3,5,7},1)", 2.0), ("MATCH(4,{7,5,3,1},-1)", 2.0),
     # a line break inside a string literal is part of the text (common practice)
     ('LEN("a\nb")', 3.0), ('"a\nb"', "a\nb"),
+    # a run of unary signs applies each minus: OpenFormula 6.4.4 (prefix "-": the number of the operand, negated),
+    # so a double minus turns a logical or numeric text into a number (the usual counting idiom; common practice);
+    # the parser folds "--" into one unary plus, which left TRUE as TRUE and SUMPRODUCT counted nothing
+    ("--TRUE", 1.0), ("--FALSE", 0.0), ('--"3"', 3.0), ("-+-2", 2.0), ("---2", -2.0), ("--2", 2.0),
+    ('SUMPRODUCT(--({"A";"B";"B";"C"}="B"))', 2.0), ('SUMPRODUCT(--({1,2,3}>1),{10,20,30})', 50.0),
 ]
 
 
@@ -63,6 +68,15 @@ def test_standard_function_as_spreadsheet_apps_give_it(formula, expected):
         assert got == pytest.approx(expected, rel=1e-15, abs=1e-15)
     else:
         assert got == expected
+
+
+def test_double_minus_of_text_that_is_no_number_is_value_error():
+    # OpenFormula 6.4.4: the prefix minus converts its operand to a number; "abc" is not one (#VALUE!)
+    from trueband.funcs.errors import TruebandError
+
+    with pytest.raises(TruebandError) as info:
+        evaluate_expression('=--"abc"')
+    assert info.value.code == "#VALUE!"
 
 
 def test_mround_of_opposite_signs_is_num():
@@ -106,3 +120,18 @@ def test_the_1904_date_system(tmp_path, date1904, expected):
     with open_workbook_package(report.output) as pkg:
         got = {c.ref: c.value for c in sheet_read.iter_cells(pkg.read(pkg.worksheets[0].part), pkg.shared_strings)}
     assert got == expected
+
+
+def test_double_minus_over_a_range_in_a_recalculated_book(tmp_path):
+    # the counting idiom SUMPRODUCT(--(range="B")) in a saved book (the engine's own tree, cell and filled-down
+    # forms): OpenFormula 6.4.4 prefix minus on each logical; 2 of the 4 texts are "B" (counted by hand)
+    words = [cell_xml(f"A{i}", w, t="inlineStr") for i, w in enumerate("ABBC", 1)]
+    formulas_ = [cell_xml("B1", 0, formula='SUMPRODUCT(--(A1:A4="B"))'),
+                 cell_xml("B2", 0, formula='SUMPRODUCT(--(A1:A4="B"),--(A1:A4<>""))'),
+                 cell_xml("B3", 0, formula="--(A3=\"B\")"), cell_xml("B4", 0, formula="--(A4=\"B\")")]
+    rows = [row_xml(i, [words[i - 1], formulas_[i - 1]]) for i in range(1, 5)]
+    src = handmade_package(tmp_path / "signs.xlsx", [("Signs", sheet_part(rows))])
+    report = recalculate(src, tmp_path / "out.xlsx", all_formulas=True)
+    with open_workbook_package(report.output) as pkg:
+        got = {c.ref: c.value for c in sheet_read.iter_cells(pkg.read(pkg.worksheets[0].part), pkg.shared_strings)}
+    assert [got["B1"], got["B2"], got["B3"], got["B4"]] == [2.0, 2.0, 1.0, 0.0]

@@ -29,7 +29,7 @@ from formulas.tokens.function import Function
 from formulas.tokens.operand import Empty, Error, Number, Range, String
 from formulas.tokens.operator import Operator
 
-from .text import parser, syntax_reason
+from .text import is_double_negation, parser, syntax_reason
 from ..workbook.cells import MAX_COLUMN, column_index
 
 __all__ = ["Ref", "Node", "Compiled", "formula_key", "compile_formula", "FormulaSyntaxError", "KeyTemplate"]
@@ -274,6 +274,8 @@ class _TreeBuilder(AstBuilder):
             token.update_input_tokens(*[a[0] for a in args])
             kind = "op" if isinstance(token, Operator) else "fn"
             node = Node(kind, name=token.name.upper(), args=tuple(a[1] for a in args))
+            if kind == "op" and is_double_negation(token):
+                node = Node("op", name="U-", args=(Node("op", name="U-", args=node.args),))
         else:
             node = _operand_node(token, self.row, self.col, self.refs)
         self._deque.append((token, node))

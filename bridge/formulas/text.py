@@ -24,6 +24,7 @@ import formulas
 import regex
 from formulas.errors import ParenthesesError
 from formulas.tokens.operand import Number, String
+from formulas.tokens.operator import OperatorToken
 
 from trueband.funcs.errors import TruebandError
 from trueband.funcs.registry import REGISTRY
@@ -57,6 +58,29 @@ class _String(String):
         return super().compile().replace(_LINE_BREAK, "\n")
 
 
+def is_double_negation(token) -> bool:
+    """True for a unary run of signs with an even number of minus signs (``--x``, ``-+-x``).
+
+    The library folds such a run into one unary plus, which leaves its operand as it is; the spreadsheet
+    applies each minus (OpenFormula 6.4.4: the prefix minus takes the number of its operand), so ``--TRUE``
+    is 1, ``--"3"`` is 3 and ``SUMPRODUCT(--(A1:A4="B"))`` counts the matches."""
+    return token.name == "u+" and "-" in (token.attr.get("sum_minus") or "")
+
+
+class _Signs(OperatorToken):
+    def set_expr(self, *tokens):
+        super().set_expr(*tokens)
+        if is_double_negation(self):  # its own node: "+x" stands for the unary plus
+            self.attr["expr"] = "--" + tokens[0].get_expr
+
+    def compile(self):
+        if not is_double_negation(self):
+            return super().compile()
+        from formulas.functions.operators import OPERATORS
+        negate = OPERATORS["U-"]
+        return lambda x: negate(negate(x))
+
+
 def _tracking(token_class):
     """A filter that notes, on the parser, the text still to read before it tries its token."""
     def read(text, context, parser):
@@ -66,7 +90,7 @@ def _tracking(token_class):
 
 
 class _Parser(formulas.Parser):
-    filters = [_tracking({Number: _Number, String: _String}.get(f, f)) for f in formulas.Parser.filters]
+    filters = [_tracking({Number: _Number, String: _String, OperatorToken: _Signs}.get(f, f)) for f in formulas.Parser.filters]
     rest: str | None = None
 
     def ast(self, expression, context=None):
