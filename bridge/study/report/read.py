@@ -25,6 +25,7 @@ from typing import Any
 from openpyxl import load_workbook
 from openpyxl.utils import get_column_letter
 
+from ..grid import CAUTION_INK
 from .charts import StudyChart, read_charts
 
 __all__ = [
@@ -194,7 +195,7 @@ def _blocks(title: str, rows: dict[int, dict[int, Any]], candidates: frozenset =
         if len(cells) == 1 and 1 in cells and isinstance(cells[1].value, str):
             flush_table()
             font = cells[1].font
-            if font is not None and font.b and not (font.color is not None and font.color.rgb == "007A2E00"):
+            if font is not None and font.b and not _in_caution_ink(font):
                 flush_para()
                 blocks.append(Heading(texts[1], row=r))
             else:
@@ -331,6 +332,12 @@ def _candidate_ids(wb, settings: dict[str, Any]) -> frozenset:
 def _base_title(title: str) -> str:
     """A further predictor's sheet, ``Reliability (Work Style)``, is read as its kind, ``Reliability``."""
     return title.split(" (")[0] if title.endswith(")") and " (" in title else title
+
+
+def _in_caution_ink(font) -> bool:
+    """A bold line in the study's caution ink is a caution, not a heading."""
+    rgb = font.color.rgb if font.color is not None else None
+    return isinstance(rgb, str) and rgb[-6:].upper() == CAUTION_INK.upper()
 
 
 def read_study(path: str | Path, analysis_sheets: tuple[str, ...]) -> StudyContent:
