@@ -267,7 +267,13 @@ def check_strata(wb, df, column, reference):
         below = rows[at + 2 + len(sites):at + 2 + len(sites) + 14]
         by = {r[0]: r[1] for r in below if r and r[0]}
         p = check_pooled(by, four)
-        refusal = " ".join(r[0] for r in below if r and isinstance(r[0], str) and r[0] and r[0] not in by)
+        # the refusal's lines: below the headline's row, up to the first empty one (empty when not refused)
+        refusal = []
+        for r in below[next(i for i, r in enumerate(below) if r and r[0] == "Pooled odds ratio to report") + 1:]:
+            if not r or r[0] in (None, ""):
+                break
+            refusal.append(r[0])
+        refusal = " ".join(refusal)
         if isinstance(p, float):
             refused = p < 0.05
             assert by["One pooled figure supported?"] == ("no: read the strata" if refused else "yes")
