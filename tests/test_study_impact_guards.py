@@ -206,8 +206,8 @@ def check_stratum_row(row, fs, fa, rs, ra):
     if fs == fa:
         assert odds == NOT_COMPUTABLE + "everybody in the group is selected, so its odds are infinite"
     else:   # statsmodels Table2x2 (shift_zeros=False: no 0.5 added, as IMPACT_ODDS_RATIO)
-        assert odds == pytest.approx(sm_contingency.Table2x2(np.array([[fs, fa - fs], [rs, ra - rs]]), shift_zeros=False).oddsratio,
-                                     rel=1e-12, abs=1e-15)
+        table_ = sm_contingency.Table2x2(np.array([[fs, fa - fs], [rs, ra - rs]]), shift_zeros=False)
+        assert odds == pytest.approx(table_.oddsratio, rel=1e-12, abs=1e-15)
 
 
 def check_pooled(by, four):
