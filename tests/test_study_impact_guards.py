@@ -245,6 +245,9 @@ def check_pooled(by, four):
         assert homogeneity == NO_DISCORDANT
     elif r_sum > 0:   # statsmodels, Tarone-adjusted as POOLED_HOMOGENEITY_P
         assert homogeneity == pytest.approx(st.test_equal_odds(adjust=True).pvalue, rel=1e-9)
+    else:
+        assert homogeneity == ZERO_UPPER.removesuffix(", so its interval has no finite upper limit") \
+            + ", so no table shares it and the test is undefined"
     return homogeneity
 
 
