@@ -140,6 +140,38 @@ def test_strata_pool_the_new_comparisons_against_statsmodels(edited):
     # Ethnicity's comparisons: every group but Z, in the table's order, against Z
     groups = [r[1] for r in rows if r and r[0] == "Group" and r[3] == "Z"]
     assert groups == ["X", "Y"]
+    # every comparison of both columns, stratum by stratum and pooled, with the verdict and headline (statsmodels
+    # StratifiedTable, scipy: see check_strata)
+    from test_study_impact_guards import check_strata
+    for column, reference in NEW.items():
+        check_strata(wb, df, column, reference)
+
+
+def test_the_refusal_to_pool_follows_the_switched_reference(tmp_path):
+    # strata that disagree (Simpson): built with one reference and switched to the other, the verdict, headline
+    # and refusal paragraph are recalculated live from the Breslow-Day p (statsmodels StratifiedTable agrees)
+    from test_study_impact_guards import check_strata
+
+    header, rows = table(n=900, seed=3, simpson=True)
+    result = make_study(write_book(tmp_path / "d.xlsx", header, rows, {**SETUP, "group columns": "Sex"}),
+                        tmp_path / "s.xlsx")
+    df = pd.DataFrame(rows, columns=header)
+    df["passed"] = df[[f"i{j}" for j in range(1, K + 1)]].sum(axis=1) >= CUT
+    wb = load_workbook(result.path, data_only=True)
+    built = [r[2] for r in sheet_rows(wb, "Impact") if r[0] == LABEL][0]
+    other = ({"Men", "Women"} - {built}).pop()
+    for reference in (built, other):
+        if reference == other:
+            book = load_workbook(result.path)   # one column: its table has no "Demographic column" heading
+            for r in book["Impact"].iter_rows(min_col=1, max_col=3):
+                if r[0].value == LABEL:
+                    r[2].value = other
+            book.save(result.path)
+            assert recalculate(result.path, in_place=True, all_formulas=True).ok
+            wb = load_workbook(result.path, data_only=True)
+        check_strata(wb, df, "Sex", reference)
+        sheet, coord = result.cells["summary_pooled_headline"]
+        assert wb[sheet][coord].value == "not supported: the strata differ"
 
 
 def _cut_block(rows, column):

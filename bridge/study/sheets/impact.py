@@ -6,7 +6,7 @@ from __future__ import annotations
 
 import dataclasses
 import inspect
-from typing import Mapping
+from typing import Callable, Mapping
 
 import numpy as np
 from openpyxl.utils import get_column_letter
@@ -218,30 +218,37 @@ def unless_reference(ctx: StudyContext, g, r: int, c: int, function: str, *args,
                      key: str | None = None, guards: tuple = (), places: Mapping | None = None) -> Ref:
     """Write ``=IF(group=reference,"label",IF(<guard>,"not computable: <reason>",...<wrap of function(args)>))``:
     one formula shape for every group's row, so that editing the reference group on Impact moves the label, the
-    figures and the reasons a figure is not computable with it. ``guards``: (condition template on ``places``,
-    the same condition in Python on their values, the reason in words), tested in order, live in the formula and
-    at build time alike. ``is_reference`` says whether the row is the reference group's at build time."""
+    figures and the reasons a figure is not computable with it. ``guards``: see :func:`guarded_call`.
+    ``is_reference`` says whether the row is the reference group's at build time."""
+    inner, check = guarded_call(ctx, g, function, *args, before=before, wrap=wrap, guards=guards, places=places)
+    text = "=" + ctx.text('IF({group}={reference},"' + label + '",', g.title, group=group, reference=reference) \
+        + inner + ")"
+    # the build-time reference row is not named (its figures are the label until the reference changes)
+    return ctx.put(g, r, c, text, (lambda: label) if is_reference else check, style=style,
+                   key=None if is_reference else key)
+
+
+def guarded_call(ctx: StudyContext, g, function: str, *args, before=None, wrap: str = "{}", guards: tuple = (),
+                 places: Mapping | None = None) -> tuple[str, Callable]:
+    """``IF(<guard>,"not computable: <reason>",...<wrap of function(args)>)`` (no ``=``) and its build-time check.
+    ``guards``: (condition template on ``places``, the same condition in Python on their values, the reason in
+    words), tested in order, live in the formula and at build time alike."""
     inner = wrap.format(ctx.call_text(function, args, g.title))
     for template, _, reason in reversed(guards):
         inner = ctx.text("IF(" + template + ',"' + NOT_COMPUTABLE + reason + '",', g.title, **places) + inner + ")"
-    text = "=" + ctx.text('IF({group}={reference},"' + label + '",', g.title, group=group, reference=reference) \
-        + inner + ")"
-    if is_reference:
-        check = (lambda: label)
-    else:
-        def check():
-            if guards:
-                # the values as stored (an exception for a cell not computable): a guard reads only what the
-                # guards before it leave defined, as the formula's IFs do
-                values = {k: getattr(v, "value", v) for k, v in places.items()}
-                for _, holds, reason in guards:
-                    if holds(**values):
-                        return NOT_COMPUTABLE + reason
-            if before is not None:
-                before()
-            return call(function, *(ctx.value(a) for a in args))
-    # the build-time reference row is not named (its figures are the label until the reference changes)
-    return ctx.put(g, r, c, text, check, style=style, key=None if is_reference else key)
+
+    def check():
+        if guards:
+            # the values as stored (an exception for a cell not computable): a guard reads only what the
+            # guards before it leave defined, as the formula's IFs do
+            values = {k: getattr(v, "value", v) for k, v in places.items()}
+            for _, holds, reason in guards:
+                if holds(**values):
+                    return NOT_COMPUTABLE + reason
+        if before is not None:
+            before()
+        return call(function, *(ctx.value(a) for a in args))
+    return inner, check
 
 
 def count_guards(function: str, part: str | None = None, *, chosen: str = "is selected",

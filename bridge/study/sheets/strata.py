@@ -10,13 +10,14 @@ figure is not supported and shows the strata instead of a headline.
 from __future__ import annotations
 
 import dataclasses
+import textwrap
 
 import numpy as np
 
 from ..context import Ref, StudyContext, area, cell
-from ..words import CAUTION, LIVE_REFERENCE_WORDS, POOLING_REFUSED
+from ..words import CAUTION, LIVE_REFERENCE_WORDS, NOT_COMPUTABLE, POOLING_REFUSED
 from .bands import BandsLayout
-from .impact import SHEET as IMPACT_SHEET, Impact, ImpactTable
+from .impact import SHEET as IMPACT_SHEET, Impact, ImpactTable, count_guards, guarded_call
 from .setup import SetupSheet
 
 __all__ = ["Strata", "write", "SHEET", "HOMOGENEITY_ALPHA"]
@@ -134,51 +135,117 @@ def _comparison(ctx, g, row, t: ImpactTable, j: int, focal: str, stratum, strata
                 strata=strata_col, stratum=stratum.numbers[s], selected=bands.selected))
         for c, function, style in ((6, "IMPACT_RATIO", "coef"), (7, "IMPACT_ODDS_RATIO", "coef"),
                                    (8, "IMPACT_FISHER", "p")):
-            ctx.formula(g, r, c, function, *refs, style=style,
-                        before=None if function == "IMPACT_FISHER" else setup.passes)
+            # the same live guards as the Impact sheet's (a stratum where the reference group, as the reference
+            # cell names it now, has no applicants or nobody selected says so in words)
+            text, check = guarded_call(ctx, g, function, *refs, guards=count_guards(function),
+                                       places=dict(zip(_FOUR, refs)),
+                                       before=None if function == "IMPACT_FISHER" else setup.passes)
+            ctx.put(g, r, c, "=" + text, check, style=style)
     last = first + len(names) - 1
     g.set(last + 1, 1, "All strata added together")
     for c in range(2, 6):
         g.set(last + 1, c, ctx.text("=SUM({x})", SHEET, x=area(SHEET, c, first, c, last)), "count")
-    table = area(SHEET, 2, first, 5, last, value=counts.tolist())
-    at = last + 3
-    figures = (("Mantel–Haenszel common odds ratio (group over reference)", "POOLED_ODDS_RATIO", ("estimate",
-                setup.confidence), "coef", "pooled_odds_ratio"),
-               ("  lower limit", "POOLED_ODDS_RATIO", ("lower", setup.confidence), "coef", "pooled_or_lower"),
-               ("  upper limit", "POOLED_ODDS_RATIO", ("upper", setup.confidence), "coef", "pooled_or_upper"),
-               ("Cochran–Mantel–Haenszel p (continuity corrected)", "POOLED_IMPACT_P", (), "p", "pooled_p"),
-               ("Exact conditional p (two-sided)", "POOLED_EXACT_P", (), "p", "pooled_exact_p"),
-               ("Breslow–Day p (do the strata's odds ratios agree?)", "POOLED_HOMOGENEITY_P", (), "p",
-                "homogeneity_p"))
+    columns = {name: area(SHEET, 2 + k, first, 2 + k, last) for k, name in enumerate(_FOUR)}
+    g.set(last + 2, 1, "Strata carrying information")
+    ctx.expression(g, last + 2, 2, _INFORMATIVE, lambda: int(_informative(counts).sum()), style="count", **columns)
+    g.set(last + 2, 3, f"of {len(names)} (both groups have applicants; some but not all of them selected)")
+    written = _pooled(ctx, g, last + 3, area(SHEET, 2, first, 5, last, value=counts.tolist()), counts, columns,
+                      setup, prefix, key)
+    return _verdict(ctx, g, last + 3 + len(_POOLED), written, prefix, key)
+
+
+#: The four counts of a stratum's row, in the order of its columns (the Impact sheet's guard places).
+_FOUR = ("fs", "fa", "rs", "ra")
+
+#: How many strata carry information for the pooled figures (the functions' own rule: both groups have
+#: applicants, and somebody but not everybody of the two is selected).
+_INFORMATIVE = "SUMPRODUCT(({fa}>0)*({ra}>0)*({fs}+{rs}>0)*({fa}-{fs}+{ra}-{rs}>0))"
+
+
+def _informative(counts: np.ndarray) -> np.ndarray:
+    fs, fa, rs, ra = counts.T
+    return (fa > 0) & (ra > 0) & (fs + rs > 0) & (fa - fs + ra - rs > 0)
+
+
+#: The live guards of the pooled figures: (condition template on the strata's count columns, the condition in
+#: Python on the counts, the reason in words).
+_NO_INFORMATION = (
+    _INFORMATIVE + "=0", lambda n: not _informative(n).any(),
+    "no stratum carries information: in each, one of the two groups has no applicants (a stratum where a group "
+    "has no applicants carries none for the Mantel–Haenszel figures), or nobody or everybody is selected")
+_NO_DISCORDANT = (
+    "SUMPRODUCT(({fa}-{fs})*{rs})=0", lambda n: not ((n[:, 1] - n[:, 0]) * n[:, 2]).any(),
+    "in every stratum that carries information everybody of the group is selected or nobody of the reference "
+    "group is (the sum of b·c/n is 0), so the pooled odds ratio is undefined")
+_ZERO_ODDS = (
+    "SUMPRODUCT({fs}*({ra}-{rs}))=0", lambda n: not (n[:, 0] * (n[:, 3] - n[:, 2])).any(),
+    "nobody of the group is selected in any stratum where somebody of the reference group is not (the sum of "
+    "a·d/n is 0): the pooled odds ratio is 0")
+_TOO_FEW = (
+    _INFORMATIVE + "<2", lambda n: _informative(n).sum() < 2,
+    "the homogeneity test needs at least 2 strata that carry information (a stratum where one group has no "
+    "applicants, or where nobody or everybody is selected, carries none)")
+
+#: (label, function, its arguments after the strata, style, name, guards) of the pooled figures.
+_POOLED = (
+    ("Mantel–Haenszel common odds ratio (group over reference)", "POOLED_ODDS_RATIO", ("estimate",), "coef",
+     "pooled_odds_ratio", (_NO_INFORMATION, _NO_DISCORDANT)),
+    ("  lower limit", "POOLED_ODDS_RATIO", ("lower",), "coef", "pooled_or_lower", (_NO_INFORMATION, _NO_DISCORDANT)),
+    ("  upper limit", "POOLED_ODDS_RATIO", ("upper",), "coef", "pooled_or_upper",
+     (_NO_INFORMATION, _NO_DISCORDANT, (_ZERO_ODDS[0], _ZERO_ODDS[1], _ZERO_ODDS[2] + ", so its interval has no "
+                                        "finite upper limit"))),
+    ("Cochran–Mantel–Haenszel p (continuity corrected)", "POOLED_IMPACT_P", (), "p", "pooled_p",
+     (_NO_INFORMATION,)),
+    ("Exact conditional p (two-sided)", "POOLED_EXACT_P", (), "p", "pooled_exact_p", (_NO_INFORMATION,)),
+    ("Breslow–Day p (do the strata's odds ratios agree?)", "POOLED_HOMOGENEITY_P", (), "p", "homogeneity_p",
+     (_NO_INFORMATION, _TOO_FEW, _NO_DISCORDANT, (_ZERO_ODDS[0], _ZERO_ODDS[1], _ZERO_ODDS[2] + ", so no table "
+                                                  "shares it and the test is undefined"))),
+)
+
+
+def _pooled(ctx, g, at: int, table: Ref, counts: np.ndarray, columns: dict, setup: SetupSheet, prefix: str,
+            key: str | None) -> dict[str, Ref]:
+    """The pooled figures from row ``at``, each behind live guards on the strata's counts (so that switching the
+    reference group on Impact turns a figure into the reason it is not computable, and back)."""
     written = {}
-    for k, (label, function, extra, style, name) in enumerate(figures):
+    for k, (label, function, extra, style, name, guards) in enumerate(_POOLED):
         g.set(at + k, 1, label)
-        written[name] = ctx.formula(g, at + k, 2, function, table, *extra, style=style, checked=ctx.full_checks or
-                                    function != "POOLED_EXACT_P",
-                                    key=(name if key == "" else None) or f"{prefix}{name}")
-    verdict_row = at + len(figures)
-    g.set(verdict_row, 1, "One pooled figure supported?")
-    homogeneity = written["homogeneity_p"]
-    verdict = None
-    if isinstance(homogeneity.value, float):
-        refused = homogeneity.value < HOMOGENEITY_ALPHA
-        verdict = ctx.expression(g, verdict_row, 2, 'IF({p}<{alpha},"no: read the strata","yes")',
-                                 lambda: "no: read the strata" if refused else "yes", p=homogeneity,
-                                 alpha=HOMOGENEITY_ALPHA, key=f"{prefix}pooling_supported" if key is None
-                                 else "pooling_supported")
-        pooled = written["pooled_odds_ratio"]
-        g.set(verdict_row + 1, 1, "Pooled odds ratio to report")
-        if isinstance(pooled.value, float):
-            headline = ctx.expression(
-                g, verdict_row + 1, 2, 'IF({p}<{alpha},"not supported: the strata differ",{pooled})',
-                lambda: "not supported: the strata differ" if refused else pooled.value, style="coef",
-                p=homogeneity, alpha=HOMOGENEITY_ALPHA, pooled=pooled,
-                key=f"{prefix}pooled_headline" if key is None else "pooled_headline")
-        else:
-            headline = ctx.not_computable_at(g, verdict_row + 1, 2, pooled.value.message)
-        verdict_row += 1
-        if refused:
-            verdict_row += g.para(verdict_row + 1, 1, POOLING_REFUSED, "caution", width=150)
-    else:
-        headline = ctx.not_computable_at(g, verdict_row, 2, "the homogeneity test is not computable (see above)")
-    return Strata(written["pooled_odds_ratio"], homogeneity, verdict, headline), verdict_row + 3
+        extra = extra + (setup.confidence,) if extra else ()
+        live = tuple((template, lambda n=counts, holds=holds, **_: bool(holds(n)), reason)
+                     for template, holds, reason in guards)
+        text, check = guarded_call(ctx, g, function, table, *extra, guards=live, places=columns)
+        if not (ctx.full_checks or function != "POOLED_EXACT_P"):
+            check = None
+        written[name] = ctx.put(g, at + k, 2, "=" + text, check, style=style,
+                                key=(name if key == "" else None) or f"{prefix}{name}")
+    return written
+
+
+def _verdict(ctx, g, row: int, written: dict[str, Ref], prefix: str, key: str | None):
+    """Whether one pooled figure is supported, the figure to report and, when the strata's odds ratios differ,
+    why none is: live formulas on the Breslow–Day p; returns (Strata, the next row)."""
+    p, pooled = written["homogeneity_p"], written["pooled_odds_ratio"]
+    alpha = HOMOGENEITY_ALPHA
+    untested = NOT_COMPUTABLE + "the homogeneity test is not computable (see above)"
+    value = p.value if isinstance(p.value, float) else None
+    refused = value is not None and value < alpha
+    g.set(row, 1, "One pooled figure supported?")
+    verdict = ctx.expression(
+        g, row, 2, 'IF(ISNUMBER({p}),IF({p}<{alpha},"no: read the strata","yes"),{untested})',
+        lambda: untested if value is None else "no: read the strata" if refused else "yes", p=p, alpha=alpha,
+        untested=untested, key=f"{prefix}pooling_supported" if key is None else "pooling_supported")
+    g.set(row + 1, 1, "Pooled odds ratio to report")
+    missing = NOT_COMPUTABLE + "the pooled odds ratio is not computable (see above)"
+    headline = ctx.expression(
+        g, row + 1, 2, 'IF(ISNUMBER({p}),IF({p}<{alpha},"not supported: the strata differ",IF(ISNUMBER({pooled}),'
+                       '{pooled},{missing})),{untested})',
+        lambda: (untested if value is None else "not supported: the strata differ" if refused
+                 else pooled.value if isinstance(pooled.value, float) else missing),
+        style="coef", p=p, alpha=alpha, pooled=pooled, missing=missing, untested=untested,
+        key=f"{prefix}pooled_headline" if key is None else "pooled_headline")
+    # the refusal (Simpson's paradox) shows, live, only while the Breslow–Day p is below the level
+    lines = textwrap.wrap(POOLING_REFUSED, 150)
+    for k, line in enumerate(lines):
+        ctx.expression(g, row + 2 + k, 1, 'IF(ISNUMBER({p}),IF({p}<{alpha},{line},""),"")',
+                       lambda line=line: line if refused else "", style="caution", p=p, alpha=alpha, line=line)
+    return Strata(pooled, p, verdict, headline), row + 2 + len(lines) + 2
