@@ -6,8 +6,9 @@ one-row range that moves with the row a block of rows (``RowRange``), an
 absolute reference a fixed range (``Fixed``). Arithmetic, comparisons,
 ``IF``, the row-wise aggregates (``SUM``, ``AVERAGE``, ``COUNT``, ``MIN``,
 ``MAX``) and ``ABS``/``SQRT`` run as numpy operations on clean numbers
-(``ROUND`` does not: the library rounds halves away from zero, numpy to
-even, so it goes through the library row by row); registered elementwise
+(``ROUND``, ``ROUNDUP``, ``ROUNDDOWN``, ``TRUNC`` call the engine's own
+decimal rounding on each clean number, without the library's per-cell
+wrapper); registered elementwise
 functions run their body on whole float arrays (failing blocks are halved
 to find the rows that fail, as :func:`trueband.funcs.registry.call_column`
 does). Every row that is not clean (text, blanks, errors, a non-finite
@@ -45,6 +46,7 @@ from ..formulas.compile import Node
 from ..formulas.library import (ERROR_LOG, NOT_IMPLEMENTED, PassError, function_table, message_for, range_argument,
                                 scalar_argument)
 from ..formulas.names import registered_name
+from ..formulas.standard import NUMBER_FUNCTIONS, STANDARD_CORRECTIONS
 from .criteria import AGGREGATE_FUNCTIONS, COUNT_FUNCTIONS, count_if_rows
 from .eval_cell import area_value, range_aggregate, single_value_arguments
 from .graph import Run
@@ -156,8 +158,8 @@ _ARITH = {"+": np.add, "-": np.subtract, "*": np.multiply, "/": np.divide, "^": 
 _COMPARE = {"=": np.equal, "<>": np.not_equal, "<": np.less, ">": np.greater, "<=": np.less_equal,
             ">=": np.greater_equal}
 _AGGREGATES = ("SUM", "AVERAGE", "COUNT", "MIN", "MAX")
-#: Functions of one number run as numpy operations on clean numbers. ROUND is not among them: the library
-#: rounds halves away from zero, numpy's rounding to even; it goes through the library row by row.
+#: Functions of one number run as numpy operations on clean numbers. ROUND is not among them: the engine's
+#: ROUND rounds the 15-digit decimal form, halves away from zero (``_RunEval.number_function`` calls it per number).
 _ELEMENTWISE = {"ABS": np.abs, "SQRT": np.sqrt}
 
 
@@ -333,11 +335,35 @@ class _RunEval:
         fn = _library_callable(name, table[name])
         if not any(isinstance(a, (Col, RowRange)) for a in args):
             return _constant(fn(*[a.a if isinstance(a, Fixed) else a for a in args]))
+        if name in NUMBER_FUNCTIONS and table[name] is STANDARD_CORRECTIONS.get(name):
+            fast = self.number_function(name, fn, args)
+            if fast is not None:
+                return fast
         if name in _ELEMENTWISE and all(_numbers_of(a) is not None for a in args):
             with np.errstate(all="ignore"):
                 res = _ELEMENTWISE[name](_numbers_of(args[0]))
             return self.finite_or_library(res, fn, args, name)
         return Col(_tidy(self.rowwise(fn, args, label=name)))
+
+    def number_function(self, name: str, fn, args: list):
+        """``ROUND``/``ROUNDUP``/``ROUNDDOWN``/``TRUNC`` of a column of clean numbers, the other arguments one
+        finite number for every row: the corrected function called on each finite number directly, as the
+        library's element-by-element wrapper calls it, without the wrapper's per-cell arrays; None when it does
+        not apply. Rows whose number or result is not finite, or where the function raises, go to the library."""
+        x = _numbers_of(args[0]) if args else None
+        rest = [_numbers_of(a) for a in args[1:]]
+        if not isinstance(x, np.ndarray) or any(r is None or isinstance(r, np.ndarray) or not np.isfinite(r)
+                                                for r in rest):
+            return None
+        body, rest = NUMBER_FUNCTIONS[name], [float(r) for r in rest]
+
+        def one(v: float) -> float:
+            try:
+                return body(v, *rest) if np.isfinite(v) else np.nan
+            except Exception:  # the library's wrapper decides (an error value, or the reference path)
+                return np.nan
+
+        return self.finite_or_library(np.array([one(v) for v in x.tolist()], dtype=float), fn, args, name)
 
     def per_row(self, node: Node) -> list | None:
         """A criterion's value in each row of the run (a list), or None when it is a range of several cells."""
