@@ -50,8 +50,8 @@ from ..formulas.standard import NUMBER_FUNCTIONS, STANDARD_CORRECTIONS
 from .criteria import AGGREGATE_FUNCTIONS, COUNT_FUNCTIONS, count_if_rows
 from .eval_cell import area_value, range_aggregate, single_value_arguments
 from .graph import Run
-from .values import (NAME_ERROR, VALUE_ERROR, CannotEvaluate, CellProblem, VectorUnsupported, final_array, final_value,
-                     unknown_function)
+from .values import (EMPTY, NAME_ERROR, VALUE_ERROR, CannotEvaluate, CellProblem, VectorUnsupported, final_array,
+                     final_value, unknown_function)
 from ..workbook.cells import MAX_COLUMN, MAX_ROW
 
 __all__ = ["RunResult", "evaluate_run"]
@@ -339,6 +339,10 @@ class _RunEval:
             fast = self.number_function(name, fn, args)
             if fast is not None:
                 return fast
+        if name == "INDEX" and len(args) == 2:
+            fast = self.index_rows(fn, args)
+            if fast is not None:
+                return fast
         if name in _ELEMENTWISE and all(_numbers_of(a) is not None for a in args):
             with np.errstate(all="ignore"):
                 res = _ELEMENTWISE[name](_numbers_of(args[0]))
@@ -364,6 +368,29 @@ class _RunEval:
                 return np.nan
 
         return self.finite_or_library(np.array([one(v) for v in x.tolist()], dtype=float), fn, args, name)
+
+    def index_rows(self, fn, args: list):
+        """``INDEX(range, k)`` with one fixed range of one column (or one row) and a position per row: the
+        cell at each whole position 1..length taken from the range at once (a blank read as 0, as the library
+        reads it); None when it does not apply. Other positions (not whole, out of the range, not numbers)
+        go to the library row by row."""
+        area, k = args
+        if not isinstance(area, Fixed) or not isinstance(area.a, np.ndarray) or area.a.ndim != 2:
+            return None
+        if min(area.a.shape) != 1 or max(area.a.shape) < 2:
+            return None
+        k = _numbers_of(k)
+        if not isinstance(k, np.ndarray):
+            return None
+        cells = area.a.ravel()
+        ok = (k >= 1) & (k <= cells.size) & (np.floor(k) == k)
+        picked = cells[np.where(ok, k, 1).astype(np.int64) - 1]
+        out = np.empty(self.n, dtype=object)
+        out[:] = [0 if v is EMPTY else (v.item() if isinstance(v, np.generic) else v) for v in picked]
+        if not ok.all():
+            rest = np.flatnonzero(~ok)
+            out[rest] = self.rowwise(fn, args, rest, label="INDEX")[rest]
+        return Col(_tidy(out))
 
     def per_row(self, node: Node) -> list | None:
         """A criterion's value in each row of the run (a list), or None when it is a range of several cells."""
