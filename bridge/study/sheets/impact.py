@@ -312,6 +312,12 @@ _FIGURES = ((5, "IMPACT_RATIO", lambda s: (), "coef"), (6, "FOUR_FIFTHS", lambda
             (15, "IMPACT_SMALL_NUMBERS", lambda s: (), None))
 
 
+#: The lowest of ``{ratios}``: the words ``missing`` when fewer than ``count`` are numbers (a ratio not
+#: computable is words), but an error among them shows as that error (MIN passes it on; COUNT and ISNUMBER would
+#: hide it), e.g. in an app without trueband's functions, whose ratio cells are #NAME?. The cells after it (its
+#: group, the lowest of all columns) test ISTEXT, not ISNUMBER, for the same reason.
+LOWEST = 'IF(ISERROR(MIN({{ratios}})),MIN({{ratios}}),IF(COUNT({{ratios}})<{count},"{missing}",MIN({{ratios}})))'
+
 #: The lowest ratio of a table (or of every column) when one of its ratios is not computable.
 RATIO_MISSING = "an impact ratio of this table is not computable (see the table)"
 RATIO_MISSING_ALL = "an impact ratio is not computable (see the tables above)"
@@ -324,7 +330,7 @@ def _lowest(ctx, g, last, first, groups, reference, ratios, column, setup) -> tu
     values = [ratios[k].value for k in groups if k != reference]
     missing = NOT_COMPUTABLE + RATIO_MISSING
     min_ratio = ctx.expression(
-        g, last + 2, 5, "IF(COUNT({ratios})<{comparisons},\"" + missing + "\",MIN({ratios}))",
+        g, last + 2, 5, LOWEST.format(count="{comparisons}", missing=missing),
         lambda: min(values) if all(isinstance(x, float) for x in values) else missing, style="coef",
         key=f"{column}:min_ratio", ratios=area(SHEET, 5, first, 5, last), comparisons=len(groups) - 1)
     g.set(last + 3, 1, "Groups below four-fifths")
@@ -365,7 +371,7 @@ def _overview(ctx: StudyContext, g, at: int, tables: list[ImpactTable]):
         lowest = ""
         if isinstance(t.min_ratio.value, float):
             lowest = min((k for k in t.names if k != t.reference), key=lambda k: t.ratios[k].value)
-        ctx.expression(g, r, 3, 'IF(ISNUMBER({ratio}),INDEX({names},MATCH({ratio},{ratios},0)),"")',
+        ctx.expression(g, r, 3, 'IF(ISTEXT({ratio}),"",INDEX({names},MATCH({ratio},{ratios},0)))',
                        lambda k=lowest: k, names=area(SHEET, 1, t.first, 1, t.last), ratio=ratio,
                        ratios=area(SHEET, 5, t.first, 5, t.last))
         ctx.link(g, r, 4, t.n_below, style="count")
@@ -376,7 +382,7 @@ def _overview(ctx: StudyContext, g, at: int, tables: list[ImpactTable]):
     computable = [t for t in tables if isinstance(t.min_ratio.value, float)]
     missing = NOT_COMPUTABLE + RATIO_MISSING_ALL
     ratios = area(SHEET, 2, first, 2, last)
-    low = ctx.expression(g, total, 2, "IF(COUNT({ratios})<{columns},\"" + missing + "\",MIN({ratios}))",
+    low = ctx.expression(g, total, 2, LOWEST.format(count="{columns}", missing=missing),
                          lambda: min(t.min_ratio.value for t in computable) if len(computable) == len(tables)
                          else missing, style="coef", key="min_ratio", ratios=ratios, columns=len(tables))
     where_text = ""
@@ -384,8 +390,8 @@ def _overview(ctx: StudyContext, g, at: int, tables: list[ImpactTable]):
         best = min(computable, key=lambda t: t.min_ratio.value)
         lowest_group = min((k for k in best.names if k != best.reference), key=lambda k: best.ratios[k].value)
         where_text = f"{lowest_group} ({best.demographic.header})"
-    where = ctx.expression(g, total, 3, 'IF(ISNUMBER({low}),INDEX({groups},MATCH({low},{ratios},0))&" ("&INDEX('
-                                        '{columns},MATCH({low},{ratios},0))&")","")', lambda: where_text,
+    where = ctx.expression(g, total, 3, 'IF(ISTEXT({low}),"",INDEX({groups},MATCH({low},{ratios},0))&" ("&INDEX('
+                                        '{columns},MATCH({low},{ratios},0))&")")', lambda: where_text,
                            key="min_ratio_where", groups=area(SHEET, 3, first, 3, last), low=low, ratios=ratios,
                            columns=area(SHEET, 1, first, 1, last))
     below = ctx.expression(g, total, 4, "SUM({below})", None, style="count", key="n_below",
