@@ -6,8 +6,9 @@ ISNUMBER; Excel and LibreOffice Calc alike), so a guard written with them turned
 words. In an app without trueband's functions the ratio cells are #NAME?; the lowest ratio then said "an impact
 ratio of this table is not computable", which is not what happened (LibreOffice showed exactly that, see
 tests/test_study_libreoffice.py::test_libreoffice_recomputes_the_standard_formulas_to_the_same_values). MIN over
-a range passes an error on (same sources), so the lowest ratio tests ISERROR(MIN(...)) first and the cells after
-it test ISTEXT instead of ISNUMBER. Checked here with trueband's engine; that LibreOffice test checks LibreOffice.
+a range passes an error on (same sources), so the lowest ratio counts the words among the ratios (ISTEXT) and
+otherwise takes MIN, and the cells after it test ISTEXT instead of ISNUMBER. Checked here with trueband's engine;
+that LibreOffice test checks LibreOffice.
 """
 
 from __future__ import annotations
