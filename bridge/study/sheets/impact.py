@@ -312,6 +312,13 @@ _FIGURES = ((5, "IMPACT_RATIO", lambda s: (), "coef"), (6, "FOUR_FIFTHS", lambda
             (15, "IMPACT_SMALL_NUMBERS", lambda s: (), None))
 
 
+#: The lowest of ``{ratios}``: the words ``missing`` when more than ``words`` of them are words (a ratio not
+#: computable is words; a table's range also holds the reference group's label), else MIN, which passes an error
+#: among them on. Not COUNT or ISNUMBER: they skip an error (OpenFormula, Excel and LibreOffice alike), so in an
+#: app without trueband's functions (ratio cells #NAME?) the sheet said "not computable", which is not what
+#: happened. The cells after it (its group, the lowest of all columns) test ISTEXT, not ISNUMBER, likewise.
+LOWEST = 'IF(SUMPRODUCT(ISTEXT({{ratios}})*1)>{words},"{missing}",MIN({{ratios}}))'
+
 #: The lowest ratio of a table (or of every column) when one of its ratios is not computable.
 RATIO_MISSING = "an impact ratio of this table is not computable (see the table)"
 RATIO_MISSING_ALL = "an impact ratio is not computable (see the tables above)"
@@ -324,9 +331,9 @@ def _lowest(ctx, g, last, first, groups, reference, ratios, column, setup) -> tu
     values = [ratios[k].value for k in groups if k != reference]
     missing = NOT_COMPUTABLE + RATIO_MISSING
     min_ratio = ctx.expression(
-        g, last + 2, 5, "IF(COUNT({ratios})<{comparisons},\"" + missing + "\",MIN({ratios}))",
+        g, last + 2, 5, LOWEST.format(words=1, missing=missing),
         lambda: min(values) if all(isinstance(x, float) for x in values) else missing, style="coef",
-        key=f"{column}:min_ratio", ratios=area(SHEET, 5, first, 5, last), comparisons=len(groups) - 1)
+        key=f"{column}:min_ratio", ratios=area(SHEET, 5, first, 5, last))
     g.set(last + 3, 1, "Groups below four-fifths")
     below = ctx.expression(g, last + 3, 5, 'COUNTIF({flags},"yes")', None, style="count",
                            key=f"{column}:n_below", flags=area(SHEET, 6, first, 6, last))
@@ -365,7 +372,7 @@ def _overview(ctx: StudyContext, g, at: int, tables: list[ImpactTable]):
         lowest = ""
         if isinstance(t.min_ratio.value, float):
             lowest = min((k for k in t.names if k != t.reference), key=lambda k: t.ratios[k].value)
-        ctx.expression(g, r, 3, 'IF(ISNUMBER({ratio}),INDEX({names},MATCH({ratio},{ratios},0)),"")',
+        ctx.expression(g, r, 3, 'IF(ISTEXT({ratio}),"",INDEX({names},MATCH({ratio},{ratios},0)))',
                        lambda k=lowest: k, names=area(SHEET, 1, t.first, 1, t.last), ratio=ratio,
                        ratios=area(SHEET, 5, t.first, 5, t.last))
         ctx.link(g, r, 4, t.n_below, style="count")
@@ -376,16 +383,16 @@ def _overview(ctx: StudyContext, g, at: int, tables: list[ImpactTable]):
     computable = [t for t in tables if isinstance(t.min_ratio.value, float)]
     missing = NOT_COMPUTABLE + RATIO_MISSING_ALL
     ratios = area(SHEET, 2, first, 2, last)
-    low = ctx.expression(g, total, 2, "IF(COUNT({ratios})<{columns},\"" + missing + "\",MIN({ratios}))",
+    low = ctx.expression(g, total, 2, LOWEST.format(words=0, missing=missing),
                          lambda: min(t.min_ratio.value for t in computable) if len(computable) == len(tables)
-                         else missing, style="coef", key="min_ratio", ratios=ratios, columns=len(tables))
+                         else missing, style="coef", key="min_ratio", ratios=ratios)
     where_text = ""
     if len(computable) == len(tables):
         best = min(computable, key=lambda t: t.min_ratio.value)
         lowest_group = min((k for k in best.names if k != best.reference), key=lambda k: best.ratios[k].value)
         where_text = f"{lowest_group} ({best.demographic.header})"
-    where = ctx.expression(g, total, 3, 'IF(ISNUMBER({low}),INDEX({groups},MATCH({low},{ratios},0))&" ("&INDEX('
-                                        '{columns},MATCH({low},{ratios},0))&")","")', lambda: where_text,
+    where = ctx.expression(g, total, 3, 'IF(ISTEXT({low}),"",INDEX({groups},MATCH({low},{ratios},0))&" ("&INDEX('
+                                        '{columns},MATCH({low},{ratios},0))&")")', lambda: where_text,
                            key="min_ratio_where", groups=area(SHEET, 3, first, 3, last), low=low, ratios=ratios,
                            columns=area(SHEET, 1, first, 1, last))
     below = ctx.expression(g, total, 4, "SUM({below})", None, style="count", key="n_below",
