@@ -353,10 +353,13 @@ def test_a_sheet_too_wide_narrows_empty_columns_and_wraps_labels_but_keeps_built
             g.set(2, c, "=1+1", "coef")
     g.set(3, 2, "a label with several words", None)  # cut by the next cell: wraps when its column narrows
     g.set(3, 3, 1.0)
-    g.set(4, 6, '=A1&" ("&B1&")"')  # a formula that builds a text: its width is unknown, so it is kept
+    g.set(4, 6, '=A1&" ("&B1&")"')  # a formula that builds a text: narrowed no further than its estimated text
     g.widths[6] = 16.0
+    g.set(5, 7, '=IF(A1>0,"a very long reading of the steps that runs far","short")')  # wraps: a cell to its right
+    g.set(5, 8, 2.0)
     printing._lay_out_grid(g, "T", "2026-01-01", '#,##0 "USD"')
     assert g.widths[5] == printing.EMPTY_COLUMN_UNITS
     assert (3, 2) in g.wrapped and g.widths[2] < len("a label with several words") * printing.CHAR_UNITS
-    assert g.widths[6] == 16.0
+    assert g.widths[6] >= len("0.0000 (0.0000)") * printing.CHAR_UNITS
+    assert (5, 7) in g.wrapped and g.heights[5] >= 2 * printing.LINE_PT  # its longest branch measured
     assert g.heights[3] >= 2 * printing.LINE_PT  # the wrapped label gets its lines
