@@ -424,7 +424,12 @@ def restricted_reliability(rxx_applicants: float, u_x: float) -> float:
     """
     v.reliability("rxx_applicants", rxx_applicants)
     v.positive("u_x", u_x)
-    return 1.0 - (1.0 - rxx_applicants) / (u_x * u_x)
+    with np.errstate(over="ignore", divide="ignore"):
+        implied = 1.0 - (1.0 - np.asarray(rxx_applicants, dtype=float)) / np.square(np.asarray(u_x, dtype=float))
+    if not np.isfinite(implied).all():
+        raise DomainError("u_x is too small: (1 − rxx_applicants) / u_x² is beyond the number range",
+                          argument="u_x")
+    return implied if implied.ndim else float(implied)
 
 
 def _sample_size(name, n, low):
@@ -744,7 +749,8 @@ def nth_number_row(column: Range, k: float) -> float:
     v.integer("k", k)
     v.at_least("k", k, 1)
     positions = np.flatnonzero(~np.isnan(values)) + 1
-    kk = np.asarray(k, dtype=np.int64)
-    found = kk <= positions.size
-    out = np.where(found, positions[np.clip(kk, 1, max(positions.size, 1)) - 1] if positions.size else 0, 0)
+    wanted = np.asarray(k, dtype=float)
+    found = wanted <= positions.size  # compared as floats: a k beyond any column is simply not found
+    kk = np.where(found, wanted, 1).astype(np.int64)
+    out = np.where(found, positions[kk - 1] if positions.size else 0, 0)
     return out if out.ndim else int(out)

@@ -56,6 +56,7 @@ MIXED_FORMULAS = {
     "AA": "=AA{prev}+B{r}",  # a running total: each row reads the row above
     "AB": "=IF(ISERROR(H{r}),0,H{r})*2",
     "AC": '=COUNTIFS($B$2:$B$11,">=2",$D$2:$D$11,"<="&ROW())',  # engine/criteria.py: counted with numpy
+    "AD": "=INDEX($A$2:$A$13,15-ROW())",  # eval_run's INDEX: whole positions at once (13, past the end: #REF!)
 }
 
 

@@ -133,6 +133,9 @@ def test_a_study_whose_only_predictor_is_a_panel(tmp_path, capsys):
     out = capsys.readouterr().out
     assert "reliability of the panel's mean rating, ICC(A,k): " in out and "coefficient alpha" not in out
     values = load_workbook(tmp_path / "s.xlsx", data_only=True)
-    assert values["Reliability"]["B20"].value == pytest.approx(values["Raters"]["B14"].value, rel=1e-15)
+    from trueband.bridge.study.sheets.reliability import MEASUREMENT_ROW
+
+    used = values["Reliability"].cell(MEASUREMENT_ROW + 1, 2).value  # the reliability used for the SEM and bands
+    assert used == pytest.approx(values["Raters"]["B14"].value, rel=1e-15)
     got = [values["Bands"].cell(i + 2, 3).value for i in range(len(ratings))]
     np.testing.assert_allclose(np.array(got, float), np.nanmean(ratings, axis=1), rtol=1e-12)  # numpy.nanmean

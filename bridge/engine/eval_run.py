@@ -6,8 +6,9 @@ one-row range that moves with the row a block of rows (``RowRange``), an
 absolute reference a fixed range (``Fixed``). Arithmetic, comparisons,
 ``IF``, the row-wise aggregates (``SUM``, ``AVERAGE``, ``COUNT``, ``MIN``,
 ``MAX``) and ``ABS``/``SQRT`` run as numpy operations on clean numbers
-(``ROUND`` does not: the library rounds halves away from zero, numpy to
-even, so it goes through the library row by row); registered elementwise
+(``ROUND``, ``ROUNDUP``, ``ROUNDDOWN``, ``TRUNC`` call the engine's own
+decimal rounding on each clean number, without the library's per-cell
+wrapper); registered elementwise
 functions run their body on whole float arrays (failing blocks are halved
 to find the rows that fail, as :func:`trueband.funcs.registry.call_column`
 does). Every row that is not clean (text, blanks, errors, a non-finite
@@ -45,11 +46,12 @@ from ..formulas.compile import Node
 from ..formulas.library import (ERROR_LOG, NOT_IMPLEMENTED, PassError, function_table, message_for, range_argument,
                                 scalar_argument)
 from ..formulas.names import registered_name
+from ..formulas.standard import NUMBER_FUNCTIONS, STANDARD_CORRECTIONS
 from .criteria import AGGREGATE_FUNCTIONS, COUNT_FUNCTIONS, count_if_rows
 from .eval_cell import area_value, range_aggregate, single_value_arguments
 from .graph import Run
-from .values import (NAME_ERROR, VALUE_ERROR, CannotEvaluate, CellProblem, VectorUnsupported, final_array, final_value,
-                     unknown_function)
+from .values import (EMPTY, NAME_ERROR, VALUE_ERROR, CannotEvaluate, CellProblem, VectorUnsupported, final_array,
+                     final_value, unknown_function)
 from ..workbook.cells import MAX_COLUMN, MAX_ROW
 
 __all__ = ["RunResult", "evaluate_run"]
@@ -156,8 +158,8 @@ _ARITH = {"+": np.add, "-": np.subtract, "*": np.multiply, "/": np.divide, "^": 
 _COMPARE = {"=": np.equal, "<>": np.not_equal, "<": np.less, ">": np.greater, "<=": np.less_equal,
             ">=": np.greater_equal}
 _AGGREGATES = ("SUM", "AVERAGE", "COUNT", "MIN", "MAX")
-#: Functions of one number run as numpy operations on clean numbers. ROUND is not among them: the library
-#: rounds halves away from zero, numpy's rounding to even; it goes through the library row by row.
+#: Functions of one number run as numpy operations on clean numbers. ROUND is not among them: the engine's
+#: ROUND rounds the 15-digit decimal form, halves away from zero (``_RunEval.number_function`` calls it per number).
 _ELEMENTWISE = {"ABS": np.abs, "SQRT": np.sqrt}
 
 
@@ -333,11 +335,62 @@ class _RunEval:
         fn = _library_callable(name, table[name])
         if not any(isinstance(a, (Col, RowRange)) for a in args):
             return _constant(fn(*[a.a if isinstance(a, Fixed) else a for a in args]))
+        if name in NUMBER_FUNCTIONS and table[name] is STANDARD_CORRECTIONS.get(name):
+            fast = self.number_function(name, fn, args)
+            if fast is not None:
+                return fast
+        if name == "INDEX" and len(args) == 2:
+            fast = self.index_rows(fn, args)
+            if fast is not None:
+                return fast
         if name in _ELEMENTWISE and all(_numbers_of(a) is not None for a in args):
             with np.errstate(all="ignore"):
                 res = _ELEMENTWISE[name](_numbers_of(args[0]))
             return self.finite_or_library(res, fn, args, name)
         return Col(_tidy(self.rowwise(fn, args, label=name)))
+
+    def number_function(self, name: str, fn, args: list):
+        """``ROUND``/``ROUNDUP``/``ROUNDDOWN``/``TRUNC`` of a column of clean numbers, the other arguments one
+        finite number for every row: the corrected function called on each finite number directly, as the
+        library's element-by-element wrapper calls it, without the wrapper's per-cell arrays; None when it does
+        not apply. Rows whose number or result is not finite, or where the function raises, go to the library."""
+        x = _numbers_of(args[0]) if args else None
+        rest = [_numbers_of(a) for a in args[1:]]
+        if not isinstance(x, np.ndarray) or any(r is None or isinstance(r, np.ndarray) or not np.isfinite(r)
+                                                for r in rest):
+            return None
+        body, rest = NUMBER_FUNCTIONS[name], [float(r) for r in rest]
+
+        def one(v: float) -> float:
+            try:
+                return body(v, *rest) if np.isfinite(v) else np.nan
+            except Exception:  # the library's wrapper decides (an error value, or the reference path)
+                return np.nan
+
+        return self.finite_or_library(np.array([one(v) for v in x.tolist()], dtype=float), fn, args, name)
+
+    def index_rows(self, fn, args: list):
+        """``INDEX(range, k)`` with one fixed range of one column (or one row) and a position per row: the
+        cell at each whole position 1..length taken from the range at once (a blank read as 0, as the library
+        reads it); None when it does not apply. Other positions (not whole, out of the range, not numbers)
+        go to the library row by row."""
+        area, k = args
+        if not isinstance(area, Fixed) or not isinstance(area.a, np.ndarray) or area.a.ndim != 2:
+            return None
+        if min(area.a.shape) != 1 or max(area.a.shape) < 2:
+            return None
+        k = _numbers_of(k)
+        if not isinstance(k, np.ndarray):
+            return None
+        cells = area.a.ravel()
+        ok = (k >= 1) & (k <= cells.size) & (np.floor(k) == k)
+        picked = cells[np.where(ok, k, 1).astype(np.int64) - 1]
+        out = np.empty(self.n, dtype=object)
+        out[:] = [0 if v is EMPTY else (v.item() if isinstance(v, np.generic) else v) for v in picked]
+        if not ok.all():
+            rest = np.flatnonzero(~ok)
+            out[rest] = self.rowwise(fn, args, rest, label="INDEX")[rest]
+        return Col(_tidy(out))
 
     def per_row(self, node: Node) -> list | None:
         """A criterion's value in each row of the run (a list), or None when it is a range of several cells."""

@@ -42,7 +42,7 @@ from ..workbook import sheet_data, sheet_edit, sheet_patch, sheet_read, xml_form
 from ..workbook.cells import split_ref
 from ..workbook.save import PackageChanges, add_override, remove_override
 from .values_notice import (PRINT_AREA, Notice, NOTICE_OPENING, PrintRange, frozen_inputs, notice_text, place_on_sheet,
-                            reader_of, set_print_range, take_out)
+                            reader_of, set_print_range, sort_notice_cells, take_out)
 from ..workbook.sheet_patch import CellUpdate
 from ..workbook.sheet_read import iter_cells
 from ..workbook.xml_text import escape_text
@@ -510,17 +510,9 @@ def _restore_sheet(pkg: WorkbookPackage, changes: PackageChanges, target, recs: 
             continue
         # text values (shared or inline strings) become the formula's text result (t="str")
         updates[ref] = CellUpdate(cell.value, formula_xml=element)
-    gone, own_rows = [], []
-    for note in notices:
-        cell = current.get(note.cell)
-        if cell is None:
-            continue
-        if cell.value == note.text and cell.formula is None:
-            gone.append(note.cell)
-            if note.new_row:
-                own_rows.append(cell.row)
-        else:
-            report.skipped.append((f"{note.sheet}!{note.cell}", "the values notice was edited; it is left there"))
+    gone, own_rows, edited = sort_notice_cells(current, notices)
+    for note in edited:
+        report.skipped.append((f"{note.sheet}!{note.cell}", "the values notice was edited; it is left there"))
     if not updates and not gone:
         return 0
     if absent:

@@ -464,9 +464,10 @@ def set_print_range(pkg, changes, info, now: str, then: str) -> bool:
     return False
 
 
-def take_out(pkg, xml: bytes, notices: list[Notice]) -> tuple[bytes, list[Notice]]:
-    """A sheet part without the notice's lines that still read as written, and the lines edited since (kept)."""
-    current = {c.ref: c for c in iter_cells(xml, pkg.shared_strings)}
+def sort_notice_cells(current: dict, notices: list[Notice]) -> tuple[list[str], list[int], list[Notice]]:
+    """The notice's cells still as written (to remove), the rows they alone filled, and the lines edited since.
+
+    ``current`` maps a cell reference to the sheet's cell as read now; a line whose cell is gone is neither."""
     gone, own_rows, edited = [], [], []
     for note in notices:
         cell = current.get(note.cell)
@@ -478,6 +479,13 @@ def take_out(pkg, xml: bytes, notices: list[Notice]) -> tuple[bytes, list[Notice
                 own_rows.append(cell.row)
         else:
             edited.append(note)
+    return gone, own_rows, edited
+
+
+def take_out(pkg, xml: bytes, notices: list[Notice]) -> tuple[bytes, list[Notice]]:
+    """A sheet part without the notice's lines that still read as written, and the lines edited since (kept)."""
+    current = {c.ref: c for c in iter_cells(xml, pkg.shared_strings)}
+    gone, own_rows, edited = sort_notice_cells(current, notices)
     if gone:
         xml = sheet_edit.remove_cells(xml, gone, empty_rows=own_rows)
     return xml, edited

@@ -43,7 +43,7 @@ from formulas.functions import Error, XlError, wrap_func, wrap_ufunc
 from formulas.functions.look import FUNCTIONS as _LOOK
 from formulas.functions.text import FUNCTIONS as _TEXT
 
-__all__ = ["STANDARD_CORRECTIONS", "NotEvaluated", "round_shown", "floor_math", "ceiling_math", "text_supported",
+__all__ = ["STANDARD_CORRECTIONS", "NUMBER_FUNCTIONS", "NotEvaluated", "round_shown", "floor_math", "ceiling_math", "text_supported",
            "date_system", "DAYS_1900_TO_1904"]
 
 
@@ -312,6 +312,13 @@ def _date_corrections(table: dict) -> dict:
     return out
 
 
+#: The corrected functions of plain numbers, by name, as ``_corrections`` wraps them element by element: a run
+#: of filled-down cells calls them directly on its clean, finite numbers (bridge/engine/eval_run.py), as the
+#: wrapper would on each element.
+NUMBER_FUNCTIONS = {"ROUND": round_shown, "ROUNDUP": functools.partial(round_shown, rounding=decimal.ROUND_UP),
+                    "ROUNDDOWN": functools.partial(round_shown, rounding=decimal.ROUND_DOWN), "TRUNC": _trunc}
+
+
 def _corrections() -> dict:
     ufunc = wrap_ufunc
     table = {
@@ -320,10 +327,10 @@ def _corrections() -> dict:
         "FLOOR.PRECISE": ufunc(functools.partial(_precise, up=False)),
         "CEILING.PRECISE": ufunc(functools.partial(_precise, up=True)),
         "ISO.CEILING": ufunc(functools.partial(_precise, up=True)),
-        "ROUND": ufunc(round_shown),
-        "ROUNDUP": ufunc(functools.partial(round_shown, rounding=decimal.ROUND_UP)),
-        "ROUNDDOWN": ufunc(functools.partial(round_shown, rounding=decimal.ROUND_DOWN)),
-        "TRUNC": ufunc(_trunc),
+        "ROUND": ufunc(NUMBER_FUNCTIONS["ROUND"]),
+        "ROUNDUP": ufunc(NUMBER_FUNCTIONS["ROUNDUP"]),
+        "ROUNDDOWN": ufunc(NUMBER_FUNCTIONS["ROUNDDOWN"]),
+        "TRUNC": ufunc(NUMBER_FUNCTIONS["TRUNC"]),
         "MROUND": ufunc(_mround, input_parser=lambda *a: a),
         "N": wrap_func(_n),
         "TEXT": _text_checked(_TEXT["TEXT"]),
