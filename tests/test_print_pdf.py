@@ -353,10 +353,46 @@ def test_a_sheet_too_wide_narrows_empty_columns_and_wraps_labels_but_keeps_built
             g.set(2, c, "=1+1", "coef")
     g.set(3, 2, "a label with several words", None)  # cut by the next cell: wraps when its column narrows
     g.set(3, 3, 1.0)
-    g.set(4, 6, '=A1&" ("&B1&")"')  # a formula that builds a text: its width is unknown, so it is kept
+    g.set(4, 6, '=A1&" ("&B1&")"')  # a formula that builds a text: narrowed no further than its estimated text
     g.widths[6] = 16.0
+    g.set(5, 7, '=IF(A1>0,"a very long reading of the steps that runs far","short")')  # wraps: a cell to its right
+    g.set(5, 8, 2.0)
     printing._lay_out_grid(g, "T", "2026-01-01", '#,##0 "USD"')
     assert g.widths[5] == printing.EMPTY_COLUMN_UNITS
     assert (3, 2) in g.wrapped and g.widths[2] < len("a label with several words") * printing.CHAR_UNITS
-    assert g.widths[6] == 16.0
+    assert g.widths[6] >= len("0.0000 (0.0000)") * printing.CHAR_UNITS
+    assert (5, 7) in g.wrapped and g.heights[5] >= 2 * printing.LINE_PT  # its longest branch measured
     assert g.heights[3] >= 2 * printing.LINE_PT  # the wrapped label gets its lines
+
+
+@pytest.mark.parametrize("formula, expected", [
+    ('=IF(A1<0.0005,"p < 0.001","p = "&TEXT(A1,"0.000"))', "p < 0.001"),  # the longest branch
+    ('="Step: "&IF(A1>0,"the lines differ","they meet")', "Step: the lines differ"),
+    ('=MID(IF(A1<0,"; weak","")&IF(B1<0,"; hard",""),3,400)', "; weak; hard"),  # a part of a built text
+    ('=IF(A1=B1,"",IF(C1<2,"not computable: too few",C1/2))', None),  # a number, or a reason in its place
+    ('=SUM(A1:A4)', None),
+    ('plain text', None),
+])
+def test_built_text_estimates_a_formulas_text_from_its_literals(formula, expected):
+    assert printing.built_text(formula) == expected
+
+
+def test_a_linked_long_text_wraps_and_a_too_wide_sheet_narrows_column_a():
+    # the linked reading: the Summary shows Fairness!B4, a text too long for a page at the lowest scale
+    reading = "No detectable difference between the lines " * 8
+    source, summary = Grid("Fairness"), Grid("Summary")
+    source.set(4, 2, "=IF(A1>0,1,2)")
+    source.values[(4, 2)] = reading  # what StudyContext.put computed when the study was built
+    summary.set(3, 1, "Reading of the steps")
+    summary.set(3, 2, "='Fairness'!B4")
+    printing._link_values({"Fairness": source, "Summary": summary})
+    printing._lay_out_grid(summary, "T", "2026-01-01", '#,##0 "USD"')
+    assert (3, 2) in summary.wrapped and summary.heights[3] >= 3 * printing.LINE_PT
+    wide = Grid("Wide")
+    wide.widths[1] = 60.0
+    for r in range(1, 4):
+        wide.set(r, 1, "a row label of many words that makes column A wide")
+        for c in range(2, 16):
+            wide.set(r, c, 1.0)
+    printing._lay_out_grid(wide, "T", "2026-01-01", '#,##0 "USD"')
+    assert wide.widths[1] < 60.0 and (1, 1) in wide.wrapped and not wide.page.label_column

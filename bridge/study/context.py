@@ -296,6 +296,7 @@ class StudyContext:
             except TruebandError as exc:
                 return self.not_computable_at(grid, row, col, exc.message, key=key, error=exc)
             here = here.with_value(result)
+            grid.values[(row, col)] = result  # the print layout measures a text formula by its value
         grid.set(row, col, text, style)
         if key:
             self.cells[self._key(key)] = (grid.title, here.coordinate)

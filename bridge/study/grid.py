@@ -74,6 +74,8 @@ class Grid:
         self.wrapped: set[tuple[int, int]] = set()
         self.formats: dict[str, str] = {}
         self.page: Any = None
+        #: what a formula cell computed when the study was built (the print layout measures a text formula by it)
+        self.values: dict[tuple[int, int], Any] = {}
 
     def set(self, row: int, col: int, value, style: str | None = None):
         self.cells[(row, col)] = (value, style)

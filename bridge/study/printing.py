@@ -70,6 +70,8 @@ CHAR_UNITS = 0.85
 WORD_UNITS = 1.2
 #: A label longer than this (in units of column width) wraps inside its cell instead of widening the column.
 MAX_LABEL_UNITS = 64.0
+#: Column A narrows no further than this (units) when a sheet is wider than a page: its labels wrap.
+MIN_LABEL_UNITS = 16.0
 #: The widest a column right of column A grows for a text in a table (a "not computable" reason...): longer
 #: text wraps in its cell.
 MAX_TABLE_TEXT_UNITS = 24.0
@@ -147,6 +149,92 @@ def _units(text: str, style: str | None) -> float:
     return len(text) * CHAR_UNITS * _BOLD.get(style, 1.0)
 
 
+#: What a number inside a formula-built text is taken to print as ("p = 0.012", "12.5%", "1,234").
+NUMBER_TEXT = "0.0000"
+_TEXT_OF_FIRST = ("MID", "LEFT", "RIGHT", "TRIM", "UPPER", "LOWER", "PROPER", "SUBSTITUTE")
+_LINK = re.compile(r"=(?:'((?:[^']|'')+)'|([A-Za-z_][\w.]*))!\$?([A-Z]+)\$?(\d+)")
+_TOKEN = re.compile(r'"(?:[^"]|"")*"|[A-Za-z_][A-Za-z0-9_.]*\(|[(),&]|[^"(),&]+')
+
+
+def built_text(value: Any) -> str | None:
+    """The text a formula that builds a text prints, estimated from the formula's literal texts (the longest
+    branch of an ``IF``/``IFERROR``/``CHOOSE`` whose branches are all texts, a ``TEXT`` as its format, any other
+    number as :data:`NUMBER_TEXT`); None for a formula that prints a number (no literal text in what it prints,
+    or a choice between a number and a text, such as a "not computable" reason in a column of numbers)."""
+    if not isinstance(value, str) or not value.startswith("=") or '"' not in value:
+        return None
+    tokens = _TOKEN.findall(value[1:])
+    try:
+        text, literal, _ = _estimate(tokens, 0)
+    except (IndexError, ValueError):
+        return None
+    return text if literal and text.strip() else None
+
+
+def _estimate(tokens: list[str], k: int) -> tuple[str, bool, int]:
+    """(text, whether it holds literal text, next token) of the expression from ``tokens[k]`` to the next
+    comma or closing bracket at its level."""
+    parts, literal = [], False
+    while k < len(tokens) and tokens[k] not in (",", ")"):
+        tok = tokens[k]
+        if tok == "&":
+            k += 1
+            continue
+        if tok.startswith('"'):
+            parts.append(tok[1:-1].replace('""', '"'))
+            literal, k = True, k + 1
+            continue
+        if tok.endswith("(") or tok == "(":
+            args, k = _arguments(tokens, k + 1)
+            name = tok[:-1].upper()
+            if name in ("IF", "IFS", "CHOOSE", "IFERROR", "SWITCH"):
+                options = [a for a in (args[1:] if name in ("IF", "CHOOSE") else args) if a[0]]
+                if all(lit for _, lit in options):
+                    text, lit = max(options, key=lambda a: len(a[0]), default=("", False))
+                else:  # a number, or a reason in its place: a number's width (a reason wraps in its cell)
+                    text, lit = NUMBER_TEXT, False
+            elif name in _TEXT_OF_FIRST and args:  # a part of a text, or the text changed: the text
+                text, lit = args[0]
+            elif name == "TEXT" and len(args) == 2 and args[1][1]:
+                text, lit = args[1][0], False
+            elif name == "" and len(args) == 1:
+                text, lit = args[0]
+            else:
+                text, lit = NUMBER_TEXT, False
+            parts.append(text)
+            literal = literal or lit
+            continue
+        if tok.strip():  # a reference, a number or an operation: a number
+            parts.append(NUMBER_TEXT)
+        k += 1
+    return "".join(parts), literal, k
+
+
+def _arguments(tokens: list[str], k: int) -> tuple[list[tuple[str, bool]], int]:
+    """The estimated arguments of a call whose opening bracket is before ``tokens[k]``; the token after ``)``."""
+    args = []
+    while True:
+        text, lit, k = _estimate(tokens, k)
+        args.append((text, lit))
+        if tokens[k] == ")":
+            return args, k + 1
+        k += 1  # a comma
+
+
+def _shown(g: Grid, r: int, c: int) -> str | None:
+    """The text cell (r, c) prints, as far as it is known here: a text; a formula's value when the study was built
+    (a number prints no text to measure); else the formula's :func:`built_text`."""
+    value = g.cells[(r, c)][0]
+    if not isinstance(value, str):
+        return None
+    if not value.startswith("="):
+        return value
+    known = g.values.get((r, c))
+    if isinstance(known, str):
+        return known
+    return None if isinstance(known, (int, float)) else built_text(value)
+
+
 class _Sheet:
     """The measures of one grid while it is laid out: column widths (units), row heights (points)."""
 
@@ -194,10 +282,12 @@ def _fit_columns(s: _Sheet) -> None:
     for (r, c), (value, style) in sorted(g.cells.items()):
         if c > s.cols:
             continue
-        if not isinstance(value, str) or value.startswith("="):
+        shown = _shown(g, r, c)
+        if shown is None:  # a number, or a formula that prints one
             if value is not None and _next_filled(s, r, c) is not None:
                 g.widths[c] = max(s.width(c), NUMBER_UNITS)
             continue
+        value = shown
         if style == "header":
             longest = max((len(w) for w in value.split()), default=0)
             g.widths[c] = max(s.width(c), longest * WORD_UNITS + 2.0)
@@ -207,8 +297,8 @@ def _fit_columns(s: _Sheet) -> None:
             # the text runs on over the empty cells to its right (its width counts for the scale), unless, right of
             # column A, it would run past a page's width at the lowest scale: then it wraps in its column
             need = _units(value, style) + 1.0
-            if c > 1 and s.x(c) + need * UNIT_PT > PRINT_WIDTH_PT * 100 / MIN_SCALE:
-                g.widths[c] = max(s.width(c), min(MAX_TABLE_TEXT_UNITS, need))
+            if s.x(c) + need * UNIT_PT > PRINT_WIDTH_PT * 100 / MIN_SCALE:  # column A's text wraps wider
+                g.widths[c] = max(s.width(c), min(MAX_TABLE_TEXT_UNITS if c > 1 else MAX_LABEL_UNITS, need))
                 g.wrapped.add((r, c))
             continue
         room = sum(s.width(k) for k in range(c, right))
@@ -245,8 +335,11 @@ def _compact(s: _Sheet) -> None:
             else:  # a label the next cell would cut: it wraps when its column narrows below its width
                 least = longest
                 labels.append((r, c, _units(value, style) + 1.0))
-        elif isinstance(value, str) and "&" in value:  # a formula that builds a text: its width is unknown here
-            least = s.width(c)
+        elif _shown(s.g, r, c) is not None:  # a formula that builds a text: its estimated width, up to its column's
+            text = _shown(s.g, r, c)
+            longest = max((len(w) for w in text.split()), default=0) * HEADER_WORD_UNITS + 1.5
+            least = min(s.width(c), max(_units(text, style) + 1.0, longest))
+            labels.append((r, c, _units(text, style) + 1.0))
         else:
             least = COMPACT_NUMBER_UNITS
         need[c] = max(need.get(c, 0.0), least)
@@ -256,6 +349,24 @@ def _compact(s: _Sheet) -> None:
     for r, c, full in labels:
         if full > s.width(c):
             s.g.wrapped.add((r, c))
+    _narrow_labels(s)
+
+
+def _narrow_labels(s: _Sheet) -> None:
+    """When the sheet is still wider than a page at :data:`MIN_SCALE`, narrow column A (its labels wrap), down to
+    :data:`MIN_LABEL_UNITS`, so that its tables fit across a page where they can."""
+    excess = _right_edge(s, []) - PRINT_WIDTH_PT * 100 / MIN_SCALE
+    labels = [(r, _shown(s.g, r, 1), s.g.cells[(r, 1)][1]) for r, cols in s.by_row.items()
+              if cols[0] == 1 and len(cols) > 1]  # a text alone in its row runs on over the empty cells to its right
+    labels = [(r, text, style) for r, text, style in labels if text is not None]
+    longest = max((len(w) for _, text, _ in labels for w in text.split()), default=0) * HEADER_WORD_UNITS + 1.5
+    narrow = max(MIN_LABEL_UNITS, longest, s.width(1) - excess / UNIT_PT - 1.0)
+    if excess <= 0 or narrow >= s.width(1):
+        return
+    s.g.widths[1] = narrow
+    for r, text, style in labels:
+        if _units(text, style) + 1.0 > narrow:
+            s.g.wrapped.add((r, 1))
 
 
 def _next_filled(s: _Sheet, r: int, c: int) -> int | None:
@@ -270,7 +381,8 @@ def _row_heights(s: _Sheet) -> None:
             value, style = g.cells[(r, c)]
             if style == "title":
                 height = max(height, TITLE_PT)
-            if isinstance(value, str) and (style == "header" or (r, c) in g.wrapped):
+            value = _shown(g, r, c)
+            if value is not None and (style == "header" or (r, c) in g.wrapped):
                 chars = max(1, int((s.width(c) - 1.0) / (CHAR_UNITS * _BOLD.get(style, 1.0))))
                 lines = len(textwrap.wrap(value, chars, break_long_words=False)) or 1
                 height = max(height, lines * LINE_PT + 2)
@@ -320,7 +432,8 @@ def _text_in(s: _Sheet, r: int, x0: float, x1: float) -> bool:
     for c in s.by_row.get(r, ()):
         left = s.x(c)
         value, style = s.g.cells[(r, c)]
-        extent = _units(value, style) * UNIT_PT if isinstance(value, str) else s.width(c) * UNIT_PT
+        shown = _shown(s.g, r, c)
+        extent = _units(shown, style) * UNIT_PT if shown is not None else s.width(c) * UNIT_PT
         if left < x1 and x0 < left + max(extent, s.width(c) * UNIT_PT):
             return True
     return False
@@ -331,7 +444,8 @@ def _right_edge(s: _Sheet, boxes) -> float:
     for (r, c), (value, style) in s.g.cells.items():
         if c > s.cols:
             continue
-        extent = _units(value, style) * UNIT_PT if isinstance(value, str) and not value.startswith("=") else 0.0
+        shown = _shown(s.g, r, c)
+        extent = _units(shown, style) * UNIT_PT if shown is not None else 0.0
         if (r, c) in s.g.wrapped or style == "header":
             extent = 0.0
         edge = max(edge, s.x(c) + max(extent, s.width(c) * UNIT_PT))
@@ -428,6 +542,20 @@ def _lay_out_grid(grid: Grid, title: str, built: str, money: str) -> None:
     grid.page = PageLayout(scale, area, repeat, breaks, title, built, label_column=wide)
 
 
+def _link_values(grids: dict[str, Grid]) -> None:
+    """A formula that only shows another sheet's cell (``='Sheet'!B21``) prints that cell's text: record it as the
+    formula's value, so that a linked long text is measured (and wrapped) like the text it shows."""
+    for grid in grids.values():
+        for (r, c), (value, _) in grid.cells.items():
+            m = _LINK.fullmatch(value) if isinstance(value, str) and (r, c) not in grid.values else None
+            if m is None:
+                continue
+            target = grids.get((m.group(1) or "").replace("''", "'") or m.group(2))
+            where = (int(m.group(4)), column_index_from_string(m.group(3)))
+            if target is not None and where in target.cells and target is not grid:
+                grid.values[(r, c)] = _shown(target, *where)
+
+
 def lay_out(ctx: Any) -> None:
     """Lay out every composed sheet of the study for print (see the module's description)."""
     setup = ctx.data.setup
@@ -436,6 +564,7 @@ def lay_out(ctx: Any) -> None:
     title_cell = summary.cells.get((1, 1)) if summary is not None else None
     title = str(title_cell[0]) if title_cell else f"Validation study: {setup.test_name}"
     built = datetime.date.today().isoformat()
+    _link_values(ctx.grids)
     for grid in ctx.grids.values():
         _lay_out_grid(grid, title, built, money)
     ctx.print_title = (title, built)
