@@ -31,7 +31,7 @@ from trueband.funcs.dif import (
 from trueband.funcs.errors import TruebandError
 
 sm = pytest.importorskip("statsmodels.api")
-from statsmodels.stats.contingency_tables import StratifiedTable  # noqa: E402
+from helpers import stratified_by_total  # noqa: E402  (statsmodels' StratifiedTable per total score)
 
 
 def simulate(n=1200, k=12, seed=3, shift=0.7, focal_share=0.4):
@@ -48,18 +48,7 @@ def simulate(n=1200, k=12, seed=3, shift=0.7, focal_share=0.4):
     return items, groups
 
 
-def statsmodels_tables(items, focal, j):
-    """One 2x2 table [[A, B], [C, D]] per total score (reference keyed/other, focal keyed/other)."""
-    total = items.sum(axis=1)
-    tables = []
-    for s in np.unique(total):
-        at = total == s
-        ref, foc = at & ~focal, at & focal
-        a, c = items[ref, j].sum(), items[foc, j].sum()
-        table = np.array([[a, ref.sum() - a], [c, foc.sum() - c]])
-        if table.sum() >= 2:
-            tables.append(table)
-    return StratifiedTable(tables)
+statsmodels_tables = stratified_by_total  # the shared helper (tests/helpers.py)
 
 
 def test_mantel_haenszel_matches_statsmodels_stratified_table():

@@ -33,7 +33,7 @@ from trueband.bridge.study.setup import SetupError
 
 sm = pytest.importorskip("statsmodels.api")
 pingouin = pytest.importorskip("pingouin")
-from statsmodels.stats.contingency_tables import StratifiedTable  # noqa: E402
+from helpers import stratified_by_total  # noqa: E402  (statsmodels' StratifiedTable per total score)
 
 N = 260
 TEST = [f"T{j}" for j in range(1, 9)]
@@ -313,14 +313,7 @@ def test_dif_against_statsmodels(built):
     focal = groups == "B"
     for j in (1, 3):
         x = test[:, j - 1]
-        tables = []
-        for s in np.unique(total):
-            at = total == s
-            t = np.array([[((x == 1) & at & ~focal).sum(), ((x == 0) & at & ~focal).sum()],
-                          [((x == 1) & at & focal).sum(), ((x == 0) & at & focal).sum()]], float)
-            if t.sum(axis=0).all() and t.sum(axis=1).all():
-                tables.append(t)
-        st = StratifiedTable(tables)
+        st = stratified_by_total(test, focal, j - 1)  # statsmodels StratifiedTable: the MH odds ratio
         assert value(built, f"dif_B_{j}_delta") == pytest.approx(-2.35 * np.log(st.oddsratio_pooled), rel=1e-9)
         assert value(built, f"dif_B_{j}_mh_p") == pytest.approx(st.test_null_odds(correction=True).pvalue, rel=1e-9)
         # Swaminathan & Rogers (1990): the 2-df likelihood-ratio test of group and score x group

@@ -28,7 +28,7 @@ from trueband.bridge.study.data_workbook import read_study_data
 from trueband.bridge.study.setup import SetupError
 
 sm = pytest.importorskip("statsmodels.api")
-from statsmodels.stats.contingency_tables import StratifiedTable  # noqa: E402
+from helpers import stratified_by_total  # noqa: E402  (statsmodels' StratifiedTable per total score)
 
 #: the first predictor's settings and the study's, with a second demographic column and its reference group
 TWO_COLUMNS = SETUP[:8] + [("group columns", "group, band"), ("reference groups", "band: X")] + SETUP[8:]
@@ -229,14 +229,7 @@ def test_dif_by_the_second_column_against_statsmodels(built):
     focal = band == "Y"
     for j in (2, 5):
         x = test[:, j - 1]
-        tables = []
-        for s in np.unique(total):
-            at = total == s
-            t = np.array([[((x == 1) & at & ~focal).sum(), ((x == 0) & at & ~focal).sum()],
-                          [((x == 1) & at & focal).sum(), ((x == 0) & at & focal).sum()]], float)
-            if t.sum(axis=0).all() and t.sum(axis=1).all():
-                tables.append(t)
-        st = StratifiedTable(tables)  # statsmodels: the Mantel–Haenszel pooled odds ratio and its test
+        st = stratified_by_total(test, focal, j - 1)  # statsmodels StratifiedTable: the MH odds ratio
         assert value(built, f"dif_col2_Y_{j}_delta") == pytest.approx(-2.35 * np.log(st.oddsratio_pooled), rel=1e-9)
         assert value(built, f"dif_col2_Y_{j}_mh_p") == pytest.approx(st.test_null_odds(correction=True).pvalue,
                                                                      rel=1e-9)
