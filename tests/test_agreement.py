@@ -8,7 +8,7 @@ Sources:
   dataset and on random data, including its 95% limits; scipy.stats.f for the
   test-inversion definition of the limits (McGraw & Wong 1996).
 * Fleiss' kappa: Fleiss (1971), Table 1 (30 patients x 6 ratings, 5
-  diagnoses; published kappa 0.430), transcribed as the `diagnoses` data of
+  diagnoses; published kappa 0.430), copied as the `diagnoses` data of
   R's irr package (0.4302445 from irr's kappam.fleiss; both as carried in
   statsmodels' test suite); statsmodels.stats.inter_rater.fleiss_kappa.
 * Cohen's kappa: statsmodels.stats.inter_rater.cohens_kappa and

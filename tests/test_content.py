@@ -7,7 +7,7 @@ Sources:
   as that table prints them (from memory: the article itself could not be retrieved here); every one is
   also recomputed with scipy.stats.binom, the reference library, in the test.
 * Lawshe (1975), Table 1, minimum CVR at one-tailed p = .05 for N = 5, 6, 7, 8, 9, 10, 15, 20, 25, 30, 40:
-  .99 .99 .99 .75 .78 .62 .49 .42 .37 .33 .29 (from memory; the same values as an open-source R transcription
+  .99 .99 .99 .75 .78 .62 .49 .42 .37 .33 .29 (from memory; the same values as an open-source R copy
   of the table reads them, a function CVRcut_Lawshe found through the project's code search, whose repository
   the index does not name). Lawshe's values for N >= 10 are not the CVR of a whole number of essential ratings;
   read as "the fewest essential ratings whose CVR reaches the value", they give the exact binomial rule's count
@@ -43,7 +43,7 @@ def test_exact_critical_values(panel, n_critical, cvr):
     assert stats.binom.sf(n_critical - 1, panel, 0.5) <= 0.05 < stats.binom.sf(n_critical - 2, panel, 0.5)
 
 
-# Lawshe (1975), Table 1 (from memory, and as an R transcription of the table reads it): N, minimum CVR
+# Lawshe (1975), Table 1 (from memory, and as an R copy of the table reads it): N, minimum CVR
 LAWSHE = [(5, 0.99), (6, 0.99), (7, 0.99), (8, 0.75), (9, 0.78), (10, 0.62), (15, 0.49), (20, 0.42), (25, 0.37),
           (30, 0.33), (40, 0.29)]
 

@@ -15,9 +15,9 @@ Sources:
   same integrals.
 * Subkoviak (1988), Journal of Educational Measurement 25, 47-55, the table of agreement coefficients p0 of the
   normal approach by |z| = |cut − 0.5 − mean|/SD (0 to 2 in steps of 0.1) and reliability (0.1 to 0.9): as
-  transcribed in the open-source R package rcrtan (repository gtlaflair/rcrtan, data-raw/sub_agree_coef.csv,
+  copied into the open-source R package rcrtan (repository gtlaflair/rcrtan, data-raw/sub_agree_coef.csv,
   read through the project's code search); every cell but one is checked against DECISION_CONSISTENCY (see
-  ``test_subkoviak_agreement_table``). Subkoviak's kappa table is not in that transcription; not checked.
+  ``test_subkoviak_agreement_table``). Subkoviak's kappa table is not in that copy; not checked.
 * Lord's (1955) estimator x(k − x)/(k − 1) of the binomial error variance, as stated in the SAGE Encyclopedia of
   Educational Research, Measurement, and Evaluation (2018), entry "Conditional Standard Error of Measurement";
   checked against scipy.stats.binom's variance with p = x/k and the unbiased factor k/(k − 1).
@@ -115,7 +115,7 @@ def test_decision_consistency_against_scipy(mean, sd, rel, cut, continuity):
 
 
 # Subkoviak (1988), agreement coefficient p0 of the normal approach: rows |z| = 0.0, 0.1, ..., 2.0; columns
-# reliability 0.1, 0.2, ..., 0.9; as transcribed in rcrtan (gtlaflair/rcrtan, data-raw/sub_agree_coef.csv).
+# reliability 0.1, 0.2, ..., 0.9; as copied into rcrtan (gtlaflair/rcrtan, data-raw/sub_agree_coef.csv).
 SUBKOVIAK_P0 = [
     (0.53, 0.56, 0.60, 0.63, 0.67, 0.70, 0.75, 0.80, 0.86), (0.53, 0.57, 0.60, 0.63, 0.67, 0.71, 0.75, 0.80, 0.86),
     (0.54, 0.57, 0.61, 0.64, 0.67, 0.71, 0.75, 0.80, 0.86), (0.56, 0.59, 0.62, 0.65, 0.68, 0.72, 0.76, 0.80, 0.86),
@@ -130,7 +130,7 @@ SUBKOVIAK_P0 = [
     (0.96, 0.96, 0.96, 0.96, 0.96, 0.97, 0.97, 0.97, 0.98)]
 #: The one cell left out: 0.77 at |z| = 1.0, reliability 0.4 equals its left neighbour, but p0 rises with the
 #: reliability at a fixed cut in every other row of the table (and in the model: Slepian's inequality); the normal
-#: model gives 0.790, so the transcription (or the print) slipped there.
+#: model gives 0.790, so the copy (or the print) slipped there.
 SUBKOVIAK_SLIP = (1.0, 0.4)
 
 

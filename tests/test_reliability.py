@@ -171,7 +171,7 @@ def test_feldt_interval_of_a_perfect_alpha_is_a_point():
 def test_kr20_wuensch_worked_example():
     # Wuensch, KR20.txt: p per item, total variance 5.84 (denominator n); KR-20 from the page's
     # own intermediate values: 10/9 * (1 - sum(pq) / 5.84), with sum(pq) = 2.18 (worked by hand).
-    assert np.sum(WUENSCH_ITEMS, axis=1).tolist() == WUENSCH_TOTALS  # data transcribed as printed
+    assert np.sum(WUENSCH_ITEMS, axis=1).tolist() == WUENSCH_TOTALS  # data copied as printed
     assert np.var(WUENSCH_TOTALS) == pytest.approx(WUENSCH_TOTAL_VARIANCE, rel=1e-12)
     sum_pq = sum(p * (1 - p) for p in WUENSCH_P)
     assert sum_pq == pytest.approx(2.18, rel=1e-12)

@@ -6,7 +6,7 @@ Sources:
   pingouin's bundled penguins dataset;
 * the psychmeta R package (Dahlke & Wiernik), R/estimate_artifacts.R (estimate_ut_rxxa,
   estimate_rxxi_ux_irr) and R/correct_r_internal.R (.correct_r_uvdrr, .correct_r_uvirr): their formulas,
-  transcribed in the tests below in psychmeta's algebraic form, are an independent implementation of
+  written in the tests below in psychmeta's algebraic form, are an independent implementation of
   Thorndike's Case II and of Hunter, Schmidt & Le's (2006) Case IV;
 * the measurement and selection models themselves (Lord & Novick 1968, ch. 3; Thorndike 1949;
   Hunter, Schmidt & Le 2006): a large simulated applicant population with known true-score correlation
