@@ -12,9 +12,10 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from openpyxl import Workbook, load_workbook
+from openpyxl import load_workbook
 from scipy import stats
 
+from test_study_cut import book  # a small study's data workbook: Candidates, Setup and further sheets
 from trueband.bridge.study.build import make_study
 from trueband.bridge.study.demo import make_demo
 from trueband.bridge.study.demo_answers import MISKEYED_ITEM, UNUSED_DISTRACTOR_ITEM, key_rows, raw_answers
@@ -123,23 +124,6 @@ def test_the_miskeyed_item_correlates_negatively_with_the_rest(study, answers):
     assert row[8] == pytest.approx(call("DISCRIMINATION_INDEX", scored, j + 1, 0.27), abs=1e-14) and row[8] < 0
     sheet, coord = result.cells["summary_items_flagged"]
     assert values[sheet][coord].value == values["Options"][result.cells["items_flagged"][1]].value >= 3
-
-
-def book(path, rows, setup, extra):
-    wb = Workbook()
-    ws = wb.active
-    ws.title = "Candidates"
-    for row in rows:
-        ws.append(row)
-    st = wb.create_sheet("Setup")
-    for k, v in setup.items():
-        st.append([k, v])
-    for name, cells in extra.items():
-        sheet = wb.create_sheet(name)
-        for row in cells:
-            sheet.append(row)
-    wb.save(path)
-    return path
 
 
 ROWS = [["id", "i1", "i2", "i3"], ["a", "A", "b", "C"], ["b", "B", "B", " c"], ["c", "A", "C", None],
