@@ -11,19 +11,32 @@ therefore carry the prefix:
 function                    what
 ==========================  ==================================================================
 :func:`bind_for_calc`       one formula's registered calls prefixed (strings and quoted sheet
-                            names untouched, already prefixed calls left as they are)
+                            names untouched, already prefixed calls left as they are); bound
+                            once per formula shape (see below)
 :func:`bind_sheet_xml`      the same for every ``<f>`` element of a sheet part's XML
 :func:`bind_workbook`       the same for every formula cell of an openpyxl workbook
 ==========================  ==================================================================
+
+A study writes hundreds of thousands of filled-down formulas that differ only in their numbers
+(``=SCORE_CI(A2,...)``, ``=SCORE_CI(A3,...)``). :func:`bind_for_calc` therefore binds each formula
+*shape* once: every run of digits that cannot be part of a called name (its word is not followed by
+an opening bracket) is taken out, the rest is bound by :func:`bind_plain` (memoised), and the digits
+are put back. Which names get the prefix depends only on the called names, which keep their digits
+(``LOG10(``, ``KR_20(``), so the result is the same text :func:`bind_plain` gives
+(``tests/test_calc_binding_memo.py`` checks both on many formulas). ``MEMO = False`` switches the
+memo off (the benchmarks' reference run).
 """
 
 from __future__ import annotations
 
+import functools
 import re
+
+from trueband.funcs.registry import ALIASES, REGISTRY
 
 from .names import is_registered
 
-__all__ = ["PREFIX", "bind_for_calc", "bind_sheet_xml", "bind_workbook"]
+__all__ = ["PREFIX", "MEMO", "bind_for_calc", "bind_plain", "bind_sheet_xml", "bind_workbook"]
 
 PREFIX = "_xludf."
 
@@ -41,6 +54,22 @@ def _prefix(match: re.Match) -> str:
     return PREFIX + name if is_registered(name) else name
 
 
+#: Whether :func:`bind_for_calc` binds each formula shape once (False: every formula by :func:`bind_plain`).
+MEMO = True
+
+# A run of ASCII digits whose word (the rest of the run of word characters) is not followed by an
+# opening bracket: row numbers and constants, never a digit of a called name. A hole is written as
+# NUL, which an XML part cannot hold (a formula with one is bound plainly).
+_HOLE = re.compile(r"([0-9]+)(?!\w*\s*\()")
+_NUL = "\x00"
+
+
+@functools.lru_cache(maxsize=8192)
+def _bound_shape(shape: str, registry_size: int, alias_count: int) -> tuple[str, ...]:
+    """The pieces of :func:`bind_plain` of a shape between its holes (the sizes key the memo to the registry)."""
+    return tuple(bind_plain(shape).split(_NUL))
+
+
 def bind_for_calc(formula: str) -> str:
     """``formula`` with each call of a registered function written ``_xludf.NAME(``.
 
@@ -50,6 +79,21 @@ def bind_for_calc(formula: str) -> str:
     '=ROUND(_xludf.sem(12, 0.91), 2) & "SEM(1,2)"'
     >>> bind_for_calc("=_xludf.SEM(B2,B3)+SUM('SEM(x'!A1:A3)")
     "=_xludf.SEM(B2,B3)+SUM('SEM(x'!A1:A3)"
+    """
+    if "(" not in formula:
+        return formula
+    if not MEMO or _NUL in formula:
+        return bind_plain(formula)
+    parts = _HOLE.split(formula)  # text, digits, text, digits, ..., text
+    parts[::2] = _bound_shape(_NUL.join(parts[::2]), len(REGISTRY), len(ALIASES))
+    return "".join(parts)
+
+
+def bind_plain(formula: str) -> str:
+    """:func:`bind_for_calc` without the memo: the calls found and prefixed in this one text.
+
+    >>> bind_plain('=LOG10(A2)+KR_20(B2:C9)')
+    '=LOG10(A2)+_xludf.KR_20(B2:C9)'
     """
     if "(" not in formula:
         return formula

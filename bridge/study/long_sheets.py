@@ -52,26 +52,37 @@ def rows_xml(rows: Iterable[list], first_row: int, *, formulas: bool,
             ref = f"{letters[c]}{r}"
             if styles and (r, c) in styles:
                 ref += f'" s="{styles[(r, c)]}'  # the attribute rides on the reference
-            if isinstance(value, bool):
-                parts.append(f'<c r="{ref}" t="b"><v>{int(value)}</v></c>')
-            elif isinstance(value, int):
-                parts.append(f'<c r="{ref}"><v>{value}</v></c>')
-            elif isinstance(value, float):
+            kind = type(value)  # the common exact types first; subclasses (bool, ErrorValue) below
+            if kind is str and formulas and value.startswith("="):
+                parts.append(f'<c r="{ref}"><f>{escape(bind_for_calc(value[1:]))}</f></c>')
+            elif kind is float:
                 if math.isfinite(value):
                     parts.append(f'<c r="{ref}"><v>{value!r}</v></c>')
-            elif isinstance(value, ErrorValue):  # a formula's error result in the source stays an error
-                parts.append(f'<c r="{ref}" t="e"><v>{escape(str(value))}</v></c>')
-            elif isinstance(value, str):
-                if formulas and value.startswith("="):
-                    parts.append(f'<c r="{ref}"><f>{escape(bind_for_calc(value[1:]))}</f></c>')
-                elif value:
-                    parts.append(f'<c r="{ref}" t="inlineStr">{_text(value)}</c>')
-            elif isinstance(value, (datetime.datetime, datetime.date, datetime.time)):
-                parts.append(f'<c r="{ref}" t="inlineStr">{_text(value.isoformat())}</c>')
+            elif kind is int:
+                parts.append(f'<c r="{ref}"><v>{value}</v></c>')
             else:
-                parts.append(f'<c r="{ref}" t="inlineStr">{_text(str(value))}</c>')
+                parts.append(_other_cell(ref, value, formulas))
         parts.append("</row>")
         yield "".join(parts)
+
+
+def _other_cell(ref: str, value, formulas: bool) -> str:
+    """The element of a cell that is neither a formula nor a plain number (empty for blank text)."""
+    if isinstance(value, bool):
+        return f'<c r="{ref}" t="b"><v>{int(value)}</v></c>'
+    if isinstance(value, int):
+        return f'<c r="{ref}"><v>{value}</v></c>'
+    if isinstance(value, float):
+        return f'<c r="{ref}"><v>{value!r}</v></c>' if math.isfinite(value) else ""
+    if isinstance(value, ErrorValue):  # a formula's error result in the source stays an error
+        return f'<c r="{ref}" t="e"><v>{escape(str(value))}</v></c>'
+    if isinstance(value, str):
+        if formulas and value.startswith("="):
+            return f'<c r="{ref}"><f>{escape(bind_for_calc(value[1:]))}</f></c>'
+        return f'<c r="{ref}" t="inlineStr">{_text(value)}</c>' if value else ""
+    if isinstance(value, (datetime.datetime, datetime.date, datetime.time)):
+        return f'<c r="{ref}" t="inlineStr">{_text(value.isoformat())}</c>'
+    return f'<c r="{ref}" t="inlineStr">{_text(str(value))}</c>'
 
 
 def sheet_parts(z: zipfile.ZipFile) -> dict[str, str]:
