@@ -125,6 +125,12 @@ _PLAIN_CELL = re.compile(rb'<c r="([A-Z]{1,3})([0-9]+)"(?: s="([0-9]+)")?(?: t="
 _FORMULA_CELL = re.compile(rb'<c r="([A-Z]{1,3})([0-9]+)"' + CELL_ATTRIBUTES + rb">" + FORMULA_ELEMENT
                            + rb"(?:<v>([^<]*)</v>)?</c>")
 
+#: A cell holding one plain inline string, as trueband's long sheets write text: letters, digits, style, text.
+_INLINE_CELL = re.compile(rb'<c r="([A-Z]{1,3})([0-9]+)"(?: s="([0-9]+)")? t="inlineStr"><is><t(?: xml:space="preserve")?>'
+                          rb"([^<]*)</t></is></c>")
+#: Whether :func:`read_column_arrays` reads :data:`_INLINE_CELL` cells in a pass of their own (False: one by
+#: one with the other cells, as before; the benchmarks' reference run).
+INLINE_PASS = True
 
 _NEW_NORMAL = functools.partial(tuple.__new__, Formula)
 _NAN = float("nan")
@@ -184,7 +190,7 @@ class _Collector:
         self.numbers(cols, rows, nums)
         if any(styles):
             for i, s in enumerate(styles):
-                if s is not None and s != b"0":
+                if s and s != b"0" and int(s):  # s="00" is the default style too, as iter_cells reads it
                     self.styles[(int(digits[i]), int(cols_all[i]))] = int(s)
 
     def formula_cells(self, parts: list) -> None:
@@ -234,13 +240,24 @@ class _Collector:
         if num_cols:
             self.numbers(num_cols, num_rows, nums)
 
+    def inline_cells(self, parts: list) -> None:
+        """Pass 3: the plain inline-string cells of a piece (its split by :data:`_INLINE_CELL`), decoded as
+        :func:`iter_cells` decodes a single text run."""
+        letters, digits, styles, texts = parts[1::5], parts[2::5], parts[3::5], parts[4::5]
+        cols = list(map(_lookup(letters, column_index), letters))
+        for col, digit, style, text in zip(cols, digits, styles, texts):
+            row = int(digit)
+            if style and int(style):  # s="0" (or "00") is the default style: not listed, as iter_cells does
+                self.styles[(row, col)] = int(style)
+            self.others.append((row, col, unescape_xml(text)))
+
     @staticmethod
     def _formula(f: bytes) -> Formula:
         """The :class:`Formula` of one ``<f>`` element, decoded by the cell reader's own code."""
         return cell_content(f, "n", "", (), *cell_patterns(b"")[1:])[1]
 
     def other_cells(self, rest: bytes) -> None:
-        """Pass 3: every other cell of a piece, decoded one by one as :func:`iter_cells` does."""
+        """Pass 4: every other cell of a piece, decoded one by one as :func:`iter_cells` does."""
         self.add_cells(iter_cells(b"<worksheet><sheetData>" + rest + b"</sheetData></worksheet>", self.strings))
 
     def add_cells(self, cells) -> None:
@@ -300,11 +317,12 @@ def read_column_arrays(xml: bytes, shared_strings: Sequence[str] = ()) -> SheetA
     """Every cell of a worksheet part, column by column in arrays: the fast bulk form of :func:`iter_cells`.
 
     Each piece of about :data:`~.sheet_data.CHUNK_BYTES` of ``<sheetData>`` is read in
-    three passes: the plain value cells (the bulk of a data sheet) are split
+    four passes: the plain value cells (the bulk of a data sheet) are split
     off by one regular expression and converted a piece at a time with
     numpy; formula cells in the regular form by a second, with one short
-    step per cell; what is left (inline strings, cells in irregular forms)
-    goes through the same decoding as :func:`iter_cells`, so the readers
+    step per cell; cells of one plain inline string (the text of the
+    study's long sheets) by a third; what is left (rich text, cells in
+    irregular forms) goes through the same decoding as :func:`iter_cells`, so the readers
     always agree (tests check it on random sheets). A sheet with cells
     written without ``r`` attributes is read by the row-aware reader.
     The cyclic garbage collector is paused meanwhile: none of the objects
@@ -337,6 +355,12 @@ def read_column_arrays(xml: bytes, shared_strings: Sequence[str] = ()) -> SheetA
             if b"<c" in rest:
                 if CELL_WITHOUT_R.search(rest):
                     return _arrays_from_cells(iter_cells(xml, shared_strings))
+                if INLINE_PASS and b"inlineStr" in rest:  # after the checks above, which see these cells too
+                    parts = _INLINE_CELL.split(rest)
+                    if len(parts) > 1:
+                        got.inline_cells(parts)
+                        rest = b"".join(parts[0::5])
+                    del parts
                 got.other_cells(rest)
         return got.result()
     finally:
