@@ -19,7 +19,7 @@ from hypothesis import strategies as st
 from openpyxl.utils import get_column_letter
 
 from trueband.bridge.formulas import calc_binding
-from trueband.bridge.formulas.calc_binding import bind_for_calc, bind_plain, bind_sheet_xml
+from trueband.bridge.formulas.calc_binding import bind_for_calc, bind_for_calc_xml, bind_plain, bind_sheet_xml
 from trueband.bridge.study import long_sheets
 from trueband.bridge.workbook.sheet_data import ErrorValue
 from trueband.funcs.registry import REGISTRY, spreadsheet
@@ -50,6 +50,7 @@ def test_memoised_binder_equals_the_plain_one_on_chosen_formulas():
             text = formula.replace("2", str(row)) if row != 2 else formula
             assert bind_for_calc(text) == bind_plain(text), text
             assert bind_for_calc(text[1:]) == bind_plain(text[1:]), text
+            assert bind_for_calc_xml(text[1:]) == escape(bind_plain(text[1:])), text
     # what the plain binder does on them (as the binder's doctests state): the memo changes nothing of it
     assert bind_for_calc("=LOG10(A12)+KR_20(B2:C9)") == "=LOG10(A12)+_xludf.KR_20(B2:C9)"
     assert bind_for_calc("=1SEM(2)+SEM1(4)+SEM(5)") == "=1SEM(2)+SEM1(4)+_xludf.SEM(5)"
@@ -61,12 +62,13 @@ def test_filled_down_rows_bind_as_before():
     for r in [*range(2, 300), 9999, 100000, 1048576]:
         text = template.format(r=r)
         assert bind_for_calc(text) == bind_plain(text)
+        assert bind_for_calc_xml(text) == escape(bind_plain(text))
 
 
 _TOKENS = st.sampled_from([
     "SEM", "sem", "_xludf.SEM", "SCORE_CI", "KR_20", "KR20", "LOG10", "ATAN2", "SUM", "IF", "A", "B12", "$C$4",
     "Setup!", "'Q 1'!", "'It''s 2'!", '"', "'", "(", ")", " (", ",", "0.9", "12", "7", "1E+3", "+", "&", "\t",
-    "é", "٣", ".", "$", "!", ":", "_", "x1", "1x", '"SEM(1)"', "\x00",
+    "é", "٣", ".", "$", "!", ":", "_", "x1", "1x", '"SEM(1)"', "\x00", "<", ">", "<>", "&", "&amp;",
 ])
 
 
@@ -75,6 +77,7 @@ _TOKENS = st.sampled_from([
 def test_memoised_binder_equals_the_plain_one_on_drawn_texts(tokens):
     text = "".join(tokens)
     assert bind_for_calc(text) == bind_plain(text)
+    assert bind_for_calc_xml(text) == escape(bind_plain(text))
     assert bind_sheet_xml(f"<c><f>{escape(text.replace(chr(0), ''))}</f></c>") == \
         f"<c><f>{bind_plain(escape(text.replace(chr(0), '')))}</f></c>"
 

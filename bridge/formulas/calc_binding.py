@@ -13,6 +13,7 @@ function                    what
 :func:`bind_for_calc`       one formula's registered calls prefixed (strings and quoted sheet
                             names untouched, already prefixed calls left as they are); bound
                             once per formula shape (see below)
+:func:`bind_for_calc_xml`   the same, XML-escaped for an ``<f>`` element
 :func:`bind_sheet_xml`      the same for every ``<f>`` element of a sheet part's XML
 :func:`bind_workbook`       the same for every formula cell of an openpyxl workbook
 ==========================  ==================================================================
@@ -31,12 +32,13 @@ from __future__ import annotations
 
 import functools
 import re
+from xml.sax.saxutils import escape
 
 from trueband.funcs.registry import ALIASES, REGISTRY
 
 from .names import is_registered
 
-__all__ = ["PREFIX", "MEMO", "bind_for_calc", "bind_plain", "bind_sheet_xml", "bind_workbook"]
+__all__ = ["PREFIX", "MEMO", "bind_for_calc", "bind_for_calc_xml", "bind_plain", "bind_sheet_xml", "bind_workbook"]
 
 PREFIX = "_xludf."
 
@@ -65,9 +67,20 @@ _NUL = "\x00"
 
 
 @functools.lru_cache(maxsize=8192)
-def _bound_shape(shape: str, registry_size: int, alias_count: int) -> tuple[str, ...]:
-    """The pieces of :func:`bind_plain` of a shape between its holes (the sizes key the memo to the registry)."""
-    return tuple(bind_plain(shape).split(_NUL))
+def _bound_shape(shape: str, registry_size: int, alias_count: int, xml: bool) -> tuple[str, ...]:
+    """The pieces of :func:`bind_plain` of a shape between its holes, XML-escaped with ``xml`` (the sizes key the
+    memo to the registry)."""
+    bound = bind_plain(shape)
+    return tuple((escape(bound) if xml else bound).split(_NUL))
+
+
+def _by_shape(formula: str, xml: bool) -> str:
+    if "(" not in formula or not MEMO or _NUL in formula:
+        bound = bind_plain(formula)
+        return escape(bound) if xml else bound
+    parts = _HOLE.split(formula)  # text, digits, text, digits, ..., text
+    parts[::2] = _bound_shape(_NUL.join(parts[::2]), len(REGISTRY), len(ALIASES), xml)
+    return "".join(parts)
 
 
 def bind_for_calc(formula: str) -> str:
@@ -80,13 +93,16 @@ def bind_for_calc(formula: str) -> str:
     >>> bind_for_calc("=_xludf.SEM(B2,B3)+SUM('SEM(x'!A1:A3)")
     "=_xludf.SEM(B2,B3)+SUM('SEM(x'!A1:A3)"
     """
-    if "(" not in formula:
-        return formula
-    if not MEMO or _NUL in formula:
-        return bind_plain(formula)
-    parts = _HOLE.split(formula)  # text, digits, text, digits, ..., text
-    parts[::2] = _bound_shape(_NUL.join(parts[::2]), len(REGISTRY), len(ALIASES))
-    return "".join(parts)
+    return _by_shape(formula, False)
+
+
+def bind_for_calc_xml(formula: str) -> str:
+    """:func:`bind_for_calc` written as the text of an ``<f>`` element (``&``, ``<``, ``>`` escaped).
+
+    >>> bind_for_calc_xml('IF(A2<>"",SEM(A2,0.9),"a&b")')
+    'IF(A2&lt;&gt;"",_xludf.SEM(A2,0.9),"a&amp;b")'
+    """
+    return _by_shape(formula, True)
 
 
 def bind_plain(formula: str) -> str:

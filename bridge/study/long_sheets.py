@@ -20,7 +20,7 @@ from xml.sax.saxutils import escape
 
 from openpyxl.utils import get_column_letter
 
-from ..formulas.calc_binding import bind_for_calc, bind_sheet_xml
+from ..formulas.calc_binding import bind_for_calc, bind_for_calc_xml, bind_sheet_xml
 from ..workbook.files import replacing
 from ..workbook.sheet_data import ErrorValue
 
@@ -42,19 +42,21 @@ def rows_xml(rows: Iterable[list], first_row: int, *, formulas: bool,
     with ``=`` is a formula, otherwise all text is text. ``styles`` maps (row, 0-based column) to
     the style index a cell is written with (a date keeps its date format)."""
     letters: list[str] = []
+    styled = bool(styles)  # asked once: a mapping of many cells may be costly to test (the Bands' styles)
     for r, row in enumerate(rows, start=first_row):
         while len(letters) < len(row):
             letters.append(get_column_letter(len(letters) + 1))
-        parts = [f'<row r="{r}">']
+        digits = str(r)
+        parts = [f'<row r="{digits}">']
         for c, value in enumerate(row):
             if value is None:
                 continue
-            ref = f"{letters[c]}{r}"
-            if styles and (r, c) in styles:
+            ref = letters[c] + digits
+            if styled and (r, c) in styles:
                 ref += f'" s="{styles[(r, c)]}'  # the attribute rides on the reference
             kind = type(value)  # the common exact types first; subclasses (bool, ErrorValue) below
             if kind is str and formulas and value.startswith("="):
-                parts.append(f'<c r="{ref}"><f>{escape(bind_for_calc(value[1:]))}</f></c>')
+                parts.append(f'<c r="{ref}"><f>{bind_for_calc_xml(value[1:])}</f></c>')
             elif kind is float:
                 if math.isfinite(value):
                     parts.append(f'<c r="{ref}"><v>{value!r}</v></c>')
