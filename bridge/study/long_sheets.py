@@ -6,6 +6,10 @@ only the header row of these two sheets (so styles, column widths, panes and pag
 openpyxl's), then splices the data rows into those sheet parts as plain text: numbers as
 ``<c r="C2"><v>1</v></c>``, text as inline strings, formulas as ``<f>`` without a cached value
 (the recalculation adds it). Every other part of the package is copied as it is.
+
+The package written here is the study's intermediate file: the recalculation reads it and writes the study
+with every entry compressed again (:func:`~trueband.bridge.workbook.save.write_package`), so its entries are
+compressed at zlib's fastest level (:data:`LEVEL`): the study a user gets is the same.
 """
 
 from __future__ import annotations
@@ -22,9 +26,13 @@ from openpyxl.utils import get_column_letter
 
 from ..formulas.calc_binding import bind_for_calc, bind_for_calc_xml, bind_sheet_xml
 from ..workbook.files import replacing
+from ..workbook.save import set_compress_level
 from ..workbook.sheet_data import ErrorValue
 
 __all__ = ["rows_xml", "splice_rows", "sheet_parts"]
+
+#: zlib level of the intermediate package's entries (the recalculation compresses the study's own entries)
+LEVEL = 1
 
 _ILLEGAL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f]")
 _NS_REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
@@ -110,7 +118,7 @@ def splice_rows(path: Path, rows: Mapping[str, Callable[[], Iterator[str]]], las
     """
     path = Path(path)
     with replacing(path) as tmp, zipfile.ZipFile(path) as src, \
-            zipfile.ZipFile(tmp, "w", zipfile.ZIP_DEFLATED, compresslevel=1) as dst:
+            zipfile.ZipFile(tmp, "w", zipfile.ZIP_DEFLATED, compresslevel=LEVEL) as dst:
         parts = sheet_parts(src)
         wanted = {parts[name]: name for name in rows}
         for info in src.infolist():
@@ -119,7 +127,7 @@ def splice_rows(path: Path, rows: Mapping[str, Callable[[], Iterator[str]]], las
             if info.filename not in wanted:
                 if sheet:  # registered calls as _xludf.NAME(, the form LibreOffice binds to the add-in
                     data = bind_sheet_xml(data.decode("utf-8")).encode("utf-8")
-                dst.writestr(info, data, compress_type=zipfile.ZIP_DEFLATED, compresslevel=6)
+                dst.writestr(info, data, compress_type=zipfile.ZIP_DEFLATED, compresslevel=LEVEL)
                 continue
             name = wanted[info.filename]
             xml = bind_sheet_xml(data.decode("utf-8"))
@@ -133,6 +141,7 @@ def splice_rows(path: Path, rows: Mapping[str, Callable[[], Iterator[str]]], las
                 tail = "</sheetData>" + tail
             part = zipfile.ZipInfo(info.filename, date_time=info.date_time)
             part.compress_type = zipfile.ZIP_DEFLATED
+            set_compress_level(part, LEVEL)
             with dst.open(part, "w", force_zip64=True) as out:
                 out.write(head.encode("utf-8"))
                 batch: list[str] = []

@@ -108,4 +108,4 @@ def _characters_as_utf8(path: Path) -> None:
             data = src.read(info.filename)
             if info.filename.startswith("xl/worksheets/") and info.filename.endswith(".xml") and b"&#" in data:
                 data = _CHARACTER_REFERENCE.sub(character, data)
-            dst.writestr(info, data, compress_type=zipfile.ZIP_DEFLATED)
+            dst.writestr(info, data, compress_type=zipfile.ZIP_DEFLATED, compresslevel=long_sheets.LEVEL)

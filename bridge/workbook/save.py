@@ -54,6 +54,7 @@ from .package import (
 
 __all__ = [
     "PackageChanges",
+    "set_compress_level",
     "OutputRefused",
     "save_workbook",
     "write_package",
@@ -285,11 +286,15 @@ def _level_for(size: int, compresslevel: int | None) -> int | None:
     return 1 if size >= LARGE_PART else None
 
 
-def _set_level(info: zipfile.ZipInfo, level: int | None) -> None:
+def set_compress_level(info: zipfile.ZipInfo, level: int | None) -> None:
+    """Compress the entry ``info`` describes at zlib ``level`` (None: zlib's default) when it is written."""
     # The attribute is private before Python 3.13 and public (compress_level) from it.
     info._compresslevel = level
     if hasattr(info, "compress_level"):
         info.compress_level = level
+
+
+_set_level = set_compress_level
 
 
 def write_package(pkg: WorkbookPackage, changes: PackageChanges, dest: str | os.PathLike, *,
