@@ -176,3 +176,59 @@ def test_rows_xml_writes_what_it_wrote_before():
             after = list(long_sheets.rows_xml(rows, 2, formulas=formulas, styles=style))
             assert after == before
             assert any("_xludf.SEM(" in row for row in after) == formulas
+
+
+def _filled_down(r: int) -> list:
+    """A row of the kind the Bands and Scored items sheets fill down: formulas and text, numbers only in them."""
+    return [f"=A{r}", f'=IF(B{r}="","",SCORE_CI(B{r},$C$4,$C$3,"lower"))', None, "",
+            f"=IF(ISNUMBER(D{r}),ROUND(SEM(D{r},0.9),2),\"n/a {r}\")", f"id {r}", f" {r} ", "12", f"=LOG10(E{r})+KR_20(F{r}:G{r})",
+            f"='Sheet {r % 3}'!A{r}*1.5E+3", "a<b & c", f"x\x01{r}", f"y\x02{r}", f"z\ufdd0{r}", f"=1SEM({r})",
+            f"=SUM(A{r}:A{r + 9})&\"SEM({r})\"", "\x03ctl", f"tab\t{r}", "=", f"={r}"][: 6 + r % 15]
+
+
+class _Columns(dict):
+    """Styles by whole columns and single cells, as the Bands sheet's (a Mapping that is costly to count)."""
+
+    def __contains__(self, key):
+        return key[1] % 3 == 0 or dict.__contains__(self, key)
+
+    def __getitem__(self, key):
+        return dict.get(self, key, 7 + key[1])
+
+    def __bool__(self):
+        return True
+
+
+def test_rows_from_templates_equal_the_cell_by_cell_rows(monkeypatch):
+    rows = [_filled_down(r) for r in range(2, 400)] + _mixed_rows(30) + [[], [None], [""], ["=A1"]] * 3
+    single = _Columns({(5, 1): 3, (77, 4): 2, (78, 4): 2})
+    for formulas in (True, False):
+        for styles in (None, {(2 + r, c): 3 for r in range(0, 400, 7) for c in range(0, 20, 2)}, single):
+            before = list(_rows_xml_before(rows, 2, formulas=formulas, styles=styles))
+            assert list(long_sheets.rows_xml(rows, 2, formulas=formulas, styles=styles)) == before
+            monkeypatch.setattr(long_sheets, "ROW_MEMO", False)
+            assert list(long_sheets.rows_xml(rows, 2, formulas=formulas, styles=styles)) == before
+            monkeypatch.setattr(long_sheets, "ROW_MEMO", True)
+
+
+def test_filled_down_rows_share_one_template(monkeypatch):
+    made = []
+    row_xml = long_sheets._row_xml
+    monkeypatch.setattr(long_sheets, "_row_xml", lambda *a: made.append(a[2]) or row_xml(*a))
+    rows = [[f"=A{r}+SEM(B{r},0.9)", f"id {r}"] for r in range(2, 1000)]
+    out = list(long_sheets.rows_xml(rows, 2, formulas=True))
+    assert made == ["\ufdd0"]  # one template, no row written cell by cell
+    assert out[997] == '<row r="999"><c r="A999"><f>A999+_xludf.SEM(B999,0.9)</f></c>' \
+                       '<c r="B999" t="inlineStr"><is><t>id 999</t></is></c></row>'
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.lists(st.one_of(st.none(), st.lists(_TOKENS, max_size=8).map("".join), st.integers(-10 ** 20, 10 ** 20),
+                                   st.floats(), st.booleans()), max_size=6), min_size=1, max_size=6),
+       st.integers(1, 1048000), st.booleans())
+def test_rows_from_templates_equal_the_cell_by_cell_rows_on_drawn_rows(rows, first, formulas):
+    rows = rows + [[("=" + v) if isinstance(v, str) else v for v in row] for row in rows]
+    styles = {(first + 1, 0): 4, (first, 2): 5}
+    for style in (None, styles):
+        assert list(long_sheets.rows_xml(rows, first, formulas=formulas, styles=style)) == \
+            list(_rows_xml_before(rows, first, formulas=formulas, styles=style))

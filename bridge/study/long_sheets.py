@@ -44,40 +44,103 @@ def _text(value: str) -> str:
     return f"<is><t{space}>{escape(value)}</t></is>"
 
 
+#: Whether :func:`rows_xml` writes a row of text and formulas from its shape's template (False: cell by cell).
+ROW_MEMO = True
+#: Stands for a number in a row's template: a noncharacter, neither a word character nor space, nor
+#: changed by escaping (a row holding one is written cell by cell).
+_MARK = "\ufdd0"
+_NUMBER = re.compile(r"([0-9]+)(?!\w*\s*\()")  # as calc_binding's holes: never a digit of a called name
+_MOST_SHAPES = 4096
+
+
 def rows_xml(rows: Iterable[list], first_row: int, *, formulas: bool,
              styles: Mapping[tuple[int, int], int] | None = None) -> Iterator[str]:
     """``<row>`` elements for ``rows`` starting at ``first_row``; with ``formulas``, text starting
     with ``=`` is a formula, otherwise all text is text. ``styles`` maps (row, 0-based column) to
-    the style index a cell is written with (a date keeps its date format)."""
+    the style index a cell is written with (a date keeps its date format).
+
+    A filled-down row differs from the one above only in its numbers (the row number, the row in its
+    references): a row of text and formulas is therefore written from a template of its shape (its numbers
+    taken out, as :func:`~trueband.bridge.formulas.calc_binding.bind_for_calc` takes them out), made once
+    by the cell-by-cell writer, and its numbers put back; the text is the same."""
     letters: list[str] = []
     styled = bool(styles)  # asked once: a mapping of many cells may be costly to test (the Bands' styles)
+    templates: dict = {}
     for r, row in enumerate(rows, start=first_row):
         while len(letters) < len(row):
             letters.append(get_column_letter(len(letters) + 1))
         digits = str(r)
-        parts = [f'<row r="{digits}">']
-        for c, value in enumerate(row):
-            if value is None:
-                continue
-            ref = letters[c] + digits
-            if styled and (r, c) in styles:
-                ref += f'" s="{styles[(r, c)]}'  # the attribute rides on the reference
-            kind = type(value)  # the common exact types first; subclasses (bool, ErrorValue) below
-            if kind is str and formulas and value.startswith("="):
-                parts.append(f'<c r="{ref}"><f>{bind_for_calc_xml(value[1:])}</f></c>')
-            elif kind is float:
-                if math.isfinite(value):
-                    parts.append(f'<c r="{ref}"><v>{value!r}</v></c>')
-            elif kind is int:
-                parts.append(f'<c r="{ref}"><v>{value}</v></c>')
-            else:
-                parts.append(_other_cell(ref, value, formulas))
-        parts.append("</row>")
-        yield "".join(parts)
+        xml = _row_from_template(row, r, digits, letters, formulas, styles if styled else None, templates) \
+            if ROW_MEMO else None
+        yield xml if xml is not None else _row_xml(row, r, digits, letters, formulas, styles if styled else None)
+
+
+class _NumberShape(str):
+    """A number cell's value in a row's template (its digits taken out): written as the number it stands for."""
+
+
+def _row_from_template(row: list, r: int, digits: str, letters: list, formulas: bool, styles, templates: dict):
+    """The row's XML from its shape's template, or None when the row holds anything but text and whole numbers
+    (fractions, logical values, dates, ...: the cell-by-cell writer takes those) or the templates are too many."""
+    cells = [digits]  # the row number, then each cell's: its row number, a separator (text or number), its text
+    for value in row:
+        kind = type(value)
+        if kind is str:
+            cells.append(digits + "\x02" + value if value else "")  # "" writes nothing, as None does
+        elif kind is int:
+            cells.append(digits + "\x03" + repr(value))
+        elif value is None:
+            cells.append("")
+        else:  # a row of measured numbers (the data copy) is written faster cell by cell
+            return None
+    text = "\x01".join(cells)
+    if _MARK in text or text.count("\x01") != len(row):
+        return None  # a separator or the mark inside the text itself
+    parts = _NUMBER.split(text)
+    key = _MARK.join(parts[::2])
+    if styles is not None:
+        key = (key, tuple(styles[(r, c)] if (r, c) in styles else None for c in range(len(row)) if cells[c + 1]))
+    pieces = templates.get(key)
+    if pieces is None:
+        if len(templates) >= _MOST_SHAPES:
+            return None
+        shape = _MARK.join(parts[::2]).split("\x01")[1:]  # each cell: the mark of its row number, a separator, ...
+        values = [None if not cell else cell[2:] if cell[1] == "\x02" else _NumberShape(cell[2:]) for cell in shape]
+        template = _row_xml(values, r, _MARK, letters, formulas, styles)
+        pieces = templates[key] = template.split(_MARK) if template.count(_MARK) == len(parts) // 2 else False
+    if pieces is False:  # the template did not keep every number in place: cell by cell
+        return None
+    parts[::2] = pieces
+    return "".join(parts)
+
+
+def _row_xml(row: list, r: int, digits: str, letters: list, formulas: bool, styles) -> str:
+    """One ``<row>`` element, cell by cell (``digits`` is how the row number is written)."""
+    parts = [f'<row r="{digits}">']
+    for c, value in enumerate(row):
+        if value is None:
+            continue
+        ref = letters[c] + digits
+        if styles is not None and (r, c) in styles:
+            ref += f'" s="{styles[(r, c)]}'  # the attribute rides on the reference
+        kind = type(value)  # the common exact types first; subclasses (bool, ErrorValue) below
+        if kind is str and formulas and value.startswith("="):
+            parts.append(f'<c r="{ref}"><f>{bind_for_calc_xml(value[1:])}</f></c>')
+        elif kind is float:
+            if math.isfinite(value):
+                parts.append(f'<c r="{ref}"><v>{value!r}</v></c>')
+        elif kind is int:
+            parts.append(f'<c r="{ref}"><v>{value}</v></c>')
+        else:
+            parts.append(_other_cell(ref, value, formulas))
+    parts.append("</row>")
+    return "".join(parts)
 
 
 def _other_cell(ref: str, value, formulas: bool) -> str:
     """The element of a cell that is neither a formula nor a plain number (empty for blank text)."""
+    if type(value) is _NumberShape:
+        return f'<c r="{ref}"><v>{value}</v></c>'
     if isinstance(value, bool):
         return f'<c r="{ref}" t="b"><v>{int(value)}</v></c>'
     if isinstance(value, int):
