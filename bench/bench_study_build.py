@@ -2,9 +2,10 @@
 
 The speed-ups switched off for the reference (module flags, so both runs are the same code otherwise):
 the binder's memo by formula shape (``formulas/calc_binding.MEMO``), the column reader's pass for plain
-inline-string cells (``workbook/sheet_columns.INLINE_PASS``) and zlib's fastest level for the study's
-intermediate package (``study/long_sheets.LEVEL``, 6 in the reference as before). The long sheets' row writer
-(``study/long_sheets.rows_xml``) has no switch: both runs use its present form.
+inline-string cells (``workbook/sheet_columns.INLINE_PASS``), the long sheets' rows written from a template
+per row shape (``study/long_sheets.ROW_MEMO``) and zlib's fastest level for the study's intermediate package
+(``study/long_sheets.LEVEL``, 6 in the reference as before). The cell-by-cell row writer's own reordering
+(the common cell types first) has no switch: both runs use its present form.
 
 Two studies per size, as ``bench_study.py`` (``impact``: three demographic columns, sites, stages) and
 ``bench_study_battery.py`` (``battery``: three predictors) write them; each run in a fresh child process
@@ -37,6 +38,7 @@ def _switch_off() -> None:
     calc_binding.MEMO = False
     sheet_columns.INLINE_PASS = False
     long_sheets.LEVEL = 6
+    long_sheets.ROW_MEMO = False
 
 
 def one(n: int, which: str, reference: bool, data: Path) -> dict:
