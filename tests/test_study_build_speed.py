@@ -1,9 +1,10 @@
 """The study's build speed-ups leave the study as it was.
 
 Reference: the same build with the speed-ups switched off by their module flags (the binder's memo,
-``calc_binding.MEMO``; the column reader's inline-string pass, ``sheet_columns.INLINE_PASS``; the long sheets' row templates, ``long_sheets.ROW_MEMO``; the intermediate
-package's zlib level, ``long_sheets.LEVEL``, at 6 as before). These are speed changes only, so the intermediate
-package's sheet parts must be byte-identical and the recalculated study the same in every entry.
+``calc_binding.MEMO``; the column reader's inline-string pass, ``sheet_columns.INLINE_PASS``; the long
+sheets' row templates, ``long_sheets.ROW_MEMO``; the intermediate package's zlib level, ``long_sheets.LEVEL``,
+at 6 as before). These are speed changes only, so the intermediate package's sheet parts must be
+byte-identical and the recalculated study the same in every entry.
 """
 
 from __future__ import annotations
