@@ -97,15 +97,15 @@ def _row_from_template(row: list, r: int, digits: str, letters: list, formulas: 
     if _MARK in text or text.count("\x01") != len(row):
         return None  # a separator or the mark inside the text itself
     parts = _NUMBER.split(text)
-    key = _MARK.join(parts[::2])
+    key = shape = _MARK.join(parts[::2])
     if styles is not None:
-        key = (key, tuple(styles[(r, c)] if (r, c) in styles else None for c in range(len(row)) if cells[c + 1]))
+        key = (shape, tuple(styles[(r, c)] if (r, c) in styles else None for c in range(len(row)) if cells[c + 1]))
     pieces = templates.get(key)
     if pieces is None:
         if len(templates) >= _MOST_SHAPES:
             return None
-        shape = _MARK.join(parts[::2]).split("\x01")[1:]  # each cell: the mark of its row number, a separator, ...
-        values = [None if not cell else cell[2:] if cell[1] == "\x02" else _NumberShape(cell[2:]) for cell in shape]
+        cells = shape.split("\x01")[1:]  # each cell: the mark of its row number, a separator, its text
+        values = [None if not cell else cell[2:] if cell[1] == "\x02" else _NumberShape(cell[2:]) for cell in cells]
         template = _row_xml(values, r, _MARK, letters, formulas, styles)
         pieces = templates[key] = template.split(_MARK) if template.count(_MARK) == len(parts) // 2 else False
     if pieces is False:  # the template did not keep every number in place: cell by cell
