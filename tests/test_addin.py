@@ -191,7 +191,7 @@ def test_a_function_added_to_the_registry_is_in_the_next_addin(component):
         addin = component()["TruebandFunctions"](None)
         assert addin.ADDIN_PROBE(7.0, 3.0, None, ()) == call("ADDIN_PROBE", 7.0, 3.0) == 2.0
     finally:
-        REGISTRY.pop("ADDIN_PROBE")  # the bindings ask formulas.names each time: no cache to clear
+        REGISTRY.pop("ADDIN_PROBE")  # the binder's memo is keyed on the registry's size, so removing the name drops it
 
 
 @pytest.mark.slow  # seconds: the whole suite runs it, the quick loop leaves it out
