@@ -18,7 +18,7 @@ from .. import charts
 from ..context import Expr, Ref, StudyContext, area, cell
 from ..words import CAUTION, EXTRA_SELECTIONS_WORDS
 from .bands import BandsLayout
-from .impact import SHEET as IMPACT_SHEET, Impact, ImpactTable
+from .impact import LOWEST, SHEET as IMPACT_SHEET, Impact, ImpactTable
 from .setup import SetupSheet
 
 __all__ = ["Cuts", "write", "SHEET", "MAX_CUTS"]
@@ -208,13 +208,16 @@ def _lowest(ctx, g, r, c, order, ratios, passing, apps, reference, row_of: _RowO
     text when no ratio of the row is defined (one formula shape in every row)."""
     usable = [(x.value, k) for x, k in zip(ratios, order) if isinstance(x.value, float)]
     ratio_row = area(SHEET, c_ratio, r, c_ratio + len(order) - 1, r)
-    low = ctx.expression(g, r, c, 'IF(COUNT({ratios})=0,"' + NO_RATIO + '",MIN({ratios}))',
+    # Impact's LOWEST: words only when every ratio of the row is words (the reference group's label and "nobody
+    # passes"; the count of groups is fixed at build), else MIN, which passes an error among the ratios on
+    # (COUNT and ISNUMBER would skip it and show "no impact ratio" instead)
+    low = ctx.expression(g, r, c, LOWEST.format(words=len(order) - 1, missing=NO_RATIO),
                          lambda: min(usable)[0] if usable else NO_RATIO, style="coef", ratios=ratio_row)
     low_group = min(usable, key=lambda x: x[0])[1] if usable else None
     names = area(SHEET, c_ratio, names_row, c_ratio + len(order) - 1, names_row).fixed()
     where = ctx.text("MATCH({low},{ratios},0)", SHEET, low=low, ratios=ratio_row)
-    guard = ctx.text("IF(ISNUMBER({low}),", SHEET, low=low)
-    ctx.put(g, r, c + 1, "=" + guard + ctx.text("INDEX({names},", SHEET, names=names) + where + '),"")',
+    guard = ctx.text('IF(ISTEXT({low}),"",', SHEET, low=low)  # an error in the lowest passes on too
+    ctx.put(g, r, c + 1, "=" + guard + ctx.text("INDEX({names},", SHEET, names=names) + where + "))",
             lambda: low_group or "")
     focal = (row_of.at(where, passing[low_group].value if low_group else None),
              row_of.at_app(where, apps[low_group].value if low_group else None))
@@ -223,7 +226,7 @@ def _lowest(ctx, g, r, c, order, ratios, passing, apps, reference, row_of: _RowO
                                                   ("IMPACT_Z", (), "coef"), ("IMPACT_FISHER", (), "p"),
                                                   ("IMPACT_EXTRA_SELECTIONS", (), "count"))):
         args = (*focal, *reference, *extra)
-        text = "=" + guard + ctx.call_text(function, args, SHEET) + ',"")'
+        text = "=" + guard + ctx.call_text(function, args, SHEET) + ")"
         ctx.put(g, r, c + 2 + j, text,
                 (lambda f=function, a=args: call(f, *(ctx.value(x) for x in a))) if low_group else (lambda: ""),
                 style=style)

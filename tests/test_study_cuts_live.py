@@ -1,0 +1,83 @@
+"""Issue 17's two open points of the Cuts and Strata sheets, recalculated by trueband's engine and by LibreOffice.
+
+- Cuts: an error in a group's impact ratio at a cut reaches that row's lowest-ratio cell and its group (the
+  Impact sheet's ``LOWEST`` rule: words only when every ratio of the row is words, else MIN, which passes an
+  error on). COUNT and ISNUMBER skip an error (OpenFormula 1.2, part 2, sections 6.13.9 and 6.13.14; Excel and
+  LibreOffice alike), so the former formula showed "no impact ratio is computable" instead.
+- Strata: the reason the exact conditional test is not computed for strata too large for it is a live formula
+  on the strata's counts: the number of possible tables against ``EXACT_POOLED_MAX_TABLES``, the same count as
+  ``POOLED_EXACT_P``'s (each informative stratum's focal-selected count ranges over max(0, m1 − n0) .. min(n1,
+  m1), the hypergeometric support; Agresti, 2013, Categorical Data Analysis, 3rd ed., sec. 7.3.5).
+"""
+
+from __future__ import annotations
+
+import pytest
+from openpyxl import load_workbook
+
+from test_study_impact import CUT, K, SETUP, find_row, sheet_rows, table
+from test_study_setup import write_book
+from trueband.bridge.engine.recalc import recalculate
+from trueband.bridge.study.build import make_study
+from trueband.bridge.study.sheets import cuts
+from trueband.funcs.impact_pooled import EXACT_POOLED_MAX_TABLES
+
+
+def _sex_block(ws):
+    """(header row, first cut row, {header: column}) of the Cuts sheet's block for 'Sex' (1-based)."""
+    rows = sheet_rows(ws.parent, ws.title)
+    at = find_row(rows, "Sex")
+    head = find_row(rows, "Cut", start=at)
+    columns = {h: k + 1 for k, h in enumerate(rows[head]) if isinstance(h, str)}
+    return head + 1, head + 2, columns
+
+
+def _broken_ratio(path):
+    """Replace the women's impact ratio at the block's third cut with ``=1/0`` (an error in one group's ratio;
+    the other group is the reference); returns the row and the header's columns."""
+    wb = load_workbook(path)
+    ws = wb["Cuts"]
+    _, first, columns = _sex_block(ws)
+    r = first + 2
+    ws.cell(r, columns["Impact ratio: Women"]).value = "=1/0"
+    wb.save(path)
+    return r, columns
+
+
+@pytest.fixture(scope="module")
+def broken(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("cuts_error")
+    header, rows = table(n=120)
+    result = make_study(write_book(folder / "d.xlsx", header, rows, SETUP), folder / "study.xlsx")
+    r, columns = _broken_ratio(result.path)
+    return result.path, r, columns, folder
+
+
+def test_an_error_in_a_ratio_reaches_the_lowest_ratio_with_trueband(broken):
+    path, r, columns, _ = broken
+    recalculate(path, in_place=True, all_formulas=True)
+    ws = load_workbook(path, data_only=True)["Cuts"]
+    assert ws.cell(r, columns["Impact ratio: Men"]).value == "reference group"
+    assert ws.cell(r, columns["Lowest impact ratio"]).value == "#DIV/0!"
+    assert ws.cell(r, columns["Its group"]).value == "#DIV/0!"   # not "" (ISNUMBER would hide it)
+    assert ws.cell(r, columns["Fisher exact p"]).value == "#DIV/0!"
+    # the rows around it still show their figures: the error stays in its row
+    assert isinstance(ws.cell(r - 1, columns["Lowest impact ratio"]).value, float)
+    assert ws.cell(r - 1, columns["Its group"]).value == "Women"
+
+
+@pytest.mark.slow
+def test_an_error_in_a_ratio_reaches_the_lowest_ratio_in_libreoffice(broken, soffice):
+    from test_study_libreoffice import CSV_FILTER, RECALC_ALWAYS, convert, read_csv, shown
+
+    path, r, columns, folder = broken
+    profile = folder / "profile"
+    (profile / "user").mkdir(parents=True, exist_ok=True)
+    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
+    convert(soffice, path, CSV_FILTER, folder / "csv", profile)
+    rows = read_csv(folder, "Cuts")
+    assert shown(rows, r, columns["Impact ratio: Women"]) == "#DIV/0!"
+    # LibreOffice computes the lowest-ratio rule itself (standard functions only): the error, not the words
+    assert shown(rows, r, columns["Lowest impact ratio"]) == "#DIV/0!"
+    assert shown(rows, r, columns["Its group"]) == "#DIV/0!"
+    assert cuts.NO_RATIO not in {shown(rows, r, c) for c in columns.values()}
