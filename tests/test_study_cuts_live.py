@@ -12,6 +12,8 @@
 
 from __future__ import annotations
 
+import shutil
+
 import pytest
 from openpyxl import load_workbook
 
@@ -81,3 +83,86 @@ def test_an_error_in_a_ratio_reaches_the_lowest_ratio_in_libreoffice(broken, sof
     assert shown(rows, r, columns["Lowest impact ratio"]) == "#DIV/0!"
     assert shown(rows, r, columns["Its group"]) == "#DIV/0!"
     assert cuts.NO_RATIO not in {shown(rows, r, c) for c in columns.values()}
+
+
+def _first_comparison(ws):
+    """(first stratum row, last stratum row, the exact p's row) of the Strata sheet's first comparison (1-based)."""
+    rows = sheet_rows(ws.parent, ws.title)
+    head = find_row(rows, "Stratum")
+    total = find_row(rows, "All strata added together", start=head)
+    exact = find_row(rows, "Exact conditional p (two-sided)", start=head)
+    return head + 2, total, exact + 1  # total (0-based) is the last stratum row (1-based)
+
+
+def _exact_tables(strata):
+    """The possible tables of the exact conditional test: each informative stratum's hypergeometric support
+    (Agresti, 2013, sec. 7.3.5), counted here independently of the sheet."""
+    total = 0
+    for fs, fa, rs, ra in strata:
+        m1 = fs + rs
+        if fa and ra and m1 and fa + ra - m1:
+            total += min(fa, m1) - max(0, m1 - ra) + 1
+    return total
+
+
+@pytest.fixture(scope="module")
+def large_strata(tmp_path_factory):
+    """A study whose first Strata comparison's counts are typed over with strata too large for the exact test,
+    then recalculated: the reason must say so with the count; typed back small, the p value returns."""
+    folder = tmp_path_factory.mktemp("strata_large")
+    header, rows = table(n=120)
+    result = make_study(write_book(folder / "d.xlsx", header, rows, SETUP), folder / "study.xlsx")
+    wb = load_workbook(result.path)
+    ws = wb["Strata"]
+    first, last, exact = _first_comparison(ws)
+    large = [[600_000 + k, 1_500_000, 700_000, 1_400_000 + k] for k in range(last - first + 1)]
+    for r, counts in zip(range(first, last + 1), large):
+        for c, v in enumerate(counts, start=2):
+            ws.cell(r, c).value = v
+    wb.save(result.path)
+    recalculate(result.path, in_place=True, all_formulas=True)
+    return result.path, exact, large, folder
+
+
+def test_strata_too_large_for_the_exact_test_say_why_live(large_strata, tmp_path):
+    from trueband.funcs import call
+    from trueband.funcs.errors import TruebandError
+
+    built, exact, large, _ = large_strata
+    path = tmp_path / "study.xlsx"
+    shutil.copyfile(built, path)  # the fixture's file stays as built for the LibreOffice test
+    got = load_workbook(path, data_only=True)["Strata"].cell(exact, 2).value
+    tables = _exact_tables(large)
+    assert tables > EXACT_POOLED_MAX_TABLES
+    assert got == (f"not computable: the strata are too large for the exact conditional test: {tables:,} possible "
+                   f"tables, more than the {EXACT_POOLED_MAX_TABLES:,} it enumerates at most; read the "
+                   "Cochran–Mantel–Haenszel p instead")
+    with pytest.raises(TruebandError, match=f"{tables:,} possible tables"):  # the function counts the same
+        call("POOLED_EXACT_P", large)
+    # typed back to small strata: the p value, the function's own
+    wb = load_workbook(path)
+    ws = wb["Strata"]
+    first, last, _ = _first_comparison(ws)
+    small = [[3 + k, 10, 6, 12 + k] for k in range(last - first + 1)]
+    for r, counts in zip(range(first, last + 1), small):
+        for c, v in enumerate(counts, start=2):
+            ws.cell(r, c).value = v
+    wb.save(path)
+    recalculate(path, in_place=True, all_formulas=True)
+    assert load_workbook(path, data_only=True)["Strata"].cell(exact, 2).value == pytest.approx(
+        call("POOLED_EXACT_P", small), rel=1e-12)
+
+
+@pytest.mark.slow
+def test_strata_too_large_say_why_in_libreoffice(large_strata, soffice):
+    # LibreOffice computes the guard and the count itself (SUMPRODUCT, ABS, TEXT: standard functions)
+    from test_study_libreoffice import CSV_FILTER, RECALC_ALWAYS, convert, read_csv, shown
+
+    path, exact, large, folder = large_strata
+    profile = folder / "profile"
+    (profile / "user").mkdir(parents=True, exist_ok=True)
+    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
+    convert(soffice, path, CSV_FILTER, folder / "csv", profile)
+    ours = load_workbook(path, data_only=True)["Strata"].cell(exact, 2).value
+    assert f"{_exact_tables(large):,} possible tables" in ours
+    assert shown(read_csv(folder, "Strata"), exact, 2) == ours
