@@ -26,24 +26,25 @@ from trueband.funcs.impact_pooled import EXACT_POOLED_MAX_TABLES
 
 
 def _sex_block(ws):
-    """(header row, first cut row, {header: column}) of the Cuts sheet's block for 'Sex' (1-based)."""
+    """(first cut row of the groups' table, {header: column} of it, first cut row of the lowest ratio's table under
+    it, {header: column} of that) of the Cuts sheet's block for 'Sex' (1-based)."""
     rows = sheet_rows(ws.parent, ws.title)
     at = find_row(rows, "Sex")
     head = find_row(rows, "Cut", start=at)
-    columns = {h: k + 1 for k, h in enumerate(rows[head]) if isinstance(h, str)}
-    return head + 1, head + 2, columns
+    head_b = find_row(rows, "Cut", start=head + 1)
+    columns = [{h: k + 1 for k, h in enumerate(rows[x]) if isinstance(h, str)} for x in (head, head_b)]
+    return head + 2, columns[0], head_b + 2, columns[1]
 
 
 def _broken_ratio(path):
     """Replace the women's impact ratio at the block's third cut with ``=1/0`` (an error in one group's ratio;
-    the other group is the reference); returns the row and the header's columns."""
+    the other group is the reference); returns the rows and columns to read (the ratio's, the lowest's)."""
     wb = load_workbook(path)
     ws = wb["Cuts"]
-    _, first, columns = _sex_block(ws)
-    r = first + 2
-    ws.cell(r, columns["Impact ratio: Women"]).value = "=1/0"
+    first, columns, first_b, columns_b = _sex_block(ws)
+    ws.cell(first + 2, columns["Impact ratio: Women"]).value = "=1/0"
     wb.save(path)
-    return r, columns
+    return (first + 2, first_b + 2), (columns, columns_b)
 
 
 @pytest.fixture(scope="module")
@@ -51,28 +52,29 @@ def broken(tmp_path_factory):
     folder = tmp_path_factory.mktemp("cuts_error")
     header, rows = table(n=120)
     result = make_study(write_book(folder / "d.xlsx", header, rows, SETUP), folder / "study.xlsx")
-    r, columns = _broken_ratio(result.path)
-    return result.path, r, columns, folder
+    rows_at, columns = _broken_ratio(result.path)
+    return result.path, rows_at, columns, folder
 
 
 def test_an_error_in_a_ratio_reaches_the_lowest_ratio_with_trueband(broken):
-    path, r, columns, _ = broken
+    path, (r, rb), (columns, low), _ = broken
     recalculate(path, in_place=True, all_formulas=True)
     ws = load_workbook(path, data_only=True)["Cuts"]
     assert ws.cell(r, columns["Impact ratio: Men"]).value == "reference group"
-    assert ws.cell(r, columns["Lowest impact ratio"]).value == "#DIV/0!"
-    assert ws.cell(r, columns["Its group"]).value == "#DIV/0!"   # not "" (ISNUMBER would hide it)
-    assert ws.cell(r, columns["Fisher exact p"]).value == "#DIV/0!"
+    assert ws.cell(rb, 1).value == ws.cell(r, 1).value   # the same cut in the table of the lowest ratio
+    assert ws.cell(rb, low["Lowest impact ratio"]).value == "#DIV/0!"
+    assert ws.cell(rb, low["Its group"]).value == "#DIV/0!"   # not "" (ISNUMBER would hide it)
+    assert ws.cell(rb, low["Fisher exact p"]).value == "#DIV/0!"
     # the rows around it still show their figures: the error stays in its row
-    assert isinstance(ws.cell(r - 1, columns["Lowest impact ratio"]).value, float)
-    assert ws.cell(r - 1, columns["Its group"]).value == "Women"
+    assert isinstance(ws.cell(rb - 1, low["Lowest impact ratio"]).value, float)
+    assert ws.cell(rb - 1, low["Its group"]).value == "Women"
 
 
 @pytest.mark.slow
 def test_an_error_in_a_ratio_reaches_the_lowest_ratio_in_libreoffice(broken, soffice):
     from test_study_libreoffice import CSV_FILTER, RECALC_ALWAYS, convert, read_csv, shown
 
-    path, r, columns, folder = broken
+    path, (r, rb), (columns, low), folder = broken
     profile = folder / "profile"
     (profile / "user").mkdir(parents=True, exist_ok=True)
     (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
@@ -80,9 +82,9 @@ def test_an_error_in_a_ratio_reaches_the_lowest_ratio_in_libreoffice(broken, sof
     rows = read_csv(folder, "Cuts")
     assert shown(rows, r, columns["Impact ratio: Women"]) == "#DIV/0!"
     # LibreOffice computes the lowest-ratio rule itself (standard functions only): the error, not the words
-    assert shown(rows, r, columns["Lowest impact ratio"]) == "#DIV/0!"
-    assert shown(rows, r, columns["Its group"]) == "#DIV/0!"
-    assert cuts.NO_RATIO not in {shown(rows, r, c) for c in columns.values()}
+    assert shown(rows, rb, low["Lowest impact ratio"]) == "#DIV/0!"
+    assert shown(rows, rb, low["Its group"]) == "#DIV/0!"
+    assert cuts.NO_RATIO not in {shown(rows, rb, c) for c in low.values()}
 
 
 def _first_comparison(ws):
