@@ -408,3 +408,21 @@ def test_a_linked_long_text_wraps_and_a_too_wide_sheet_narrows_column_a():
             wide.set(r, c, 1.0)
     printing._lay_out_grid(wide, "T", "2026-01-01", '#,##0 "USD"')
     assert wide.widths[1] < 60.0 and (1, 1) in wide.wrapped and not wide.page.label_column
+
+
+def test_the_printed_width_counts_whole_columns():
+    # a text alone at the right of a row runs on into an empty column; LibreOffice prints that column whole, so
+    # the scale must fit the whole columns (before: the Summary, Cut score and Reliability sheets of the demo
+    # printed a few letters of their last column on a page of their own)
+    g = Grid("Sheet")
+    g.widths.update({1: 64.0, 2: 24.0, 3: 16.0, 4: 24.0})
+    for r in range(1, 4):
+        g.set(r, 1, f"a label of row {r}")
+        for c in (2, 3, 4):
+            g.set(r, c, 0.5)
+    g.set(2, 5, "95% interval")  # runs on over the empty columns to its right
+    printing._lay_out_grid(g, "T", "2026-01-01", '#,##0 "USD"')
+    last = re.fullmatch(r"A1:([A-Z]+)\d+", g.page.area).group(1)
+    printed = sum(g.widths.get(c, 8.43) for c in range(1, printing.column_index_from_string(last) + 1))
+    assert printed * printing.UNIT_PT * g.page.scale / 100 <= printing.PRINT_WIDTH_PT + 0.5
+    assert g.widths[6] < 8.43  # the empty column the text runs into is narrowed to the text's end
