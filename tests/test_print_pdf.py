@@ -20,8 +20,8 @@ from trueband.bridge.study.grid import HEADER_FILL, INK, INPUT_FILL, Grid
 from trueband.bridge.study.setup import SetupError
 
 sys.path.insert(0, str(Path(__file__).parent))
-from print_check import (cut_cells, first_column_copy, found, overlaps, page_sheets, pdf_pages, printed_texts,  # noqa: E402
-                         sideways_pages, split_rows, to_pdf)
+from print_check import (cut_cells, first_column_copy, found, overlaps, page_sheets, pdf_pages,  # noqa: E402
+                         printed_texts, sideways_pages, split_rows, to_pdf)
 
 ROOT = Path(__file__).resolve().parents[1]
 

@@ -275,6 +275,6 @@ __all__ += ["FORMULAS_OR_VALUES"]
 #: Strata: why the exact conditional p is not computed, around the live count of possible tables (the sheet's
 #: formula puts the count between the two parts; ``{limit}``: the most the test enumerates).
 EXACT_TOO_LARGE = ("the strata are too large for the exact conditional test: ",
-                   " possible tables, more than the {limit:,} it enumerates at most; read the Cochran–Mantel–Haenszel "
-                   "p instead")
+                   " possible tables, more than the {limit:,} it enumerates at most; read the "
+                   "Cochran–Mantel–Haenszel p instead")
 __all__ += ["EXACT_TOO_LARGE"]

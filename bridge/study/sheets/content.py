@@ -89,8 +89,8 @@ def write(ctx: StudyContext) -> Content | None:
     ctx.formula(g, row + 3, 2, "AVERAGE", area(SHEET, 4, first, 4, last),
                 check=mean_cvr, style="coef", key="cvr_mean")
     row += 5 + g.para(row + 5, 1, "CVR = (nₑ − N/2)/(N/2), with nₑ the experts rating the item essential and N "
-                       "the experts rating it (Lawshe 1975). An item passes when its CVR reaches the critical value, the CVR of "
-                       "the fewest essential ratings that chance (each expert saying essential with probability "
+                       "the experts rating it (Lawshe 1975). An item passes when its CVR reaches the critical value, "
+                       "the CVR of the fewest essential ratings that chance (each expert saying essential with probability "
                        "one half) reaches with probability at most the significance level. The CVI is the mean CVR "
                        "of the items kept (Lawshe 1975). Ratings other than essential, useful or not necessary "
                        "were left out and are listed on Notes.")

@@ -228,8 +228,8 @@ def _pooled(ctx, g, at: int, table: Ref, counts: np.ndarray, columns: dict, setu
 #: How many tables the exact conditional test would enumerate, live on the strata's count columns: over the
 #: strata that carry information, the focal-selected count's range max(0, m1 - n0) .. min(n1, m1) (n1 = {fa},
 #: n0 = {ra}, m1 = {fs}+{rs}), as POOLED_EXACT_P counts it (MIN and MAX of two arrays written with ABS).
-_EXACT_TABLES = ("SUMPRODUCT(({fa}>0)*({ra}>0)*({fs}+{rs}>0)*({fa}-{fs}+{ra}-{rs}>0)*(({fa}+{fs}+{rs}-ABS({fa}-{fs}-{rs}))/2"
-                 "-({fs}+{rs}-{ra}+ABS({fs}+{rs}-{ra}))/2+1))")
+_EXACT_TABLES = ("SUMPRODUCT(({fa}>0)*({ra}>0)*({fs}+{rs}>0)*({fa}-{fs}+{ra}-{rs}>0)"
+                 "*(({fa}+{fs}+{rs}-ABS({fa}-{fs}-{rs}))/2-({fs}+{rs}-{ra}+ABS({fs}+{rs}-{ra}))/2+1))")
 
 
 def _exact_tables(counts: np.ndarray) -> int:
