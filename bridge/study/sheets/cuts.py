@@ -2,6 +2,10 @@
 lowest impact ratio and its interval, z, Fisher's p and the extra selections to reach four-fifths, and (with a
 criterion) the expected success rate among those passing, so the trade-off between validity and impact shows;
 a chart of the lowest impact ratio against the cut with the 0.80 line.
+
+Each demographic column's block is two stacked tables of the same cuts, so that each prints across a landscape
+page (issue 20): the groups' passing counts, pass rates and impact ratios; under it the lowest ratio of each cut
+(Impact's ``LOWEST`` rule, so an error among the ratios passes on) with its group and that comparison's figures.
 """
 
 from __future__ import annotations
