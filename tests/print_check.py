@@ -6,6 +6,9 @@
   next cell, a text running off the print range, two cells' texts run together);
 - :func:`split_rows`: every printed row's text cells appear together on one page (a table whose right-hand
   columns print on a further page is split sideways);
+- :func:`sideways_pages`: every sheet prints on as many pages as its first column alone does (:func:`first_column_copy`
+  renders that): a sheet with more has columns printed sideways onto further pages, whatever they hold (numbers
+  only too, which :func:`split_rows` cannot see);
 - :func:`page_count`.
 
 A page's sheet is read from its header's right part, where the study prints the sheet's name (``&A``).
@@ -15,6 +18,7 @@ from __future__ import annotations
 
 import re
 import shutil
+import zipfile
 import subprocess
 import unicodedata
 import xml.etree.ElementTree as ET
@@ -24,7 +28,7 @@ from openpyxl import load_workbook
 from openpyxl.utils import range_boundaries
 
 __all__ = ["to_pdf", "pdf_pages", "overlaps", "cut_cells", "split_rows", "page_count", "page_sheets", "Word",
-           "printed_texts", "found"]
+           "printed_texts", "found", "first_column_copy", "sideways_pages"]
 
 _XHTML = "{http://www.w3.org/1999/xhtml}"
 #: Words whose boxes overlap by less than this many points across are taken as touching.
@@ -157,6 +161,59 @@ def split_rows(book: Path, pages) -> list[tuple[str, int]]:
         if not any(name == sheet and all(_found(w, seen) for w in words) for name, seen in by_page):
             out.append((sheet, row))
     return sorted(out)
+
+
+_AREA = re.compile(r'(<definedName name="_xlnm\.Print_Area" localSheetId="(\d+)"[^>]*>)([^<]*)(</definedName>)')
+_RANGE = re.compile(r"^(.*!)?\$?([A-Z]+)\$?(\d+)(?::\$?[A-Z]+\$?(\d+))?$")
+
+
+def first_column_copy(book: Path, out: Path) -> Path:
+    """A copy of ``book`` whose sheets print only the first column of their print range (the same rows, row
+    heights, page breaks, scale and header): LibreOffice prints it on as many pages as the book's sheets take
+    down, so a sheet of ``book`` on more pages than in the copy prints columns sideways. A sheet without a print
+    range gets one over the first column of its used range. Only ``xl/workbook.xml``'s defined names change (the
+    charts and everything else are copied byte for byte)."""
+    wb = load_workbook(book, read_only=True)
+    used = [(ws.title, ws.max_row or 1) for ws in wb.worksheets]
+    wb.close()
+    with zipfile.ZipFile(book) as src:
+        text = src.read("xl/workbook.xml").decode("utf-8")
+        seen: set[int] = set()
+
+        def narrow(m):
+            seen.add(int(m.group(2)))
+            parts = []
+            for ref in m.group(3).split(","):
+                r = _RANGE.match(ref.strip())
+                if r is None:
+                    return m.group(0)
+                sheet, col, first, last = r.group(1) or "", r.group(2), r.group(3), r.group(4) or r.group(3)
+                parts.append(f"{sheet}${col}${first}:${col}${last}")
+            return m.group(1) + ",".join(parts) + m.group(4)
+        text = _AREA.sub(narrow, text)
+        added = "".join(f'<definedName name="_xlnm.Print_Area" localSheetId="{k}">'
+                        f"'{title.replace(chr(39), chr(39) * 2)}'!$A$1:$A${rows}</definedName>"
+                        for k, (title, rows) in enumerate(used) if k not in seen)
+        if added:
+            text = text.replace("</definedNames>", added + "</definedNames>") if "</definedNames>" in text \
+                else text.replace("</sheets>", "</sheets><definedNames>" + added + "</definedNames>")
+        with zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED) as dst:
+            for item in src.infolist():
+                data = text.encode("utf-8") if item.filename == "xl/workbook.xml" else src.read(item)
+                dst.writestr(item, data)
+    return out
+
+
+def sideways_pages(pages, first_column_pages) -> dict[str, tuple[int, int]]:
+    """{sheet: (its pages, the pages of its first column alone)} for each sheet printed on more pages than its
+    first column alone (:func:`first_column_copy`): its right-hand columns went onto further pages."""
+    def count(names):
+        out: dict[str, int] = {}
+        for name in names:
+            out[name] = out.get(name, 0) + 1
+        return out
+    whole, first = count(page_sheets(pages)), count(page_sheets(first_column_pages))
+    return {name: (n, first.get(name, 0)) for name, n in whole.items() if n > first.get(name, 0)}
 
 
 printed_texts = _printed_texts

@@ -336,6 +336,12 @@ def test_the_normal_approximation_is_labelled(tmp_path):
     # Wilson, Pan & Schumsky (2012): CVR critical = z(1 - alpha) / sqrt(N)
     row = next(r for r in wb["Content"].iter_rows() if r[0].value == "i1")
     assert row[4].value == pytest.approx(stats.norm.ppf(0.95) / math.sqrt(13), rel=1e-9)
+    # 13 experts: their ratings in two tables below the figures (at most eight a table, so each prints across a
+    # page); the counts read both: Lawshe (1975), CVR = (ne - N/2)/(N/2) with 10 essential of 13
+    assert row[1].value == 13 and row[2].value == 10
+    assert row[3].value == pytest.approx((10 - 6.5) / 6.5, rel=1e-12)
+    items = [r for r in wb["Content"].iter_rows(values_only=True) if r[0] == "Item"]
+    assert [sum(1 for v in r[1:] if v) for r in items] == [8, 5]
 
 
 @pytest.mark.parametrize("setup, extra, match", [

@@ -91,6 +91,22 @@ def find_row(rows, first, start=0, col=0):
     return next(i for i in range(start, len(rows)) if rows[i] and len(rows[i]) > col and rows[i][col] == first)
 
 
+def cut_table(rows, at=0):
+    """(header, rows) of the Cuts block whose first "Cut" header is at or after ``at``: its table of the groups'
+    counts, rates and ratios joined with the table of the lowest ratio under it (the same cuts in the same order;
+    two tables so that each prints across a page, issue 20)."""
+    head = find_row(rows, "Cut", start=at)
+    block = []
+    for r in rows[head + 1:]:
+        if not r or not isinstance(r[0], (int, float)):
+            break
+        block.append(r)
+    head_b = find_row(rows, "Cut", start=head + 1 + len(block))
+    lower = rows[head_b + 1:head_b + 1 + len(block)]
+    assert [r[0] for r in lower] == [r[0] for r in block]   # the same cuts
+    return list(rows[head]) + list(rows[head_b][1:]), [list(a) + list(b[1:]) for a, b in zip(block, lower)]
+
+
 def counts(df, column, group):
     member = df[df[column] == group]
     return int(member["passed"].sum()), len(member)
@@ -238,11 +254,9 @@ def test_groups_means_sds_and_d_against_pandas_and_pingouin(built):
 def test_cuts_have_one_row_per_distinct_score(built):
     _, wb, df = built
     rows = sheet_rows(wb, "Cuts")
-    at = find_row(rows, "Cut")
     cuts = sorted(set(df["score"]))[1:]  # the lowest score passes everybody: left out
-    got = [r for r in rows[at + 1:at + 1 + len(cuts)]]
+    header, got = cut_table(rows)
     assert [r[0] for r in got] == cuts
-    header = rows[at]
     low_col = header.index("Lowest impact ratio")
     for r in got:
         passing = {g: int(((df["Sex"] == g) & (df["score"] >= r[0])).sum()) for g in ("Women", "Men")}

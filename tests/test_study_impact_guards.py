@@ -70,6 +70,10 @@ def impact_rows(wb):
         if r[0] in (None, ""):
             break
         table_[r[0]] = dict(zip(rows[head], r))
+    # the tests and further figures of the same groups: the second table, under the first (issue 20)
+    tests = find_row(rows, "Group", start=head + 1)
+    for r in rows[tests + 1:tests + 1 + len(table_)]:
+        table_[r[0]].update((h, v) for h, v in zip(rows[tests], r) if h != "Group")
     return table_
 
 

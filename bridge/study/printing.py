@@ -521,6 +521,17 @@ def _breaks(s: _Sheet, blocks, scale: int, chart_rows=frozenset()) -> tuple[list
     return breaks, repeat
 
 
+def _whole_columns(s: _Sheet, edge_pt: float) -> float:
+    """The printed width: LibreOffice prints whole columns, so the width runs to the right end of the column that
+    ``edge_pt`` (the end of the text, which may run on into an empty column) falls in. An empty column that only
+    a text runs on into is narrowed to that text's end first (a text running past the print range is cut, and
+    the sheet printed at its scale would be wider than a page: its last column on a page of its own)."""
+    last = s.column_at(edge_pt)
+    if s.x(last + 1) - edge_pt > 0.5 and not any(c == last for _, c in s.g.cells):
+        s.g.widths[last] = max(1.0, (edge_pt - s.x(last)) / UNIT_PT + 0.5)
+    return s.x(last + 1)
+
+
 def _lay_out_grid(grid: Grid, title: str, built: str, money: str) -> None:
     grid.formats.update({"money": money, "input_money": money})
     s = _Sheet(grid)
@@ -532,7 +543,7 @@ def _lay_out_grid(grid: Grid, title: str, built: str, money: str) -> None:
     _row_heights(s)
     boxes = _chart_boxes(s)
     blocks = _blocks(s, boxes)
-    width_pt = _right_edge(s, boxes)
+    width_pt = _whole_columns(s, _right_edge(s, boxes))
     scale = _scale(s, blocks, width_pt)
     breaks, repeat = _breaks(s, blocks, scale, {int(b[2]) for b in boxes})
     last_row = max([s.rows] + [int(b[3]) for b in boxes])

@@ -268,3 +268,13 @@ FORMULAS_OR_VALUES = (
     "(a notice on each sheet says so; trueband restore puts the formulas back). The sheets Reliability, Items, "
     "Raters, Validity, Bands, Impact and Utility hold the detail; Notes lists the methods and references.")
 __all__ += ["FORMULAS_OR_VALUES"]
+
+
+# ---------------------------------------------------------------- issue 17's open points (Strata), issue 20 (print)
+
+#: Strata: why the exact conditional p is not computed, around the live count of possible tables (the sheet's
+#: formula puts the count between the two parts; ``{limit}``: the most the test enumerates).
+EXACT_TOO_LARGE = ("the strata are too large for the exact conditional test: ",
+                   " possible tables, more than the {limit:,} it enumerates at most; read the "
+                   "Cochran–Mantel–Haenszel p instead")
+__all__ += ["EXACT_TOO_LARGE"]

@@ -1,7 +1,8 @@
 """Content: Lawshe's content validity ratio per item from the experts' ratings, its critical value, and the CVI.
 
-Written when the Setup names a content ratings sheet. The ratings are copied to the right of the table (as
-inputs a person may correct) and every figure is a formula over that copy.
+Written when the Setup names a content ratings sheet. The ratings are copied below the figures (as inputs a person
+may correct), in tables of at most :data:`EXPERTS_PER_TABLE` experts so that each prints across a page, and every
+figure is a formula over that copy.
 """
 
 from __future__ import annotations
@@ -20,7 +21,7 @@ __all__ = ["Content", "SHEET", "FUNCTIONS", "write"]
 SHEET = "Content"
 #: The registered functions this sheet uses, for Notes.
 FUNCTIONS = ("CVR", "CVR_CRITICAL")
-_FIRST_RATING_COL = 9   # column I: the copy of the ratings
+_FIRST_RATING_COL = 2   # column B: the copy of the ratings, in tables below the figures
 #: How the sheet computes, for Notes.
 CONVENTIONS = (
     "Content sheet: N is the number of experts who rated the item (a blank rating is left out); the critical "
@@ -59,11 +60,7 @@ def write(ctx: StudyContext) -> Content | None:
               "Passes?")
     for c, h in enumerate(labels, start=1):
         g.set(head, c, h, "header")
-    for j, expert in enumerate(ratings.experts):
-        g.set(head, _FIRST_RATING_COL + j, expert, "header")
-        g.widths[_FIRST_RATING_COL + j] = 12
     first, last = head + 1, head + len(ratings.items)
-    _item_rows(ctx, g, first, ratings, alpha, method_cell)
     passes = _passing(ratings, method)
     row = last + 2
     g.set(row, 1, "Items rated")
@@ -91,30 +88,58 @@ def write(ctx: StudyContext) -> Content | None:
     g.set(row + 3, 1, "Mean CVR of every item rated")
     ctx.formula(g, row + 3, 2, "AVERAGE", area(SHEET, 4, first, 4, last),
                 check=mean_cvr, style="coef", key="cvr_mean")
-    g.para(row + 5, 1, "CVR = (nₑ − N/2)/(N/2), with nₑ the experts rating the item essential and N the experts "
-                       "rating it (Lawshe 1975). An item passes when its CVR reaches the critical value, the CVR of "
-                       "the fewest essential ratings that chance (each expert saying essential with probability "
+    row += 5 + g.para(row + 5, 1, "CVR = (nₑ − N/2)/(N/2), with nₑ the experts rating the item essential and N "
+                       "the experts rating it (Lawshe 1975). An item passes when its CVR reaches the critical value, "
+                       "the CVR of the fewest essential ratings that chance (each expert saying essential with probability "
                        "one half) reaches with probability at most the significance level. The CVI is the mean CVR "
                        "of the items kept (Lawshe 1975). Ratings other than essential, useful or not necessary "
                        "were left out and are listed on Notes.")
+    copies = _ratings_tables(g, row + 1, ratings)
+    _item_rows(ctx, g, first, ratings, alpha, method_cell, copies)
     return Content(n_items=n_items, n_pass=n_pass, cvi=cvi)
 
 
-def _item_rows(ctx: StudyContext, g, first: int, ratings, alpha: Ref, method_cell: Ref) -> None:
-    """One row per item from ``first``: experts rating, essential count, CVR, critical CVR, passes; the ratings
-    copied to the right as inputs."""
-    last_col = _FIRST_RATING_COL + len(ratings.experts) - 1
-    for i, (item, values) in enumerate(zip(ratings.items, ratings.ratings)):
+#: Experts per table of the ratings' copy: a table of more would not fit across a landscape page at 70% (column
+#: A's item labels and up to eight ratings such as "not necessary"; issue 20).
+EXPERTS_PER_TABLE = 8
+
+
+def _ratings_tables(g, at: int, ratings) -> list[tuple[int, int, int]]:
+    """The experts' ratings copied as inputs, below the figures from row ``at``: one table of the items' rows per
+    :data:`EXPERTS_PER_TABLE` experts (stacked, so each prints across a page); returns each table's (first item
+    row, first column, last column)."""
+    g.set(at, 1, "The experts' ratings (a copy: correct a rating here and recalculate; the table above follows)",
+          "heading")
+    tables, row = [], at + 1
+    experts = list(ratings.experts)
+    for start in range(0, len(experts), EXPERTS_PER_TABLE):
+        group = experts[start:start + EXPERTS_PER_TABLE]
+        g.set(row, 1, "Item", "header")
+        for j, expert in enumerate(group):
+            g.set(row, _FIRST_RATING_COL + j, expert, "header")
+            g.widths[_FIRST_RATING_COL + j] = max(g.widths.get(_FIRST_RATING_COL + j, 0), 12)
+        for i, (item, values) in enumerate(zip(ratings.items, ratings.ratings)):
+            g.set(row + 1 + i, 1, item)
+            for j, value in enumerate(values[start:start + len(group)]):
+                if value is not None:
+                    g.set(row + 1 + i, _FIRST_RATING_COL + j, value, "input")
+        tables.append((row + 1, _FIRST_RATING_COL, _FIRST_RATING_COL + len(group) - 1))
+        row += len(ratings.items) + 2
+    return tables
+
+
+def _item_rows(ctx: StudyContext, g, first: int, ratings, alpha: Ref, method_cell: Ref, copies) -> None:
+    """One row per item from ``first``: experts rating, essential count, CVR, critical CVR, passes; each over the
+    item's row of every table of the ratings' copy (``copies``, from :func:`_ratings_tables`)."""
+    for i, values in enumerate(ratings.ratings):
         r = first + i
-        g.set(r, 1, item)
-        for j, value in enumerate(values):
-            if value is not None:
-                g.set(r, _FIRST_RATING_COL + j, value, "input")
+        g.set(r, 1, ratings.items[i])
         given = [v for v in values if v is not None]
-        row_range = area(SHEET, _FIRST_RATING_COL, r, last_col, r)
-        panel = ctx.formula(g, r, 2, "COUNTA", row_range, check=lambda n=len(given): n, style="count")
-        essential = ctx.expression(g, r, 3, 'COUNTIF({ratings},"essential")',
-                                   lambda n=given.count("essential"): n, style="count", ratings=row_range)
+        rows = [area(SHEET, c1, top + i, c2, top + i) for top, c1, c2 in copies]
+        panel = ctx.formula(g, r, 2, "COUNTA", *rows, check=lambda n=len(given): n, style="count")
+        places = {f"r{k}": x for k, x in enumerate(rows)}
+        essential = ctx.expression(g, r, 3, "+".join(f'COUNTIF({{r{k}}},"essential")' for k in range(len(rows))),
+                                   lambda n=given.count("essential"): n, style="count", **places)
         cvr = ctx.formula(g, r, 4, "CVR", essential, panel, style="coef", key=f"cvr_{i + 1}")
         critical = ctx.formula(g, r, 5, "CVR_CRITICAL", panel, alpha, method_cell, style="coef")
         if isinstance(cvr.value, float) and isinstance(critical.value, float):

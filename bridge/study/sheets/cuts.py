@@ -2,6 +2,10 @@
 lowest impact ratio and its interval, z, Fisher's p and the extra selections to reach four-fifths, and (with a
 criterion) the expected success rate among those passing, so the trade-off between validity and impact shows;
 a chart of the lowest impact ratio against the cut with the 0.80 line.
+
+Each demographic column's block is two stacked tables of the same cuts, so that each prints across a landscape
+page (issue 20): the groups' passing counts, pass rates and impact ratios; under it the lowest ratio of each cut
+(Impact's ``LOWEST`` rule, so an error among the ratios passes on) with its group and that comparison's figures.
 """
 
 from __future__ import annotations
@@ -18,7 +22,7 @@ from .. import charts
 from ..context import Expr, Ref, StudyContext, area, cell
 from ..words import CAUTION, EXTRA_SELECTIONS_WORDS
 from .bands import BandsLayout
-from .impact import SHEET as IMPACT_SHEET, Impact, ImpactTable
+from .impact import LOWEST, SHEET as IMPACT_SHEET, Impact, ImpactTable
 from .setup import SetupSheet
 
 __all__ = ["Cuts", "write", "SHEET", "MAX_CUTS"]
@@ -98,7 +102,7 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
     applicants = {name: t.counts[name][1] for name in order}
     names_row, app_row, head = row + 1, row + 2, row + 3
     c_pass, c_rate, c_ratio = 2, 2 + m, 2 + 2 * m
-    c_low = c_ratio + m
+    c_low = 2   # the second table's (under the first): the lowest ratio of each cut and its comparison
     g.set(row, 1, f"{t.demographic.header}", "heading")
     g.set(row, 2, "Reference group (the Impact sheet's cell)")
     ctx.link(g, row, c_pass + 3, t.reference_cell)
@@ -120,6 +124,14 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
         g.set(head, c_rate + j, f"Pass rate: {name}", "header")
         g.set(head, c_ratio + j, f"Impact ratio: {name}", "header")
     g.set(head, 1, "Cut", "header")
+    first = head + 1
+    last = first + len(cuts) - 1
+    # the second table, of the same cuts, under the first: one table of both would be wider than a landscape page
+    # at 70% (issue 20)
+    g.set(last + 2, 1, f"{t.demographic.header}: the lowest impact ratio at each cut, and its comparison",
+          "heading")
+    head_b = last + 3
+    g.set(head_b, 1, "Cut", "header")
     tail = ("Lowest impact ratio", "Its group", "Lower limit", "Upper limit", "z: gap in standard deviations",
             "Fisher exact p", "Extra selections to reach four-fifths")
     with_criterion = validity is not None and isinstance(validity.value, float) and utility is not None \
@@ -127,14 +139,14 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
     if with_criterion:
         tail += ("Selection ratio", "Expected success rate among those passing (Taylor–Russell)")
     for j, h in enumerate(tail):
-        g.set(head, c_low + j, h, "header")
-    for c in range(1, c_low + len(tail)):
+        g.set(head_b, c_low + j, h, "header")
+    for c in range(1, max(c_ratio + m, c_low + len(tail))):
         g.widths.setdefault(c, 12)
-    first = head + 1
     app_area = area(SHEET, c_pass, app_row, c_pass + m - 1, app_row).fixed()
     for i, cut in enumerate(cuts):
-        r = first + i
+        r, rb = first + i, head_b + 1 + i
         cut_ref = ctx.put(g, r, 1, float(cut), lambda v=float(cut): v, style="score")
+        ctx.link(g, rb, 1, cut_ref, style="score")
         passing = {}
         for j, name in enumerate(order):
             passing[name] = ctx.expression(
@@ -146,18 +158,18 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
         reference = (row_of.at(ref_at, passing[t.reference].value), row_of.at_app(ref_at, applicants[t.reference]))
         ratios = [_ratio(ctx, g, r, c_ratio + j, name, t, passing, apps, reference, names_row)
                   for j, name in enumerate(order)]
-        _lowest(ctx, g, r, c_low, order, ratios, passing, apps, reference, row_of, names_row, c_ratio, setup)
+        _lowest(ctx, g, r, rb, c_low, order, ratios, passing, apps, reference, row_of, names_row, c_ratio, setup)
         if with_criterion:
             share = float((d.scores[~np.isnan(d.scores)] >= cut).mean())
-            sr = ctx.expression(g, r, c_low + len(tail) - 2, 'COUNTIF({scores},">="&{cut})/COUNT({scores})',
+            sr = ctx.expression(g, rb, c_low + len(tail) - 2, 'COUNTIF({scores},">="&{cut})/COUNT({scores})',
                                 lambda v=share: v, style="coef", scores=bands.scores, cut=cut_ref)
-            ctx.formula(g, r, c_low + len(tail) - 1, "TAYLOR_RUSSELL", validity, utility.base_rate, sr, style="pct")
-    last = first + len(cuts) - 1
-    series = Series(charts.area(area(SHEET, c_low, first, c_low, last)), charts.area(area(SHEET, 1, first, 1, last)),
-                    title=f"{t.demographic.header}")
+            ctx.formula(g, rb, c_low + len(tail) - 1, "TAYLOR_RUSSELL", validity, utility.base_rate, sr, style="pct")
+    first_b, last_b = head_b + 1, head_b + len(cuts)
+    series = Series(charts.area(area(SHEET, c_low, first_b, c_low, last_b)),
+                    charts.area(area(SHEET, 1, first_b, 1, last_b)), title=f"{t.demographic.header}")
     series.marker.symbol = "circle"
     series.marker.size = 4
-    return last + 2, series
+    return last_b + 2, series
 
 
 #: What a cut's ratio cell shows when the reference group has nobody passing (the ratio is not defined).
@@ -202,19 +214,23 @@ def _ratio(ctx, g, r, c, name, t: ImpactTable, passing, apps, reference, names_r
     return ctx.put(g, r, c, text, check, style="coef")
 
 
-def _lowest(ctx, g, r, c, order, ratios, passing, apps, reference, row_of: _RowOf, names_row, c_ratio,
+def _lowest(ctx, g, r, out, c, order, ratios, passing, apps, reference, row_of: _RowOf, names_row, c_ratio,
             setup) -> None:
-    """The row's lowest ratio, its group, and that comparison's interval, z, Fisher p and extra selections;
-    text when no ratio of the row is defined (one formula shape in every row)."""
+    """The lowest ratio of cut row ``r``, its group, and that comparison's interval, z, Fisher p and extra
+    selections, in row ``out`` of the second table from column ``c``; text when no ratio of the row is defined
+    (one formula shape in every row)."""
     usable = [(x.value, k) for x, k in zip(ratios, order) if isinstance(x.value, float)]
     ratio_row = area(SHEET, c_ratio, r, c_ratio + len(order) - 1, r)
-    low = ctx.expression(g, r, c, 'IF(COUNT({ratios})=0,"' + NO_RATIO + '",MIN({ratios}))',
+    # Impact's LOWEST: words only when every ratio of the row is words (the reference group's label and "nobody
+    # passes"; the count of groups is fixed at build), else MIN, which passes an error among the ratios on
+    # (COUNT and ISNUMBER would skip it and show "no impact ratio" instead)
+    low = ctx.expression(g, out, c, LOWEST.format(words=len(order) - 1, missing=NO_RATIO),
                          lambda: min(usable)[0] if usable else NO_RATIO, style="coef", ratios=ratio_row)
     low_group = min(usable, key=lambda x: x[0])[1] if usable else None
     names = area(SHEET, c_ratio, names_row, c_ratio + len(order) - 1, names_row).fixed()
     where = ctx.text("MATCH({low},{ratios},0)", SHEET, low=low, ratios=ratio_row)
-    guard = ctx.text("IF(ISNUMBER({low}),", SHEET, low=low)
-    ctx.put(g, r, c + 1, "=" + guard + ctx.text("INDEX({names},", SHEET, names=names) + where + '),"")',
+    guard = ctx.text('IF(ISTEXT({low}),"",', SHEET, low=low)  # an error in the lowest passes on too
+    ctx.put(g, out, c + 1, "=" + guard + ctx.text("INDEX({names},", SHEET, names=names) + where + "))",
             lambda: low_group or "")
     focal = (row_of.at(where, passing[low_group].value if low_group else None),
              row_of.at_app(where, apps[low_group].value if low_group else None))
@@ -223,7 +239,7 @@ def _lowest(ctx, g, r, c, order, ratios, passing, apps, reference, row_of: _RowO
                                                   ("IMPACT_Z", (), "coef"), ("IMPACT_FISHER", (), "p"),
                                                   ("IMPACT_EXTRA_SELECTIONS", (), "count"))):
         args = (*focal, *reference, *extra)
-        text = "=" + guard + ctx.call_text(function, args, SHEET) + ',"")'
-        ctx.put(g, r, c + 2 + j, text,
+        text = "=" + guard + ctx.call_text(function, args, SHEET) + ")"
+        ctx.put(g, out, c + 2 + j, text,
                 (lambda f=function, a=args: call(f, *(ctx.value(x) for x in a))) if low_group else (lambda: ""),
                 style=style)

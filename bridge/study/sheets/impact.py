@@ -25,17 +25,24 @@ from .bands import BandsLayout
 from .reliability import Reliability
 from .setup import SetupSheet
 
-__all__ = ["Impact", "ImpactTable", "write", "reference_group", "HEAD"]
+__all__ = ["Impact", "ImpactTable", "write", "reference_group", "HEAD", "TESTS_HEAD"]
 
 SHEET = "Impact"
 DISTRIBUTION_ROW, DISTRIBUTION_COL = 5, 20   # the score distribution's heading (columns T:Y, not printed)
 
-#: The table's columns, from A.
+#: The table's columns, from A (the rates, the ratio and its interval).
 HEAD = ("Group", "Applicants", "Selected", "Selection rate", "Impact ratio (rate ÷ reference rate)",
-        "Below four-fifths?", "z: gap in standard deviations", "Fisher exact p",
-        "Extra selections to reach four-fifths", "Four-fifths of the highest rate", "Impact ratio, lower limit",
-        "Impact ratio, upper limit", "Odds ratio of selection", "Selections that flip the exact test",
-        "Small numbers?")
+        "Below four-fifths?", "Four-fifths of the highest rate", "Impact ratio, lower limit",
+        "Impact ratio, upper limit")
+#: The columns of the second table of the same groups, under the first (the tests and the further figures): one
+#: table of both would be wider than a landscape page at 70% (issue 20).
+TESTS_HEAD = ("Group", "z: gap in standard deviations", "Fisher exact p", "Extra selections to reach four-fifths",
+              "Odds ratio of selection", "Selections that flip the exact test", "Small numbers?")
+#: Column of the four-fifths line (the rates chart's second series).
+FOUR_FIFTHS_COL = HEAD.index("Four-fifths of the highest rate") + 1
+#: Rows from the first table's last row to the second table's header (the lowest ratio, the count below
+#: four-fifths and an empty row between them).
+TESTS_OFFSET = 6
 
 
 @dataclasses.dataclass(frozen=True)
@@ -60,6 +67,8 @@ class ImpactTable:
     reference_cell: Ref | None = None
     #: beside the reference cell: how the group there was chosen (live: the default, or a choice made there)
     how: Ref | None = None
+    #: the last row of the table's second part (the tests of the same groups, under the first)
+    end: int = 0
 
 
 @dataclasses.dataclass(frozen=True)
@@ -73,8 +82,7 @@ class Impact:
 
 def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLayout) -> Impact:
     g = ctx.sheet(SHEET)
-    g.widths.update({1: 22, 2: 13, 3: 13, 4: 13, 5: 15, 6: 15, 7: 13, 8: 11, 9: 15, 10: 16, 11: 12, 12: 12,
-                     13: 12, 14: 14, 15: 12})
+    g.widths.update({1: 22, 2: 13, 3: 13, 4: 13, 5: 15, 6: 15, 7: 13, 8: 12, 9: 12})
     d = ctx.data
     g.set(1, 1, "Adverse impact at the cut score", "title")
     cut_row = 2 + g.para(2, 1, CAUTION, "caution")
@@ -102,7 +110,7 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLa
             continue
         table = _table(ctx, g, row, demo, numbers, bands.selected, prefix, setup)
         tables.append(table)
-        row = _table_notes(g, table.last + 5, demo, numbers) + 4
+        row = _table_notes(g, table.end + 2, demo, numbers) + 4
     if not tables:
         min_ratio = ctx.not_computable_at(g, row, 1, reason if not several else "no demographic column holds "
                                           "two groups", key="min_ratio")
@@ -117,7 +125,8 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLa
     chart_row = at + 2
     g.charts.append((charts.selection_rates(charts.area(area(SHEET, 1, first.first, 1, first.last)),
                                             charts.area(area(SHEET, 4, first.header_row, 4, first.last)),
-                                            charts.area(area(SHEET, 10, first.header_row, 10, first.last))),
+                                            charts.area(area(SHEET, FOUR_FIFTHS_COL, first.header_row,
+                                                             FOUR_FIFTHS_COL, first.last))),
                      f"A{chart_row}"))
     g.charts[-1][0].width = 11.5
     # beside the rates chart, on the same page
@@ -169,15 +178,19 @@ def _table(ctx: StudyContext, g, row: int, demo: Demographic, numbers: Ref, sele
         chosen = ctx.expression(g, r, 3, "COUNTIFS({groups},{number},{selected},1)", lambda n=focal_selected: n,
                                 style="count", groups=numbers, number=number, selected=selected_flags)
         rates[name] = ctx.formula(g, r, 4, "SELECTION_RATE", chosen, applicants, style="coef", key=f"{prefix}rate_{name}")
-        g.set(r, 10, ctx.text("=0.8*MAX({rates})", SHEET, rates=area(SHEET, 4, first, 4, last).fixed()), "coef")
+        g.set(r, FOUR_FIFTHS_COL, ctx.text("=0.8*MAX({rates})", SHEET, rates=area(SHEET, 4, first, 4, last).fixed()),
+              "coef")
         four = (chosen, applicants, ref_sel, ref_app)
+        tests_row = last + TESTS_OFFSET + 1 + i   # the group's row of the second table
+        g.set(tests_row, 1, name)
         for c, function, extra, style in _FIGURES:
             # every row has the same formulas: the row of the reference group (the one named in the reference
             # cell now, not when the study was built) shows that it is the reference instead of figures
+            at = r if c > 0 else tests_row
             written = unless_reference(
-                ctx, g, r, c, function, *four, *extra(setup), group=cell(SHEET, r, 1).local(),
+                ctx, g, at, abs(c), function, *four, *extra(setup), group=cell(SHEET, at, 1).local(),
                 reference=places["name"], is_reference=name == reference,
-                label="reference group" if c == 5 else "",
+                label="reference group" if c in (5, -2) else "",
                 # Fisher's p and the small-numbers flag are defined when nobody passes; the rest are not
                 before=None if function in ("IMPACT_FISHER", "IMPACT_SMALL_NUMBERS") else setup.passes,
                 # shown as yes/no: spreadsheet apps show a stored TRUE/FALSE of a function they do not
@@ -191,11 +204,15 @@ def _table(ctx: StudyContext, g, row: int, demo: Demographic, numbers: Ref, sele
                 ratios[name] = written
             elif function == "FOUR_FIFTHS":
                 flags[name] = written
+    g.set(last + TESTS_OFFSET - 1, 1, f"Tests and further figures of the same groups ({demo.header})", "heading")
+    for c, h in enumerate(TESTS_HEAD, start=1):
+        g.set(last + TESTS_OFFSET, c, h, "header")
     min_ratio, n_below = _lowest(ctx, g, last, first, groups, reference, ratios, demo.header, setup)
     if n_below is not None:
         n_below = n_below.with_value(sum(1 for f in flags.values() if f.value is True))
     return ImpactTable(demo, numbers, reference, tuple(groups), counts, ratios, min_ratio, n_below, row, first,
-                       last, prefix, rates, cell(SHEET, row - 1, 3, value=reference, name="the reference group"), how)
+                       last, prefix, rates, cell(SHEET, row - 1, 3, value=reference, name="the reference group"), how,
+                       end=last + TESTS_OFFSET + len(groups))
 
 
 def _how_chosen(ctx: StudyContext, g, r: int, demo: Demographic, reference: str, how: str, places: dict,
@@ -302,14 +319,15 @@ _FOUR = ("fs", "fa", "rs", "ra")
 #: Beside the reference cell when it names no group of the table.
 NOT_A_GROUP = "not one of the groups below: type a label of column A as written there"
 
-#: (column, function, the arguments after the four counts, style) of each comparison's figures
+#: (column, function, the arguments after the four counts, style) of each comparison's figures; a negative column
+#: is in the second table (TESTS_HEAD), under the first
 _FIGURES = ((5, "IMPACT_RATIO", lambda s: (), "coef"), (6, "FOUR_FIFTHS", lambda s: (), None),
-            (7, "IMPACT_Z", lambda s: (), "coef"), (8, "IMPACT_FISHER", lambda s: (), "p"),
-            (9, "IMPACT_EXTRA_SELECTIONS", lambda s: (), "count"),
-            (11, "IMPACT_RATIO_CI", lambda s: ("lower", s.confidence), "coef"),
-            (12, "IMPACT_RATIO_CI", lambda s: ("upper", s.confidence), "coef"),
-            (13, "IMPACT_ODDS_RATIO", lambda s: (), "coef"), (14, "IMPACT_FLIP", lambda s: (), "count"),
-            (15, "IMPACT_SMALL_NUMBERS", lambda s: (), None))
+            (8, "IMPACT_RATIO_CI", lambda s: ("lower", s.confidence), "coef"),
+            (9, "IMPACT_RATIO_CI", lambda s: ("upper", s.confidence), "coef"),
+            (-2, "IMPACT_Z", lambda s: (), "coef"), (-3, "IMPACT_FISHER", lambda s: (), "p"),
+            (-4, "IMPACT_EXTRA_SELECTIONS", lambda s: (), "count"),
+            (-5, "IMPACT_ODDS_RATIO", lambda s: (), "coef"), (-6, "IMPACT_FLIP", lambda s: (), "count"),
+            (-7, "IMPACT_SMALL_NUMBERS", lambda s: (), None))
 
 
 #: The lowest of ``{ratios}``: the words ``missing`` when more than ``words`` of them are words (a ratio not

@@ -14,8 +14,11 @@ import textwrap
 
 import numpy as np
 
+from trueband.funcs import call
+from trueband.funcs.impact_pooled import EXACT_POOLED_MAX_TABLES
+
 from ..context import Ref, StudyContext, area, cell
-from ..words import CAUTION, LIVE_REFERENCE_WORDS, NOT_COMPUTABLE, POOLING_REFUSED
+from ..words import CAUTION, EXACT_TOO_LARGE, LIVE_REFERENCE_WORDS, NOT_COMPUTABLE, POOLING_REFUSED
 from .bands import BandsLayout
 from .impact import SHEET as IMPACT_SHEET, Impact, ImpactTable, count_guards, guarded_call
 from .setup import SetupSheet
@@ -213,12 +216,45 @@ def _pooled(ctx, g, at: int, table: Ref, counts: np.ndarray, columns: dict, setu
         extra = extra + (setup.confidence,) if extra else ()
         live = tuple((template, lambda n=counts, holds=holds, **_: bool(holds(n)), reason)
                      for template, holds, reason in guards)
-        text, check = guarded_call(ctx, g, function, table, *extra, guards=live, places=columns)
-        if not (ctx.full_checks or function != "POOLED_EXACT_P"):
-            check = None
+        if function == "POOLED_EXACT_P":
+            text, check = _exact_p(ctx, g, table, counts, columns)
+        else:
+            text, check = guarded_call(ctx, g, function, table, *extra, guards=live, places=columns)
         written[name] = ctx.put(g, at + k, 2, "=" + text, check, style=style,
                                 key=(name if key == "" else None) or f"{prefix}{name}")
     return written
+
+
+#: How many tables the exact conditional test would enumerate, live on the strata's count columns: over the
+#: strata that carry information, the focal-selected count's range max(0, m1 - n0) .. min(n1, m1) (n1 = {fa},
+#: n0 = {ra}, m1 = {fs}+{rs}), as POOLED_EXACT_P counts it (MIN and MAX of two arrays written with ABS).
+_EXACT_TABLES = ("SUMPRODUCT(({fa}>0)*({ra}>0)*({fs}+{rs}>0)*({fa}-{fs}+{ra}-{rs}>0)"
+                 "*(({fa}+{fs}+{rs}-ABS({fa}-{fs}-{rs}))/2-({fs}+{rs}-{ra}+ABS({fs}+{rs}-{ra}))/2+1))")
+
+
+def _exact_tables(counts: np.ndarray) -> int:
+    fs, fa, rs, ra = counts.T
+    sizes = np.minimum(fa, fs + rs) - np.maximum(0, fs + rs - ra) + 1
+    return int(sizes[_informative(counts)].sum())
+
+
+def _exact_p(ctx, g, table: Ref, counts: np.ndarray, columns: dict):
+    """The exact conditional p's formula (no ``=``) and its build-time check, behind live guards on the strata's
+    counts: no stratum carries information; the strata are too large for the test, said with their count of
+    possible tables against the limit (so that editing the data and recalculating updates the reason, or gives
+    the p value back). Without the full checks the p value itself is left to the recalculation."""
+    limit = EXACT_POOLED_MAX_TABLES
+    head, tail = EXACT_TOO_LARGE
+    text = ctx.text("IF(" + _NO_INFORMATION[0] + ',"' + NOT_COMPUTABLE + _NO_INFORMATION[2] + '",IF('
+                    + _EXACT_TABLES + ">" + str(limit) + ',"' + NOT_COMPUTABLE + head + '"&TEXT(' + _EXACT_TABLES
+                    + ',"#,##0")&"' + tail.format(limit=limit) + '",', g.title, **columns) \
+        + ctx.call_text("POOLED_EXACT_P", (table,), g.title) + "))"
+    tables = _exact_tables(counts)
+    if _NO_INFORMATION[1](counts):
+        return text, lambda: NOT_COMPUTABLE + _NO_INFORMATION[2]
+    if tables > limit:
+        return text, lambda: NOT_COMPUTABLE + head + f"{tables:,}" + tail.format(limit=limit)
+    return text, (lambda: call("POOLED_EXACT_P", ctx.value(table))) if ctx.full_checks else None
 
 
 def _verdict(ctx, g, row: int, written: dict[str, Ref], prefix: str, key: str | None):
