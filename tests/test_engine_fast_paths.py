@@ -139,7 +139,7 @@ def test_choose_gives_the_library_choose(seed):
     library = function_table()["CHOOSE"]
     for shape in ((7, 1), (1, 5), (3, 4)):
         choices = random_choices(rng, shape, 3)
-        for index in (1.0, 2.0, 3.0, 2.7, np.full((1, 1), 3.0, dtype=object)):
+        for index in (1.0, 2.0, 3.0, 2.7, np.full((1, 1), 3.0, dtype=object), np.int64(2), np.full((1, 1), 1)):
             ours = fast_paths.choose_cell(index, choices)
             theirs = library(index, *choices)
             assert ours is not None and ours.shape == theirs.shape and type(ours) is type(theirs)
@@ -150,7 +150,7 @@ def test_choose_gives_the_library_choose(seed):
     assert fast_paths.choose_cell(1.0, [choices[0], np.empty((3, 1), dtype=object)]) is None
 
 
-CHOOSE_FORMULAS = ["=SUMPRODUCT(CHOOSE($E$1,A2:A61,B2:B61))", "=SUMPRODUCT(CHOOSE(2,A2:A61,B2:B61,C2:C61))",
+CHOOSE_FORMULAS = ["=SUMPRODUCT(CHOOSE($E$1,A2:A61,B2:B61))", "=SUMPRODUCT(CHOOSE(MATCH(2,$E$1:$E$2,0),A2:A61,B2:B61))", "=SUMPRODUCT(CHOOSE(2,A2:A61,B2:B61,C2:C61))",
                    "=COUNT(CHOOSE($E$2,A2:A61,B2:B61))", "=SUMPRODUCT(CHOOSE(3,A2:A61,B2:B61))"]
 
 

@@ -95,6 +95,8 @@ def choose_cell(index, choices: list):
         if index.size != 1:
             return None
         index = index.ravel()[0]
+    if isinstance(index, (np.integer, np.floating)):  # MATCH's position, say
+        index = index.item()
     if type(index) not in (float, int) or not math.isfinite(index):
         return None
     k = int(index) - 1
