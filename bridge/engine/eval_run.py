@@ -348,7 +348,7 @@ class _RunEval:
 
     def count(self, args: list):
         """``COUNT`` of per-row values (:func:`.fast_paths.count_rows`); the rows it leaves to the library row by row."""
-        got = fast_paths.count_rows(args, self.n, Col, RowRange, Fixed)
+        got = fast_paths.count_rows(args, self.n, Col, RowRange, Fixed, function_table()["COUNT"])
         if got is None or not any(isinstance(a, (Col, RowRange)) for a in args):
             return None
         res, todo = got

@@ -5,16 +5,16 @@ arithmetic on the same numbers, so the same bits); anything else returns None (o
 library decides, so the values are those of the reference path (:mod:`.eval_cell`):
 
 * :func:`count_rows`: ``COUNT`` of per-row values in a filled-down run (``IF(COUNT(A2)=1,A2,"")``): a row
-  counts its numbers when each value is a number or a blank; a row holding anything else (a text, which the
-  library counts when it reads as a number, a logical, an error) goes to the library;
+  counts its numbers (a text counts as the library counts a cell holding it, asked once per distinct text: the
+  library counts ``"1"``); a row holding a logical or an error goes to the library;
 * :func:`choose_cell`: ``CHOOSE(k, range1, range2, ...)`` with one whole-number position and ranges of one
   shape: the k-th range, each cell as the library's element-by-element ``CHOOSE`` gives it (a number, a
   text, a logical or an error as it is; a blank ``#VALUE!``; a non-finite number ``#NUM!``);
 * :func:`pair_statistic`: ``SLOPE``, ``INTERCEPT``, ``STEYX``, ``CORREL``, ``RSQ`` of two plain references
-  to ranges of numbers and blanks, from the store's dense arrays: the pairs where both cells are numbers,
-  then the library's own arithmetic on those arrays (``_slope_coeff``, ``np.corrcoef``,
-  ``scipy.stats.linregress``, the library's STEYX sums); too few pairs, a text, a logical or an error, ranges
-  of other sizes or a result that is not finite go to the library.
+  to ranges of numbers, texts and blanks, from the store's dense arrays: the pairs where both cells are
+  numbers (the library leaves out a pair with a text or a blank), then the library's own arithmetic on those
+  arrays (``_slope_coeff``, ``np.corrcoef``, ``scipy.stats.linregress``, the library's STEYX sums); too few
+  pairs, a logical or an error, ranges of other sizes or a result that is not finite go to the library.
 
 :data:`ENABLED` switches them all off (``bench/`` measures the reference in the same run with it False).
 ``tests/test_engine_fast_paths.py`` compares each with the library path and with LibreOffice.
@@ -39,12 +39,24 @@ ENABLED = True
 PAIR_FUNCTIONS = frozenset({"SLOPE", "INTERCEPT", "STEYX", "CORREL", "RSQ"})
 
 
-def count_rows(args: list, n: int, col_type, range_type, fixed_type):
+def count_rows(args: list, n: int, col_type, range_type, fixed_type, library_count):
     """``COUNT`` of a run's per-row arguments: (counts as floats, rows the library must decide), or None.
 
     ``args`` are the run's evaluated arguments (``Col``, ``RowRange``, ``Fixed``; the types are passed in, as
-    this module does not import the run evaluator); a ``Fixed`` range counts its numbers when it holds no
-    error, a literal number counts 1; any other argument (a literal text or logical) returns None."""
+    this module does not import the run evaluator); a text in a row counts as the library's ``library_count``
+    counts a cell holding it (asked once per distinct text: it counts ``"1"``, not ``""``); a ``Fixed`` range
+    counts its numbers when it holds no error, a literal number counts 1; any other argument (a literal text or
+    logical) returns None."""
+    memo: dict[str, int] = {}
+
+    def texts(v: str) -> int:
+        if v not in memo:
+            cell = np.empty((1, 1), dtype=object)
+            cell[0, 0] = v
+            got = library_count(cell)
+            memo[v] = int(got) if type(got) in (int, float) and got in (0, 1) else 2
+        return memo[v]
+
     counts = np.zeros(n)
     todo = np.zeros(n, dtype=bool)
     for a in args:
@@ -57,8 +69,8 @@ def count_rows(args: list, n: int, col_type, range_type, fixed_type):
                 continue
             if x.dtype.kind != "O":
                 return None  # logicals: the library's
-            kinds = [1 if type(v) is float else 0 if v is EMPTY else 2 for v in x.tolist()]
-            k = np.asarray(kinds, dtype=np.int8)
+            k = np.asarray([1 if type(v) is float else 0 if v is EMPTY else texts(v) if type(v) is str else 2
+                            for v in x.tolist()], dtype=np.int8)
             counts += k == 1
             todo |= k == 2
         elif isinstance(a, range_type):
@@ -112,17 +124,15 @@ def choose_cell(index, choices: list):
 
 
 def _dense_range(node, store, sheet: str, row: int, col: int):
-    """The numbers of a plain reference's range (NaN for a blank), flattened in reading order; None when it is
-    not a plain reference, leaves the sheet, is very wide, or holds a text, a logical or an error."""
+    """The numbers of a plain reference's range (NaN for a blank or a text), flattened in reading order; None when
+    it is not a plain reference, leaves the sheet, is very wide, or holds a logical or an error."""
     if node.kind != "ref" or node.ref.name is not None or not hasattr(store, "dense"):
         return None
     r1, c1, r2, c2 = node.ref.area(row, col)
     if r1 < 1 or c1 < 1 or r2 > MAX_ROW or c2 > MAX_COLUMN or c2 - c1 > 1000:
         return None  # the store trims a wider range to its used columns: the library reads that
     got = store.dense(node.ref.sheet or sheet, r1, c1, r2, c2)
-    if got is None or got[1]:
-        return None
-    return got[0].ravel()
+    return None if got is None else got[0].ravel()
 
 
 def pair_statistic(name: str, nodes, store, sheet: str, row: int, col: int):
