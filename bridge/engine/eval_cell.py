@@ -30,6 +30,8 @@ from ..workbook.cells import MAX_COLUMN, MAX_ROW
 from ..formulas.library import ERROR_LOG, NOT_IMPLEMENTED, NotEvaluated, function_table, message_for
 from ..formulas.names import registered_name
 from .criteria import AGGREGATE_FUNCTIONS, COUNT_FUNCTIONS, aggregate_if, count_if
+from . import fast_paths
+from .extent import EXTENT_FUNCTIONS, add_cut_off_blanks, blank_cells_cut_off, extent_size
 from .values import (NA_ERROR, NAME_ERROR, REF_ERROR, VALUE_ERROR, CannotEvaluate, CellProblem, VectorUnsupported,
                      error_value, filled, final_value, unknown_function)
 
@@ -219,11 +221,15 @@ class _CellEval:
             return self._registered(reg, node)
         if name in ("ROW", "COLUMN"):
             return self._row_column(node)
+        if name in EXTENT_FUNCTIONS and (size := extent_size(name, node.args, self.row, self.col)) is not None:
+            return size
         fast = range_aggregate(name, node.args, self.store, self.sheet, self.row, self.col)
         if fast is None and name in COUNT_FUNCTIONS:
             fast = count_if(name, node.args, self.evaluate, self.store, self.sheet, self.row, self.col)
         elif fast is None and name in AGGREGATE_FUNCTIONS:
             fast = aggregate_if(name, node.args, self.evaluate, self.store, self.sheet, self.row, self.col)
+        elif fast is None and name in fast_paths.PAIR_FUNCTIONS and fast_paths.ENABLED:
+            fast = fast_paths.pair_statistic(name, node.args, self.store, self.sheet, self.row, self.col)
         if fast is not None:
             return fast
         table = function_table()
@@ -235,6 +241,14 @@ class _CellEval:
         else:
             single = single_value_arguments(name, len(node.args))
             args = [self.single(a) if i in single else self.evaluate(a) for i, a in enumerate(node.args)]
+        if name == "CHOOSE" and args and fast_paths.ENABLED:
+            fast = fast_paths.choose_cell(args[0], args[1:])
+            if fast is not None:
+                return fast
+        if name in EXTENT_FUNCTIONS and not isinstance(fn, dict):
+            missing = blank_cells_cut_off(name, node.args, args[0] if args else None, self.row, self.col)
+            if missing:  # blank cells the store did not read still count (see extent.py)
+                return add_cut_off_blanks(fn, args, self._library_call(name, fn, args), missing)
         if isinstance(fn, dict):
             extra = fn.get("extra_inputs", {})
             fn = fn["function"]
@@ -242,6 +256,10 @@ class _CellEval:
                 if "Dsp" in map(str, extra) or "Cell" in map(str, extra):
                     raise CannotEvaluate(CellProblem(name, "#VALUE!", f"{name} is not evaluated in a saved workbook"))
                 args = [False] * len(extra) + args  # the "compiling" flag: evaluate now
+        return self._library_call(name, fn, args)
+
+    @staticmethod
+    def _library_call(name: str, fn, args: list):
         try:
             return fn(*args)
         except CannotEvaluate:

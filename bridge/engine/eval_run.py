@@ -50,8 +50,11 @@ from ..formulas.standard import NUMBER_FUNCTIONS, STANDARD_CORRECTIONS
 from .criteria import AGGREGATE_FUNCTIONS, COUNT_FUNCTIONS, count_if_rows
 from .eval_cell import area_value, range_aggregate, single_value_arguments
 from .graph import Run
+from . import fast_paths
+from .extent import EXTENT_FUNCTIONS, blank_cells_cut_off, extent_size
 from .values import (EMPTY, NAME_ERROR, VALUE_ERROR, CannotEvaluate, CellProblem, VectorUnsupported, final_array,
-                     final_value, unknown_function)
+                     final_value, library_callable as _library_callable, tidy_column as _tidy,
+                     unknown_function)
 from ..workbook.cells import MAX_COLUMN, MAX_ROW
 
 __all__ = ["RunResult", "evaluate_run"]
@@ -161,21 +164,6 @@ _AGGREGATES = ("SUM", "AVERAGE", "COUNT", "MIN", "MAX")
 #: Functions of one number run as numpy operations on clean numbers. ROUND is not among them: the engine's
 #: ROUND rounds the 15-digit decimal form, halves away from zero (``_RunEval.number_function`` calls it per number).
 _ELEMENTWISE = {"ABS": np.abs, "SQRT": np.sqrt}
-
-
-def _library_callable(name: str, entry):
-    """A standard function of the library as a plain callable (the entries that take the engine's
-    "compiling" flags get them bound; those that need the engine's own objects cannot run on arrays)."""
-    if not isinstance(entry, dict):
-        return entry
-    extra = entry.get("extra_inputs", {})
-    fn = entry["function"]
-    if not extra:
-        return fn
-    if "Dsp" in map(str, extra) or "Cell" in map(str, extra):
-        raise VectorUnsupported(name)
-    flags = [False] * len(extra)
-    return lambda *a: fn(*flags, *a)
 
 
 class _RunEval:
@@ -311,6 +299,10 @@ class _RunEval:
             return self.registered(reg, node)
         if name in ("ROW", "COLUMN"):
             return self.row_column(node)
+        if name in EXTENT_FUNCTIONS and (size := extent_size(name, node.args, self.first, self.col)) is not None:
+            if extent_size(name, node.args, self.last, self.col) is None:
+                raise VectorUnsupported(f"{name} of a reference that leaves the sheet in some rows")
+            return size
         fast = range_aggregate(name, node.args, self.store, self.sheet, self.first, self.col, fixed_rows=True)
         if fast is not None:
             return fast
@@ -332,6 +324,11 @@ class _RunEval:
             fast = self.aggregate(name, args)
             if fast is not None:
                 return fast
+        if name == "COUNT" and fast_paths.ENABLED and (counted := self.count(args)) is not None:
+            return counted
+        if name in EXTENT_FUNCTIONS and args and isinstance(args[0], Fixed) and \
+                blank_cells_cut_off(name, node.args, args[0].a, self.first, self.col):
+            raise VectorUnsupported(f"{name} over blank cells the store did not read (counted cell by cell)")
         fn = _library_callable(name, table[name])
         if not any(isinstance(a, (Col, RowRange)) for a in args):
             return _constant(fn(*[a.a if isinstance(a, Fixed) else a for a in args]))
@@ -348,6 +345,19 @@ class _RunEval:
                 res = _ELEMENTWISE[name](_numbers_of(args[0]))
             return self.finite_or_library(res, fn, args, name)
         return Col(_tidy(self.rowwise(fn, args, label=name)))
+
+    def count(self, args: list):
+        """``COUNT`` of per-row values (:func:`.fast_paths.count_rows`); the rows it leaves to the library row by row."""
+        got = fast_paths.count_rows(args, self.n, Col, RowRange, Fixed, function_table()["COUNT"])
+        if got is None or not any(isinstance(a, (Col, RowRange)) for a in args):
+            return None
+        res, todo = got
+        if todo.any():
+            fixed = self.rowwise(function_table()["COUNT"], args, np.flatnonzero(todo), label="COUNT")
+            res = res.astype(object)
+            res[todo] = fixed[todo]
+            return Col(_tidy(res))
+        return Col(res)
 
     def number_function(self, name: str, fn, args: list):
         """``ROUND``/``ROUNDUP``/``ROUNDDOWN``/``TRUNC`` of a column of clean numbers, the other arguments one
@@ -557,18 +567,6 @@ def _constant(x):
     if isinstance(x, np.generic):
         return x.item()
     return x
-
-
-def _tidy(a: np.ndarray) -> np.ndarray:
-    """An object array of per-row results as float when every entry is a plain number."""
-    if a.dtype != object or a.size == 0:
-        return a
-    flat = [x.item() if isinstance(x, np.generic) else x for x in a]
-    if all(type(x) is float for x in flat):
-        return np.array(flat, dtype=float)
-    out = np.empty(len(flat), dtype=object)
-    out[:] = flat
-    return out
 
 
 def evaluate_run(run: Run, store) -> RunResult:

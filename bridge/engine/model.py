@@ -271,6 +271,7 @@ def load_model(package: WorkbookPackage, progress: Callable[[str, float], None] 
     unreadable_texts: dict[tuple[str, int, int], str] = {}
     names = _name_compiler(package)
     compiled_cache: dict[tuple[str, str], Compiled | str] = {}
+    parsed: dict[str, Compiled] = {}  # by key, for every sheet (the three Bands sheets of a battery share theirs)
     used: dict[str, tuple | None] = {}
     shared_groups: dict[str, set[int]] = {}
     total = 0
@@ -296,8 +297,10 @@ def load_model(package: WorkbookPackage, progress: Callable[[str, float], None] 
             ck = (info.name, r[_KEY])
             comp = compiled_cache.get(ck)
             if comp is None:
-                try:
-                    comp = compile_formula(r[_TEXT], *r[_AT])
+                try:  # parsed once per key (position-independent); names put in per sheet
+                    comp = parsed.get(r[_KEY])
+                    if comp is None:
+                        comp = parsed[r[_KEY]] = compile_formula(r[_TEXT], *r[_AT])
                     comp = _substitute_names(comp, info.name, names)
                 except FormulaSyntaxError as exc:
                     comp = str(exc)

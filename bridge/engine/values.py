@@ -22,7 +22,7 @@ from ..workbook import sheet_data
 
 __all__ = ["EMPTY", "NUM_ERROR", "VALUE_ERROR", "REF_ERROR", "NAME_ERROR", "NA_ERROR", "error_value", "filled",
            "CellProblem", "unknown_function", "VectorUnsupported", "CannotEvaluate", "final_value", "final_array",
-           "as_values", "cell_value_for_xml"]
+           "as_values", "cell_value_for_xml", "tidy_column", "library_callable"]
 
 EMPTY = sh.EMPTY
 _ERRORS = Error.errors
@@ -112,6 +112,33 @@ def final_array(a: np.ndarray) -> np.ndarray:
     if a.dtype.kind in "iu":
         return a.astype(float)
     return np.array([final_value(x) for x in a], dtype=object) if a.size else a
+
+
+def library_callable(name: str, entry):
+    """A standard function of the library as a plain callable (the entries that take the engine's
+    "compiling" flags get them bound; those that need the engine's own objects cannot run on arrays)."""
+    if not isinstance(entry, dict):
+        return entry
+    extra = entry.get("extra_inputs", {})
+    fn = entry["function"]
+    if not extra:
+        return fn
+    if "Dsp" in map(str, extra) or "Cell" in map(str, extra):
+        raise VectorUnsupported(name)
+    flags = [False] * len(extra)
+    return lambda *a: fn(*flags, *a)
+
+
+def tidy_column(a: np.ndarray) -> np.ndarray:
+    """An object array of per-row results as float when every entry is a plain number."""
+    if a.dtype != object or a.size == 0:
+        return a
+    flat = [x.item() if isinstance(x, np.generic) else x for x in a]
+    if all(type(x) is float for x in flat):
+        return np.array(flat, dtype=float)
+    out = np.empty(len(flat), dtype=object)
+    out[:] = flat
+    return out
 
 
 def as_values(values: list) -> np.ndarray:
