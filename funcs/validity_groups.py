@@ -86,9 +86,10 @@ def subgroup_sd(values: Range, groups: Range, group: Range) -> float:
 
     Notes
     -----
-    Two passes (the mean, then the squared deviations from it), never the
-    "computational formula" Σx² − n x̄², which cancels digits when the values
-    are large and close together. The group needs at least 2 values.
+    Two passes (the mean, then the squared deviations from it, numpy's
+    ``std`` with pairwise sums), never the "computational formula"
+    Σx² − n x̄², which cancels digits when the values are large and close
+    together. The group needs at least 2 values.
 
     Examples
     --------
@@ -99,8 +100,9 @@ def subgroup_sd(values: Range, groups: Range, group: Range) -> float:
     if x.size < 2:
         raise InsufficientDataError(f"group {v.show(group)} needs at least 2 values (blanks left out), got {x.size}",
                                     argument="group")
-    deviations = x - x.mean()
-    return float(np.sqrt(deviations @ deviations / (x.size - 1)))
+    # numpy's two-pass standard deviation (pairwise sums), as spreadsheet STDEV over the group's own column
+    # gives in the engine: a study that picked the group's values into a column shows the same float
+    return float(np.std(x, ddof=1))
 
 
 @spreadsheet("SUBGROUP_D", returns="number",
