@@ -65,7 +65,9 @@ def _scores_sheet(ctx: StudyContext, predictors: list) -> dict:
     d = ctx.data
     k, last = len(predictors), d.n + 1
     first = predictors[0]
-    header = ["Group number", *[p.name for p in predictors], *[f"{p.name} (again)" for p in predictors[:-1]]]
+    # predictor i's "others" are the columns after it, then the first ones again: the last predictor's others
+    # are the first k - 1 columns themselves, so only the first k - 2 are written again
+    header = ["Group number", *[p.name for p in predictors], *[f"{p.name} (again)" for p in predictors[:k - 2]]]
     score_col = {i: 2 + i for i in range(k)}
     codes = [first.layout.group_numbers.get(x) for x in d.groups]
 
@@ -80,7 +82,7 @@ def _scores_sheet(ctx: StudyContext, predictors: list) -> dict:
     for p in predictors:
         templates.append(text('=IF(COUNT({x})=1,{x},"")', x=dataclasses.replace(
             p.scores, row=None, last_row=None, last_col=None).qualified_relative()))
-    for i in range(k - 1):
+    for i in range(k - 2):
         templates.append(text("={x}", x=here[score_col[i]]))
 
     def rows():
@@ -96,7 +98,8 @@ def _scores_sheet(ctx: StudyContext, predictors: list) -> dict:
     out["block"] = area(SCORES_SHEET, 2, 2, 1 + k, last, value=np.column_stack(all_scores))
     doubled = all_scores + all_scores[:-1]
     out["others"] = [area(SCORES_SHEET, 3 + i, 2, 1 + i + k, last, value=np.column_stack(doubled[i + 1:i + k]))
-                     for i in range(k)]
+                     for i in range(k - 1)]
+    out["others"].append(area(SCORES_SHEET, 2, 2, k, last, value=np.column_stack(all_scores[:-1])))
     return out
 
 

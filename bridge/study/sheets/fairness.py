@@ -10,9 +10,8 @@ Below each group's tests, the reading of the steps in words (a live ``IF`` on th
 confidence level of Setup: "slopes differ", "intercepts differ" or "no difference detected at this sample
 size: this does not show the absence of bias"), which the Summary links.
 
-The people with a score and a criterion value are listed from column T (their group number, then one criterion
-and one score column per group; the score and the criterion themselves are the predictor's Validity list, read
-in place, or, when validity is not computable, copied here by Bands row), so every range holds numbers only;
+The people with a score and a criterion value are listed from column T (their Bands row, score, criterion
+and group number, then one criterion and one score column per group), so every range holds numbers only;
 each further demographic column has its own listing to the right of the one before. The cells of the first
 column keep their keys (``fairness_gap_B``); those of the k-th column are keyed ``fairness_colK_gap_B``.
 """
@@ -28,7 +27,6 @@ from ..context import Ref, StudyContext, area, cell, fill_row, sheet_names
 from ..words import (CAUTION, FAIRNESS_CAUTION, FAIRNESS_READING, INTERCEPTS_DIFFER, NO_DIFFERENCE, NOT_ABSENCE,
                      SLOPES_DIFFER)
 from .bands import BANDS_SHEET
-from .validity import LISTED_ROW, SHEET as VALIDITY_SHEET
 
 __all__ = ["Fairness", "GroupColumn", "write", "MIN_GROUP", "demographic_columns", "reference_of", "reading_words",
            "reading_formula"]
@@ -37,7 +35,7 @@ SHEET = "Fairness"
 #: People with a score and a criterion value each group needs before its line is compared (common practice:
 #: fewer give lines too unstable to read; even this many give the tests little power).
 MIN_GROUP = 20
-LIST_COL, LIST_ROW = 20, LISTED_ROW   # the listing's first column (T) and first row: Validity's list's rows
+LIST_COL, LIST_ROW = 20, 3   # the listing's first column (T) and first row
 CHART_ROWS = 22              # the rows a chart of the group lines takes
 
 
@@ -151,8 +149,7 @@ def _column(ctx, g, row, predictor, column: GroupColumn, listed, list_col: int):
                                                       f"{MIN_GROUP} or more people who have a score and a criterion "
                                                       f"value (column {column.header!r})", key=key)
         return row + 3, list_col, Fairness({}, {}, {}, header=column.header, key=column.key, reason=reason)
-    listing, next_col = _listing(ctx, g, predictor, column, listed, [numbers.get(x) for x in group_of], enough,
-                                 list_col)
+    listing = _listing(ctx, g, predictor, column, listed, [numbers.get(x) for x in group_of], enough, list_col)
     row += 1
     g.set(row, 1, f"Reference group of {column.header!r} (the group each other group is compared with)")
     g.set(row, 2, reference, "header")
@@ -167,7 +164,7 @@ def _column(ctx, g, row, predictor, column: GroupColumn, listed, list_col: int):
               for name in enough]
     g.charts.append((charts.group_lines(series, x_title=ctx.setup.test_name, y_title=ctx.setup.criterion or
                                         "Criterion"), f"A{row}"))
-    return row + CHART_ROWS, next_col, out
+    return row + CHART_ROWS, list_col + 4 + 2 * len(enough) + 1, out
 
 
 def reference_of(given, counts, enough):
@@ -183,60 +180,45 @@ def reference_of(given, counts, enough):
     return max(enough, key=lambda n: counts[n]) if enough else None
 
 
-def _listing(ctx, g, predictor, column: GroupColumn, listed, group_numbers, groups, c: int) -> tuple[dict, int]:
-    """Columns from ``c`` on: the people with a score and a criterion value, their group number in ``column``
-    and each group's criterion and score; returns their ranges (with values) and the next free column.
-
-    The score and the criterion are the predictor's Validity list (columns P:Q, the same people in the same
-    order, found live by NTH_NUMBER_ROW): referenced, not copied. Without that list (validity not computable)
-    they are copied here from Bands by row."""
+def _listing(ctx, g, predictor, column: GroupColumn, listed, group_numbers, groups, c: int) -> dict:
+    """Columns from ``c`` on: the people with a score and a criterion value, their group number in
+    ``column``; returns their ranges (with values)."""
     d = ctx.data
     end = LIST_ROW - 1 + len(listed)
-    shared = getattr(predictor.validity, "criteria_listed", None) is not None
-    if shared:  # Validity's position (among Bands rows), score and criterion columns
-        position, score, crit = (cell(VALIDITY_SHEET, None, col).qualified_relative() for col in (15, 16, 17))
-        heads = (f"Group number ({column.header})",)
-        texts = [ctx.text('=IF({row}>0,INDEX({codes},{row}),"")', SHEET, codes=column.codes, row=position)]
-    else:
-        heads = ("Row on Bands", "Score", "Criterion", f"Group number ({column.header})")
-        places = dict(row=cell(SHEET, None, c))
-        texts = [ctx.text("=INDEX({column},{row})", SHEET, column=area(BANDS_SHEET, col, 1, col,
-                                                                       predictor.layout.last), **places)
-                 for col in (3, 9)]
-        texts.append(ctx.text("=INDEX({column},{row})", SHEET, column=column.bands, **places))
-        score, crit = cell(SHEET, None, c + 1), cell(SHEET, None, c + 2)
-    for k, h in enumerate(heads):
+    for k, h in enumerate(("Row on Bands", "Score", "Criterion", f"Group number ({column.header})")):
         g.set(LIST_ROW - 1, c + k, h, "header")
-    group_col, split = c + len(heads) - 1, c + len(heads)
+    places = dict(row=cell(SHEET, None, c))
+    texts = [ctx.text("=INDEX({column},{row})", SHEET, column=area(BANDS_SHEET, col, 1, col, predictor.layout.last),
+                      **places) for col in (3, 9)]
+    texts.append(ctx.text("=INDEX({column},{row})", SHEET, column=column.bands, **places))
     per_group = []
     for k, name in enumerate(groups):
-        here = dict(group=cell(SHEET, None, group_col), number=column.numbers[name])
-        per_group.append((ctx.text('=IF({group}={number},{x},"")', SHEET, x=crit, **here),
-                          ctx.text('=IF({group}={number},{x},"")', SHEET, x=score, **here)))
-        g.set(LIST_ROW - 1, split + 2 * k, f"Criterion, {name}", "header")
-        g.set(LIST_ROW - 1, split + 1 + 2 * k, f"Score, {name}", "header")
+        number = column.numbers[name]
+        here = dict(group=cell(SHEET, None, c + 3), number=number)
+        per_group.append((name, ctx.text('=IF({group}={number},{x},"")', SHEET, x=cell(SHEET, None, c + 2), **here),
+                          ctx.text('=IF({group}={number},{x},"")', SHEET, x=cell(SHEET, None, c + 1), **here)))
+        g.set(LIST_ROW - 1, c + 4 + 2 * k, f"Criterion, {name}", "header")
+        g.set(LIST_ROW - 1, c + 5 + 2 * k, f"Score, {name}", "header")
     for k, i in enumerate(listed):
         r = LIST_ROW + k
-        if not shared:
-            g.set(r, c, int(i) + 2)
+        g.set(r, c, int(i) + 2)
         for j, t in enumerate(texts):
-            g.set(r, group_col - len(texts) + 1 + j, fill_row(t, r))
-        for m, (crit_text, score_text) in enumerate(per_group):
-            g.set(r, split + 2 * m, fill_row(crit_text, r))
-            g.set(r, split + 1 + 2 * m, fill_row(score_text, r))
+            g.set(r, c + 1 + j, fill_row(t, r))
+        for m, (_, crit_text, score_text) in enumerate(per_group):
+            g.set(r, c + 4 + 2 * m, fill_row(crit_text, r))
+            g.set(r, c + 5 + 2 * m, fill_row(score_text, r))
     scores, criterion = d.scores[listed], d.criterion[listed]
     codes = np.array([np.nan if x is None else x for x in group_numbers], dtype=float)
-    at = (VALIDITY_SHEET, 16, 17) if shared else (SHEET, c + 1, c + 2)
-    out = {"scores": area(at[0], at[1], LIST_ROW, at[1], end, value=scores),
-           "criterion": area(at[0], at[2], LIST_ROW, at[2], end, value=criterion),
-           "groups": area(SHEET, group_col, LIST_ROW, group_col, end, value=codes.tolist())}
+    out = {"scores": area(SHEET, c + 1, LIST_ROW, c + 1, end, value=scores),
+           "criterion": area(SHEET, c + 2, LIST_ROW, c + 2, end, value=criterion),
+           "groups": area(SHEET, c + 3, LIST_ROW, c + 3, end, value=codes.tolist())}
     for m, name in enumerate(groups):
         mine = codes == column.numbers[name]
-        out[("criterion", name)] = area(SHEET, split + 2 * m, LIST_ROW, split + 2 * m, end,
+        out[("criterion", name)] = area(SHEET, c + 4 + 2 * m, LIST_ROW, c + 4 + 2 * m, end,
                                         value=np.where(mine, criterion, np.nan))
-        out[("scores", name)] = area(SHEET, split + 1 + 2 * m, LIST_ROW, split + 1 + 2 * m, end,
+        out[("scores", name)] = area(SHEET, c + 5 + 2 * m, LIST_ROW, c + 5 + 2 * m, end,
                                      value=np.where(mine, scores, np.nan))
-    return out, split + 2 * len(groups) + 1
+    return out
 
 
 def _tests(ctx, g, row, predictor, listing, column: GroupColumn, name, reference, out: Fairness) -> int:
