@@ -51,7 +51,8 @@ def test_libreoffice_recomputes_the_standard_formulas_of_the_new_sheets_alike(de
     assert not mismatches, mismatches[:10]
     # the group lines (INTERCEPT, SLOPE, their intervals) and the listing behind them, the scores side by side
     assert checked.get("Fairness", 0) >= 3 * 5 + 4 * 100
-    assert checked.get("Combined scores", 0) >= 400 * 3
+    # each predictor's score (two predictors: no copy of a score is needed for the others' ranges)
+    assert checked.get("Combined scores", 0) >= 400 * 2
 
 
 def _close(ours: float, theirs: str) -> bool:

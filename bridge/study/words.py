@@ -268,3 +268,11 @@ FORMULAS_OR_VALUES = (
     "(a notice on each sheet says so; trueband restore puts the formulas back). The sheets Reliability, Items, "
     "Raters, Validity, Bands, Impact and Utility hold the detail; Notes lists the methods and references.")
 __all__ += ["FORMULAS_OR_VALUES"]
+
+# ---------------------------------------------------------------- fewer per-applicant formulas (issues 17 and 18)
+
+#: Beside the Validity sheet's scatter when it plots a subset: which people it shows (every figure uses all).
+CHART_SUBSET = ("The chart plots the first {shown:,} of the {total:,} people with a score and a criterion value, in "
+                "the order of the data (a scatter of more points is unreadable and slow to draw); every figure on "
+                "this sheet uses all {total:,}.")
+__all__ += ["CHART_SUBSET"]
