@@ -11,7 +11,7 @@ confidence level of Setup: "slopes differ", "intercepts differ" or "no differenc
 size: this does not show the absence of bias"), which the Summary links.
 
 The people of the compared groups with a score and a criterion value are listed from column T group by group
-(their Bands row, score, criterion and group number), so each group's line reads its own block of rows; the
+(their Bands row, score, criterion and group), so each group's line reads its own block of rows; the
 step-down tests and the common line read Bands' whole columns (blanks left out), and no column is copied per group;
 each further demographic column has its own listing to the right of the one before. The cells of the first
 column keep their keys (``fairness_gap_B``); those of the k-th column are keyed ``fairness_colK_gap_B``.
@@ -183,17 +183,18 @@ def reference_of(given, counts, enough):
 
 def _listing(ctx, g, predictor, column: GroupColumn, listed, group_numbers, groups, c: int) -> dict:
     """Columns from ``c`` on: the people of the compared ``groups`` with a score and a criterion value, group by
-    group (in Bands order within a group), with their Bands row, score, criterion and group number in ``column``;
+    group (in Bands order within a group), with their Bands row, score, criterion and group in ``column``;
     returns each group's block of scores and criteria (contiguous rows, so the group's line is INTERCEPT and SLOPE
     of its block: no per-group copy of any column) and Bands' whole columns, which the step-down tests and the
     common line read (their blanks, empty text, are left out)."""
     d = ctx.data
-    for k, h in enumerate(("Row on Bands", "Score", "Criterion", f"Group number ({column.header})")):
+    # the group is the block's (written as its name: the rows were chosen by group when the study was built, as
+    # the typed Bands rows were; no formula reads it)
+    for k, h in enumerate(("Row on Bands", "Score", "Criterion", f"Group ({column.header})")):
         g.set(LIST_ROW - 1, c + k, h, "header")
     places = dict(row=cell(SHEET, None, c))
     texts = [ctx.text("=INDEX({column},{row})", SHEET, column=area(BANDS_SHEET, col, 1, col, predictor.layout.last),
                       **places) for col in (3, 9)]
-    texts.append(ctx.text("=INDEX({column},{row})", SHEET, column=column.bands, **places))
     codes = np.array([np.nan if x is None else x for x in group_numbers], dtype=float)
     out, r = {}, LIST_ROW
     for name in groups:
@@ -202,6 +203,7 @@ def _listing(ctx, g, predictor, column: GroupColumn, listed, group_numbers, grou
             g.set(r + k, c, int(i) + 2)
             for j, t in enumerate(texts):
                 g.set(r + k, c + 1 + j, fill_row(t, r + k))
+            g.set(r + k, c + 3, name)
         end = r + len(mine) - 1
         out[("scores", name)] = area(SHEET, c + 1, r, c + 1, end, value=d.scores[mine])
         out[("criterion", name)] = area(SHEET, c + 2, r, c + 2, end, value=d.criterion[mine])
