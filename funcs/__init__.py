@@ -24,7 +24,7 @@ module                 topic
 ``agreement``          rater agreement: kappas, rwg (and, re-exported, the next two)
 ``intraclass``         intraclass correlations (rater agreement)
 ``krippendorff``       Krippendorff's alpha (rater agreement)
-``validity``           validity coefficients and their corrections, group differences (d)
+``validity``           validity coefficients and their corrections, group differences (d; from whole columns: ``validity_groups``)
 ``utility``            selection utility
 ``impact``             adverse impact: rates, ratio, four-fifths, z, Fisher
 ``impact_intervals``   adverse impact: ratio interval, odds ratio, flip count, small numbers, cuts
@@ -68,6 +68,7 @@ from . import (  # noqa: F401  (registers)
     standard_setting,
     utility,
     validity,
+    validity_groups,
 )
 from .errors import (  # noqa: F401
     ArgumentCountError,
@@ -99,8 +100,9 @@ from .scores import *  # noqa: F401,F403
 from .standard_setting import *  # noqa: F401,F403
 from .utility import *  # noqa: F401,F403
 from .validity import *  # noqa: F401,F403
+from .validity_groups import *  # noqa: F401,F403
 
-_TOPICS = (agreement, composite, content, cutscores, decision_accuracy, dif, fairness, impact, impact_intervals, impact_pooled, intraclass, krippendorff, options, reliability, reliability_groups, results, scores, standard_setting, utility, validity)
+_TOPICS = (agreement, composite, content, cutscores, decision_accuracy, dif, fairness, impact, impact_intervals, impact_pooled, intraclass, krippendorff, options, reliability, reliability_groups, results, scores, standard_setting, utility, validity, validity_groups)
 
 __all__ = sorted(
     {name for module in _TOPICS for name in module.__all__}

@@ -425,25 +425,31 @@ def libreoffice_mismatches(soffice, book, sheets, folder):
     return checked, mismatches
 
 
-def test_with_too_many_rows_for_per_group_columns_the_groups_sheet_says_why(tmp_path, monkeypatch):
-    # the per-group score columns are left out above a cell budget (their recalculation cost); n and the mean
-    # stay live (COUNTIFS, AVERAGEIFS) and the rest says why it is not computed
-    from trueband.bridge.study import setup_impact
-
-    monkeypatch.setattr(setup_impact, "MAX_GROUP_SCORE_CELLS", 10)
-    header, rows = table(n=120)
-    result = make_study(write_book(tmp_path / "d.xlsx", header, rows, SETUP), tmp_path / "s.xlsx")
-    assert result.recalc_report.ok
-    wb = load_workbook(result.path, data_only=True)
-    assert not any(str(h).startswith("Score if") for h in next(wb["Bands"].iter_rows(values_only=True)))
+def test_the_groups_sheet_reads_whole_columns_and_needs_no_per_group_copies(built):
+    # Bands carries no per-group copy of the scores or the criterion (once one formula per person and group);
+    # Groups reads the whole columns beside the group numbers, so every figure is computed at any size.
+    # Reference: pandas (mean, SD with n - 1, count) and pingouin.compute_effsize (d) on the same data.
+    result, wb, df = built
+    header = next(wb["Bands"].iter_rows(values_only=True))
+    assert not any(str(h).startswith(("Score if", "Criterion if")) for h in header if h)
     rows_ = sheet_rows(wb, "Groups")
-    at = find_row(rows_, "Group")
-    df = pd.DataFrame(rows, columns=header)
-    df["score"] = df[[f"i{j}" for j in range(1, K + 1)]].sum(axis=1)
-    women = rows_[at + 2]
-    assert women[0] == "Women" and women[1] == int((df["Sex"] == "Women").sum())
-    assert women[2] == pytest.approx(df[df["Sex"] == "Women"]["score"].mean(), rel=1e-12)  # pandas
-    assert str(women[4]).startswith("not computable: with 120 rows the per-group score columns")
+    heading = find_row(rows_, "Ethnicity")
+    reference = rows_[heading][4]  # the Impact sheet's reference group, linked beside the heading
+    at = find_row(rows_, "Group", heading)
+    by = {r[0]: r for r in rows_[at + 1:at + 4]}
+    for name in ("X", "Z"):
+        crit = df[df["Ethnicity"] == name]["perf"].dropna().to_numpy(float)
+        assert by[name][7] == len(crit)
+        assert by[name][9] == pytest.approx(crit.std(ddof=1), rel=1e-12)
+    focal = next(g for g in ("X", "Y", "Z") if g != reference)
+    f, r = (df[df["Ethnicity"] == g]["perf"].dropna().to_numpy(float) for g in (focal, reference))
+    assert by[focal][10] == pytest.approx(pingouin.compute_effsize(f, r, eftype="cohen"), rel=1e-9)
+    assert by[reference][10] == "reference group"
+    formulas = load_workbook(result.path)["Groups"]
+    texts = [c.value for r in formulas.iter_rows() for c in r if isinstance(c.value, str) and c.value.startswith("=")]
+    assert any("SUBGROUP_D(" in t for t in texts) and any("SUBGROUP_SD(" in t for t in texts)
+    assert not any(str(c).startswith("not computable") for r in rows_ for c in r if c is not None
+                   and str(c).startswith("not computable: with"))
 
 
 def test_the_standard_deviations_convention_names_its_cases_and_what_is_from_memory():

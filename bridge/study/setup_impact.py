@@ -197,26 +197,9 @@ def _stage_columns(names, resolve, header, sheet: str) -> list[int]:
     return out
 
 
-#: Groups (over every demographic column) up to which the Bands sheet gets a score column per group, which the
-#: Groups sheet's d and its interval read; beyond it the Groups sheet shows counts, means and SDs only.
-MAX_GROUP_SCORE_COLUMNS = 12
-
-
-#: Formula cells the per-group columns may add to the Bands sheet (rows x columns); beyond it they are left out
-#: and the Groups sheet says so (each such cell costs the recalculation about as much as a row of the data).
-MAX_GROUP_SCORE_CELLS = 150_000
-
-
-def _score_groups(data, impact: "ImpactData") -> list[tuple[int, str]]:
-    """(demographic index, group) of the per-group score columns, or [] when there would be too many."""
-    pairs = [(k, name) for k, d in enumerate(impact.demographics) for name in d.tally.names]
-    cells = len(pairs) * (2 if data.criterion is not None else 1) * data.n
-    return pairs if 2 <= len(pairs) <= MAX_GROUP_SCORE_COLUMNS and cells <= MAX_GROUP_SCORE_CELLS else []
-
-
 def bands_columns(data) -> list[tuple[str, str]]:
     """The Bands columns this module adds: (key, header): group numbers of the second and later demographic
-    columns, the stratum number, each stage as 1/0, then each group's scores (and criterion values)."""
+    columns, the stratum number, each stage as 1/0."""
     impact: ImpactData | None = getattr(data, "impact", None)
     if impact is None:
         return []
@@ -225,19 +208,14 @@ def bands_columns(data) -> list[tuple[str, str]]:
     if impact.stratum is not None:
         out.append(("stratum", f"Stratum number: {impact.stratum.header} (as counted on Strata)"))
     out += [(f"stage:{k}", f"{st.header} (1 = yes, as read)") for k, st in enumerate(impact.stages)]
-    if impact.several or impact.stratum is not None or impact.stages:
-        for k, name in _score_groups(data, impact):
-            out.append((f"score:{k}:{name}", f"Score if {impact.demographics[k].header} is {name}"))
-            if data.criterion is not None:
-                out.append((f"criterion:{k}:{name}", f"Criterion if {impact.demographics[k].header} is {name}"))
+    # no per-group copies of the scores or the criterion: the Groups sheet reads the whole columns beside the
+    # group numbers (SUBGROUP_SD, SUBGROUP_D, criteria functions)
     return out
 
 
 def bands_rows(data, layout):
-    """A function of the row index giving each person's values of :func:`bands_columns`: numbers (blank for no
-    group or no coding), and formulas for the per-group score and criterion columns; None when there are none."""
-    from .context import cell, fill_row, formula_text
-
+    """A function of the row index giving each person's values of :func:`bands_columns` (numbers, blank for no
+    group or no coding); None when there are none."""
     impact: ImpactData | None = getattr(data, "impact", None)
     keys = [k for k, _ in bands_columns(data)]
     if impact is None or not keys:
@@ -248,23 +226,9 @@ def bands_rows(data, layout):
         numbers = impact.stratum.numbers
         columns.append([numbers.get(x) if x is not None else None for x in impact.stratum.groups])
     columns += [[None if c is None else int(c) for c in st.codes] for st in impact.stages]
-    constants = [list(r) for r in zip(*columns)] if columns else [[] for _ in range(data.n)]
-    templates = []
-    sheet = "Bands"
-    for key in keys:
-        what, _, rest = key.partition(":")
-        if what not in ("score", "criterion"):
-            continue
-        k, name = rest.split(":", 1)
-        k = int(k)
-        group_col = layout.group_col if k == 0 else layout.extra[f"group:{k}"]
-        value = cell(sheet, None, 3 if what == "score" else 9)
-        templates.append(formula_text('=IF({group}={number},{value},"")', sheet,
-                                      group=cell(sheet, None, group_col), number=impact.demographics[k].numbers[name],
-                                      value=value))
+    constants = [list(r) for r in zip(*columns)]
 
     def row(i: int) -> list:
-        r = i + 2
-        return constants[i] + [fill_row(t, r) for t in templates]
+        return constants[i]
 
     return row

@@ -278,3 +278,10 @@ EXACT_TOO_LARGE = ("the strata are too large for the exact conditional test: ",
                    " possible tables, more than the {limit:,} it enumerates at most; read the "
                    "Cochran–Mantel–Haenszel p instead")
 __all__ += ["EXACT_TOO_LARGE"]
+# ---------------------------------------------------------------- fewer per-applicant formulas (issues 17 and 18)
+
+#: Beside the Validity sheet's scatter when it plots a subset: which people it shows (every figure uses all).
+CHART_SUBSET = ("The chart plots the first {shown:,} of the {total:,} people with a score and a criterion value, in "
+                "the order of the data (a scatter of more points is unreadable and slow to draw); every figure on "
+                "this sheet uses all {total:,}.")
+__all__ += ["CHART_SUBSET"]

@@ -4,7 +4,8 @@ Intercorrelations; the composite's reliability (Mosier 1943) and validity for un
 the multiple correlation from the raw scores with its adjusted and cross-validated R² (Browne 1975); each
 predictor's increment over the others (ΔR² and its F test); the composite's subgroup difference (Sackett &
 Ellingson 1997) and its predicted impact ratio at the cut. The raw scores side by side are on the long sheet
-``Combined scores`` (one row per person, the rows of Bands), so every range holds a person per row.
+``Combined scores`` (one row per person, the rows of Bands), so every range holds a person per row; the criterion
+is Bands' column and each group's d reads the whole score column beside the group numbers (``SUBGROUP_D``).
 """
 
 from __future__ import annotations
@@ -17,7 +18,6 @@ from trueband.funcs.errors import InsufficientDataError
 
 from ..context import Ref, StudyContext, area, cell, fill_row, formula_text
 from ..words import CAUTION, COMBINED_CAUTION
-from .bands import BANDS_SHEET
 
 __all__ = ["Combined", "write", "SCORES_SHEET"]
 
@@ -58,18 +58,18 @@ def write(ctx: StudyContext, predictors: list) -> Combined:
 
 
 def _scores_sheet(ctx: StudyContext, predictors: list) -> dict:
-    """The long sheet ``Combined scores``: group number, criterion, each predictor's score, the scores again
-    (so that every predictor's "others" are side by side), and each group's scores. Returns its ranges."""
+    """The long sheet ``Combined scores``: group number, each predictor's score, then the scores again (so that
+    every predictor's "others" are side by side for the regression functions). Returns its ranges; the criterion
+    is Bands' own column (no copy), and each group's d reads the score columns beside the group numbers
+    (SUBGROUP_D), so no per-group copy of any score is written."""
     d = ctx.data
     k, last = len(predictors), d.n + 1
     first = predictors[0]
-    groups = list(first.layout.group_numbers)
-    header = ["Group number", "Criterion", *[p.name for p in predictors],
-              *[f"{p.name} (again)" for p in predictors[:-1]],
-              *[f"{p.name}, {name}" for name in groups for p in predictors]]
-    score_col = {i: 3 + i for i in range(k)}
+    # predictor i's "others" are the columns after it, then the first ones again: the last predictor's others
+    # are the first k - 1 columns themselves, so only the first k - 2 are written again
+    header = ["Group number", *[p.name for p in predictors], *[f"{p.name} (again)" for p in predictors[:k - 2]]]
+    score_col = {i: 2 + i for i in range(k)}
     codes = [first.layout.group_numbers.get(x) for x in d.groups]
-    code_arr = np.array([np.nan if c is None else c for c in codes], dtype=float)
 
     def col(c, value):
         return area(SCORES_SHEET, c, 2, c, last, value=value)
@@ -79,40 +79,27 @@ def _scores_sheet(ctx: StudyContext, predictors: list) -> dict:
 
     here = {c: cell(SCORES_SHEET, None, c) for c in range(1, len(header) + 1)}
     templates: list = [None]
-    if d.criterion is not None:
-        templates.append(text('=IF(COUNT({x})=1,{x},"")', x=cell(BANDS_SHEET, None, 9).qualified_relative()))
-    else:
-        templates.append(None)
     for p in predictors:
         templates.append(text('=IF(COUNT({x})=1,{x},"")', x=dataclasses.replace(
             p.scores, row=None, last_row=None, last_col=None).qualified_relative()))
-    for i in range(k - 1):
+    for i in range(k - 2):
         templates.append(text("={x}", x=here[score_col[i]]))
-    for name in groups:
-        number = first.layout.group_numbers[name]
-        for i in range(k):
-            templates.append(text('=IF({g}={n},{x},"")', g=here[1].local(), n=number, x=here[score_col[i]]))
 
     def rows():
         for i in range(d.n):
             r = i + 2
-            yield [codes[i]] + [None if t is None else fill_row(t, r) for t in templates[1:]]
+            yield [codes[i]] + [fill_row(t, r) for t in templates[1:]]
 
     ctx.long_sheets.append((SCORES_SHEET, header, (12, 12), rows, len(header)))
-    out = {"groups": col(1, codes), "criterion": col(2, d.criterion),
+    criterion = first.layout.criterion.with_value(d.criterion) if d.criterion is not None else None
+    out = {"groups": col(1, codes), "criterion": criterion,
            "scores": [col(score_col[i], p.data.scores) for i, p in enumerate(predictors)]}
     all_scores = [p.data.scores for p in predictors]
-    out["block"] = area(SCORES_SHEET, 3, 2, 2 + k, last, value=np.column_stack(all_scores))
+    out["block"] = area(SCORES_SHEET, 2, 2, 1 + k, last, value=np.column_stack(all_scores))
     doubled = all_scores + all_scores[:-1]
-    out["others"] = [area(SCORES_SHEET, 4 + i, 2, 2 + i + k, last, value=np.column_stack(doubled[i + 1:i + k]))
-                     for i in range(k)]
-    base = 3 + 2 * k - 1
-    out["by_group"] = {}
-    for m, name in enumerate(groups):
-        mine = code_arr == first.layout.group_numbers[name]
-        for i in range(k):
-            c = base + m * k + i
-            out["by_group"][(name, i)] = col(c, np.where(mine, all_scores[i], np.nan))
+    out["others"] = [area(SCORES_SHEET, 3 + i, 2, 1 + i + k, last, value=np.column_stack(doubled[i + 1:i + k]))
+                     for i in range(k - 1)]
+    out["others"].append(area(SCORES_SHEET, 2, 2, k, last, value=np.column_stack(all_scores[:-1])))
     return out
 
 
@@ -297,8 +284,8 @@ def _subgroups(ctx, g, row, predictors, cols, t) -> None:
             continue
         r += 1
         g.set(r, 1, name)
-        each = [ctx.formula(g, r, 2 + i, "COHENS_D", cols["by_group"][(reference, i)], cols["by_group"][(name, i)],
-                            style="coef", key=f"d_{i + 1}_{name}") for i in range(k)]
+        each = [ctx.formula(g, r, 2 + i, "SUBGROUP_D", cols["scores"][i], cols["groups"], numbers[reference],
+                            numbers[name], style="coef", key=f"d_{i + 1}_{name}") for i in range(k)]
         ds = area(SHEET, 2, r, 1 + k, r, value=[x.value for x in each])
         if not all(isinstance(x.value, float) for x in each):
             ds = ds.with_value(InsufficientDataError("a predictor's d is not computable"))

@@ -10,8 +10,9 @@ Below each group's tests, the reading of the steps in words (a live ``IF`` on th
 confidence level of Setup: "slopes differ", "intercepts differ" or "no difference detected at this sample
 size: this does not show the absence of bias"), which the Summary links.
 
-The people with a score and a criterion value are listed from column T (their Bands row, score, criterion
-and group number, then one criterion and one score column per group), so every range holds numbers only;
+The people of the compared groups with a score and a criterion value are listed from column T group by group
+(their Bands row, score, criterion and group), so each group's line reads its own block of rows; the
+step-down tests and the common line read Bands' whole columns (blanks left out), and no column is copied per group;
 each further demographic column has its own listing to the right of the one before. The cells of the first
 column keep their keys (``fairness_gap_B``); those of the k-th column are keyed ``fairness_colK_gap_B``.
 """
@@ -164,7 +165,7 @@ def _column(ctx, g, row, predictor, column: GroupColumn, listed, list_col: int):
               for name in enough]
     g.charts.append((charts.group_lines(series, x_title=ctx.setup.test_name, y_title=ctx.setup.criterion or
                                         "Criterion"), f"A{row}"))
-    return row + CHART_ROWS, list_col + 4 + 2 * len(enough) + 1, out
+    return row + CHART_ROWS, list_col + 5, out
 
 
 def reference_of(given, counts, enough):
@@ -181,43 +182,38 @@ def reference_of(given, counts, enough):
 
 
 def _listing(ctx, g, predictor, column: GroupColumn, listed, group_numbers, groups, c: int) -> dict:
-    """Columns from ``c`` on: the people with a score and a criterion value, their group number in
-    ``column``; returns their ranges (with values)."""
+    """Columns from ``c`` on: the people of the compared ``groups`` with a score and a criterion value, group by
+    group (in Bands order within a group), with their Bands row, score, criterion and group in ``column``;
+    returns each group's block of scores and criteria (contiguous rows, so the group's line is INTERCEPT and SLOPE
+    of its block: no per-group copy of any column) and Bands' whole columns, which the step-down tests and the
+    common line read (their blanks, empty text, are left out)."""
     d = ctx.data
-    end = LIST_ROW - 1 + len(listed)
-    for k, h in enumerate(("Row on Bands", "Score", "Criterion", f"Group number ({column.header})")):
+    # the group is the block's (written as its name: the rows were chosen by group when the study was built, as
+    # the typed Bands rows were; no formula reads it)
+    for k, h in enumerate(("Row on Bands", "Score", "Criterion", f"Group ({column.header})")):
         g.set(LIST_ROW - 1, c + k, h, "header")
     places = dict(row=cell(SHEET, None, c))
     texts = [ctx.text("=INDEX({column},{row})", SHEET, column=area(BANDS_SHEET, col, 1, col, predictor.layout.last),
                       **places) for col in (3, 9)]
-    texts.append(ctx.text("=INDEX({column},{row})", SHEET, column=column.bands, **places))
-    per_group = []
-    for k, name in enumerate(groups):
-        number = column.numbers[name]
-        here = dict(group=cell(SHEET, None, c + 3), number=number)
-        per_group.append((name, ctx.text('=IF({group}={number},{x},"")', SHEET, x=cell(SHEET, None, c + 2), **here),
-                          ctx.text('=IF({group}={number},{x},"")', SHEET, x=cell(SHEET, None, c + 1), **here)))
-        g.set(LIST_ROW - 1, c + 4 + 2 * k, f"Criterion, {name}", "header")
-        g.set(LIST_ROW - 1, c + 5 + 2 * k, f"Score, {name}", "header")
-    for k, i in enumerate(listed):
-        r = LIST_ROW + k
-        g.set(r, c, int(i) + 2)
-        for j, t in enumerate(texts):
-            g.set(r, c + 1 + j, fill_row(t, r))
-        for m, (_, crit_text, score_text) in enumerate(per_group):
-            g.set(r, c + 4 + 2 * m, fill_row(crit_text, r))
-            g.set(r, c + 5 + 2 * m, fill_row(score_text, r))
-    scores, criterion = d.scores[listed], d.criterion[listed]
     codes = np.array([np.nan if x is None else x for x in group_numbers], dtype=float)
-    out = {"scores": area(SHEET, c + 1, LIST_ROW, c + 1, end, value=scores),
-           "criterion": area(SHEET, c + 2, LIST_ROW, c + 2, end, value=criterion),
-           "groups": area(SHEET, c + 3, LIST_ROW, c + 3, end, value=codes.tolist())}
-    for m, name in enumerate(groups):
-        mine = codes == column.numbers[name]
-        out[("criterion", name)] = area(SHEET, c + 4 + 2 * m, LIST_ROW, c + 4 + 2 * m, end,
-                                        value=np.where(mine, criterion, np.nan))
-        out[("scores", name)] = area(SHEET, c + 5 + 2 * m, LIST_ROW, c + 5 + 2 * m, end,
-                                     value=np.where(mine, scores, np.nan))
+    out, r = {}, LIST_ROW
+    for name in groups:
+        mine = listed[codes == column.numbers[name]]
+        for k, i in enumerate(mine):
+            g.set(r + k, c, int(i) + 2)
+            for j, t in enumerate(texts):
+                g.set(r + k, c + 1 + j, fill_row(t, r + k))
+            g.set(r + k, c + 3, name)
+        end = r + len(mine) - 1
+        out[("scores", name)] = area(SHEET, c + 1, r, c + 1, end, value=d.scores[mine])
+        out[("criterion", name)] = area(SHEET, c + 2, r, c + 2, end, value=d.criterion[mine])
+        r = end + 1
+    layout = predictor.layout
+    every = [column.numbers.get(x) if x is not None else None for x in column.labels]
+    with_criterion = np.where(np.isnan(d.criterion), np.nan, d.scores)
+    out.update(scores=layout.scores.with_value(d.scores), criterion=layout.criterion.with_value(d.criterion),
+               groups=column.codes.with_value(every),
+               scores_with_criterion=layout.scores_with_criterion.with_value(with_criterion))
     return out
 
 
@@ -295,16 +291,19 @@ def _lines(ctx, g, row, predictor, listing, column: GroupColumn, groups) -> int:
             f"{conf:.0%} CI lower (slope)", f"{conf:.0%} CI upper (slope)", "Predicted criterion at the cut")
     for c, h in enumerate(head, start=1):
         g.set(row, c, h, "header")
-    rows = [(name, listing[("criterion", name)], listing[("scores", name)]) for name in groups]
-    rows.append(("All groups together (the common line)", listing["criterion"], listing["scores"]))
-    for k, (name, y, x) in enumerate(rows):
+    rows = [(name, listing[("criterion", name)], listing[("scores", name)], listing[("criterion", name)])
+            for name in groups]
+    # the common line over everyone with a score and a criterion value (Bands' columns; counted by the scores)
+    rows.append(("All groups together (the common line)", listing["criterion"], listing["scores_with_criterion"],
+                 listing["scores_with_criterion"]))
+    for k, (name, y, x, counted) in enumerate(rows):
         r = row + 1 + k
         yv, xv = np.asarray(y.value, float), np.asarray(x.value, float)
         keep = ~np.isnan(yv) & ~np.isnan(xv)
         slope, intercept = np.polyfit(xv[keep], yv[keep], 1) if keep.sum() >= 3 and np.ptp(xv[keep]) > 0 else (
             np.nan, np.nan)
         g.set(r, 1, name)
-        n = ctx.expression(g, r, 2, "COUNT({y})", lambda m=int(keep.sum()): m, style="count", y=y)
+        n = ctx.expression(g, r, 2, "COUNT({y})", lambda m=int(keep.sum()): m, style="count", y=counted)
         b = ctx.expression(g, r, 3, "INTERCEPT({y},{x})", lambda v=float(intercept): v, style="coef", y=y, x=x)
         a = ctx.expression(g, r, 4, "SLOPE({y},{x})", lambda v=float(slope): v, style="coef", y=y, x=x)
         for c, sign in ((5, "-"), (6, "+")):

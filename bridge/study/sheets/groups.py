@@ -15,7 +15,6 @@ from trueband.funcs.errors import InsufficientDataError
 
 from ..context import Expr, Ref, StudyContext, area, cell
 from ..words import CAUTION
-from ..setup_impact import MAX_GROUP_SCORE_CELLS
 from .bands import BandsLayout
 from .impact import SHEET as IMPACT_SHEET, Impact, unless_reference
 from .setup import SetupSheet
@@ -40,7 +39,6 @@ def write(ctx: StudyContext, setup: SetupSheet, impact: Impact, bands: BandsLayo
     d = ctx.data
     if not impact.tables or not (d.impact.several or d.impact.stratum is not None or d.impact.stages):
         return Groups()
-    live = any(k.startswith("score:") for k in bands.extra)
     g = ctx.sheet(SHEET)
     g.widths.update({1: 22, **{c: 13 for c in range(2, 14)}})
     g.set(1, 1, "Test scores and the criterion by group", "title")
@@ -61,29 +59,10 @@ def write(ctx: StudyContext, setup: SetupSheet, impact: Impact, bands: BandsLayo
             g.set(row + 1, c, h, "header")
         first = row + 2
         for i, name in enumerate(t.names):
-            if live:
-                d_ref = _group_row(ctx, g, first + i, t, k_index, name, bands, setup, (first, first + len(t.names) - 1))
-                first_d = first_d or d_ref
-            else:
-                _counts_only(ctx, g, first + i, t, name, bands)
+            d_ref = _group_row(ctx, g, first + i, t, k_index, name, bands, setup, (first, first + len(t.names) - 1))
+            first_d = first_d or d_ref
         row = first + len(t.names) + 2
     return Groups(first_d)
-
-
-def _counts_only(ctx, g, r: int, t, name: str, bands: BandsLayout) -> None:
-    """Without the per-group columns (too many rows): n and the mean score by group; the rest says why not."""
-    g.set(r, 1, name)
-    mine = _values(ctx, t, name, ctx.data.scores)
-    number = t.demographic.numbers[name]
-    ctx.expression(g, r, 2, 'COUNTIFS({groups},{number},{selected},">=0")', lambda: len(mine), style="count",
-                   groups=t.numbers, number=number, selected=bands.selected)
-    ctx.expression(g, r, 3, "AVERAGEIFS({scores},{groups},{number})", _stat(mine, np.mean, 1), style="coef",
-                   scores=bands.scores, groups=t.numbers, number=number)
-    reason = (f"with {ctx.data.n:,} rows the per-group score columns this needs (one per group on Bands) would "
-              f"add more than {MAX_GROUP_SCORE_CELLS:,} formula cells to the recalculation; study a sample of the rows "
-              f"for this figure")
-    for c in range(4, 8 if ctx.data.criterion is None else 14):
-        ctx.not_computable_at(g, r, c, reason)
 
 
 def _values(ctx: StudyContext, t, name: str, x: np.ndarray) -> list[float]:
@@ -94,29 +73,38 @@ def _values(ctx: StudyContext, t, name: str, x: np.ndarray) -> list[float]:
 
 def _group_row(ctx, g, r: int, t, k: int, name: str, bands: BandsLayout, setup: SetupSheet,
                block: tuple[int, int]) -> Ref | None:
-    """One group's row (``block``: the first and last rows of its column's groups); returns its d of the score."""
+    """One group's row (``block``: the first and last rows of its column's groups); returns its d of the score.
+
+    Every figure reads Bands' whole columns (the scores, the criterion) beside the column's group numbers, with
+    criteria functions and the registered SUBGROUP_SD and SUBGROUP_D: no per-group copy of any column."""
     d = ctx.data
     g.set(r, 1, name)
     result = None
-    blocks = [("score", 2, d.scores)]
+    demo = t.demographic
+    number = demo.numbers[name]
+    groups = t.numbers.with_value([demo.numbers.get(x) if x is not None else None for x in demo.groups],
+                                  f"the group numbers of {demo.header}")
+    blocks = [("score", 2, d.scores, bands.scores)]
     if d.criterion is not None:
-        blocks.append(("criterion", 8, d.criterion))
-    for what, c0, x in blocks:
+        blocks.append(("criterion", 8, d.criterion, bands.criterion))
+    # the reference group's number, chosen by the name in the Impact sheet's cell
+    ref_number = Expr(ctx.text("CHOOSE(MATCH({reference},{names},0),", SHEET, reference=t.reference_cell,
+                               names=area(IMPACT_SHEET, 1, t.first, 1, t.last))
+                      + ",".join(str(demo.numbers[n]) for n in t.names) + ")",
+                      demo.numbers[t.reference], "the reference group's number")
+    for what, c0, x, column in blocks:
         mine = _values(ctx, t, name, x)
-        here = bands.column(bands.extra[f"{what}:{k}:{name}"]).with_value(mine, f"the {what}s of {name}")
-        n = ctx.expression(g, r, c0, "COUNT({x})", lambda v=len(mine): v, style="count", x=here)
-        ctx.expression(g, r, c0 + 1, "AVERAGE({x})", _stat(mine, np.mean, 1), style="coef", x=here)
-        sd = ctx.expression(g, r, c0 + 2, "STDEV({x})", _stat(mine, lambda v: np.std(v, ddof=1), 2), style="coef",
-                            x=here)
+        values = column.with_value([None if np.isnan(v) else float(v) for v in x], f"the {what}s")
+        # numbers only (the criteria >=0 and <0 match no text): the people of the group with a value
+        n = ctx.expression(g, r, c0, 'COUNTIFS({groups},{number},{x},">=0")+COUNTIFS({groups},{number},{x},"<0")',
+                           lambda v=len(mine): v, style="count", groups=t.numbers, number=number, x=column)
+        ctx.expression(g, r, c0 + 1, "AVERAGEIFS({x},{groups},{number})", _stat(mine, np.mean, 1), style="coef",
+                       x=column, groups=t.numbers, number=number)
+        sd = ctx.formula(g, r, c0 + 2, "SUBGROUP_SD", values, groups, number, style="coef")
         guards, places = _d_guards(ctx, t, what, c0, block, x, n, sd)
-        # the reference group's column of Bands, chosen by the name in the Impact sheet's cell
-        columns = ",".join(bands.column(bands.extra[f"{what}:{k}:{n}"]).address(SHEET) for n in t.names)
-        ref = Expr(ctx.text("CHOOSE(MATCH({reference},{names},0),", SHEET, reference=t.reference_cell,
-                            names=area(IMPACT_SHEET, 1, t.first, 1, t.last)) + columns + ")",
-                   _values(ctx, t, t.reference, x), f"the {what}s of {t.reference}")
         for j, part in enumerate(("estimate", "lower", "upper")):
-            written = unless_reference(ctx, g, r, c0 + 3 + j, "COHENS_D_CI", here, ref, part, setup.confidence,
-                                       group=cell(SHEET, r, 1).local(), reference=t.reference_cell,
+            written = unless_reference(ctx, g, r, c0 + 3 + j, "SUBGROUP_D", values, groups, number, ref_number, part,
+                                       setup.confidence, group=cell(SHEET, r, 1).local(), reference=t.reference_cell,
                                        is_reference=name == t.reference,
                                        label="reference group" if part == "estimate" else "", style="coef",
                                        guards=guards, places=places,

@@ -10,7 +10,7 @@ from openpyxl.utils import get_column_letter
 from trueband.funcs.errors import InsufficientDataError
 
 from .. import charts
-from ..words import CORRECTED_LIMITS_NOTE, INDIRECT_RULE
+from ..words import CHART_SUBSET, CORRECTED_LIMITS_NOTE, INDIRECT_RULE
 from ..context import Ref, StudyContext, area, cell, fill_row
 from ..setup import HIRED_CODINGS
 from .bands import BANDS_SHEET, BandsLayout
@@ -24,6 +24,9 @@ SHEET = "Validity"
 FITTED_ROW = 36       # the fitted line's label
 EXPECTANCY_ROW = 39   # the expectancy table's heading
 LISTED_ROW = 3        # the first row of the people with a criterion value (columns O:Q, the chart's data)
+#: The people with a score and a criterion value the scatter plots at most (the first, in data order): more
+#: points are unreadable and slow to draw; every figure of the sheet uses everyone.
+CHART_PEOPLE = 2_000
 
 
 @dataclasses.dataclass(frozen=True)
@@ -99,13 +102,14 @@ def write(ctx: StudyContext, setup: SetupSheet, rel: Reliability, bands: BandsLa
                 style="coef", key="intercept")
     listed = np.flatnonzero(both) + 2   # the Bands rows of the people with a criterion value
     have_r = isinstance(r.value, float)
-    end = LISTED_ROW - 1 + len(listed)
+    whole = len(listed) <= CHART_PEOPLE   # the list is everyone (else the chart's first CHART_PEOPLE)
+    end = LISTED_ROW - 1 + min(len(listed), CHART_PEOPLE)
     listed_scores, listed_criteria = (area(SHEET, col, LISTED_ROW, col, end) for col in (16, 17))
-    _expectancy(ctx, g, setup, rel, have_r, bands.scores_with_criterion, bands.criterion)
+    below = _expectancy(ctx, g, setup, rel, have_r, bands.scores_with_criterion, bands.criterion)
     if have_r:
-        _listed(ctx, g, bands, listed, end, s.criterion)
+        _listed(ctx, g, bands, listed, end, s.criterion, below)
     return Validity(r=r, r_lower=r_lower, r_upper=r_upper, r_p=r_p, operational=operational, n_criterion=n_criterion,
-                    criteria_listed=listed_criteria.qualified() if have_r else None, r_range=r_range)
+                    criteria_listed=listed_criteria.qualified() if have_r and whole else None, r_range=r_range)
 
 
 def _corrections(ctx: StudyContext, g, setup: SetupSheet, rel: Reliability, r: Ref, limits: tuple[Ref, Ref],
@@ -165,12 +169,13 @@ def _corrections(ctx: StudyContext, g, setup: SetupSheet, rel: Reliability, r: R
 
 
 def _expectancy(ctx: StudyContext, g, setup: SetupSheet, rel: Reliability, have_r: bool, listed_scores: Ref,
-                listed_criteria: Ref) -> None:
+                listed_criteria: Ref) -> int:
     """The expectancy table: criterion by score fifth (quintile) of all applicants.
 
     ``listed_scores`` and ``listed_criteria`` are Bands' whole columns of the score of each person with a
     criterion value and of the criterion (empty text for everyone else, which the conditional counts skip), so
-    every number of the table is a live formula over the data: a criterion filled in later enters it."""
+    every number of the table is a live formula over the data: a criterion filled in later enters it. Returns the
+    row below its note."""
     row = EXPECTANCY_ROW
     g.set(row, 1, "Expectancy table: criterion by score fifth (quintile) of all applicants", "heading")
     g.set(row + 1, 1, "Success means a criterion value at or above (Setup: success threshold)")
@@ -200,16 +205,19 @@ def _expectancy(ctx: StudyContext, g, setup: SetupSheet, rel: Reliability, have_
         g.set(r, 4, text("=COUNTIFS(" + within + ")"), "count")
         g.set(r, 5, text('=IF({count}=0,"none",AVERAGEIFS({criteria},' + within + "))"), "coef")
         g.set(r, 6, text('=IF({count}=0,"none",COUNTIFS(' + within + ',{criteria},">="&{threshold})/{count})'), "pct")
-    g.para(row + 9, 1, "Fifths are cut at the 20th, 40th, 60th and 80th percentiles of all applicants' scores; a "
-                      "score on a cut point belongs to the higher fifth. Rising shares down the table are what a "
-                      "valid test shows. Validity figures are statistical indicators, not legal findings.")
+    return row + 9 + g.para(row + 9, 1, "Fifths are cut at the 20th, 40th, 60th and 80th percentiles of all "
+                                        "applicants' scores; a score on a cut point belongs to the higher fifth. "
+                                        "Rising shares down the table are what a valid test shows. Validity figures "
+                                        "are statistical indicators, not legal findings.")
 
 
-def _listed(ctx: StudyContext, g, bands: BandsLayout, listed, end: int, criterion_name: str | None) -> None:
+def _listed(ctx: StudyContext, g, bands: BandsLayout, listed, end: int, criterion_name: str | None,
+            below: int) -> None:
     """The people with a score and a criterion value (columns N:Q: k, their position among the Bands rows, score
     and criterion) and the scatter. Live: column O finds the k-th person with both (NTH_NUMBER_ROW over Bands'
     score-with-criterion column), so an edited or blanked criterion flows through; the list is as long as the
-    number of such people when the study was built (a value added later enters r and the tables, not this list)."""
+    number of such people when the study was built (a value added later enters r and the tables, not this list),
+    at most :data:`CHART_PEOPLE` (the chart's subset, said in words above the chart from row ``below``)."""
     for col, head in ((14, "k"), (15, "Position among Bands rows"), (16, "Score"), (17, "Criterion")):
         g.set(2, col, head, "header")
     # one formula filled down (the k beside it differs), not one formula per person
@@ -219,7 +227,11 @@ def _listed(ctx: StudyContext, g, bands: BandsLayout, listed, end: int, criterio
     score_text, criterion_text = (
         ctx.text('=IF({row}>0,INDEX({column},{row}),"")', SHEET, column=column, row=position)
         for column in (bands.scores, bands.criterion))
-    for k in range(len(listed)):
+    anchor = EXPECTANCY_ROW + 13
+    if len(listed) > CHART_PEOPLE:
+        lines = g.para(below + 1, 1, CHART_SUBSET.format(shown=CHART_PEOPLE, total=len(listed)))
+        anchor = max(anchor, below + 2 + lines)
+    for k in range(min(len(listed), CHART_PEOPLE)):
         g.set(LISTED_ROW + k, 14, k + 1)
         g.set(LISTED_ROW + k, 15, fill_row(find_text, LISTED_ROW + k))
         g.set(LISTED_ROW + k, 16, fill_row(score_text, LISTED_ROW + k))
@@ -227,5 +239,5 @@ def _listed(ctx: StudyContext, g, bands: BandsLayout, listed, end: int, criterio
     g.charts.append((charts.score_vs_criterion(charts.area(area(SHEET, 16, LISTED_ROW, 16, end)),
                                                charts.area(area(SHEET, 17, LISTED_ROW, 17, end)),
                                                x_title="Test score", y_title=criterion_name or "Criterion"),
-                     f"A{EXPECTANCY_ROW + 13}"))
-    g.print_area = f"A1:F{EXPECTANCY_ROW + 33}"  # the chart's data (columns P:Q) is not printed
+                     f"A{anchor}"))
+    g.print_area = f"A1:F{anchor + 20}"  # the chart's data (columns P:Q) is not printed
