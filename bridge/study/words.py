@@ -278,6 +278,7 @@ EXACT_TOO_LARGE = ("the strata are too large for the exact conditional test: ",
                    " possible tables, more than the {limit:,} it enumerates at most; read the "
                    "Cochran–Mantel–Haenszel p instead")
 __all__ += ["EXACT_TOO_LARGE"]
+
 # ---------------------------------------------------------------- fewer per-applicant formulas (issues 17 and 18)
 
 #: Beside the Validity sheet's scatter when it plots a subset: which people it shows (every figure uses all).
