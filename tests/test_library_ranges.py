@@ -36,7 +36,8 @@ def same(a, b) -> bool:
 @pytest.mark.parametrize("seed", range(40))
 def test_fast_conversion_equals_the_cell_by_cell_loop(seed, monkeypatch):
     rng = random.Random(seed)
-    pool = CELLS if seed % 2 else [1.5, -2.0, 3, np.float64(0.25), None, schedula.EMPTY]  # half: clean ranges
+    pool = (CELLS if seed % 2 else [1.5, -2.0, 3, np.float64(0.25), None, schedula.EMPTY] if seed % 4
+            else [1.5, -2.0, 3, 0, 2 ** 70, np.float64(0.25), float("inf")])  # numbers only: the fast step
     rows, cols = rng.randint(1, 6), rng.randint(1, 4)
     cells = np.empty((rows, cols), dtype=object)
     for i in range(rows):
@@ -46,10 +47,21 @@ def test_fast_conversion_equals_the_cell_by_cell_loop(seed, monkeypatch):
 
 
 def test_clean_range_is_a_read_only_float_array(monkeypatch):
-    cells = np.array([[1, None], [schedula.EMPTY, 2.5]], dtype=object)
-    out = convert(cells, True, monkeypatch)
-    assert isinstance(out, np.ndarray) and out.dtype == float and not out.flags.writeable
-    assert out[0, 0] == 1.0 and out[1, 1] == 2.5 and math.isnan(out[0, 1]) and math.isnan(out[1, 0])
+    for cells in (np.array([[1, None], [schedula.EMPTY, 2.5]], dtype=object),
+                  np.array([[1, np.float64(-3.0)], [0, 2.5]], dtype=object)):
+        out = convert(cells, True, monkeypatch)
+        assert isinstance(out, np.ndarray) and out.dtype == float and not out.flags.writeable
+        assert out[0, 0] == 1.0 and out[1, 1] == 2.5 and out.shape == (2, 2)
+    assert math.isnan(convert(np.array([[None]], dtype=object), True, monkeypatch)[0, 0])
+
+
+def test_a_whole_number_beyond_float_range_behaves_as_before(monkeypatch):
+    cells = np.array([[1.0, 10 ** 400]], dtype=object)
+    # a value no sheet can hold (cells are read as floats): the fast step leaves it to the loop, unchanged
+    with pytest.raises(OverflowError):
+        convert(cells, False, monkeypatch)
+    with pytest.raises(OverflowError):
+        convert(cells, True, monkeypatch)
 
 
 def test_a_text_spelled_like_the_blank_is_not_a_blank(monkeypatch):

@@ -159,23 +159,23 @@ def _range_cache() -> _RangeCache:
     return cache
 
 
-#: Whether :func:`_convert_range` converts a range of only numbers and blanks with numpy in one step (False:
-#: cell by cell, as before; the benchmarks' reference run and the tests' slow path).
+#: Whether :func:`_convert_range` converts a range of only numbers with numpy in one step (False: cell by
+#: cell, as before; the benchmarks' reference run and the tests' slow path).
 FAST_RANGES = True
-#: The cell types the fast step takes as numbers (exactly those the cell-by-cell loop takes: not bool, not
-#: numpy's integers, which are not ``int``); a blank is checked by identity, since ``schedula.EMPTY`` is a text.
+#: The cell types the fast step takes as numbers: exactly those the cell-by-cell loop takes (not bool, not
+#: numpy's integers, which are not ``int``). Ranges with blanks stay with the loop: every one-step form of
+#: them that was tried (numpy masks, a dict lookup per cell) was slower than the loop (``bench/README.md``).
 _NUMBER_TYPES = frozenset({float, int, np.float64})
-_BLANK_TYPES = frozenset({type(schedula.EMPTY), type(None)})
-_NOT_A_BLANK = object()
-_NAN = float("nan")
 
 
 def _convert_range(arr: np.ndarray):
     flat = arr.ravel().tolist()
-    if FAST_RANGES and flat:
-        fast = _numbers_and_blanks(flat)
-        if fast is not None:
-            out = fast.reshape(arr.shape)
+    if FAST_RANGES and flat and set(map(type, flat)) <= _NUMBER_TYPES:
+        try:
+            out = arr.astype(float)
+        except OverflowError:  # a whole number beyond float range: the loop below does what it did before
+            pass
+        else:
             out.flags.writeable = False  # shared between cells: no function may change it
             return out
     out = np.empty(len(flat))
@@ -194,23 +194,6 @@ def _convert_range(arr: np.ndarray):
         out.flags.writeable = False  # shared between cells: no function may change it
         return out
     return [[_cell(x) for x in row] for row in arr]
-
-
-def _numbers_and_blanks(flat: list):
-    """``flat`` as floats in one numpy step when it holds only numbers and blanks (blanks as NaN), else None."""
-    kinds = set(map(type, flat))
-    if not kinds <= _NUMBER_TYPES:
-        if not kinds <= _NUMBER_TYPES | _BLANK_TYPES:
-            return None
-        empty = schedula.EMPTY
-        flat = [_NAN if x is empty or x is None else (x if type(x) in _NUMBER_TYPES else _NOT_A_BLANK)
-                for x in flat]
-        if any(x is _NOT_A_BLANK for x in flat):  # a text of the blank's type that is not the blank itself
-            return None
-    try:
-        return np.array(flat, dtype=float)
-    except OverflowError:  # a whole number beyond float range: the cell-by-cell loop says what it says today
-        return None
 
 
 def range_argument(value):
