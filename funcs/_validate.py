@@ -283,6 +283,29 @@ def _is_blank(cell) -> bool:
         isinstance(cell, float) and math.isnan(cell)) or type(cell).__name__ in _PANDAS_BLANKS
 
 
+#: Whether :func:`numeric_matrix` reads numbers mixed with blank texts (a formula's ``""``) in one step (False:
+#: cell by cell, as before; the benchmarks' reference run and the tests' slow path).
+FAST_BLANK_TEXTS = True
+_NUMBERS_AND_TEXT = _PLAIN_NUMBERS | {str}
+
+
+def _numbers_and_blank_texts(cells: list):
+    """Plain numbers, ``None`` and texts as floats in one step when every text is blank (as :func:`_is_blank`
+    reads it: empty or only spaces), blanks as NaN; None when a text is not blank or a number is out of range
+    (the cell-by-cell check then says what it says)."""
+    if not FAST_BLANK_TEXTS:
+        return None
+    texts = [x for x in set(cells) if type(x) is str]  # the distinct cells, hashed in C: few texts among them
+    if any(t.strip() != "" for t in texts):
+        return None
+    as_nan = dict.fromkeys(texts, math.nan)
+    as_nan[None] = math.nan
+    try:
+        return np.fromiter(map(as_nan.get, cells, cells), float, len(cells))
+    except OverflowError:
+        return None
+
+
 def numeric_matrix(name: str, value) -> np.ndarray:
     """A range of numbers as a 2-D float array; blanks become ``nan``.
 
@@ -298,11 +321,19 @@ def numeric_matrix(name: str, value) -> np.ndarray:
                 value = np.array(value, dtype=float)  # None -> nan
             except OverflowError:  # a whole number beyond float range: the cell-by-cell check names it
                 pass
+        elif types <= _NUMBERS_AND_TEXT and len({len(row) for row in value}) == 1 and len(value[0]):
+            fast = _numbers_and_blank_texts(list(itertools.chain.from_iterable(value)))
+            if fast is not None:
+                value = fast.reshape(len(value), -1)
     elif isinstance(value, (list, tuple)) and value and set(map(type, value)) <= _PLAIN_NUMBERS:
         try:  # the same for a flat list (one column of cells)
             value = np.array(value, dtype=float).reshape(-1, 1)
         except OverflowError:
             pass
+    elif isinstance(value, (list, tuple)) and value and set(map(type, value)) <= _NUMBERS_AND_TEXT:
+        fast = _numbers_and_blank_texts(list(value))
+        if fast is not None:
+            value = fast.reshape(-1, 1)
     arr = _as_rows(name, _table_values(value), "a range of numbers")
     if arr.dtype.kind in "fiu":
         out = arr.astype(float)
