@@ -1,9 +1,10 @@
-"""Benchmark: range arguments of only numbers converted in one numpy step, on and off.
+"""Benchmark: range arguments converted to floats in one numpy step, on and off.
 
-Two measurements, each with ``bridge/formulas/library.py``'s ``FAST_RANGES`` on and, as the reference in the
-same run, off (the cell-by-cell loop, as before):
+Two measurements, each with ``bridge/formulas/library.py``'s ``FAST_RANGES`` and ``funcs/_validate.py``'s
+``FAST_BLANK_TEXTS`` on and, as the reference in the same run, off (the cell-by-cell loops, as before):
 
-* the conversion alone of one column of ``n`` numbers (``_convert_range``, fresh each time);
+* the conversion alone of one column of ``n`` numbers (``_convert_range``, fresh each time), and
+  ``numeric_vector`` of a column of ``n`` cells, a third of them ``""`` (a formula's empty text);
 * a study of ``n`` candidates (``impact``, as ``bench_engine.py`` builds it; not timed) recalculated in two fresh
   child processes; the two outputs must be the same in every cell (``compare_books.compare``).
 
@@ -27,8 +28,9 @@ from bench_study import _peak_mb
 def child(raw: str, out: str, mode: str) -> dict:
     from trueband.bridge.engine.recalc import recalculate
     from trueband.bridge.formulas import library
+    from trueband.funcs import _validate
 
-    library.FAST_RANGES = mode == "on"
+    library.FAST_RANGES = _validate.FAST_BLANK_TEXTS = mode == "on"
     c0 = time.process_time()
     report = recalculate(Path(raw), Path(out))
     return {"cpu": time.process_time() - c0, "peak_mb": _peak_mb(), "formulas": report.formulas,
@@ -39,16 +41,21 @@ def conversion(n: int) -> dict:
     import numpy as np
 
     from trueband.bridge.formulas import library
+    from trueband.funcs import _validate
 
     column = np.array([[float(i % 41)] for i in range(n)], dtype=object)
+    texts = [[""] if i % 3 == 0 else [float(i % 41)] for i in range(n)]
     got = {}
     for mode in ("on", "off"):
-        library.FAST_RANGES = mode == "on"
+        library.FAST_RANGES = _validate.FAST_BLANK_TEXTS = mode == "on"
         c0 = time.process_time()
         for _ in range(20):
             library._convert_range(column)  # the cache is bypassed: each call converts afresh
-        got[mode] = (time.process_time() - c0) / 20
-    library.FAST_RANGES = True
+        c1 = time.process_time()
+        for _ in range(5):
+            _validate.numeric_vector("values", texts)
+        got[mode] = ((c1 - c0) / 20, (time.process_time() - c1) / 5)
+    library.FAST_RANGES = _validate.FAST_BLANK_TEXTS = True
     return got
 
 
@@ -63,8 +70,9 @@ def main(argv: list[str]) -> int:
 
     n = next((int(a) for a in argv if a.isdigit()), 5000)
     c = conversion(n)
-    print(f"one column of {n} cells: on {c['on'] * 1e3:.2f} ms, off {c['off'] * 1e3:.2f} ms, "
-          f"off / on {c['off'] / c['on']:.1f}x")
+    for k, what in enumerate(("_convert_range, numbers", "numeric_vector, a third \"\"")):
+        print(f"one column of {n} cells, {what}: on {c['on'][k] * 1e3:.2f} ms, off {c['off'][k] * 1e3:.2f} ms, "
+              f"off / on {c['off'][k] / c['on'][k]:.1f}x")
     with tempfile.TemporaryDirectory() as tmp:
         tmp = Path(tmp)
         raw = build(tmp, n, "impact")
