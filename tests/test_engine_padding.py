@@ -40,6 +40,12 @@ CASES = [
     ('=COUNTIFS(A1:A10,">1",T!A1:A10,">1")', 2.0),  # rows 2 and 3
     ('=COUNTIFS(A1:A8,">0",T!A1:A8,">0")', 3.0),
     ('=SUMIFS(T!A1:A8,A1:A8,"")', 9.0),
+    # references too large to read whole (store.PAD_CELLS): paired ranges padded to the tallest read among them
+    ("=SUMPRODUCT(A:A,T!A:A)", 14.0),
+    ("=SUMPRODUCT(A1:A300000,T!A1:A300000)", 14.0),
+    ("=CORREL(A:A,T!A:A)", 1.0),  # the pairs (1,1), (2,2), (3,3); a pair with a blank is left out
+    ('=COUNTIFS(A:A,">0",T!A:A,">0")', 3.0),
+    ('=SUMIFS(T!A:A,A:A,">1")', 5.0),  # T2 + T3
 ]
 
 
@@ -57,6 +63,12 @@ def test_index_past_the_used_rows_was_a_ref_error_before():
 def test_a_whole_column_is_still_cut_at_the_last_used_row():
     store = two_sheets()
     assert store.area("S", 1, 1, 1048576, 1).shape == (3, 1)
+
+
+def test_a_range_read_as_one_value_is_not_padded():
+    # IF's first argument is read by implicit intersection (row 2 of A:A: 2), the others stay ranges
+    res = evaluate_cell(compile_formula("=IF(A:A>1,1,0)+SUM(T!A:A)", 2, 5), two_sheets(), "S", 2, 5)
+    assert res.value == 16.0 and not res.kept, res
 
 
 @pytest.mark.parametrize("text", ["=INDEX($A$1:$A$10,ROW()-1)+1", "=SUMPRODUCT($A$1:$A$6,T!$A$1:$A$6)+ROW()"])
