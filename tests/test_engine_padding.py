@@ -71,7 +71,8 @@ def test_a_range_read_as_one_value_is_not_padded():
     assert res.value == 16.0 and not res.kept, res
 
 
-@pytest.mark.parametrize("text", ["=INDEX($A$1:$A$10,ROW()-1)+1", "=SUMPRODUCT($A$1:$A$6,T!$A$1:$A$6)+ROW()"])
+@pytest.mark.parametrize("text", ["=INDEX($A$1:$A$10,ROW()-1)+1", "=SUMPRODUCT($A$1:$A$6,T!$A$1:$A$6)+ROW()",
+                                  "=SUMPRODUCT($A:$A,T!$A:$A)+ROW()", "=CORREL($A:$A,T!$A:$A)+ROW()"])
 def test_runs_give_the_single_cell_values(text):
     store = two_sheets()
     first, last, col = 2, 11, 4
