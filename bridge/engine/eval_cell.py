@@ -31,7 +31,7 @@ from ..formulas.library import ERROR_LOG, NOT_IMPLEMENTED, NotEvaluated, functio
 from ..formulas.names import registered_name
 from .criteria import AGGREGATE_FUNCTIONS, COUNT_FUNCTIONS, aggregate_if, count_if
 from . import fast_paths
-from .extent import EXTENT_FUNCTIONS, add_cut_off_blanks, blank_cells_cut_off, extent_size
+from .extent import EXTENT_FUNCTIONS, add_cut_off_blanks, blank_cells_cut_off, extent_size, pad_paired_ranges
 from .values import (NA_ERROR, NAME_ERROR, REF_ERROR, VALUE_ERROR, CannotEvaluate, CellProblem, VectorUnsupported,
                      error_value, filled, final_value, unknown_function)
 
@@ -236,11 +236,14 @@ class _CellEval:
         if name not in table or table[name] is NOT_IMPLEMENTED:
             raise CannotEvaluate(unknown_function(name))
         fn = table[name]
+        single = range(0)
         if name in ARRAY_ARGUMENT_FUNCTIONS:
             args = self.arguments_as_arrays(node.args)
         else:
             single = single_value_arguments(name, len(node.args))
             args = [self.single(a) if i in single else self.evaluate(a) for i, a in enumerate(node.args)]
+        if len(args) > 1:  # ranges of one size cut at different heights (sheets of different heights)
+            args = pad_paired_ranges(node.args, args, self.row, self.col, single)
         if name == "CHOOSE" and args and fast_paths.ENABLED:
             fast = fast_paths.choose_cell(args[0], args[1:])
             if fast is not None:

@@ -51,7 +51,7 @@ from .criteria import AGGREGATE_FUNCTIONS, COUNT_FUNCTIONS, count_if_rows
 from .eval_cell import area_value, range_aggregate, single_value_arguments
 from .graph import Run
 from . import fast_paths
-from .extent import EXTENT_FUNCTIONS, blank_cells_cut_off, extent_size
+from .extent import EXTENT_FUNCTIONS, blank_cells_cut_off, extent_size, pad_paired_ranges
 from .values import (EMPTY, NAME_ERROR, VALUE_ERROR, CannotEvaluate, CellProblem, VectorUnsupported, final_array,
                      final_value, library_callable as _library_callable, tidy_column as _tidy,
                      unknown_function)
@@ -318,6 +318,10 @@ class _RunEval:
         if any(isinstance(args[i], RowRange) or (isinstance(args[i], Fixed) and np.size(args[i].a) != 1)
                for i in single):
             raise VectorUnsupported(f"a range as a one-value argument of {name} (read by implicit intersection)")
+        if len(args) > 1:  # fixed ranges of one size cut at different heights, as in the cell path
+            raw = [a.a if isinstance(a, Fixed) else None for a in args]
+            raw = pad_paired_ranges(node.args, raw, self.first, self.col, single)
+            args = [Fixed(p) if isinstance(a, Fixed) and p is not a.a else a for a, p in zip(args, raw)]
         if name == "IF":
             return self.if_function(node, args)
         if name in _AGGREGATES:

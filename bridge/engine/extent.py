@@ -25,7 +25,7 @@ import numpy as np
 from ..workbook.cells import MAX_COLUMN, MAX_ROW
 from .values import EMPTY
 
-__all__ = ["EXTENT_FUNCTIONS", "extent_size", "blank_cells_cut_off", "add_cut_off_blanks"]
+__all__ = ["EXTENT_FUNCTIONS", "extent_size", "blank_cells_cut_off", "add_cut_off_blanks", "pad_paired_ranges"]
 
 #: The functions whose value depends on a reference's extent: ROWS and COLUMNS (the size), and the counts
 #: in which a blank cell can count.
@@ -87,3 +87,35 @@ def add_cut_off_blanks(fn, args: list, result, missing: int):
     if counted is None or one is None:
         return result
     return float(counted + missing * one)
+
+
+def pad_paired_ranges(nodes, args: list, row: int, col: int, single=()) -> list:
+    """The arguments of a call with the ranges of one full size brought to one height.
+
+    A reference larger than the store reads whole (``A:A``; :data:`~.store.PAD_CELLS`) is cut at the last row
+    its sheet uses, so ``SUMPRODUCT(A:A,Other!A:A)`` on sheets of different heights would pair arrays of
+    different heights (the library: ``#VALUE!``). Ranges whose references have the same full size are padded
+    with blank cells to the tallest array read among them (never past the reference's own height), so no more
+    cells are made than the tallest sheet uses; the positions in ``single`` (read as one value by implicit
+    intersection) and anything else are unchanged.
+    """
+    groups: dict[tuple, list[int]] = {}
+    for i, (node, value) in enumerate(zip(nodes, args)):
+        ok = i not in single and isinstance(value, np.ndarray) and value.ndim == 2
+        area = _area(node, row, col) if ok else None
+        if area is not None:
+            r1, c1, r2, c2 = area
+            groups.setdefault((r2 - r1 + 1, c2 - c1 + 1), []).append(i)
+    out = list(args)
+    for (height, width), members in groups.items():
+        tallest = max(out[i].shape[0] for i in members)
+        if len(members) < 2 or tallest > height:
+            continue
+        for i in members:
+            a = out[i]
+            if a.shape[0] < tallest and a.shape[1] == width:
+                padded = np.empty((tallest, width), dtype=object)
+                padded[:] = EMPTY
+                padded[:a.shape[0]] = a
+                out[i] = padded
+    return out

@@ -15,7 +15,11 @@ import numpy as np
 from ..workbook import sheet_columns, sheet_data
 from .values import EMPTY, error_value
 
-__all__ = ["CellStore"]
+__all__ = ["CellStore", "PAD_CELLS"]
+
+#: A reference of at most this many cells is read to its full area (blank cells below the sheet's last used
+#: row included); a larger one (``A:A``) is cut at the last used row (see :meth:`CellStore.area`).
+PAD_CELLS = 1 << 18
 
 _KIND_BLANK, _KIND_NUMBER, _KIND_OTHER = 0, 1, 2
 
@@ -240,8 +244,11 @@ class CellStore:
             out = np.empty((1, 1), dtype=object)
             out[0, 0] = error_value("#REF!")
             return out
-        # A full-column reference reads only the rows the sheet uses.
-        r2 = min(r2, max(self.max_row[name], r1))
+        # A large reference (a full column) reads only the rows the sheet uses; a bounded one of at most
+        # PAD_CELLS cells is read whole, its rows below the last used one blank, as the apps read it (so INDEX
+        # reaches them and ranges of one size on sheets of different heights keep one size).
+        if (r2 - r1 + 1) * (c2 - c1 + 1) > PAD_CELLS:
+            r2 = min(r2, max(self.max_row[name], r1))
         cols = self.sheets[name]
         used = [c for c in cols if c1 <= c <= c2]
         c2 = min(c2, max(used)) if used and c2 - c1 > 1000 else c2
