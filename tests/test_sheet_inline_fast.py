@@ -12,8 +12,8 @@ import random
 
 import pytest
 
-from test_sheet_xml import _sheet_from, columns_from_cells  # the suite's sheet builder and cell-reader oracle
-from trueband.bridge.workbook import sheet_columns, sheet_data, sheet_read
+from test_sheet_xml import _sheet_from, reads_as_the_cell_reader  # the suite's sheet builder and cell-reader oracle
+from trueband.bridge.workbook import sheet_columns
 
 _TEXTS = ["in", "", " padded ", "a &amp; b &lt;c&gt;", "&quot;q&quot; &apos;", "_x0041_BC", "tab\tx", "l1\nl2",
           "cr\r\nlf", "é ü 名前", "= 1", "x'y", "50001", "#N/A", "TRUE"]
@@ -46,13 +46,7 @@ def test_inline_pass_agrees_with_the_cell_reader(seed, monkeypatch):
     rnd = random.Random(seed)
     strings = ["alpha", "b&c"]
     sheet = _sheet_from(rnd, 300, 10, 8, _inline_cell)
-    expected = columns_from_cells(list(sheet_read.iter_cells_rowwise(sheet, strings)))
-    if seed % 2:
-        monkeypatch.setattr(sheet_data, "CHUNK_BYTES", rnd.randint(200, 5000))
-    got = sheet_columns.read_columns(sheet, strings)
-    assert got.columns == expected.columns
-    assert got.formulas == expected.formulas
-    assert got.styles == expected.styles
+    got = reads_as_the_cell_reader(sheet, strings, rnd, seed, monkeypatch)
     monkeypatch.setattr(sheet_columns, "INLINE_PASS", False)
     before = sheet_columns.read_columns(sheet, strings)
     assert (before.columns, before.formulas, before.styles) == (got.columns, got.formulas, got.styles)

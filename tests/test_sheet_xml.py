@@ -426,7 +426,11 @@ def _regular_sheet(rnd, rows=400):
 def test_fast_column_reader_agrees_with_the_cell_reader(seed, monkeypatch):
     rnd = random.Random(seed)
     strings = ["alpha", "b&c", "gamma"]
-    sheet = _regular_sheet(rnd)
+    reads_as_the_cell_reader(_regular_sheet(rnd), strings, rnd, seed, monkeypatch)
+
+
+def reads_as_the_cell_reader(sheet, strings, rnd, seed, monkeypatch):
+    """The column reader's columns, formulas and styles equal the cell reader's (odd seeds: small chunks)."""
     expected = columns_from_cells(list(sheet_read.iter_cells_rowwise(sheet, strings)))
     if seed % 2:
         monkeypatch.setattr(sheet_data, "CHUNK_BYTES", rnd.randint(200, 5000))
@@ -434,6 +438,7 @@ def test_fast_column_reader_agrees_with_the_cell_reader(seed, monkeypatch):
     assert got.columns == expected.columns
     assert got.formulas == expected.formulas
     assert got.styles == expected.styles
+    return got
 
 
 @pytest.mark.parametrize("seed", range(6))
