@@ -6,6 +6,8 @@ a chart of the lowest impact ratio against the cut with the 0.80 line.
 Each demographic column's block is two stacked tables of the same cuts, so that each prints across a landscape
 page (issue 20): the groups' passing counts, pass rates and impact ratios; under it the lowest ratio of each cut
 (Impact's ``LOWEST`` rule, so an error among the ratios passes on) with its group and that comparison's figures.
+A column of more than :data:`GROUPS_SIDE_BY_SIDE` groups has the first table split by figure instead: the passing
+counts, the pass rates and the impact ratios stacked, one group per column, each row's formulas as before.
 """
 
 from __future__ import annotations
