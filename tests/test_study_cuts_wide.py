@@ -130,3 +130,26 @@ def test_six_groups_print_one_page_wide(wide, soffice):
     first_pages = pdf_pages(to_pdf(soffice, first, folder / "first", profile))
     assert "Cuts" in page_sheets(pages)
     assert "Cuts" not in sideways_pages(pages, first_pages)
+
+
+@pytest.mark.slow
+def test_libreoffice_recomputes_the_six_groups_cuts_alike(wide, soffice):
+    # every formula of the Cuts sheet in standard functions only (the passing counts' COUNTIFS, the reference's
+    # MATCH, the links), recomputed by LibreOffice on loading, against the value trueband stored; LibreOffice has
+    # no trueband functions (#NAME? there and in the cells reading them), so those are left out
+    from types import SimpleNamespace
+
+    from test_study_libreoffice import CSV_FILTER, RECALC_ALWAYS, convert, mismatched_cells
+
+    path, _, _, folder = wide
+    profile = folder / "recalc-profile"
+    (profile / "user").mkdir(parents=True, exist_ok=True)
+    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
+    convert(soffice, path, CSV_FILTER, folder / "csv", profile)
+    _, mismatches = mismatched_cells(SimpleNamespace(path=path), folder, ("Cuts",))
+    wrong = [m for m in mismatches if "_xludf." not in m[2] and m[4] != "#NAME?"]
+    assert not wrong, wrong[:10]
+    counted = [m for m in mismatches if m[2].startswith("=COUNTIFS(")]
+    assert not counted, counted[:10]
+    formulas = load_workbook(path)["Cuts"]
+    assert sum(str(c.value).startswith("=COUNTIFS(") for row in formulas.iter_rows() for c in row) > 6 * 5
