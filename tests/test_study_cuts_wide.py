@@ -26,18 +26,21 @@ from trueband.bridge.study.sheets import cuts
 GROUPS = ("A", "B", "C", "D", "E", "F")
 K = 6
 SETUP = {"id column": "id", "group columns": "Sex, Ethnicity", "item columns": f"i1:i{K}", "cut score": 3,
+         "criterion column": "perf",
          "reference groups": "Sex: Men; Ethnicity: A"}
 
 
 def _data(n=240, seed=5):
-    """Invented applicants: sex, an ethnicity of six groups, six items (group F scores a little lower)."""
+    """Invented applicants: sex, an ethnicity of six groups, six items (group F scores a little lower) and a
+    criterion (with it the lowest ratio's table carries the selection ratio and the expected success rate)."""
     rng = np.random.default_rng(seed)
     sex = np.where(rng.random(n) < 0.5, "Women", "Men")
     eth = rng.choice(GROUPS, n, p=[0.3, 0.2, 0.15, 0.15, 0.1, 0.1])
     theta = rng.standard_normal(n) - 0.5 * (eth == "F")
     items = (rng.random((n, K)) < 1 / (1 + np.exp(-theta[:, None]))).astype(int)
-    header = ["id", "Sex", "Ethnicity", *[f"i{j}" for j in range(1, K + 1)]]
-    rows = [[f"P{i}", sex[i], eth[i], *items[i].tolist()] for i in range(n)]
+    perf = np.round(3 + 0.4 * theta + rng.normal(0, 0.5, n), 1)
+    header = ["id", "Sex", "Ethnicity", *[f"i{j}" for j in range(1, K + 1)], "perf"]
+    rows = [[f"P{i}", sex[i], eth[i], *items[i].tolist(), float(perf[i])] for i in range(n)]
     return header, rows
 
 
@@ -87,6 +90,7 @@ def test_six_groups_stack_and_every_figure_matches_numpy_and_scipy(wide):
     n = {g: int((df["Ethnicity"] == g).sum()) for g in GROUPS}
     for cut, row in got.items():
         passing = {g: int(((df["Ethnicity"] == g) & (df["score"] >= cut)).sum()) for g in GROUPS}
+        assert row["Selection ratio"] == pytest.approx(float((df["score"] >= cut).mean()), rel=1e-12)
         ratios = {}
         for g in GROUPS:
             assert row[f"Passing: {g}"] == passing[g]

@@ -146,8 +146,8 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
         g.set(ratio_names - 1, 1, f"{t.demographic.header}: the impact ratio of each group at each cut (against "
                                   "the reference group)", "heading")
         g.set(ratio_names, 1, "Group")
-        for d in (d_rate, d_ratio):
-            g.set(head + d, 1, "Cut", "header")
+        for shift in (d_rate, d_ratio):
+            g.set(head + shift, 1, "Cut", "header")
         last += d_ratio
     # the second table, of the same cuts, under the first: one table of both would be wider than a landscape page
     # at 70% (issue 20)
@@ -170,8 +170,8 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
         r, rb = first + i, head_b + 1 + i
         cut_ref = ctx.put(g, r, 1, float(cut), lambda v=float(cut): v, style="score")
         ctx.link(g, rb, 1, cut_ref, style="score")
-        for d in {d_rate, d_ratio} - {0}:
-            ctx.link(g, r + d, 1, cut_ref, style="score")
+        for shift in sorted({d_rate, d_ratio} - {0}):
+            ctx.link(g, r + shift, 1, cut_ref, style="score")
         passing = {}
         for j, name in enumerate(order):
             passing[name] = ctx.expression(
