@@ -108,15 +108,8 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
     index = {name: counts.groups.index(name) for name in order}
     applicants = {name: t.counts[name][1] for name in order}
     names_row, app_row, head = row + 1, row + 2, row + 3
-    c_pass, c_rate, c_ratio = 2, 2 + m, 2 + 2 * m
-    # row shifts of the rates' and the ratios' tables under the counts' (0: side by side), and the ratios' names row
-    d_rate = d_ratio = 0
-    ratio_names = names_row
-    if m > GROUPS_SIDE_BY_SIDE:
-        c_rate = c_ratio = 2
-        d_rate = len(cuts) + 3              # heading and header rows, then the cuts, then a blank row
-        d_ratio = 2 * len(cuts) + 7         # the rates' table, then a heading, the names and the header rows
-        ratio_names = head + d_ratio - 1
+    c_pass = 2
+    c_rate, c_ratio, d_rate, d_ratio, ratio_names = _stacked(g, t, m, names_row, head, len(cuts))
     c_low = 2   # the second table's (under the first): the lowest ratio of each cut and its comparison
     g.set(row, 1, f"{t.demographic.header}", "heading")
     g.set(row, 2, "Reference group (the Impact sheet's cell)")
@@ -141,14 +134,7 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
     g.set(head, 1, "Cut", "header")
     first = head + 1
     last = first + len(cuts) - 1
-    if d_ratio:
-        g.set(head + d_rate - 1, 1, f"{t.demographic.header}: the pass rate of each group at each cut", "heading")
-        g.set(ratio_names - 1, 1, f"{t.demographic.header}: the impact ratio of each group at each cut (against "
-                                  "the reference group)", "heading")
-        g.set(ratio_names, 1, "Group")
-        for shift in (d_rate, d_ratio):
-            g.set(head + shift, 1, "Cut", "header")
-        last += d_ratio
+    last += d_ratio
     # the second table, of the same cuts, under the first: one table of both would be wider than a landscape page
     # at 70% (issue 20)
     g.set(last + 2, 1, f"{t.demographic.header}: the lowest impact ratio at each cut, and its comparison",
@@ -196,6 +182,24 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
     series.marker.symbol = "circle"
     series.marker.size = 4
     return last_b + 2, series
+
+
+def _stacked(g, t: ImpactTable, m: int, names_row: int, head: int, n: int) -> tuple[int, int, int, int, int]:
+    """(the rates' first column, the ratios' first column, the rates' and the ratios' row shift under the counts'
+    table, the ratios' names row): side by side (shifts 0) up to :data:`GROUPS_SIDE_BY_SIDE` groups, else three
+    stacked tables of the ``n`` cuts, whose headings, "Group" and "Cut" labels are written here."""
+    if m <= GROUPS_SIDE_BY_SIDE:
+        return 2 + m, 2 + 2 * m, 0, 0, names_row
+    d_rate = n + 3              # heading and header rows, then the cuts, then a blank row
+    d_ratio = 2 * n + 7         # the rates' table, then a heading, the names and the header rows
+    ratio_names = head + d_ratio - 1
+    g.set(head + d_rate - 1, 1, f"{t.demographic.header}: the pass rate of each group at each cut", "heading")
+    g.set(ratio_names - 1, 1, f"{t.demographic.header}: the impact ratio of each group at each cut (against "
+                              "the reference group)", "heading")
+    g.set(ratio_names, 1, "Group")
+    for shift in (d_rate, d_ratio):
+        g.set(head + shift, 1, "Cut", "header")
+    return 2, 2, d_rate, d_ratio, ratio_names
 
 
 #: What a cut's ratio cell shows when the reference group has nobody passing (the ratio is not defined).
