@@ -6,6 +6,8 @@ a chart of the lowest impact ratio against the cut with the 0.80 line.
 Each demographic column's block is two stacked tables of the same cuts, so that each prints across a landscape
 page (issue 20): the groups' passing counts, pass rates and impact ratios; under it the lowest ratio of each cut
 (Impact's ``LOWEST`` rule, so an error among the ratios passes on) with its group and that comparison's figures.
+A column of more than :data:`GROUPS_SIDE_BY_SIDE` groups has the first table split by figure instead: the passing
+counts, the pass rates and the impact ratios stacked, one group per column, each row's formulas as before.
 """
 
 from __future__ import annotations
@@ -25,11 +27,16 @@ from .bands import BandsLayout
 from .impact import LOWEST, SHEET as IMPACT_SHEET, Impact, ImpactTable
 from .setup import SetupSheet
 
-__all__ = ["Cuts", "write", "SHEET", "MAX_CUTS"]
+__all__ = ["Cuts", "write", "SHEET", "MAX_CUTS", "GROUPS_SIDE_BY_SIDE"]
 
 SHEET = "Cuts"
 #: Cut rows at most; with more distinct scores, evenly spaced distinct scores are shown (said on the sheet).
 MAX_CUTS = 150
+#: Groups at most whose passing counts, rates and ratios stand side by side in one table; a column with more groups
+#: (a race/ethnicity column commonly has 5 to 7) gets three stacked tables of the same cuts, the passing counts, the
+#: pass rates and the impact ratios, each one group wide per column, so that each prints across a landscape page at
+#: 70% (issue 20). Each figure keeps its formula: the counts of a cut stay in one row, as the ratios do.
+GROUPS_SIDE_BY_SIDE = 4
 
 
 @dataclasses.dataclass(frozen=True)
@@ -101,7 +108,8 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
     index = {name: counts.groups.index(name) for name in order}
     applicants = {name: t.counts[name][1] for name in order}
     names_row, app_row, head = row + 1, row + 2, row + 3
-    c_pass, c_rate, c_ratio = 2, 2 + m, 2 + 2 * m
+    c_pass = 2
+    c_rate, c_ratio, d_rate, d_ratio, ratio_names = _stacked(g, t, m, names_row, head, len(cuts))
     c_low = 2   # the second table's (under the first): the lowest ratio of each cut and its comparison
     g.set(row, 1, f"{t.demographic.header}", "heading")
     g.set(row, 2, "Reference group (the Impact sheet's cell)")
@@ -115,17 +123,18 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
     apps = {}
     for j, name in enumerate(order):
         g.set(names_row, c_pass + j, name)
-        g.set(names_row, c_ratio + j, name)
+        g.set(ratio_names, c_ratio + j, name)
         impact_row = t.first + t.names.index(name)
         # fixed ($B$17): every cut's row divides by the same applicants, so a row's formulas have one shape
         apps[name] = ctx.link(g, app_row, c_pass + j, cell(IMPACT_SHEET, impact_row, 2, value=applicants[name]),
                               style="count").fixed()
         g.set(head, c_pass + j, f"Passing: {name}", "header")
-        g.set(head, c_rate + j, f"Pass rate: {name}", "header")
-        g.set(head, c_ratio + j, f"Impact ratio: {name}", "header")
+        g.set(head + d_rate, c_rate + j, f"Pass rate: {name}", "header")
+        g.set(head + d_ratio, c_ratio + j, f"Impact ratio: {name}", "header")
     g.set(head, 1, "Cut", "header")
     first = head + 1
     last = first + len(cuts) - 1
+    last += d_ratio
     # the second table, of the same cuts, under the first: one table of both would be wider than a landscape page
     # at 70% (issue 20)
     g.set(last + 2, 1, f"{t.demographic.header}: the lowest impact ratio at each cut, and its comparison",
@@ -147,18 +156,21 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
         r, rb = first + i, head_b + 1 + i
         cut_ref = ctx.put(g, r, 1, float(cut), lambda v=float(cut): v, style="score")
         ctx.link(g, rb, 1, cut_ref, style="score")
+        for shift in sorted({d_rate, d_ratio} - {0}):
+            ctx.link(g, r + shift, 1, cut_ref, style="score")
         passing = {}
         for j, name in enumerate(order):
             passing[name] = ctx.expression(
                 g, r, c_pass + j, 'COUNTIFS({groups},{number},{scores},">="&{cut})',
                 lambda v=int(counts.passing[i, index[name]]): v, style="count", groups=t.numbers,
                 number=t.demographic.numbers[name], scores=bands.scores, cut=cut_ref)
-            ctx.formula(g, r, c_rate + j, "SELECTION_RATE", passing[name], apps[name], style="coef")
+            ctx.formula(g, r + d_rate, c_rate + j, "SELECTION_RATE", passing[name], apps[name], style="coef")
         row_of = _RowOf(ctx, area(SHEET, c_pass, r, c_pass + m - 1, r), app_area)
         reference = (row_of.at(ref_at, passing[t.reference].value), row_of.at_app(ref_at, applicants[t.reference]))
-        ratios = [_ratio(ctx, g, r, c_ratio + j, name, t, passing, apps, reference, names_row)
+        ratios = [_ratio(ctx, g, r + d_ratio, c_ratio + j, name, t, passing, apps, reference, ratio_names)
                   for j, name in enumerate(order)]
-        _lowest(ctx, g, r, rb, c_low, order, ratios, passing, apps, reference, row_of, names_row, c_ratio, setup)
+        _lowest(ctx, g, r + d_ratio, rb, c_low, order, ratios, passing, apps, reference, row_of, ratio_names,
+                c_ratio, setup)
         if with_criterion:
             share = float((d.scores[~np.isnan(d.scores)] >= cut).mean())
             sr = ctx.expression(g, rb, c_low + len(tail) - 2, 'COUNTIF({scores},">="&{cut})/COUNT({scores})',
@@ -170,6 +182,24 @@ def _table(ctx: StudyContext, g, row: int, t: ImpactTable, cuts: np.ndarray, ban
     series.marker.symbol = "circle"
     series.marker.size = 4
     return last_b + 2, series
+
+
+def _stacked(g, t: ImpactTable, m: int, names_row: int, head: int, n: int) -> tuple[int, int, int, int, int]:
+    """(the rates' first column, the ratios' first column, the rates' and the ratios' row shift under the counts'
+    table, the ratios' names row): side by side (shifts 0) up to :data:`GROUPS_SIDE_BY_SIDE` groups, else three
+    stacked tables of the ``n`` cuts, whose headings, "Group" and "Cut" labels are written here."""
+    if m <= GROUPS_SIDE_BY_SIDE:
+        return 2 + m, 2 + 2 * m, 0, 0, names_row
+    d_rate = n + 3              # heading and header rows, then the cuts, then a blank row
+    d_ratio = 2 * n + 7         # the rates' table, then a heading, the names and the header rows
+    ratio_names = head + d_ratio - 1
+    g.set(head + d_rate - 1, 1, f"{t.demographic.header}: the pass rate of each group at each cut", "heading")
+    g.set(ratio_names - 1, 1, f"{t.demographic.header}: the impact ratio of each group at each cut (against "
+                              "the reference group)", "heading")
+    g.set(ratio_names, 1, "Group")
+    for shift in (d_rate, d_ratio):
+        g.set(head + shift, 1, "Cut", "header")
+    return 2, 2, d_rate, d_ratio, ratio_names
 
 
 #: What a cut's ratio cell shows when the reference group has nobody passing (the ratio is not defined).
