@@ -22,6 +22,8 @@ That fast path exists now (``bridge/engine/criteria.py``); with it and the study
 character references, 5,000 impact went from 22.8 s to 15.2 s of processor time and 50,000 impact measured
 67 s, 806 MB with the final code (bench/README.md, 2026-12-05): still over the target. After main's merge the
 impact study writes 869,702 formulas at 50,000 (629,473 before) and measured 79 s, 860 MB (bench/README.md).
+At the end of 2026-12-05, with fewer per-applicant formulas (595,064) and the build's and engine's fast paths:
+60.7 s of processor time, 900 MB (bench/README.md): at the target, within this machine's noise.
 The build's own speed-ups (the binder memoised by formula shape, the long sheets' rows from templates, the
 intermediate package at zlib level 1, the column reader's inline-string pass) are measured against themselves
 switched off by ``bench_study_build.py`` (bench/README.md, 2026-12-05, build side).
