@@ -161,7 +161,7 @@ def test_libreoffice_shows_and_recomputes_the_keyed_sheets(study, tmp_path, soff
     # on loading, Calc's own IF/UPPER/TRIM scoring and the answer links give the stored values too
     from openpyxl.utils import get_column_letter
 
-    from test_study_libreoffice import CSV_FILTER, RECALC_ALWAYS, convert, mismatched_cells, read_csv, same, shown
+    from test_study_libreoffice import CSV_FILTER, convert, mismatched_cells, read_csv, recalc_to_csv, same, shown
 
     result, values, formulas = study
     sheets = ("Options", "Answers", "Scored items")
@@ -172,9 +172,7 @@ def test_libreoffice_shows_and_recomputes_the_keyed_sheets(study, tmp_path, soff
     folder = tmp_path / "again"
     folder.mkdir()
     profile = folder / "profile"
-    (profile / "user").mkdir(parents=True)
-    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
-    convert(soffice, result.path, CSV_FILTER, folder / "csv", profile)
+    recalc_to_csv(soffice, result.path, folder / "csv", profile)
     wrong, count = [], 0
     for sheet in ("Answers", "Scored items"):  # standard functions only: Calc recomputes them itself
         rows = read_csv(folder, sheet)

@@ -373,7 +373,7 @@ def test_libreoffice_shows_and_recomputes_the_new_sheets(study, tmp_path, soffic
     from openpyxl.formula import Tokenizer
     from openpyxl.utils import get_column_letter, range_boundaries
 
-    from test_study_libreoffice import CSV_FILTER, RECALC_ALWAYS, convert, mismatched_cells, read_csv, same, shown
+    from test_study_libreoffice import CSV_FILTER, convert, mismatched_cells, read_csv, recalc_to_csv, same, shown
     from trueband.funcs import REGISTRY
     from trueband.funcs.registry import normalize_name
 
@@ -386,9 +386,7 @@ def test_libreoffice_shows_and_recomputes_the_new_sheets(study, tmp_path, soffic
     folder = tmp_path / "again"
     folder.mkdir()
     profile = folder / "profile"
-    (profile / "user").mkdir(parents=True)
-    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
-    convert(soffice, result.path, CSV_FILTER, folder / "csv", profile)
+    recalc_to_csv(soffice, result.path, folder / "csv", profile)
     memo: dict = {}
 
     def uses_ours(sheet: str, coordinate: str) -> bool:

@@ -72,13 +72,11 @@ def test_an_error_in_a_ratio_reaches_the_lowest_ratio_with_trueband(broken):
 
 @pytest.mark.slow
 def test_an_error_in_a_ratio_reaches_the_lowest_ratio_in_libreoffice(broken, soffice):
-    from test_study_libreoffice import CSV_FILTER, RECALC_ALWAYS, convert, read_csv, shown
+    from test_study_libreoffice import read_csv, recalc_to_csv, shown
 
     path, (r, rb), (columns, low), folder = broken
     profile = folder / "profile"
-    (profile / "user").mkdir(parents=True, exist_ok=True)
-    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
-    convert(soffice, path, CSV_FILTER, folder / "csv", profile)
+    recalc_to_csv(soffice, path, folder / "csv", profile)
     rows = read_csv(folder, "Cuts")
     assert shown(rows, r, columns["Impact ratio: Women"]) == "#DIV/0!"
     # LibreOffice computes the lowest-ratio rule itself (standard functions only): the error, not the words
@@ -158,13 +156,11 @@ def test_strata_too_large_for_the_exact_test_say_why_live(large_strata, tmp_path
 @pytest.mark.slow
 def test_strata_too_large_say_why_in_libreoffice(large_strata, soffice):
     # LibreOffice computes the guard and the count itself (SUMPRODUCT, ABS, TEXT: standard functions)
-    from test_study_libreoffice import CSV_FILTER, RECALC_ALWAYS, convert, read_csv, shown
+    from test_study_libreoffice import read_csv, recalc_to_csv, shown
 
     path, exact, large, folder = large_strata
     profile = folder / "profile"
-    (profile / "user").mkdir(parents=True, exist_ok=True)
-    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
-    convert(soffice, path, CSV_FILTER, folder / "csv", profile)
+    recalc_to_csv(soffice, path, folder / "csv", profile)
     ours = load_workbook(path, data_only=True)["Strata"].cell(exact, 2).value
     assert f"{_exact_tables(large):,} possible tables" in ours
     assert shown(read_csv(folder, "Strata"), exact, 2) == ours

@@ -143,13 +143,11 @@ def test_libreoffice_recomputes_the_six_groups_cuts_alike(wide, soffice):
     # no trueband functions (#NAME? there and in the cells reading them), so those are left out
     from types import SimpleNamespace
 
-    from test_study_libreoffice import CSV_FILTER, RECALC_ALWAYS, convert, mismatched_cells
+    from test_study_libreoffice import mismatched_cells, recalc_to_csv
 
     path, _, _, folder = wide
     profile = folder / "recalc-profile"
-    (profile / "user").mkdir(parents=True, exist_ok=True)
-    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
-    convert(soffice, path, CSV_FILTER, folder / "csv", profile)
+    recalc_to_csv(soffice, path, folder / "csv", profile)
     _, mismatches = mismatched_cells(SimpleNamespace(path=path), folder, ("Cuts",))
     wrong = [m for m in mismatches if "_xludf." not in m[2] and m[4] != "#NAME?"]
     assert not wrong, wrong[:10]

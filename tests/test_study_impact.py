@@ -365,15 +365,13 @@ def libreoffice_mismatches(soffice, book, sheets, folder):
     (LibreOffice cannot compute them). Returns (cells compared per sheet, mismatches)."""
     from openpyxl.formula import Tokenizer
 
-    from test_study_libreoffice import CSV_FILTER, RECALC_ALWAYS, convert, read_csv, same
+    from test_study_libreoffice import read_csv, recalc_to_csv, same
     from test_study_libreoffice import shown as shown_csv
     from trueband.funcs import REGISTRY
     from trueband.funcs.registry import normalize_name
 
     profile = folder / "profile"
-    (profile / "user").mkdir(parents=True)
-    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
-    convert(soffice, book, CSV_FILTER, folder / "csv", profile)
+    recalc_to_csv(soffice, book, folder / "csv", profile)
     formulas = load_workbook(book, data_only=False)
     values = load_workbook(book, data_only=True)
     csv_rows = {}

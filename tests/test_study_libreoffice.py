@@ -114,6 +114,14 @@ RECALC_ALWAYS = """<?xml version="1.0" encoding="UTF-8"?>
 """
 
 
+def recalc_to_csv(soffice: str, book: Path, outdir: Path, profile: Path):
+    """Every sheet of ``book`` as CSV in ``outdir``, LibreOffice recomputing every formula on loading (a private
+    ``profile`` holding RECALC_ALWAYS)."""
+    (profile / "user").mkdir(parents=True, exist_ok=True)
+    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
+    convert(soffice, book, CSV_FILTER, outdir, profile)
+
+
 def recomputed_mismatches(soffice: str, book: Path, sheets, folder: Path, close=None):
     """LibreOffice's own recomputation of the standard formulas of ``sheets`` against the stored values.
 
@@ -128,9 +136,7 @@ def recomputed_mismatches(soffice: str, book: Path, sheets, folder: Path, close=
     from trueband.funcs.registry import normalize_name
 
     profile = folder / "profile"
-    (profile / "user").mkdir(parents=True)
-    (profile / "user" / "registrymodifications.xcu").write_text(RECALC_ALWAYS, encoding="utf-8")
-    convert(soffice, book, CSV_FILTER, folder / "csv", profile)
+    recalc_to_csv(soffice, book, folder / "csv", profile)
 
     def ours(text: str) -> bool:
         names = {normalize_name(t.value.rstrip("(")) for t in Tokenizer(text).items
